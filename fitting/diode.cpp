@@ -26,11 +26,17 @@ namespace {
 bool has_shunt(const DiodeParams& p) { return std::isfinite(p.rsh_ohm); }
 
 // Junction voltage for a junction current split between the diode and Rsh:
-// Is·(e^(Vj/nVt) − 1) + Vj/Rsh = i. Solved with W, in log form for range.
+// Is·(e^(Vj/nVt) − 1) + Vj/Rsh = i. With c = Is·Rsh/nVt and a = (i + Is)·Rsh/nVt
+// the solution is Vj = nVt·(a − W(c·e^a)). Because W + ln W = ln c + a, that
+// difference equals ln(W/c): the log form avoids subtracting two numbers of
+// size a (about 4e4 at 1 mA into 1 MΩ), which would lose digits.
 double junction_voltage_with_shunt_v(const DiodeParams& p, double i_a, double nvt) {
+  const double log_c = std::log(p.is_a * p.rsh_ohm / nvt);
   const double a = (i_a + p.is_a) * p.rsh_ohm / nvt;
-  const double log_arg = std::log(p.is_a * p.rsh_ohm / nvt) + a;
-  return nvt * (a - lambert_w0_of_exp(log_arg));
+  const double x = log_c + a;
+  // Deep reverse bias: W(e^x) ≈ e^x, whose log would underflow; a − W is exact enough.
+  if (x < -30.0) return nvt * (a - std::exp(x));
+  return nvt * (std::log(lambert_w0_of_exp(x)) - log_c);
 }
 
 }  // namespace

@@ -72,11 +72,24 @@ struct FitResult {
   std::vector<std::string> warnings;
   int iterations = 0;
   double temp_k = 0.0;
+  // Added by the fit engine (additive): see docs/fitting.md.
+  double reduced_chi2 = std::numeric_limits<double>::quiet_NaN();  // 2·cost/(points_used − parameters)
+  std::vector<std::vector<double>> covariance;  // of parameter_names, SI units, already scaled by reduced_chi2
+  DiodeParams initial;                          // the estimate the solver started from
 
   bool usable() const { return status == FitStatus::converged; }
   DiodeParams params() const { return {is_a.value, n.value, rs_ohm.value, rsh_ohm.value == rsh_ohm.value ? rsh_ohm.value : std::numeric_limits<double>::infinity()}; }
 };
 
 FitResult fit_forward(std::span<const IvPoint> points, const FitOptions& options = {});
+
+// Standard uncertainties implied by the accuracy model. The figures are read
+// as limits of a rectangular distribution, so u = (rel·|x| + abs)/√3 (GUM 4.3.7).
+double standard_uncertainty_v(const AccuracyModel& accuracy, double v);
+double standard_uncertainty_i(const AccuracyModel& accuracy, double i_a);
+
+// Standard uncertainty of one point's residual (in volts) for parameters p:
+// sqrt(u_V² + (dV/dI·u_I)²), the effective-variance weight used by the fit.
+double residual_sigma_v(const DiodeParams& p, const IvPoint& point, const AccuracyModel& accuracy, double temp_k);
 
 }  // namespace junco::fitting
