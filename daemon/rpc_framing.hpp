@@ -1,0 +1,106 @@
+// JSON-RPC 2.0 over newline-delimited lines: the pure half of the socket
+// server. No I/O here, so every odd input can be tested from a table and fed
+// to a fuzzer.
+//
+//   bytes ──LineFramer──▶ lines (or "too long") ──parse_line──▶ Parsed
+//                                                                 │
+//   Parsed = one Request, a batch of Requests, or an error reply  ▼
+//            that must be sent as is (parse error, invalid request).
+//
+// Rules (JSON-RPC 2.0, https://www.jsonrpc.org/specification):
+//  - a request is an object with "jsonrpc":"2.0", a string "method", optional
+//    "params" (object or array; we accept only objects, an absent params is
+//    {}), optional "id" (string, number or null). No "id" = notification:
+//    it is executed but gets no reply.
+//  - invalid JSON → -32700 with id null; valid JSON that is not a request →
+//    -32600 (with the request's id when it had a usable one).
+//  - a batch (array) is answered by an array of the replies, notifications
+//    omitted; an empty array is one -32600 error; a batch with only
+//    notifications gets no reply at all.
+#pragma once
+
+#include "daemon/service.hpp"
+
+#include <unistd.h>  // geteuid
+
+#include <cstddef>
+#include <cstdlib>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+namespace junco::daemon::rpc {
+
+// Longest accepted line, newline excluded. Big enough for any plan or export
+// request by orders of magnitude; bounds a connection's memory.
+inline constexpr std::size_t default_max_line_bytes = 1u << 20;  // 1 MiB
+// Longest accepted batch; each element costs a Service call.
+inline constexpr std::size_t max_batch_size = 256;
+
+// Splits a byte stream into lines. A line longer than the limit is reported
+// once (LineKind::too_long) and the rest of it, up to the next newline, is
+// discarded, so the connection can carry on with the next message.
+class LineFramer {
+ public:
+  explicit LineFramer(std::size_t max_line_bytes = default_max_line_bytes) : max_(max_line_bytes) {}
+
+  enum class LineKind { line, too_long };
+  struct Line {
+    LineKind kind;
+    std::string text;  // without the "\n" (and without a trailing "\r")
+  };
+
+  // Appends bytes and returns every complete line (or overflow notice) now available.
+  std::vector<Line> feed(std::string_view bytes);
+  // Bytes buffered for an incomplete line (0 while discarding an overlong one).
+  std::size_t pending_bytes() const { return buffer_.size(); }
+
+ private:
+  std::size_t max_;
+  std::string buffer_;
+  bool discarding_ = false;  // inside an overlong line, waiting for its newline
+};
+
+struct Request {
+  Json id;                  // the request's id (null for notifications)
+  bool notification = false;  // no "id" member: execute, send no reply
+  std::string method;
+  Json params = Json::object();
+};
+
+// A request, or a ready-made error reply when the item was not one.
+struct Item {
+  std::optional<Request> request;
+  Json error_reply;  // set when !request
+};
+
+struct Parsed {
+  bool batch = false;
+  std::vector<Item> items;  // one for a single message; may be empty only for an empty line
+};
+
+// The socket path the daemon and its clients use when none is given:
+// $JUNCO_SOCKET, else /run/junco/juncod.sock for root, else
+// $XDG_RUNTIME_DIR/junco/juncod.sock, else /tmp/junco-UID/juncod.sock.
+// Inline so the CLI shares the convention without linking the daemon.
+inline std::string default_socket_path() {
+  if (const char* env = std::getenv("JUNCO_SOCKET"); env && *env) return env;
+  if (geteuid() == 0) return "/run/junco/juncod.sock";
+  if (const char* xdg = std::getenv("XDG_RUNTIME_DIR"); xdg && *xdg) return std::string(xdg) + "/junco/juncod.sock";
+  return "/tmp/junco-" + std::to_string(geteuid()) + "/juncod.sock";
+}
+
+// Parses one line. Never throws.
+Parsed parse_line(std::string_view line);
+
+// Reply and notification builders (objects; the caller serialises with dump()).
+Json make_result(const Json& id, Json result);
+Json make_error(const Json& id, RpcCode code, std::string_view message, const Json& data = nullptr);
+Json make_notification(std::string_view method, Json params);
+
+// Serialises a message as one line: compact JSON plus "\n". Invalid UTF-8 in
+// strings is replaced, never thrown on.
+std::string to_line(const Json& message);
+
+}  // namespace junco::daemon::rpc

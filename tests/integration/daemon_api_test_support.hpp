@@ -1,0 +1,177 @@
+// Test helpers for the socket API: a scriptable fake Service (so the server
+// is tested without config, store or bench) and a raw line client that sends
+// exactly the bytes a test gives it.
+#pragma once
+
+#include "daemon/rpc_server.hpp"
+#include "daemon/service.hpp"
+
+#include <boost/asio/io_context.hpp>
+
+#include <poll.h>
+#include <sys/socket.h>
+#include <sys/un.h>
+#include <unistd.h>
+
+#include <atomic>
+#include <chrono>
+#include <cstring>
+#include <filesystem>
+#include <map>
+#include <mutex>
+#include <optional>
+#include <stdexcept>
+#include <string>
+#include <thread>
+#include <vector>
+
+namespace junco::test {
+
+using daemon::Json;
+
+class FakeBus : public daemon::EventBus {
+ public:
+  Token subscribe(std::function<void(const daemon::Event&)> callback) override {
+    std::lock_guard lock(mutex_);
+    subscribers_[++next_] = std::move(callback);
+    return next_;
+  }
+  void unsubscribe(Token token) override {
+    std::lock_guard lock(mutex_);
+    subscribers_.erase(token);
+  }
+  void publish(const daemon::Event& event) override {
+    std::lock_guard lock(mutex_);
+    for (auto& [token, callback] : subscribers_) callback(event);
+  }
+  std::size_t subscriber_count() {
+    std::lock_guard lock(mutex_);
+    return subscribers_.size();
+  }
+
+ private:
+  std::mutex mutex_;
+  std::map<Token, std::function<void(const daemon::Event&)>> subscribers_;
+  Token next_ = 0;
+};
+
+// Methods: daemon.status, test.echo {..} → params, test.caller → caller,
+// job.get {job_id:int} (only 1 exists), test.internal (throws a plain
+// exception), test.sleep {s}.
+class FakeService : public daemon::Service {
+ public:
+  Json call(std::string_view method, const Json& params, const daemon::Caller& caller) override {
+    ++calls;
+    if (method == "daemon.status") return Json{{"version", "test"}, {"uptime_s", 1.5}};
+    if (method == "test.echo") return params;
+    if (method == "test.caller") return Json{{"pid", caller.pid}, {"uid", caller.uid}, {"gid", caller.gid}};
+    if (method == "job.get") {
+      const int id = params.at("job_id").get<int>();  // wrong type → json exception → invalid_params
+      if (id != 1) throw daemon::RequestError(daemon::RpcCode::not_found, "no job with id " + std::to_string(id));
+      return Json{{"job_id", 1}, {"state", "running"}};
+    }
+    if (method == "test.internal") throw std::logic_error("deliberate bug");
+    if (method == "test.sleep") {
+      std::this_thread::sleep_for(std::chrono::duration<double>(params.value("s", 0.1)));
+      return Json{{"slept", true}};
+    }
+    throw daemon::RequestError(daemon::RpcCode::method_not_found, "unknown method '" + std::string(method) + "'");
+  }
+  daemon::EventBus& events() override { return bus; }
+  void shutdown() override { shut = true; }
+
+  FakeBus bus;
+  std::atomic<int> calls{0};
+  std::atomic<bool> shut{false};
+};
+
+// A fresh scratch directory under /tmp (short: sun_path is 108 bytes).
+inline std::filesystem::path scratch_dir(const std::string& tag) {
+  auto base = std::filesystem::temp_directory_path() / ("junco-" + tag + "-" + std::to_string(::getpid()) + "-" +
+                                                         std::to_string(std::chrono::steady_clock::now().time_since_epoch().count() % 1000000));
+  std::filesystem::remove_all(base);
+  std::filesystem::create_directories(base);
+  return base;
+}
+
+// A server on its own io_context with `threads` threads, stopped in the destructor.
+struct RunningServer {
+  RunningServer(daemon::Service& service, daemon::ServerOptions options, int threads = 2)
+      : server(io, service, std::move(options)) {
+    server.start();
+    for (int i = 0; i < threads; ++i) pool.emplace_back([this] { io.run(); });
+  }
+  ~RunningServer() {
+    server.stop();
+    work.reset();
+    io.stop();
+    for (auto& t : pool) t.join();
+  }
+  boost::asio::io_context io;
+  std::optional<boost::asio::executor_work_guard<boost::asio::io_context::executor_type>> work{io.get_executor()};
+  daemon::RpcServer server;
+  std::vector<std::thread> pool;
+};
+
+// Blocking client speaking raw lines; every read has a deadline.
+class LineClient {
+ public:
+  explicit LineClient(const std::string& path) {
+    fd_ = ::socket(AF_UNIX, SOCK_STREAM | SOCK_CLOEXEC, 0);
+    sockaddr_un addr{};
+    addr.sun_family = AF_UNIX;
+    std::strncpy(addr.sun_path, path.c_str(), sizeof addr.sun_path - 1);
+    if (::connect(fd_, reinterpret_cast<sockaddr*>(&addr), sizeof addr) != 0) {
+      const int err = errno;
+      ::close(fd_);
+      throw std::runtime_error("connect " + path + ": " + std::strerror(err));
+    }
+  }
+  ~LineClient() { ::close(fd_); }
+  LineClient(const LineClient&) = delete;
+  LineClient& operator=(const LineClient&) = delete;
+
+  void send_raw(const std::string& bytes) {
+    std::size_t done = 0;
+    while (done < bytes.size()) {
+      const auto n = ::send(fd_, bytes.data() + done, bytes.size() - done, MSG_NOSIGNAL);
+      if (n <= 0) throw std::runtime_error("send failed");
+      done += static_cast<std::size_t>(n);
+    }
+  }
+  // Next line, or nullopt on timeout / end of stream.
+  std::optional<std::string> read_line(std::chrono::milliseconds timeout = std::chrono::milliseconds(3000)) {
+    const auto deadline = std::chrono::steady_clock::now() + timeout;
+    for (;;) {
+      if (const auto nl = buf_.find('\n'); nl != std::string::npos) {
+        auto line = buf_.substr(0, nl);
+        buf_.erase(0, nl + 1);
+        return line;
+      }
+      const auto left = std::chrono::duration_cast<std::chrono::milliseconds>(deadline - std::chrono::steady_clock::now());
+      if (left.count() <= 0) return std::nullopt;
+      pollfd p{fd_, POLLIN, 0};
+      if (::poll(&p, 1, static_cast<int>(left.count())) <= 0) return std::nullopt;
+      char chunk[65536];
+      const auto n = ::recv(fd_, chunk, sizeof chunk, 0);
+      if (n <= 0) return std::nullopt;
+      buf_.append(chunk, static_cast<std::size_t>(n));
+    }
+  }
+  Json read_json(std::chrono::milliseconds timeout = std::chrono::milliseconds(3000)) {
+    auto line = read_line(timeout);
+    if (!line) throw std::runtime_error("no reply within timeout");
+    return Json::parse(*line);
+  }
+  Json request(const std::string& method, Json params = Json::object(), int id = 1) {
+    send_raw(Json{{"jsonrpc", "2.0"}, {"id", id}, {"method", method}, {"params", std::move(params)}}.dump() + "\n");
+    return read_json();
+  }
+  int fd() const { return fd_; }
+
+ private:
+  int fd_ = -1;
+  std::string buf_;
+};
+
+}  // namespace junco::test
