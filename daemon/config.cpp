@@ -1,0 +1,245 @@
+#include "daemon/config.hpp"
+
+#include <cmath>
+#include <cstdlib>
+#include <fstream>
+#include <set>
+#include <sstream>
+#include <unistd.h>  // geteuid
+
+namespace junco::daemon {
+
+using Json = nlohmann::json;
+namespace fs = std::filesystem;
+
+namespace {
+
+// Carries the file name so every check can name file + pointer.
+class Checker {
+ public:
+  explicit Checker(std::string file) : file_(std::move(file)) {}
+
+  [[noreturn]] void fail(const std::string& pointer, const std::string& problem) const {
+    throw ConfigError(file_, pointer, problem);
+  }
+
+  const Json& object(const Json& parent, const std::string& key, const std::string& pointer) const {
+    const Json& v = parent.at(key);
+    if (!v.is_object()) fail(pointer, std::string("must be an object, not ") + v.type_name());
+    return v;
+  }
+
+  // Rejects keys we do not know, so a typo ("max_suply_v") is not silently ignored.
+  void only_keys(const Json& obj, const std::string& pointer, std::initializer_list<const char*> keys) const {
+    std::set<std::string> known(keys.begin(), keys.end());
+    for (const auto& [k, v] : obj.items()) {
+      (void)v;
+      if (!known.count(k)) fail(pointer + "/" + k, "unknown key");
+    }
+  }
+
+  double number(const Json& obj, const std::string& key, const std::string& pointer, double fallback, bool required,
+                double min_exclusive, bool allow_equal_min) const {
+    const std::string p = pointer + "/" + key;
+    if (!obj.contains(key)) {
+      if (required) fail(p, "missing (required)");
+      return fallback;
+    }
+    const Json& v = obj.at(key);
+    if (!v.is_number()) fail(p, std::string("must be a number, not ") + v.type_name());
+    const double x = v.get<double>();
+    if (!std::isfinite(x)) fail(p, "must be finite");
+    if (allow_equal_min ? x < min_exclusive : x <= min_exclusive) {
+      std::ostringstream os;
+      os << "must be " << (allow_equal_min ? ">= " : "> ") << min_exclusive << ", got " << x;
+      fail(p, os.str());
+    }
+    return x;
+  }
+
+  std::string string(const Json& obj, const std::string& key, const std::string& pointer, const std::string& fallback,
+                     bool required) const {
+    const std::string p = pointer + "/" + key;
+    if (!obj.contains(key)) {
+      if (required) fail(p, "missing (required)");
+      return fallback;
+    }
+    const Json& v = obj.at(key);
+    if (!v.is_string()) fail(p, std::string("must be a string, not ") + v.type_name());
+    return v.get<std::string>();
+  }
+
+  int integer(const Json& obj, const std::string& key, const std::string& pointer, int fallback, int min, int max) const {
+    const std::string p = pointer + "/" + key;
+    if (!obj.contains(key)) return fallback;
+    const Json& v = obj.at(key);
+    if (!v.is_number_integer()) fail(p, std::string("must be an integer, not ") + v.type_name());
+    const auto x = v.get<long long>();
+    if (x < min || x > max) fail(p, "must be in " + std::to_string(min) + ".." + std::to_string(max) + ", got " + std::to_string(x));
+    return static_cast<int>(x);
+  }
+
+ private:
+  std::string file_;
+};
+
+const char* const kRoles[] = {"source", "meter", "scanner", "siggen", "levelmeter"};
+const char* const kRequiredRoles[] = {"source", "meter", "scanner"};
+
+fs::path resolve(const fs::path& p, const fs::path& dir) { return p.is_absolute() ? p : (dir / p).lexically_normal(); }
+
+InstrumentConfig parse_instrument(const Checker& c, const Json& obj, const std::string& role, const std::string& pointer,
+                                  const fs::path& dir) {
+  c.only_keys(obj, pointer, {"address", "dialect", "reply_timeout_ms", "max_retries"});
+  InstrumentConfig ic;
+  ic.role = role;
+  ic.address = c.string(obj, "address", pointer, "", true);
+  if (ic.address.empty()) c.fail(pointer + "/address", "must not be empty");
+  const std::string dialect = c.string(obj, "dialect", pointer, "", true);
+  auto found = find_dialect(dialect, dir);
+  if (!found) c.fail(pointer + "/dialect", "dialect \"" + dialect + "\" not found");
+  ic.dialect_path = *found;
+  ic.reply_timeout_ms = c.integer(obj, "reply_timeout_ms", pointer, 2000, 1, 600000);
+  ic.max_retries = c.integer(obj, "max_retries", pointer, 2, 0, 20);
+  return ic;
+}
+
+FixtureConfig parse_fixture(const Checker& c, const Json& obj) {
+  const std::string p = "/fixture";
+  c.only_keys(obj, p, {"bias_resistor_ohm", "dc_return_ohm", "source_ohm", "load_ohm", "slots", "current_from"});
+  FixtureConfig f;
+  f.bias_resistor_ohm = c.number(obj, "bias_resistor_ohm", p, 0, true, 0, true);
+  f.dc_return_ohm = c.number(obj, "dc_return_ohm", p, 0, false, 0, true);
+  f.source_ohm = c.number(obj, "source_ohm", p, 50, false, 0, true);
+  f.load_ohm = c.number(obj, "load_ohm", p, 50, false, 0, false);
+  if (!obj.contains("slots")) c.fail(p + "/slots", "missing (required)");
+  f.slots = c.integer(obj, "slots", p, 1, 1, 256);
+  const std::string from = c.string(obj, "current_from", p, "source", false);
+  if (from == "source") f.current_from = CurrentFrom::source;
+  else if (from == "meter") f.current_from = CurrentFrom::meter;
+  else c.fail(p + "/current_from", "must be \"source\" or \"meter\", got \"" + from + "\"");
+  return f;
+}
+
+SafetyLimits parse_safety(const Checker& c, const Json& obj) {
+  const std::string p = "/safety";
+  c.only_keys(obj, p, {"max_supply_v", "current_limit_a", "max_power_w", "max_reverse_v", "max_job_s"});
+  // Every limit is required: a bench without stated limits is not safe to run.
+  SafetyLimits s;
+  s.max_supply_v = c.number(obj, "max_supply_v", p, 0, true, 0, false);
+  s.current_limit_a = c.number(obj, "current_limit_a", p, 0, true, 0, false);
+  s.max_power_w = c.number(obj, "max_power_w", p, 0, true, 0, false);
+  s.max_reverse_v = c.number(obj, "max_reverse_v", p, 0, true, 0, true);
+  s.max_job_s = c.number(obj, "max_job_s", p, 0, true, 0, false);
+  if (s.max_reverse_v > s.max_supply_v) {
+    std::ostringstream os;
+    os << "must not exceed max_supply_v = " << s.max_supply_v << " V, got " << s.max_reverse_v << " V";
+    c.fail(p + "/max_reverse_v", os.str());
+  }
+  return s;
+}
+
+}  // namespace
+
+const char* to_string(CurrentFrom from) { return from == CurrentFrom::source ? "source" : "meter"; }
+
+PathsConfig default_paths() {
+  PathsConfig p;
+  if (::geteuid() == 0) {
+    p.database = "/var/lib/junco/junco.db";
+    p.socket = "/run/junco/juncod.sock";
+    return p;
+  }
+  const char* home = std::getenv("HOME");
+  const char* state = std::getenv("XDG_STATE_HOME");
+  fs::path state_dir = (state && *state) ? fs::path(state) : fs::path(home ? home : "/tmp") / ".local/state";
+  p.database = state_dir / "junco" / "junco.db";
+  const char* runtime = std::getenv("XDG_RUNTIME_DIR");
+  fs::path run_dir = (runtime && *runtime) ? fs::path(runtime) : state_dir;
+  p.socket = run_dir / "junco" / "juncod.sock";
+  return p;
+}
+
+std::optional<fs::path> find_dialect(const std::string& name, const fs::path& config_dir) {
+  if (name.empty()) return std::nullopt;
+  const bool bare = name.find('/') == std::string::npos && fs::path(name).extension() != ".json";
+  std::error_code ec;
+  if (!bare) {
+    fs::path p = resolve(name, config_dir);
+    if (fs::is_regular_file(p, ec)) return p;
+    return std::nullopt;
+  }
+  std::vector<fs::path> dirs;
+  if (const char* env = std::getenv("JUNCO_DIALECT_DIR"); env && *env) dirs.emplace_back(env);
+#ifdef JUNCO_INSTALLED_DIALECT_DIR
+  dirs.emplace_back(JUNCO_INSTALLED_DIALECT_DIR);
+#endif
+#ifdef JUNCO_SOURCE_DIALECT_DIR
+  dirs.emplace_back(JUNCO_SOURCE_DIALECT_DIR);
+#endif
+  for (const auto& d : dirs) {
+    fs::path p = d / (name + ".json");
+    if (fs::is_regular_file(p, ec)) return p;
+  }
+  return std::nullopt;
+}
+
+Config parse_config(const std::string& text, const fs::path& file) {
+  const Checker c(file.string());
+  Json doc;
+  try {
+    doc = Json::parse(text, nullptr, true, true);
+  } catch (const Json::parse_error& e) {
+    // nlohmann's message carries line and column; drop its "[json.exception...]" prefix.
+    std::string what = e.what();
+    if (auto pos = what.find("] "); pos != std::string::npos) what = what.substr(pos + 2);
+    c.fail("", "not valid JSON: " + what);
+  }
+  if (!doc.is_object()) c.fail("", std::string("must be an object, not ") + doc.type_name());
+  c.only_keys(doc, "", {"bench", "fixture", "safety", "paths"});
+
+  Config cfg;
+  cfg.file = file;
+  cfg.raw = doc;
+  const fs::path dir = file.has_parent_path() ? file.parent_path() : fs::current_path();
+
+  if (!doc.contains("bench")) c.fail("/bench", "missing (required)");
+  const Json& bench = c.object(doc, "bench", "/bench");
+  for (const auto& [role, obj] : bench.items()) {
+    const std::string p = "/bench/" + role;
+    bool known = false;
+    for (const char* r : kRoles) known = known || role == r;
+    if (!known) c.fail(p, "unknown role (expected source, meter, scanner, siggen or levelmeter)");
+    if (!obj.is_object()) c.fail(p, std::string("must be an object, not ") + obj.type_name());
+    cfg.bench[role] = parse_instrument(c, obj, role, p, dir);
+  }
+  for (const char* r : kRequiredRoles)
+    if (!cfg.bench.count(r)) c.fail(std::string("/bench/") + r, "missing (required)");
+
+  if (!doc.contains("fixture")) c.fail("/fixture", "missing (required)");
+  cfg.fixture = parse_fixture(c, c.object(doc, "fixture", "/fixture"));
+  if (!doc.contains("safety")) c.fail("/safety", "missing (required)");
+  cfg.safety = parse_safety(c, c.object(doc, "safety", "/safety"));
+
+  cfg.paths = default_paths();
+  if (doc.contains("paths")) {
+    const Json& paths = c.object(doc, "paths", "/paths");
+    c.only_keys(paths, "/paths", {"database", "socket", "socket_group"});
+    if (paths.contains("database")) cfg.paths.database = resolve(c.string(paths, "database", "/paths", "", true), dir);
+    if (paths.contains("socket")) cfg.paths.socket = resolve(c.string(paths, "socket", "/paths", "", true), dir);
+    cfg.paths.socket_group = c.string(paths, "socket_group", "/paths", "", false);
+    if (cfg.paths.database.empty() || paths.value("database", "x").empty()) c.fail("/paths/database", "must not be empty");
+    if (paths.value("socket", "x").empty()) c.fail("/paths/socket", "must not be empty");
+  }
+  return cfg;
+}
+
+Config load_config(const fs::path& file) {
+  std::ifstream in(file, std::ios::binary);
+  if (!in) throw ConfigError(file.string(), "", "cannot read the file");
+  std::ostringstream ss;
+  ss << in.rdbuf();
+  return parse_config(ss.str(), file);
+}
+
+}  // namespace junco::daemon

@@ -1,0 +1,97 @@
+// juncod's configuration: one JSON file (comments allowed) describing the
+// bench, the fixture, the safety limits and where the daemon keeps its files.
+// load_config() validates everything up front; a bad file is refused with
+// ConfigError naming the file, the key (JSON pointer) and what is wrong.
+// File format: docs/daemon-core.md and tools/examples/bench.jsonc.
+#pragma once
+
+#include <nlohmann/json.hpp>
+
+#include <filesystem>
+#include <map>
+#include <optional>
+#include <stdexcept>
+#include <string>
+
+namespace junco::daemon {
+
+class ConfigError : public std::runtime_error {
+ public:
+  // what() is "<file>: <pointer>: <problem>".
+  ConfigError(const std::string& file, const std::string& pointer, const std::string& problem)
+      : std::runtime_error(file + ": " + (pointer.empty() ? "/" : pointer) + ": " + problem),
+        pointer_(pointer.empty() ? "/" : pointer) {}
+  const std::string& pointer() const { return pointer_; }
+
+ private:
+  std::string pointer_;
+};
+
+// One instrument of the bench. Roles: source, meter, scanner, siggen,
+// levelmeter (source, meter and scanner are required).
+struct InstrumentConfig {
+  std::string role;
+  std::string address;                // drivers/transport.hpp syntax
+  std::filesystem::path dialect_path; // resolved, existing file
+  int reply_timeout_ms = 2000;
+  int max_retries = 2;                // driver-level retries per operation
+};
+
+// Where the diode's voltage and current are read.
+enum class CurrentFrom { source, meter };
+
+struct FixtureConfig {
+  double bias_resistor_ohm = 0.0;  // supply → anode
+  double dc_return_ohm = 0.0;      // cathode → ground
+  double source_ohm = 50.0;        // signal generator source resistance
+  double load_ohm = 50.0;          // AC load on the cathode side
+  int slots = 1;                   // scanner slots, numbered from 1
+  CurrentFrom current_from = CurrentFrom::source;  // diode voltage always from the meter
+};
+
+// Hard limits of this bench; no plan may exceed them, the executor enforces them too.
+struct SafetyLimits {
+  double max_supply_v = 10.0;     // highest |voltage| ever programmed on the supply
+  double current_limit_a = 0.1;   // supply compliance programmed before output on
+  double max_power_w = 0.25;      // dissipation allowed in the part
+  double max_reverse_v = 5.0;     // highest reverse bias on the part
+  double max_job_s = 86400.0;     // a job running longer is stopped (outputs off, failed)
+};
+
+struct PathsConfig {
+  std::filesystem::path database;  // SQLite file; only juncod opens it
+  std::filesystem::path socket;    // Unix socket of the JSON-RPC server
+  std::string socket_group;        // group allowed to connect ("" = owner only)
+};
+
+struct Config {
+  std::filesystem::path file;  // where it was loaded from ("" when built in code)
+  std::map<std::string, InstrumentConfig> bench;  // by role
+  FixtureConfig fixture;
+  SafetyLimits safety;
+  PathsConfig paths;
+  nlohmann::json raw;  // the parsed document (for bench.describe)
+
+  const InstrumentConfig* instrument(const std::string& role) const {
+    auto it = bench.find(role);
+    return it == bench.end() ? nullptr : &it->second;
+  }
+};
+
+// Where the database and socket go when the config does not say: system
+// paths when running as root (a service), per-user XDG paths otherwise.
+PathsConfig default_paths();
+
+// Parses and validates; `file` is only used for messages and to resolve
+// relative paths (its directory). Throws ConfigError.
+Config parse_config(const std::string& text, const std::filesystem::path& file);
+Config load_config(const std::filesystem::path& file);
+
+// Finds a dialect given as a bare name ("scpi-source") or a path.
+// Search order for bare names: $JUNCO_DIALECT_DIR, the installed share dir,
+// the source tree's drivers/dialects. Returns nullopt when not found.
+std::optional<std::filesystem::path> find_dialect(const std::string& name, const std::filesystem::path& config_dir);
+
+const char* to_string(CurrentFrom from);
+
+}  // namespace junco::daemon

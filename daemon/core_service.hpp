@@ -1,0 +1,31 @@
+// The Service behind juncod's socket: config, store, job queue and the sweep
+// executor wired together. api's main.cpp calls make_service() once, serves
+// Service::call() from its sessions and calls shutdown() on SIGINT/SIGTERM.
+#pragma once
+
+#include "daemon/config.hpp"
+#include "daemon/service.hpp"
+
+#include <functional>
+#include <memory>
+#include <string_view>
+
+namespace junco::daemon {
+
+struct Bench;  // daemon/bench.hpp
+
+struct ServiceOptions {
+  // Opens the instruments. Default: from config.bench through drivers/factory.hpp.
+  // Tests pass in-process fakes here.
+  std::function<std::unique_ptr<Bench>(const Config&)> open_bench;
+  // One line per message (no trailing newline). Default: stderr.
+  std::function<void(std::string_view)> log;
+};
+
+// Opens (and migrates) the store, turns every output off, recovers jobs left
+// running by a previous daemon (resumed or marked interrupted) and starts the
+// executor thread. Throws StoreError (daemon/store.hpp) if the database cannot
+// be opened; an unreachable bench is logged, not fatal (jobs wait for it).
+std::unique_ptr<Service> make_service(const Config& config, ServiceOptions options = {});
+
+}  // namespace junco::daemon

@@ -1,0 +1,485 @@
+#include "daemon/store.hpp"
+
+#include "daemon/migrations.hpp"
+#include "fitting/extract.hpp"
+
+#include <sqlite3.h>
+
+#include <system_error>
+
+namespace junco::daemon {
+
+namespace fs = std::filesystem;
+
+// How long a writer waits for another connection's lock (e.g. the sqlite3
+// shell reading a copy) before SQLITE_BUSY becomes an error.
+constexpr int kBusyTimeoutMs = 5000;
+
+// RAII prepared statement with positional binding from 1 and typed columns.
+class Store::Stmt {
+ public:
+  Stmt(sqlite3* db, const char* sql) : db_(db) {
+    if (sqlite3_prepare_v2(db, sql, -1, &st_, nullptr) != SQLITE_OK)
+      throw StoreError(std::string("prepare: ") + sqlite3_errmsg(db));
+  }
+  ~Stmt() { sqlite3_finalize(st_); }
+  Stmt(Stmt&& o) noexcept : db_(o.db_), st_(o.st_) { o.st_ = nullptr; }
+  Stmt(const Stmt&) = delete;
+  Stmt& operator=(const Stmt&) = delete;
+  Stmt& operator=(Stmt&&) = delete;
+
+  Stmt& bind(int i, Id v) { check(sqlite3_bind_int64(st_, i, v)); return *this; }
+  Stmt& bind(int i, int v) { check(sqlite3_bind_int64(st_, i, v)); return *this; }
+  Stmt& bind(int i, unsigned long v) { check(sqlite3_bind_int64(st_, i, static_cast<Id>(v))); return *this; }
+  // NaN and infinities are stored as NULL ("not known").
+  Stmt& bind(int i, double v) {
+    check(std::isfinite(v) ? sqlite3_bind_double(st_, i, v) : sqlite3_bind_null(st_, i));
+    return *this;
+  }
+  Stmt& bind(int i, const std::string& v) {
+    check(sqlite3_bind_text(st_, i, v.data(), static_cast<int>(v.size()), SQLITE_TRANSIENT));
+    return *this;
+  }
+  Stmt& bind(int i, const char* v) { return bind(i, std::string(v)); }
+  Stmt& bind_null(int i) { check(sqlite3_bind_null(st_, i)); return *this; }
+  Stmt& bind_opt(int i, const std::optional<std::string>& v) { return v ? bind(i, *v) : bind_null(i); }
+
+  bool step() {
+    const int rc = sqlite3_step(st_);
+    if (rc == SQLITE_ROW) return true;
+    if (rc == SQLITE_DONE) return false;
+    throw StoreError(sqlite3_errmsg(db_));
+  }
+  void run() { while (step()) {} }
+
+  Id i64(int c) const { return sqlite3_column_int64(st_, c); }
+  double real(int c) const { return sqlite3_column_type(st_, c) == SQLITE_NULL ? kNaN : sqlite3_column_double(st_, c); }
+  std::string text(int c) const {
+    const auto* p = sqlite3_column_text(st_, c);
+    return p ? std::string(reinterpret_cast<const char*>(p), static_cast<std::size_t>(sqlite3_column_bytes(st_, c))) : std::string();
+  }
+  bool is_null(int c) const { return sqlite3_column_type(st_, c) == SQLITE_NULL; }
+
+ private:
+  void check(int rc) {
+    if (rc != SQLITE_OK) throw StoreError(std::string("bind: ") + sqlite3_errmsg(db_));
+  }
+  sqlite3* db_;
+  sqlite3_stmt* st_ = nullptr;
+};
+
+namespace {
+
+constexpr const char* kNow = "strftime('%Y-%m-%dT%H:%M:%fZ','now')";
+
+Json nullable(double v) { return std::isfinite(v) ? Json(v) : Json(nullptr); }
+
+// Commits on scope exit only if commit() was called; otherwise rolls back.
+class Transaction {
+ public:
+  explicit Transaction(sqlite3* db) : db_(db) { run("BEGIN IMMEDIATE"); }
+  ~Transaction() {
+    if (!done_) sqlite3_exec(db_, "ROLLBACK", nullptr, nullptr, nullptr);
+  }
+  Transaction(const Transaction&) = delete;
+  Transaction& operator=(const Transaction&) = delete;
+  void commit() {
+    run("COMMIT");
+    done_ = true;
+  }
+
+ private:
+  void run(const char* sql) {
+    if (sqlite3_exec(db_, sql, nullptr, nullptr, nullptr) != SQLITE_OK) throw StoreError(std::string(sql) + ": " + sqlite3_errmsg(db_));
+  }
+  sqlite3* db_;
+  bool done_ = false;
+};
+
+}  // namespace
+
+bool is_terminal_state(const std::string& s) {
+  return s == "done" || s == "failed" || s == "cancelled" || s == "interrupted";
+}
+
+Store::Store(const fs::path& file) : file_(file) {
+  std::error_code ec;
+  if (file.has_parent_path()) fs::create_directories(file.parent_path(), ec);
+  const int rc = sqlite3_open_v2(file.c_str(), &db_, SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE | SQLITE_OPEN_FULLMUTEX, nullptr);
+  if (rc != SQLITE_OK) {
+    std::string msg = db_ ? sqlite3_errmsg(db_) : "out of memory";
+    sqlite3_close(db_);
+    db_ = nullptr;
+    throw StoreError("cannot open database " + file.string() + ": " + msg);
+  }
+  try {
+    sqlite3_busy_timeout(db_, kBusyTimeoutMs);
+    exec("PRAGMA journal_mode=WAL");
+    exec("PRAGMA synchronous=FULL");
+    exec("PRAGMA foreign_keys=ON");
+    apply_migrations(db_, embedded_migrations());
+  } catch (const StoreError& e) {
+    sqlite3_close(db_);
+    db_ = nullptr;
+    throw StoreError(file.string() + ": " + e.what());
+  }
+}
+
+Store::~Store() { sqlite3_close(db_); }
+
+Store::Stmt Store::prepare(const char* sql) { return Stmt(db_, sql); }
+
+void Store::exec(const char* sql) {
+  char* err = nullptr;
+  if (sqlite3_exec(db_, sql, nullptr, nullptr, &err) != SQLITE_OK) {
+    std::string msg = err ? err : sqlite3_errmsg(db_);
+    sqlite3_free(err);
+    throw StoreError(std::string(sql) + ": " + msg);
+  }
+}
+
+int Store::schema_version() {
+  std::lock_guard lock(mutex_);
+  return daemon::schema_version(db_);
+}
+
+Json Store::pragma_summary() {
+  std::lock_guard lock(mutex_);
+  Json out;
+  for (const char* p : {"journal_mode", "synchronous", "foreign_keys"}) {
+    auto st = prepare((std::string("PRAGMA ") + p).c_str());
+    if (st.step()) out[p] = st.text(0);
+  }
+  return out;
+}
+
+// ---- lots and parts --------------------------------------------------------
+
+Id Store::ensure_lot(const std::string& name) {
+  std::lock_guard lock(mutex_);
+  prepare((std::string("INSERT INTO lots(name, created_at) VALUES (?, ") + kNow + ") ON CONFLICT(name) DO NOTHING").c_str())
+      .bind(1, name)
+      .run();
+  auto st = prepare("SELECT id FROM lots WHERE name = ?");
+  st.bind(1, name);
+  st.step();
+  return st.i64(0);
+}
+
+Id Store::ensure_part(Id lot_id, const std::string& label, int slot) {
+  std::lock_guard lock(mutex_);
+  prepare((std::string("INSERT INTO parts(lot_id, label, slot, created_at) VALUES (?, ?, ?, ") + kNow +
+           ") ON CONFLICT(lot_id, label) DO UPDATE SET slot = excluded.slot")
+              .c_str())
+      .bind(1, lot_id)
+      .bind(2, label)
+      .bind(3, slot)
+      .run();
+  auto st = prepare("SELECT id FROM parts WHERE lot_id = ? AND label = ?");
+  st.bind(1, lot_id).bind(2, label);
+  st.step();
+  return st.i64(0);
+}
+
+std::optional<PartRow> Store::part(Id part_id) {
+  std::lock_guard lock(mutex_);
+  auto st = prepare("SELECT p.id, p.lot_id, l.name, p.label, COALESCE(p.slot, 0) FROM parts p JOIN lots l ON l.id = p.lot_id WHERE p.id = ?");
+  st.bind(1, part_id);
+  if (!st.step()) return std::nullopt;
+  return PartRow{st.i64(0), st.i64(1), st.text(2), st.text(3), static_cast<int>(st.i64(4))};
+}
+
+Json Store::lots() {
+  std::lock_guard lock(mutex_);
+  auto st = prepare("SELECT l.id, l.name, l.created_at, (SELECT COUNT(*) FROM parts p WHERE p.lot_id = l.id) FROM lots l ORDER BY l.id");
+  Json out = Json::array();
+  while (st.step()) out.push_back({{"lot_id", st.i64(0)}, {"name", st.text(1)}, {"created_at", st.text(2)}, {"parts", st.i64(3)}});
+  return out;
+}
+
+Json Store::parts(const std::optional<std::string>& lot) {
+  std::lock_guard lock(mutex_);
+  auto st = prepare(
+      "SELECT p.id, p.lot_id, l.name, p.label, COALESCE(p.slot, 0),"
+      " (SELECT MAX(f.id) FROM fits f WHERE f.part_id = p.id)"
+      " FROM parts p JOIN lots l ON l.id = p.lot_id WHERE (?1 IS NULL OR l.name = ?1) ORDER BY p.id");
+  st.bind_opt(1, lot);
+  Json out = Json::array();
+  while (st.step()) {
+    Json j = to_json(PartRow{st.i64(0), st.i64(1), st.text(2), st.text(3), static_cast<int>(st.i64(4))});
+    j["has_fit"] = !st.is_null(5);
+    out.push_back(std::move(j));
+  }
+  return out;
+}
+
+// ---- instruments -----------------------------------------------------------
+
+void Store::record_instrument(const std::string& role, const std::string& address, const std::string& manufacturer,
+                              const std::string& model, const std::string& serial, const std::string& firmware) {
+  std::lock_guard lock(mutex_);
+  prepare((std::string("INSERT INTO instruments(role, address, manufacturer, model, serial, firmware, first_seen, last_seen)"
+                       " VALUES (?, ?, ?, ?, ?, ?, ") +
+           kNow + ", " + kNow +
+           ") ON CONFLICT(role, manufacturer, model, serial) DO UPDATE SET"
+           " address = excluded.address, firmware = excluded.firmware, last_seen = excluded.last_seen")
+              .c_str())
+      .bind(1, role).bind(2, address).bind(3, manufacturer).bind(4, model).bind(5, serial).bind(6, firmware)
+      .run();
+}
+
+Json Store::instruments() {
+  std::lock_guard lock(mutex_);
+  auto st = prepare("SELECT role, address, manufacturer, model, serial, firmware, first_seen, last_seen FROM instruments ORDER BY last_seen DESC, id");
+  Json out = Json::array();
+  while (st.step())
+    out.push_back({{"role", st.text(0)}, {"address", st.text(1)}, {"manufacturer", st.text(2)}, {"model", st.text(3)},
+                   {"serial", st.text(4)}, {"firmware", st.text(5)}, {"first_seen", st.text(6)}, {"last_seen", st.text(7)}});
+  return out;
+}
+
+// ---- jobs ------------------------------------------------------------------
+
+namespace {
+constexpr const char* kJobColumns =
+    "SELECT id, plan, state, points_done, points_total, COALESCE(error, ''), COALESCE(submitted_uid, -1),"
+    " COALESCE(submitted_pid, -1), submitted_at, COALESCE(started_at, ''), COALESCE(finished_at, ''), updated_at FROM jobs ";
+}
+
+Id Store::insert_job(const Json& plan, long points_total, int uid, int pid) {
+  std::lock_guard lock(mutex_);
+  prepare((std::string("INSERT INTO jobs(plan, state, points_total, submitted_uid, submitted_pid, submitted_at, updated_at)"
+                       " VALUES (?, 'queued', ?, ?, ?, ") +
+           kNow + ", " + kNow + ")")
+              .c_str())
+      .bind(1, plan.dump()).bind(2, points_total).bind(3, uid).bind(4, pid)
+      .run();
+  return sqlite3_last_insert_rowid(db_);
+}
+
+std::optional<JobRow> Store::job(Id id) {
+  std::lock_guard lock(mutex_);
+  auto st = prepare((std::string(kJobColumns) + "WHERE id = ?").c_str());
+  st.bind(1, id);
+  if (!st.step()) return std::nullopt;
+  return JobRow{st.i64(0), Json::parse(st.text(1)), st.text(2), static_cast<long>(st.i64(3)), static_cast<long>(st.i64(4)),
+                st.text(5), static_cast<int>(st.i64(6)), static_cast<int>(st.i64(7)), st.text(8), st.text(9), st.text(10), st.text(11)};
+}
+
+std::vector<JobRow> Store::jobs(const std::optional<std::string>& state) {
+  std::lock_guard lock(mutex_);
+  auto st = prepare((std::string(kJobColumns) + "WHERE (?1 IS NULL OR state = ?1) ORDER BY id").c_str());
+  st.bind_opt(1, state);
+  std::vector<JobRow> out;
+  while (st.step())
+    out.push_back(JobRow{st.i64(0), Json::parse(st.text(1)), st.text(2), static_cast<long>(st.i64(3)), static_cast<long>(st.i64(4)),
+                         st.text(5), static_cast<int>(st.i64(6)), static_cast<int>(st.i64(7)), st.text(8), st.text(9), st.text(10),
+                         st.text(11)});
+  return out;
+}
+
+void Store::set_job_state(Id id, const std::string& state, const std::optional<std::string>& error) {
+  std::lock_guard lock(mutex_);
+  prepare((std::string("UPDATE jobs SET state = ?2, error = CASE WHEN ?3 THEN ?4 ELSE error END, updated_at = ") + kNow +
+           ", started_at = CASE WHEN ?2 = 'running' AND started_at IS NULL THEN " + kNow +
+           " ELSE started_at END, finished_at = CASE WHEN ?2 IN ('done','failed','cancelled','interrupted') THEN " + kNow +
+           " ELSE finished_at END WHERE id = ?1")
+              .c_str())
+      .bind(1, id).bind(2, state).bind(3, error ? 1 : 0).bind_opt(4, error)
+      .run();
+}
+
+bool Store::transition_job(Id id, const std::string& from, const std::string& to, const std::optional<std::string>& error) {
+  std::lock_guard lock(mutex_);
+  auto j = job(id);
+  if (!j || j->state != from) return false;
+  set_job_state(id, to, error);
+  return true;
+}
+
+std::optional<Id> Store::next_queued_job() {
+  std::lock_guard lock(mutex_);
+  auto st = prepare("SELECT id FROM jobs WHERE state = 'queued' ORDER BY id LIMIT 1");
+  if (!st.step()) return std::nullopt;
+  return st.i64(0);
+}
+
+// ---- runs and points -------------------------------------------------------
+
+namespace {
+constexpr const char* kRunColumns =
+    "SELECT id, job_id, part_id, slot, fixture, temp_k, state, started_at, COALESCE(finished_at, '') FROM runs ";
+}
+
+RunRow Store::ensure_run(Id job_id, Id part_id, int slot, const Json& fixture, double temp_k) {
+  std::lock_guard lock(mutex_);
+  prepare((std::string("INSERT INTO runs(job_id, part_id, slot, fixture, temp_k, state, started_at) VALUES (?, ?, ?, ?, ?, 'running', ") +
+           kNow + ") ON CONFLICT(job_id, part_id) DO NOTHING")
+              .c_str())
+      .bind(1, job_id).bind(2, part_id).bind(3, slot).bind(4, fixture.dump()).bind(5, temp_k)
+      .run();
+  auto st = prepare((std::string(kRunColumns) + "WHERE job_id = ? AND part_id = ?").c_str());
+  st.bind(1, job_id).bind(2, part_id);
+  st.step();
+  return RunRow{st.i64(0), st.i64(1), st.i64(2), static_cast<int>(st.i64(3)), Json::parse(st.text(4)), st.real(5), st.text(6), st.text(7), st.text(8)};
+}
+
+std::vector<RunRow> Store::runs_of_part(Id part_id) {
+  std::lock_guard lock(mutex_);
+  auto st = prepare((std::string(kRunColumns) + "WHERE part_id = ? ORDER BY id").c_str());
+  st.bind(1, part_id);
+  std::vector<RunRow> out;
+  while (st.step())
+    out.push_back(RunRow{st.i64(0), st.i64(1), st.i64(2), static_cast<int>(st.i64(3)), Json::parse(st.text(4)), st.real(5), st.text(6), st.text(7), st.text(8)});
+  return out;
+}
+
+std::vector<RunRow> Store::runs_of_job(Id job_id) {
+  std::lock_guard lock(mutex_);
+  auto st = prepare((std::string(kRunColumns) + "WHERE job_id = ? ORDER BY id").c_str());
+  st.bind(1, job_id);
+  std::vector<RunRow> out;
+  while (st.step())
+    out.push_back(RunRow{st.i64(0), st.i64(1), st.i64(2), static_cast<int>(st.i64(3)), Json::parse(st.text(4)), st.real(5), st.text(6), st.text(7), st.text(8)});
+  return out;
+}
+
+void Store::finish_run(Id run_id, const std::string& state) {
+  std::lock_guard lock(mutex_);
+  prepare((std::string("UPDATE runs SET state = ?, finished_at = ") + kNow + " WHERE id = ?").c_str()).bind(1, state).bind(2, run_id).run();
+}
+
+std::optional<long> Store::last_seq(Id run_id) {
+  std::lock_guard lock(mutex_);
+  auto st = prepare("SELECT MAX(seq) FROM points WHERE run_id = ?");
+  st.bind(1, run_id);
+  if (!st.step() || st.is_null(0)) return std::nullopt;
+  return static_cast<long>(st.i64(0));
+}
+
+bool Store::run_has_flag(Id run_id, int flag) {
+  std::lock_guard lock(mutex_);
+  auto st = prepare("SELECT 1 FROM points WHERE run_id = ? AND (flags & ?) != 0 LIMIT 1");
+  st.bind(1, run_id).bind(2, flag);
+  return st.step();
+}
+
+void Store::insert_point(Id job_id, const PointRow& p) {
+  std::lock_guard lock(mutex_);
+  Transaction tx(db_);
+  prepare(
+      "INSERT INTO points(run_id, seq, kind, set_value, set_unit, supply_v, v, i_a, ac_in_v, ac_out_v, ac_unit, freq_hz, temp_k, t_s, flags)"
+      " VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)")
+      .bind(1, p.run_id).bind(2, p.seq).bind(3, p.kind).bind(4, p.set_value).bind(5, p.set_unit).bind(6, p.supply_v)
+      .bind(7, p.v).bind(8, p.i_a).bind(9, p.ac_in_v).bind(10, p.ac_out_v)
+      .bind_opt(11, p.ac_unit.empty() ? std::nullopt : std::optional<std::string>(p.ac_unit))
+      .bind(12, p.freq_hz).bind(13, p.temp_k).bind(14, p.t_s).bind(15, p.flags)
+      .run();
+  prepare((std::string("UPDATE jobs SET points_done = points_done + 1, updated_at = ") + kNow + " WHERE id = ?").c_str())
+      .bind(1, job_id)
+      .run();
+  tx.commit();
+}
+
+std::vector<PointRow> Store::points(Id run_id) {
+  std::lock_guard lock(mutex_);
+  auto st = prepare(
+      "SELECT run_id, seq, kind, set_value, set_unit, supply_v, v, i_a, ac_in_v, ac_out_v, COALESCE(ac_unit, ''), freq_hz, temp_k, t_s, flags"
+      " FROM points WHERE run_id = ? ORDER BY seq");
+  st.bind(1, run_id);
+  std::vector<PointRow> out;
+  while (st.step())
+    out.push_back(PointRow{st.i64(0), static_cast<long>(st.i64(1)), st.text(2), st.real(3), st.text(4), st.real(5), st.real(6), st.real(7),
+                           st.real(8), st.real(9), st.text(10), st.real(11), st.real(12), st.real(13), static_cast<int>(st.i64(14))});
+  return out;
+}
+
+// ---- fits ------------------------------------------------------------------
+
+Id Store::insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit) {
+  std::lock_guard lock(mutex_);
+  Json excluded = Json::array();
+  for (const auto& e : fit.excluded) excluded.push_back({{"index", e.index}, {"reason", e.reason}});
+  Json detail = {{"parameter_names", fit.parameter_names}, {"correlation", Json::array()}, {"excluded", excluded}, {"iterations", fit.iterations}};
+  for (const auto& row : fit.correlation) {
+    Json r = Json::array();
+    for (double c : row) r.push_back(nullable(c));
+    detail["correlation"].push_back(r);
+  }
+  prepare((std::string("INSERT INTO fits(part_id, run_id, model, status, message, is_a, is_a_se, n, n_se, rs_ohm, rs_ohm_se, rsh_ohm, rsh_ohm_se,"
+                       " temp_k, cost, rms_residual, points_used, warnings, detail, created_at)"
+                       " VALUES (?, ?, 'forward', ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ") +
+           kNow + ")")
+              .c_str())
+      .bind(1, part_id).bind(2, run_id).bind(3, fitting::to_string(fit.status)).bind(4, fit.message)
+      .bind(5, fit.is_a.value).bind(6, fit.is_a.std_error).bind(7, fit.n.value).bind(8, fit.n.std_error)
+      .bind(9, fit.rs_ohm.value).bind(10, fit.rs_ohm.std_error).bind(11, fit.rsh_ohm.value).bind(12, fit.rsh_ohm.std_error)
+      .bind(13, fit.temp_k).bind(14, fit.cost).bind(15, fit.rms_residual).bind(16, fit.points_used)
+      .bind(17, Json(fit.warnings).dump()).bind(18, detail.dump())
+      .run();
+  return sqlite3_last_insert_rowid(db_);
+}
+
+std::optional<Json> Store::latest_fit(Id part_id) {
+  std::lock_guard lock(mutex_);
+  auto st = prepare(
+      "SELECT id, part_id, run_id, model, status, COALESCE(message, ''), is_a, is_a_se, n, n_se, rs_ohm, rs_ohm_se, rsh_ohm, rsh_ohm_se,"
+      " temp_k, cost, rms_residual, points_used, warnings, COALESCE(detail, '{}'), created_at FROM fits WHERE part_id = ? ORDER BY id DESC LIMIT 1");
+  st.bind(1, part_id);
+  if (!st.step()) return std::nullopt;
+  auto est = [&](int c) { return Json{{"value", nullable(st.real(c))}, {"std_error", nullable(st.real(c + 1))}}; };
+  return Json{{"fit_id", st.i64(0)},
+              {"part_id", st.i64(1)},
+              {"run_id", st.is_null(2) ? Json(nullptr) : Json(st.i64(2))},
+              {"model", st.text(3)},
+              {"status", st.text(4)},
+              {"message", st.text(5)},
+              {"is_a", est(6)},
+              {"n", est(8)},
+              {"rs_ohm", est(10)},
+              {"rsh_ohm", est(12)},
+              {"temp_k", nullable(st.real(14))},
+              {"cost", nullable(st.real(15))},
+              {"rms_residual", nullable(st.real(16))},
+              {"points_used", st.i64(17)},
+              {"warnings", Json::parse(st.text(18))},
+              {"detail", Json::parse(st.text(19))},
+              {"created_at", st.text(20)}};
+}
+
+// ---- JSON views ------------------------------------------------------------
+
+Json to_json(const JobRow& j) {
+  auto opt = [](const std::string& s) { return s.empty() ? Json(nullptr) : Json(s); };
+  return Json{{"job_id", j.id},
+              {"state", j.state},
+              {"plan", j.plan},
+              {"points_done", j.points_done},
+              {"points_total", j.points_total},
+              {"error", opt(j.error)},
+              {"submitted_by", {{"uid", j.submitted_uid}, {"pid", j.submitted_pid}}},
+              {"submitted_at", j.submitted_at},
+              {"started_at", opt(j.started_at)},
+              {"finished_at", opt(j.finished_at)},
+              {"updated_at", j.updated_at}};
+}
+
+Json to_json(const RunRow& r) {
+  return Json{{"run_id", r.id}, {"job_id", r.job_id}, {"part_id", r.part_id}, {"slot", r.slot}, {"fixture", r.fixture},
+              {"temp_k", nullable(r.temp_k)}, {"state", r.state}, {"started_at", r.started_at},
+              {"finished_at", r.finished_at.empty() ? Json(nullptr) : Json(r.finished_at)}};
+}
+
+Json to_json(const PointRow& p) {
+  return Json{{"run_id", p.run_id}, {"seq", p.seq}, {"kind", p.kind}, {"set_value", p.set_value}, {"set_unit", p.set_unit},
+              {"supply_v", nullable(p.supply_v)}, {"v", nullable(p.v)}, {"i_a", nullable(p.i_a)},
+              {"ac_in_v", nullable(p.ac_in_v)}, {"ac_out_v", nullable(p.ac_out_v)},
+              {"ac_unit", p.ac_unit.empty() ? Json(nullptr) : Json(p.ac_unit)}, {"freq_hz", nullable(p.freq_hz)},
+              {"temp_k", nullable(p.temp_k)}, {"t_s", p.t_s}, {"flags", p.flags}};
+}
+
+Json to_json(const PartRow& p) {
+  return Json{{"part_id", p.id}, {"lot_id", p.lot_id}, {"lot", p.lot}, {"label", p.label}, {"slot", p.slot}};
+}
+
+}  // namespace junco::daemon

@@ -1,0 +1,164 @@
+// The store: one SQLite file owned by juncod. WAL journal, synchronous=FULL
+// (a COMMIT has reached the disk when it returns), foreign keys on, a busy
+// timeout, prepared statements only. Each reading is committed in its own
+// transaction together with its job's progress counter.
+//
+// Thread safety: one connection guarded by a mutex; every public method is
+// safe to call from any thread (the executor writes, RPC sessions read).
+#pragma once
+
+#include <nlohmann/json.hpp>
+
+#include <cmath>
+#include <cstdint>
+#include <filesystem>
+#include <limits>
+#include <memory>
+#include <mutex>
+#include <optional>
+#include <stdexcept>
+#include <string>
+#include <vector>
+
+struct sqlite3;
+
+namespace junco::fitting {
+struct FitResult;
+}
+
+namespace junco::daemon {
+
+using Json = nlohmann::json;
+using Id = std::int64_t;
+
+class StoreError : public std::runtime_error {
+ public:
+  using std::runtime_error::runtime_error;
+};
+
+inline constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+// Quality flags of a reading (points.flags).
+enum PointFlag : int {
+  flag_current_limit = 1,  // supply was regulating current: excluded from fits
+  flag_retried = 2,        // taken after a transient fault was retried
+  flag_off_target = 4,     // current-targeted step missed its target by > 5 %
+};
+
+struct JobRow {
+  Id id = 0;
+  Json plan;
+  std::string state;
+  long points_done = 0;
+  long points_total = 0;
+  std::string error;  // "" when none
+  int submitted_uid = -1;
+  int submitted_pid = -1;
+  std::string submitted_at, started_at, finished_at, updated_at;
+};
+
+struct RunRow {
+  Id id = 0;
+  Id job_id = 0;
+  Id part_id = 0;
+  int slot = 0;
+  Json fixture;
+  double temp_k = kNaN;
+  std::string state;  // running, done, stopped
+  std::string started_at, finished_at;
+};
+
+// NaN = not measured (stored as NULL).
+struct PointRow {
+  Id run_id = 0;
+  long seq = 0;
+  std::string kind = "dc";  // dc, ac, reverse
+  double set_value = 0.0;
+  std::string set_unit = "V";
+  double supply_v = kNaN;
+  double v = kNaN;
+  double i_a = kNaN;
+  double ac_in_v = kNaN;
+  double ac_out_v = kNaN;
+  std::string ac_unit;  // "" unless kind == ac
+  double freq_hz = kNaN;
+  double temp_k = kNaN;
+  double t_s = 0.0;
+  int flags = 0;
+};
+
+struct PartRow {
+  Id id = 0;
+  Id lot_id = 0;
+  std::string lot;
+  std::string label;
+  int slot = 0;
+};
+
+class Store {
+ public:
+  // Opens (creating parent directories and the file if needed) and migrates.
+  explicit Store(const std::filesystem::path& file);
+  ~Store();
+  Store(const Store&) = delete;
+  Store& operator=(const Store&) = delete;
+
+  const std::filesystem::path& file() const { return file_; }
+  int schema_version();
+  Json pragma_summary();  // journal_mode, synchronous, foreign_keys (for tests/status)
+
+  Id ensure_lot(const std::string& name);
+  Id ensure_part(Id lot_id, const std::string& label, int slot);
+  std::optional<PartRow> part(Id part_id);
+  Json lots();
+  Json parts(const std::optional<std::string>& lot);  // nullopt = all
+
+  void record_instrument(const std::string& role, const std::string& address, const std::string& manufacturer,
+                         const std::string& model, const std::string& serial, const std::string& firmware);
+  Json instruments();
+
+  Id insert_job(const Json& plan, long points_total, int uid, int pid);
+  std::optional<JobRow> job(Id id);
+  std::vector<JobRow> jobs(const std::optional<std::string>& state);
+  // Sets state and error (nullopt = leave error unchanged); stamps started_at on
+  // the first "running", finished_at on terminal states.
+  void set_job_state(Id id, const std::string& state, const std::optional<std::string>& error = std::nullopt);
+  // Atomically moves `from` → `to`; false when the job was not in `from`.
+  bool transition_job(Id id, const std::string& from, const std::string& to,
+                      const std::optional<std::string>& error = std::nullopt);
+  std::optional<Id> next_queued_job();
+
+  // Returns the run of (job, part), creating it when absent.
+  RunRow ensure_run(Id job_id, Id part_id, int slot, const Json& fixture, double temp_k);
+  std::vector<RunRow> runs_of_part(Id part_id);
+  std::vector<RunRow> runs_of_job(Id job_id);
+  void finish_run(Id run_id, const std::string& state);
+  std::optional<long> last_seq(Id run_id);
+  bool run_has_flag(Id run_id, int flag);
+
+  // One transaction: the reading and its job's points_done. Throws StoreError
+  // (also when (run_id, seq) already exists: a reading is never stored twice).
+  void insert_point(Id job_id, const PointRow& p);
+  std::vector<PointRow> points(Id run_id);
+
+  Id insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit);
+  std::optional<Json> latest_fit(Id part_id);
+
+ private:
+  class Stmt;
+  Stmt prepare(const char* sql);
+  void exec(const char* sql);
+
+  std::filesystem::path file_;
+  sqlite3* db_ = nullptr;
+  std::recursive_mutex mutex_;
+};
+
+Json to_json(const JobRow& j);
+Json to_json(const RunRow& r);
+Json to_json(const PointRow& p);
+Json to_json(const PartRow& p);
+
+bool is_terminal_state(const std::string& state);  // done, failed, cancelled, interrupted
+
+}  // namespace junco::daemon
