@@ -24,6 +24,10 @@ class Transport {
   virtual void reconnect() = 0;
   // Human-readable endpoint, e.g. "tcp 127.0.0.1:5025".
   virtual std::string describe() const = 0;
+  // True when reconnect() gives a fresh stream with nothing stale in it
+  // (a new TCP connection); false where a late reply may still arrive
+  // (serial, USBTMC), so the session resynchronises after reconnecting.
+  virtual bool clean_after_reconnect() const { return false; }
 };
 
 // Address syntax (documented in DEVELOPERS.md):

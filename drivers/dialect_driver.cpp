@@ -1,0 +1,244 @@
+#include "drivers/dialect_driver.hpp"
+
+#include "drivers/errors.hpp"
+#include "drivers/reply_parser.hpp"
+
+#include <cctype>
+#include <cmath>
+#include <thread>
+
+namespace junco::drivers {
+
+namespace {
+
+std::string upper(std::string s) {
+  for (auto& c : s) c = static_cast<char>(std::toupper(static_cast<unsigned char>(c)));
+  return s;
+}
+
+void require_finite(double value, const char* what) {
+  if (!std::isfinite(value)) throw DriverError(ErrorKind::config, std::string(what) + " must be a finite number");
+}
+
+}  // namespace
+
+DialectDriver::DialectDriver(InstrumentSpec spec, Dialect dialect)
+    : spec_(std::move(spec)), dialect_(std::move(dialect)), transport_options_(spec_.transport) {
+  if (dialect_.write_terminator) transport_options_.write_terminator = *dialect_.write_terminator;
+  if (dialect_.read_terminator) transport_options_.read_terminator = *dialect_.read_terminator;
+  if (spec_.max_retries < 0) config_error("max_retries must be >= 0");
+  with_retries("open", [&](std::string&) { ensure_session(); });
+  if (dialect_.idn_match) check_identity();
+}
+
+std::string DialectDriver::label() const {
+  std::string where = session_ ? session_->describe() : spec_.address;
+  return "instrument '" + spec_.name + "' (" + dialect_.name + " at " + where + ")";
+}
+
+void DialectDriver::config_error(const std::string& what) const {
+  throw DriverError(ErrorKind::config, label() + ": " + what);
+}
+
+void DialectDriver::ensure_session() {
+  if (!session_) {
+    SessionOptions options;
+    options.reply_timeout = spec_.reply_timeout;
+    options.traffic_log = spec_.traffic_log;
+    session_ = std::make_unique<ScpiSession>(open_transport(spec_.address, transport_options_), options);
+    needs_reconnect_ = false;
+  } else if (needs_reconnect_) {
+    session_->reconnect();
+    needs_reconnect_ = false;
+  }
+}
+
+void DialectDriver::with_retries(const char* operation, const std::function<void(std::string&)>& body) {
+  for (int attempt = 1;; ++attempt) {
+    std::string last_sent;
+    try {
+      ensure_session();
+      body(last_sent);
+      return;
+    } catch (const DriverError& e) {
+      bool again = e.transient() && attempt <= spec_.max_retries;
+      if (spec_.traffic_log)
+        spec_.traffic_log("#", std::string(operation) + " attempt " + std::to_string(attempt) + " failed (" +
+                                   to_string(e.kind()) + "): " + e.what() + (again ? "; retrying" : ""));
+      if (!again) {
+        std::string tries = attempt > 1 ? " (after " + std::to_string(attempt) + " attempts)" : "";
+        throw DriverError(e.kind(), label() + ": " + operation + ": " + to_string(e.kind()) + ": " + e.what() + tries,
+                          e.scpi_code());
+      }
+      needs_reconnect_ = true;
+    }
+  }
+}
+
+DialectDriver::Outcome DialectDriver::read_reply(const Operation& op, const std::string& query) {
+  Outcome out;
+  std::string reply = session_->query(query);
+  const ReplySpec& spec = op.reply;
+  auto fail = [&](ParseStatus status, const std::string& why) -> Outcome {
+    throw DriverError(status == ParseStatus::overrange ? ErrorKind::overrange : ErrorKind::garbled,
+                      "query '" + query + "': " + why);
+  };
+  switch (spec.kind) {
+    case ReplySpec::Kind::none: break;
+    case ReplySpec::Kind::number: {
+      std::string text = reply;
+      if (spec.regex) {
+        std::smatch m;
+        if (reply.size() > max_parsed_reply || !std::regex_search(reply, m, *spec.regex))
+          return fail(ParseStatus::malformed, "reply does not match " + spec.regex_text);
+        text = m[1].str();
+      }
+      NumberReply n = parse_number(text, spec.suffix);
+      if (n.status != ParseStatus::ok) return fail(n.status, n.why);
+      out.number = n.value;
+      break;
+    }
+    case ReplySpec::Kind::bits: {
+      IntegerReply n = parse_integer(reply);
+      if (n.status != ParseStatus::ok) return fail(n.status, n.why);
+      out.flag = (n.value & spec.mask) != 0;
+      break;
+    }
+    case ReplySpec::Kind::enumeration: {
+      std::string key = reply.size() <= max_parsed_reply ? upper(reply) : std::string();
+      while (!key.empty() && std::isspace(static_cast<unsigned char>(key.back()))) key.pop_back();
+      while (!key.empty() && std::isspace(static_cast<unsigned char>(key.front()))) key.erase(0, 1);
+      auto it = spec.values.find(key);
+      if (it == spec.values.end()) {
+        std::string known;
+        for (const auto& [k, v] : spec.values) known += (known.empty() ? "" : ", ") + k;
+        return fail(ParseStatus::malformed, "reply '" + reply.substr(0, 40) + "' is none of " + known);
+      }
+      out.flag = it->second;
+      break;
+    }
+  }
+  return out;
+}
+
+DialectDriver::Outcome DialectDriver::run_once(const Operation& op, const Placeholders& values,
+                                               std::string& last_sent) {
+  for (const auto& tmpl : op.commands) {
+    last_sent = expand_template(tmpl, values);
+    session_->command(last_sent);
+    if (op.delay.count() > 0) std::this_thread::sleep_for(op.delay);
+  }
+  if (op.sync) session_->sync();
+  Outcome out;
+  if (!op.query.empty()) {
+    last_sent = expand_template(op.query, values);
+    out = read_reply(op, last_sent);
+  }
+  if (op.drain_errors) session_->drain_errors();
+  return out;
+}
+
+DialectDriver::Outcome DialectDriver::run(const char* operation, const Placeholders& values) {
+  const Operation* op = dialect_.find(operation);
+  if (!op) config_error(std::string("dialect ") + dialect_.path + " offers no operation '" + operation + "'");
+  Outcome out;
+  with_retries(operation, [&](std::string& last_sent) { out = run_once(*op, values, last_sent); });
+  return out;
+}
+
+void DialectDriver::check_identity() {
+  Identity id = identify();
+  std::string text = id.manufacturer + "," + id.model + "," + id.serial + "," + id.firmware;
+  if (!std::regex_search(text, *dialect_.idn_match))
+    config_error("*IDN? reply '" + text + "' does not match the dialect's idn_match '" + dialect_.idn_match_text +
+                 "': wrong instrument or wrong dialect file");
+}
+
+Identity DialectDriver::identify() {
+  Identity id;
+  with_retries("identify", [&](std::string&) { id = session_->identify(); });
+  return id;
+}
+
+void DialectDriver::reset() {
+  with_retries("reset", [&](std::string& last_sent) {
+    for (const auto& c : dialect_.reset_commands) {
+      last_sent = c;
+      session_->command(c);
+    }
+    session_->sync();
+  });
+}
+
+void DialectDriver::set_voltage_v(double volts) {
+  require_finite(volts, "voltage");
+  run("set_voltage", {{"v", format_number(volts)}});
+}
+
+void DialectDriver::set_current_limit_a(double amps) {
+  require_finite(amps, "current limit");
+  if (amps <= 0) config_error("current limit must be positive, got " + format_number(amps));
+  run("set_current_limit", {{"a", format_number(amps)}});
+}
+
+void DialectDriver::set_output(bool on) { run(on ? "output_on" : "output_off"); }
+double DialectDriver::measure_voltage_v() { return run("measure_voltage").number; }
+double DialectDriver::measure_current_a() { return run("measure_current").number; }
+bool DialectDriver::in_current_limit() { return run("in_current_limit").flag; }
+double DialectDriver::measure_dc_voltage_v() { return run("measure_dc_voltage").number; }
+double DialectDriver::measure_dc_current_a() { return run("measure_dc_current").number; }
+
+void DialectDriver::set_range(MeterFunction function, double range) {
+  require_finite(range, "range");
+  bool volts = function == MeterFunction::dc_voltage;
+  if (range <= 0)
+    run(volts ? "set_voltage_autorange" : "set_current_autorange");
+  else
+    run(volts ? "set_voltage_range" : "set_current_range", {{"range", format_number(range)}});
+}
+
+void DialectDriver::set_integration_nplc(double nplc) {
+  require_finite(nplc, "NPLC");
+  if (nplc <= 0) config_error("integration time must be positive, got " + format_number(nplc) + " NPLC");
+  run("set_nplc", {{"nplc", format_number(nplc)}});
+}
+
+void DialectDriver::set_averaging(int count) {
+  if (count < 1) config_error("averaging count must be >= 1, got " + std::to_string(count));
+  if (count == 1 && dialect_.find("set_averaging_off"))
+    run("set_averaging_off");
+  else
+    run("set_averaging", {{"count", std::to_string(count)}});
+}
+
+void DialectDriver::connect_slot(int slot) {
+  if (slot < 1) config_error("slots are numbered from 1, got " + std::to_string(slot));
+  run("connect_slot", {{"slot", std::to_string(slot)}});
+}
+
+void DialectDriver::disconnect_all() { run("disconnect_all"); }
+
+void DialectDriver::set_frequency_hz(double hz) {
+  require_finite(hz, "frequency");
+  if (hz <= 0) config_error("frequency must be positive, got " + format_number(hz));
+  run("set_frequency", {{"hz", format_number(hz)}});
+}
+
+void DialectDriver::set_amplitude(double value, LevelUnit unit) {
+  require_finite(value, "amplitude");
+  if (value < 0) config_error("amplitude must not be negative, got " + format_number(value));
+  const Operation* op = dialect_.find("set_amplitude");
+  std::string unit_text = !op ? "" : unit == LevelUnit::vpp ? op->unit_vpp : op->unit_vrms;
+  run("set_amplitude", {{"v", format_number(value)}, {"unit", unit_text}});
+}
+
+double DialectDriver::measure_level(int channel, LevelUnit unit) {
+  if (channel != 1 && channel != 2) config_error("level channel must be 1 or 2, got " + std::to_string(channel));
+  const char* operation = unit == LevelUnit::vpp ? "measure_vpp" : "measure_vrms";
+  if (!dialect_.find(operation))
+    config_error("dialect " + dialect_.name + " (" + dialect_.path + ") offers no " +
+                 (unit == LevelUnit::vpp ? "Vpp" : "Vrms") + " measurement ('" + operation + "')");
+  return run(operation, {{"ch", std::to_string(channel)}}).number;
+}
+
+}  // namespace junco::drivers

@@ -1,0 +1,71 @@
+// One class drives every role from a dialect file: each role method names
+// an operation, fills its placeholders, and runs it with retries. The
+// factory hands it out as the role interface the dialect declares.
+#pragma once
+
+#include "drivers/dialect.hpp"
+#include "drivers/factory.hpp"
+#include "drivers/scpi.hpp"
+
+#include <functional>
+#include <optional>
+
+namespace junco::drivers {
+
+class DialectDriver final : public Source, public Meter, public Scanner, public SignalGen, public LevelMeter {
+ public:
+  // Opens the transport (with retries) and, when the dialect has an
+  // idn_match, checks *IDN? against it. Throws DriverError.
+  DialectDriver(InstrumentSpec spec, Dialect dialect);
+
+  Identity identify() override;
+  void reset() override;
+
+  // Source
+  void set_voltage_v(double volts) override;
+  void set_current_limit_a(double amps) override;
+  void set_output(bool on) override;  // Source and SignalGen share the name
+  double measure_voltage_v() override;
+  double measure_current_a() override;
+  bool in_current_limit() override;
+  // Meter
+  double measure_dc_voltage_v() override;
+  double measure_dc_current_a() override;
+  void set_range(MeterFunction function, double range) override;
+  void set_integration_nplc(double nplc) override;
+  void set_averaging(int count) override;
+  // Scanner
+  void connect_slot(int slot) override;
+  void disconnect_all() override;
+  // SignalGen
+  void set_frequency_hz(double hz) override;
+  void set_amplitude(double value, LevelUnit unit) override;
+  // LevelMeter
+  double measure_level(int channel, LevelUnit unit) override;
+
+  const Dialect& dialect() const { return dialect_; }
+
+ private:
+  struct Outcome {
+    double number = 0.0;
+    bool flag = false;
+  };
+  Outcome run(const char* operation, const Placeholders& values = {});
+  Outcome run_once(const Operation& op, const Placeholders& values, std::string& last_sent);
+  Outcome read_reply(const Operation& op, const std::string& query);
+  // Runs `body` up to 1 + max_retries times, reconnecting between tries on
+  // transient errors; the final error names instrument, operation, command.
+  void with_retries(const char* operation, const std::function<void(std::string& last_sent)>& body);
+  [[noreturn]] void config_error(const std::string& what) const;
+  std::string label() const;
+  void ensure_session();
+  void check_identity();
+
+  InstrumentSpec spec_;
+  Dialect dialect_;
+  TransportOptions transport_options_;
+  std::unique_ptr<ScpiSession> session_;
+  bool needs_reconnect_ = false;
+};
+
+}  // namespace junco::drivers
