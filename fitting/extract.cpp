@@ -118,12 +118,12 @@ void add_region_warnings(std::span<const IvPoint> pts, const FitResult& r, doubl
   double i_max = 0.0;
   for (const auto& p : pts) {
     if (p.i_a * rs < 0.1 * nvt) ++ideal;
-    if (p.i_a * rs > nvt) ++rs_region;
+    if (p.i_a * rs > 0.25 * nvt) ++rs_region;
     i_max = std::max(i_max, p.i_a);
   }
   if (ideal < 3)
     warnings.push_back("only " + std::to_string(ideal) +
-                       " points in the exponential region (I·Rs < 0.1·n·Vt): n and Is rest on few readings");
+                       " point(s) in the exponential region (I·Rs < 0.1·n·Vt): n and Is rest on few readings");
   const bool rs_known = r.rs_ohm.std_error < 0.5 * rs;  // false for NaN too
   if (!rs_known) {
     warnings.push_back("Rs not determined by this sweep: no high-current points (top reading " + fmt("%.3g", i_max) +
@@ -131,7 +131,7 @@ void add_region_warnings(std::span<const IvPoint> pts, const FitResult& r, doubl
                        fmt("%.3g", nvt * 1e3) + " mV)");
   } else if (rs_region < 3) {
     warnings.push_back("only " + std::to_string(rs_region) +
-                       " points where Rs dominates (I·Rs > n·Vt): Rs rests on few readings");
+                       " point(s) where Rs matters (I·Rs > n·Vt/4): Rs rests on few readings");
   }
 }
 
