@@ -1,0 +1,164 @@
+#include "tools/sim/bench.hpp"
+
+#include <algorithm>
+#include <cmath>
+
+namespace junco::sim {
+
+Bench::Bench(SimConfig config) : config_(std::move(config)) {
+  lot_ = draw_lot(config_.nominal, config_.spread, config_.slots, config_.seed);
+  for (const auto& o : config_.outliers) {
+    if (o.slot < 1 || o.slot > config_.slots) continue;
+    auto& p = lot_[static_cast<size_t>(o.slot - 1)].part;
+    if (o.is_a) p.is_a = *o.is_a;
+    if (o.n) p.n = *o.n;
+    if (o.rs_ohm) p.rs_ohm = *o.rs_ohm;
+    if (o.cj0_f) p.cj0_f = *o.cj0_f;
+  }
+  for (int s : config_.empty_slots)
+    if (s >= 1 && s <= config_.slots) lot_[static_cast<size_t>(s - 1)].fitted = false;
+  for (auto& s : lot_) s.part.tnom_k = config_.ambient_k;
+  temp_k_.assign(lot_.size(), config_.ambient_k);
+}
+
+const PartParams* Bench::connected_part() const {
+  if (slot_ < 1 || slot_ > static_cast<int>(lot_.size())) return nullptr;
+  const auto& s = lot_[static_cast<size_t>(slot_ - 1)];
+  return s.fitted ? &s.part : nullptr;
+}
+
+double Bench::junction_temp_k() const {
+  return slot_ >= 1 ? temp_k_[static_cast<size_t>(slot_ - 1)] : config_.ambient_k;
+}
+
+void Bench::set_bias(const BiasSetting& bias) {
+  advance(Clock::now());
+  bias_ = bias;
+  cached_.reset();
+}
+
+void Bench::select_slot(int slot) {
+  advance(Clock::now());
+  slot_ = slot;
+  cached_.reset();
+}
+
+void Bench::set_drive(const AcDrive& drive) {
+  advance(Clock::now());
+  drive_ = drive;
+  cached_.reset();
+}
+
+double Bench::power_w_at(double temp_k) const {
+  return solve_dc(config_.fixture, connected_part(), bias_, temp_k).power_w;
+}
+
+Bench::Target Bench::compute_target() {
+  const double t = junction_temp_k();
+  if (cached_ && std::abs(t - cached_temp_k_) < 1e-3) return *cached_;
+  Target target;
+  const auto ac = solve_ac(config_.fixture, connected_part(), bias_, t, drive_);
+  target.dc = ac.dc;
+  auto& r = target.readings;
+  r.supply_v = ac.dc.supply_v;
+  r.supply_i_a = ac.dc.supply_i_a;
+  r.part_v = ac.dc.v_part_v;
+  r.part_i_a = ac.dc.i_a;
+  r.in_vrms = ac.in_vrms;
+  r.in_vpp = ac.in_vpp;
+  r.out_vrms = ac.out_vrms;
+  r.out_vpp = ac.out_vpp;
+  cached_ = target;
+  cached_temp_k_ = t;
+  return target;
+}
+
+void Bench::advance(Clock::time_point now) {
+  const double dt = std::chrono::duration<double>(now - last_).count();
+  if (dt <= 0) return;
+  last_ = now;
+  // Junction temperatures: the connected part heats toward ambient + θ·P,
+  // the others cool toward ambient; first order with the thermal τ.
+  const double tau = config_.thermal_tau_s, amb = config_.ambient_k, theta = config_.theta_k_per_w;
+  for (size_t i = 0; i < temp_k_.size(); ++i) {
+    double& t = temp_k_[i];
+    if (static_cast<int>(i) + 1 != slot_ || !connected_part() || theta == 0.0) {
+      t = amb + (t - amb) * std::exp(-dt / tau);
+      continue;
+    }
+    if (dt > 20 * tau) {  // long enough: the self-consistent steady state
+      for (int k = 0; k < 20; ++k) t = amb + theta * power_w_at(t);
+      continue;
+    }
+    const int steps = std::clamp(static_cast<int>(std::ceil(dt / (tau / 8))), 1, 200);
+    const double h = dt / steps;
+    for (int k = 0; k < steps; ++k) {
+      const double target = amb + theta * power_w_at(t);
+      t = target + (t - target) * std::exp(-h / tau);
+    }
+  }
+  const Readings target = compute_target().readings;
+  const double keep = config_.settle_s > 0 ? std::exp(-dt / config_.settle_s) : 0.0;
+  auto relax = [&](double& obs, double tgt) { obs = tgt + (obs - tgt) * keep; };
+  relax(observed_.supply_v, target.supply_v);
+  relax(observed_.supply_i_a, target.supply_i_a);
+  relax(observed_.part_v, target.part_v);
+  relax(observed_.part_i_a, target.part_i_a);
+  relax(observed_.in_vrms, target.in_vrms);
+  relax(observed_.in_vpp, target.in_vpp);
+  relax(observed_.out_vrms, target.out_vrms);
+  relax(observed_.out_vpp, target.out_vpp);
+}
+
+Readings Bench::read(Clock::time_point now) {
+  advance(now);
+  if (config_.settle_s == 0) return compute_target().readings;
+  return observed_;
+}
+
+bool Bench::current_limited(Clock::time_point now) {
+  advance(now);
+  return compute_target().dc.current_limited;
+}
+
+nlohmann::json Bench::state_json(Clock::time_point now) {
+  advance(now);
+  const auto target = compute_target();
+  nlohmann::json j;
+  j["source"] = {{"output_on", bias_.output_on},
+                 {"voltage_v", bias_.voltage_v},
+                 {"current_limit_a", bias_.current_limit_a},
+                 {"in_current_limit", target.dc.current_limited}};
+  j["scanner"] = {{"slot", slot_}};
+  j["siggen"] = {{"output_on", drive_.on}, {"freq_hz", drive_.freq_hz}, {"emf_vpp", drive_.emf_vpp}};
+  j["diode"] = {{"v", target.dc.v_part_v}, {"i_a", target.dc.i_a}, {"temp_k", junction_temp_k()},
+                {"connected", connected_part() != nullptr}};
+  j["levels"] = {{"in_vrms", target.readings.in_vrms},
+                 {"in_vpp", target.readings.in_vpp},
+                 {"out_vrms", target.readings.out_vrms},
+                 {"out_vpp", target.readings.out_vpp}};
+  return j;
+}
+
+nlohmann::json Bench::lot_json() const {
+  nlohmann::json parts = nlohmann::json::array();
+  for (const auto& s : lot_) {
+    nlohmann::json p{{"slot", s.slot}, {"fitted", s.fitted}};
+    if (s.fitted) {
+      p["is_a"] = s.part.is_a;
+      p["n"] = s.part.n;
+      p["rs_ohm"] = s.part.rs_ohm;
+      p["cj0_f"] = s.part.cj0_f;
+      p["vj_v"] = s.part.vj_v;
+      p["m"] = s.part.m;
+      p["tt_s"] = s.part.tt_s;
+      p["eg_ev"] = s.part.eg_ev;
+      p["xti"] = s.part.xti;
+      p["tnom_k"] = s.part.tnom_k;
+    }
+    parts.push_back(p);
+  }
+  return {{"parts", parts}, {"seed", config_.seed}};
+}
+
+}  // namespace junco::sim

@@ -1,0 +1,331 @@
+#include "tools/sim/config.hpp"
+
+#include <nlohmann/json.hpp>
+
+#include <algorithm>
+#include <fstream>
+#include <sstream>
+#include <stdexcept>
+
+namespace junco::sim {
+
+const std::map<std::string, std::vector<std::string>>& known_families() {
+  static const std::map<std::string, std::vector<std::string>> f{
+      {"source", {"scpi-source", "psu-compact"}},
+      {"meter", {"scpi-dmm", "dmm-prefixed"}},
+      {"scanner", {"scpi-switch", "relay-bank"}},
+      {"siggen", {"scpi-gen", "gen-channel"}},
+      {"levelmeter", {"scpi-acv", "scope-meas"}}};
+  return f;
+}
+
+namespace {
+
+using nlohmann::json;
+
+void check_role(const std::string& role) {
+  if (std::find(all_roles.begin(), all_roles.end(), role) == all_roles.end())
+    throw std::invalid_argument("unknown role '" + role + "' (source, meter, scanner, siggen, levelmeter)");
+}
+
+double positive(const json& j, const std::string& key) {
+  const double v = j.get<double>();
+  if (!(v > 0)) throw std::invalid_argument("config: " + key + " must be > 0");
+  return v;
+}
+double non_negative(const json& j, const std::string& key) {
+  const double v = j.get<double>();
+  if (!(v >= 0)) throw std::invalid_argument("config: " + key + " must be >= 0");
+  return v;
+}
+
+template <class F>
+void each_key(const json& obj, const std::string& where, F&& f) {
+  if (!obj.is_object()) throw std::invalid_argument("config: " + where + " must be an object");
+  for (auto it = obj.begin(); it != obj.end(); ++it) {
+    if (!f(it.key(), it.value())) throw std::invalid_argument("config: unknown key " + where + "." + it.key());
+  }
+}
+
+void apply_part(PartParams& p, const json& j, const std::string& where) {
+  each_key(j, where, [&](const std::string& k, const json& v) {
+    const std::string key = where + "." + k;
+    if (k == "is_a") p.is_a = positive(v, key);
+    else if (k == "n") p.n = positive(v, key);
+    else if (k == "rs_ohm") p.rs_ohm = non_negative(v, key);
+    else if (k == "cj0_f") p.cj0_f = non_negative(v, key);
+    else if (k == "vj_v") p.vj_v = positive(v, key);
+    else if (k == "m") p.m = std::clamp(non_negative(v, key), 0.0, 0.9);
+    else if (k == "fc") p.fc = std::clamp(non_negative(v, key), 0.0, 0.95);
+    else if (k == "tt_s") p.tt_s = non_negative(v, key);
+    else if (k == "eg_ev") p.eg_ev = positive(v, key);
+    else if (k == "xti") p.xti = v.get<double>();
+    else return false;
+    return true;
+  });
+}
+
+}  // namespace
+
+void apply_config_json(SimConfig& cfg, const std::string& json_text) {
+  json doc;
+  try {
+    doc = json::parse(json_text);
+  } catch (const json::exception& e) {
+    throw std::invalid_argument(std::string("config: not valid JSON: ") + e.what());
+  }
+  try {
+    each_key(doc, "config", [&](const std::string& k, const json& v) {
+      if (k == "seed") cfg.seed = v.get<std::uint64_t>();
+      else if (k == "slots") cfg.slots = v.get<int>();
+      else if (k == "settle_s") cfg.settle_s = non_negative(v, k);
+      else if (k == "ambient_k") cfg.ambient_k = positive(v, k);
+      else if (k == "error_queue_depth") cfg.error_queue_depth = std::max(1, v.get<int>());
+      else if (k == "thermal") {
+        each_key(v, k, [&](const std::string& t, const json& tv) {
+          if (t == "theta_k_per_w") cfg.theta_k_per_w = non_negative(tv, "thermal." + t);
+          else if (t == "tau_s") cfg.thermal_tau_s = positive(tv, "thermal." + t);
+          else return false;
+          return true;
+        });
+      } else if (k == "fixture") {
+        each_key(v, k, [&](const std::string& f, const json& fv) {
+          const std::string key = "fixture." + f;
+          auto& fx = cfg.fixture;
+          if (f == "rb_ohm") fx.rb_ohm = positive(fv, key);
+          else if (f == "bias_choke") fx.bias_choke = fv.get<bool>();
+          else if (f == "return") {
+            const auto s = fv.get<std::string>();
+            if (s == "inductor") fx.return_kind = ReturnKind::inductor;
+            else if (s == "resistor") fx.return_kind = ReturnKind::resistor;
+            else throw std::invalid_argument("config: fixture.return must be \"inductor\" or \"resistor\"");
+          } else if (f == "return_ohm") fx.return_ohm = positive(fv, key);
+          else if (f == "rg_ohm") fx.rg_ohm = positive(fv, key);
+          else if (f == "rl_ohm") fx.rl_ohm = positive(fv, key);
+          else if (f == "steps_per_period") fx.steps_per_period = std::clamp(fv.get<int>(), 32, 8192);
+          else return false;
+          return true;
+        });
+      } else if (k == "nominal") {
+        apply_part(cfg.nominal, v, "nominal");
+      } else if (k == "spread") {
+        each_key(v, k, [&](const std::string& s, const json& sv) {
+          const std::string key = "spread." + s;
+          if (s == "is_ln_sigma") cfg.spread.is_ln_sigma = non_negative(sv, key);
+          else if (s == "n_sigma") cfg.spread.n_sigma = non_negative(sv, key);
+          else if (s == "rs_rel_sigma") cfg.spread.rs_rel_sigma = non_negative(sv, key);
+          else if (s == "cj0_rel_sigma") cfg.spread.cj0_rel_sigma = non_negative(sv, key);
+          else return false;
+          return true;
+        });
+      } else if (k == "outliers") {
+        for (const auto& o : v) {
+          Outlier out;
+          each_key(o, "outliers[]", [&](const std::string& f, const json& fv) {
+            if (f == "slot") out.slot = fv.get<int>();
+            else if (f == "is_a") out.is_a = positive(fv, "outliers[].is_a");
+            else if (f == "n") out.n = positive(fv, "outliers[].n");
+            else if (f == "rs_ohm") out.rs_ohm = non_negative(fv, "outliers[].rs_ohm");
+            else if (f == "cj0_f") out.cj0_f = non_negative(fv, "outliers[].cj0_f");
+            else return false;
+            return true;
+          });
+          cfg.outliers.push_back(out);
+        }
+      } else if (k == "empty_slots") {
+        for (const auto& s : v) cfg.empty_slots.insert(s.get<int>());
+      } else if (k == "source") {
+        each_key(v, k, [&](const std::string& s, const json& sv) {
+          if (s == "v_min_v") cfg.source.v_min_v = sv.get<double>();
+          else if (s == "v_max_v") cfg.source.v_max_v = sv.get<double>();
+          else if (s == "i_limit_min_a") cfg.source.i_limit_min_a = positive(sv, "source." + s);
+          else if (s == "i_limit_max_a") cfg.source.i_limit_max_a = positive(sv, "source." + s);
+          else return false;
+          return true;
+        });
+      } else if (k == "families") {
+        each_key(v, k, [&](const std::string& role, const json& fv) {
+          check_role(role);
+          cfg.families[role] = fv.get<std::string>();
+          return true;
+        });
+      } else {
+        return false;
+      }
+      return true;
+    });
+  } catch (const json::exception& e) {
+    throw std::invalid_argument(std::string("config: wrong type: ") + e.what());
+  }
+}
+
+FaultSpec parse_fault_spec(const std::string& text) {
+  FaultSpec f;
+  const auto c1 = text.find(':');
+  if (c1 == std::string::npos) throw std::invalid_argument("--fault wants ROLE:MODE[:ARG], got '" + text + "'");
+  f.role = text.substr(0, c1);
+  check_role(f.role);
+  const auto c2 = text.find(':', c1 + 1);
+  f.mode = text.substr(c1 + 1, c2 == std::string::npos ? std::string::npos : c2 - c1 - 1);
+  if (c2 != std::string::npos) f.arg = text.substr(c2 + 1);
+  static const std::set<std::string> modes{"drop-after", "late", "garble", "error", "silent", "clear"};
+  if (!modes.count(f.mode)) throw std::invalid_argument("--fault: unknown mode '" + f.mode + "'");
+  if (f.mode == "error") {
+    // ARG is CODE:TEXT on the command line (CODE TEXT on the control endpoint).
+    const auto c3 = f.arg.find(':');
+    if (c3 != std::string::npos) f.arg[c3] = ' ';
+  }
+  return f;
+}
+
+ParsedArgs parse_args(int argc, const char* const* argv) {
+  ParsedArgs out;
+  SimConfig& cfg = out.config;
+  std::vector<std::string> args(argv + 1, argv + argc);
+  // The config file first, so the command line overrides it.
+  for (size_t i = 0; i + 1 < args.size(); ++i) {
+    if (args[i] == "--config") {
+      std::ifstream in(args[i + 1]);
+      if (!in) throw std::invalid_argument("--config: cannot read " + args[i + 1]);
+      std::stringstream ss;
+      ss << in.rdbuf();
+      apply_config_json(cfg, ss.str());
+    }
+  }
+  auto value = [&](size_t& i) -> const std::string& {
+    if (i + 1 >= args.size()) throw std::invalid_argument(args[i] + " needs a value");
+    return args[++i];
+  };
+  auto number = [&](size_t& i) {
+    const std::string& opt = args[i];
+    const std::string& v = value(i);
+    try {
+      size_t pos = 0;
+      const double d = std::stod(v, &pos);
+      if (pos != v.size()) throw std::invalid_argument("");
+      return d;
+    } catch (const std::exception&) {
+      throw std::invalid_argument(opt + ": not a number: '" + v + "'");
+    }
+  };
+  for (size_t i = 0; i < args.size(); ++i) {
+    const std::string& a = args[i];
+    if (a == "--help" || a == "-h") out.help = true;
+    else if (a == "--config") value(i);
+    else if (a == "--seed") {
+      const double s = number(i);
+      if (s < 0) throw std::invalid_argument("--seed must be >= 0");
+      cfg.seed = static_cast<std::uint64_t>(s);
+    } else if (a == "--slots") {
+      const double s = number(i);
+      if (s < 1 || s > 256) throw std::invalid_argument("--slots must be 1..256");
+      cfg.slots = static_cast<int>(s);
+    } else if (a == "--settle-ms") {
+      const double ms = number(i);
+      if (ms < 0) throw std::invalid_argument("--settle-ms must be >= 0");
+      cfg.settle_s = ms / 1000.0;
+    } else if (a == "--family") {
+      const std::string& v = value(i);
+      const auto eq = v.find('=');
+      if (eq == std::string::npos) throw std::invalid_argument("--family wants ROLE=NAME, got '" + v + "'");
+      const std::string role = v.substr(0, eq), fam = v.substr(eq + 1);
+      check_role(role);
+      const auto& allowed = known_families().at(role);
+      if (std::find(allowed.begin(), allowed.end(), fam) == allowed.end())
+        throw std::invalid_argument("--family: '" + fam + "' is not a " + role + " family");
+      cfg.families[role] = fam;
+    } else if (a == "--serial") {
+      const std::string& role = value(i);
+      check_role(role);
+      cfg.serial_roles.insert(role);
+    } else if (a == "--fault") {
+      cfg.faults.push_back(parse_fault_spec(value(i)));
+    } else {
+      throw std::invalid_argument("unknown option '" + a + "' (try --help)");
+    }
+  }
+  for (const auto& [role, fam] : cfg.families) {
+    const auto& allowed = known_families().at(role);
+    if (std::find(allowed.begin(), allowed.end(), fam) == allowed.end())
+      throw std::invalid_argument("family '" + fam + "' is not a " + role + " family");
+  }
+  return out;
+}
+
+std::string help_text() {
+  return R"(junco-sim — a simulated diode-characterisation bench
+
+Usage:
+  junco-sim [--config FILE] [--seed N] [--slots N] [--family ROLE=NAME]...
+            [--serial ROLE]... [--settle-ms MS] [--fault ROLE:MODE[:ARG]]...
+
+Five instruments (roles source, meter, scanner, siggen, levelmeter), each on
+its own TCP port on 127.0.0.1 (ephemeral) or, with --serial ROLE, on a raw
+pseudo-terminal. When ready it prints ONE JSON line on stdout:
+  {"ready":true,"endpoints":{"source":"tcp:127.0.0.1:PORT",...,
+   "control":"tcp:127.0.0.1:PORT"},"families":{"source":"scpi-source",...}}
+Logs go to stderr. Runs until SIGINT/SIGTERM or the control command quit.
+
+Options:
+  --config FILE        JSON file with the keys below (command line wins)
+  --seed N             seed of the lot and of all noise (default 1)
+  --slots N            fixture slots, each holding one part (default 8)
+  --family ROLE=NAME   command family per role (defaults first):
+                         source     scpi-source | psu-compact
+                         meter      scpi-dmm | dmm-prefixed
+                         scanner    scpi-switch | relay-bank
+                         siggen     scpi-gen | gen-channel
+                         levelmeter scpi-acv | scope-meas
+  --serial ROLE        put ROLE on a pseudo-terminal (serial:/dev/pts/N)
+  --settle-ms MS       time constant of every reading after a change
+                       (first order, wall clock; default 2, 0 = instant)
+  --fault ROLE:MODE[:ARG]  inject a fault at start (modes as below;
+                       error takes CODE:TEXT, e.g. source:error:-310:System error)
+  --help               this text
+
+Config keys (JSON object; SI units; defaults in brackets):
+  seed [1], slots [8], settle_s [0.002], ambient_k [300.15] (also TNOM),
+  error_queue_depth [16]
+  thermal.theta_k_per_w [400]   junction-to-ambient thermal resistance
+  thermal.tau_s [0.05]          junction thermal time constant
+  fixture.rb_ohm [100]          bias resistor
+  fixture.bias_choke [true]     choke in series with Rb (Rb open at AC)
+  fixture.return ["inductor"]   DC return: "inductor" (0 ohm DC, open AC)
+                                or "resistor" (fixture.return_ohm [1000])
+  fixture.rg_ohm [50]           generator source resistance
+  fixture.rl_ohm [50]           load
+  fixture.steps_per_period [256] time steps of the AC solve
+  nominal.{is_a [2.5e-9], n [1.85], rs_ohm [0.7], cj0_f [2e-12], vj_v [0.65],
+           m [0.4], fc [0.5], tt_s [0], eg_ev [1.11], xti [3]}
+  spread.{is_ln_sigma [0.25], n_sigma [0.02], rs_rel_sigma [0.08],
+          cj0_rel_sigma [0.08]}
+  outliers [[]]                 e.g. [{"slot":3,"rs_ohm":4.0}] (is_a, n, rs_ohm, cj0_f)
+  empty_slots [[]]              slots with no part (open circuit)
+  source.{v_min_v [-30], v_max_v [30], i_limit_min_a [1e-4], i_limit_max_a [0.5]}
+  families.{ROLE: NAME}
+
+Physics: bias supply -> Rb -> anode; cathode -> DC return; generator EMF
+(sine, Vpp or Vrms as set; the EMF before Rg) -> Rg -> DC block -> anode;
+cathode -> DC block -> RL. Level channel 1 = generator terminal voltage
+after Rg (fixture input), channel 2 = voltage across RL. DC point exact
+(Lambert W); AC levels from a periodic time-domain solve with the SPICE
+C-V law; self-heating raises the junction temperature (IS(T) law).
+
+Control endpoint (one line in, one JSON line out):
+  state?                        instrument settings and the part's true
+                                operating point {"v","i_a","temp_k"}
+  lot?                          true parameters of each slot's part
+  fault ROLE drop-after N       answer N more commands, then close the
+                                connection on the next (serial: drop that
+                                line unanswered); one shot
+  fault ROLE late MS            answer the next query MS milliseconds late
+  fault ROLE garble N           corrupt the next N replies (never into a
+                                different valid number)
+  fault ROLE error CODE TEXT    push CODE,"TEXT" into the error queue
+  fault ROLE silent             stop answering (commands still read)
+  fault ROLE clear              remove all faults on ROLE
+  quit                          exit (replies {"ok":true} first)
+)";
+}
+
+}  // namespace junco::sim

@@ -1,0 +1,76 @@
+// junco-sim configuration: built-in defaults, the JSON config file
+// (--config) and the command line. The full list with units is in
+// help_text() (printed by --help) and docs/sim.md.
+#pragma once
+
+#include "tools/sim/fixture.hpp"
+#include "tools/sim/part.hpp"
+
+#include <cstdint>
+#include <map>
+#include <optional>
+#include <set>
+#include <string>
+#include <vector>
+
+namespace junco::sim {
+
+inline const std::vector<std::string> all_roles{"source", "meter", "scanner", "siggen", "levelmeter"};
+
+struct FaultSpec {
+  std::string role;
+  std::string mode;  // drop-after | late | garble | error | silent | clear
+  std::string arg;   // N, MS, N, "CODE TEXT"
+};
+
+struct Outlier {
+  int slot = 0;
+  std::optional<double> is_a, n, rs_ohm, cj0_f;
+};
+
+struct SourceLimits {
+  double v_min_v = -30.0, v_max_v = 30.0;
+  double i_limit_min_a = 1e-4, i_limit_max_a = 0.5;
+};
+
+struct SimConfig {
+  std::uint64_t seed = 1;
+  int slots = 8;
+  double settle_s = 0.002;       // first-order time constant of every reading
+  double ambient_k = 300.15;     // fixture ambient = TNOM of the lot
+  double theta_k_per_w = 400.0;  // junction-to-ambient thermal resistance
+  double thermal_tau_s = 0.05;   // junction thermal time constant
+  int error_queue_depth = 16;
+  FixtureConfig fixture;
+  PartParams nominal;
+  LotSpread spread;
+  std::vector<Outlier> outliers;
+  std::set<int> empty_slots;
+  SourceLimits source;
+  std::map<std::string, std::string> families{{"source", "scpi-source"},
+                                              {"meter", "scpi-dmm"},
+                                              {"scanner", "scpi-switch"},
+                                              {"siggen", "scpi-gen"},
+                                              {"levelmeter", "scpi-acv"}};
+  std::set<std::string> serial_roles;
+  std::vector<FaultSpec> faults;
+};
+
+// Families each role may speak (docs/command-sets.md).
+const std::map<std::string, std::vector<std::string>>& known_families();
+
+// Applies a JSON config document over `cfg`; throws std::invalid_argument
+// naming the key on a bad value or unknown key.
+void apply_config_json(SimConfig& cfg, const std::string& json_text);
+
+struct ParsedArgs {
+  SimConfig config;
+  bool help = false;
+};
+// Throws std::invalid_argument with a one-line message on bad input.
+ParsedArgs parse_args(int argc, const char* const* argv);
+FaultSpec parse_fault_spec(const std::string& text);  // ROLE:MODE[:ARG]
+
+std::string help_text();
+
+}  // namespace junco::sim

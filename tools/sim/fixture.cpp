@@ -1,0 +1,342 @@
+#include "tools/sim/fixture.hpp"
+
+#include <algorithm>
+#include <array>
+#include <cmath>
+
+namespace junco::sim {
+
+DcPoint solve_dc(const FixtureConfig& fx, const PartParams* part, const BiasSetting& bias, double temp_k) {
+  DcPoint dc;
+  if (!bias.output_on) return dc;  // an output that is off is an open circuit
+  dc.supply_v = bias.voltage_v;
+  if (!part) {  // open slot: no current, the full voltage across the slot
+    dc.v_part_v = bias.voltage_v;
+    return dc;
+  }
+  const double r_dc = fx.rb_ohm + (fx.return_kind == ReturnKind::resistor ? fx.return_ohm : 0.0);
+  const auto loop = dc_params(*part, temp_k, r_dc);
+  double i = fitting::diode_current_a(loop, bias.voltage_v, temp_k);
+  if (i > bias.current_limit_a) {
+    // Compliance: the supply regulates current and its voltage folds back.
+    i = bias.current_limit_a;
+    dc.current_limited = true;
+    dc.v_part_v = fitting::diode_voltage_v(dc_params(*part, temp_k), i, temp_k);
+    dc.supply_v = dc.v_part_v + i * r_dc;
+  } else {
+    dc.v_part_v = bias.voltage_v - i * r_dc;
+  }
+  dc.i_a = i;
+  dc.supply_i_a = i;
+  dc.power_w = i * dc.v_part_v;
+  return dc;
+}
+
+namespace {
+
+constexpr double gmin_s = 1e-12;  // conductance across the junction, as SPICE adds
+
+// Junction current and conductance with the exponent limited for robustness
+// (linear continuation beyond exp(80), far outside any real operating point).
+struct Junction {
+  PartParams p;
+  double is_a;
+  double nvt;
+  double current(double v) const {
+    const double x = v / nvt;
+    const double e = x < 80.0 ? std::exp(x) : std::exp(80.0) * (1.0 + x - 80.0);
+    return is_a * (e - 1.0) + gmin_s * v;
+  }
+  double conductance(double v) const {
+    const double x = v / nvt;
+    return is_a / nvt * std::exp(std::min(x, 80.0)) + gmin_s;
+  }
+  double charge(double v) const { return junction_charge_c(p, v, current(v)); }
+  double capacitance(double v) const { return junction_capacitance_f(p, v, conductance(v)); }
+};
+
+// Which constant unknowns the period solve has (block voltages, choke currents).
+struct Unknowns {
+  bool bias_current_unknown = false;  // bias choke in CV mode
+  bool return_current_unknown = false;  // inductor return
+  int count() const { return 2 + bias_current_unknown + return_current_unknown; }
+};
+
+struct PeriodSolution {
+  std::vector<double> ch1, ch2, i, va, vk;
+  double mean(const std::vector<double>& x) const {
+    double s = 0;
+    for (double v : x) s += v;
+    return s / static_cast<double>(x.size());
+  }
+};
+
+class PeriodSolver {
+ public:
+  PeriodSolver(const FixtureConfig& fx, const PartParams* part, const BiasSetting& bias, bool current_limited,
+               double temp_k, const AcDrive& drive)
+      : fx_(fx), part_(part), bias_(bias), cc_(current_limited), drive_(drive),
+        junction_{part ? *part : PartParams{}, part ? saturation_current_a(*part, temp_k) : 0.0,
+                  part ? part->n * fitting::thermal_voltage_v(temp_k) : 1.0} {
+    u_.bias_current_unknown = bias.output_on && !cc_ && fx.bias_choke;
+    u_.return_current_unknown = fx.return_kind == ReturnKind::inductor;
+  }
+  const Unknowns& unknowns() const { return u_; }
+
+  // Runs periods until periodic; fills `out`; returns the residuals
+  // (all in amperes: voltage conditions are divided by RL).
+  std::vector<double> residuals(const std::vector<double>& x, PeriodSolution& out) {
+    const double vc1 = x[0], vc2 = x[1];
+    int k = 2;
+    const double ib_unknown = u_.bias_current_unknown ? x[k++] : 0.0;
+    const double il = u_.return_current_unknown ? x[k++] : 0.0;
+
+    double ga = 1.0 / fx_.rg_ohm, ja_const = -vc1 / fx_.rg_ohm;
+    double ib_const = 0.0;  // constant current into A from the bias branch
+    if (bias_.output_on) {
+      if (cc_) ib_const = bias_.current_limit_a;
+      else if (fx_.bias_choke) ib_const = ib_unknown;
+      else {
+        ga += 1.0 / fx_.rb_ohm;
+        ja_const += bias_.voltage_v / fx_.rb_ohm;
+      }
+    }
+    ja_const += ib_const;
+    double gk = 1.0 / fx_.rl_ohm, jk = vc2 / fx_.rl_ohm - il;
+    if (fx_.return_kind == ReturnKind::resistor) gk += 1.0 / fx_.return_ohm;
+    const double ra = 1.0 / ga, rk = 1.0 / gk, vk0 = jk / gk;
+    const double rth = ra + (part_ ? part_->rs_ohm : 0.0) + rk;
+
+    const int n = fx_.steps_per_period;
+    const double period = 1.0 / drive_.freq_hz, h = period / n, w = 2.0 * M_PI * drive_.freq_hz;
+    const double amp = drive_.emf_vpp / 2.0;
+    auto emf = [&](int step) { return amp * std::sin(w * h * step); };
+    out.ch1.assign(n, 0.0);
+    out.ch2.assign(n, 0.0);
+    out.i.assign(n, 0.0);
+    out.va.assign(n, 0.0);
+    out.vk.assign(n, 0.0);
+    auto record = [&](int step, double e, double i) {
+      const double va0 = (e / fx_.rg_ohm + ja_const) * ra;
+      const double va = va0 - ra * i, vk = vk0 + rk * i;
+      out.i[step] = i;
+      out.va[step] = va;
+      out.vk[step] = vk;
+      out.ch1[step] = vc1 + va;
+      out.ch2[step] = vk - vc2;
+    };
+    if (!part_) {
+      for (int s = 0; s < n; ++s) record(s, emf(s), 0.0);
+    } else {
+      periodic_junction(n, h, rth, [&](int step) { return (emf(step) / fx_.rg_ohm + ja_const) * ra - vk0; });
+      for (int s = 0; s < n; ++s) {
+        const double vth = (emf(s) / fx_.rg_ohm + ja_const) * ra - vk0;
+        record(s, emf(s), (vth - vj_[s]) / rth);
+      }
+    }
+    std::vector<double> r;
+    double ig_mean = 0, il_mean = 0;
+    for (int s = 0; s < n; ++s) {
+      ig_mean += (emf(s) - out.ch1[s]) / fx_.rg_ohm;
+      il_mean += out.ch2[s] / fx_.rl_ohm;
+    }
+    r.push_back(ig_mean / n);
+    r.push_back(il_mean / n);
+    if (u_.bias_current_unknown) r.push_back((bias_.voltage_v - out.mean(out.va)) / fx_.rb_ohm - ib_unknown);
+    if (u_.return_current_unknown) r.push_back(out.mean(out.vk) / fx_.rl_ohm);
+    return r;
+  }
+
+  double start_v = 0.0;  // junction voltage at t = 0 (warm start between calls)
+
+ private:
+  // Junction voltage over one period in periodic steady state: BDF2 on the
+  // charge, repeated periods until the start and end states agree.
+  template <class Vth>
+  void periodic_junction(int n, double h, double rth, Vth vth) {
+    vj_.assign(n, 0.0);
+    double v_prev = start_v, q_prev = junction_.charge(start_v);
+    double q_prev2 = q_prev;
+    bool first = true;
+    for (int period = 0; period < 400; ++period) {
+      const double v_start = v_prev;
+      for (int s = 1; s <= n; ++s) {
+        const int step = s % n;
+        // BDF2: (3q − 4q₁ + q₂)/(2h) = i_c; first step backward Euler.
+        const double a = first ? 1.0 : 1.5;
+        const double b = first ? q_prev : 2.0 * q_prev - 0.5 * q_prev2;
+        const double v = solve_step(vth(step), rth, a, b, h, v_prev);
+        q_prev2 = q_prev;
+        q_prev = junction_.charge(v);
+        v_prev = v;
+        vj_[step] = v;
+        first = false;
+      }
+      if (period > 0 && std::abs(v_prev - v_start) < 1e-12) break;
+    }
+    start_v = v_prev;
+  }
+
+  // Solves (vth − v)/rth − Id(v) − (a·q(v) − b)/h = 0; f is strictly
+  // decreasing in v, so a bracket plus safeguarded Newton always converges.
+  double solve_step(double vth, double rth, double a, double b, double h, double guess) const {
+    auto f = [&](double v) { return (vth - v) / rth - junction_.current(v) - (a * junction_.charge(v) - b) / h; };
+    auto df = [&](double v) { return -1.0 / rth - junction_.conductance(v) - a * junction_.capacitance(v) / h; };
+    double lo = guess, hi = guess;
+    double f0 = f(guess);
+    if (f0 == 0.0) return guess;
+    double step = 0.05;
+    if (f0 > 0) {
+      do { lo = hi; hi += step; step *= 2; } while (f(hi) > 0);
+    } else {
+      do { hi = lo; lo -= step; step *= 2; } while (f(lo) < 0);
+    }
+    double v = f0 > 0 ? lo : hi;
+    for (int it = 0; it < 200; ++it) {
+      const double fv = f(v);
+      if (fv > 0) lo = v; else hi = v;
+      double next = v - fv / df(v);
+      if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
+      if (std::abs(next - v) < 1e-15 + 1e-13 * std::abs(v) || hi - lo < 1e-15) return next;
+      v = next;
+    }
+    return v;
+  }
+
+  const FixtureConfig& fx_;
+  const PartParams* part_;
+  BiasSetting bias_;
+  bool cc_;
+  AcDrive drive_;
+  Junction junction_;
+  Unknowns u_;
+  std::vector<double> vj_;
+};
+
+// Gaussian elimination with partial pivoting on a small dense system.
+bool solve_linear(std::vector<std::vector<double>> a, std::vector<double>& b) {
+  const size_t n = b.size();
+  for (size_t c = 0; c < n; ++c) {
+    size_t piv = c;
+    for (size_t r = c + 1; r < n; ++r)
+      if (std::abs(a[r][c]) > std::abs(a[piv][c])) piv = r;
+    if (std::abs(a[piv][c]) < 1e-300) return false;
+    std::swap(a[piv], a[c]);
+    std::swap(b[piv], b[c]);
+    for (size_t r = c + 1; r < n; ++r) {
+      const double f = a[r][c] / a[c][c];
+      for (size_t k = c; k < n; ++k) a[r][k] -= f * a[c][k];
+      b[r] -= f * b[c];
+    }
+  }
+  for (size_t c = n; c-- > 0;) {
+    for (size_t k = c + 1; k < n; ++k) b[c] -= a[c][k] * b[k];
+    b[c] /= a[c][c];
+  }
+  return true;
+}
+
+}  // namespace
+
+AcResult solve_ac(const FixtureConfig& fx, const PartParams* part, const BiasSetting& bias, double temp_k,
+                  const AcDrive& drive) {
+  AcResult res;
+  res.dc = solve_dc(fx, part, bias, temp_k);
+  if (!drive.on || drive.emf_vpp <= 0.0 || drive.freq_hz <= 0.0) return res;
+
+  PeriodSolver solver(fx, part, bias, res.dc.current_limited, temp_k, drive);
+  // Start from the DC point: block voltages and choke currents as at DC.
+  const double vk_dc = fx.return_kind == ReturnKind::resistor ? res.dc.i_a * fx.return_ohm : 0.0;
+  const double va_dc = vk_dc + (bias.output_on ? res.dc.v_part_v : 0.0);
+  std::vector<double> x{-va_dc, vk_dc};
+  if (solver.unknowns().bias_current_unknown) x.push_back(res.dc.i_a);
+  if (solver.unknowns().return_current_unknown) x.push_back(res.dc.i_a);
+  solver.start_v = part ? res.dc.v_part_v - res.dc.i_a * part->rs_ohm : 0.0;
+
+  PeriodSolution sol;
+  std::vector<double> r = solver.residuals(x, sol);
+  res.converged = false;
+  for (int iter = 0; iter < 30; ++iter) {
+    double worst = 0;
+    for (double v : r) worst = std::max(worst, std::abs(v));
+    if (worst < 1e-13 + 1e-9 * drive.emf_vpp / fx.rl_ohm) {
+      res.converged = true;
+      break;
+    }
+    // Finite-difference Jacobian; steps sized to volts or amperes.
+    const size_t m = x.size();
+    std::vector<std::vector<double>> jac(m, std::vector<double>(m));
+    const double start_v = solver.start_v;
+    for (size_t c = 0; c < m; ++c) {
+      auto xp = x;
+      const double d = c < 2 ? 1e-6 : 1e-8;
+      xp[c] += d;
+      PeriodSolution tmp;
+      solver.start_v = start_v;
+      const auto rp = solver.residuals(xp, tmp);
+      for (size_t row = 0; row < m; ++row) jac[row][c] = (rp[row] - r[row]) / d;
+    }
+    solver.start_v = start_v;
+    std::vector<double> dx(r.size());
+    for (size_t i = 0; i < r.size(); ++i) dx[i] = -r[i];
+    if (!solve_linear(jac, dx)) break;
+    // Damped step: accept the first that lowers the worst residual.
+    double scale = 1.0;
+    for (int tries = 0; tries < 8; ++tries, scale *= 0.5) {
+      auto xn = x;
+      for (size_t i = 0; i < m; ++i) xn[i] += scale * dx[i];
+      solver.start_v = start_v;
+      PeriodSolution cand;
+      const auto rn = solver.residuals(xn, cand);
+      double worst_n = 0;
+      for (double v : rn) worst_n = std::max(worst_n, std::abs(v));
+      if (worst_n < worst || tries == 7) {
+        x = xn;
+        r = rn;
+        sol = std::move(cand);
+        break;
+      }
+    }
+  }
+
+  auto rms = [](const std::vector<double>& w) {
+    double s = 0;
+    for (double v : w) s += v * v;
+    return std::sqrt(s / static_cast<double>(w.size()));
+  };
+  auto pp = [](const std::vector<double>& w) {
+    const auto [mn, mx] = std::minmax_element(w.begin(), w.end());
+    return *mx - *mn;
+  };
+  res.in_vrms = rms(sol.ch1);
+  res.in_vpp = pp(sol.ch1);
+  res.out_vrms = rms(sol.ch2);
+  res.out_vpp = pp(sol.ch2);
+  // DC readings with the signal applied: means over the period.
+  if (part) {
+    res.dc.i_a = sol.mean(sol.i);
+    std::vector<double> vpart(sol.va.size());
+    double p = 0;
+    for (size_t s = 0; s < vpart.size(); ++s) {
+      vpart[s] = sol.va[s] - sol.vk[s];
+      p += sol.i[s] * vpart[s];
+    }
+    res.dc.v_part_v = sol.mean(vpart);
+    res.dc.power_w = p / static_cast<double>(vpart.size());
+  } else {
+    std::vector<double> vpart(sol.va.size());
+    for (size_t s = 0; s < vpart.size(); ++s) vpart[s] = sol.va[s] - sol.vk[s];
+    res.dc.v_part_v = sol.mean(vpart);
+  }
+  if (bias.output_on && !res.dc.current_limited) {
+    if (fx.bias_choke) res.dc.supply_i_a = x[2];
+    else res.dc.supply_i_a = (bias.voltage_v - sol.mean(sol.va)) / fx.rb_ohm;
+  } else if (res.dc.current_limited) {
+    res.dc.supply_v = sol.mean(sol.va) + fx.rb_ohm * bias.current_limit_a;
+  }
+  res.wave_in_v = std::move(sol.ch1);
+  res.wave_out_v = std::move(sol.ch2);
+  return res;
+}
+
+}  // namespace junco::sim

@@ -1,0 +1,53 @@
+// One simulated part (a silicon small-signal switching diode) and the seeded
+// lot of parts that sits in the fixture slots.
+#pragma once
+
+#include "fitting/diode.hpp"
+
+#include <cstdint>
+#include <string>
+#include <vector>
+
+namespace junco::sim {
+
+// SPICE level-1 parameters (names as in REFERENCES.md §2), at tnom_k.
+struct PartParams {
+  double is_a = 2.5e-9;  // saturation current
+  double n = 1.85;       // ideality
+  double rs_ohm = 0.7;   // series resistance
+  double cj0_f = 2.0e-12;  // zero-bias junction capacitance
+  double vj_v = 0.65;    // junction potential
+  double m = 0.4;        // grading coefficient
+  double fc = 0.5;       // forward-bias depletion capacitance coefficient
+  double tt_s = 0.0;     // transit time (diffusion capacitance TT·gd); 0 = none
+  double eg_ev = 1.11;   // band gap for IS(T)
+  double xti = 3.0;      // IS temperature exponent
+  double tnom_k = 300.15;
+};
+
+// IS(T) = IS·(T/TNOM)^(XTI/N)·exp[(T/TNOM − 1)·EG/(N·Vt(T))] (REFERENCES.md §2).
+double saturation_current_a(const PartParams& p, double temp_k);
+// DC diode parameters at temperature, with extra series resistance added.
+fitting::DiodeParams dc_params(const PartParams& p, double temp_k, double extra_series_ohm = 0.0);
+
+// Junction (depletion + diffusion) charge and capacitance at junction voltage
+// v; SPICE C–V law with the FC linearisation (REFERENCES.md §2).
+double junction_charge_c(const PartParams& p, double v, double diode_current_a);
+double junction_capacitance_f(const PartParams& p, double v, double diode_conductance_s);
+
+struct LotSpread {
+  double is_ln_sigma = 0.25;     // spread of ln(Is)
+  double n_sigma = 0.02;         // absolute
+  double rs_rel_sigma = 0.08;    // relative
+  double cj0_rel_sigma = 0.08;   // relative
+};
+
+struct Slot {
+  int slot = 0;          // 1-based
+  bool fitted = true;    // false: empty slot (open circuit)
+  PartParams part;
+};
+
+std::vector<Slot> draw_lot(const PartParams& nominal, const LotSpread& spread, int slots, std::uint64_t seed);
+
+}  // namespace junco::sim
