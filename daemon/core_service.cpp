@@ -1,8 +1,263 @@
-// Temporary stub so main.cpp links; the real service lands shortly.
 #include "daemon/core_service.hpp"
 
+#include "daemon/bench.hpp"
+#include "daemon/event_bus.hpp"
+#include "daemon/executor.hpp"
+#include "daemon/part_export.hpp"
+#include "daemon/jobs.hpp"
+#include "daemon/plan.hpp"
+#include "daemon/store.hpp"
+#include "fitting/derived.hpp"
+
+#include <chrono>
+#include <iostream>
+#include <map>
+#include <set>
+
+#ifndef JUNCO_VERSION
+#define JUNCO_VERSION "0.0.0"
+#endif
+
 namespace junco::daemon {
-std::unique_ptr<Service> make_service(const Config&, ServiceOptions) {
-  throw RequestError(RpcCode::unavailable, "core service not implemented yet");
+
+namespace {
+
+// ---- params helpers: each names the field it rejects ----------------------
+
+void require_object(const Json& params) {
+  if (!params.is_object() && !params.is_null())
+    throw RequestError(RpcCode::invalid_params, std::string("params must be an object, not ") + params.type_name());
 }
+
+Id id_param(const Json& params, const char* key) {
+  if (!params.is_object() || !params.contains(key))
+    throw RequestError(RpcCode::invalid_params, std::string(key) + ": missing (required)", Json{{"field", key}});
+  const Json& v = params.at(key);
+  if (!v.is_number_integer() || v.get<long long>() < 1)
+    throw RequestError(RpcCode::invalid_params, std::string(key) + ": must be a positive integer", Json{{"field", key}});
+  return v.get<Id>();
+}
+
+std::optional<Id> opt_id_param(const Json& params, const char* key) {
+  if (!params.is_object() || !params.contains(key) || params.at(key).is_null()) return std::nullopt;
+  return id_param(params, key);
+}
+
+std::optional<std::string> opt_string_param(const Json& params, const char* key) {
+  if (!params.is_object() || !params.contains(key) || params.at(key).is_null()) return std::nullopt;
+  const Json& v = params.at(key);
+  if (!v.is_string()) throw RequestError(RpcCode::invalid_params, std::string(key) + ": must be a string, not " + v.type_name(), Json{{"field", key}});
+  return v.get<std::string>();
+}
+
+const std::set<std::string> kStates{"queued", "running", "paused", "done", "failed", "cancelled", "interrupted"};
+
+class CoreService final : public Service {
+ public:
+  CoreService(const Config& config, ServiceOptions options)
+      : config_(config),
+        log_(options.log ? std::move(options.log) : [](std::string_view line) { std::cerr << "juncod: " << line << std::endl; }),
+        store_(config_.paths.database),
+        queue_(store_, events_),
+        executor_(config_, store_, queue_, events_, options.open_bench ? std::move(options.open_bench) : BenchOpener(open_bench), log_),
+        started_(std::chrono::steady_clock::now()) {
+    log_("store: " + config_.paths.database.string() + " (schema version " + std::to_string(store_.schema_version()) + ")");
+    executor_.make_bench_safe_at_start();
+    const auto [resumed, interrupted] = queue_.recover();
+    if (resumed || interrupted)
+      log_("recovered after restart: " + std::to_string(resumed) + " job(s) to resume, " + std::to_string(interrupted) + " interrupted");
+    build_table();
+    executor_.start();
+  }
+
+  ~CoreService() override { shutdown(); }
+
+  Json call(std::string_view method, const Json& params, const Caller& caller) override {
+    auto it = table_.find(std::string(method));
+    if (it == table_.end()) throw RequestError(RpcCode::method_not_found, "unknown method \"" + std::string(method) + "\"");
+    require_object(params);
+    const Json p = params.is_null() ? Json::object() : params;
+    try {
+      return it->second(p, caller);
+    } catch (const StoreError& e) {
+      throw RequestError(RpcCode::storage_error, std::string("store: ") + e.what());
+    }
+  }
+
+  EventBus& events() override { return events_; }
+
+  void shutdown() override {
+    std::call_once(shutdown_once_, [this] {
+      executor_.stop();
+      log_("shut down: outputs off");
+    });
+  }
+
+ private:
+  using Handler = std::function<Json(const Json&, const Caller&)>;
+
+  void build_table() {
+    table_["daemon.status"] = [this](const Json&, const Caller&) { return status(); };
+    table_["bench.describe"] = [this](const Json&, const Caller&) { return describe(); };
+    table_["job.submit"] = [this](const Json& p, const Caller& c) { return submit(p, c); };
+    table_["job.list"] = [this](const Json& p, const Caller&) { return list_jobs(p); };
+    table_["job.get"] = [this](const Json& p, const Caller&) { return get_job(id_param(p, "job_id")); };
+    table_["job.cancel"] = [this](const Json& p, const Caller&) { return to_json(queue_.cancel(id_param(p, "job_id"))); };
+    table_["job.pause"] = [this](const Json& p, const Caller&) { return to_json(queue_.pause(id_param(p, "job_id"))); };
+    table_["job.resume"] = [this](const Json& p, const Caller&) { return to_json(queue_.resume(id_param(p, "job_id"))); };
+    table_["lot.list"] = [this](const Json&, const Caller&) { return Json{{"lots", store_.lots()}}; };
+    table_["part.list"] = [this](const Json& p, const Caller&) { return Json{{"parts", store_.parts(opt_string_param(p, "lot"))}}; };
+    table_["part.readings"] = [this](const Json& p, const Caller&) { return readings(p); };
+    table_["part.fit"] = [this](const Json& p, const Caller&) { return fit_of(id_param(p, "part_id")); };
+    table_["part.figures"] = [this](const Json& p, const Caller&) { return figures(p); };
+    table_["part.export"] = [this](const Json& p, const Caller&) { return export_part(p); };
+  }
+
+  Json status() {
+    Json queued = Json::array();
+    for (const auto& j : store_.jobs(std::string("queued"))) queued.push_back(j.id);
+    const auto running = queue_.running();
+    return {{"version", JUNCO_VERSION},
+            {"uptime_s", std::chrono::duration<double>(std::chrono::steady_clock::now() - started_).count()},
+            {"running_job", running ? Json(*running) : Json(nullptr)},
+            {"queue", queued},
+            {"bench_open", executor_.bench_open()},
+            {"database", config_.paths.database.string()},
+            {"schema_version", store_.schema_version()}};
+  }
+
+  Json describe() {
+    Json instruments = Json::array();
+    const Json ids = executor_.identities();
+    for (const auto& [role, ic] : config_.bench)
+      instruments.push_back({{"role", role}, {"address", ic.address}, {"dialect", ic.dialect_path.string()},
+                             {"identity", ids.contains(role) ? ids[role] : Json(nullptr)}});
+    const auto& f = config_.fixture;
+    const auto& s = config_.safety;
+    return {{"instruments", instruments},
+            {"seen", store_.instruments()},
+            {"fixture",
+             {{"bias_resistor_ohm", f.bias_resistor_ohm}, {"dc_return_ohm", f.dc_return_ohm}, {"source_ohm", f.source_ohm},
+              {"load_ohm", f.load_ohm}, {"slots", f.slots}, {"current_from", to_string(f.current_from)}}},
+            {"safety",
+             {{"max_supply_v", s.max_supply_v}, {"current_limit_a", s.current_limit_a}, {"max_power_w", s.max_power_w},
+              {"max_reverse_v", s.max_reverse_v}, {"max_job_s", s.max_job_s}}}};
+  }
+
+  Json submit(const Json& params, const Caller& caller) {
+    if (!params.contains("plan")) throw RequestError(RpcCode::invalid_params, "plan: missing (required)", Json{{"field", "plan"}});
+    const Plan plan = parse_plan(params.at("plan"));
+    check_plan(plan, config_);
+    const long total = static_cast<long>(expand_steps(plan).size() * plan.parts.size());
+    const Id id = queue_.submit(plan, total, caller);
+    log_("job " + std::to_string(id) + ": submitted by uid " + std::to_string(caller.uid) + " pid " + std::to_string(caller.pid) + " (" +
+         std::to_string(total) + " points)");
+    return {{"job_id", id}, {"points_total", total}};
+  }
+
+  Json list_jobs(const Json& params) {
+    const auto state = opt_string_param(params, "state");
+    if (state && !kStates.count(*state)) throw RequestError(RpcCode::invalid_params, "state: unknown job state \"" + *state + "\"", Json{{"field", "state"}});
+    Json jobs = Json::array();
+    for (const auto& j : store_.jobs(state)) jobs.push_back(to_json(j));
+    return {{"jobs", jobs}};
+  }
+
+  Json get_job(Id id) {
+    auto j = store_.job(id);
+    if (!j) throw RequestError(RpcCode::not_found, "no job " + std::to_string(id), Json{{"job_id", id}});
+    Json out = to_json(*j);
+    Json runs = Json::array();
+    for (const auto& r : store_.runs_of_job(id)) runs.push_back(to_json(r));
+    out["runs"] = runs;
+    return out;
+  }
+
+  PartRow part_or_throw(Id part_id) {
+    auto p = store_.part(part_id);
+    if (!p) throw RequestError(RpcCode::not_found, "no part " + std::to_string(part_id), Json{{"part_id", part_id}});
+    return *p;
+  }
+
+  Json readings(const Json& params) {
+    const PartRow part = part_or_throw(id_param(params, "part_id"));
+    const auto run_id = opt_id_param(params, "run_id");
+    const auto runs = store_.runs_of_part(part.id);
+    const RunRow* run = nullptr;
+    for (const auto& r : runs)
+      if (!run_id || r.id == *run_id) run = &r;  // latest unless asked
+    if (run_id && !run)
+      throw RequestError(RpcCode::not_found, "no run " + std::to_string(*run_id) + " for part " + std::to_string(part.id), Json{{"run_id", *run_id}});
+    Json points = Json::array();
+    if (run)
+      for (const auto& pt : store_.points(run->id)) points.push_back(to_json(pt));
+    return {{"part", to_json(part)}, {"run", run ? to_json(*run) : Json(nullptr)}, {"points", points}};
+  }
+
+  Json fit_of(Id part_id) {
+    part_or_throw(part_id);
+    auto fit = store_.latest_fit(part_id);
+    if (!fit) throw RequestError(RpcCode::not_found, "part " + std::to_string(part_id) + " has no fit yet", Json{{"part_id", part_id}});
+    return *fit;
+  }
+
+  Json figures(const Json& params) {
+    const Id part_id = id_param(params, "part_id");
+    std::vector<double> currents{1e-4, 1e-3, 1e-2};
+    if (params.contains("currents_a")) {
+      const Json& c = params["currents_a"];
+      if (!c.is_array() || c.empty()) throw RequestError(RpcCode::invalid_params, "currents_a: must be a non-empty array of numbers", Json{{"field", "currents_a"}});
+      currents.clear();
+      for (const auto& v : c) {
+        if (!v.is_number() || !(v.get<double>() > 0))
+          throw RequestError(RpcCode::invalid_params, "currents_a: every entry must be a number > 0", Json{{"field", "currents_a"}});
+        currents.push_back(v.get<double>());
+      }
+    }
+    const Json fit = fit_of(part_id);
+    const fitting::FitResult r = fit_result_from_json(fit);
+    if (!r.usable()) throw RequestError(RpcCode::not_found, "part " + std::to_string(part_id) + " has no usable fit (" + fit.value("status", "") + ")");
+    Json rows = Json::array();
+    for (double i : currents) {
+      const auto vf = fitting::forward_voltage_v(r, i);
+      const auto rd = fitting::small_signal_resistance_ohm(r, i);
+      auto num = [](double x) { return std::isfinite(x) ? Json(x) : Json(nullptr); };
+      rows.push_back({{"i_a", i}, {"vf_v", num(vf.value)}, {"vf_v_se", num(vf.std_error)}, {"rd_ohm", num(rd.value)}, {"rd_ohm_se", num(rd.std_error)}});
+    }
+    return {{"part_id", part_id}, {"fit_id", fit["fit_id"]}, {"temp_k", fit["temp_k"]}, {"figures", rows}};
+  }
+
+  Json export_part(const Json& params) {
+    const PartRow part = part_or_throw(id_param(params, "part_id"));
+    const auto format = opt_string_param(params, "format");
+    if (!format) throw RequestError(RpcCode::invalid_params, "format: missing (required)", Json{{"field", "format"}});
+    const Json readings_json = readings(Json{{"part_id", part.id}});
+    const auto fit = store_.latest_fit(part.id);
+    if (*format == "json") return {{"format", "json"}, {"content", export_json(part, readings_json, fit).dump(2)}};
+    if (*format == "csv") return {{"format", "csv"}, {"content", export_csv(readings_json["points"])}};
+    if (*format == "spice") {
+      if (!fit || fit->value("status", "") != "converged")
+        throw RequestError(RpcCode::not_found, "part " + std::to_string(part.id) + " has no usable fit to export as a model card");
+      return {{"format", "spice"}, {"content", export_spice(part, *fit)}};
+    }
+    throw RequestError(RpcCode::invalid_params, "format: must be \"json\", \"csv\" or \"spice\", got \"" + *format + "\"", Json{{"field", "format"}});
+  }
+
+  Config config_;
+  LogFn log_;
+  LocalEventBus events_;
+  Store store_;
+  JobQueue queue_;
+  Executor executor_;
+  std::chrono::steady_clock::time_point started_;
+  std::map<std::string, Handler> table_;
+  std::once_flag shutdown_once_;
+};
+
+}  // namespace
+
+std::unique_ptr<Service> make_service(const Config& config, ServiceOptions options) {
+  return std::make_unique<CoreService>(config, std::move(options));
+}
+
 }  // namespace junco::daemon

@@ -1,0 +1,438 @@
+#include "daemon/executor.hpp"
+
+#include "drivers/errors.hpp"
+#include "fitting/extract.hpp"
+
+#include <chrono>
+#include <cmath>
+#include <sstream>
+
+namespace junco::daemon {
+
+namespace {
+
+using Clock = std::chrono::steady_clock;
+
+constexpr int flag_power_limit = 8;  // v·i above max_power_w: excluded, sweep stops going up
+constexpr int kStopFlags = flag_current_limit | flag_power_limit;
+// Current-targeted steps: corrections of the supply voltage per step, and
+// the tolerance that ends them (common practice, no source).
+constexpr int kTargetIterations = 5;
+constexpr double kTargetTolerance = 0.02;
+constexpr double kOffTarget = 0.05;
+// Diode voltage assumed before the first reading of a current-targeted sweep.
+constexpr double kFirstVfGuessV = 0.5;
+
+// Why a job stops before its end; thrown out of the step loop.
+struct JobStop {
+  enum class Why { pause, cancel, shutdown, fault, timeout } why;
+  std::string message;
+};
+
+double unix_time_s() {
+  return std::chrono::duration<double>(std::chrono::system_clock::now().time_since_epoch()).count();
+}
+
+std::string describe(const drivers::DriverError& e) { return std::string(drivers::to_string(e.kind())) + ": " + e.what(); }
+
+// Runs one job on an open bench; owns nothing, lives for one run_job() call.
+class JobRun {
+ public:
+  JobRun(const Config& c, Store& s, JobQueue& q, EventBus& ev, Bench& b, const LogFn& log, Id id, const Plan& plan, long done, long total)
+      : cfg_(c), store_(s), queue_(q), events_(ev), bench_(b), log_(log), job_id_(id), plan_(plan), steps_(expand_steps(plan)),
+        points_done_(done), points_total_(total), started_(Clock::now()) {}
+
+  void run_all_parts() {
+    for (const auto& part : plan_.parts) run_part(part);
+  }
+
+ private:
+  void run_part(const PartSpec& part) {
+    const Id lot_id = store_.ensure_lot(plan_.lot);
+    const Id part_id = store_.ensure_part(lot_id, part.label, part.slot);
+    const Json fixture{{"bias_resistor_ohm", cfg_.fixture.bias_resistor_ohm}, {"dc_return_ohm", cfg_.fixture.dc_return_ohm},
+                       {"source_ohm", cfg_.fixture.source_ohm}, {"load_ohm", cfg_.fixture.load_ohm},
+                       {"current_from", to_string(cfg_.fixture.current_from)}};
+    const RunRow run = store_.ensure_run(job_id_, part_id, part.slot, fixture, plan_.temp_k);
+    if (run.state == "done") return;  // finished before a restart
+    part_label_ = part.label;
+    part_id_ = part_id;
+    run_id_ = run.id;
+    const auto last = store_.last_seq(run.id);
+    const std::size_t first = last ? static_cast<std::size_t>(*last + 1) : 0;
+    stopped_high_ = store_.run_has_flag(run.id, kStopFlags);
+    if (first < steps_.size()) measure(part.slot, first);
+    store_.finish_run(run.id, "done");
+    fit_part(part_id, run.id);
+  }
+
+  void measure(int slot, std::size_t first) {
+    check(bench_.make_safe(), "making the bench safe");
+    guarded([&] { bench_.scanner->connect_slot(slot); });
+    guarded([&] {
+      bench_.source->set_current_limit_a(compliance_a(plan_, cfg_));  // before output on, always
+      bench_.source->set_voltage_v(0.0);
+      bench_.source->set_output(true);
+    });
+    biased_index_ = -1;
+    siggen_on_ = false;
+    vf_guess_v_ = kFirstVfGuessV;
+    for (std::size_t seq = first; seq < steps_.size(); ++seq) {
+      poll();
+      const Step& step = steps_[seq];
+      if (stopped_high_ && step.kind != Step::Kind::reverse) {
+        ++skipped_;
+        continue;
+      }
+      PointRow p = take_with_retries(step);
+      p.run_id = run_id_;
+      p.seq = static_cast<long>(seq);
+      store_.insert_point(job_id_, p);
+      ++points_done_;
+      ++taken_;
+      publish_point(p);
+      if (p.flags & kStopFlags) {
+        stopped_high_ = true;
+        guarded([&] { bench_.source->set_voltage_v(0.0); });
+        log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " +
+             ((p.flags & flag_current_limit) ? "supply in current limit" : "power above max_power_w") + " at step " +
+             std::to_string(seq) + "; no further forward steps");
+      }
+      publish_progress();
+    }
+    check(bench_.make_safe(), "making the bench safe after the part");
+  }
+
+  // --- one reading ---------------------------------------------------------
+
+  PointRow take_with_retries(const Step& step) {
+    for (int attempt = 1;; ++attempt) {
+      try {
+        PointRow p = take(step);
+        if (attempt > 1) p.flags |= flag_retried;
+        return p;
+      } catch (const drivers::DriverError& e) {
+        const bool retry = e.kind() != drivers::ErrorKind::config && attempt < kPointAttempts;
+        log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " + describe(e) +
+             (retry ? " (retrying, attempt " + std::to_string(attempt) + ")" : ""));
+        if (!retry)
+          throw JobStop{JobStop::Why::fault, describe(e) + " (part " + part_label_ + ", after " + std::to_string(attempt) + " attempts)"};
+        biased_index_ = -1;  // re-establish the bias on the next attempt
+        if (!queue_.sleep_for(std::chrono::milliseconds(50 * attempt))) poll();
+      }
+    }
+  }
+
+  PointRow take(const Step& step) {
+    PointRow p;
+    p.kind = to_string(step.kind);
+    p.set_value = step.set_value;
+    p.set_unit = (step.kind != Step::Kind::reverse && plan_.sweep.mode == SweepMode::current) ? "A" : "V";
+    if (step.kind != Step::Kind::ac && siggen_on_) {
+      bench_.siggen->set_output(false);
+      siggen_on_ = false;
+    }
+    if (step.kind == Step::Kind::reverse) {
+      biased_index_ = -1;
+      set_supply(step.set_value);  // negative: reverse bias; magnitude checked against max_reverse_v
+      wait(plan_.sweep.settle_s);
+      read_dc(p);
+    } else if (step.kind == Step::Kind::dc) {
+      bias(step, p);
+    } else {
+      if (biased_index_ != step.dc_index) {
+        PointRow scratch;
+        bias(step, scratch);  // resumed into the AC part of a step: bias first
+      }
+      if (!siggen_on_) {
+        bench_.siggen->set_amplitude(plan_.ac->amplitude, plan_.ac->unit);
+      }
+      bench_.siggen->set_frequency_hz(step.freq_hz);
+      if (!siggen_on_) {
+        bench_.siggen->set_output(true);
+        siggen_on_ = true;
+      }
+      wait(plan_.ac->settle_s);
+      p.ac_unit = plan_.ac->unit == drivers::LevelUnit::vrms ? "vrms" : "vpp";
+      p.freq_hz = step.freq_hz;
+      p.ac_in_v = bench_.levelmeter->measure_level(1, plan_.ac->unit);
+      p.ac_out_v = bench_.levelmeter->measure_level(2, plan_.ac->unit);
+      p.supply_v = supply_v_;
+    }
+    p.t_s = unix_time_s();
+    return p;
+  }
+
+  // Programs the forward bias of a dc step and reads it into p.
+  void bias(const Step& step, PointRow& p) {
+    if (plan_.sweep.mode == SweepMode::voltage) {
+      set_supply(step.set_value);
+      wait(plan_.sweep.settle_s);
+      read_dc(p);
+    } else {
+      target_current(step.set_value, p);
+    }
+    biased_index_ = step.dc_index;
+  }
+
+  void target_current(double target_a, PointRow& p) {
+    const double r = cfg_.fixture.bias_resistor_ohm + cfg_.fixture.dc_return_ohm;
+    double v_set = target_a * r + vf_guess_v_;
+    double prev_v = NAN, prev_i = NAN;
+    for (int k = 0; k < kTargetIterations; ++k) {
+      set_supply(v_set);
+      wait(plan_.sweep.settle_s);
+      read_dc(p);
+      if (p.flags & kStopFlags) return;
+      if (std::fabs(p.i_a - target_a) <= kTargetTolerance * target_a) break;
+      // Secant on (supply, current) when two readings differ; else the
+      // fixture resistance plus a generous junction rd ≈ 2·Vt/I.
+      double slope = 0;
+      if (std::isfinite(prev_v) && std::fabs(p.i_a - prev_i) > 1e-12 && std::fabs(v_set - prev_v) > 1e-9)
+        slope = (p.i_a - prev_i) / (v_set - prev_v);
+      if (!(slope > 0)) slope = 1.0 / (r + 0.05 / std::max(std::fabs(p.i_a), 1e-9));
+      prev_v = v_set;
+      prev_i = p.i_a;
+      v_set = std::clamp(v_set + (target_a - p.i_a) / slope, 0.0, cfg_.safety.max_supply_v);
+    }
+    if (std::fabs(p.i_a - target_a) > kOffTarget * target_a) p.flags |= flag_off_target;
+    if (std::isfinite(p.v)) vf_guess_v_ = p.v;
+  }
+
+  // Never programs beyond the limits, whatever the plan said.
+  void set_supply(double v) {
+    const double hi = cfg_.safety.max_supply_v, lo = -std::min(cfg_.safety.max_reverse_v, cfg_.safety.max_supply_v);
+    v = std::clamp(v, lo, hi);
+    bench_.source->set_voltage_v(v);
+    supply_v_ = v;
+  }
+
+  void read_dc(PointRow& p) {
+    double v_sum = 0, i_sum = 0;
+    const int n = plan_.sweep.average;
+    for (int k = 0; k < n; ++k) {
+      v_sum += bench_.meter->measure_dc_voltage_v();
+      i_sum += cfg_.fixture.current_from == CurrentFrom::source ? bench_.source->measure_current_a() : bench_.meter->measure_dc_current_a();
+    }
+    p.v = v_sum / n;
+    p.i_a = i_sum / n;
+    p.supply_v = supply_v_;
+    if (bench_.source->in_current_limit()) p.flags |= flag_current_limit;
+    if (std::fabs(p.v * p.i_a) > cfg_.safety.max_power_w) p.flags |= flag_power_limit;
+  }
+
+  void wait(double s) {
+    if (s > 0 && !queue_.sleep_for(std::chrono::duration<double>(s))) poll();
+  }
+
+  // --- control, faults, events ---------------------------------------------
+
+  void poll() {
+    switch (queue_.control()) {
+      case Control::none: break;
+      case Control::pause: throw JobStop{JobStop::Why::pause, "paused by request"};
+      case Control::cancel: throw JobStop{JobStop::Why::cancel, "cancelled by request"};
+      case Control::shutdown: throw JobStop{JobStop::Why::shutdown, "daemon shutting down"};
+    }
+    if (Clock::now() - started_ > std::chrono::duration<double>(cfg_.safety.max_job_s)) {
+      std::ostringstream os;
+      os << "job exceeded safety limit max_job_s = " << cfg_.safety.max_job_s << " s";
+      throw JobStop{JobStop::Why::timeout, os.str()};
+    }
+  }
+
+  // Bench commands outside a reading: retried like readings, then a fault.
+  template <typename F>
+  void guarded(F&& f) {
+    for (int attempt = 1;; ++attempt) {
+      try {
+        f();
+        return;
+      } catch (const drivers::DriverError& e) {
+        if (e.kind() == drivers::ErrorKind::config || attempt >= kPointAttempts)
+          throw JobStop{JobStop::Why::fault, describe(e) + " (part " + part_label_ + ")"};
+        queue_.sleep_for(std::chrono::milliseconds(50 * attempt));
+      }
+    }
+  }
+
+  void check(const std::string& errors, const char* what) {
+    if (!errors.empty()) throw JobStop{JobStop::Why::fault, std::string(what) + ": " + errors};
+  }
+
+  void publish_point(const PointRow& p) {
+    Json d = to_json(p);
+    d["job_id"] = job_id_;
+    d["part_id"] = part_id_;
+    d["part"] = part_label_;
+    events_.publish({"point.added", std::move(d)});
+  }
+
+  void publish_progress() {
+    const double elapsed = std::chrono::duration<double>(Clock::now() - started_).count();
+    const long remaining = std::max(0L, points_total_ - points_done_ - skipped_);
+    const Json eta = taken_ > 0 ? Json(elapsed / static_cast<double>(taken_) * static_cast<double>(remaining)) : Json(nullptr);
+    events_.publish({"job.progress",
+                     {{"job_id", job_id_}, {"points_done", points_done_}, {"points_total", points_total_}, {"eta_s", eta}, {"part", part_label_}}});
+  }
+
+  void fit_part(Id part_id, Id run_id) {
+    std::vector<fitting::IvPoint> pts;
+    for (const auto& p : store_.points(run_id))
+      if (p.kind == "dc" && !(p.flags & kStopFlags) && std::isfinite(p.v) && std::isfinite(p.i_a)) pts.push_back({p.v, p.i_a});
+    try {
+      fitting::FitOptions opt;
+      opt.temp_k = plan_.temp_k;
+      const auto fit = fitting::fit_forward(pts, opt);
+      store_.insert_fit(part_id, run_id, fit);
+      log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": fit " + fitting::to_string(fit.status) + " on " +
+           std::to_string(fit.points_used) + " points");
+    } catch (const std::exception& e) {
+      log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": fit failed: " + e.what());
+    }
+  }
+
+  const Config& cfg_;
+  Store& store_;
+  JobQueue& queue_;
+  EventBus& events_;
+  Bench& bench_;
+  const LogFn& log_;
+  Id job_id_;
+  const Plan& plan_;
+  std::vector<Step> steps_;
+  long points_done_, points_total_;
+  long taken_ = 0, skipped_ = 0;
+  Clock::time_point started_;
+  std::string part_label_;
+  Id part_id_ = 0, run_id_ = 0;
+  bool stopped_high_ = false, siggen_on_ = false;
+  int biased_index_ = -1;
+  double supply_v_ = 0, vf_guess_v_ = kFirstVfGuessV;
+};
+
+}  // namespace
+
+Executor::Executor(const Config& config, Store& store, JobQueue& queue, EventBus& events, BenchOpener open, LogFn log)
+    : config_(config), store_(store), queue_(queue), events_(events), open_(std::move(open)), log_(std::move(log)) {}
+
+Executor::~Executor() { stop(); }
+
+void Executor::make_bench_safe_at_start() {
+  if (!ensure_bench()) return;
+  const std::string errors = bench_->make_safe();
+  if (errors.empty()) log_("bench: every output off, scanner open");
+  else log_("bench: could not make every instrument safe at start: " + errors);
+}
+
+void Executor::start() {
+  if (!thread_.joinable()) thread_ = std::thread([this] { loop(); });
+}
+
+void Executor::stop() {
+  queue_.stop();
+  if (thread_.joinable()) thread_.join();
+  if (bench_) bench_->make_safe();
+}
+
+Json Executor::identities() const {
+  std::lock_guard lock(ident_mutex_);
+  return identities_;
+}
+
+bool Executor::ensure_bench() {
+  if (bench_) return true;
+  try {
+    bench_ = open_(config_);
+    bench_open_ = true;
+    identify();
+    return true;
+  } catch (const std::exception& e) {
+    log_(std::string("bench: cannot open: ") + e.what());
+    bench_.reset();
+    bench_open_ = false;
+    return false;
+  }
+}
+
+void Executor::drop_bench() {
+  if (bench_) bench_->make_safe();
+  bench_.reset();
+  bench_open_ = false;
+}
+
+void Executor::identify() {
+  auto one = [&](const char* role, drivers::Instrument* inst) {
+    if (!inst) return;
+    try {
+      const auto id = inst->identify();
+      const auto* ic = config_.instrument(role);
+      store_.record_instrument(role, ic ? ic->address : "", id.manufacturer, id.model, id.serial, id.firmware);
+      std::lock_guard lock(ident_mutex_);
+      identities_[role] = {{"manufacturer", id.manufacturer}, {"model", id.model}, {"serial", id.serial}, {"firmware", id.firmware}};
+    } catch (const std::exception& e) {
+      log_(std::string("bench: ") + role + " *IDN? failed: " + e.what());
+    }
+  };
+  one("source", bench_->source.get());
+  one("meter", bench_->meter.get());
+  one("scanner", bench_->scanner.get());
+  one("siggen", bench_->siggen.get());
+  one("levelmeter", bench_->levelmeter.get());
+}
+
+void Executor::loop() {
+  while (auto id = queue_.wait_next()) {
+    if (!ensure_bench()) {
+      // Leave the job queued; try again shortly unless we are stopping.
+      queue_.sleep_for(std::chrono::seconds(2));
+      continue;
+    }
+    if (!queue_.claim(*id)) continue;
+    try {
+      run_job(*id);
+    } catch (const std::exception& e) {
+      // A bug or a store failure: never leave the bench live.
+      if (bench_) bench_->make_safe();
+      log_("job " + std::to_string(*id) + ": failed: " + e.what());
+      try {
+        queue_.set_state(*id, "failed", e.what());
+      } catch (...) {
+      }
+    }
+    queue_.set_running(std::nullopt);
+  }
+}
+
+void Executor::run_job(Id id) {
+  const auto row = store_.job(id);
+  const Plan plan = parse_plan(row->plan);
+  log_("job " + std::to_string(id) + ": running (" + std::to_string(row->points_done) + " of " + std::to_string(row->points_total) +
+       " points already committed)");
+  JobRun run(config_, store_, queue_, events_, *bench_, log_, id, plan, row->points_done, row->points_total);
+  try {
+    run.run_all_parts();
+    const std::string errors = bench_->make_safe();
+    queue_.set_state(id, "done", errors.empty() ? std::optional<std::string>() : "finished, but: " + errors);
+    log_("job " + std::to_string(id) + ": done");
+  } catch (const JobStop& stop) {
+    const std::string errors = bench_->make_safe();
+    const std::string msg = stop.message + (errors.empty() ? "" : "; " + errors);
+    log_("job " + std::to_string(id) + ": " + msg);
+    switch (stop.why) {
+      case JobStop::Why::pause: queue_.set_state(id, "paused", msg); break;
+      case JobStop::Why::fault:
+        queue_.set_state(id, "paused", msg);
+        drop_bench();  // reopened (reconnected) when a job next runs
+        break;
+      case JobStop::Why::cancel: queue_.set_state(id, "cancelled", msg); break;
+      case JobStop::Why::timeout: queue_.set_state(id, "failed", msg); break;
+      case JobStop::Why::shutdown:
+        // As after a crash: resumable jobs go back to the queue on restart.
+        queue_.set_state(id, plan.resume ? "queued" : "interrupted", msg);
+        break;
+    }
+  }
+}
+
+}  // namespace junco::daemon

@@ -1,0 +1,69 @@
+// The sweep executor: one thread that takes the next queued job and drives
+// the bench through it, committing each reading as it is taken.
+//
+// Safety order per part (see docs/daemon-core.md):
+//   outputs off, scanner open → connect slot → current limit → voltage 0 →
+//   output on → steps … → outputs off, scanner open
+// and make_safe() again at the end of the job, on any fault, on cancel,
+// pause, timeout and shutdown. Transient driver faults are retried per
+// reading (kPointAttempts); a persistent fault pauses the job with the error.
+#pragma once
+
+#include "daemon/bench.hpp"
+#include "daemon/config.hpp"
+#include "daemon/jobs.hpp"
+#include "daemon/store.hpp"
+
+#include <atomic>
+#include <functional>
+#include <memory>
+#include <string_view>
+#include <thread>
+
+namespace junco::daemon {
+
+// Attempts per reading before a fault counts as persistent.
+inline constexpr int kPointAttempts = 4;
+
+using BenchOpener = std::function<std::unique_ptr<Bench>(const Config&)>;
+using LogFn = std::function<void(std::string_view)>;
+
+class Executor {
+ public:
+  Executor(const Config& config, Store& store, JobQueue& queue, EventBus& events, BenchOpener open, LogFn log);
+  ~Executor();  // stop()
+  Executor(const Executor&) = delete;
+  Executor& operator=(const Executor&) = delete;
+
+  // Opens the bench (if reachable), records the instruments' *IDN? and turns
+  // every output off. Runs on the caller's thread before start().
+  void make_bench_safe_at_start();
+  void start();
+  // Stops the running job at the next safe point, outputs off; joins.
+  void stop();
+
+  // Instruments as last identified (role → {manufacturer, model, ...}); for bench.describe.
+  Json identities() const;
+  bool bench_open() const { return bench_open_.load(); }
+
+ private:
+  void loop();
+  void run_job(Id id);
+  bool ensure_bench();
+  void drop_bench();
+  void identify();
+
+  const Config& config_;
+  Store& store_;
+  JobQueue& queue_;
+  EventBus& events_;
+  BenchOpener open_;
+  LogFn log_;
+  std::unique_ptr<Bench> bench_;  // executor thread only (and before start())
+  std::atomic<bool> bench_open_{false};
+  mutable std::mutex ident_mutex_;
+  Json identities_ = Json::object();
+  std::thread thread_;
+};
+
+}  // namespace junco::daemon

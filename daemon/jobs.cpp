@@ -1,0 +1,145 @@
+#include "daemon/jobs.hpp"
+
+namespace junco::daemon {
+
+JobQueue::JobQueue(Store& store, EventBus& events) : store_(store), events_(events) {}
+
+Id JobQueue::submit(const Plan& plan, long points_total, const Caller& caller) {
+  const Id id = store_.insert_job(to_json(plan), points_total, caller.uid, caller.pid);
+  publish_state(id);
+  wake();
+  return id;
+}
+
+JobRow JobQueue::require(Id id) {
+  auto j = store_.job(id);
+  if (!j) throw RequestError(RpcCode::not_found, "no job " + std::to_string(id), Json{{"job_id", id}});
+  return *j;
+}
+
+void JobQueue::publish_state(Id id) {
+  auto j = store_.job(id);
+  if (!j) return;
+  events_.publish({"job.state", {{"job_id", id}, {"state", j->state}, {"error", j->error.empty() ? Json(nullptr) : Json(j->error)}}});
+}
+
+void JobQueue::set_state(Id id, const std::string& state, const std::optional<std::string>& error) {
+  store_.set_job_state(id, state, error);
+  publish_state(id);
+}
+
+JobRow JobQueue::cancel(Id id) {
+  std::unique_lock lock(mutex_);
+  JobRow j = require(id);
+  if (running_ == id) {
+    control_ = Control::cancel;
+    lock.unlock();
+    cv_.notify_all();
+    return j;  // the executor reports "cancelled" once the bench is safe
+  }
+  if (j.state != "queued" && j.state != "paused")
+    throw RequestError(RpcCode::wrong_state, "job " + std::to_string(id) + " is " + j.state + "; only queued, running or paused jobs can be cancelled");
+  set_state(id, "cancelled");
+  return require(id);
+}
+
+JobRow JobQueue::pause(Id id) {
+  std::unique_lock lock(mutex_);
+  JobRow j = require(id);
+  if (running_ == id) {
+    control_ = Control::pause;
+    lock.unlock();
+    cv_.notify_all();
+    return j;
+  }
+  if (j.state != "queued")
+    throw RequestError(RpcCode::wrong_state, "job " + std::to_string(id) + " is " + j.state + "; only queued or running jobs can be paused");
+  set_state(id, "paused", "paused by request");
+  return require(id);
+}
+
+JobRow JobQueue::resume(Id id) {
+  std::unique_lock lock(mutex_);
+  JobRow j = require(id);
+  if (j.state != "paused")
+    throw RequestError(RpcCode::wrong_state, "job " + std::to_string(id) + " is " + j.state + "; only paused jobs can be resumed");
+  // Back in the queue at its original place (FIFO by id); the error is kept until it runs.
+  set_state(id, "queued");
+  lock.unlock();
+  wake();
+  return require(id);
+}
+
+std::pair<int, int> JobQueue::recover() {
+  int resumed = 0, interrupted = 0;
+  for (const auto& j : store_.jobs(std::string("running"))) {
+    const bool may_resume = j.plan.value("resume", true);
+    if (may_resume) {
+      set_state(j.id, "queued", "daemon restarted; resuming after the last committed reading");
+      ++resumed;
+    } else {
+      set_state(j.id, "interrupted", "daemon stopped while the job ran and the plan forbids resuming");
+      ++interrupted;
+    }
+  }
+  return {resumed, interrupted};
+}
+
+std::optional<Id> JobQueue::wait_next() {
+  std::unique_lock lock(mutex_);
+  for (;;) {
+    if (stop_) return std::nullopt;
+    if (auto id = store_.next_queued_job()) return id;
+    cv_.wait_for(lock, std::chrono::seconds(1));
+  }
+}
+
+bool JobQueue::claim(Id id) {
+  {
+    std::lock_guard lock(mutex_);
+    if (!store_.transition_job(id, "queued", "running")) return false;
+    running_ = id;
+    control_ = Control::none;
+  }
+  publish_state(id);
+  return true;
+}
+
+void JobQueue::set_running(std::optional<Id> id) {
+  std::lock_guard lock(mutex_);
+  running_ = id;
+  control_ = Control::none;
+}
+
+std::optional<Id> JobQueue::running() const {
+  std::lock_guard lock(mutex_);
+  return running_;
+}
+
+Control JobQueue::control() const {
+  std::lock_guard lock(mutex_);
+  return stop_ ? Control::shutdown : control_;
+}
+
+bool JobQueue::sleep_for(std::chrono::duration<double> d) {
+  std::unique_lock lock(mutex_);
+  const auto until = std::chrono::steady_clock::now() + std::chrono::duration_cast<std::chrono::steady_clock::duration>(d);
+  return !cv_.wait_until(lock, until, [&] { return stop_ || control_ != Control::none; });
+}
+
+void JobQueue::stop() {
+  {
+    std::lock_guard lock(mutex_);
+    stop_ = true;
+  }
+  cv_.notify_all();
+}
+
+bool JobQueue::stopping() const {
+  std::lock_guard lock(mutex_);
+  return stop_;
+}
+
+void JobQueue::wake() { cv_.notify_all(); }
+
+}  // namespace junco::daemon

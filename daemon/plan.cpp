@@ -1,0 +1,274 @@
+#include "daemon/plan.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <set>
+#include <sstream>
+
+namespace junco::daemon {
+
+namespace {
+
+[[noreturn]] void bad(const std::string& field, const std::string& problem) {
+  throw RequestError(RpcCode::invalid_params, field + ": " + problem, Json{{"field", field}});
+}
+[[noreturn]] void refuse(const std::string& message, const std::string& limit = "") {
+  throw RequestError(RpcCode::plan_refused, message, limit.empty() ? Json(nullptr) : Json{{"limit", limit}});
+}
+
+std::string num(double x) {
+  std::ostringstream os;
+  os << x;
+  return os.str();
+}
+
+const Json& need(const Json& obj, const std::string& key, const std::string& field) {
+  if (!obj.contains(key)) bad(field + "." + key, "missing (required)");
+  return obj.at(key);
+}
+
+double number(const Json& v, const std::string& field) {
+  if (!v.is_number()) bad(field, std::string("must be a number, not ") + v.type_name());
+  const double x = v.get<double>();
+  if (!std::isfinite(x)) bad(field, "must be finite");
+  return x;
+}
+
+int integer(const Json& v, const std::string& field) {
+  if (!v.is_number_integer()) bad(field, std::string("must be an integer, not ") + v.type_name());
+  const auto x = v.get<long long>();
+  if (x < -1000000000LL || x > 1000000000LL) bad(field, "out of range");
+  return static_cast<int>(x);
+}
+
+std::string text(const Json& v, const std::string& field) {
+  if (!v.is_string()) bad(field, std::string("must be a string, not ") + v.type_name());
+  return v.get<std::string>();
+}
+
+void only_keys(const Json& obj, const std::string& field, std::initializer_list<const char*> keys) {
+  if (!obj.is_object()) bad(field, std::string("must be an object, not ") + obj.type_name());
+  std::set<std::string> known(keys.begin(), keys.end());
+  for (const auto& [k, v] : obj.items()) {
+    (void)v;
+    if (!known.count(k)) bad(field + "." + k, "unknown field");
+  }
+}
+
+SweepSpec parse_sweep(const Json& s) {
+  const std::string f = "plan.sweep";
+  only_keys(s, f, {"mode", "spacing", "start", "stop", "count", "settle_s", "average", "compliance_a"});
+  SweepSpec out;
+  const std::string mode = text(need(s, "mode", f), f + ".mode");
+  if (mode == "voltage") out.mode = SweepMode::voltage;
+  else if (mode == "current") out.mode = SweepMode::current;
+  else bad(f + ".mode", "must be \"voltage\" or \"current\", got \"" + mode + "\"");
+  const std::string spacing = s.contains("spacing") ? text(s["spacing"], f + ".spacing") : "linear";
+  if (spacing == "linear") out.spacing = Spacing::linear;
+  else if (spacing == "log") out.spacing = Spacing::log;
+  else bad(f + ".spacing", "must be \"linear\" or \"log\", got \"" + spacing + "\"");
+  out.start = number(need(s, "start", f), f + ".start");
+  out.stop = number(need(s, "stop", f), f + ".stop");
+  out.count = integer(need(s, "count", f), f + ".count");
+  if (s.contains("settle_s")) out.settle_s = number(s["settle_s"], f + ".settle_s");
+  if (s.contains("average")) out.average = integer(s["average"], f + ".average");
+  if (s.contains("compliance_a")) out.compliance_a = number(s["compliance_a"], f + ".compliance_a");
+  return out;
+}
+
+AcSpec parse_ac(const Json& a) {
+  const std::string f = "plan.ac";
+  only_keys(a, f, {"freqs_hz", "amplitude", "unit", "settle_s"});
+  AcSpec out;
+  const Json& freqs = need(a, "freqs_hz", f);
+  if (!freqs.is_array()) bad(f + ".freqs_hz", std::string("must be an array, not ") + freqs.type_name());
+  for (std::size_t i = 0; i < freqs.size(); ++i) out.freqs_hz.push_back(number(freqs[i], f + ".freqs_hz[" + std::to_string(i) + "]"));
+  out.amplitude = number(need(a, "amplitude", f), f + ".amplitude");
+  const std::string unit = a.contains("unit") ? text(a["unit"], f + ".unit") : "vrms";
+  if (unit == "vrms") out.unit = drivers::LevelUnit::vrms;
+  else if (unit == "vpp") out.unit = drivers::LevelUnit::vpp;
+  else bad(f + ".unit", "must be \"vrms\" or \"vpp\", got \"" + unit + "\"");
+  if (a.contains("settle_s")) out.settle_s = number(a["settle_s"], f + ".settle_s");
+  return out;
+}
+
+}  // namespace
+
+const char* to_string(Step::Kind kind) {
+  switch (kind) {
+    case Step::Kind::dc: return "dc";
+    case Step::Kind::ac: return "ac";
+    case Step::Kind::reverse: return "reverse";
+  }
+  return "?";
+}
+
+Plan parse_plan(const Json& j) {
+  only_keys(j, "plan", {"lot", "parts", "sweep", "ac", "reverse_v", "resume", "temp_k", "vf_max_v"});
+  Plan p;
+  p.lot = text(need(j, "lot", "plan"), "plan.lot");
+  const Json& parts = need(j, "parts", "plan");
+  if (!parts.is_array()) bad("plan.parts", std::string("must be an array, not ") + parts.type_name());
+  for (std::size_t i = 0; i < parts.size(); ++i) {
+    const std::string f = "plan.parts[" + std::to_string(i) + "]";
+    only_keys(parts[i], f, {"slot", "label"});
+    p.parts.push_back({integer(need(parts[i], "slot", f), f + ".slot"), text(need(parts[i], "label", f), f + ".label")});
+  }
+  p.sweep = parse_sweep(need(j, "sweep", "plan"));
+  if (j.contains("ac") && !j["ac"].is_null()) p.ac = parse_ac(j["ac"]);
+  if (j.contains("reverse_v")) {
+    const Json& r = j["reverse_v"];
+    if (!r.is_array()) bad("plan.reverse_v", std::string("must be an array, not ") + r.type_name());
+    for (std::size_t i = 0; i < r.size(); ++i) p.reverse_v.push_back(std::fabs(number(r[i], "plan.reverse_v[" + std::to_string(i) + "]")));
+  }
+  if (j.contains("resume")) {
+    if (!j["resume"].is_boolean()) bad("plan.resume", std::string("must be a boolean, not ") + j["resume"].type_name());
+    p.resume = j["resume"].get<bool>();
+  }
+  if (j.contains("temp_k")) p.temp_k = number(j["temp_k"], "plan.temp_k");
+  if (j.contains("vf_max_v")) p.vf_max_v = number(j["vf_max_v"], "plan.vf_max_v");
+  return p;
+}
+
+double compliance_a(const Plan& plan, const Config& c) {
+  return plan.sweep.compliance_a > 0 ? plan.sweep.compliance_a : c.safety.current_limit_a;
+}
+
+void check_plan(const Plan& p, const Config& c) {
+  const SafetyLimits& lim = c.safety;
+  const SweepSpec& s = p.sweep;
+  // Shape first: these are malformed plans rather than unsafe ones.
+  if (p.lot.empty()) refuse("plan.lot must not be empty");
+  if (p.parts.empty()) refuse("plan.parts must name at least one part");
+  std::set<int> slots;
+  std::set<std::string> labels;
+  for (const auto& part : p.parts) {
+    if (part.slot < 1 || part.slot > c.fixture.slots)
+      refuse("slot " + std::to_string(part.slot) + " is not on the fixture (slots 1.." + std::to_string(c.fixture.slots) + ")");
+    if (part.label.empty()) refuse("part in slot " + std::to_string(part.slot) + " has an empty label");
+    if (!slots.insert(part.slot).second) refuse("slot " + std::to_string(part.slot) + " is named twice");
+    if (!labels.insert(part.label).second) refuse("part label \"" + part.label + "\" is named twice");
+  }
+  if (s.count < 1 || s.count > 100000) refuse("sweep count " + std::to_string(s.count) + " must be in 1..100000");
+  if (s.settle_s < 0 || s.settle_s > 3600) refuse("sweep settle_s " + num(s.settle_s) + " s must be in 0..3600");
+  if (s.average < 1 || s.average > 1000) refuse("sweep average " + std::to_string(s.average) + " must be in 1..1000");
+  if (s.compliance_a < 0) refuse("sweep compliance_a " + num(s.compliance_a) + " A must be > 0");
+  if (p.temp_k < 1 || p.temp_k > 700) refuse("temp_k " + num(p.temp_k) + " K must be in 1..700");
+  if (p.vf_max_v <= 0 || p.vf_max_v > lim.max_supply_v) refuse("vf_max_v " + num(p.vf_max_v) + " V must be in (0, max_supply_v]");
+  const char* unit = s.mode == SweepMode::voltage ? "V" : "A";
+  const double lo = std::min(s.start, s.stop), hi = std::max(s.start, s.stop);
+  if (s.mode == SweepMode::voltage ? lo < 0 : lo <= 0)
+    refuse(std::string("sweep start/stop must be ") + (s.mode == SweepMode::voltage ? ">= 0 V (reverse bias goes in reverse_v)" : "> 0 A"));
+  if (s.spacing == Spacing::log && lo <= 0) refuse(std::string("log spacing needs start and stop > 0 ") + unit);
+  const std::string hi_name = hi == s.stop ? "stop" : "start";
+
+  const double i_lim = compliance_a(p, c);
+  if (i_lim > lim.current_limit_a)
+    refuse("sweep compliance_a " + num(i_lim) + " A exceeds safety limit current_limit_a = " + num(lim.current_limit_a) + " A",
+           "current_limit_a");
+  const double r_total = c.fixture.bias_resistor_ohm + c.fixture.dc_return_ohm;
+  if (s.mode == SweepMode::voltage) {
+    if (hi > lim.max_supply_v)
+      refuse("sweep " + hi_name + " " + num(hi) + " V exceeds safety limit max_supply_v = " + num(lim.max_supply_v) + " V", "max_supply_v");
+    // The part's current is at most the compliance and at most V/R; its
+    // voltage at most the supply and (assumed) vf_max_v.
+    const double i_max = r_total > 0 ? std::min(i_lim, hi / r_total) : i_lim;
+    const double p_max = std::min(hi, p.vf_max_v) * i_max;
+    if (p_max > lim.max_power_w)
+      refuse("sweep " + hi_name + " " + num(hi) + " V may put " + num(p_max) + " W in the part (vf_max_v " + num(p.vf_max_v) + " V × " +
+                 num(i_max) + " A), exceeding safety limit max_power_w = " + num(lim.max_power_w) + " W",
+             "max_power_w");
+  } else {
+    if (hi > lim.current_limit_a)
+      refuse("sweep " + hi_name + " " + num(hi) + " A exceeds safety limit current_limit_a = " + num(lim.current_limit_a) + " A",
+             "current_limit_a");
+    if (hi > i_lim) refuse("sweep " + hi_name + " " + num(hi) + " A exceeds the plan's compliance_a = " + num(i_lim) + " A");
+    const double p_max = p.vf_max_v * hi;
+    if (p_max > lim.max_power_w)
+      refuse("sweep " + hi_name + " " + num(hi) + " A may put " + num(p_max) + " W in the part (vf_max_v " + num(p.vf_max_v) +
+                 " V × " + num(hi) + " A), exceeding safety limit max_power_w = " + num(lim.max_power_w) + " W",
+             "max_power_w");
+    const double v_needed = hi * r_total;  // even with no drop across the part
+    if (v_needed > lim.max_supply_v)
+      refuse("sweep " + hi_name + " " + num(hi) + " A needs at least " + num(v_needed) + " V across " + num(r_total) +
+                 " Ω, exceeding safety limit max_supply_v = " + num(lim.max_supply_v) + " V",
+             "max_supply_v");
+  }
+  for (double r : p.reverse_v) {
+    if (r > lim.max_reverse_v)
+      refuse("reverse_v " + num(r) + " V exceeds safety limit max_reverse_v = " + num(lim.max_reverse_v) + " V", "max_reverse_v");
+    if (r > lim.max_supply_v)
+      refuse("reverse_v " + num(r) + " V exceeds safety limit max_supply_v = " + num(lim.max_supply_v) + " V", "max_supply_v");
+  }
+  if (p.ac) {
+    if (!c.instrument("siggen") || !c.instrument("levelmeter")) refuse("plan.ac needs a siggen and a levelmeter in the bench config");
+    if (p.ac->freqs_hz.empty()) refuse("plan.ac.freqs_hz must list at least one frequency");
+    for (double f : p.ac->freqs_hz)
+      if (f <= 0 || f > 1e10) refuse("plan.ac frequency " + num(f) + " Hz must be in (0, 1e10]");
+    if (p.ac->amplitude <= 0 || p.ac->amplitude > lim.max_supply_v)
+      refuse("plan.ac amplitude " + num(p.ac->amplitude) + " must be > 0 and not above max_supply_v = " + num(lim.max_supply_v) + " V");
+    if (p.ac->settle_s < 0 || p.ac->settle_s > 3600) refuse("plan.ac settle_s " + num(p.ac->settle_s) + " s must be in 0..3600");
+  }
+  const double t = min_duration_s(p);
+  if (t > lim.max_job_s)
+    refuse("estimated duration " + num(t) + " s exceeds safety limit max_job_s = " + num(lim.max_job_s) + " s", "max_job_s");
+}
+
+std::vector<double> sweep_values(const SweepSpec& s) {
+  std::vector<double> out;
+  if (s.count == 1) return {s.start};
+  for (int k = 0; k < s.count; ++k) {
+    const double f = static_cast<double>(k) / (s.count - 1);
+    out.push_back(s.spacing == Spacing::linear ? s.start + f * (s.stop - s.start)
+                                               : std::exp(std::log(s.start) + f * (std::log(s.stop) - std::log(s.start))));
+  }
+  out.back() = s.stop;  // exact end point, no rounding above the checked limit
+  return out;
+}
+
+std::vector<Step> expand_steps(const Plan& plan) {
+  std::vector<Step> steps;
+  const auto values = sweep_values(plan.sweep);
+  for (int k = 0; k < static_cast<int>(values.size()); ++k) {
+    steps.push_back({Step::Kind::dc, k, values[k], 0});
+    if (plan.ac)
+      for (double f : plan.ac->freqs_hz) steps.push_back({Step::Kind::ac, k, values[k], f});
+  }
+  for (double r : plan.reverse_v) steps.push_back({Step::Kind::reverse, 0, -r, 0});
+  return steps;
+}
+
+double min_duration_s(const Plan& p) {
+  const double n_ac = p.ac ? static_cast<double>(p.ac->freqs_hz.size()) : 0.0;
+  const double per_part = p.sweep.count * (p.sweep.settle_s + n_ac * (p.ac ? p.ac->settle_s : 0.0)) +
+                          static_cast<double>(p.reverse_v.size()) * p.sweep.settle_s;
+  return per_part * static_cast<double>(p.parts.size());
+}
+
+Json to_json(const Plan& p) {
+  Json parts = Json::array();
+  for (const auto& part : p.parts) parts.push_back({{"slot", part.slot}, {"label", part.label}});
+  Json j{{"lot", p.lot},
+         {"parts", parts},
+         {"sweep",
+          {{"mode", p.sweep.mode == SweepMode::voltage ? "voltage" : "current"},
+           {"spacing", p.sweep.spacing == Spacing::linear ? "linear" : "log"},
+           {"start", p.sweep.start},
+           {"stop", p.sweep.stop},
+           {"count", p.sweep.count},
+           {"settle_s", p.sweep.settle_s},
+           {"average", p.sweep.average}}},
+         {"reverse_v", p.reverse_v},
+         {"resume", p.resume},
+         {"temp_k", p.temp_k},
+         {"vf_max_v", p.vf_max_v}};
+  if (p.sweep.compliance_a > 0) j["sweep"]["compliance_a"] = p.sweep.compliance_a;
+  if (p.ac)
+    j["ac"] = {{"freqs_hz", p.ac->freqs_hz},
+               {"amplitude", p.ac->amplitude},
+               {"unit", p.ac->unit == drivers::LevelUnit::vrms ? "vrms" : "vpp"},
+               {"settle_s", p.ac->settle_s}};
+  return j;
+}
+
+}  // namespace junco::daemon

@@ -1,0 +1,76 @@
+// A job's plan: which parts, which sweep, and the checks it must pass before
+// it is queued. parse_plan() checks types and presence (RequestError
+// invalid_params naming the field, e.g. "plan.sweep.count"); check_plan()
+// checks ranges and every safety limit of the bench (RequestError
+// plan_refused naming the limit and the value). Format: docs/daemon-core.md.
+#pragma once
+
+#include "daemon/config.hpp"
+#include "daemon/service.hpp"
+#include "drivers/roles.hpp"
+
+#include <optional>
+#include <string>
+#include <vector>
+
+namespace junco::daemon {
+
+enum class SweepMode { voltage, current };  // set value in V, or a target current in A
+enum class Spacing { linear, log };
+
+struct PartSpec {
+  int slot = 0;  // fixture slot, from 1
+  std::string label;
+};
+
+struct SweepSpec {
+  SweepMode mode = SweepMode::voltage;
+  Spacing spacing = Spacing::linear;
+  double start = 0.0;  // V or A (by mode)
+  double stop = 0.0;
+  int count = 2;
+  double settle_s = 0.05;   // wait after setting a step before reading
+  int average = 1;          // readings averaged per point
+  double compliance_a = 0;  // supply current limit for this job; 0 = the bench's current_limit_a
+};
+
+struct AcSpec {
+  std::vector<double> freqs_hz;
+  double amplitude = 0.0;
+  drivers::LevelUnit unit = drivers::LevelUnit::vrms;
+  double settle_s = 0.01;  // after each frequency change
+};
+
+struct Plan {
+  std::string lot;
+  std::vector<PartSpec> parts;
+  SweepSpec sweep;
+  std::optional<AcSpec> ac;
+  std::vector<double> reverse_v;  // magnitudes of reverse-bias points (V)
+  bool resume = true;             // may continue after a daemon restart
+  double temp_k = 300.15;         // ambient, used by the fit
+  // Highest forward voltage assumed when bounding the power in the part
+  // (conservative for silicon signal and PIN diodes; common practice, no source).
+  double vf_max_v = 1.5;
+};
+
+// One measurement of the expansion; a point's seq is its index here.
+struct Step {
+  enum class Kind { dc, ac, reverse } kind = Kind::dc;
+  int dc_index = 0;      // which forward step (dc and ac kinds)
+  double set_value = 0;  // V or A for dc/ac (by mode); −|V| for reverse
+  double freq_hz = 0;    // ac only
+};
+
+Plan parse_plan(const Json& plan);                  // throws RequestError(invalid_params)
+void check_plan(const Plan& plan, const Config& c);  // throws RequestError(plan_refused)
+Json to_json(const Plan& plan);                     // normalized (round-trips through parse_plan)
+
+std::vector<double> sweep_values(const SweepSpec& s);
+std::vector<Step> expand_steps(const Plan& plan);  // per part; same for every part
+// Lower bound of the time the job takes (settle times only).
+double min_duration_s(const Plan& plan);
+double compliance_a(const Plan& plan, const Config& c);
+const char* to_string(Step::Kind kind);
+
+}  // namespace junco::daemon
