@@ -6,7 +6,9 @@
 #include "daemon/rpc_server.hpp"
 #include "daemon/service.hpp"
 
+#include <boost/asio/executor_work_guard.hpp>
 #include <boost/asio/io_context.hpp>
+#include <boost/asio/local/stream_protocol.hpp>
 
 #include <poll.h>
 #include <sys/socket.h>
@@ -114,9 +116,9 @@ struct RunningServer {
 };
 
 // Blocking client speaking raw lines; every read has a deadline.
-class LineClient {
+class SocketClient {
  public:
-  explicit LineClient(const std::string& path) {
+  explicit SocketClient(const std::string& path) {
     fd_ = ::socket(AF_UNIX, SOCK_STREAM | SOCK_CLOEXEC, 0);
     sockaddr_un addr{};
     addr.sun_family = AF_UNIX;
@@ -127,9 +129,9 @@ class LineClient {
       throw std::runtime_error("connect " + path + ": " + std::strerror(err));
     }
   }
-  ~LineClient() { ::close(fd_); }
-  LineClient(const LineClient&) = delete;
-  LineClient& operator=(const LineClient&) = delete;
+  ~SocketClient() { ::close(fd_); }
+  SocketClient(const SocketClient&) = delete;
+  SocketClient& operator=(const SocketClient&) = delete;
 
   void send_raw(const std::string& bytes) {
     std::size_t done = 0;
@@ -164,6 +166,7 @@ class LineClient {
     return Json::parse(*line);
   }
   Json request(const std::string& method, Json params = Json::object(), int id = 1) {
+    if (params.is_null()) params = Json::object();  // `{}` in a call site means "no params"
     send_raw(Json{{"jsonrpc", "2.0"}, {"id", id}, {"method", method}, {"params", std::move(params)}}.dump() + "\n");
     return read_json();
   }
