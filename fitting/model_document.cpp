@@ -1,0 +1,120 @@
+#include "fitting/model_document.hpp"
+
+#include <nlohmann/json.hpp>
+
+#include <cmath>
+
+namespace junco::fitting {
+
+using Json = nlohmann::json;
+
+namespace {
+
+Json estimate(double value, double se) {
+  Json j{{"value", value}};
+  if (std::isfinite(se)) j["std_error"] = se;
+  return j;
+}
+
+struct Bad : std::runtime_error {
+  using std::runtime_error::runtime_error;
+};
+
+double number_at(const Json& obj, const char* key, const std::string& where) {
+  if (!obj.contains(key)) throw Bad(where + "." + key + " is missing");
+  const Json& v = obj.at(key);
+  if (!v.is_number()) throw Bad(where + "." + key + " must be a number");
+  const double d = v.get<double>();
+  if (!std::isfinite(d)) throw Bad(where + "." + key + " must be finite");
+  return d;
+}
+
+// Reads model.<key>; returns false when absent and optional.
+bool read_estimate(const Json& model, const char* key, bool required, double& value, double* se) {
+  if (!model.contains(key)) {
+    if (required) throw Bad(std::string("model.") + key + " is missing");
+    return false;
+  }
+  const Json& e = model.at(key);
+  const std::string where = std::string("model.") + key;
+  if (!e.is_object()) throw Bad(where + " must be an object {\"value\":..., \"std_error\":...}");
+  value = number_at(e, "value", where);
+  if (se && e.contains("std_error")) *se = number_at(e, "std_error", where);
+  return true;
+}
+
+std::string string_at(const Json& obj, const char* key, const std::string& where) {
+  if (!obj.contains(key)) return {};
+  if (!obj.at(key).is_string()) throw Bad(where + "." + key + " must be a string");
+  return obj.at(key).get<std::string>();
+}
+
+}  // namespace
+
+std::string model_document_json(const PartModel& p) {
+  Json part{{"label", p.part_label}, {"lot", p.lot}};
+  if (!p.run_id.empty()) part["run_id"] = p.run_id;
+  Json model{{"is_a", estimate(p.params.is_a, p.is_se_a)},
+             {"n", estimate(p.params.n, p.n_se)},
+             {"rs_ohm", estimate(p.params.rs_ohm, p.rs_se_ohm)}};
+  const double nan = std::numeric_limits<double>::quiet_NaN();
+  if (std::isfinite(p.params.rsh_ohm)) model["rsh_ohm"] = estimate(p.params.rsh_ohm, nan);
+  if (std::isfinite(p.cj0_f)) model["cj0_f"] = estimate(p.cj0_f, nan);
+  if (std::isfinite(p.vj_v)) model["vj_v"] = estimate(p.vj_v, nan);
+  if (std::isfinite(p.m)) model["m"] = estimate(p.m, nan);
+  Json doc{{"format", model_document_format},
+           {"version", model_document_version},
+           {"part", part},
+           {"temperature_k", p.temp_k},
+           {"model", model}};
+  if (std::isfinite(p.rms_residual)) doc["fit"] = {{"rms_residual", p.rms_residual}, {"points_used", p.points_used}};
+  return doc.dump(2) + "\n";
+}
+
+std::optional<PartModel> parse_model_document(const std::string& text, std::string* why) {
+  try {
+    const Json doc = Json::parse(text);
+    if (!doc.is_object()) throw Bad("document must be a JSON object");
+    if (doc.value("format", std::string()) != model_document_format)
+      throw Bad(std::string("format must be \"") + model_document_format + "\"");
+    if (!doc.contains("version") || !doc.at("version").is_number_integer() ||
+        doc.at("version").get<int>() != model_document_version)
+      throw Bad("version must be " + std::to_string(model_document_version));
+    PartModel p;
+    if (doc.contains("part")) {
+      const Json& part = doc.at("part");
+      if (!part.is_object()) throw Bad("part must be an object");
+      p.part_label = string_at(part, "label", "part");
+      p.lot = string_at(part, "lot", "part");
+      p.run_id = string_at(part, "run_id", "part");
+    }
+    p.temp_k = number_at(doc, "temperature_k", "document");
+    if (!(p.temp_k > 0.0)) throw Bad("temperature_k must be positive (kelvin)");
+    if (!doc.contains("model") || !doc.at("model").is_object()) throw Bad("model is missing");
+    const Json& model = doc.at("model");
+    read_estimate(model, "is_a", true, p.params.is_a, &p.is_se_a);
+    read_estimate(model, "n", true, p.params.n, &p.n_se);
+    read_estimate(model, "rs_ohm", true, p.params.rs_ohm, &p.rs_se_ohm);
+    read_estimate(model, "rsh_ohm", false, p.params.rsh_ohm, nullptr);
+    read_estimate(model, "cj0_f", false, p.cj0_f, nullptr);
+    read_estimate(model, "vj_v", false, p.vj_v, nullptr);
+    read_estimate(model, "m", false, p.m, nullptr);
+    if (!(p.params.is_a > 0.0)) throw Bad("model.is_a.value must be positive");
+    if (!(p.params.n > 0.0)) throw Bad("model.n.value must be positive");
+    if (!(p.params.rs_ohm >= 0.0)) throw Bad("model.rs_ohm.value must not be negative");
+    if (doc.contains("fit") && doc.at("fit").is_object()) {
+      const Json& fit = doc.at("fit");
+      if (fit.contains("rms_residual")) p.rms_residual = number_at(fit, "rms_residual", "fit");
+      if (fit.contains("points_used") && fit.at("points_used").is_number_unsigned())
+        p.points_used = fit.at("points_used").get<std::size_t>();
+    }
+    return p;
+  } catch (const Json::exception& e) {
+    if (why) *why = std::string("not valid JSON: ") + e.what();
+  } catch (const Bad& e) {
+    if (why) *why = e.what();
+  }
+  return std::nullopt;
+}
+
+}  // namespace junco::fitting

@@ -1,0 +1,32 @@
+// The JSON model document: one fitted part (or a lot's nominal) as junco
+// exports it and as the offline calculators, `junco export` and `junco plot`
+// read it. Schema: schema/model/part-model.schema.json (format id
+// "junco.part-model", version 1). Layout:
+//
+//   {"format":"junco.part-model","version":1,
+//    "part":{"label":"K7-014","lot":"LOT-2291","run_id":"run-12"},
+//    "temperature_k":300.15,
+//    "model":{"is_a":{"value":2.1e-9,"std_error":1e-11},"n":{...},"rs_ohm":{...},
+//             "rsh_ohm":{...}?,"cj0_f":{...}?,"vj_v":{...}?,"m":{...}?},
+//    "fit":{"rms_residual":0.8,"points_used":40}?}
+//
+// Unknown fields are ignored on reading; a std_error that is not determined
+// is omitted (never null).
+#pragma once
+
+#include "fitting/spice_card.hpp"
+
+#include <optional>
+#include <string>
+
+namespace junco::fitting {
+
+inline constexpr const char* model_document_format = "junco.part-model";
+inline constexpr int model_document_version = 1;
+
+std::string model_document_json(const PartModel& part);
+
+// nullopt with *why (one line naming the field) on a malformed document.
+std::optional<PartModel> parse_model_document(const std::string& text, std::string* why = nullptr);
+
+}  // namespace junco::fitting

@@ -1,0 +1,40 @@
+// What a fitted part (or a lot's nominal) is, as exports need it, and the
+// SPICE diode model card made from it. Pure: strings in, string out.
+//
+// Card parameter names and units follow the SPICE level-1 diode (REFERENCES.md
+// §2): IS [A], N, RS [Ω], CJO [F], VJ [V], M, TNOM [°C]. Parameters left at
+// NaN are omitted so the simulator's defaults apply.
+#pragma once
+
+#include "fitting/diode.hpp"
+
+#include <limits>
+#include <string>
+
+namespace junco::fitting {
+
+struct PartModel {
+  std::string part_label;  // e.g. "K7-014"
+  std::string lot;         // e.g. "LOT-2291"
+  std::string run_id;      // the run the fit came from ("" when not from a run)
+  double temp_k = 300.15;  // junction temperature of the fit (becomes TNOM)
+  DiodeParams params;
+  double is_se_a = std::numeric_limits<double>::quiet_NaN();  // standard errors; NaN = not determined
+  double n_se = std::numeric_limits<double>::quiet_NaN();
+  double rs_se_ohm = std::numeric_limits<double>::quiet_NaN();
+  double cj0_f = std::numeric_limits<double>::quiet_NaN();  // optional C–V law
+  double vj_v = std::numeric_limits<double>::quiet_NaN();
+  double m = std::numeric_limits<double>::quiet_NaN();
+  double rms_residual = std::numeric_limits<double>::quiet_NaN();  // of the fit, as the fit reports it
+  std::size_t points_used = 0;
+};
+
+// A SPICE-legal model name from a label: letters, digits and '_' only,
+// starting with a letter ("K7-014" -> "K7_014", "014" -> "D014").
+std::string spice_model_name(const std::string& label);
+
+// "* ..." comment header, then `.model NAME D(IS=... N=... RS=... TNOM=...)`.
+// An empty name derives one from the part label.
+std::string spice_model_card(const PartModel& part, const std::string& name = "");
+
+}  // namespace junco::fitting

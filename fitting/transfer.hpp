@@ -1,0 +1,84 @@
+// Small-signal AC transfer of the fixture's series switch, from a fitted part.
+//
+//   source EMF ── Rg ──┬── block ──┬── diode ──┬── block ──┬── RL ── gnd
+//                  (ch1, input)    │           │       (ch2, output)
+//                                 Rb          Rr
+//                                  │           │
+//                          bias supply       gnd
+//
+// At the signal frequency the DC blocks are shorts and the bias supply is AC
+// ground, so the bias feed resistor Rb is a shunt at the anode node and the
+// DC-return resistor Rr a shunt at the cathode node (infinite = absent; a
+// choke is an infinite shunt). The diode is Rs + rj, where rj = n·Vt/(I + Is)
+// is the junction's small-signal resistance at bias current I, with the
+// junction capacitance Cj (when known) in parallel with rj only.
+//
+// Two ratios are offered:
+//   * fixture gain   Vout/Vin (ch2 over ch1): what the level meter measures;
+//   * transfer ratio Vout/Vout_thru, where Vout_thru = EMF·RL/(Rg + RL) is the
+//     load voltage with source and load joined directly. Insertion loss is
+//     −20·log10|transfer ratio|; with Rg = RL = Z0 and no shunts it is the
+//     textbook 20·log10|1 + Z/(2·Z0)| (REFERENCES.md §6).
+#pragma once
+
+#include "fitting/diode.hpp"
+
+#include <complex>
+#include <limits>
+#include <span>
+#include <vector>
+
+namespace junco::fitting {
+
+inline constexpr double no_shunt_ohm = std::numeric_limits<double>::infinity();
+
+struct Fixture {
+  double rg_ohm = 50.0;               // signal source resistance
+  double rl_ohm = 50.0;               // load
+  double bias_feed_ohm = no_shunt_ohm;  // Rb: supply to anode (AC shunt at the anode)
+  double dc_return_ohm = no_shunt_ohm;  // Rr: cathode to ground (AC shunt at the cathode)
+};
+
+// The part as the AC model needs it: DC parameters plus an optional
+// zero-bias junction capacitance (0 = unknown/ignored).
+struct AcPart {
+  DiodeParams dc;
+  double cj_f = 0.0;  // junction capacitance at the bias point (parallel to rj)
+};
+
+// Junction small-signal resistance n·Vt/(I + Is) (without Rs).
+double junction_resistance_ohm(const DiodeParams& p, double bias_i_a, double temp_k);
+
+// Impedance of the forward-biased diode at the signal frequency.
+std::complex<double> diode_on_impedance(const AcPart& part, double bias_i_a, double freq_hz, double temp_k);
+
+// Vout/Vin (ch2/ch1) of the fixture with the diode of impedance z_diode.
+std::complex<double> fixture_gain(const Fixture& fx, std::complex<double> z_diode);
+// Vout/Vout_thru (see above).
+std::complex<double> transfer_ratio(const Fixture& fx, std::complex<double> z_diode);
+
+inline double to_db(std::complex<double> ratio) { return 20.0 * std::log10(std::abs(ratio)); }
+
+// Insertion loss (dB, positive = loss) of the biased part in the fixture.
+double insertion_loss_db(const Fixture& fx, const AcPart& part, double bias_i_a, double freq_hz, double temp_k);
+
+// One AC reading of a run: the bias current measured during the reading and
+// the two level-meter channels (same unit on both; only the ratio is used).
+struct AcPoint {
+  double bias_i_a = 0.0;
+  double freq_hz = 0.0;
+  double vin = 0.0;   // ch1, fixture input
+  double vout = 0.0;  // ch2, fixture output
+};
+
+struct AcResidual {
+  double bias_i_a = 0.0;
+  double measured_db = 0.0;  // 20·log10(vout/vin)
+  double model_db = 0.0;     // 20·log10|fixture_gain|
+  double residual_db = 0.0;  // measured − model
+};
+
+std::vector<AcResidual> ac_residuals(const Fixture& fx, const AcPart& part, std::span<const AcPoint> points,
+                                     double temp_k);
+
+}  // namespace junco::fitting
