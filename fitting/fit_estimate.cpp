@@ -102,10 +102,12 @@ DiodeParams initial_estimate(std::span<const IvPoint> pts, std::span<const doubl
   for (const auto& q : pts) ln_is.push_back(std::log(q.i_a) - (q.v - q.i_a * p.rs_ohm) / nvt);
   p.is_a = std::exp(std::clamp(median(ln_is), fit_ln_is_min, fit_ln_is_max));
   if (fit_shunt) {
-    // I ≥ V/Rsh at every point, so the smallest V/I bounds Rsh from below; start above it.
-    double r_min = std::numeric_limits<double>::infinity();
-    for (const auto& q : pts) r_min = std::min(r_min, q.v / q.i_a);
-    p.rsh_ohm = std::clamp(10.0 * r_min, std::exp(fit_ln_rsh_min), std::exp(fit_ln_rsh_max));
+    // I ≥ V/Rsh at every point, so the largest V/I (the bottom of the sweep)
+    // bounds Rsh from below; starting ten times above it keeps every
+    // junction current positive at the start.
+    double r_max = 0.0;
+    for (const auto& q : pts) r_max = std::max(r_max, q.v / q.i_a);
+    p.rsh_ohm = std::clamp(10.0 * r_max, std::exp(fit_ln_rsh_min), std::exp(fit_ln_rsh_max));
   }
   return p;
 }

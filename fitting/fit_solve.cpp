@@ -4,6 +4,7 @@
 
 #include <cmath>
 #include <memory>
+#include <vector>
 
 namespace junco::fitting {
 
@@ -86,6 +87,18 @@ SolveOutcome solve_weighted(const WeightedProblem& wp, const DiodeParams& start,
   x[2] = clamp(x[2], 0.0, fit_rs_max_ohm);
   x[3] = clamp(x[3], fit_ln_rsh_min, fit_ln_rsh_max);
 
+  // Ceres stops (and logs) if the start cannot be evaluated; say so plainly instead.
+  {
+    std::vector<double> r0(wp.points.size());
+    weighted_residuals(wp, from_x(x, shunt), r0);
+    for (double r : r0) {
+      if (std::isfinite(r)) continue;
+      SolveOutcome bad;
+      bad.params = from_x(x, shunt);
+      bad.message = "the starting point is outside the model's domain (junction current at or below -Is)";
+      return bad;
+    }
+  }
   ceres::Problem::Options problem_options;
   problem_options.enable_fast_removal = false;
   ceres::Problem problem(problem_options);
