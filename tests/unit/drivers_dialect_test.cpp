@@ -1,0 +1,166 @@
+// Dialect files: every shipped file loads and says what docs/command-sets.md
+// says; broken files are refused with "FILE: /json/pointer: what".
+#include "drivers/dialect.hpp"
+#include "drivers/errors.hpp"
+
+#include <catch2/catch.hpp>
+
+#include <filesystem>
+#include <set>
+
+using namespace junco::drivers;
+
+namespace {
+
+const std::string dialect_dir = std::string(JUNCO_SOURCE_DIR) + "/drivers/dialects/";
+
+// A minimal valid scanner dialect; cases below break one thing in it.
+const std::string good_scanner = R"J({
+  // comment allowed
+  "dialect": "t", "role": "scanner",
+  "operations": {
+    "connect_slot": { "commands": ["ROUT:CLOS (@{slot})"] },
+    "disconnect_all": { "commands": ["ROUT:OPEN:ALL"] }
+  }
+})J";
+
+std::string error_of(const std::string& text) {
+  try {
+    parse_dialect(text, "broken.json");
+  } catch (const DriverError& e) {
+    CHECK(e.kind() == ErrorKind::config);
+    return e.what();
+  }
+  return "no error";
+}
+
+std::string replaced(std::string text, const std::string& from, const std::string& to) {
+  auto at = text.find(from);
+  REQUIRE(at != std::string::npos);
+  return text.replace(at, from.size(), to);
+}
+
+}  // namespace
+
+TEST_CASE("every shipped dialect loads, one file per family", "[drivers][dialect]") {
+  // Families per role from docs/command-sets.md.
+  const std::map<std::string, Role> expected = {
+      {"scpi-source", Role::source}, {"psu-compact", Role::source},   {"scpi-dmm", Role::meter},
+      {"dmm-prefixed", Role::meter}, {"scpi-switch", Role::scanner},  {"relay-bank", Role::scanner},
+      {"scpi-gen", Role::siggen},    {"gen-channel", Role::siggen},   {"scpi-acv", Role::levelmeter},
+      {"scope-meas", Role::levelmeter}, {"template-source", Role::source}};
+  std::set<std::string> seen;
+  for (const auto& entry : std::filesystem::directory_iterator(dialect_dir)) {
+    if (entry.path().extension() != ".json") continue;
+    INFO(entry.path().string());
+    Dialect d = load_dialect(entry.path().string());
+    REQUIRE(expected.count(d.name));
+    CHECK(d.role == expected.at(d.name));
+    if (d.name != "template-source") CHECK(entry.path().stem() == d.name);
+    seen.insert(d.name);
+  }
+  CHECK(seen.size() == expected.size());
+}
+
+TEST_CASE("shipped dialects carry the command-sets.md commands", "[drivers][dialect]") {
+  Dialect dmm = load_dialect(dialect_dir + "dmm-prefixed.json");
+  const Operation* v = dmm.find("measure_dc_voltage");
+  REQUIRE(v);
+  CHECK(v->commands == std::vector<std::string>{":SENS:FUNC 'VOLT:DC'"});
+  CHECK(v->query == ":READ?");
+  CHECK(v->reply.kind == ReplySpec::Kind::number);
+  CHECK(v->reply.suffix == "VDC");
+
+  Dialect psu = load_dialect(dialect_dir + "psu-compact.json");
+  const Operation* cc = psu.find("in_current_limit");
+  REQUIRE(cc);
+  CHECK(cc->reply.kind == ReplySpec::Kind::enumeration);
+  CHECK(cc->reply.values.at("CC"));
+  CHECK_FALSE(cc->reply.values.at("CV"));
+
+  Dialect src = load_dialect(dialect_dir + "scpi-source.json");
+  CHECK(src.find("in_current_limit")->reply.mask == 2);
+  CHECK(expand_template(src.find("set_voltage")->commands[0], {{"v", format_number(0.65)}}) == "VOLT 0.65");
+
+  Dialect acv = load_dialect(dialect_dir + "scpi-acv.json");
+  CHECK(acv.find("measure_vpp") == nullptr);  // Vpp not offered (command-sets.md)
+  CHECK(expand_template(acv.find("measure_vrms")->query, {{"ch", "2"}}) == "MEAS:VOLT:AC? (@2)");
+}
+
+TEST_CASE("broken dialects name file, key and what is wrong", "[drivers][dialect]") {
+  REQUIRE_NOTHROW(parse_dialect(good_scanner, "good.json"));
+  struct Case {
+    const char* label;
+    std::string text;
+    const char* message;
+  } cases[] = {
+      {"unknown placeholder", replaced(good_scanner, "(@{slot})", "(@{channel})"),
+       "broken.json: /operations/connect_slot/commands/0: unknown placeholder {channel} (allowed here: {slot})"},
+      {"placeholder where none allowed", replaced(good_scanner, "ROUT:OPEN:ALL", "ROUT:OPEN {slot}"),
+       "broken.json: /operations/disconnect_all/commands/0: unknown placeholder {slot} (allowed here: none)"},
+      {"unclosed placeholder", replaced(good_scanner, "(@{slot})", "(@{slot"),
+       "broken.json: /operations/connect_slot/commands/0: unclosed placeholder in \"ROUT:CLOS (@{slot\""},
+      {"unknown operation",
+       replaced(good_scanner, R"("disconnect_all": { "commands": ["ROUT:OPEN:ALL"] })", R"("x": 1)"),
+       "broken.json: /operations/x: unknown key (known here: connect_slot, disconnect_all)"},
+      {"missing required operation",
+       replaced(good_scanner, R"(,
+    "disconnect_all": { "commands": ["ROUT:OPEN:ALL"] })", ""),
+       "broken.json: /operations/disconnect_all: missing (required for role scanner)"},
+      {"wrong type", replaced(good_scanner, R"(["ROUT:OPEN:ALL"])", R"("ROUT:OPEN:ALL")"),
+       "broken.json: /operations/disconnect_all/commands: wrong type: expected an array of strings, got string"},
+      {"wrong element type", replaced(good_scanner, R"(["ROUT:OPEN:ALL"])", "[7]"),
+       "broken.json: /operations/disconnect_all/commands/0: wrong type: expected a string, got number"},
+      {"unknown top-level key", replaced(good_scanner, R"("role")", R"("colour": "red", "role")"),
+       "broken.json: /colour: unknown key"},
+      {"unknown operation key", replaced(good_scanner, R"({ "commands": ["ROUT:OPEN:ALL"] })",
+                                         R"({ "commands": ["ROUT:OPEN:ALL"], "delay": 5 })"),
+       "broken.json: /operations/disconnect_all/delay: unknown key"},
+      {"unknown role", replaced(good_scanner, R"("scanner")", R"("mux")"),
+       "broken.json: /role: unknown role \"mux\""},
+      {"missing dialect name", replaced(good_scanner, R"("dialect": "t",)", ""),
+       "broken.json: /dialect: missing (a string required)"},
+      {"query on a set operation", replaced(good_scanner, R"({ "commands": ["ROUT:OPEN:ALL"] })",
+                                            R"({ "commands": ["ROUT:OPEN:ALL"], "query": "X?" })"),
+       "broken.json: /operations/disconnect_all/query: this operation returns nothing"},
+      {"bad regex", replaced(good_scanner, R"("role")", R"("idn_match": "([", "role")"),
+       "broken.json: /idn_match: not a valid regular expression"},
+      {"bad terminator", replaced(good_scanner, R"("role")", R"("read_terminator": ";", "role")"),
+       "broken.json: /read_terminator: must be"},
+      {"negative delay", replaced(good_scanner, R"({ "commands": ["ROUT:OPEN:ALL"] })",
+                                  R"({ "commands": ["ROUT:OPEN:ALL"], "delay_ms": -1 })"),
+       "broken.json: /operations/disconnect_all/delay_ms: must be 0..60000"},
+      {"not JSON", "{ \"dialect\": ", "broken.json: not valid JSON"},
+      {"not an object", "[1, 2]", "broken.json: /: wrong type: expected an object, got array"},
+  };
+  for (const auto& c : cases) {
+    INFO(c.label);
+    CHECK_THAT(error_of(c.text), Catch::StartsWith(c.message));
+  }
+}
+
+TEST_CASE("reply specs are checked against what the operation returns", "[drivers][dialect]") {
+  const std::string levels = R"({ "dialect": "t", "role": "levelmeter",
+    "operations": { "measure_vrms": { "query": "V? {ch}", "reply": REPLY } } })";
+  CHECK_THAT(error_of(replaced(levels, "REPLY", R"({"type": "bits", "mask": 2})")),
+             Catch::StartsWith("broken.json: /operations/measure_vrms/reply/type: this operation answers a number"));
+  CHECK_THAT(error_of(replaced(levels, "REPLY", R"({"type": "text"})")),
+             Catch::StartsWith("broken.json: /operations/measure_vrms/reply/type: unknown reply type \"text\""));
+  CHECK_THAT(error_of(replaced(levels, "REPLY", R"({"type": "number", "regex": "V=\\S+"})")),
+             Catch::StartsWith("broken.json: /operations/measure_vrms/reply/regex: needs a capture group"));
+  CHECK_THAT(error_of(replaced(levels, "REPLY", R"({"type": "number", "unit": "V"})")),
+             Catch::StartsWith("broken.json: /operations/measure_vrms/reply/unit: unknown key"));
+  CHECK_THAT(error_of(replaced(levels, R"(, "reply": REPLY)", "")),
+             Catch::StartsWith("broken.json: /operations/measure_vrms/reply: missing"));
+  CHECK_NOTHROW(parse_dialect(replaced(levels, "REPLY", R"({"type": "number", "regex": "^V=(\\S+)$"})"), "ok"));
+}
+
+TEST_CASE("a file that cannot be read is named", "[drivers][dialect]") {
+  try {
+    load_dialect("/nonexistent/x.json");
+    FAIL("no error");
+  } catch (const DriverError& e) {
+    CHECK(e.kind() == ErrorKind::config);
+    CHECK_THAT(std::string(e.what()), Catch::StartsWith("/nonexistent/x.json: cannot read dialect file"));
+  }
+}
