@@ -80,15 +80,18 @@ struct Parsed {
   std::vector<Item> items;  // one for a single message; may be empty only for an empty line
 };
 
-// The socket path the daemon and its clients use when none is given:
-// $JUNCO_SOCKET, else /run/junco/juncod.sock for root, else
-// $XDG_RUNTIME_DIR/junco/juncod.sock, else /tmp/junco-UID/juncod.sock.
+// The socket path clients use when none is given: $JUNCO_SOCKET, else the
+// daemon's default (daemon/config.cpp default_paths): /run/junco/juncod.sock
+// for root, else $XDG_RUNTIME_DIR/junco/juncod.sock, else
+// ${XDG_STATE_HOME:-$HOME/.local/state}/junco/juncod.sock.
 // Inline so the CLI shares the convention without linking the daemon.
 inline std::string default_socket_path() {
   if (const char* env = std::getenv("JUNCO_SOCKET"); env && *env) return env;
   if (geteuid() == 0) return "/run/junco/juncod.sock";
   if (const char* xdg = std::getenv("XDG_RUNTIME_DIR"); xdg && *xdg) return std::string(xdg) + "/junco/juncod.sock";
-  return "/tmp/junco-" + std::to_string(geteuid()) + "/juncod.sock";
+  if (const char* state = std::getenv("XDG_STATE_HOME"); state && *state) return std::string(state) + "/junco/juncod.sock";
+  const char* home = std::getenv("HOME");
+  return std::string(home ? home : "/tmp") + "/.local/state/junco/juncod.sock";
 }
 
 // Parses one line. Never throws.

@@ -1,0 +1,103 @@
+// junco show PART: a part's fitted model and its figures at chosen currents.
+#include "tools/junco/command.hpp"
+#include "tools/junco/rpc_client.hpp"
+
+#include <cstdio>
+
+namespace junco::cli {
+namespace {
+
+const char* const usage = R"(usage: junco show PART [--at CURRENTS] [--lot NAME] [--socket PATH] [--json]
+
+Prints a part's latest fit: saturation current Is, ideality n, series
+resistance Rs (and shunt Rsh when fitted), each ± its standard error; the fit
+status and warnings; and, at each chosen forward current, the forward voltage
+Vf and the small-signal resistance rd = dV/dI, ± standard error.
+
+PART is a part id (see junco parts) or a part label; a label used in several
+lots needs --lot.
+
+options:
+  --at CURRENTS  comma-separated forward currents (default 1mA,10mA); units
+                 optional: 1mA, 10e-3, 5 mA, 100uA
+  --lot NAME     the lot of a PART given by label
+  --socket PATH  juncod's socket (see junco status --help)
+  --json         print {"fit":..., "figures":...} as JSON
+
+exit status: 0 shown; 1 unknown part, no usable fit, or daemon error; 2 bad options.)";
+
+long resolve_part(RpcClient& client, const std::string& text, const std::optional<std::string>& lot) {
+  if (!text.empty() && text.find_first_not_of("0123456789") == std::string::npos) return parse_id(text, "PART");
+  Json params = Json::object();
+  if (lot) params["lot"] = *lot;
+  long found = 0;
+  int matches = 0;
+  for (const auto& p : client.call("part.list", params).value("parts", Json::array()))
+    if (p.value("label", "") == text) {
+      found = p.value("part_id", 0L);
+      ++matches;
+    }
+  if (matches == 0) throw std::runtime_error("no part labelled '" + text + "'" + (lot ? " in lot " + *lot : ""));
+  if (matches > 1) throw std::invalid_argument("label '" + text + "' is used in several lots; add --lot NAME");
+  return found;
+}
+
+std::string estimate(const Json& e, const std::string& unit) {
+  if (!e.is_object() || !e["value"].is_number()) return "not determined";
+  const auto fmt = [&](double x, int digits) {
+    if (!unit.empty()) return format_si(x, unit, digits);
+    char t[32];
+    std::snprintf(t, sizeof t, "%.*g", digits, x);  // dimensionless (n): no SI prefix
+    return std::string(t);
+  };
+  std::string text = fmt(e["value"].get<double>(), 5);
+  if (e["std_error"].is_number()) text += " ± " + fmt(e["std_error"].get<double>(), 3);
+  else text += " ± (not determined)";
+  return text;
+}
+
+int run(std::vector<std::string> args) {
+  return guarded("show", [&] {
+    const auto socket = take_socket_option(args);
+    const bool json = take_flag(args, "--json");
+    const auto lot = take_option(args, "--lot");
+    const auto at = take_option(args, "--at");
+    const auto currents = parse_quantity_list(at.value_or("1mA,10mA"), "A");
+    for (double i : currents)
+      if (!(i > 0)) throw std::invalid_argument("--at currents must be > 0 (forward), got " + format_si(i, "A"));
+    if (args.size() != 1) throw std::invalid_argument("expected one PART (id or label)");
+    RpcClient client(socket);
+    const long part = resolve_part(client, args[0], lot);
+    const Json fit = client.call("part.fit", Json{{"part_id", part}});
+    const Json figures = client.call("part.figures", Json{{"part_id", part}, {"currents_a", currents}});
+    if (json) {
+      std::printf("%s\n", Json{{"fit", fit}, {"figures", figures}}.dump(2).c_str());
+      return exit_ok;
+    }
+    std::printf("part %ld  fit %ld (%s, %ld points, T = %.2f K)\n", part, fit.value("fit_id", 0L), fit.value("status", "?").c_str(),
+                fit.value("points_used", 0L), fit.value("temp_k", Json()).is_number() ? fit["temp_k"].get<double>() : 0.0);
+    std::printf("  Is  = %s\n  n   = %s\n  Rs  = %s\n", estimate(fit["is_a"], "A").c_str(), estimate(fit["n"], "").c_str(),
+                estimate(fit["rs_ohm"], "Ω").c_str());
+    if (fit.contains("rsh_ohm") && fit["rsh_ohm"].is_object() && fit["rsh_ohm"]["value"].is_number())
+      std::printf("  Rsh = %s\n", estimate(fit["rsh_ohm"], "Ω").c_str());
+    if (fit.value("rms_residual", Json()).is_number()) std::printf("  rms residual %.3g\n", fit["rms_residual"].get<double>());
+    for (const auto& w : fit.value("warnings", Json::array())) std::printf("  warning: %s\n", w.dump().c_str());
+    std::printf("\n  %12s  %24s  %24s\n", "I", "Vf", "rd");
+    for (const auto& f : figures.value("figures", Json::array())) {
+      const auto pm = [&](const char* v, const char* se, const char* unit) {
+        if (!f[v].is_number()) return std::string("not determined");
+        std::string t = format_si(f[v].get<double>(), unit, 5);
+        if (f[se].is_number()) t += " ± " + format_si(f[se].get<double>(), unit, 3);
+        return t;
+      };
+      std::printf("  %12s  %24s  %24s\n", format_si(f.value("i_a", 0.0), "A").c_str(), pm("vf_v", "vf_v_se", "V").c_str(),
+                  pm("rd_ohm", "rd_ohm_se", "Ω").c_str());
+    }
+    return exit_ok;
+  });
+}
+
+const bool registered = register_command({"show", "show a part's fitted model, Vf and rd", usage, run});
+
+}  // namespace
+}  // namespace junco::cli

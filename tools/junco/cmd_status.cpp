@@ -1,0 +1,47 @@
+// junco status: what the daemon is doing (version, uptime, running job, queue).
+#include "tools/junco/command.hpp"
+#include "tools/junco/rpc_client.hpp"
+
+#include <cstdio>
+
+namespace junco::cli {
+namespace {
+
+const char* const usage = R"(usage: junco status [--socket PATH] [--json]
+
+Asks juncod what it is doing: version, uptime, the running job, the queue,
+whether the bench is open, the database file.
+
+options:
+  --socket PATH  juncod's socket (default: $JUNCO_SOCKET, /run/junco/juncod.sock
+                 as root, else $XDG_RUNTIME_DIR/junco/juncod.sock)
+  --json         print the daemon.status result as JSON
+
+exit status: 0 the daemon answered; 1 it could not be reached.)";
+
+int run(std::vector<std::string> args) {
+  return guarded("status", [&] {
+    const auto socket = take_socket_option(args);
+    const bool json = take_flag(args, "--json");
+    if (!args.empty()) throw std::invalid_argument("unexpected argument '" + args.front() + "'");
+    RpcClient client(socket);
+    const Json s = client.call("daemon.status");
+    if (json) {
+      std::printf("%s\n", s.dump(2).c_str());
+      return exit_ok;
+    }
+    std::printf("juncod %s, up %.0f s, socket %s\n", s.value("version", "?").c_str(), s.value("uptime_s", 0.0), socket.c_str());
+    const Json running = s.value("running_job", Json());
+    std::printf("running job: %s\n", running.is_null() ? "none" : running.dump().c_str());
+    const Json queue = s.value("queue", Json::array());
+    std::printf("queued jobs: %s\n", queue.empty() ? "none" : queue.dump().c_str());
+    std::printf("bench:       %s\n", s.value("bench_open", false) ? "open" : "not open");
+    if (s.contains("database")) std::printf("database:    %s\n", s["database"].get<std::string>().c_str());
+    return exit_ok;
+  });
+}
+
+const bool registered = register_command({"status", "show what juncod is doing", usage, run});
+
+}  // namespace
+}  // namespace junco::cli

@@ -1,0 +1,71 @@
+// junco submit PLAN.jsonc: queue a job on the daemon.
+#include "tools/junco/command.hpp"
+#include "tools/junco/rpc_client.hpp"
+
+#include <cstdio>
+#include <fstream>
+#include <sstream>
+
+namespace junco::cli {
+namespace {
+
+const char* const usage = R"(usage: junco submit PLAN.jsonc [--watch] [--socket PATH]
+
+Sends a plan to juncod, which checks it against the bench's safety limits
+and queues it as a job. Prints the job id (alone on its line, so scripts can
+use job=$(junco submit plan.jsonc)). A refused plan is reported with the
+limit or field at fault, and nothing is queued.
+
+PLAN.jsonc is JSON with // and /* */ comments allowed, for example:
+
+  {
+    "lot": "WREN-0912",                          // lot name
+    "parts": [ {"slot": 1, "label": "WR-01"},    // fixture slot → part label
+               {"slot": 2, "label": "WR-02"} ],
+    "sweep": { "mode": "current", "spacing": "log",   // forward sweep
+               "start": 1e-6, "stop": 0.02, "count": 25, "settle_s": 0.05 },
+    "reverse_v": [1, 5]                          // optional reverse-bias points, V
+  }
+
+The full format (ac sweeps, averaging, compliance) is in docs/daemon-core.md.
+
+options:
+  --watch        follow the job until it ends (as junco watch)
+  --socket PATH  juncod's socket (see junco status --help)
+
+exit status: 0 queued (with --watch: and done); 1 daemon error; 2 bad file or refused plan.)";
+
+Json read_plan(const std::string& path) {
+  std::ifstream in(path);
+  if (!in) throw std::invalid_argument("cannot read plan file " + path);
+  std::stringstream text;
+  text << in.rdbuf();
+  try {
+    return Json::parse(text.str(), nullptr, true, /*ignore_comments=*/true);
+  } catch (const Json::parse_error& e) {
+    throw std::invalid_argument(path + ": not valid JSON: " + e.what());
+  }
+}
+
+int run(std::vector<std::string> args) {
+  return guarded("submit", [&] {
+    const auto socket = take_socket_option(args);
+    const bool watch = take_flag(args, "--watch");
+    if (args.size() != 1) throw std::invalid_argument("expected one plan file");
+    const Json plan = read_plan(args[0]);
+    RpcClient client(socket);
+    const Json r = client.call("job.submit", Json{{"plan", plan}});
+    const long job = r.value("job_id", 0L);
+    std::printf("%ld\n", job);
+    std::fflush(stdout);
+    if (stdout_is_tty() || watch)
+      std::fprintf(stderr, "job %ld queued: %ld points%s\n", job, r.value("points_total", 0L),
+                   watch ? "" : (" — follow it with: junco watch " + std::to_string(job)).c_str());
+    return watch ? watch_job(client, job) : exit_ok;
+  });
+}
+
+const bool registered = register_command({"submit", "queue a job from a plan file", usage, run});
+
+}  // namespace
+}  // namespace junco::cli

@@ -1,0 +1,106 @@
+// What every daemon-facing junco subcommand needs: a blocking JSON-RPC 2.0
+// client on juncod's Unix socket (one message per line), the common
+// --socket option, and parsing of unit-bearing option values ("1mA").
+#pragma once
+
+#include <nlohmann/json.hpp>
+
+#include <chrono>
+#include <deque>
+#include <functional>
+#include <optional>
+#include <stdexcept>
+#include <string>
+#include <vector>
+
+namespace junco::cli {
+
+using Json = nlohmann::json;
+
+// The daemon answered with a JSON-RPC error.
+class RpcError : public std::runtime_error {
+ public:
+  RpcError(int code, const std::string& message, Json data)
+      : std::runtime_error(message), code_(code), data_(std::move(data)) {}
+  int code() const { return code_; }
+  const Json& data() const { return data_; }
+
+ private:
+  int code_;
+  Json data_;
+};
+
+// The daemon could not be reached, or went away; what() is the whole
+// user-facing sentence (path, reason, how to start it).
+class ConnectError : public std::runtime_error {
+ public:
+  using std::runtime_error::runtime_error;
+};
+
+class RpcClient {
+ public:
+  // Connects; throws ConnectError.
+  explicit RpcClient(const std::string& socket_path);
+  ~RpcClient();
+  RpcClient(const RpcClient&) = delete;
+  RpcClient& operator=(const RpcClient&) = delete;
+
+  // Sends a request and waits for its reply; notifications that arrive
+  // meanwhile are kept for next_notification(). Throws RpcError,
+  // ConnectError (daemon gone) or std::runtime_error (timeout).
+  Json call(const std::string& method, Json params = Json::object(),
+            std::chrono::milliseconds timeout = std::chrono::seconds(30));
+
+  // Next notification ({"method":..,"params":..}), or nullopt on timeout.
+  // Throws ConnectError when the daemon closes the connection.
+  std::optional<Json> next_notification(std::chrono::milliseconds timeout);
+
+  const std::string& path() const { return path_; }
+
+ private:
+  std::optional<Json> read_message(std::chrono::steady_clock::time_point deadline);
+
+  std::string path_;
+  int fd_ = -1;
+  long next_id_ = 1;
+  std::string buffer_;
+  std::deque<Json> notifications_;
+};
+
+// Removes "--socket PATH" / "--socket=PATH" from args and returns the path
+// to use: that option, else $JUNCO_SOCKET, else the daemon's default.
+std::string take_socket_option(std::vector<std::string>& args);
+
+// Removes a flag ("--watch") from args; true when it was there.
+bool take_flag(std::vector<std::string>& args, const std::string& flag);
+// Removes "--name VALUE" / "--name=VALUE"; throws std::invalid_argument when the value is missing.
+std::optional<std::string> take_option(std::vector<std::string>& args, const std::string& name);
+
+// Parses an engineering value in `unit` ("A", "V", "ohm"): "1mA", "10e-3",
+// "5 mA", "100u", "100uA", "2.5k". Throws std::invalid_argument with a
+// one-line message naming the text and the unit expected.
+double parse_quantity(const std::string& text, const std::string& unit);
+// Comma-separated list of the above ("1mA,10mA").
+std::vector<double> parse_quantity_list(const std::string& text, const std::string& unit);
+
+// Formats with an SI prefix and unit: 1.234e-3 → "1.234 mA".
+std::string format_si(double value, const std::string& unit, int digits = 4);
+
+// Runs a daemon-facing subcommand, printing any error as one line
+// "junco COMMAND: ..." on stderr. Exit statuses: std::invalid_argument (bad
+// options) → 2; an RPC error for bad input (invalid params, refused plan) → 2;
+// daemon unreachable, other RPC errors, failures → 1.
+int guarded(const std::string& command, const std::function<int()>& body);
+
+// Parses a job or part id given on the command line ("12"); throws std::invalid_argument.
+long parse_id(const std::string& text, const std::string& what);
+
+// Follows a job until it ends (cmd_watch.cpp): a live progress bar on a
+// terminal, plain lines otherwise. Returns 0 when the job is done, 1 when it
+// failed, was cancelled or interrupted.
+int watch_job(RpcClient& client, long job_id);
+
+// True when stdout is a terminal (progress bars, colours off otherwise).
+bool stdout_is_tty();
+
+}  // namespace junco::cli
