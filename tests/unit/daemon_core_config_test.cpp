@@ -1,0 +1,114 @@
+// Config loading: every refusal names the file, the JSON pointer and the problem.
+#include "daemon/config.hpp"
+
+#include <catch2/catch.hpp>
+
+#include <cstdlib>
+#include <filesystem>
+#include <fstream>
+
+using namespace junco::daemon;
+namespace fs = std::filesystem;
+
+namespace {
+
+const char* kGood = R"({
+  // comments are allowed
+  "bench": {
+    "source":  {"address": "tcp:127.0.0.1:5025", "dialect": "scpi-source"},
+    "meter":   {"address": "tcp:127.0.0.1:5026", "dialect": "scpi-dmm", "reply_timeout_ms": 500},
+    "scanner": {"address": "tcp:127.0.0.1:5027", "dialect": "scpi-switch"}
+  },
+  "fixture": {"bias_resistor_ohm": 100, "slots": 8, "current_from": "meter"},
+  "safety": {"max_supply_v": 10, "current_limit_a": 0.1, "max_power_w": 0.25, "max_reverse_v": 5, "max_job_s": 3600},
+  "paths": {"database": "data/junco.db", "socket": "/tmp/junco-test.sock"}
+})";
+
+std::string message_of(const std::string& text) {
+  try {
+    parse_config(text, "/etc/junco/bench.jsonc");
+  } catch (const ConfigError& e) {
+    return e.what();
+  }
+  return "(accepted)";
+}
+
+std::string with(std::string text, const std::string& from, const std::string& to) {
+  const auto pos = text.find(from);
+  REQUIRE(pos != std::string::npos);
+  return text.replace(pos, from.size(), to);
+}
+
+}  // namespace
+
+TEST_CASE("a good config loads, with paths resolved against the config's directory") {
+  const Config c = parse_config(kGood, "/etc/junco/bench.jsonc");
+  CHECK(c.bench.size() == 3);
+  CHECK(c.instrument("meter")->reply_timeout_ms == 500);
+  CHECK(c.instrument("source")->dialect_path.filename() == "scpi-source.json");
+  CHECK(fs::exists(c.instrument("source")->dialect_path));
+  CHECK(c.fixture.bias_resistor_ohm == 100);
+  CHECK(c.fixture.current_from == CurrentFrom::meter);
+  CHECK(c.safety.max_power_w == 0.25);
+  CHECK(c.paths.database == fs::path("/etc/junco/data/junco.db"));
+  CHECK(c.paths.socket == fs::path("/tmp/junco-test.sock"));
+  CHECK(c.instrument("siggen") == nullptr);
+}
+
+TEST_CASE("config errors name file, pointer and problem exactly") {
+  CHECK(message_of("{ \"bench\": ") .rfind("/etc/junco/bench.jsonc: /: not valid JSON: ", 0) == 0);
+  CHECK(message_of("[]") == "/etc/junco/bench.jsonc: /: must be an object, not array");
+  CHECK(message_of(with(kGood, "\"max_supply_v\": 10", "\"max_supply_v\": \"10\"")) ==
+        "/etc/junco/bench.jsonc: /safety/max_supply_v: must be a number, not string");
+  CHECK(message_of(with(kGood, "\"max_power_w\": 0.25, ", "")) == "/etc/junco/bench.jsonc: /safety/max_power_w: missing (required)");
+  CHECK(message_of(with(kGood, "\"current_limit_a\": 0.1", "\"current_limit_a\": -1")) ==
+        "/etc/junco/bench.jsonc: /safety/current_limit_a: must be > 0, got -1");
+  CHECK(message_of(with(kGood, "\"max_reverse_v\": 5", "\"max_reverse_v\": 20")) ==
+        "/etc/junco/bench.jsonc: /safety/max_reverse_v: must not exceed max_supply_v = 10 V, got 20 V");
+  CHECK(message_of(with(kGood, "\"slots\": 8", "\"slots\": 0")) == "/etc/junco/bench.jsonc: /fixture/slots: must be in 1..256, got 0");
+  CHECK(message_of(with(kGood, "\"current_from\": \"meter\"", "\"current_from\": \"probe\"")) ==
+        "/etc/junco/bench.jsonc: /fixture/current_from: must be \"source\" or \"meter\", got \"probe\"");
+  CHECK(message_of(with(kGood, "\"dialect\": \"scpi-dmm\"", "\"dialect\": \"no-such-meter\"")) ==
+        "/etc/junco/bench.jsonc: /bench/meter/dialect: dialect \"no-such-meter\" not found");
+  CHECK(message_of(with(kGood, "\"address\": \"tcp:127.0.0.1:5027\", ", "")) ==
+        "/etc/junco/bench.jsonc: /bench/scanner/address: missing (required)");
+  CHECK(message_of(with(kGood, "\"max_supply_v\"", "\"max_suply_v\"")) == "/etc/junco/bench.jsonc: /safety/max_suply_v: unknown key");
+  CHECK(message_of(with(kGood, "\"source\":  {", "\"psu\": {")) ==
+        "/etc/junco/bench.jsonc: /bench/psu: unknown role (expected source, meter, scanner, siggen or levelmeter)");
+  CHECK(message_of(with(kGood, "\"meter\":   {\"address\": \"tcp:127.0.0.1:5026\", \"dialect\": \"scpi-dmm\", \"reply_timeout_ms\": 500},", "")) ==
+        "/etc/junco/bench.jsonc: /bench/meter: missing (required)");
+}
+
+TEST_CASE("dialects: relative file paths resolve against the config directory; a missing file is an error") {
+  const fs::path dir = fs::temp_directory_path() / ("junco-cfg-" + std::to_string(::getpid()));
+  fs::create_directories(dir / "dialects");
+  fs::copy_file(fs::path(JUNCO_SOURCE_DIR) / "drivers/dialects/scpi-source.json", dir / "dialects/my-psu.json",
+                fs::copy_options::overwrite_existing);
+  {
+    std::ofstream(dir / "bench.jsonc") << with(kGood, "\"dialect\": \"scpi-source\"", "\"dialect\": \"dialects/my-psu.json\"");
+  }
+  const Config c = load_config(dir / "bench.jsonc");
+  CHECK(c.instrument("source")->dialect_path == dir / "dialects/my-psu.json");
+  CHECK(c.paths.database == dir / "data/junco.db");
+  try {
+    load_config(dir / "missing.jsonc");
+    FAIL("accepted a missing file");
+  } catch (const ConfigError& e) {
+    CHECK(std::string(e.what()) == (dir / "missing.jsonc").string() + ": /: cannot read the file");
+  }
+  fs::remove_all(dir);
+}
+
+TEST_CASE("default paths follow XDG for a normal user") {
+  if (::geteuid() == 0) {
+    const auto p = default_paths();
+    CHECK(p.database == fs::path("/var/lib/junco/junco.db"));
+    CHECK(p.socket == fs::path("/run/junco/juncod.sock"));
+  } else {
+    ::setenv("XDG_STATE_HOME", "/tmp/xdg-state", 1);
+    ::setenv("XDG_RUNTIME_DIR", "/tmp/xdg-run", 1);
+    const auto p = default_paths();
+    CHECK(p.database == fs::path("/tmp/xdg-state/junco/junco.db"));
+    CHECK(p.socket == fs::path("/tmp/xdg-run/junco/juncod.sock"));
+  }
+}

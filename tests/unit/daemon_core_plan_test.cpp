@@ -1,0 +1,145 @@
+// Plan validation: types and presence (invalid_params naming the field), then
+// ranges and each safety limit (plan_refused naming the limit and the value).
+#include "daemon/plan.hpp"
+
+#include <catch2/catch.hpp>
+
+using namespace junco::daemon;
+
+namespace {
+
+Config bench() {
+  Config c;
+  c.fixture.bias_resistor_ohm = 100;
+  c.fixture.slots = 8;
+  c.safety = {10.0, 0.1, 0.25, 5.0, 3600.0};  // max_supply_v, current_limit_a, max_power_w, max_reverse_v, max_job_s
+  return c;
+}
+
+Json plan() {
+  return Json::parse(R"({"lot": "QX-7", "parts": [{"slot": 1, "label": "QX-7-01"}, {"slot": 2, "label": "QX-7-02"}],
+    "sweep": {"mode": "voltage", "spacing": "linear", "start": 0.0, "stop": 5.0, "count": 11, "settle_s": 0.01}})");
+}
+
+std::pair<RpcCode, std::string> outcome(const Json& j, const Config& c = bench()) {
+  try {
+    check_plan(parse_plan(j), c);
+  } catch (const RequestError& e) {
+    return {e.code(), e.what()};
+  }
+  return {RpcCode::internal_error, "(accepted)"};
+}
+
+}  // namespace
+
+TEST_CASE("a sensible plan is accepted and expands to its steps") {
+  const Plan p = parse_plan(plan());
+  REQUIRE_NOTHROW(check_plan(p, bench()));
+  const auto v = sweep_values(p.sweep);
+  REQUIRE(v.size() == 11);
+  CHECK(v.front() == 0.0);
+  CHECK(v[1] == Approx(0.5));
+  CHECK(v.back() == 5.0);
+  CHECK(expand_steps(p).size() == 11);
+  // to_json round-trips
+  CHECK(to_json(parse_plan(to_json(p))) == to_json(p));
+}
+
+TEST_CASE("log spacing is geometric; AC and reverse points join the expansion in order") {
+  Json j = plan();
+  j["sweep"] = {{"mode", "current"}, {"spacing", "log"}, {"start", 1e-5}, {"stop", 1e-2}, {"count", 4}};
+  j["ac"] = {{"freqs_hz", {1e6, 1e7}}, {"amplitude", 0.05}};
+  j["reverse_v"] = {1, 2};
+  const Plan p = parse_plan(j);
+  const auto v = sweep_values(p.sweep);
+  CHECK(v[1] == Approx(1e-4));
+  CHECK(v[2] == Approx(1e-3));
+  const auto steps = expand_steps(p);
+  REQUIRE(steps.size() == 4 * 3 + 2);
+  CHECK(steps[0].kind == Step::Kind::dc);
+  CHECK(steps[1].kind == Step::Kind::ac);
+  CHECK(steps[1].freq_hz == 1e6);
+  CHECK(steps[2].freq_hz == 1e7);
+  CHECK(steps[3].dc_index == 1);
+  CHECK(steps[12].kind == Step::Kind::reverse);
+  CHECK(steps[13].set_value == -2.0);
+}
+
+TEST_CASE("wrong types and missing fields are invalid_params naming the field") {
+  Json j = plan();
+  j["sweep"]["count"] = "eleven";
+  CHECK(outcome(j) == std::pair{RpcCode::invalid_params, std::string("plan.sweep.count: must be an integer, not string")});
+  j = plan();
+  j.erase("lot");
+  CHECK(outcome(j) == std::pair{RpcCode::invalid_params, std::string("plan.lot: missing (required)")});
+  j = plan();
+  j["parts"][1].erase("label");
+  CHECK(outcome(j) == std::pair{RpcCode::invalid_params, std::string("plan.parts[1].label: missing (required)")});
+  j = plan();
+  j["sweep"]["mode"] = "power";
+  CHECK(outcome(j) == std::pair{RpcCode::invalid_params, std::string("plan.sweep.mode: must be \"voltage\" or \"current\", got \"power\"")});
+  j = plan();
+  j["sweep"]["stpo"] = 3;
+  CHECK(outcome(j) == std::pair{RpcCode::invalid_params, std::string("plan.sweep.stpo: unknown field")});
+}
+
+TEST_CASE("each safety limit refuses a plan that would exceed it, naming limit and value") {
+  Json j = plan();
+  j["sweep"]["stop"] = 12;
+  CHECK(outcome(j) == std::pair{RpcCode::plan_refused, std::string("sweep stop 12 V exceeds safety limit max_supply_v = 10 V")});
+
+  // Power: at 10 V through 100 Ω the part could carry 0.1 A (compliance), × vf_max 1.5 V = 0.15 W: fine at 0.25 W ...
+  j = plan();
+  j["sweep"]["stop"] = 10;
+  CHECK(outcome(j).second == "(accepted)");
+  // ... but not on a bench allowing only 0.1 W.
+  Config tight = bench();
+  tight.safety.max_power_w = 0.1;
+  CHECK(outcome(j, tight) == std::pair{RpcCode::plan_refused,
+                                       std::string("sweep stop 10 V may put 0.15 W in the part (vf_max_v 1.5 V × 0.1 A), exceeding safety limit max_power_w = 0.1 W")});
+
+  j = plan();
+  j["sweep"] = {{"mode", "current"}, {"start", 1e-3}, {"stop", 0.2}, {"count", 5}};
+  CHECK(outcome(j) == std::pair{RpcCode::plan_refused, std::string("sweep stop 0.2 A exceeds safety limit current_limit_a = 0.1 A")});
+
+  // Current-targeted: power is estimated as vf_max_v · I (1.5 V × 0.09 A = 0.135 W > 0.1 W).
+  j["sweep"]["stop"] = 0.09;
+  CHECK(outcome(j, tight) == std::pair{RpcCode::plan_refused,
+                                       std::string("sweep stop 0.09 A may put 0.135 W in the part (vf_max_v 1.5 V × 0.09 A), exceeding safety limit max_power_w = 0.1 W")});
+  // Current-targeted: 0.09 A through 200 Ω needs 18 V even before the diode's drop.
+  Config high_r = bench();
+  high_r.fixture.bias_resistor_ohm = 200;
+  CHECK(outcome(j, high_r) == std::pair{RpcCode::plan_refused,
+                                        std::string("sweep stop 0.09 A needs at least 18 V across 200 Ω, exceeding safety limit max_supply_v = 10 V")});
+
+  j = plan();
+  j["sweep"]["compliance_a"] = 0.5;
+  CHECK(outcome(j) == std::pair{RpcCode::plan_refused, std::string("sweep compliance_a 0.5 A exceeds safety limit current_limit_a = 0.1 A")});
+
+  j = plan();
+  j["reverse_v"] = {1, 8};
+  CHECK(outcome(j) == std::pair{RpcCode::plan_refused, std::string("reverse_v 8 V exceeds safety limit max_reverse_v = 5 V")});
+
+  j = plan();
+  j["sweep"]["count"] = 1000;
+  j["sweep"]["settle_s"] = 2.0;  // 2 parts × 1000 × 2 s = 4000 s > 3600 s
+  CHECK(outcome(j) == std::pair{RpcCode::plan_refused, std::string("estimated duration 4000 s exceeds safety limit max_job_s = 3600 s")});
+}
+
+TEST_CASE("malformed ranges are refused") {
+  Json j = plan();
+  j["parts"][1]["slot"] = 9;
+  CHECK(outcome(j).second == "slot 9 is not on the fixture (slots 1..8)");
+  j = plan();
+  j["parts"][1]["slot"] = 1;
+  CHECK(outcome(j).second == "slot 1 is named twice");
+  j = plan();
+  j["sweep"]["start"] = -1;
+  CHECK(outcome(j).second == "sweep start/stop must be >= 0 V (reverse bias goes in reverse_v)");
+  j = plan();
+  j["sweep"]["spacing"] = "log";
+  CHECK(outcome(j).second == "log spacing needs start and stop > 0 V");
+  j = plan();
+  j["ac"] = {{"freqs_hz", {1e6}}, {"amplitude", 0.1}};
+  CHECK(outcome(j).second == "plan.ac needs a siggen and a levelmeter in the bench config");
+}
