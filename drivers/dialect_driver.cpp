@@ -134,7 +134,19 @@ DialectDriver::Outcome DialectDriver::run_once(const Operation& op, const Placeh
     last_sent = expand_template(op.query, values);
     out = read_reply(op, last_sent);
   }
-  if (op.drain_errors) session_->drain_errors();
+  if (op.drain_errors) {
+    // Name the whole group: the queue does not say which command failed.
+    std::string group;
+    for (const auto& tmpl : op.commands) group += (group.empty() ? "" : "', '") + expand_template(tmpl, values);
+    if (!op.query.empty()) group += (group.empty() ? "" : "', '") + last_sent;
+    last_sent = group;
+    try {
+      session_->drain_errors();
+    } catch (const DriverError& e) {
+      if (e.kind() != ErrorKind::instrument) throw;
+      throw DriverError(e.kind(), std::string(e.what()) + " after '" + group + "'", e.scpi_code());
+    }
+  }
   return out;
 }
 

@@ -3,6 +3,8 @@
 #include "drivers/errors.hpp"
 #include "drivers/reply_parser.hpp"
 
+#include <algorithm>
+
 namespace junco::drivers {
 
 namespace {
@@ -107,25 +109,48 @@ void ScpiSession::reconnect() {
   log("#", "reconnect " + transport_->describe());
   transport_->reconnect();
   if (transport_->clean_after_reconnect()) return;
-  // A reply delayed past its deadline may still arrive on a serial line:
-  // ask *OPC? and skip lines until its "1", so no stale reply is taken as
-  // the answer to the next query.
+  resynchronise();
+}
+
+// A reply delayed past its deadline may still arrive on a serial line, and
+// so may the "1" of an earlier resynchronisation that timed out. Ask *OPC?,
+// skip lines until a "1", then keep discarding whatever follows within a
+// short quiet window (answers to queries still queued in the instrument
+// come back to back), so no stale reply is taken for the next query's.
+void ScpiSession::resynchronise() {
   command("*OPC?");
+  const auto quiet = std::min(std::chrono::milliseconds(100), options_.reply_timeout / 2);
   auto deadline = std::chrono::steady_clock::now() + options_.reply_timeout;
-  while (std::chrono::steady_clock::now() < deadline) {
-    auto left = std::chrono::duration_cast<std::chrono::milliseconds>(deadline - std::chrono::steady_clock::now());
+  int discarded = 0;
+  bool synced = false;
+  while (true) {
+    auto now = std::chrono::steady_clock::now();
+    if (now >= deadline) break;
+    auto left = std::chrono::duration_cast<std::chrono::milliseconds>(deadline - now);
     std::string line;
     try {
       line = transport_->read_message(std::max(left, std::chrono::milliseconds(1)));
     } catch (const DriverError& e) {
-      rethrow_with(e, "resynchronising with '*OPC?': ");
+      if (e.kind() != ErrorKind::timeout) rethrow_with(e, "resynchronising with '*OPC?': ");
+      break;
     }
     log("<", line);
     IntegerReply n = parse_integer(line);
-    if (n.status == ParseStatus::ok && n.value == 1) return;
+    if (!synced && n.status == ParseStatus::ok && n.value == 1) {
+      synced = true;
+      deadline = std::chrono::steady_clock::now() + quiet;
+      continue;
+    }
+    ++discarded;
     log("#", "discarded stale reply while resynchronising");
+    if (synced) deadline = std::chrono::steady_clock::now() + quiet;
   }
-  throw DriverError(ErrorKind::timeout, "resynchronising with '*OPC?': no answer 1 within the reply timeout");
+  if (synced) return;
+  if (discarded > 0)
+    throw DriverError(ErrorKind::garbled, "resynchronising with '*OPC?': " + std::to_string(discarded) +
+                                              " replies, none of them the expected 1");
+  throw DriverError(ErrorKind::timeout, "resynchronising with '*OPC?': no answer within " +
+                                            std::to_string(options_.reply_timeout.count()) + " ms");
 }
 
 }  // namespace junco::drivers

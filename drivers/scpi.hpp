@@ -51,6 +51,7 @@ class ScpiSession {
  private:
   void log(std::string_view direction, std::string_view line) const;
   std::string read_reply(std::string_view sent);
+  void resynchronise();
 
   std::unique_ptr<Transport> transport_;
   SessionOptions options_;
