@@ -1,0 +1,180 @@
+// The store: migrations on a fresh file and on re-open, durable pragmas, one
+// reading per (run, seq), and readings committed by a process that is then
+// SIGKILLed are all there when the file is opened again.
+#include "daemon/migrations.hpp"
+#include "daemon/store.hpp"
+
+#include <catch2/catch.hpp>
+
+#include <signal.h>
+#include <sqlite3.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include <filesystem>
+
+using namespace junco::daemon;
+namespace fs = std::filesystem;
+
+namespace {
+
+struct TempDir {
+  fs::path path;
+  TempDir() {
+    char tmpl[] = "/tmp/junco-store-XXXXXX";
+    path = ::mkdtemp(tmpl);
+  }
+  ~TempDir() { fs::remove_all(path); }
+};
+
+int count_rows(const fs::path& db, const char* sql) {
+  sqlite3* h = nullptr;
+  REQUIRE(sqlite3_open_v2(db.c_str(), &h, SQLITE_OPEN_READONLY, nullptr) == SQLITE_OK);
+  sqlite3_stmt* st = nullptr;
+  REQUIRE(sqlite3_prepare_v2(h, sql, -1, &st, nullptr) == SQLITE_OK);
+  REQUIRE(sqlite3_step(st) == SQLITE_ROW);
+  const int n = sqlite3_column_int(st, 0);
+  sqlite3_finalize(st);
+  sqlite3_close(h);
+  return n;
+}
+
+Json plan_json() { return Json{{"lot", "QX-7"}, {"parts", Json::array()}, {"resume", true}}; }
+
+}  // namespace
+
+TEST_CASE("a fresh database gets every embedded migration once; re-opening applies nothing") {
+  TempDir dir;
+  const fs::path db = dir.path / "sub" / "junco.db";
+  const auto migrations = embedded_migrations();
+  REQUIRE(!migrations.empty());
+  CHECK(migrations.front().name == "0001_initial.sql");
+  {
+    Store s(db);
+    CHECK(s.schema_version() == migrations.back().version);
+    // Durability settings as promised (SQLite pragma docs: synchronous FULL = 2).
+    const Json p = s.pragma_summary();
+    CHECK(p["journal_mode"] == "wal");
+    CHECK(p["synchronous"] == "2");
+    CHECK(p["foreign_keys"] == "1");
+  }
+  CHECK(count_rows(db, "SELECT COUNT(*) FROM schema_migrations") == static_cast<int>(migrations.size()));
+  {
+    Store again(db);
+    sqlite3* h = nullptr;
+    REQUIRE(sqlite3_open(db.c_str(), &h) == SQLITE_OK);
+    CHECK(apply_migrations(h, embedded_migrations()) == 0);
+    sqlite3_close(h);
+  }
+  CHECK(count_rows(db, "SELECT COUNT(*) FROM schema_migrations") == static_cast<int>(migrations.size()));
+}
+
+TEST_CASE("a failing migration leaves nothing of itself behind and names itself") {
+  TempDir dir;
+  sqlite3* h = nullptr;
+  REQUIRE(sqlite3_open((dir.path / "m.db").c_str(), &h) == SQLITE_OK);
+  std::vector<Migration> ms{{1, "0001_a.sql", "CREATE TABLE a(x);"}, {2, "0002_b.sql", "CREATE TABLE b(y); CREATE TABLE a(z);"}};
+  CHECK(apply_migrations(h, {ms[0]}) == 1);
+  try {
+    apply_migrations(h, ms);
+    FAIL("accepted a broken migration");
+  } catch (const StoreError& e) {
+    CHECK(std::string(e.what()).find("migration 0002_b.sql") != std::string::npos);
+  }
+  CHECK(schema_version(h) == 1);
+  sqlite3_stmt* st = nullptr;
+  CHECK(sqlite3_prepare_v2(h, "SELECT * FROM b", -1, &st, nullptr) != SQLITE_OK);  // rolled back
+  sqlite3_finalize(st);
+  sqlite3_close(h);
+}
+
+TEST_CASE("a reading is stored once per (run, seq) and counted in its job") {
+  TempDir dir;
+  Store s(dir.path / "junco.db");
+  const Id lot = s.ensure_lot("QX-7");
+  CHECK(s.ensure_lot("QX-7") == lot);
+  const Id part = s.ensure_part(lot, "QX-7-01", 1);
+  const Id job = s.insert_job(plan_json(), 3, 1000, 42);
+  const RunRow run = s.ensure_run(job, part, 1, Json::object(), 300.15);
+  CHECK(s.ensure_run(job, part, 1, Json::object(), 300.15).id == run.id);
+  PointRow p;
+  p.run_id = run.id;
+  p.seq = 0;
+  p.v = 0.61;
+  p.i_a = 1e-3;
+  s.insert_point(job, p);
+  CHECK_THROWS_AS(s.insert_point(job, p), StoreError);
+  p.seq = 1;
+  s.insert_point(job, p);
+  CHECK(s.job(job)->points_done == 2);  // the rejected duplicate did not count
+  CHECK(*s.last_seq(run.id) == 1);
+  const auto pts = s.points(run.id);
+  REQUIRE(pts.size() == 2);
+  CHECK(std::isnan(pts[0].ac_in_v));  // NaN in, NULL stored, NaN out
+  CHECK(pts[1].v == 0.61);
+}
+
+TEST_CASE("job state transitions stamp their times") {
+  TempDir dir;
+  Store s(dir.path / "junco.db");
+  const Id job = s.insert_job(plan_json(), 1, 1000, 42);
+  CHECK(s.job(job)->state == "queued");
+  CHECK(s.transition_job(job, "queued", "running"));
+  CHECK_FALSE(s.transition_job(job, "queued", "running"));
+  CHECK(!s.job(job)->started_at.empty());
+  CHECK(s.job(job)->finished_at.empty());
+  s.set_job_state(job, "paused", std::string("meter: timeout"));
+  CHECK(s.job(job)->error == "meter: timeout");
+  s.set_job_state(job, "done");
+  CHECK(s.job(job)->error == "meter: timeout");  // unchanged when not given
+  CHECK(!s.job(job)->finished_at.empty());
+}
+
+TEST_CASE("readings committed by a process killed with SIGKILL survive") {
+  TempDir dir;
+  const fs::path db = dir.path / "junco.db";
+  Id run_id = 0, job_id = 0;
+  {
+    Store s(db);
+    const Id part = s.ensure_part(s.ensure_lot("QX-7"), "QX-7-01", 1);
+    job_id = s.insert_job(plan_json(), 100000, 0, 0);
+    run_id = s.ensure_run(job_id, part, 1, Json::object(), 300.15).id;
+  }
+  int fds[2];
+  REQUIRE(::pipe(fds) == 0);
+  const pid_t child = ::fork();
+  REQUIRE(child >= 0);
+  if (child == 0) {
+    // Commits readings forever, reporting each committed seq on the pipe.
+    ::close(fds[0]);
+    try {
+      Store s(db);
+      for (long seq = 0;; ++seq) {
+        PointRow p;
+        p.run_id = run_id;
+        p.seq = seq;
+        p.v = 0.5 + 1e-4 * static_cast<double>(seq);
+        p.i_a = 1e-3;
+        s.insert_point(job_id, p);
+        if (::write(fds[1], &seq, sizeof seq) != sizeof seq) ::_exit(3);
+      }
+    } catch (...) {
+      ::_exit(2);
+    }
+  }
+  ::close(fds[1]);
+  long last_reported = -1, seq = 0;
+  while (last_reported < 50 && ::read(fds[0], &seq, sizeof seq) == sizeof seq) last_reported = seq;
+  ::kill(child, SIGKILL);
+  int status = 0;
+  ::waitpid(child, &status, 0);
+  CHECK(WIFSIGNALED(status));
+  // The child may have committed more after its last report, never fewer.
+  while (::read(fds[0], &seq, sizeof seq) == sizeof seq) last_reported = seq;
+  ::close(fds[0]);
+  Store s(db);
+  const auto pts = s.points(run_id);
+  REQUIRE(static_cast<long>(pts.size()) >= last_reported + 1);
+  for (std::size_t k = 0; k < pts.size(); ++k) CHECK(pts[k].seq == static_cast<long>(k));  // no gaps, no duplicates
+  CHECK(s.job(job_id)->points_done == static_cast<long>(pts.size()));  // counter committed with each reading
+}
