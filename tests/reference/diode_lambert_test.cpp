@@ -53,3 +53,45 @@ TEST_CASE("Round trip V(I(V)) = V across the forward range", "[reference]") {
     CHECK(diode_voltage_v(p, i, 300.0) == Approx(v).epsilon(1e-10));
   }
 }
+
+TEST_CASE("I(V) matches Banwell–Jayakumar evaluated directly with Boost.Math", "[reference]") {
+  // Formula as in boostorg/math example/lambert_w_diode.cpp (REFERENCES.md §2):
+  // I = (nVt/R)·W0[(Is·R/nVt)·exp((V + Is·R)/nVt)] − Is, computed here with
+  // boost::math::lambert_w0 itself, where the argument is representable.
+  const double temp_k = 300.15;
+  for (const DiodeParams& p : {DiodeParams{2.52e-9, 1.752, 0.568}, DiodeParams{5e-11, 2.2, 3.5}, DiodeParams{1e-14, 1.0, 10.0}}) {
+    const double nvt = p.n * thermal_voltage_v(temp_k);
+    for (double v = 0.1; v < 1.6; v += 0.05) {
+      const double arg = p.is_a * p.rs_ohm / nvt * std::exp((v + p.is_a * p.rs_ohm) / nvt);
+      const double expected = nvt / p.rs_ohm * boost::math::lambert_w0(arg) - p.is_a;
+      CHECK(diode_current_a(p, v, temp_k) == Approx(expected).epsilon(1e-12));
+    }
+  }
+}
+
+TEST_CASE("With a shunt, V(I) solves the implicit equation to full precision", "[reference]") {
+  // Is·(exp(Vj/nVt) − 1) + Vj/Rsh = I with Vj = V − I·Rs; checked for a very
+  // large Rsh, where a subtraction of two large terms would lose digits.
+  const double temp_k = 300.15;
+  for (double rsh : {1e4, 1e6, 1e9, 1e12}) {
+    const DiodeParams p{1e-12, 1.3, 1.2, rsh};
+    const double nvt = p.n * thermal_voltage_v(temp_k);
+    for (double i = 1e-10; i < 0.2; i *= 3.7) {
+      const double vj = diode_voltage_v(p, i, temp_k) - i * p.rs_ohm;
+      const double back = p.is_a * std::expm1(vj / nvt) + vj / rsh;
+      CHECK(back == Approx(i).epsilon(1e-11));
+      CHECK(diode_current_a(p, diode_voltage_v(p, i, temp_k), temp_k) == Approx(i).epsilon(1e-9));
+    }
+  }
+}
+
+TEST_CASE("E2 default card and E7 set: explicit V(I)", "[reference]") {
+  // REFERENCES.md E2 [C] (IS = 1e-14, N = 1, 27 °C) and E7 [C] (IS = 1e-9, N = 1.8, RS = 0.5, 300 K).
+  const DiodeParams def{1e-14, 1.0, 0.0};
+  CHECK(diode_voltage_v(def, 1e-6, 300.15) == Approx(0.476450).epsilon(2e-6));
+  CHECK(diode_voltage_v(def, 1e-3, 300.15) == Approx(0.655118).epsilon(2e-6));
+  const DiodeParams e7{1e-9, 1.8, 0.5};
+  CHECK(diode_voltage_v(e7, 10e-6, 300.0) == Approx(0.4285999).epsilon(5e-7));
+  CHECK(diode_voltage_v(e7, 100e-3, 300.0) == Approx(0.9071806).epsilon(5e-7));
+  CHECK(dynamic_resistance_ohm(e7, 1e-3, 300.0) == Approx(47.03355).epsilon(2e-7));
+}
