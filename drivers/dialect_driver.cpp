@@ -62,6 +62,9 @@ void DialectDriver::with_retries(const char* operation, const std::function<void
       return;
     } catch (const DriverError& e) {
       bool again = e.transient() && attempt <= spec_.max_retries;
+      // Whatever happens next, a link that failed this way may hold a late
+      // reply: the next use starts with a reconnect.
+      if (e.transient()) needs_reconnect_ = true;
       if (spec_.traffic_log)
         spec_.traffic_log("#", std::string(operation) + " attempt " + std::to_string(attempt) + " failed (" +
                                    to_string(e.kind()) + "): " + e.what() + (again ? "; retrying" : ""));
@@ -70,7 +73,6 @@ void DialectDriver::with_retries(const char* operation, const std::function<void
         throw DriverError(e.kind(), label() + ": " + operation + ": " + to_string(e.kind()) + ": " + e.what() + tries,
                           e.scpi_code());
       }
-      needs_reconnect_ = true;
     }
   }
 }

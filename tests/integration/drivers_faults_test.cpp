@@ -7,6 +7,8 @@
 
 #include <catch2/catch.hpp>
 
+#include <thread>
+
 using namespace junco::drivers;
 using junco::test::SimProcess;
 using junco::test::sim_spec;
@@ -93,6 +95,15 @@ TEST_CASE("junco-sim faults give typed errors or recover", "[drivers][integratio
                         Catch::Contains(serial ? "MEAS:CURR:DC?" : "MEAS:CURR?") && Catch::Contains("300 ms"));
     }
     CHECK(seconds_since(t0) < 0.3 + 0.5);
+    // The late reply, still on its way, is not the answer to the next query.
+    std::this_thread::sleep_for(std::chrono::milliseconds(800));
+    if (serial) {
+      auto& m = dynamic_cast<Meter&>(*once);
+      CHECK(m.measure_dc_voltage_v() == Approx(sim.control("state?")["diode"]["v"].get<double>()).epsilon(0.01));
+    } else {
+      CHECK_FALSE(dynamic_cast<Source&>(*once).in_current_limit());
+      CHECK(dynamic_cast<Source&>(*once).measure_voltage_v() == Approx(2.0).epsilon(0.01));
+    }
   }
 
   SECTION("garble once: retried, the true value comes back") {
