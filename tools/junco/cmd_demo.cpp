@@ -1,0 +1,371 @@
+// junco demo: the whole tool on the simulated bench, with no hardware.
+// Starts junco-sim and juncod as children in a scratch directory, runs an
+// accelerated overnight job over a lot of 8 simulated parts, prints the lot
+// table and spread, stops the children and leaves the database behind.
+#include "fitting/lot_stats.hpp"
+#include "tools/junco/command.hpp"
+#include "tools/junco/rpc_client.hpp"
+
+#include <fcntl.h>
+#include <poll.h>
+#include <signal.h>
+#include <spawn.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include <chrono>
+#include <cmath>
+#include <csignal>
+#include <cstdio>
+#include <ctime>
+#include <filesystem>
+#include <fstream>
+#include <thread>
+
+extern char** environ;
+
+namespace junco::cli {
+namespace {
+
+namespace fs = std::filesystem;
+
+const char* const usage = R"(usage: junco demo [--dir DIR] [--seed N] [--keep-running]
+
+Runs junco end to end on the simulated bench, no hardware needed:
+  1. starts junco-sim (a simulated supply, meter and 8-slot fixture holding a
+     lot of switching diodes) and juncod, both found next to this junco;
+  2. writes a bench config and a plan into DIR and submits the plan: an
+     overnight characterisation, accelerated (the simulated instruments settle
+     in milliseconds), of lot WREN-0912 — eight PIN-style switching diodes
+     bought for the transmit/receive switch of an invented marine VHF radio;
+  3. shows the job's progress, then the lot table (Is, n, Rs ± standard
+     error, Vf at 1 mA and 10 mA, rd at 5 mA) and the lot spread;
+  4. stops both children (also on Ctrl-C) and leaves DIR with the database,
+     the config, the plan and both logs for inspection.
+Takes about a minute.
+
+options:
+  --dir DIR       scratch directory (default ./junco-demo-YYYYMMDD-HHMMSS)
+  --seed N        seed of the simulated lot (default 912)
+  --keep-running  leave juncod and junco-sim running at the end and print how
+                  to talk to them and how to stop them
+
+exit status: 0 the job ran and every part was fitted; 1 something failed.)";
+
+volatile sig_atomic_t g_interrupted = 0;
+volatile pid_t g_children[2] = {-1, -1};
+
+void on_signal(int) {
+  g_interrupted = 1;
+  for (auto pid : g_children)
+    if (pid > 0) ::kill(pid, SIGTERM);  // async-signal-safe
+}
+
+// A child started without a shell; stdout piped to us, stderr to a log file.
+class Child {
+ public:
+  Child(const std::vector<std::string>& argv, const fs::path& log, int slot) : slot_(slot) {
+    int fds[2];
+    if (::pipe2(fds, O_CLOEXEC) != 0) throw std::runtime_error("pipe failed");
+    posix_spawn_file_actions_t fa;
+    posix_spawn_file_actions_init(&fa);
+    posix_spawn_file_actions_adddup2(&fa, fds[1], STDOUT_FILENO);
+    posix_spawn_file_actions_addopen(&fa, STDIN_FILENO, "/dev/null", O_RDONLY, 0);
+    posix_spawn_file_actions_addopen(&fa, STDERR_FILENO, log.c_str(), O_WRONLY | O_CREAT | O_TRUNC, 0644);
+    std::vector<char*> cargv;
+    for (const auto& a : argv) cargv.push_back(const_cast<char*>(a.c_str()));
+    cargv.push_back(nullptr);
+    const int rc = ::posix_spawn(&pid_, cargv[0], &fa, nullptr, cargv.data(), environ);
+    posix_spawn_file_actions_destroy(&fa);
+    ::close(fds[1]);
+    if (rc != 0) {
+      ::close(fds[0]);
+      throw std::runtime_error("cannot start " + argv[0] + ": " + std::strerror(rc));
+    }
+    out_ = fds[0];
+    g_children[slot_] = pid_;
+  }
+  Child(const Child&) = delete;
+  Child& operator=(const Child&) = delete;
+  ~Child() {
+    stop();
+    if (out_ >= 0) ::close(out_);
+  }
+  std::optional<std::string> read_line(std::chrono::milliseconds timeout) {
+    const auto until = std::chrono::steady_clock::now() + timeout;
+    for (;;) {
+      if (const auto nl = buf_.find('\n'); nl != std::string::npos) {
+        auto line = buf_.substr(0, nl);
+        buf_.erase(0, nl + 1);
+        return line;
+      }
+      const auto left = std::chrono::duration_cast<std::chrono::milliseconds>(until - std::chrono::steady_clock::now());
+      if (left.count() <= 0 || g_interrupted) return std::nullopt;
+      pollfd p{out_, POLLIN, 0};
+      if (::poll(&p, 1, static_cast<int>(left.count())) <= 0) continue;
+      char chunk[4096];
+      const auto n = ::read(out_, chunk, sizeof chunk);
+      if (n <= 0) return std::nullopt;
+      buf_.append(chunk, static_cast<std::size_t>(n));
+    }
+  }
+  bool running() {
+    if (done_) return false;
+    int status = 0;
+    if (::waitpid(pid_, &status, WNOHANG) == pid_) reap(status);
+    return !done_;
+  }
+  // SIGTERM, up to 10 s for juncod to turn the outputs off, then SIGKILL.
+  int stop() {
+    if (!running()) return code_;
+    ::kill(pid_, SIGTERM);
+    for (int i = 0; i < 1000 && running(); ++i) std::this_thread::sleep_for(std::chrono::milliseconds(10));
+    if (running()) {
+      ::kill(pid_, SIGKILL);
+      int status = 0;
+      ::waitpid(pid_, &status, 0);
+      reap(status);
+    }
+    return code_;
+  }
+  void release() {  // --keep-running: forget the child without stopping it
+    done_ = true;
+    g_children[slot_] = -1;
+  }
+  pid_t pid() const { return pid_; }
+
+ private:
+  void reap(int status) {
+    done_ = true;
+    code_ = WIFEXITED(status) ? WEXITSTATUS(status) : 128 + WTERMSIG(status);
+    g_children[slot_] = -1;
+  }
+  int slot_;
+  pid_t pid_ = -1;
+  int out_ = -1;
+  std::string buf_;
+  bool done_ = false;
+  int code_ = -1;
+};
+
+fs::path self_dir() {
+  std::error_code ec;
+  const auto exe = fs::read_symlink("/proc/self/exe", ec);
+  if (ec) throw std::runtime_error("cannot find the junco executable (/proc/self/exe)");
+  return exe.parent_path();
+}
+
+// juncod sits next to junco in a build tree, in ../sbin when installed.
+fs::path find_program(const std::string& name) {
+  const auto dir = self_dir();
+  for (const auto& candidate : {dir / name, dir.parent_path() / "sbin" / name, dir.parent_path() / "bin" / name})
+    if (::access(candidate.c_str(), X_OK) == 0) return candidate;
+  throw std::runtime_error("cannot find " + name + " next to " + (dir / "junco").string() + " (build it: cmake --build build/default)");
+}
+
+std::string timestamp() {
+  const std::time_t t = std::time(nullptr);
+  char text[32];
+  std::strftime(text, sizeof text, "%Y%m%d-%H%M%S", std::localtime(&t));
+  return text;
+}
+
+void write_file(const fs::path& path, const std::string& text) {
+  std::ofstream out(path);
+  out << text;
+  if (!out) throw std::runtime_error("cannot write " + path.string());
+}
+
+std::string config_text(const Json& ready, const fs::path& dir) {
+  Json bench = Json::object();
+  for (const char* role : {"source", "meter", "scanner"})
+    bench[role] = {{"address", ready["endpoints"][role]}, {"dialect", ready["families"][role]}};
+  const Json config{
+      {"bench", bench},
+      // junco-sim's default fixture: 100 Ω bias resistor, choke return.
+      {"fixture", {{"bias_resistor_ohm", 100.0}, {"slots", 8}, {"current_from", "source"}}},
+      {"safety", {{"max_supply_v", 10.0}, {"current_limit_a", 0.05}, {"max_power_w", 0.1}, {"max_reverse_v", 8.0}, {"max_job_s", 3600.0}}},
+      {"paths", {{"database", (dir / "junco.db").string()}, {"socket", (dir / "run" / "juncod.sock").string()}}}};
+  return "// junco demo bench: junco-sim's instruments on 127.0.0.1 (written by junco demo)\n" + config.dump(2) + "\n";
+}
+
+const char* const plan_text = R"(// Lot WREN-0912: eight switching diodes for the T/R switch of an invented
+// marine VHF radio. Overnight plan, accelerated: on a real bench settle_s
+// would be about 1 s per point; junco-sim settles in a few milliseconds.
+{
+  "lot": "WREN-0912",
+  "parts": [
+    {"slot": 1, "label": "WR-01"}, {"slot": 2, "label": "WR-02"},
+    {"slot": 3, "label": "WR-03"}, {"slot": 4, "label": "WR-04"},
+    {"slot": 5, "label": "WR-05"}, {"slot": 6, "label": "WR-06"},
+    {"slot": 7, "label": "WR-07"}, {"slot": 8, "label": "WR-08"}
+  ],
+  // forward: 1 µA to 30 mA, 4 points per decade and then some
+  "sweep": {"mode": "current", "spacing": "log", "start": 1e-6, "stop": 0.03,
+            "count": 40, "settle_s": 0.05, "average": 2},
+  // isolation side: a few reverse-bias points
+  "reverse_v": [1, 5, 8],
+  "temp_k": 300.15
+}
+)";
+
+std::string pm(double value, double se, const std::string& unit, int digits = 4) {
+  if (!std::isfinite(value)) return "—";
+  return format_si(value, unit, digits) + (std::isfinite(se) ? " ± " + format_si(se, unit, 2) : "");
+}
+
+// Pads to `width` columns; printf counts bytes, and Ω and ± take two.
+std::string pad(std::string text, std::size_t width) {
+  std::size_t cols = 0;
+  for (unsigned char c : text) cols += (c & 0xC0) != 0x80;
+  if (cols < width) text.append(width - cols, ' ');
+  return text;
+}
+
+double num(const Json& j) { return j.is_number() ? j.get<double>() : std::nan(""); }
+
+// The lot table and the lot spread, from the daemon's fits.
+bool print_lot(RpcClient& client, const std::string& lot) {
+  const std::vector<double> at{1e-3, 10e-3, 5e-3};
+  std::vector<fitting::LotPart> fitted;
+  bool all_fitted = true;
+  std::printf("\nlot %s — fitted at %.2f K\n", lot.c_str(), 300.15);
+  std::printf("%-6s %-22s %-16s %-20s %-11s %-11s %-10s\n", "part", "Is", "n", "Rs", "Vf@1mA", "Vf@10mA", "rd@5mA");
+  const Json parts = client.call("part.list", Json{{"lot", lot}}).value("parts", Json::array());
+  for (const auto& p : parts) {
+    const long id = p["part_id"].get<long>();
+    const std::string label = p.value("label", "?");
+    try {
+      const Json fit = client.call("part.fit", Json{{"part_id", id}});
+      const Json figs = client.call("part.figures", Json{{"part_id", id}, {"currents_a", at}})["figures"];
+      char nbuf[48];
+      std::snprintf(nbuf, sizeof nbuf, "%.4f ± %.4f", num(fit["n"]["value"]), num(fit["n"]["std_error"]));
+      std::printf("%s\n", (pad(label, 7) + pad(pm(num(fit["is_a"]["value"]), num(fit["is_a"]["std_error"]), "A"), 23) +
+                            pad(nbuf, 17) + pad(pm(num(fit["rs_ohm"]["value"]), num(fit["rs_ohm"]["std_error"]), "Ω"), 21) +
+                            pad(format_si(num(figs[0]["vf_v"]), "V"), 12) + pad(format_si(num(figs[1]["vf_v"]), "V"), 12) +
+                            format_si(num(figs[2]["rd_ohm"]), "Ω"))
+                               .c_str());
+      fitting::LotPart lp;
+      lp.label = label;
+      lp.lot = lot;
+      lp.params.is_a = num(fit["is_a"]["value"]);
+      lp.params.n = num(fit["n"]["value"]);
+      lp.params.rs_ohm = num(fit["rs_ohm"]["value"]);
+      if (fit["rsh_ohm"].is_object() && fit["rsh_ohm"]["value"].is_number()) lp.params.rsh_ohm = fit["rsh_ohm"]["value"];
+      fitted.push_back(lp);
+    } catch (const RpcError& e) {
+      all_fitted = false;
+      std::printf("%-6s no usable fit: %s\n", label.c_str(), e.what());
+    }
+  }
+  if (fitted.size() < 2) {
+    std::printf("fewer than 2 fitted parts: no lot spread\n");
+    return false;
+  }
+  fitting::LotStatsOptions options;
+  options.currents_a = {1e-3, 5e-3, 10e-3};
+  const auto stats = fitting::lot_statistics(fitted, options);
+  std::printf("\nlot spread (%zu parts)\n%-14s %-12s %-12s %-12s %-12s\n", fitted.size(), "quantity", "mean", "std", "min", "max");
+  const std::vector<std::pair<std::string, std::string>> shown{{"is_a", "A"},          {"n", ""},
+                                                               {"rs_ohm", "Ω"},        {"vf_v@0.001A", "V"},
+                                                               {"vf_v@0.01A", "V"},    {"rd_ohm@0.005A", "Ω"}};
+  for (const auto& [name, unit] : shown)
+    for (const auto& q : stats.front().quantities) {
+      if (q.name != name) continue;
+      const auto f = [&, u = unit](double x) {
+        if (!u.empty()) return format_si(x, u);
+        char t[32];
+        std::snprintf(t, sizeof t, "%.4f", x);
+        return std::string(t);
+      };
+      std::printf("%s%s\n", (pad(q.name, 15) + pad(f(q.mean), 13) + pad(f(q.std_dev), 13) + pad(f(q.min), 13) + f(q.max)).c_str(),
+                  q.outliers.empty() ? "" : ("  outliers: " + Json(q.outliers).dump()).c_str());
+    }
+  return all_fitted;
+}
+
+void wait_for_socket(const std::string& path, Child& daemon, const fs::path& log) {
+  for (int i = 0; i < 300; ++i) {
+    if (g_interrupted) throw std::runtime_error("interrupted");
+    if (!daemon.running()) throw std::runtime_error("juncod exited during start-up; see " + log.string());
+    try {
+      RpcClient probe(path);
+      return;
+    } catch (const ConnectError&) {
+      std::this_thread::sleep_for(std::chrono::milliseconds(50));
+    }
+  }
+  throw std::runtime_error("juncod did not open its socket within 15 s; see " + log.string());
+}
+
+int run(std::vector<std::string> args) {
+  return guarded("demo", [&]() -> int {
+    const auto dir_opt = take_option(args, "--dir");
+    const auto seed = take_option(args, "--seed").value_or("912");
+    const bool keep = take_flag(args, "--keep-running");
+    if (!args.empty()) throw std::invalid_argument("unexpected argument '" + args.front() + "'");
+    parse_id(seed, "--seed");
+    const fs::path dir = fs::absolute(dir_opt ? fs::path(*dir_opt) : fs::path("junco-demo-" + timestamp()));
+    fs::create_directories(dir);
+    const auto sim_path = find_program("junco-sim"), daemon_path = find_program("juncod");
+
+    struct sigaction sa{};
+    sa.sa_handler = on_signal;
+    ::sigaction(SIGINT, &sa, nullptr);
+    ::sigaction(SIGTERM, &sa, nullptr);
+
+    std::setvbuf(stdout, nullptr, _IOLBF, 0);  // progress and errors interleave in order
+    std::printf("junco demo in %s\n", dir.c_str());
+    Child sim({sim_path.string(), "--seed", seed, "--slots", "8", "--settle-ms", "2"}, dir / "junco-sim.log", 0);
+    const auto ready_line = sim.read_line(std::chrono::seconds(10));
+    const Json ready = ready_line ? Json::parse(*ready_line, nullptr, false) : Json();
+    if (!ready.is_object() || !ready.value("ready", false))
+      throw std::runtime_error("junco-sim did not become ready; see " + (dir / "junco-sim.log").string());
+    std::printf("  junco-sim ready (pid %d): source %s, meter %s, scanner %s\n", sim.pid(),
+                ready["endpoints"]["source"].get<std::string>().c_str(), ready["endpoints"]["meter"].get<std::string>().c_str(),
+                ready["endpoints"]["scanner"].get<std::string>().c_str());
+
+    write_file(dir / "bench.jsonc", config_text(ready, dir));
+    write_file(dir / "plan.jsonc", plan_text);
+    const std::string socket = (dir / "run" / "juncod.sock").string();
+    Child daemon({daemon_path.string(), "--config", (dir / "bench.jsonc").string()}, dir / "juncod.log", 1);
+    wait_for_socket(socket, daemon, dir / "juncod.log");
+    std::printf("  juncod ready (pid %d) on %s\n\n", daemon.pid(), socket.c_str());
+
+    RpcClient client(socket);
+    const Json plan = Json::parse(plan_text, nullptr, true, true);
+    const Json submitted = client.call("job.submit", Json{{"plan", plan}});
+    const long job = submitted["job_id"].get<long>();
+    std::printf("job %ld: lot %s, %zu parts, %ld points\n", job, plan["lot"].get<std::string>().c_str(), plan["parts"].size(),
+                submitted.value("points_total", 0L));
+    int status = exit_failure;
+    try {
+      status = watch_job(client, job);
+    } catch (const ConnectError&) {
+      if (!g_interrupted) throw;
+    }
+    if (g_interrupted) {
+      std::printf("\ninterrupted: stopping juncod (outputs off) and junco-sim\n");
+    } else if (!print_lot(client, plan["lot"])) {
+      status = exit_failure;
+    }
+    if (keep && !g_interrupted) {
+      daemon.release();
+      sim.release();
+      std::printf("\nstill running: juncod pid %d, junco-sim pid %d\n  try:  junco status --socket %s\n  stop: kill %d %d\n",
+                  daemon.pid(), sim.pid(), socket.c_str(), daemon.pid(), sim.pid());
+    } else {
+      const int daemon_rc = daemon.stop();
+      sim.stop();
+      if (daemon_rc != 0) std::printf("juncod exited with status %d; see %s\n", daemon_rc, (dir / "juncod.log").c_str());
+    }
+    std::printf("\ndatabase kept: %s\n  look inside: sqlite3 %s 'SELECT p.label, f.status, f.is_a, f.n, f.rs_ohm FROM fits f JOIN parts p ON p.id = f.part_id'\n",
+                (dir / "junco.db").c_str(), (dir / "junco.db").c_str());
+    return g_interrupted ? exit_failure : status;
+  });
+}
+
+const bool registered = register_command({"demo", "run the whole tool on the simulated bench", usage, run});
+
+}  // namespace
+}  // namespace junco::cli
