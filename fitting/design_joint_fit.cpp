@@ -1,0 +1,158 @@
+#include "fitting/design_joint_fit.hpp"
+
+#include <ceres/ceres.h>
+
+#include <algorithm>
+#include <cmath>
+#include <cstdio>
+#include <numbers>
+
+namespace junco::fitting {
+
+namespace {
+
+struct DcCost {
+  double v, i_a, nvt_t, inv_sigma;  // nvt_t: Vt at the fit temperature
+  template <typename T>
+  bool operator()(const T* const x, T* r) const {
+    // x = {ln Is, n, Rs}
+    const T model = T(i_a) * x[2] + x[1] * T(nvt_t) * log(T(1.0) + T(i_a) / exp(x[0]));
+    r[0] = (model - T(v)) * T(inv_sigma);
+    return true;
+  }
+};
+
+struct AcCost {
+  double bias_i_a, measured_db, vt, omega_cj, z_load, inv_sigma;
+  template <typename T>
+  bool operator()(const T* const x, T* r) const {
+    const T rj = x[1] * T(vt) / (T(bias_i_a) + exp(x[0]));
+    const T a = T(omega_cj) * rj;  // ω·Cj·rj
+    const T re = x[2] + rj / (T(1.0) + a * a) + T(z_load);
+    const T im = -a * rj / (T(1.0) + a * a);
+    const T gain_sq = T(z_load * z_load) / (re * re + im * im);
+    const T model_db = T(10.0) * log10(gain_sq);
+    r[0] = (model_db - T(measured_db)) * T(inv_sigma);
+    return true;
+  }
+};
+
+// Start from the slope of the lowest decade and the excess at the top.
+void initial_estimate(std::span<const IvPoint> dc, double vt, double x[3]) {
+  std::vector<IvPoint> pts(dc.begin(), dc.end());
+  std::sort(pts.begin(), pts.end(), [](const IvPoint& a, const IvPoint& b) { return a.i_a < b.i_a; });
+  const IvPoint lo = pts.front();
+  IvPoint up = pts.back();
+  for (const auto& p : pts)
+    if (p.i_a >= 10.0 * lo.i_a) {
+      up = p;
+      break;
+    }
+  double n = (up.v - lo.v) / (vt * std::log(up.i_a / lo.i_a));
+  if (!(n > 0.5 && n < 5.0)) n = 1.5;
+  const double ln_is = std::log(lo.i_a) - lo.v / (n * vt);
+  const IvPoint top = pts.back();
+  const double rs = std::max(0.0, (top.v - n * vt * (std::log(top.i_a) - ln_is)) / top.i_a);
+  x[0] = ln_is;
+  x[1] = n;
+  x[2] = std::min(rs, 100.0);
+}
+
+}  // namespace
+
+SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, const Fixture& fixture,
+                    const JointFitOptions& o) {
+  SimpleFit f;
+  std::vector<IvPoint> fwd;
+  for (const auto& p : dc)
+    if (p.i_a > 5.0 * o.accuracy.i_abs_a && std::isfinite(p.v)) fwd.push_back(p);
+  if (fwd.size() < 4) {
+    f.message = "need at least 4 forward points above the noise floor";
+    return f;
+  }
+  const double vt = thermal_voltage_v(o.temp_k);
+  double x[3];
+  initial_estimate(fwd, vt, x);
+  ceres::Problem problem;
+  for (const auto& p : fwd) {
+    const double sv = o.accuracy.v_rel * std::abs(p.v) + o.accuracy.v_abs_v;
+    const double si = 1.5 * vt * (o.accuracy.i_rel + o.accuracy.i_abs_a / p.i_a);
+    problem.AddResidualBlock(new ceres::AutoDiffCostFunction<DcCost, 1, 3>(
+                                 new DcCost{p.v, p.i_a, vt, 1.0 / std::hypot(sv, si)}),
+                             nullptr, x);
+  }
+  const double z_load = std::isfinite(fixture.dc_return_ohm)
+                            ? fixture.rl_ohm * fixture.dc_return_ohm / (fixture.rl_ohm + fixture.dc_return_ohm)
+                            : fixture.rl_ohm;
+  for (const auto& p : ac) {
+    if (!(p.vin > 0.0 && p.vout > 0.0 && p.bias_i_a > 0.0)) continue;
+    const double omega_cj = 2.0 * std::numbers::pi * p.freq_hz * o.cj_f;
+    problem.AddResidualBlock(
+        new ceres::AutoDiffCostFunction<AcCost, 1, 3>(new AcCost{
+            p.bias_i_a, 20.0 * std::log10(p.vout / p.vin), vt, omega_cj, z_load, 1.0 / o.ac_sigma_db}),
+        nullptr, x);
+    ++f.ac_points;
+  }
+  f.dc_points = fwd.size();
+  problem.SetParameterLowerBound(x, 1, 0.5);
+  problem.SetParameterUpperBound(x, 1, 5.0);
+  problem.SetParameterLowerBound(x, 2, 0.0);
+  problem.SetParameterUpperBound(x, 2, 1e3);
+  ceres::Solver::Options so;
+  so.max_num_iterations = o.max_iterations;
+  so.function_tolerance = 1e-12;
+  so.parameter_tolerance = 1e-12;
+  so.gradient_tolerance = 1e-14;
+  ceres::Solver::Summary summary;
+  ceres::Solve(so, &problem, &summary);
+  f.cost = summary.final_cost;
+  f.is_a.value = std::exp(x[0]);
+  f.n.value = x[1];
+  f.rs_ohm.value = x[2];
+  if (summary.termination_type != ceres::CONVERGENCE) {
+    f.message = "solver did not converge: " + summary.message;
+    return f;
+  }
+  f.ok = true;
+  ceres::Covariance::Options co;
+  co.algorithm_type = ceres::DENSE_SVD;
+  ceres::Covariance cov(co);
+  std::vector<std::pair<const double*, const double*>> blocks{{x, x}};
+  const std::size_t dof = f.dc_points + f.ac_points - 3;
+  if (dof > 0 && cov.Compute(blocks, &problem)) {
+    double c[9];
+    cov.GetCovarianceBlock(x, x, c);
+    const double scale = 2.0 * summary.final_cost / static_cast<double>(dof);
+    f.is_a.std_error = f.is_a.value * std::sqrt(c[0] * scale);
+    f.n.std_error = std::sqrt(c[4] * scale);
+    f.rs_ohm.std_error = std::sqrt(c[8] * scale);
+  } else {
+    f.message = "covariance not determined";
+  }
+  return f;
+}
+
+JointFitReport compare_dc_and_joint(std::span<const IvPoint> dc, std::span<const AcPoint> ac, const Fixture& fixture,
+                                    const JointFitOptions& options) {
+  JointFitReport r;
+  r.dc_only = fit_dc_ac(dc, {}, fixture, options);
+  r.joint = fit_dc_ac(dc, ac, fixture, options);
+  r.agree = r.dc_only.ok && r.joint.ok;
+  const auto check = [&](const char* name, const Estimate& a, const Estimate& b) {
+    const double limit = options.agree_k * std::hypot(a.std_error, b.std_error);
+    const double diff = std::abs(a.value - b.value);
+    const bool ok = std::isfinite(limit) && diff <= limit;
+    r.agree = r.agree && ok;
+    char line[200];
+    std::snprintf(line, sizeof line, "%s: DC %.6g ± %.3g, joint %.6g ± %.3g, |diff| %.3g %s %.3g (%s)\n", name,
+                  a.value, a.std_error, b.value, b.std_error, diff, ok ? "<=" : ">", limit,
+                  ok ? "agree" : "DISAGREE");
+    r.agreement += line;
+  };
+  check("is_a", r.dc_only.is_a, r.joint.is_a);
+  check("n", r.dc_only.n, r.joint.n);
+  check("rs_ohm", r.dc_only.rs_ohm, r.joint.rs_ohm);
+  return r;
+}
+
+}  // namespace junco::fitting

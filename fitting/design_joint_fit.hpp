@@ -1,0 +1,56 @@
+// Joint fit of Is, n, Rs to a part's DC forward curve and its AC transfer
+// readings together, and its comparison with the DC-only fit.
+//
+// Why: the AC readings see the diode's dynamic resistance Rs + n·Vt/I, so
+// they pin Rs and n; the DC curve pins Is (and also n). The residuals are
+//   DC: (V_model(I) − V)/σ_V, V_model explicit (no inner solve),
+//       σ_V² = σ_v² + (n₀·Vt/I · σ_i)², from the accuracy model, n₀ = 1.5;
+//   AC: (20·log10|Vout/Vin|_model − measured)/ac_sigma_db,
+//       through the fixture model of transfer.hpp (Cj as given, not fitted).
+// Parameters are ln Is, n, Rs, bounded 0.5 ≤ n ≤ 5, 0 ≤ Rs ≤ 1 kΩ. Standard
+// errors from the covariance scaled by the reduced χ² (2·cost/(N − 3)).
+// Agreement: every parameter within agree_k·sqrt(se_dc² + se_joint²) (the two
+// fits share the DC data, so this is a lenient test; k = 2 by default).
+#pragma once
+
+#include "fitting/extract.hpp"
+#include "fitting/transfer.hpp"
+
+#include <span>
+#include <string>
+
+namespace junco::fitting {
+
+struct JointFitOptions {
+  double temp_k = 300.15;
+  AccuracyModel accuracy;
+  double ac_sigma_db = 0.01;  // standard uncertainty of one AC ratio reading
+  double cj_f = 0.0;          // junction capacitance used by the AC model
+  double agree_k = 2.0;
+  int max_iterations = 200;
+};
+
+struct SimpleFit {
+  bool ok = false;
+  std::string message;
+  Estimate is_a, n, rs_ohm;
+  double cost = 0.0;
+  std::size_t dc_points = 0, ac_points = 0;
+  DiodeParams params() const { return {is_a.value, n.value, rs_ohm.value}; }
+};
+
+struct JointFitReport {
+  SimpleFit dc_only;
+  SimpleFit joint;
+  bool agree = false;
+  std::string agreement;  // one line per parameter
+};
+
+// ac may be empty (then this is the DC-only fit).
+SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, const Fixture& fixture,
+                    const JointFitOptions& options);
+
+JointFitReport compare_dc_and_joint(std::span<const IvPoint> dc, std::span<const AcPoint> ac, const Fixture& fixture,
+                                    const JointFitOptions& options);
+
+}  // namespace junco::fitting
