@@ -126,8 +126,8 @@ TEST_CASE("ngspice transient + fourier of the same circuit agrees on HD2 and HD3
     const auto ours = solve_distortion(in);
     const auto [hd2, hd3] = ngspice_hd(in);
     INFO("bias " << bias);
-    CHECK(ours.load.dbc[2] == Approx(db(hd2)).margin(0.1));
-    CHECK(ours.load.dbc[3] == Approx(db(hd3)).margin(0.3));
+    CHECK(ours.load.dbc[2] == Approx(db(hd2)).margin(0.02));
+    CHECK(ours.load.dbc[3] == Approx(db(hd3)).margin(0.05));
   }
 }
 
