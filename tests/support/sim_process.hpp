@@ -78,7 +78,7 @@ class LineClient {
   void send_raw(const std::string& bytes) {
     size_t off = 0;
     while (off < bytes.size()) {
-      const ssize_t n = ::send_or_write(fd_, bytes.data() + off, bytes.size() - off);
+      const ssize_t n = send_or_write(fd_, bytes.data() + off, bytes.size() - off);
       if (n <= 0) throw std::runtime_error("LineClient: write failed");
       off += static_cast<size_t>(n);
     }

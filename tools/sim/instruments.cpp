@@ -89,8 +89,11 @@ class SourceSim : public SimInstrument {
       add("VOLTage", set_v);
       add("SOURce:CURRent", set_i);
       add("CURRent", set_i);
-      add("VOLTage?", [this](const std::string&) { return format_nr3(bench_.bias().voltage_v, 6); });
-      add("CURRent?", [this](const std::string&) { return format_nr3(bench_.bias().current_limit_a, 6); });
+      for (const char* prefix : {"", "SOURce:"}) {
+        add(std::string(prefix) + "VOLTage?", [this](const std::string&) { return format_nr3(bench_.bias().voltage_v, 6); });
+        add(std::string(prefix) + "CURRent?",
+            [this](const std::string&) { return format_nr3(bench_.bias().current_limit_a, 6); });
+      }
       add("OUTPut", [set_out](const std::string& a) {
         set_out(need_bool(a));
         return std::optional<std::string>{};
