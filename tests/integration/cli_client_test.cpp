@@ -1,0 +1,131 @@
+// The junco CLI as a real program against a real juncod + junco-sim:
+// submit/watch/jobs/lots/parts/show output, exit statuses, and the messages
+// for a daemon that is not running and for bad option values.
+#include "tests/integration/daemon_api_test_support.hpp"
+#include "tests/support/sim_process.hpp"
+
+#include <catch2/catch.hpp>
+
+#include <cmath>
+#include <fstream>
+
+using namespace junco;
+namespace fs = std::filesystem;
+
+namespace {
+
+struct Output {
+  int status = -1;
+  std::vector<std::string> lines;  // stdout
+  std::string err;                 // stderr
+  std::string all() const {
+    std::string t;
+    for (const auto& l : lines) t += l + "\n";
+    return t;
+  }
+};
+
+Output junco_cli(const fs::path& dir, std::vector<std::string> args) {
+  args.insert(args.begin(), std::string(JUNCO_BIN_DIR) + "/junco");
+  test::ChildOptions o;
+  o.stderr_path = (dir / "cli.err").string();
+  test::ChildProcess p(args, o);
+  Output out;
+  while (auto line = p.read_line(std::chrono::seconds(60))) out.lines.push_back(*line);
+  out.status = p.wait(std::chrono::seconds(10)).value_or(-1);
+  std::ifstream e(o.stderr_path);
+  out.err.assign(std::istreambuf_iterator<char>(e), std::istreambuf_iterator<char>());
+  return out;
+}
+
+}  // namespace
+
+TEST_CASE("junco explains an unreachable daemon and bad values", "[cli]") {
+  const auto dir = test::scratch_dir("cli-none");
+  const auto sock = (dir / "nothing.sock").string();
+  auto r = junco_cli(dir, {"status", "--socket", sock});
+  CHECK(r.status == 1);
+  CHECK_THAT(r.err, Catch::Contains("cannot reach juncod at " + sock) && Catch::Contains("No such file") &&
+                        Catch::Contains("is it running?") && Catch::Contains("juncod --config"));
+  r = junco_cli(dir, {"show", "3", "--at", "5 parsecs", "--socket", sock});
+  CHECK(r.status == 2);
+  CHECK_THAT(r.err, Catch::Contains("'5 parsecs' is not a value in A"));
+  r = junco_cli(dir, {"cancel", "twelve", "--socket", sock});
+  CHECK(r.status == 2);
+  r = junco_cli(dir, {"watch", "--help"});
+  CHECK(r.status == 0);
+  CHECK_THAT(r.all(), Catch::Contains("usage: junco watch JOB"));
+  fs::remove_all(dir);
+}
+
+TEST_CASE("junco submit, watch, jobs, lots, parts, show against a running daemon", "[cli]") {
+  const auto dir = test::scratch_dir("cli");
+  test::SimProcess sim({"--settle-ms", "0"});
+  daemon::Json bench = daemon::Json::object();
+  for (const char* role : {"source", "meter", "scanner"}) bench[role] = {{"address", sim.endpoint(role)}, {"dialect", sim.family(role)}};
+  const auto sock = (dir / "run" / "juncod.sock").string();
+  std::ofstream(dir / "bench.jsonc") << daemon::Json{
+      {"bench", bench},
+      {"fixture", {{"bias_resistor_ohm", 100.0}, {"slots", 8}}},
+      {"safety", {{"max_supply_v", 10.0}, {"current_limit_a", 0.05}, {"max_power_w", 0.1}, {"max_reverse_v", 5.0}, {"max_job_s", 600.0}}},
+      {"paths", {{"database", (dir / "junco.db").string()}, {"socket", sock}}}}
+                                                .dump();
+  std::ofstream(dir / "plan.jsonc") << R"(// two parts of an invented lot
+{ "lot": "CLI-LOT", "parts": [{"slot": 1, "label": "CL-1"}, {"slot": 2, "label": "CL-2"}],
+  /* quick sweep */ "sweep": {"mode": "current", "spacing": "log", "start": 1e-6, "stop": 0.02, "count": 10, "settle_s": 0} })";
+  test::ChildOptions o;
+  o.stderr_path = (dir / "juncod.log").string();
+  test::ChildProcess juncod({std::string(JUNCO_BIN_DIR) + "/juncod", "--config", (dir / "bench.jsonc").string()}, o);
+  for (int i = 0; i < 400 && !fs::exists(sock); ++i) std::this_thread::sleep_for(std::chrono::milliseconds(25));
+  REQUIRE(fs::exists(sock));
+
+  auto r = junco_cli(dir, {"status", "--socket", sock});
+  CHECK(r.status == 0);
+  CHECK_THAT(r.all(), Catch::Contains("juncod 0.1.0"));
+
+  // submit prints the id alone; --watch then prints plain progress lines (stdout is a pipe).
+  r = junco_cli(dir, {"submit", (dir / "plan.jsonc").string(), "--watch", "--socket", sock});
+  REQUIRE(r.status == 0);
+  REQUIRE(r.lines.size() >= 2);
+  CHECK(r.lines.front() == "1");
+  CHECK_THAT(r.lines.back(), Catch::StartsWith("job 1 done: 20/20 points"));
+  for (const auto& l : r.lines) CHECK(l.find('\r') == std::string::npos);  // no bar in a pipe
+
+  r = junco_cli(dir, {"jobs", "--socket", sock});
+  CHECK_THAT(r.all(), Catch::Contains("done") && Catch::Contains("20/20") && Catch::Contains("CLI-LOT"));
+  r = junco_cli(dir, {"lots", "--socket", sock});
+  CHECK_THAT(r.all(), Catch::Contains("CLI-LOT"));
+  r = junco_cli(dir, {"parts", "--lot", "CLI-LOT", "--socket", sock});
+  CHECK_THAT(r.all(), Catch::Contains("CL-1") && Catch::Contains("CL-2"));
+
+  // show by label, with engineering units; the JSON form carries the numbers.
+  r = junco_cli(dir, {"show", "CL-2", "--at", "1mA, 5 mA,10e-3", "--socket", sock, "--json"});
+  REQUIRE(r.status == 0);
+  const auto shown = daemon::Json::parse(r.all());
+  const auto figures = shown["figures"]["figures"];
+  REQUIRE(figures.size() == 3);
+  CHECK(figures[0]["i_a"].get<double>() == Approx(1e-3));
+  CHECK(figures[1]["i_a"].get<double>() == Approx(5e-3));
+  CHECK(figures[2]["i_a"].get<double>() == Approx(10e-3));
+  // rd = N·Vt/I + RS (REFERENCES.md §3, dynamic resistance; I ≫ IS here).
+  const double vt = 1.380649e-23 * 300.15 / 1.602176634e-19;  // REFERENCES.md §1
+  const double n = shown["fit"]["n"]["value"], rs = shown["fit"]["rs_ohm"]["value"];
+  CHECK(figures[1]["rd_ohm"].get<double>() == Approx(n * vt / 5e-3 + rs).epsilon(1e-3));
+  r = junco_cli(dir, {"show", "CL-1", "--socket", sock});
+  CHECK_THAT(r.all(), Catch::Contains("Is  = ") && Catch::Contains("Rs  = ") && Catch::Contains("±"));
+
+  // Errors from the daemon: printed with their message, exit 1.
+  r = junco_cli(dir, {"show", "999", "--socket", sock});
+  CHECK(r.status == 1);
+  CHECK_THAT(r.err, Catch::Contains("juncod: no part 999"));
+  r = junco_cli(dir, {"cancel", "1", "--socket", sock});
+  CHECK(r.status == 1);
+  CHECK_THAT(r.err, Catch::Contains("job 1 is done"));
+  // A refused plan exits 2.
+  std::ofstream(dir / "hot.jsonc") << R"({"lot":"X","parts":[{"slot":1,"label":"H"}],"sweep":{"mode":"current","start":1e-3,"stop":1,"count":3}})";
+  r = junco_cli(dir, {"submit", (dir / "hot.jsonc").string(), "--socket", sock});
+  CHECK(r.status == 2);
+  CHECK_FALSE(r.err.empty());
+  CHECK(juncod.stop() == 0);
+  fs::remove_all(dir);
+}
