@@ -31,7 +31,7 @@ void JobQueue::set_state(Id id, const std::string& state, const std::optional<st
 JobRow JobQueue::cancel(Id id) {
   std::unique_lock lock(mutex_);
   JobRow j = require(id);
-  if (running_ == id) {
+  if (running_ == id && j.state == "running") {
     control_ = Control::cancel;
     lock.unlock();
     cv_.notify_all();
@@ -46,7 +46,7 @@ JobRow JobQueue::cancel(Id id) {
 JobRow JobQueue::pause(Id id) {
   std::unique_lock lock(mutex_);
   JobRow j = require(id);
-  if (running_ == id) {
+  if (running_ == id && j.state == "running") {
     control_ = Control::pause;
     lock.unlock();
     cv_.notify_all();

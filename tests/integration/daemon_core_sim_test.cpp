@@ -1,0 +1,138 @@
+// The core service driving the real junco-sim through the real drivers over
+// TCP: an unattended overnight-shaped job (8 parts × 200 bias points × DC +
+// AC at 3 frequencies), fits checked against the simulator's true lot, and a
+// persistent instrument fault that pauses the job with the outputs off.
+#include "daemon/core_service.hpp"
+#include "daemon/store.hpp"
+#include "tests/support/sim_process.hpp"
+
+#include <catch2/catch.hpp>
+
+#include <filesystem>
+#include <set>
+#include <thread>
+
+using namespace junco::daemon;
+using namespace std::chrono_literals;
+namespace fs = std::filesystem;
+
+namespace {
+
+struct TempDir {
+  fs::path path;
+  TempDir() {
+    char tmpl[] = "/tmp/junco-core-sim-XXXXXX";
+    path = ::mkdtemp(tmpl);
+  }
+  ~TempDir() { fs::remove_all(path); }
+};
+
+// A bench config pointing at the simulator's endpoints, its dialects by bare name.
+Config config_for(const junco::test::SimProcess& sim, const fs::path& dir) {
+  Json bench = Json::object();
+  for (const char* role : {"source", "meter", "scanner", "siggen", "levelmeter"})
+    bench[role] = {{"address", sim.endpoint(role)}, {"dialect", sim.family(role)}};
+  const Json doc{{"bench", bench},
+                 // junco-sim defaults: rb_ohm 100, inductor DC return (0 Ω), rg 50 Ω, rl 50 Ω.
+                 {"fixture", {{"bias_resistor_ohm", 100}, {"dc_return_ohm", 0}, {"source_ohm", 50}, {"load_ohm", 50}, {"slots", 8}}},
+                 {"safety", {{"max_supply_v", 10}, {"current_limit_a", 0.1}, {"max_power_w", 0.25}, {"max_reverse_v", 5}, {"max_job_s", 600}}},
+                 {"paths", {{"database", (dir / "junco.db").string()}, {"socket", (dir / "juncod.sock").string()}}}};
+  return parse_config(doc.dump(), dir / "bench.json");
+}
+
+ServiceOptions quiet() {
+  ServiceOptions o;
+  o.log = [](std::string_view) {};
+  return o;
+}
+
+const Caller kCaller{1, 0, 0};
+
+Json wait_for(Service& s, Id job, const std::set<std::string>& states, std::chrono::seconds timeout) {
+  const auto until = std::chrono::steady_clock::now() + timeout;
+  for (;;) {
+    Json j = s.call("job.get", {{"job_id", job}}, kCaller);
+    if (states.count(j["state"].get<std::string>())) return j;
+    if (std::chrono::steady_clock::now() > until) FAIL("job stayed " << j["state"] << " (" << j["points_done"] << " points)");
+    std::this_thread::sleep_for(50ms);
+  }
+}
+
+}  // namespace
+
+TEST_CASE("8 parts × 200 points × (DC + AC at 3 frequencies) run unattended to done against junco-sim") {
+  junco::test::SimProcess sim({"--seed", "11", "--settle-ms", "0"});
+  TempDir dir;
+  auto svc = make_service(config_for(sim, dir.path), quiet());
+  Json plan{{"lot", "RQ-2031-A"}, {"parts", Json::array()},
+            {"sweep", {{"mode", "voltage"}, {"spacing", "linear"}, {"start", 0.3}, {"stop", 8.0}, {"count", 200}, {"settle_s", 0.0}}},
+            {"ac", {{"freqs_hz", {1e6, 1e7, 1e8}}, {"amplitude", 0.02}, {"unit", "vrms"}, {"settle_s", 0.0}}}};
+  for (int k = 1; k <= 8; ++k) plan["parts"].push_back({{"slot", k}, {"label", "RQ-A" + std::to_string(k)}});
+  const Id job = svc->call("job.submit", {{"plan", plan}}, kCaller)["job_id"];
+  const Json j = wait_for(*svc, job, {"done", "paused", "failed"}, 90s);
+  INFO(j.dump());
+  REQUIRE(j["state"] == "done");
+  CHECK(j["points_done"].get<long>() <= 6400);
+  CHECK(j["points_done"].get<long>() >= 6000);  // a part may reach the current limit before 8 V
+
+  // Outputs off and relays open at the end (the simulator's own view).
+  const Json st = sim.control("state?");
+  CHECK(st["source"]["output_on"] == false);
+  CHECK(st["scanner"]["slot"] == 0);
+
+  // Each part's fit against the simulator's true parameters. Tolerances are
+  // loose because the simulated part self-heats and the readings carry noise
+  // (our choice, no source).
+  const Json truth = sim.control("lot?")["parts"];
+  const Json parts = svc->call("part.list", {{"lot", "RQ-2031-A"}}, kCaller)["parts"];
+  REQUIRE(parts.size() == 8);
+  for (const auto& part : parts) {
+    const Json f = svc->call("part.fit", {{"part_id", part["part_id"]}}, kCaller);
+    INFO(part["label"] << " " << f.dump());
+    REQUIRE(f["status"] == "converged");
+    const Json& t = truth[part["slot"].get<int>() - 1];
+    CHECK(f["n"]["value"].get<double>() == Approx(t["n"].get<double>()).epsilon(0.05));
+    CHECK(f["rs_ohm"]["value"].get<double>() == Approx(t["rs_ohm"].get<double>()).epsilon(0.25));
+    const Json pts = svc->call("part.readings", {{"part_id", part["part_id"]}}, kCaller)["points"];
+    long ac = 0;
+    for (const auto& p : pts)
+      if (p["kind"] == "ac") {
+        ++ac;
+        REQUIRE(p["ac_in_v"].is_number());
+        REQUIRE(p["ac_out_v"].is_number());
+      }
+    CHECK(ac >= 3 * 150);
+  }
+}
+
+TEST_CASE("a meter that stops answering pauses the job with outputs off; resumed, it completes without duplicates") {
+  junco::test::SimProcess sim({"--seed", "3", "--settle-ms", "0"});
+  TempDir dir;
+  Config cfg = config_for(sim, dir.path);
+  cfg.bench["meter"].reply_timeout_ms = 200;
+  cfg.bench["meter"].max_retries = 0;
+  auto svc = make_service(cfg, quiet());
+  Json plan{{"lot", "RQ-2031-B"}, {"parts", {{{"slot", 2}, {"label", "RQ-B2"}}}},
+            {"sweep", {{"mode", "current"}, {"spacing", "log"}, {"start", 1e-5}, {"stop", 5e-2}, {"count", 60}, {"settle_s", 0.005}}}};
+  const Id job = svc->call("job.submit", {{"plan", plan}}, kCaller)["job_id"];
+  wait_for(*svc, job, {"running"}, 10s);
+  std::this_thread::sleep_for(200ms);
+  sim.control("fault meter silent");
+  const Json paused = wait_for(*svc, job, {"paused", "done", "failed"}, 30s);
+  REQUIRE(paused["state"] == "paused");
+  CHECK(paused["error"].get<std::string>().find("timeout") != std::string::npos);
+  CHECK(sim.control("state?")["source"]["output_on"] == false);
+  CHECK(sim.control("state?")["scanner"]["slot"] == 0);
+
+  sim.control("fault meter clear");
+  svc->call("job.resume", {{"job_id", job}}, kCaller);
+  const Json done = wait_for(*svc, job, {"done", "paused", "failed"}, 30s);
+  INFO(done.dump());
+  REQUIRE(done["state"] == "done");
+  const Json pts = svc->call("part.readings", {{"part_id", 1}}, kCaller)["points"];
+  REQUIRE(pts.size() == 60);
+  for (int k = 0; k < 60; ++k) CHECK(pts[k]["seq"] == k);
+  // Current-targeted steps land near their targets.
+  const double i_mid = pts[30]["i_a"].get<double>(), target = pts[30]["set_value"].get<double>();
+  CHECK(i_mid == Approx(target).epsilon(0.05));
+}

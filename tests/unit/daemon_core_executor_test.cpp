@@ -1,0 +1,388 @@
+// The executor and the Service against in-process fake instruments: the
+// safety order (current limit before output on, outputs off at every end),
+// faults (retried, then paused), cancel, current limit, shutdown, and resume
+// after a SIGKILLed daemon without a duplicated or lost reading.
+#include "daemon/bench.hpp"
+#include "daemon/core_service.hpp"
+#include "daemon/store.hpp"
+#include "drivers/errors.hpp"
+#include "fitting/diode.hpp"
+
+#include <catch2/catch.hpp>
+
+#include <signal.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
+#include <atomic>
+#include <filesystem>
+#include <mutex>
+#include <set>
+#include <thread>
+
+using namespace junco::daemon;
+using namespace std::chrono_literals;
+namespace fs = std::filesystem;
+namespace drv = junco::drivers;
+namespace fit = junco::fitting;
+
+namespace {
+
+// One fixture: supply → R → diode → ground. Every instrument call is logged.
+struct FakeLab {
+  std::mutex m;
+  std::vector<std::string> log;
+  fit::DiodeParams diode{2e-9, 1.9, 1.5};  // invented PIN-like part
+  double r_ohm = 100;
+  double v_set = 0, i_limit = 0;
+  bool out_on = false;
+  int slot = 0;
+  int meter_fail_after = -1;   // meter readings before faults start (-1 = never)
+  int meter_fail_count = 0;    // how many consecutive failures then (huge = persistent)
+  int meter_reads = 0;
+  std::atomic<int> delay_ms{0};
+
+  void note(const std::string& s) {
+    std::lock_guard l(m);
+    log.push_back(s);
+  }
+  // Diode current and voltage at the present setting (exact, Lambert W).
+  std::pair<double, double> op() {
+    if (!out_on || slot == 0) return {0.0, 0.0};
+    fit::DiodeParams total = diode;
+    total.rs_ohm += r_ohm;
+    double i = fit::diode_current_a(total, v_set, 300.15);
+    if (i > i_limit) i = i_limit;
+    return {fit::diode_voltage_v(diode, i, 300.15), i};
+  }
+  bool limited() {
+    if (!out_on || slot == 0) return false;
+    fit::DiodeParams total = diode;
+    total.rs_ohm += r_ohm;
+    return fit::diode_current_a(total, v_set, 300.15) > i_limit;
+  }
+};
+
+struct FakeSource final : drv::Source {
+  FakeLab& lab;
+  explicit FakeSource(FakeLab& l) : lab(l) {}
+  drv::Identity identify() override { return {"fake", "SRC", "S1", "1"}; }
+  void reset() override {}
+  void set_voltage_v(double v) override { lab.note("source.voltage " + std::to_string(v)); lab.v_set = v; }
+  void set_current_limit_a(double a) override { lab.note("source.current_limit"); lab.i_limit = a; }
+  void set_output(bool on) override { lab.note(on ? "source.on" : "source.off"); lab.out_on = on; }
+  double measure_voltage_v() override { return lab.v_set; }
+  double measure_current_a() override { return lab.op().second; }
+  bool in_current_limit() override { return lab.limited(); }
+};
+
+struct FakeMeter final : drv::Meter {
+  FakeLab& lab;
+  explicit FakeMeter(FakeLab& l) : lab(l) {}
+  drv::Identity identify() override { return {"fake", "DMM", "M1", "1"}; }
+  void reset() override {}
+  double measure_dc_voltage_v() override {
+    if (int d = lab.delay_ms.load()) std::this_thread::sleep_for(std::chrono::milliseconds(d));
+    const int n = lab.meter_reads++;
+    if (lab.meter_fail_after >= 0 && n >= lab.meter_fail_after && n < lab.meter_fail_after + lab.meter_fail_count)
+      throw drv::DriverError(drv::ErrorKind::timeout, "meter: no reply within 2000 ms");
+    return lab.op().first;
+  }
+  double measure_dc_current_a() override { return lab.op().second; }
+  void set_range(drv::MeterFunction, double) override {}
+  void set_integration_nplc(double) override {}
+  void set_averaging(int) override {}
+};
+
+struct FakeScanner final : drv::Scanner {
+  FakeLab& lab;
+  explicit FakeScanner(FakeLab& l) : lab(l) {}
+  drv::Identity identify() override { return {"fake", "SW", "X1", "1"}; }
+  void reset() override {}
+  void connect_slot(int s) override {
+    lab.note(std::string("scanner.connect") + (lab.out_on ? " HOT" : ""));
+    lab.slot = s;
+  }
+  void disconnect_all() override { lab.note("scanner.open"); lab.slot = 0; }
+};
+
+ServiceOptions fake_options(FakeLab& lab) {
+  ServiceOptions o;
+  o.open_bench = [&lab](const Config&) {
+    auto b = std::make_unique<Bench>();
+    b->source = std::make_unique<FakeSource>(lab);
+    b->meter = std::make_unique<FakeMeter>(lab);
+    b->scanner = std::make_unique<FakeScanner>(lab);
+    return b;
+  };
+  o.log = [](std::string_view) {};
+  return o;
+}
+
+struct TempDir {
+  fs::path path;
+  TempDir() {
+    char tmpl[] = "/tmp/junco-exec-XXXXXX";
+    path = ::mkdtemp(tmpl);
+  }
+  ~TempDir() { fs::remove_all(path); }
+};
+
+Config config_in(const fs::path& dir) {
+  Config c;
+  c.fixture.bias_resistor_ohm = 100;
+  c.fixture.slots = 4;
+  c.safety = {10.0, 0.1, 0.5, 5.0, 600.0};
+  c.paths.database = dir / "junco.db";
+  return c;
+}
+
+Json plan(int count = 30, double settle_s = 0.0, int parts = 2) {
+  Json p{{"lot", "QX-7"}, {"parts", Json::array()},
+         {"sweep", {{"mode", "voltage"}, {"start", 0.5}, {"stop", 8.0}, {"count", count}, {"settle_s", settle_s}}}};
+  for (int k = 1; k <= parts; ++k) p["parts"].push_back({{"slot", k}, {"label", "QX-7-0" + std::to_string(k)}});
+  return p;
+}
+
+const Caller kCaller{4242, 1000, 1000};
+
+Json wait_for_state(Service& s, Id job, const std::set<std::string>& states, std::chrono::seconds timeout = 20s) {
+  const auto until = std::chrono::steady_clock::now() + timeout;
+  for (;;) {
+    Json j = s.call("job.get", {{"job_id", job}}, kCaller);
+    if (states.count(j["state"].get<std::string>())) return j;
+    if (std::chrono::steady_clock::now() > until) FAIL("job stayed " << j["state"] << ": " << j.dump());
+    std::this_thread::sleep_for(10ms);
+  }
+}
+
+// Checks the safety order over a whole instrument log.
+void check_safety_order(const std::vector<std::string>& log) {
+  bool limit_since_off = false, on = false;
+  for (const auto& e : log) {
+    if (e == "source.current_limit") limit_since_off = true;
+    if (e == "source.off") { on = false; limit_since_off = false; }
+    if (e == "source.on") {
+      CHECK(limit_since_off);  // current limit programmed before output on
+      on = true;
+    }
+    CHECK(e != "scanner.connect HOT");  // relays never switched live
+  }
+  CHECK_FALSE(on);
+  REQUIRE(!log.empty());
+  CHECK(log.back() == "scanner.open");
+}
+
+}  // namespace
+
+TEST_CASE("a job runs to done in the safe order, readings stored and each part fitted") {
+  TempDir dir;
+  FakeLab lab;
+  auto svc = make_service(config_in(dir.path), fake_options(lab));
+  std::vector<Event> events;
+  std::mutex em;
+  svc->events().subscribe([&](const Event& e) { std::lock_guard l(em); events.push_back(e); });
+  const Id job = svc->call("job.submit", {{"plan", plan()}}, kCaller)["job_id"];
+  const Json j = wait_for_state(*svc, job, {"done", "failed", "paused"});
+  CHECK(j["state"] == "done");
+  CHECK(j["points_done"] == 60);
+  CHECK(j["submitted_by"]["uid"] == 1000);
+  { std::lock_guard l(lab.m); check_safety_order(lab.log); }
+
+  const Json parts = svc->call("part.list", {{"lot", "QX-7"}}, kCaller)["parts"];
+  REQUIRE(parts.size() == 2);
+  const Json readings = svc->call("part.readings", {{"part_id", parts[0]["part_id"]}}, kCaller);
+  CHECK(readings["points"].size() == 30);
+  // The fit recovers the fake part's own parameters (inputs of the fake, not outputs of the code).
+  const Json f = svc->call("part.fit", {{"part_id", parts[0]["part_id"]}}, kCaller);
+  REQUIRE(f["status"] == "converged");
+  CHECK(f["n"]["value"].get<double>() == Approx(lab.diode.n).epsilon(0.01));
+  CHECK(f["rs_ohm"]["value"].get<double>() == Approx(lab.diode.rs_ohm).epsilon(0.05));
+  // Figures from the fit agree with the model of the fake part (Lambert W, fitting/diode.hpp).
+  const Json fig = svc->call("part.figures", {{"part_id", parts[0]["part_id"]}, {"currents_a", {1e-2}}}, kCaller);
+  CHECK(fig["figures"][0]["vf_v"].get<double>() == Approx(fit::diode_voltage_v(lab.diode, 1e-2, 300.15)).epsilon(1e-3));
+  const Json spice = svc->call("part.export", {{"part_id", parts[0]["part_id"]}, {"format", "spice"}}, kCaller);
+  CHECK(spice["content"].get<std::string>().find(".model D_QX_7_QX_7_01 D(IS=") != std::string::npos);
+  const Json csv = svc->call("part.export", {{"part_id", parts[0]["part_id"]}, {"format", "csv"}}, kCaller);
+  const std::string csv_text = csv["content"];
+  CHECK(std::count(csv_text.begin(), csv_text.end(), '\n') == 31);  // header + 30 readings
+
+  std::lock_guard l(em);
+  int added = 0;
+  std::vector<std::string> states;
+  for (const auto& e : events) {
+    if (e.kind == "point.added") ++added;
+    if (e.kind == "job.state") states.push_back(e.data["state"]);
+  }
+  CHECK(added == 60);
+  CHECK(states == std::vector<std::string>{"queued", "running", "done"});
+}
+
+TEST_CASE("params are validated: wrong types, unknown ids and wrong states") {
+  TempDir dir;
+  FakeLab lab;
+  auto svc = make_service(config_in(dir.path), fake_options(lab));
+  auto code_of = [&](std::string_view m, const Json& p) {
+    try {
+      svc->call(m, p, kCaller);
+    } catch (const RequestError& e) {
+      return std::pair{e.code(), std::string(e.what())};
+    }
+    return std::pair{RpcCode::internal_error, std::string("(accepted)")};
+  };
+  CHECK(code_of("job.get", {{"job_id", "7"}}) == std::pair{RpcCode::invalid_params, std::string("job_id: must be a positive integer")});
+  CHECK(code_of("job.get", Json::object()) == std::pair{RpcCode::invalid_params, std::string("job_id: missing (required)")});
+  CHECK(code_of("job.get", {{"job_id", 99}}) == std::pair{RpcCode::not_found, std::string("no job 99")});
+  CHECK(code_of("part.fit", {{"part_id", 5}}).first == RpcCode::not_found);
+  CHECK(code_of("job.submit", Json::object()).second == "plan: missing (required)");
+  CHECK(code_of("job.list", {{"state", "sleeping"}}).first == RpcCode::invalid_params);
+  CHECK(code_of("no.such", Json::object()).first == RpcCode::method_not_found);
+  Json big = plan();
+  big["sweep"]["stop"] = 12;
+  CHECK(code_of("job.submit", {{"plan", big}}) == std::pair{RpcCode::plan_refused, std::string("sweep stop 12 V exceeds safety limit max_supply_v = 10 V")});
+  const Id job = svc->call("job.submit", {{"plan", plan(5)}}, kCaller)["job_id"];
+  wait_for_state(*svc, job, {"done"});
+  CHECK(code_of("job.resume", {{"job_id", job}}) ==
+        std::pair{RpcCode::wrong_state, "job " + std::to_string(job) + " is done; only paused jobs can be resumed"});
+  CHECK(code_of("job.cancel", {{"job_id", job}}).first == RpcCode::wrong_state);
+  CHECK(code_of("part.export", {{"part_id", 1}, {"format", "xls"}}).first == RpcCode::invalid_params);
+}
+
+TEST_CASE("transient faults are retried and flagged; a persistent one pauses the job with outputs off") {
+  TempDir dir;
+  FakeLab lab;
+  lab.meter_fail_after = 5;
+  lab.meter_fail_count = 2;  // two timeouts, then fine
+  auto svc = make_service(config_in(dir.path), fake_options(lab));
+  Id job = svc->call("job.submit", {{"plan", plan(10, 0.0, 1)}}, kCaller)["job_id"];
+  CHECK(wait_for_state(*svc, job, {"done", "paused"})["state"] == "done");
+  const Json pts = svc->call("part.readings", {{"part_id", 1}}, kCaller)["points"];
+  REQUIRE(pts.size() == 10);
+  CHECK((pts[5]["flags"].get<int>() & flag_retried) != 0);
+  CHECK((pts[4]["flags"].get<int>() & flag_retried) == 0);
+
+  lab.meter_reads = 0;
+  lab.meter_fail_after = 3;
+  lab.meter_fail_count = 1000000;  // persistent
+  job = svc->call("job.submit", {{"plan", plan(10, 0.0, 1)}}, kCaller)["job_id"];
+  const Json j = wait_for_state(*svc, job, {"done", "paused"});
+  CHECK(j["state"] == "paused");
+  CHECK(j["error"].get<std::string>().find("timeout: meter: no reply within 2000 ms") != std::string::npos);
+  CHECK(j["points_done"] == 3);
+  CHECK_FALSE(lab.out_on);
+  { std::lock_guard l(lab.m); check_safety_order(lab.log); }
+
+  // Fault cleared, resumed: continues after the last committed reading.
+  lab.meter_fail_after = -1;
+  CHECK(svc->call("job.resume", {{"job_id", job}}, kCaller)["state"] == "queued");
+  CHECK(wait_for_state(*svc, job, {"done", "paused"})["state"] == "done");
+  const Json runs = svc->call("job.get", {{"job_id", job}}, kCaller)["runs"];
+  const Json pts2 = svc->call("part.readings", {{"part_id", 1}, {"run_id", runs[0]["run_id"]}}, kCaller)["points"];
+  REQUIRE(pts2.size() == 10);
+  for (int k = 0; k < 10; ++k) CHECK(pts2[k]["seq"] == k);
+}
+
+TEST_CASE("cancel and shutdown stop a running job with outputs off") {
+  TempDir dir;
+  FakeLab lab;
+  auto svc = make_service(config_in(dir.path), fake_options(lab));
+  Id job = svc->call("job.submit", {{"plan", plan(200, 0.02, 1)}}, kCaller)["job_id"];
+  wait_for_state(*svc, job, {"running"});
+  std::this_thread::sleep_for(100ms);
+  svc->call("job.cancel", {{"job_id", job}}, kCaller);
+  CHECK(wait_for_state(*svc, job, {"cancelled", "done"})["state"] == "cancelled");
+  CHECK_FALSE(lab.out_on);
+  CHECK(lab.slot == 0);
+
+  job = svc->call("job.submit", {{"plan", plan(200, 0.02, 1)}}, kCaller)["job_id"];
+  wait_for_state(*svc, job, {"running"});
+  std::this_thread::sleep_for(100ms);
+  svc->shutdown();
+  CHECK_FALSE(lab.out_on);
+  CHECK(lab.slot == 0);
+  { std::lock_guard l(lab.m); check_safety_order(lab.log); }
+  Store s(dir.path / "junco.db");
+  CHECK(s.job(job)->state == "queued");  // resumable plan: back in the queue for the next start
+}
+
+TEST_CASE("supply in current limit: the point is flagged, the sweep goes no higher, the fit leaves it out") {
+  TempDir dir;
+  FakeLab lab;
+  auto svc = make_service(config_in(dir.path), fake_options(lab));
+  Json p = plan(30, 0.0, 1);
+  p["sweep"]["compliance_a"] = 0.02;  // reached near 3.5 V through 100 Ω
+  const Id job = svc->call("job.submit", {{"plan", p}}, kCaller)["job_id"];
+  CHECK(wait_for_state(*svc, job, {"done", "paused"})["state"] == "done");
+  const Json pts = svc->call("part.readings", {{"part_id", 1}}, kCaller)["points"];
+  REQUIRE(!pts.empty());
+  CHECK(pts.size() < 30);
+  CHECK((pts.back()["flags"].get<int>() & flag_current_limit) != 0);
+  for (std::size_t k = 0; k + 1 < pts.size(); ++k) CHECK((pts[k]["flags"].get<int>() & flag_current_limit) == 0);
+  const Json f = svc->call("part.fit", {{"part_id", 1}}, kCaller);
+  CHECK(f["points_used"].get<int>() <= static_cast<int>(pts.size()) - 1);
+}
+
+TEST_CASE("a daemon SIGKILLed mid-job resumes from the last committed reading, none duplicated or lost") {
+  TempDir dir;
+  const Config cfg = config_in(dir.path);
+  const pid_t child = ::fork();
+  REQUIRE(child >= 0);
+  if (child == 0) {
+    FakeLab lab;
+    lab.delay_ms = 2;
+    auto svc = make_service(cfg, fake_options(lab));
+    svc->call("job.submit", {{"plan", plan(60, 0.0, 2)}}, kCaller);
+    std::this_thread::sleep_for(60s);  // killed long before
+    ::_exit(0);
+  }
+  {
+    // Wait until some readings are committed, then kill without warning.
+    const auto until = std::chrono::steady_clock::now() + 20s;
+    for (;;) {
+      std::this_thread::sleep_for(20ms);
+      if (!fs::exists(cfg.paths.database)) continue;
+      Store s(cfg.paths.database);
+      auto j = s.job(1);
+      if (j && j->points_done >= 70) break;  // into the second part
+      REQUIRE(std::chrono::steady_clock::now() < until);
+    }
+  }
+  ::kill(child, SIGKILL);
+  int status = 0;
+  ::waitpid(child, &status, 0);
+  REQUIRE(WIFSIGNALED(status));
+
+  FakeLab lab;
+  lab.out_on = true;  // as a killed daemon may leave it
+  auto svc = make_service(cfg, fake_options(lab));
+  {
+    std::lock_guard l(lab.m);
+    REQUIRE(!lab.log.empty());
+    CHECK(lab.log.front() == "source.off");  // outputs off first thing on start
+  }
+  const Json j = wait_for_state(*svc, 1, {"done", "paused", "failed"});
+  CHECK(j["state"] == "done");
+  CHECK(j["points_done"] == 120);
+  for (const auto& run : j["runs"]) {
+    const Json pts = svc->call("part.readings", {{"part_id", run["part_id"]}, {"run_id", run["run_id"]}}, kCaller)["points"];
+    REQUIRE(pts.size() == 60);
+    for (int k = 0; k < 60; ++k) CHECK(pts[k]["seq"] == k);
+  }
+}
+
+TEST_CASE("a plan that forbids resuming is marked interrupted after a restart") {
+  TempDir dir;
+  const Config cfg = config_in(dir.path);
+  {
+    Store s(cfg.paths.database);
+    Json p = plan(5, 0.0, 1);
+    p["resume"] = false;
+    const Id id = s.insert_job(p, 5, 0, 0);
+    s.set_job_state(id, "running");  // as a dead daemon left it
+  }
+  FakeLab lab;
+  auto svc = make_service(cfg, fake_options(lab));
+  const Json j = svc->call("job.get", {{"job_id", 1}}, kCaller);
+  CHECK(j["state"] == "interrupted");
+  CHECK(j["error"].get<std::string>().find("forbids resuming") != std::string::npos);
+}
