@@ -104,8 +104,8 @@ TEST_CASE("same seed, same lot and same readings; another seed, another lot", "[
   auto run = [](const std::string& seed) {
     SimProcess sim({"--seed", seed, "--settle-ms", "0", "--config", JUNCO_SOURCE_DIR "/tools/sim/no-heating.json"});
     LineClient sw(sim.endpoint("scanner")), src(sim.endpoint("source")), dmm(sim.endpoint("meter"));
-    sw.send("ROUT:CLOS (@4)");
-    src.send("CURR 0.05;VOLT 1.0;OUTP ON");
+    REQUIRE(sw.query("ROUT:CLOS (@4);*OPC?") == std::optional<std::string>("1"));
+    REQUIRE(src.query("CURR 0.05;VOLT 1.0;OUTP ON;*OPC?") == std::optional<std::string>("1"));
     std::vector<std::string> out{sim.control("lot?").dump()};
     for (int i = 0; i < 5; ++i) {
       out.push_back(*dmm.query("MEAS:VOLT:DC?"));
@@ -124,9 +124,9 @@ TEST_CASE("a silicon signal diode drops 0.6–0.7 V at a few mA, in every slot",
   // plausibility bound of REFERENCES.md E14.
   SimProcess sim({"--settle-ms", "1"});
   LineClient sw(sim.endpoint("scanner")), src(sim.endpoint("source")), dmm(sim.endpoint("meter"));
-  src.send("CURR 0.05;VOLT 0.9;OUTP ON");
+  REQUIRE(src.query("CURR 0.05;VOLT 0.9;OUTP ON;*OPC?") == std::optional<std::string>("1"));
   for (int slot = 1; slot <= 8; ++slot) {
-    sw.send("ROUT:CLOS (@" + std::to_string(slot) + ")");
+    REQUIRE(sw.query("ROUT:CLOS (@" + std::to_string(slot) + ");*OPC?") == std::optional<std::string>("1"));
     std::this_thread::sleep_for(20ms);
     const double v = std::stod(*dmm.query("MEAS:VOLT:DC?"));
     const double i = std::stod(*dmm.query("MEAS:CURR:DC?"));
@@ -136,7 +136,7 @@ TEST_CASE("a silicon signal diode drops 0.6–0.7 V at a few mA, in every slot",
     CHECK(v > 0.6);
     CHECK(v < 0.7);
   }
-  src.send("VOLT 1.8");
+  REQUIRE(src.query("VOLT 1.8;*OPC?") == std::optional<std::string>("1"));
   std::this_thread::sleep_for(20ms);
   CHECK(std::stod(*dmm.query("MEAS:VOLT:DC?")) < 1.0);
 }
@@ -145,8 +145,8 @@ TEST_CASE("readings settle first-order in wall-clock time after a change", "[sim
   // First-order settling with τ = --settle-ms (docs/sim.md).
   SimProcess sim({"--settle-ms", "200", "--config", JUNCO_SOURCE_DIR "/tools/sim/no-heating.json"});
   LineClient sw(sim.endpoint("scanner")), src(sim.endpoint("source")), dmm(sim.endpoint("meter"));
-  sw.send("ROUT:CLOS (@1)");
-  src.send("CURR 0.05;VOLT 2.0;OUTP ON");
+  REQUIRE(sw.query("ROUT:CLOS (@1);*OPC?") == std::optional<std::string>("1"));
+  REQUIRE(src.query("CURR 0.05;VOLT 2.0;OUTP ON;*OPC?") == std::optional<std::string>("1"));
   const double early = std::stod(*dmm.query("MEAS:CURR:DC?"));
   std::this_thread::sleep_for(1500ms);
   const double late = std::stod(*dmm.query("MEAS:CURR:DC?"));
@@ -160,8 +160,8 @@ TEST_CASE("self-heating at high current raises the junction temperature", "[sim]
   // fixed supply voltage as the junction warms.
   SimProcess sim({"--settle-ms", "0"});
   LineClient sw(sim.endpoint("scanner")), src(sim.endpoint("source"));
-  sw.send("ROUT:CLOS (@1)");
-  src.send("CURR 0.5;VOLT 10;OUTP ON");
+  REQUIRE(sw.query("ROUT:CLOS (@1);*OPC?") == std::optional<std::string>("1"));
+  REQUIRE(src.query("CURR 0.5;VOLT 10;OUTP ON;*OPC?") == std::optional<std::string>("1"));
   CHECK(src.query("*OPC?") == std::optional<std::string>("1"));
   std::this_thread::sleep_for(600ms);  // > 10 thermal time constants
   const auto st = sim.control("state?");

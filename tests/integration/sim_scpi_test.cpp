@@ -105,7 +105,7 @@ TEST_CASE("the second family of each role speaks its own commands", "[sim][scpi]
   LineClient src(sim.endpoint("source")), dmm(sim.endpoint("meter")), sw(sim.endpoint("scanner")),
       gen(sim.endpoint("siggen")), lvl(sim.endpoint("levelmeter"));
   CHECK(q(src, "*IDN?") == "junco-sim,PSU-C2,SIM-S002,2.1");
-  sw.send("RELAY:SEL 2");
+  CHECK(q(sw, "RELAY:SEL 2;*OPC?") == "1");
   src.send("ISET 0.05");
   src.send("VSET 1.2");
   src.send("OUT 1");
@@ -118,6 +118,7 @@ TEST_CASE("the second family of each role speaks its own commands", "[sim][scpi]
   gen.send(":SOUR1:FREQ 1e6");
   gen.send(":SOUR1:VOLT 0.1VPP");
   gen.send(":OUTP1 ON");
+  REQUIRE(q(gen, "*OPC?") == "1");  // each connection has its own thread: sync before reading
   const double vpp_in = std::stod(q(lvl, ":MEAS:VPP? CHAN1"));
   const double vrms_out = std::stod(q(lvl, ":MEAS:VRMS? CHAN2"));
   CHECK(vpp_in > 0.04);
@@ -126,7 +127,7 @@ TEST_CASE("the second family of each role speaks its own commands", "[sim][scpi]
   CHECK(q(src, "SYST:ERR?") == "0,\"No error\"");
   src.send("VSET -1");  // this family is single quadrant
   CHECK(q(src, "SYST:ERR?") == "-222,\"Data out of range\"");
-  sw.send("RELAY:OFF");
+  CHECK(q(sw, "RELAY:OFF;*OPC?") == "1");
   CHECK(sim.control("state?")["scanner"]["slot"] == 0);
 }
 
@@ -139,7 +140,8 @@ TEST_CASE("*RST returns to the power-up state: outputs off, 0 V, no slot", "[sim
   CHECK(st["siggen"]["output_on"] == false);
   sw.send("ROUT:CLOS (@3)");
   src.send("VOLT 2;CURR 0.01;OUTP ON");
-  gen.send("OUTP ON");
+  CHECK(q(gen, "OUTP ON;*OPC?") == "1");
+  CHECK(q(sw, "*OPC?") == "1");
   CHECK(q(src, "*OPC?") == "1");
   st = sim.control("state?");
   CHECK(st["source"]["output_on"] == true);
@@ -147,10 +149,7 @@ TEST_CASE("*RST returns to the power-up state: outputs off, 0 V, no slot", "[sim
   CHECK(q(src, "STAT:QUES:COND?") == "2");
   CHECK(std::stod(q(src, "MEAS:CURR?")) == Approx(0.01).epsilon(1e-3));
   CHECK(std::stod(q(src, "MEAS:VOLT?")) < 2.0);  // folded back
-  src.send("*RST");
-  sw.send("*RST");
-  gen.send("*RST");
-  CHECK(q(gen, "*OPC?") == "1");
+  for (LineClient* c : {&src, &sw, &gen}) CHECK(q(*c, "*RST;*OPC?") == "1");
   st = sim.control("state?");
   CHECK(st["source"]["output_on"] == false);
   CHECK(st["source"]["voltage_v"] == 0.0);
