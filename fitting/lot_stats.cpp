@@ -47,7 +47,9 @@ QuantityStats describe(const std::string& name, const std::vector<std::string>& 
   const double t_med = median_of(t), t_mad = mad_of(t, t_med);
   for (std::size_t k = 0; k < t.size(); ++k) {
     const double d = t[k] - t_med;
-    const bool flagged = t_mad > 0.0 ? std::abs(0.6745 * d / t_mad) > outlier_z_threshold
+    // Differences below a part per million are rounding, never outliers.
+    const bool negligible = std::abs(d) <= 1e-6 * std::max(1.0, std::abs(t_med));
+    const bool flagged = negligible ? false : t_mad > 0.0 ? std::abs(0.6745 * d / t_mad) > outlier_z_threshold
                                      : std::abs(d) > 1e-12 * std::max(1.0, std::abs(t_med));
     if (flagged) q.outliers.push_back(labels[k]);
   }

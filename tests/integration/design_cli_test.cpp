@@ -1,0 +1,156 @@
+// The junco CLI's design, export and plot commands as real processes on real
+// files: a model document and readings CSV written here, gnuplot really run.
+#include "fitting/design_readings_csv.hpp"
+#include "fitting/model_document.hpp"
+
+#include <catch2/catch.hpp>
+
+#include <cmath>
+#include <cstdio>
+#include <cstdlib>
+#include <fstream>
+#include <sstream>
+#include <string>
+#include <sys/wait.h>
+#include <unistd.h>
+
+using namespace junco::fitting;
+
+namespace {
+
+struct Run {
+  int status;
+  std::string out;
+};
+
+Run run_junco(const std::string& args) {
+  const std::string cmd = std::string(JUNCO_BIN_DIR) + "/junco " + args + " 2>&1";
+  FILE* p = popen(cmd.c_str(), "r");
+  REQUIRE(p);
+  std::string out;
+  char buf[512];
+  while (std::fgets(buf, sizeof buf, p)) out += buf;
+  const int st = pclose(p);
+  return {WIFEXITED(st) ? WEXITSTATUS(st) : -1, out};
+}
+
+std::string slurp(const std::string& path) {
+  std::ifstream f(path);
+  std::stringstream ss;
+  ss << f.rdbuf();
+  return ss.str();
+}
+
+struct Dir {
+  std::string path;
+  Dir() {
+    char t[] = "/tmp/junco-design-cli-XXXXXX";
+    path = mkdtemp(t);
+  }
+  ~Dir() { std::system(("rm -rf " + path).c_str()); }
+  std::string file(const std::string& name) const { return path + "/" + name; }
+};
+
+PartModel demo_part(const std::string& label, double is_a) {
+  PartModel p;
+  p.part_label = label;
+  p.lot = "LOT-DEMO7";
+  p.run_id = "run-3";
+  p.params = {is_a, 1.0, 1.0};
+  p.is_se_a = 1e-16;
+  p.n_se = 1e-3;
+  p.rs_se_ohm = 0.01;
+  return p;
+}
+
+}  // namespace
+
+TEST_CASE("junco design bias-r from a model document reproduces E8") {
+  // Source: REFERENCES.md E8 (427.533 ohm for 10 mA from 5 V).
+  Dir d;
+  std::ofstream(d.file("m.json")) << model_document_json(demo_part("DM-01", 1e-14));
+  const auto r = run_junco("design bias-r --model " + d.file("m.json") + " --supply 5V --current 10mA");
+  INFO(r.out);
+  CHECK(r.status == 0);
+  CHECK(r.out.find("427.533 ohm") != std::string::npos);
+  CHECK(r.out.find("assumed   supply") != std::string::npos);
+}
+
+TEST_CASE("junco design rejects bad input with exit 2 and one clear line") {
+  auto r = run_junco("design loss --is 1e-14 --n 1 --rs 1 --current 10xA");
+  CHECK(r.status == 2);
+  CHECK(r.out.find("--current") != std::string::npos);
+  r = run_junco("design nosuch");
+  CHECK(r.status == 2);
+  r = run_junco("design isolation --is 1e-14 --n 1 --rs 1");
+  CHECK(r.status == 2);
+  CHECK(r.out.find("junction capacitance") != std::string::npos);
+}
+
+TEST_CASE("junco design power fails over a limit") {
+  const auto r = run_junco("design power --is 1e-14 --n 1 --rs 1 --supply 5 --rbias 100 --max-resistor 125mW");
+  CHECK(r.status == 1);
+  CHECK(r.out.find("OVER THE LIMIT") != std::string::npos);
+}
+
+TEST_CASE("junco export spice and lot stats from model documents") {
+  Dir d;
+  std::ofstream(d.file("a.json")) << model_document_json(demo_part("DM-01", 1e-14));
+  std::ofstream(d.file("b.json")) << model_document_json(demo_part("DM-02", 1.02e-14));
+  std::ofstream(d.file("c.json")) << model_document_json(demo_part("DM-03", 5e-13));
+  auto r = run_junco("export spice " + d.file("a.json"));
+  CHECK(r.status == 0);
+  CHECK(r.out.find(".model DM_01 D(IS=1.000000e-14 N=1.000000e+00 RS=1.000000e+00 TNOM=27)") != std::string::npos);
+  CHECK(r.out.find("* run run-3") != std::string::npos);
+  r = run_junco("export spice " + d.file("a.json") + " " + d.file("b.json") + " " + d.file("c.json"));
+  CHECK(r.out.find(".model LOT_DEMO7_NOM D(IS=1.020000e-14") != std::string::npos);  // median
+  r = run_junco("export stats " + d.file("a.json") + " " + d.file("b.json") + " " + d.file("c.json"));
+  INFO(r.out);
+  CHECK(r.status == 0);
+  CHECK(r.out.find("DM-02 DM-01") != std::string::npos);  // matched pair, sorted by Vf
+}
+
+TEST_CASE("junco plot renders SVGs with labelled axes, and a PNG") {
+  Dir d;
+  const auto part = demo_part("DM-01", 1e-14);
+  std::ofstream(d.file("m.json")) << model_document_json(part);
+  std::vector<IvPoint> iv;
+  std::vector<AcPoint> ac;
+  for (int k = 0; k < 30; ++k) {
+    const double i = 1e-6 * std::pow(10.0, k / 6.0);
+    iv.push_back({diode_voltage_v(part.params, i, 300.15) + 1e-4 * ((k % 3) - 1), i});
+    const double rd = 1.0 + 0.025865 / i;
+    ac.push_back({i, 1e6, 1.0, 50.0 / (50.0 + rd)});
+  }
+  std::ofstream(d.file("iv.csv")) << iv_readings_csv(iv);
+  std::ofstream(d.file("ac.csv")) << ac_readings_csv(ac);
+  std::ofstream(d.file("m2.json")) << model_document_json(demo_part("DM-02", 2e-14));
+  struct Case {
+    std::string args, file;
+    std::vector<std::string> labels;
+  };
+  const std::vector<Case> cases{
+      {"plot iv --readings " + d.file("iv.csv") + " --model " + d.file("m.json") + " --out " + d.file("iv.svg"),
+       d.file("iv.svg"), {"forward voltage V (V)", "forward current I (A)", "(mV)"}},
+      {"plot ac --readings " + d.file("ac.csv") + " --model " + d.file("m.json") + " --out " + d.file("ac.svg"),
+       d.file("ac.svg"), {"bias current I (A)", "(dB)"}},
+      {"plot lot " + d.file("m.json") + " " + d.file("m2.json") + " --out " + d.file("lot.svg"), d.file("lot.svg"),
+       {"IS (A)", "N (1)", "part index"}},
+  };
+  for (const auto& c : cases) {
+    const auto r = run_junco(c.args);
+    INFO(c.args << "\n" << r.out);
+    REQUIRE(r.status == 0);
+    const std::string svg = slurp(c.file);
+    CHECK(svg.find("<svg") != std::string::npos);
+    CHECK(svg.find("</svg>") != std::string::npos);
+    for (const auto& l : c.labels) CHECK(svg.find(l) != std::string::npos);
+  }
+  const auto r = run_junco("plot iv --readings " + d.file("iv.csv") + " --model " + d.file("m.json") + " --out " +
+                       d.file("iv.png"));
+  REQUIRE(r.status == 0);
+  const std::string png = slurp(d.file("iv.png"));
+  REQUIRE(png.size() > 8);
+  CHECK(png.substr(1, 3) == "PNG");
+  CHECK(run_junco("plot iv --readings " + d.file("missing.csv") + " --model " + d.file("m.json") + " --out x.svg").status == 2);
+}

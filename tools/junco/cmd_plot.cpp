@@ -1,0 +1,202 @@
+// junco plot: offline plots from a CSV of readings and a JSON model document.
+#include "fitting/design_readings_csv.hpp"
+#include "fitting/lot_stats.hpp"
+#include "fitting/model_document.hpp"
+#include "fitting/transfer.hpp"
+#include "tools/junco/command.hpp"
+#include "tools/junco/plot_gnuplot.hpp"
+
+#include <cmath>
+#include <cstdio>
+#include <fstream>
+#include <map>
+#include <sstream>
+#include <string>
+#include <vector>
+
+namespace junco::cli {
+namespace {
+
+using namespace junco::fitting;
+
+const char* const help =
+    "usage: junco plot iv  --readings IV.csv --model MODEL.json --out FILE.svg|.png\n"
+    "       junco plot ac  --readings AC.csv --model MODEL.json --out FILE [--rg OHM] [--rl OHM]\n"
+    "                      [--rbias OHM] [--rreturn OHM]\n"
+    "       junco plot lot MODEL.json... --out FILE\n\n"
+    "iv:  forward current (log axis) against voltage, readings and the model, and the voltage\n"
+    "     residual (mV) of each reading against the model. CSV header: v,i_a\n"
+    "ac:  fixture gain Vout/Vin (dB) against bias current, measured and modelled.\n"
+    "     CSV header: bias_i_a,freq_hz,vin,vout. Fixture defaults 50/50 ohm, no shunts.\n"
+    "lot: the spread of IS, N and RS over the parts, one panel each.\n"
+    "The gnuplot script is kept as FILE.gp. PNG when FILE ends in .png.\n";
+
+std::string slurp(const std::string& path) {
+  std::ifstream f(path);
+  if (!f) throw std::runtime_error("cannot read '" + path + "'");
+  std::stringstream ss;
+  ss << f.rdbuf();
+  return ss.str();
+}
+
+PartModel load_model(const std::string& path) {
+  std::string why;
+  auto m = parse_model_document(slurp(path), &why);
+  if (!m) throw std::runtime_error(path + ": " + why);
+  return *m;
+}
+
+ReadingsTable load_readings(const std::string& path) {
+  std::string why;
+  auto t = parse_readings_csv(slurp(path), &why);
+  if (!t) throw std::runtime_error(path + ": " + why);
+  return *t;
+}
+
+std::string row(double a, double b) {
+  char buf[64];
+  std::snprintf(buf, sizeof buf, "%.9g %.9g\n", a, b);
+  return buf;
+}
+
+std::string title_of(const PartModel& m) { return "part " + m.part_label + ", lot " + m.lot; }
+
+int plot_iv(std::map<std::string, std::string>& o) {
+  const auto m = load_model(o["model"]);
+  const auto t = load_readings(o["readings"]);
+  if (t.iv.empty()) throw std::runtime_error("no forward readings (v,i_a) in " + o["readings"]);
+  std::string meas, resid, model;
+  double i_lo = 1e300, i_hi = 0;
+  for (const auto& p : t.iv) {
+    if (!(p.i_a > 0)) continue;
+    meas += row(p.v, p.i_a);
+    resid += row(p.i_a, 1e3 * (p.v - diode_voltage_v(m.params, p.i_a, m.temp_k)));
+    i_lo = std::min(i_lo, p.i_a);
+    i_hi = std::max(i_hi, p.i_a);
+  }
+  for (int k = 0; k <= 200; ++k) {
+    const double i = i_lo * std::pow(i_hi / i_lo, k / 200.0);
+    model += row(diode_voltage_v(m.params, i, m.temp_k), i);
+  }
+  PlotJob job{o["out"], {meas, model, resid}, "", 800, 800};
+  char fit_label[200];
+  std::snprintf(fit_label, sizeof fit_label, "model IS=%.3g A, N=%.3f, RS=%.3g {/Symbol W}", m.params.is_a, m.params.n,
+                m.params.rs_ohm);
+  job.body = "set multiplot layout 2,1 title '" + title_of(m) + "'\n"
+             "set logscale y\nset format y '10^{%L}'\nset xlabel 'forward voltage V (V)'\n"
+             "set ylabel 'forward current I (A)'\n"
+             "plot $d0 using 1:2 with points pt 7 ps 0.6 title 'readings', "
+             "$d1 using 1:2 with lines lw 2 title '" + std::string(fit_label) + "'\n"
+             "unset logscale y\nset format y '%g'\nset logscale x\nset format x '10^{%L}'\n"
+             "set xlabel 'forward current I (A)'\nset ylabel 'residual V_{meas} - V_{model} (mV)'\n"
+             "plot $d2 using 1:2 with linespoints pt 7 ps 0.6 title 'residual', 0 with lines lc 'black' notitle\n"
+             "unset multiplot";
+  const auto err = run_gnuplot(job);
+  if (!err.empty()) throw std::runtime_error(err);
+  return exit_ok;
+}
+
+double number(std::map<std::string, std::string>& o, const char* key, double fallback) {
+  return o.count(key) ? std::stod(o[key]) : fallback;
+}
+
+int plot_ac(std::map<std::string, std::string>& o) {
+  const auto m = load_model(o["model"]);
+  const auto t = load_readings(o["readings"]);
+  if (t.ac.empty()) throw std::runtime_error("no AC readings (bias_i_a,freq_hz,vin,vout) in " + o["readings"]);
+  Fixture fx{number(o, "rg", 50), number(o, "rl", 50), number(o, "rbias", no_shunt_ohm), number(o, "rreturn", no_shunt_ohm)};
+  const AcPart part{m.params, std::isfinite(m.cj0_f) ? m.cj0_f : 0.0};
+  std::string meas, model;
+  double i_lo = 1e300, i_hi = 0, freq = t.ac.front().freq_hz;
+  for (const auto& r : ac_residuals(fx, part, t.ac, m.temp_k)) {
+    meas += row(r.bias_i_a, r.measured_db);
+    i_lo = std::min(i_lo, r.bias_i_a);
+    i_hi = std::max(i_hi, r.bias_i_a);
+  }
+  for (int k = 0; k <= 200; ++k) {
+    const double i = i_lo * std::pow(i_hi / i_lo, k / 200.0);
+    model += row(i, to_db(fixture_gain(fx, diode_on_impedance(part, i, freq, m.temp_k))));
+  }
+  PlotJob job{o["out"], {meas, model}, "", 800, 600};
+  job.body = "set title '" + title_of(m) + ": AC transfer of the series switch'\n"
+             "set logscale x\nset format x '10^{%L}'\nset xlabel 'bias current I (A)'\n"
+             "set ylabel 'transfer V_{out}/V_{in} (dB)'\nset key bottom right\n"
+             "plot $d0 using 1:2 with points pt 7 ps 0.8 title 'measured', "
+             "$d1 using 1:2 with lines lw 2 title 'model'";
+  const auto err = run_gnuplot(job);
+  if (!err.empty()) throw std::runtime_error(err);
+  return exit_ok;
+}
+
+int plot_lot(const std::vector<std::string>& files, std::map<std::string, std::string>& o) {
+  std::string is, n, rs, lot;
+  int k = 0;
+  for (const auto& f : files) {
+    const auto m = load_model(f);
+    lot = m.lot;
+    is += row(k, m.params.is_a);
+    n += row(k, m.params.n);
+    rs += row(k, m.params.rs_ohm);
+    ++k;
+  }
+  PlotJob job{o["out"], {is, n, rs}, "", 800, 900};
+  job.body = "set multiplot layout 3,1 title 'lot " + lot + ": spread of the fitted parameters (" + std::to_string(k) +
+             " parts)'\nset xlabel 'part index'\nset key off\n"
+             "set logscale y\nset format y '10^{%L}'\nset ylabel 'IS (A)'\nplot $d0 using 1:2 with points pt 7\n"
+             "unset logscale y\nset format y '%g'\nset ylabel 'N (1)'\nplot $d1 using 1:2 with points pt 7\n"
+             "set ylabel 'RS ({/Symbol W})'\nplot $d2 using 1:2 with points pt 7\nunset multiplot";
+  const auto err = run_gnuplot(job);
+  if (!err.empty()) throw std::runtime_error(err);
+  return exit_ok;
+}
+
+int run(const std::vector<std::string>& args) {
+  if (args.empty()) {
+    std::fprintf(stderr, "junco plot: which plot? (iv, ac, lot; junco plot --help)\n");
+    return exit_usage;
+  }
+  std::map<std::string, std::string> o;
+  std::vector<std::string> files;
+  for (std::size_t k = 1; k < args.size(); ++k) {
+    if (args[k].rfind("--", 0) == 0) {
+      if (k + 1 >= args.size()) {
+        std::fprintf(stderr, "junco plot: %s needs a value\n", args[k].c_str());
+        return exit_usage;
+      }
+      o[args[k].substr(2)] = args[k + 1];
+      ++k;
+    } else {
+      files.push_back(args[k]);
+    }
+  }
+  const std::string kind = args[0];
+  const auto need = [&](std::initializer_list<const char*> keys) {
+    for (const char* key : keys)
+      if (!o.count(key)) {
+        std::fprintf(stderr, "junco plot %s: --%s is required\n", kind.c_str(), key);
+        return false;
+      }
+    return true;
+  };
+  try {
+    if (kind == "iv") return need({"readings", "model", "out"}) ? plot_iv(o) : exit_usage;
+    if (kind == "ac") return need({"readings", "model", "out"}) ? plot_ac(o) : exit_usage;
+    if (kind == "lot") {
+      if (files.empty()) {
+        std::fprintf(stderr, "junco plot lot: give the parts' model documents\n");
+        return exit_usage;
+      }
+      return need({"out"}) ? plot_lot(files, o) : exit_usage;
+    }
+  } catch (const std::runtime_error& e) {
+    std::fprintf(stderr, "junco plot %s: %s\n", kind.c_str(), e.what());
+    return exit_usage;
+  }
+  std::fprintf(stderr, "junco plot: unknown plot '%s' (iv, ac, lot)\n", kind.c_str());
+  return exit_usage;
+}
+
+const bool registered = register_command({"plot", "plot readings, fits, AC transfer and lot spread (SVG/PNG, gnuplot)", help, run});
+
+}  // namespace
+}  // namespace junco::cli
