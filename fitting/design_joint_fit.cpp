@@ -123,6 +123,7 @@ SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, co
     double c[9];
     cov.GetCovarianceBlock(x, x, c);
     const double scale = 2.0 * summary.final_cost / static_cast<double>(dof);
+    f.reduced_chi2 = scale;
     f.is_a.std_error = f.is_a.value * std::sqrt(c[0] * scale);
     f.n.std_error = std::sqrt(c[4] * scale);
     f.rs_ohm.std_error = std::sqrt(c[8] * scale);
@@ -152,6 +153,12 @@ JointFitReport compare_dc_and_joint(std::span<const IvPoint> dc, std::span<const
   check("is_a", r.dc_only.is_a, r.joint.is_a);
   check("n", r.dc_only.n, r.joint.n);
   check("rs_ohm", r.dc_only.rs_ohm, r.joint.rs_ohm);
+  const bool consistent = r.joint.reduced_chi2 <= options.max_reduced_chi2;
+  r.agree = r.agree && consistent;
+  char line[160];
+  std::snprintf(line, sizeof line, "joint reduced chi2 %.3g %s %.3g (%s)\n", r.joint.reduced_chi2,
+                consistent ? "<=" : ">", options.max_reduced_chi2, consistent ? "consistent" : "DISAGREE: AC and DC data inconsistent");
+  r.agreement += line;
   return r;
 }
 

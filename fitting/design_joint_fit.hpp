@@ -10,7 +10,10 @@
 // Parameters are ln Is, n, Rs, bounded 0.5 ≤ n ≤ 5, 0 ≤ Rs ≤ 1 kΩ. Standard
 // errors from the covariance scaled by the reduced χ² (2·cost/(N − 3)).
 // Agreement: every parameter within agree_k·sqrt(se_dc² + se_joint²) (the two
-// fits share the DC data, so this is a lenient test; k = 2 by default).
+// fits share the DC data, so this is a lenient test; k = 2 by default), and
+// the joint fit's reduced χ² at most max_reduced_chi2 (default 3): with the
+// covariance scaled by χ², inconsistent AC and DC data inflate the standard
+// errors instead of moving the estimates, so χ² is what reveals them.
 #pragma once
 
 #include "fitting/extract.hpp"
@@ -27,6 +30,7 @@ struct JointFitOptions {
   double ac_sigma_db = 0.01;  // standard uncertainty of one AC ratio reading
   double cj_f = 0.0;          // junction capacitance used by the AC model
   double agree_k = 2.0;
+  double max_reduced_chi2 = 3.0;
   int max_iterations = 200;
 };
 
@@ -35,6 +39,7 @@ struct SimpleFit {
   std::string message;
   Estimate is_a, n, rs_ohm;
   double cost = 0.0;
+  double reduced_chi2 = 0.0;  // 2·cost/(N − 3)
   std::size_t dc_points = 0, ac_points = 0;
   DiodeParams params() const { return {is_a.value, n.value, rs_ohm.value}; }
 };
