@@ -3,6 +3,7 @@
 #include <ceres/ceres.h>
 
 #include <cmath>
+#include <algorithm>
 #include <memory>
 #include <vector>
 
@@ -10,31 +11,82 @@ namespace junco::fitting {
 
 namespace {
 
-// One reading's whitened voltage residual; templated so Ceres differentiates it.
+// Robust loss folded into the residual: r̃ = r·sqrt(ρ(r²)/r²), so Σr̃² = Σρ(r²)
+// and automatic differentiation gives the exact Jacobian of r̃. (Ceres's own
+// LossFunction acts on a whole residual block; all points share one block
+// here, which is what makes a fit cheap, so the loss is applied per point.)
+template <typename T>
+T robust_residual(const T& r, RobustLoss loss, double scale) {
+  if (loss == RobustLoss::none) return r;
+  const T s = r * r;
+  const double a2 = scale * scale;
+  if (loss == RobustLoss::huber) {
+    if (s <= T(a2)) return r;
+    return r * sqrt((T(2.0 * scale) * sqrt(s) - T(a2)) / s);
+  }
+  // Cauchy: ρ(s) = a²·ln(1 + s/a²); ρ(s)/s → 1 − s/(2a²) as s → 0.
+  if (s < T(1e-12 * a2)) return r * (T(1.0) - s / T(4.0 * a2));
+  return r * sqrt(T(a2) * log1p(s / T(a2)) / s);
+}
+
+// Per-reading constants, computed once per solve.
+struct Reading {
+  double v, i_a, log_i, inv_i, inv_sigma;
+};
+
+// ln(1 + ε) for 0 ≤ ε: a five-term series below 1e-3, where its truncation
+// error ε⁶/6 < 2e-19 is far below a double's rounding of the sum it joins.
+template <typename T>
+T log1p_small(const T& e) {
+  if (e < T(1e-3)) return e * (T(1.0) - e * (T(0.5) - e * (T(1.0 / 3.0) - e * (T(0.25) - e * T(0.2)))));
+  return log1p(e);
+}
+
+// All readings' whitened voltage residuals in one block, templated so Ceres
+// differentiates it. Without a shunt, ln(1 + I/Is) = ln I − ln Is + ln(1 + Is/I):
+// ln I and 1/I are constants and exp(ln Is) is taken once per evaluation, so
+// a reading costs a few multiply-adds (the same function, rearranged).
 template <bool Shunt>
-struct VoltageResidual {
-  double v, i_a, vt, inv_sigma;
+struct CurveResidual {
+  std::span<const Reading> readings;
+  double vt;
+  RobustLoss loss;
+  double loss_scale;
 
   template <typename T>
   bool operator()(const T* x, T* residual) const {
     const T& ln_is = x[0];
-    const T& n = x[1];
+    const T nvt = x[1] * vt;
     const T& rs = x[2];
-    const T vj_meas = T(v) - T(i_a) * rs;
-    T id = T(i_a);
-    if constexpr (Shunt) id = id - vj_meas * exp(-x[3]);
-    const T u = id * exp(-ln_is);
-    if (!(u > T(-1.0))) return false;  // junction current at or below −Is: no real log
-    residual[0] = (vj_meas - n * T(vt) * log1p(u)) * T(inv_sigma);
+    if constexpr (Shunt) {
+      const T inv_is = exp(-ln_is);
+      const T g_sh = exp(-x[3]);
+      for (std::size_t k = 0; k < readings.size(); ++k) {
+        const Reading& p = readings[k];
+        const T vj_meas = p.v - p.i_a * rs;
+        const T u = (p.i_a - vj_meas * g_sh) * inv_is;
+        if (!(u > T(-1.0))) return false;  // junction current at or below −Is: no real log
+        residual[k] = robust_residual((vj_meas - nvt * log1p(u)) * p.inv_sigma, loss, loss_scale);
+      }
+    } else {
+      const T is = exp(ln_is);
+      for (std::size_t k = 0; k < readings.size(); ++k) {
+        const Reading& p = readings[k];
+        const T log1p_u = (p.log_i - ln_is) + log1p_small(is * p.inv_i);
+        residual[k] = robust_residual((p.v - p.i_a * rs - nvt * log1p_u) * p.inv_sigma, loss, loss_scale);
+      }
+    }
     return true;
   }
 };
 
-template <bool Shunt>
-double residual_value(const VoltageResidual<Shunt>& f, const double* x) {
-  double r = std::numeric_limits<double>::quiet_NaN();
-  f(x, &r);
-  return r;
+std::vector<Reading> readings_of(const WeightedProblem& wp) {
+  std::vector<Reading> out(wp.points.size());
+  for (std::size_t k = 0; k < out.size(); ++k) {
+    const IvPoint& p = wp.points[k];
+    out[k] = {p.v, p.i_a, std::log(p.i_a), 1.0 / p.i_a, 1.0 / wp.sigma_v[k]};
+  }
+  return out;
 }
 
 std::array<double, 4> to_x(const DiodeParams& p) {
@@ -48,24 +100,13 @@ DiodeParams from_x(const std::array<double, 4>& x, bool shunt) {
 
 double clamp(double v, double lo, double hi) { return v < lo ? lo : (v > hi ? hi : v); }
 
-ceres::LossFunction* make_loss(RobustLoss loss, double scale) {
-  switch (loss) {
-    case RobustLoss::huber: return new ceres::HuberLoss(scale);
-    case RobustLoss::cauchy: return new ceres::CauchyLoss(scale);
-    case RobustLoss::none: break;
-  }
-  return nullptr;
-}
-
 template <bool Shunt>
-void add_residuals(ceres::Problem& problem, const WeightedProblem& wp, double* x) {
+void add_curve(ceres::Problem& problem, const WeightedProblem& wp, std::span<const Reading> readings, double* x) {
   constexpr int dim = Shunt ? 4 : 3;
-  const double vt = thermal_voltage_v(wp.temp_k);
-  for (std::size_t k = 0; k < wp.points.size(); ++k) {
-    auto* cost = new ceres::AutoDiffCostFunction<VoltageResidual<Shunt>, 1, dim>(
-        new VoltageResidual<Shunt>{wp.points[k].v, wp.points[k].i_a, vt, 1.0 / wp.sigma_v[k]});
-    problem.AddResidualBlock(cost, make_loss(wp.loss, wp.loss_scale), x);
-  }
+  auto* functor = new CurveResidual<Shunt>{readings, thermal_voltage_v(wp.temp_k), wp.loss, wp.loss_scale};
+  auto* cost = new ceres::AutoDiffCostFunction<CurveResidual<Shunt>, ceres::DYNAMIC, dim>(
+      functor, static_cast<int>(wp.points.size()));
+  problem.AddResidualBlock(cost, nullptr, x);
 }
 
 FitStatus status_of(const ceres::Solver::Summary& summary) {
@@ -99,13 +140,12 @@ SolveOutcome solve_weighted(const WeightedProblem& wp, const DiodeParams& start,
       return bad;
     }
   }
-  ceres::Problem::Options problem_options;
-  problem_options.enable_fast_removal = false;
-  ceres::Problem problem(problem_options);
+  const std::vector<Reading> readings = readings_of(wp);
+  ceres::Problem problem;
   if (shunt) {
-    add_residuals<true>(problem, wp, x.data());
+    add_curve<true>(problem, wp, readings, x.data());
   } else {
-    add_residuals<false>(problem, wp, x.data());
+    add_curve<false>(problem, wp, readings, x.data());
   }
   problem.SetParameterLowerBound(x.data(), 0, fit_ln_is_min);
   problem.SetParameterUpperBound(x.data(), 0, fit_ln_is_max);
@@ -119,7 +159,8 @@ SolveOutcome solve_weighted(const WeightedProblem& wp, const DiodeParams& start,
   }
 
   ceres::Solver::Options options;
-  options.linear_solver_type = ceres::DENSE_QR;
+  options.linear_solver_type = ceres::DENSE_NORMAL_CHOLESKY;  // 3 or 4 columns: J'J is tiny and well scaled (Jacobi scaling)
+  options.max_num_line_search_step_size_iterations = 0;
   options.trust_region_strategy_type = ceres::LEVENBERG_MARQUARDT;
   options.max_num_iterations = wp.max_iterations;
   options.function_tolerance = 1e-12;
@@ -154,16 +195,15 @@ SolveOutcome solve_weighted(const WeightedProblem& wp, const DiodeParams& start,
 }
 
 void weighted_residuals(const WeightedProblem& wp, const DiodeParams& p, std::span<double> out) {
-  const double vt = thermal_voltage_v(wp.temp_k);
+  const std::vector<Reading> readings = readings_of(wp);
   const std::array<double, 4> x = to_x(p);
-  for (std::size_t k = 0; k < wp.points.size() && k < out.size(); ++k) {
-    const double inv_sigma = 1.0 / wp.sigma_v[k];
-    if (wp.fit_shunt) {
-      out[k] = residual_value(VoltageResidual<true>{wp.points[k].v, wp.points[k].i_a, vt, inv_sigma}, x.data());
-    } else {
-      out[k] = residual_value(VoltageResidual<false>{wp.points[k].v, wp.points[k].i_a, vt, inv_sigma}, x.data());
-    }
-  }
+  const double vt = thermal_voltage_v(wp.temp_k);
+  std::vector<double> r(wp.points.size(), std::numeric_limits<double>::quiet_NaN());
+  // Plain residuals (no loss): the report judges outliers by them.
+  const bool ok = wp.fit_shunt ? CurveResidual<true>{readings, vt, RobustLoss::none, 1.0}(x.data(), r.data())
+                               : CurveResidual<false>{readings, vt, RobustLoss::none, 1.0}(x.data(), r.data());
+  if (!ok) std::fill(r.begin(), r.end(), std::numeric_limits<double>::quiet_NaN());
+  std::copy_n(r.begin(), std::min(r.size(), out.size()), out.begin());
 }
 
 }  // namespace junco::fitting
