@@ -6,7 +6,7 @@ JobQueue::JobQueue(Store& store, EventBus& events) : store_(store), events_(even
 
 Id JobQueue::submit(const Plan& plan, long points_total, const Caller& caller) {
   const Id id = store_.insert_job(to_json(plan), points_total, caller.uid, caller.pid);
-  publish_state(id);
+  publish_state(id, "queued", std::nullopt);
   wake();
   return id;
 }
@@ -17,15 +17,15 @@ JobRow JobQueue::require(Id id) {
   return *j;
 }
 
-void JobQueue::publish_state(Id id) {
-  auto j = store_.job(id);
-  if (!j) return;
-  events_.publish({"job.state", {{"job_id", id}, {"state", j->state}, {"error", j->error.empty() ? Json(nullptr) : Json(j->error)}}});
+// Publishes the state just written (not re-read: another thread may already
+// have moved the job on, and each event must describe its own transition).
+void JobQueue::publish_state(Id id, const std::string& state, const std::optional<std::string>& error) {
+  events_.publish({"job.state", {{"job_id", id}, {"state", state}, {"error", error ? Json(*error) : Json(nullptr)}}});
 }
 
 void JobQueue::set_state(Id id, const std::string& state, const std::optional<std::string>& error) {
   store_.set_job_state(id, state, error);
-  publish_state(id);
+  publish_state(id, state, error);
 }
 
 JobRow JobQueue::cancel(Id id) {
@@ -101,7 +101,7 @@ bool JobQueue::claim(Id id) {
     running_ = id;
     control_ = Control::none;
   }
-  publish_state(id);
+  publish_state(id, "running", std::nullopt);
   return true;
 }
 

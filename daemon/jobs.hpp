@@ -55,7 +55,7 @@ class JobQueue {
 
  private:
   JobRow require(Id id);
-  void publish_state(Id id);
+  void publish_state(Id id, const std::string& state, const std::optional<std::string>& error);
   void wake();
 
   Store& store_;

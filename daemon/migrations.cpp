@@ -57,10 +57,14 @@ int apply_migrations(sqlite3* db, const std::vector<Migration>& migrations) {
   for (const auto& m : migrations) {
     if (m.version <= previous) throw StoreError("migration " + std::string(m.name) + ": versions out of order");
     previous = m.version;
-    if (recorded(db, m.version)) continue;
-    // IMMEDIATE: a second process starting at the same moment waits instead of racing.
+    // IMMEDIATE, and the check inside it: a second process opening the same
+    // fresh file waits for the first, then sees the migration recorded.
     exec(db, "BEGIN IMMEDIATE", "migration " + std::string(m.name));
     try {
+      if (recorded(db, m.version)) {
+        exec(db, "COMMIT", "migration " + std::string(m.name));
+        continue;
+      }
       exec(db, std::string(m.sql), "migration " + std::string(m.name));
       sqlite3_stmt* st = nullptr;
       sqlite3_prepare_v2(db,

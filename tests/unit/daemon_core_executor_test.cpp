@@ -207,6 +207,14 @@ TEST_CASE("a job runs to done in the safe order, readings stored and each part f
   const std::string csv_text = csv["content"];
   CHECK(std::count(csv_text.begin(), csv_text.end(), '\n') == 31);  // header + 30 readings
 
+  // The last event is published just after the state is stored: give it a moment.
+  for (int k = 0; k < 200; ++k) {
+    {
+      std::lock_guard l(em);
+      if (!events.empty() && events.back().kind == "job.state" && events.back().data["state"] == "done") break;
+    }
+    std::this_thread::sleep_for(10ms);
+  }
   std::lock_guard l(em);
   int added = 0;
   std::vector<std::string> states;
