@@ -91,11 +91,14 @@ TEST_CASE("a job runs end to end: events, readings, fits, figures", "[e2e]") {
   CHECK(submitted["result"]["points_total"] == 24);
 
   // Progress notifications arrive, for our job, and end in "done".
+  const auto progress_schema = test::api_schema("event.job.progress")["params"];
+  const auto state_schema = test::api_schema("event.job.state")["params"];
   long last_done = -1;
   std::string state;
   for (int i = 0; i < 500 && state != "done"; ++i) {
     const auto n = events.read_json(std::chrono::seconds(10));
     REQUIRE(n["params"]["job_id"] == job);
+    CHECK(test::schema_problem(n["method"] == "job.progress" ? progress_schema : state_schema, n["params"]).empty());
     if (n["method"] == "job.progress") {
       CHECK(n["params"]["points_done"].get<long>() >= last_done);
       last_done = n["params"]["points_done"];
@@ -105,6 +108,25 @@ TEST_CASE("a job runs end to end: events, readings, fits, figures", "[e2e]") {
   }
   CHECK(state == "done");
   CHECK(last_done == 24);
+
+  // Every result matches its documented schema (schema/api/, docs/api.md).
+  const auto conforms = [&](const std::string& method, const daemon::Json& params) {
+    const auto reply = c.request(method, params);
+    INFO(method << " → " << reply.dump().substr(0, 400));
+    REQUIRE(reply.contains("result"));
+    CHECK(test::schema_problem(test::api_schema(method)["result"], reply["result"]) == "");
+    CHECK(test::schema_problem(test::api_schema(method)["params"], params) == "");
+  };
+  conforms("daemon.status", daemon::Json::object());
+  conforms("bench.describe", daemon::Json::object());
+  conforms("job.get", {{"job_id", job}});
+  conforms("job.list", daemon::Json::object());
+  conforms("lot.list", daemon::Json::object());
+  conforms("part.list", {{"lot", "E2E-LOT"}});
+  conforms("part.readings", {{"part_id", 1}});
+  conforms("part.fit", {{"part_id", 1}});
+  conforms("part.figures", {{"part_id", 1}, {"currents_a", {1e-3, 1e-2}}});
+  conforms("part.export", {{"part_id", 1}, {"format", "spice"}});
 
   const auto parts = c.request("part.list", {{"lot", "E2E-LOT"}})["result"]["parts"];
   REQUIRE(parts.size() == 2);

@@ -19,6 +19,7 @@
 #include <chrono>
 #include <cstring>
 #include <filesystem>
+#include <fstream>
 #include <map>
 #include <mutex>
 #include <optional>
@@ -86,6 +87,46 @@ class FakeService : public daemon::Service {
   std::atomic<int> calls{0};
   std::atomic<bool> shut{false};
 };
+
+// Checks `value` against the subset of JSON Schema used in schema/api/
+// (type, required, properties, items). Returns "" or the first problem,
+// with its JSON pointer.
+inline std::string schema_problem(const Json& schema, const Json& value, const std::string& where = "") {
+  if (schema.contains("type")) {
+    const Json types = schema["type"].is_array() ? schema["type"] : Json::array({schema["type"]});
+    bool ok = false;
+    for (const auto& t : types) {
+      const std::string name = t;
+      ok = ok || (name == "object" && value.is_object()) || (name == "array" && value.is_array()) ||
+           (name == "string" && value.is_string()) || (name == "boolean" && value.is_boolean()) ||
+           (name == "null" && value.is_null()) || (name == "number" && value.is_number()) ||
+           (name == "integer" && value.is_number_integer());
+    }
+    if (!ok) return (where.empty() ? "/" : where) + ": expected " + types.dump() + ", got " + value.type_name();
+  }
+  if (value.is_object()) {
+    if (const auto req = schema.find("required"); req != schema.end())
+      for (std::size_t i = 0; i < req->size(); ++i) {
+        const std::string key = (*req)[i];
+        if (!value.contains(key)) return where + "/" + key + ": missing";
+      }
+    if (const auto props = schema.find("properties"); props != schema.end())
+      for (auto it = props->begin(); it != props->end(); ++it)
+        if (value.contains(it.key()))
+          if (auto p = schema_problem(it.value(), value[it.key()], where + "/" + it.key()); !p.empty()) return p;
+  }
+  if (value.is_array() && schema.contains("items"))
+    for (std::size_t i = 0; i < value.size(); ++i)
+      if (auto p = schema_problem(schema["items"], value[i], where + "/" + std::to_string(i)); !p.empty()) return p;
+  return "";
+}
+
+// schema/api/NAME.json (NAME: a method, or event.KIND).
+inline Json api_schema(const std::string& name) {
+  std::ifstream in(std::string(JUNCO_SOURCE_DIR) + "/schema/api/" + name + ".json");
+  if (!in) throw std::runtime_error("no schema/api/" + name + ".json");
+  return Json::parse(in);
+}
 
 // A fresh scratch directory under /tmp (short: sun_path is 108 bytes).
 inline std::filesystem::path scratch_dir(const std::string& tag) {
