@@ -194,12 +194,20 @@ FitResult fit_forward(std::span<const IvPoint> points, const FitOptions& opt) {
   constexpr int max_passes = 4;
   for (int pass = 0; pass < max_passes; ++pass) {
     for (std::size_t k = 0; k < pts.size(); ++k) sigma[k] = residual_sigma_v(current, pts[k], opt.accuracy, opt.temp_k);
-    s = solve_weighted(wp, current, true);
+    // The covariance is wanted only once the weights have settled (last pass).
+    const bool last = pass == max_passes - 1;
+    s = solve_weighted(wp, current, last);
     r.iterations += s.iterations;
     if (s.status == FitStatus::failed) break;
     const double change = max_relative_change(s.params, current);
     current = s.params;
-    if (change < 1e-7) break;
+    if (change < 1e-7 && !last) {
+      // Settled: a final solve with these weights starts at the optimum and adds the covariance.
+      for (std::size_t k = 0; k < pts.size(); ++k) sigma[k] = residual_sigma_v(current, pts[k], opt.accuracy, opt.temp_k);
+      s = solve_weighted(wp, current, true);
+      r.iterations += s.iterations;
+      break;
+    }
   }
   r.status = s.status;
   r.message = s.message;
