@@ -112,3 +112,9 @@ TEST_CASE("default paths follow XDG for a normal user") {
     CHECK(p.socket == fs::path("/tmp/xdg-run/junco/juncod.sock"));
   }
 }
+
+TEST_CASE("the shipped example config loads") {
+  const Config c = load_config(fs::path(JUNCO_SOURCE_DIR) / "tools/examples/bench.jsonc");
+  CHECK(c.bench.size() == 5);
+  CHECK(c.paths.socket_group == "junco");
+}
