@@ -61,13 +61,13 @@ TEST_CASE("junco-sim faults give typed errors or recover", "[drivers][integratio
   const double deadline_s = (spec.max_retries + 1) * 2 * reply_timeout.count() / 1000.0 + 1.0;
 
   SECTION("drop-after: the link closes, the driver reconnects and carries on") {
-    sim.fault(role, "drop-after 1");
+    junco::test::inject_fault(sim, role, "drop-after 1");
     for (int k = 0; k < 3; ++k) CHECK(read_current() == Approx(i_true).epsilon(0.02));
     CHECK(log.contains("# reconnect"));
   }
 
   SECTION("late beyond the deadline: timeout, reconnect, the stale reply is not taken") {
-    sim.fault(role, "late 700");
+    junco::test::inject_fault(sim, role, "late 700");
     auto t0 = Clock::now();
     CHECK(read_current() == Approx(i_true).epsilon(0.02));
     CHECK(seconds_since(t0) < deadline_s);
@@ -83,7 +83,7 @@ TEST_CASE("junco-sim faults give typed errors or recover", "[drivers][integratio
   SECTION("late with no retries left: a timeout naming instrument, operation and command") {
     spec.max_retries = 0;
     auto once = serial ? std::unique_ptr<Instrument>(open_meter(spec)) : std::unique_ptr<Instrument>(open_source(spec));
-    sim.fault(role, "late 1000");
+    junco::test::inject_fault(sim, role, "late 1000");
     auto t0 = Clock::now();
     try {
       double v = serial ? dynamic_cast<Meter&>(*once).measure_dc_current_a() : dynamic_cast<Source&>(*once).measure_current_a();
@@ -107,13 +107,13 @@ TEST_CASE("junco-sim faults give typed errors or recover", "[drivers][integratio
   }
 
   SECTION("garble once: retried, the true value comes back") {
-    sim.fault(role, "garble 1");
+    junco::test::inject_fault(sim, role, "garble 1");
     CHECK(read_current() == Approx(i_true).epsilon(0.02));
     CHECK(log.contains("failed (garbled reply)"));
   }
 
   SECTION("garble more often than the retries: a garbled error, never a number") {
-    sim.fault(role, "garble 20");
+    junco::test::inject_fault(sim, role, "garble 20");
     auto t0 = Clock::now();
     try {
       double v = read_current();
@@ -123,11 +123,11 @@ TEST_CASE("junco-sim faults give typed errors or recover", "[drivers][integratio
       CHECK_THAT(std::string(e.what()), Catch::Contains(operation) && Catch::Contains("after 3 attempts"));
     }
     CHECK(seconds_since(t0) < deadline_s);
-    sim.fault(role, "clear");
+    junco::test::inject_fault(sim, role, "clear");
   }
 
   SECTION("error in the queue: an instrument error with code and text, not retried") {
-    sim.fault(role, "error -222 Data out of range");
+    junco::test::inject_fault(sim, role, "error -222 Data out of range");
     try {
       read_current();
       FAIL("queued error not reported");
@@ -142,7 +142,7 @@ TEST_CASE("junco-sim faults give typed errors or recover", "[drivers][integratio
   }
 
   SECTION("silent: a timeout within the deadline; after clear the driver works again") {
-    sim.fault(role, "silent");
+    junco::test::inject_fault(sim, role, "silent");
     auto t0 = Clock::now();
     try {
       double v = read_current();
@@ -152,7 +152,7 @@ TEST_CASE("junco-sim faults give typed errors or recover", "[drivers][integratio
       CHECK_THAT(std::string(e.what()), Catch::Contains("instrument '" + role + "'"));
     }
     CHECK(seconds_since(t0) < deadline_s);
-    sim.fault(role, "clear");
+    junco::test::inject_fault(sim, role, "clear");
     CHECK(read_current() == Approx(i_true).epsilon(0.02));
   }
 }

@@ -3,50 +3,18 @@
 #pragma once
 
 #include "drivers/factory.hpp"
-#include "drivers/transport.hpp"
-#include "tests/support/process.hpp"
+#include "tests/support/sim_process.hpp"
 
-#include <nlohmann/json.hpp>
-
-#include <memory>
 #include <string>
 #include <vector>
 
 namespace junco::test {
 
-// junco-sim as a real process (ready line, endpoints, control endpoint).
-// The control link goes through the drivers' own TCP transport. (Not
-// tests/support/sim_process.hpp: at 03975b8 its LineClient does not compile.)
-class SimProcess {
- public:
-  explicit SimProcess(std::vector<std::string> args) {
-    std::vector<std::string> argv{std::string(JUNCO_BIN_DIR) + "/junco-sim"};
-    argv.insert(argv.end(), args.begin(), args.end());
-    process_ = std::make_unique<ChildProcess>(argv);
-    auto line = process_->read_line(std::chrono::seconds(10));
-    if (!line) throw std::runtime_error("junco-sim printed no ready line");
-    ready_ = nlohmann::json::parse(*line);
-    if (!ready_.value("ready", false)) throw std::runtime_error("junco-sim not ready: " + *line);
-  }
-  std::string endpoint(const std::string& role) const { return ready_.at("endpoints").at(role); }
-  std::string family(const std::string& role) const { return ready_.at("families").at(role); }
-  nlohmann::json control(const std::string& line) {
-    if (!control_) control_ = drivers::open_transport(endpoint("control"));
-    control_->write_message(line);
-    return nlohmann::json::parse(control_->read_message(std::chrono::seconds(5)));
-  }
-  // Injects a fault and checks the sim took it.
-  void fault(const std::string& role, const std::string& mode) {
-    auto reply = control("fault " + role + " " + mode);
-    if (reply.contains("error")) throw std::runtime_error("junco-sim refused fault: " + reply.dump());
-  }
-  ChildProcess& process() { return *process_; }
-
- private:
-  std::unique_ptr<ChildProcess> process_;
-  nlohmann::json ready_;
-  std::unique_ptr<drivers::Transport> control_;
-};
+// Injects a fault through the control endpoint and checks the sim took it.
+inline void inject_fault(SimProcess& sim, const std::string& role, const std::string& mode) {
+  auto reply = sim.control("fault " + role + " " + mode);
+  if (reply.contains("error")) throw std::runtime_error("junco-sim refused fault: " + reply.dump());
+}
 
 inline std::string dialect_file(const std::string& family) {
   return std::string(JUNCO_SOURCE_DIR) + "/drivers/dialects/" + family + ".json";
