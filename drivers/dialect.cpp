@@ -291,9 +291,7 @@ Dialect parse_dialect(std::string_view text, const std::string& origin) {
   const auto& rules = rules_for(d.role);
   std::set<std::string> known;
   for (const auto& rule : rules) known.insert(rule.name);
-  for (auto it = ops.begin(); it != ops.end(); ++it)
-    if (!known.count(it.key()))
-      c.only_keys(ops, "/operations", known);  // reports the unknown one with the list
+  c.only_keys(ops, "/operations", known);
   for (const auto& rule : rules) {
     std::string pointer = std::string("/operations/") + rule.name;
     if (!ops.contains(rule.name)) {

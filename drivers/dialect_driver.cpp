@@ -27,7 +27,7 @@ DialectDriver::DialectDriver(InstrumentSpec spec, Dialect dialect)
   if (dialect_.write_terminator) transport_options_.write_terminator = *dialect_.write_terminator;
   if (dialect_.read_terminator) transport_options_.read_terminator = *dialect_.read_terminator;
   if (spec_.max_retries < 0) config_error("max_retries must be >= 0");
-  with_retries("open", [&](std::string&) { ensure_session(); });
+  with_retries("open", [&] { ensure_session(); });
   if (dialect_.idn_match) check_identity();
 }
 
@@ -53,12 +53,11 @@ void DialectDriver::ensure_session() {
   }
 }
 
-void DialectDriver::with_retries(const char* operation, const std::function<void(std::string&)>& body) {
+void DialectDriver::with_retries(const char* operation, const std::function<void()>& body) {
   for (int attempt = 1;; ++attempt) {
-    std::string last_sent;
     try {
       ensure_session();
-      body(last_sent);
+      body();
       return;
     } catch (const DriverError& e) {
       bool again = e.transient() && attempt <= spec_.max_retries;
@@ -123,30 +122,28 @@ DialectDriver::Outcome DialectDriver::read_reply(const Operation& op, const std:
   return out;
 }
 
-DialectDriver::Outcome DialectDriver::run_once(const Operation& op, const Placeholders& values,
-                                               std::string& last_sent) {
+DialectDriver::Outcome DialectDriver::run_once(const Operation& op, const Placeholders& values) {
+  std::vector<std::string> group;  // what was sent, for error messages
   for (const auto& tmpl : op.commands) {
-    last_sent = expand_template(tmpl, values);
-    session_->command(last_sent);
+    group.push_back(expand_template(tmpl, values));
+    session_->command(group.back());
     if (op.delay.count() > 0) std::this_thread::sleep_for(op.delay);
   }
   if (op.sync) session_->sync();
   Outcome out;
   if (!op.query.empty()) {
-    last_sent = expand_template(op.query, values);
-    out = read_reply(op, last_sent);
+    group.push_back(expand_template(op.query, values));
+    out = read_reply(op, group.back());
   }
   if (op.drain_errors) {
-    // Name the whole group: the queue does not say which command failed.
-    std::string group;
-    for (const auto& tmpl : op.commands) group += (group.empty() ? "" : "', '") + expand_template(tmpl, values);
-    if (!op.query.empty()) group += (group.empty() ? "" : "', '") + last_sent;
-    last_sent = group;
     try {
       session_->drain_errors();
     } catch (const DriverError& e) {
       if (e.kind() != ErrorKind::instrument) throw;
-      throw DriverError(e.kind(), std::string(e.what()) + " after '" + group + "'", e.scpi_code());
+      // Name the whole group: the queue does not say which command failed.
+      std::string sent;
+      for (const auto& line : group) sent += (sent.empty() ? "'" : ", '") + line + "'";
+      throw DriverError(e.kind(), std::string(e.what()) + " after " + sent, e.scpi_code());
     }
   }
   return out;
@@ -156,7 +153,7 @@ DialectDriver::Outcome DialectDriver::run(const char* operation, const Placehold
   const Operation* op = dialect_.find(operation);
   if (!op) config_error(std::string("dialect ") + dialect_.path + " offers no operation '" + operation + "'");
   Outcome out;
-  with_retries(operation, [&](std::string& last_sent) { out = run_once(*op, values, last_sent); });
+  with_retries(operation, [&] { out = run_once(*op, values); });
   return out;
 }
 
@@ -170,16 +167,13 @@ void DialectDriver::check_identity() {
 
 Identity DialectDriver::identify() {
   Identity id;
-  with_retries("identify", [&](std::string&) { id = session_->identify(); });
+  with_retries("identify", [&] { id = session_->identify(); });
   return id;
 }
 
 void DialectDriver::reset() {
-  with_retries("reset", [&](std::string& last_sent) {
-    for (const auto& c : dialect_.reset_commands) {
-      last_sent = c;
-      session_->command(c);
-    }
+  with_retries("reset", [&] {
+    for (const auto& c : dialect_.reset_commands) session_->command(c);
     session_->sync();
   });
 }

@@ -51,11 +51,11 @@ class DialectDriver final : public Source, public Meter, public Scanner, public 
     bool flag = false;
   };
   Outcome run(const char* operation, const Placeholders& values = {});
-  Outcome run_once(const Operation& op, const Placeholders& values, std::string& last_sent);
+  Outcome run_once(const Operation& op, const Placeholders& values);
   Outcome read_reply(const Operation& op, const std::string& query);
   // Runs `body` up to 1 + max_retries times, reconnecting between tries on
   // transient errors; the final error names instrument, operation, command.
-  void with_retries(const char* operation, const std::function<void(std::string& last_sent)>& body);
+  void with_retries(const char* operation, const std::function<void()>& body);
   [[noreturn]] void config_error(const std::string& what) const;
   std::string label() const;
   void ensure_session();
