@@ -147,7 +147,8 @@ class MeterSim : public SimInstrument {
         return std::optional<std::string>{};
       });
     }
-    add(p + "AVERage:COUNt", [this](const std::string& a) {
+    // Both families spell averaging under SENSe (docs/command-sets.md).
+    add("SENSe:AVERage:COUNt", [this](const std::string& a) {
       const double c = need_number(a);
       check_range(c, 1, 100);
       count_ = static_cast<int>(c);
