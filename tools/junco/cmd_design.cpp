@@ -10,6 +10,7 @@
 #include "fitting/transfer.hpp"
 #include "tools/junco/command.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <fstream>
@@ -368,6 +369,10 @@ int run(const std::vector<std::string>& args) {
   }
   for (const auto& s : subs) {
     if (args[0] != s.name) continue;
+    if (std::find(args.begin(), args.end(), "--help") != args.end()) {
+      std::printf("usage: junco design %s [options]\n\n%s\n\n%s", s.name, s.synopsis, part_help);
+      return exit_ok;
+    }
     try {
       Options o(args, 1);
       return s.run(o);
@@ -380,7 +385,8 @@ int run(const std::vector<std::string>& args) {
   return exit_usage;
 }
 
-const bool registered = register_command({"design", "design calculators using a fitted part (bias, loss, distortion, isolation, power)", usage(), run});
+const bool registered = register_command(
+    {"design", "design calculators using a fitted part (bias, loss, distortion, isolation, power)", usage(), run, true});
 
 }  // namespace
 }  // namespace junco::cli

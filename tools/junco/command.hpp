@@ -15,6 +15,9 @@ struct Command {
   std::string usage;    // full help text for `junco NAME --help`
   // args excludes the program and subcommand names; returns the exit status.
   std::function<int(const std::vector<std::string>& args)> run;
+  // Commands with subcommands of their own see `--help` that follows a
+  // subcommand name (e.g. `junco design loss --help`) and answer it themselves.
+  bool has_subcommands = false;
 };
 
 bool register_command(Command command);

@@ -62,7 +62,9 @@ int main(int argc, char** argv) {
     return exit_usage;
   }
   std::vector<std::string> args(argv + 2, argv + argc);
-  if (std::find(args.begin(), args.end(), "--help") != args.end()) {
+  const bool wants_help = it->has_subcommands ? (!args.empty() && (args[0] == "--help" || args[0] == "-h"))
+                                              : std::find(args.begin(), args.end(), "--help") != args.end();
+  if (wants_help) {
     std::printf("%s\n", it->usage.c_str());
     return exit_ok;
   }
