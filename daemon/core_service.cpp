@@ -231,16 +231,21 @@ class CoreService final : public Service {
     const PartRow part = part_or_throw(id_param(params, "part_id"));
     const auto format = opt_string_param(params, "format");
     if (!format) throw RequestError(RpcCode::invalid_params, "format: missing (required)", Json{{"field", "format"}});
-    const Json readings_json = readings(Json{{"part_id", part.id}});
-    const auto fit = store_.latest_fit(part.id);
-    if (*format == "json") return {{"format", "json"}, {"content", export_json(part, readings_json, fit).dump(2)}};
-    if (*format == "csv") return {{"format", "csv"}, {"content", export_csv(readings_json["points"])}};
-    if (*format == "spice") {
-      if (!fit || fit->value("status", "") != "converged")
-        throw RequestError(RpcCode::not_found, "part " + std::to_string(part.id) + " has no usable fit to export as a model card");
-      return {{"format", "spice"}, {"content", export_spice(part, *fit)}};
+    if (*format == "json" || *format == "spice") {
+      const auto fit = store_.latest_fit(part.id);
+      if (!fit || !fit_result_from_json(*fit).usable())
+        throw RequestError(RpcCode::not_found, "part " + std::to_string(part.id) + " has no usable fit to export as a model",
+                           Json{{"part_id", part.id}});
+      return {{"format", *format}, {"content", *format == "json" ? export_model_json(part, *fit) : export_spice(part, *fit)}};
     }
-    throw RequestError(RpcCode::invalid_params, "format: must be \"json\", \"csv\" or \"spice\", got \"" + *format + "\"", Json{{"field", "format"}});
+    if (*format == "csv") return {{"format", "csv"}, {"content", export_csv(readings(Json{{"part_id", part.id}})["points"])}};
+    if (*format == "iv-csv" || *format == "ac-csv") {
+      const auto runs = store_.runs_of_part(part.id);
+      const auto points = runs.empty() ? std::vector<PointRow>{} : store_.points(runs.back().id);  // latest run
+      return {{"format", *format}, {"content", *format == "iv-csv" ? export_iv_csv(points) : export_ac_csv(points)}};
+    }
+    throw RequestError(RpcCode::invalid_params, "format: must be \"json\", \"spice\", \"csv\", \"iv-csv\" or \"ac-csv\", got \"" + *format + "\"",
+                       Json{{"field", "format"}});
   }
 
   Config config_;

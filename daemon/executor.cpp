@@ -33,14 +33,18 @@ double unix_time_s() {
   return std::chrono::duration<double>(std::chrono::system_clock::now().time_since_epoch()).count();
 }
 
-std::string describe(const drivers::DriverError& e) { return std::string(drivers::to_string(e.kind())) + ": " + e.what(); }
+// Driver messages already name the error kind (drivers/errors.hpp).
+std::string describe(const drivers::DriverError& e) { return e.what(); }
 
 // Runs one job on an open bench; owns nothing, lives for one run_job() call.
 class JobRun {
  public:
   JobRun(const Config& c, Store& s, JobQueue& q, EventBus& ev, Bench& b, const LogFn& log, Id id, const Plan& plan, long done, long total)
       : cfg_(c), store_(s), queue_(q), events_(ev), bench_(b), log_(log), job_id_(id), plan_(plan), steps_(expand_steps(plan)),
-        points_done_(done), points_total_(total), started_(Clock::now()) {}
+        points_done_(done), points_total_(total), started_(Clock::now()),
+        // max_job_s counts from the job's first start, across pauses and restarts.
+        deadline_(started_ + std::chrono::duration_cast<Clock::duration>(
+                                 std::chrono::duration<double>(c.safety.max_job_s - s.seconds_since_first_start(id)))) {}
 
   void run_all_parts() {
     for (const auto& part : plan_.parts) run_part(part);
@@ -77,30 +81,47 @@ class JobRun {
     biased_index_ = -1;
     siggen_on_ = false;
     vf_guess_v_ = kFirstVfGuessV;
-    for (std::size_t seq = first; seq < steps_.size(); ++seq) {
-      poll();
-      const Step& step = steps_[seq];
-      if (stopped_high_ && step.kind != Step::Kind::reverse) {
-        ++skipped_;
-        continue;
-      }
-      PointRow p = take_with_retries(step);
-      p.run_id = run_id_;
-      p.seq = static_cast<long>(seq);
-      store_.insert_point(job_id_, p);
-      ++points_done_;
-      ++taken_;
-      publish_point(p);
-      if (p.flags & kStopFlags) {
-        stopped_high_ = true;
-        guarded([&] { bench_.source->set_voltage_v(0.0); });
-        log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " +
-             ((p.flags & flag_current_limit) ? "supply in current limit" : "power above max_power_w") + " at step " +
-             std::to_string(seq) + "; no further forward steps");
-      }
-      publish_progress();
+    try {
+      for (std::size_t seq = first; seq < steps_.size(); ++seq) step_at(seq);
+    } catch (...) {
+      commit_pending();  // what was taken before a stop stays
+      throw;
     }
+    commit_pending();
     check(bench_.make_safe(), "making the bench safe after the part");
+  }
+
+  void step_at(std::size_t seq) {
+    const Step& step = steps_[seq];
+    if (step.kind != Step::Kind::ac) commit_pending();  // a new bias step begins
+    poll();
+    if (stopped_high_ && step.kind != Step::Kind::reverse) {
+      ++skipped_;
+      return;
+    }
+    PointRow p = take_with_retries(step);
+    p.run_id = run_id_;
+    p.seq = static_cast<long>(seq);
+    pending_.push_back(p);
+    if (p.flags & kStopFlags) {
+      stopped_high_ = true;
+      guarded([&] { bench_.source->set_voltage_v(0.0); });
+      log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " +
+           ((p.flags & flag_current_limit) ? "supply in current limit" : "power above max_power_w") + " at step " +
+           std::to_string(seq) + "; no further forward steps");
+    }
+  }
+
+  // One transaction per bias step: its DC reading and the AC readings at that
+  // bias (a crash loses at most the step being taken; resume retakes it).
+  void commit_pending() {
+    if (pending_.empty()) return;
+    store_.insert_points(job_id_, pending_);
+    points_done_ += static_cast<long>(pending_.size());
+    taken_ += static_cast<long>(pending_.size());
+    for (const auto& p : pending_) publish_point(p);
+    pending_.clear();
+    publish_progress();
   }
 
   // --- one reading ---------------------------------------------------------
@@ -234,7 +255,7 @@ class JobRun {
       case Control::cancel: throw JobStop{JobStop::Why::cancel, "cancelled by request"};
       case Control::shutdown: throw JobStop{JobStop::Why::shutdown, "daemon shutting down"};
     }
-    if (Clock::now() - started_ > std::chrono::duration<double>(cfg_.safety.max_job_s)) {
+    if (Clock::now() > deadline_) {
       std::ostringstream os;
       os << "job exceeded safety limit max_job_s = " << cfg_.safety.max_job_s << " s";
       throw JobStop{JobStop::Why::timeout, os.str()};
@@ -303,7 +324,8 @@ class JobRun {
   std::vector<Step> steps_;
   long points_done_, points_total_;
   long taken_ = 0, skipped_ = 0;
-  Clock::time_point started_;
+  Clock::time_point started_, deadline_;
+  std::vector<PointRow> pending_;  // readings of the current bias step, not yet committed
   std::string part_label_;
   Id part_id_ = 0, run_id_ = 0;
   bool stopped_high_ = false, siggen_on_ = false;

@@ -1,5 +1,8 @@
 #include "daemon/part_export.hpp"
 
+#include "fitting/design_readings_csv.hpp"
+#include "fitting/model_document.hpp"
+
 #include <cctype>
 #include <cmath>
 #include <cstdio>
@@ -27,19 +30,29 @@ std::string csv_field(const Json& v) {
   return v.dump();
 }
 
-// SPICE model names: letters, digits, underscore; must start with a letter.
-std::string model_name(const PartRow& part) {
-  std::string out = "D_";
-  for (char c : part.lot + "_" + part.label) out += std::isalnum(static_cast<unsigned char>(c)) ? c : '_';
-  return out;
-}
-
 }  // namespace
 
-Json export_json(const PartRow& part, const Json& readings, const std::optional<Json>& fit) {
-  return {{"part", to_json(part)}, {"run", readings.value("run", Json())}, {"points", readings.value("points", Json::array())},
-          {"fit", fit ? *fit : Json(nullptr)}};
+std::string spice_name(const PartRow& part) { return fitting::spice_model_name("D_" + part.lot + "_" + part.label); }
+
+fitting::PartModel part_model(const PartRow& part, const Json& fit) {
+  const fitting::FitResult r = fit_result_from_json(fit);
+  fitting::PartModel m;
+  m.part_label = part.label;
+  m.lot = part.lot;
+  if (fit.contains("run_id") && fit["run_id"].is_number_integer()) m.run_id = "run-" + std::to_string(fit["run_id"].get<Id>());
+  if (std::isfinite(r.temp_k)) m.temp_k = r.temp_k;
+  m.params = r.params();
+  m.is_se_a = r.is_a.std_error;
+  m.n_se = r.n.std_error;
+  m.rs_se_ohm = r.rs_ohm.std_error;
+  m.rms_residual = r.rms_residual;
+  m.points_used = r.points_used;
+  return m;
 }
+
+std::string export_model_json(const PartRow& part, const Json& fit) { return fitting::model_document_json(part_model(part, fit)); }
+
+std::string export_spice(const PartRow& part, const Json& fit) { return fitting::spice_model_card(part_model(part, fit), spice_name(part)); }
 
 std::string export_csv(const Json& points) {
   static const char* cols[] = {"run_id", "seq", "kind", "set_value", "set_unit", "supply_v", "v", "i_a", "ac_in_v",
@@ -54,22 +67,23 @@ std::string export_csv(const Json& points) {
   return os.str();
 }
 
-std::string export_spice(const PartRow& part, const Json& fit) {
-  const auto g = [](double x) {
-    char buf[32];
-    std::snprintf(buf, sizeof buf, "%.6g", x);
-    return std::string(buf);
-  };
-  const double temp_k = num_or_nan(fit.value("temp_k", Json()));
-  std::ostringstream os;
-  os << "* junco fit " << fit.value("fit_id", 0) << ": lot " << part.lot << ", part " << part.label << ", "
-     << fit.value("points_used", 0) << " points\n";
-  os << ".model " << model_name(part) << " D(IS=" << g(estimate(fit["is_a"]).value) << " N=" << g(estimate(fit["n"]).value)
-     << " RS=" << g(estimate(fit["rs_ohm"]).value);
-  // TNOM is in °C in SPICE (ngspice dio.c / diosetup.c).
-  if (std::isfinite(temp_k)) os << " TNOM=" << g(temp_k - 273.15);
-  os << ")\n";
-  return os.str();
+std::string export_iv_csv(const std::vector<PointRow>& points) {
+  std::vector<fitting::IvPoint> iv;
+  for (const auto& p : points)
+    if (p.kind == "dc" && std::isfinite(p.v) && std::isfinite(p.i_a)) iv.push_back({p.v, p.i_a});
+  return fitting::iv_readings_csv(iv);
+}
+
+std::string export_ac_csv(const std::vector<PointRow>& points) {
+  std::vector<fitting::AcPoint> ac;
+  double bias_i_a = kNaN;  // the DC reading of the step the AC readings belong to
+  for (const auto& p : points) {
+    if (p.kind == "dc") bias_i_a = p.i_a;
+    else if (p.kind != "ac") bias_i_a = kNaN;
+    else if (std::isfinite(bias_i_a) && std::isfinite(p.freq_hz) && std::isfinite(p.ac_in_v) && std::isfinite(p.ac_out_v))
+      ac.push_back({bias_i_a, p.freq_hz, p.ac_in_v, p.ac_out_v});
+  }
+  return fitting::ac_readings_csv(ac);
 }
 
 fitting::FitResult fit_result_from_json(const Json& fit) {
@@ -85,6 +99,7 @@ fitting::FitResult fit_result_from_json(const Json& fit) {
   r.rsh_ohm = estimate(fit.value("rsh_ohm", Json()));
   r.temp_k = num_or_nan(fit.value("temp_k", Json()));
   r.points_used = fit.value("points_used", 0u);
+  r.rms_residual = num_or_nan(fit.value("rms_residual", Json()));
   const Json detail = fit.value("detail", Json::object());
   if (detail.contains("parameter_names")) r.parameter_names = detail["parameter_names"].get<std::vector<std::string>>();
   if (detail.contains("correlation"))

@@ -1,20 +1,33 @@
 // part.export formats and the stored fit as a fitting::FitResult again.
-// json: the part, its latest run with every reading, and the latest fit.
-// csv: raw readings, one row per point, SI units in the header.
-// spice: a `.model` card from the latest converged fit (IS, N, RS; TNOM in °C).
+// json:   the model document of the latest usable fit (fitting/model_document.hpp,
+//         format junco.part-model v1), read by junco design --model, export, plot.
+// spice:  a `.model` card from the same fit (fitting/spice_card.hpp).
+// csv:    raw readings of the latest run, one row per point, SI units in the header.
+// iv-csv: the run's DC readings as `v,i_a` (fitting/design_readings_csv.hpp).
+// ac-csv: the run's AC readings as `bias_i_a,freq_hz,vin,vout`, the bias being
+//         the current of the DC reading at the same step.
 #pragma once
 
 #include "daemon/store.hpp"
 #include "fitting/extract.hpp"
+#include "fitting/spice_card.hpp"
 
 #include <optional>
 #include <string>
+#include <vector>
 
 namespace junco::daemon {
 
-Json export_json(const PartRow& part, const Json& readings, const std::optional<Json>& fit);
-std::string export_csv(const Json& points);
+// The fit (latest_fit JSON) as the shared exporters take it. The SPICE model
+// name is lot-qualified (D_<lot>_<label>) so cards of two lots never clash.
+fitting::PartModel part_model(const PartRow& part, const Json& fit);
+std::string spice_name(const PartRow& part);
+
+std::string export_model_json(const PartRow& part, const Json& fit);
 std::string export_spice(const PartRow& part, const Json& fit);
+std::string export_csv(const Json& points);
+std::string export_iv_csv(const std::vector<PointRow>& points);
+std::string export_ac_csv(const std::vector<PointRow>& points);
 
 // Rebuilds what the figures need (values, standard errors, correlation).
 fitting::FitResult fit_result_from_json(const Json& fit);

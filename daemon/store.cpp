@@ -5,7 +5,9 @@
 
 #include <sqlite3.h>
 
+#include <algorithm>
 #include <system_error>
+#include <unordered_map>
 
 namespace junco::daemon {
 
@@ -15,18 +17,63 @@ namespace fs = std::filesystem;
 // shell reading a copy) before SQLITE_BUSY becomes an error.
 constexpr int kBusyTimeoutMs = 5000;
 
-// RAII prepared statement with positional binding from 1 and typed columns.
+// One SQLite connection and its prepared statements, cached by SQL text.
+// Used by one thread at a time (the writer under write_mutex_, a reader
+// while leased).
+class Store::Conn {
+ public:
+  Conn(const fs::path& file, bool read_only) {
+    const int flags = (read_only ? SQLITE_OPEN_READONLY : SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE) | SQLITE_OPEN_NOMUTEX;
+    const int rc = sqlite3_open_v2(file.c_str(), &db, flags, nullptr);
+    if (rc != SQLITE_OK) {
+      std::string msg = db ? sqlite3_errmsg(db) : "out of memory";
+      sqlite3_close(db);
+      db = nullptr;
+      throw StoreError("cannot open database " + file.string() + ": " + msg);
+    }
+    sqlite3_busy_timeout(db, kBusyTimeoutMs);
+  }
+  ~Conn() {
+    for (auto& [sql, st] : cache) sqlite3_finalize(st);
+    sqlite3_close(db);
+  }
+  Conn(const Conn&) = delete;
+  Conn& operator=(const Conn&) = delete;
+
+  sqlite3_stmt* statement(const std::string& sql) {
+    auto it = cache.find(sql);
+    if (it != cache.end()) return it->second;
+    sqlite3_stmt* st = nullptr;
+    if (sqlite3_prepare_v2(db, sql.c_str(), -1, &st, nullptr) != SQLITE_OK)
+      throw StoreError(std::string("prepare: ") + sqlite3_errmsg(db));
+    cache.emplace(sql, st);
+    return st;
+  }
+
+  void exec(const char* sql) {
+    char* err = nullptr;
+    if (sqlite3_exec(db, sql, nullptr, nullptr, &err) != SQLITE_OK) {
+      std::string msg = err ? err : sqlite3_errmsg(db);
+      sqlite3_free(err);
+      throw StoreError(std::string(sql) + ": " + msg);
+    }
+  }
+
+  sqlite3* db = nullptr;
+  std::unordered_map<std::string, sqlite3_stmt*> cache;
+};
+
+// A cached prepared statement in use: positional binding from 1, typed
+// columns; reset (ending its read snapshot) and unbound on scope exit.
 class Store::Stmt {
  public:
-  Stmt(sqlite3* db, const char* sql) : db_(db) {
-    if (sqlite3_prepare_v2(db, sql, -1, &st_, nullptr) != SQLITE_OK)
-      throw StoreError(std::string("prepare: ") + sqlite3_errmsg(db));
+  Stmt(Conn& c, const std::string& sql) : db_(c.db), st_(c.statement(sql)) {}
+  ~Stmt() {
+    sqlite3_reset(st_);
+    sqlite3_clear_bindings(st_);
   }
-  ~Stmt() { sqlite3_finalize(st_); }
-  Stmt(Stmt&& o) noexcept : db_(o.db_), st_(o.st_) { o.st_ = nullptr; }
   Stmt(const Stmt&) = delete;
   Stmt& operator=(const Stmt&) = delete;
-  Stmt& operator=(Stmt&&) = delete;
 
   Stmt& bind(int i, Id v) { check(sqlite3_bind_int64(st_, i, v)); return *this; }
   Stmt& bind(int i, int v) { check(sqlite3_bind_int64(st_, i, v)); return *this; }
@@ -65,7 +112,22 @@ class Store::Stmt {
     if (rc != SQLITE_OK) throw StoreError(std::string("bind: ") + sqlite3_errmsg(db_));
   }
   sqlite3* db_;
-  sqlite3_stmt* st_ = nullptr;
+  sqlite3_stmt* st_;
+};
+
+// A read-only connection borrowed from the pool, returned on scope exit.
+class Store::ReadLease {
+ public:
+  ReadLease(Store& s, std::unique_ptr<Conn> c) : store_(s), conn_(std::move(c)) {}
+  ~ReadLease() { store_.release(std::move(conn_)); }
+  ReadLease(const ReadLease&) = delete;
+  ReadLease& operator=(const ReadLease&) = delete;
+  Stmt operator()(const std::string& sql) { return Stmt(*conn_, sql); }
+  sqlite3* db() { return conn_->db; }
+
+ private:
+  Store& store_;
+  std::unique_ptr<Conn> conn_;
 };
 
 namespace {
@@ -105,49 +167,50 @@ bool is_terminal_state(const std::string& s) {
 Store::Store(const fs::path& file) : file_(file) {
   std::error_code ec;
   if (file.has_parent_path()) fs::create_directories(file.parent_path(), ec);
-  const int rc = sqlite3_open_v2(file.c_str(), &db_, SQLITE_OPEN_READWRITE | SQLITE_OPEN_CREATE | SQLITE_OPEN_FULLMUTEX, nullptr);
-  if (rc != SQLITE_OK) {
-    std::string msg = db_ ? sqlite3_errmsg(db_) : "out of memory";
-    sqlite3_close(db_);
-    db_ = nullptr;
-    throw StoreError("cannot open database " + file.string() + ": " + msg);
-  }
   try {
-    sqlite3_busy_timeout(db_, kBusyTimeoutMs);
-    exec("PRAGMA journal_mode=WAL");
-    exec("PRAGMA synchronous=FULL");
-    exec("PRAGMA foreign_keys=ON");
-    apply_migrations(db_, embedded_migrations());
+    writer_ = std::make_unique<Conn>(file, false);
+    writer_->exec("PRAGMA journal_mode=WAL");
+    writer_->exec("PRAGMA synchronous=FULL");
+    writer_->exec("PRAGMA foreign_keys=ON");
+    apply_migrations(writer_->db, embedded_migrations());
+    release(std::make_unique<Conn>(file, true));  // fail here, not on the first query
   } catch (const StoreError& e) {
-    sqlite3_close(db_);
-    db_ = nullptr;
+    writer_.reset();
     throw StoreError(file.string() + ": " + e.what());
   }
 }
 
-Store::~Store() { sqlite3_close(db_); }
+Store::~Store() = default;
 
-Store::Stmt Store::prepare(const char* sql) { return Stmt(db_, sql); }
-
-void Store::exec(const char* sql) {
-  char* err = nullptr;
-  if (sqlite3_exec(db_, sql, nullptr, nullptr, &err) != SQLITE_OK) {
-    std::string msg = err ? err : sqlite3_errmsg(db_);
-    sqlite3_free(err);
-    throw StoreError(std::string(sql) + ": " + msg);
+Store::ReadLease Store::reader() {
+  {
+    std::lock_guard lock(pool_mutex_);
+    if (!idle_readers_.empty()) {
+      auto c = std::move(idle_readers_.back());
+      idle_readers_.pop_back();
+      return ReadLease(*this, std::move(c));
+    }
   }
+  // As many connections as threads reading at once (server threads, executor).
+  return ReadLease(*this, std::make_unique<Conn>(file_, true));
+}
+
+void Store::release(std::unique_ptr<Conn> conn) {
+  if (!conn) return;
+  std::lock_guard lock(pool_mutex_);
+  idle_readers_.push_back(std::move(conn));
 }
 
 int Store::schema_version() {
-  std::lock_guard lock(mutex_);
-  return daemon::schema_version(db_);
+  auto r = reader();
+  return daemon::schema_version(r.db());
 }
 
 Json Store::pragma_summary() {
-  std::lock_guard lock(mutex_);
+  std::lock_guard lock(write_mutex_);
   Json out;
   for (const char* p : {"journal_mode", "synchronous", "foreign_keys"}) {
-    auto st = prepare((std::string("PRAGMA ") + p).c_str());
+    Stmt st(*writer_, std::string("PRAGMA ") + p);
     if (st.step()) out[p] = st.text(0);
   }
   return out;
@@ -156,50 +219,47 @@ Json Store::pragma_summary() {
 // ---- lots and parts --------------------------------------------------------
 
 Id Store::ensure_lot(const std::string& name) {
-  std::lock_guard lock(mutex_);
-  prepare((std::string("INSERT INTO lots(name, created_at) VALUES (?, ") + kNow + ") ON CONFLICT(name) DO NOTHING").c_str())
-      .bind(1, name)
-      .run();
-  auto st = prepare("SELECT id FROM lots WHERE name = ?");
+  std::lock_guard lock(write_mutex_);
+  Stmt(*writer_, std::string("INSERT INTO lots(name, created_at) VALUES (?, ") + kNow + ") ON CONFLICT(name) DO NOTHING").bind(1, name).run();
+  Stmt st(*writer_, "SELECT id FROM lots WHERE name = ?");
   st.bind(1, name);
   st.step();
   return st.i64(0);
 }
 
 Id Store::ensure_part(Id lot_id, const std::string& label, int slot) {
-  std::lock_guard lock(mutex_);
-  prepare((std::string("INSERT INTO parts(lot_id, label, slot, created_at) VALUES (?, ?, ?, ") + kNow +
-           ") ON CONFLICT(lot_id, label) DO UPDATE SET slot = excluded.slot")
-              .c_str())
+  std::lock_guard lock(write_mutex_);
+  Stmt(*writer_, std::string("INSERT INTO parts(lot_id, label, slot, created_at) VALUES (?, ?, ?, ") + kNow +
+                     ") ON CONFLICT(lot_id, label) DO UPDATE SET slot = excluded.slot")
       .bind(1, lot_id)
       .bind(2, label)
       .bind(3, slot)
       .run();
-  auto st = prepare("SELECT id FROM parts WHERE lot_id = ? AND label = ?");
+  Stmt st(*writer_, "SELECT id FROM parts WHERE lot_id = ? AND label = ?");
   st.bind(1, lot_id).bind(2, label);
   st.step();
   return st.i64(0);
 }
 
 std::optional<PartRow> Store::part(Id part_id) {
-  std::lock_guard lock(mutex_);
-  auto st = prepare("SELECT p.id, p.lot_id, l.name, p.label, COALESCE(p.slot, 0) FROM parts p JOIN lots l ON l.id = p.lot_id WHERE p.id = ?");
+  auto r = reader();
+  auto st = r("SELECT p.id, p.lot_id, l.name, p.label, COALESCE(p.slot, 0) FROM parts p JOIN lots l ON l.id = p.lot_id WHERE p.id = ?");
   st.bind(1, part_id);
   if (!st.step()) return std::nullopt;
   return PartRow{st.i64(0), st.i64(1), st.text(2), st.text(3), static_cast<int>(st.i64(4))};
 }
 
 Json Store::lots() {
-  std::lock_guard lock(mutex_);
-  auto st = prepare("SELECT l.id, l.name, l.created_at, (SELECT COUNT(*) FROM parts p WHERE p.lot_id = l.id) FROM lots l ORDER BY l.id");
+  auto r = reader();
+  auto st = r("SELECT l.id, l.name, l.created_at, (SELECT COUNT(*) FROM parts p WHERE p.lot_id = l.id) FROM lots l ORDER BY l.id");
   Json out = Json::array();
   while (st.step()) out.push_back({{"lot_id", st.i64(0)}, {"name", st.text(1)}, {"created_at", st.text(2)}, {"parts", st.i64(3)}});
   return out;
 }
 
 Json Store::parts(const std::optional<std::string>& lot) {
-  std::lock_guard lock(mutex_);
-  auto st = prepare(
+  auto r = reader();
+  auto st = r(
       "SELECT p.id, p.lot_id, l.name, p.label, COALESCE(p.slot, 0),"
       " (SELECT MAX(f.id) FROM fits f WHERE f.part_id = p.id)"
       " FROM parts p JOIN lots l ON l.id = p.lot_id WHERE (?1 IS NULL OR l.name = ?1) ORDER BY p.id");
@@ -217,20 +277,19 @@ Json Store::parts(const std::optional<std::string>& lot) {
 
 void Store::record_instrument(const std::string& role, const std::string& address, const std::string& manufacturer,
                               const std::string& model, const std::string& serial, const std::string& firmware) {
-  std::lock_guard lock(mutex_);
-  prepare((std::string("INSERT INTO instruments(role, address, manufacturer, model, serial, firmware, first_seen, last_seen)"
-                       " VALUES (?, ?, ?, ?, ?, ?, ") +
-           kNow + ", " + kNow +
-           ") ON CONFLICT(role, manufacturer, model, serial) DO UPDATE SET"
-           " address = excluded.address, firmware = excluded.firmware, last_seen = excluded.last_seen")
-              .c_str())
+  std::lock_guard lock(write_mutex_);
+  Stmt(*writer_, std::string("INSERT INTO instruments(role, address, manufacturer, model, serial, firmware, first_seen, last_seen)"
+                             " VALUES (?, ?, ?, ?, ?, ?, ") +
+                     kNow + ", " + kNow +
+                     ") ON CONFLICT(role, manufacturer, model, serial) DO UPDATE SET"
+                     " address = excluded.address, firmware = excluded.firmware, last_seen = excluded.last_seen")
       .bind(1, role).bind(2, address).bind(3, manufacturer).bind(4, model).bind(5, serial).bind(6, firmware)
       .run();
 }
 
 Json Store::instruments() {
-  std::lock_guard lock(mutex_);
-  auto st = prepare("SELECT role, address, manufacturer, model, serial, firmware, first_seen, last_seen FROM instruments ORDER BY last_seen DESC, id");
+  auto r = reader();
+  auto st = r("SELECT role, address, manufacturer, model, serial, firmware, first_seen, last_seen FROM instruments ORDER BY last_seen DESC, id");
   Json out = Json::array();
   while (st.step())
     out.push_back({{"role", st.text(0)}, {"address", st.text(1)}, {"manufacturer", st.text(2)}, {"model", st.text(3)},
@@ -244,62 +303,73 @@ namespace {
 constexpr const char* kJobColumns =
     "SELECT id, plan, state, points_done, points_total, COALESCE(error, ''), COALESCE(submitted_uid, -1),"
     " COALESCE(submitted_pid, -1), submitted_at, COALESCE(started_at, ''), COALESCE(finished_at, ''), updated_at FROM jobs ";
-}
 
-Id Store::insert_job(const Json& plan, long points_total, int uid, int pid) {
-  std::lock_guard lock(mutex_);
-  prepare((std::string("INSERT INTO jobs(plan, state, points_total, submitted_uid, submitted_pid, submitted_at, updated_at)"
-                       " VALUES (?, 'queued', ?, ?, ?, ") +
-           kNow + ", " + kNow + ")")
-              .c_str())
-      .bind(1, plan.dump()).bind(2, points_total).bind(3, uid).bind(4, pid)
-      .run();
-  return sqlite3_last_insert_rowid(db_);
-}
-
-std::optional<JobRow> Store::job(Id id) {
-  std::lock_guard lock(mutex_);
-  auto st = prepare((std::string(kJobColumns) + "WHERE id = ?").c_str());
-  st.bind(1, id);
-  if (!st.step()) return std::nullopt;
+template <typename S>
+JobRow job_row(const S& st) {
   return JobRow{st.i64(0), Json::parse(st.text(1)), st.text(2), static_cast<long>(st.i64(3)), static_cast<long>(st.i64(4)),
                 st.text(5), static_cast<int>(st.i64(6)), static_cast<int>(st.i64(7)), st.text(8), st.text(9), st.text(10), st.text(11)};
 }
+}  // namespace
+
+Id Store::insert_job(const Json& plan, long points_total, int uid, int pid) {
+  std::lock_guard lock(write_mutex_);
+  Stmt(*writer_, std::string("INSERT INTO jobs(plan, state, points_total, submitted_uid, submitted_pid, submitted_at, updated_at)"
+                             " VALUES (?, 'queued', ?, ?, ?, ") +
+                     kNow + ", " + kNow + ")")
+      .bind(1, plan.dump()).bind(2, points_total).bind(3, uid).bind(4, pid)
+      .run();
+  return sqlite3_last_insert_rowid(writer_->db);
+}
+
+std::optional<JobRow> Store::job(Id id) {
+  auto r = reader();
+  auto st = r(std::string(kJobColumns) + "WHERE id = ?");
+  st.bind(1, id);
+  if (!st.step()) return std::nullopt;
+  return job_row(st);
+}
+
+double Store::seconds_since_first_start(Id id) {
+  auto r = reader();
+  auto st = r("SELECT (julianday('now') - julianday(started_at)) * 86400.0 FROM jobs WHERE id = ? AND started_at IS NOT NULL");
+  st.bind(1, id);
+  if (!st.step() || st.is_null(0)) return 0.0;
+  return std::max(0.0, st.real(0));
+}
 
 std::vector<JobRow> Store::jobs(const std::optional<std::string>& state) {
-  std::lock_guard lock(mutex_);
-  auto st = prepare((std::string(kJobColumns) + "WHERE (?1 IS NULL OR state = ?1) ORDER BY id").c_str());
+  auto r = reader();
+  auto st = r(std::string(kJobColumns) + "WHERE (?1 IS NULL OR state = ?1) ORDER BY id");
   st.bind_opt(1, state);
   std::vector<JobRow> out;
-  while (st.step())
-    out.push_back(JobRow{st.i64(0), Json::parse(st.text(1)), st.text(2), static_cast<long>(st.i64(3)), static_cast<long>(st.i64(4)),
-                         st.text(5), static_cast<int>(st.i64(6)), static_cast<int>(st.i64(7)), st.text(8), st.text(9), st.text(10),
-                         st.text(11)});
+  while (st.step()) out.push_back(job_row(st));
   return out;
 }
 
-void Store::set_job_state(Id id, const std::string& state, const std::optional<std::string>& error) {
-  std::lock_guard lock(mutex_);
-  prepare((std::string("UPDATE jobs SET state = ?2, error = CASE WHEN ?3 THEN ?4 ELSE error END, updated_at = ") + kNow +
-           ", started_at = CASE WHEN ?2 = 'running' AND started_at IS NULL THEN " + kNow +
-           " ELSE started_at END, finished_at = CASE WHEN ?2 IN ('done','failed','cancelled','interrupted') THEN " + kNow +
-           " ELSE finished_at END WHERE id = ?1")
-              .c_str())
-      .bind(1, id).bind(2, state).bind(3, error ? 1 : 0).bind_opt(4, error)
+// One UPDATE, so "only if still in `from`" is atomic without a read first.
+bool Store::set_job_state_if(Id id, const std::optional<std::string>& from, const std::string& state,
+                             const std::optional<std::string>& error) {
+  std::lock_guard lock(write_mutex_);
+  Stmt(*writer_, std::string("UPDATE jobs SET state = ?2, error = CASE WHEN ?3 THEN ?4 ELSE error END, updated_at = ") + kNow +
+                     ", started_at = CASE WHEN ?2 = 'running' AND started_at IS NULL THEN " + kNow +
+                     " ELSE started_at END, finished_at = CASE WHEN ?2 IN ('done','failed','cancelled','interrupted') THEN " + kNow +
+                     " ELSE finished_at END WHERE id = ?1 AND (?5 IS NULL OR state = ?5)")
+      .bind(1, id).bind(2, state).bind(3, error ? 1 : 0).bind_opt(4, error).bind_opt(5, from)
       .run();
+  return sqlite3_changes(writer_->db) > 0;
+}
+
+void Store::set_job_state(Id id, const std::string& state, const std::optional<std::string>& error) {
+  set_job_state_if(id, std::nullopt, state, error);
 }
 
 bool Store::transition_job(Id id, const std::string& from, const std::string& to, const std::optional<std::string>& error) {
-  std::lock_guard lock(mutex_);
-  auto j = job(id);
-  if (!j || j->state != from) return false;
-  set_job_state(id, to, error);
-  return true;
+  return set_job_state_if(id, from, to, error);
 }
 
 std::optional<Id> Store::next_queued_job() {
-  std::lock_guard lock(mutex_);
-  auto st = prepare("SELECT id FROM jobs WHERE state = 'queued' ORDER BY id LIMIT 1");
+  auto r = reader();
+  auto st = r("SELECT id FROM jobs WHERE state = 'queued' ORDER BY id LIMIT 1");
   if (!st.step()) return std::nullopt;
   return st.i64(0);
 }
@@ -309,81 +379,88 @@ std::optional<Id> Store::next_queued_job() {
 namespace {
 constexpr const char* kRunColumns =
     "SELECT id, job_id, part_id, slot, fixture, temp_k, state, started_at, COALESCE(finished_at, '') FROM runs ";
+
+template <typename S>
+RunRow run_row(const S& st) {
+  return RunRow{st.i64(0), st.i64(1), st.i64(2), static_cast<int>(st.i64(3)), Json::parse(st.text(4)), st.real(5), st.text(6), st.text(7), st.text(8)};
 }
+}  // namespace
 
 RunRow Store::ensure_run(Id job_id, Id part_id, int slot, const Json& fixture, double temp_k) {
-  std::lock_guard lock(mutex_);
-  prepare((std::string("INSERT INTO runs(job_id, part_id, slot, fixture, temp_k, state, started_at) VALUES (?, ?, ?, ?, ?, 'running', ") +
-           kNow + ") ON CONFLICT(job_id, part_id) DO NOTHING")
-              .c_str())
+  std::lock_guard lock(write_mutex_);
+  Stmt(*writer_, std::string("INSERT INTO runs(job_id, part_id, slot, fixture, temp_k, state, started_at) VALUES (?, ?, ?, ?, ?, 'running', ") +
+                     kNow + ") ON CONFLICT(job_id, part_id) DO NOTHING")
       .bind(1, job_id).bind(2, part_id).bind(3, slot).bind(4, fixture.dump()).bind(5, temp_k)
       .run();
-  auto st = prepare((std::string(kRunColumns) + "WHERE job_id = ? AND part_id = ?").c_str());
+  Stmt st(*writer_, std::string(kRunColumns) + "WHERE job_id = ? AND part_id = ?");
   st.bind(1, job_id).bind(2, part_id);
   st.step();
-  return RunRow{st.i64(0), st.i64(1), st.i64(2), static_cast<int>(st.i64(3)), Json::parse(st.text(4)), st.real(5), st.text(6), st.text(7), st.text(8)};
+  return run_row(st);
 }
 
 std::vector<RunRow> Store::runs_of_part(Id part_id) {
-  std::lock_guard lock(mutex_);
-  auto st = prepare((std::string(kRunColumns) + "WHERE part_id = ? ORDER BY id").c_str());
+  auto r = reader();
+  auto st = r(std::string(kRunColumns) + "WHERE part_id = ? ORDER BY id");
   st.bind(1, part_id);
   std::vector<RunRow> out;
-  while (st.step())
-    out.push_back(RunRow{st.i64(0), st.i64(1), st.i64(2), static_cast<int>(st.i64(3)), Json::parse(st.text(4)), st.real(5), st.text(6), st.text(7), st.text(8)});
+  while (st.step()) out.push_back(run_row(st));
   return out;
 }
 
 std::vector<RunRow> Store::runs_of_job(Id job_id) {
-  std::lock_guard lock(mutex_);
-  auto st = prepare((std::string(kRunColumns) + "WHERE job_id = ? ORDER BY id").c_str());
+  auto r = reader();
+  auto st = r(std::string(kRunColumns) + "WHERE job_id = ? ORDER BY id");
   st.bind(1, job_id);
   std::vector<RunRow> out;
-  while (st.step())
-    out.push_back(RunRow{st.i64(0), st.i64(1), st.i64(2), static_cast<int>(st.i64(3)), Json::parse(st.text(4)), st.real(5), st.text(6), st.text(7), st.text(8)});
+  while (st.step()) out.push_back(run_row(st));
   return out;
 }
 
 void Store::finish_run(Id run_id, const std::string& state) {
-  std::lock_guard lock(mutex_);
-  prepare((std::string("UPDATE runs SET state = ?, finished_at = ") + kNow + " WHERE id = ?").c_str()).bind(1, state).bind(2, run_id).run();
+  std::lock_guard lock(write_mutex_);
+  Stmt(*writer_, std::string("UPDATE runs SET state = ?, finished_at = ") + kNow + " WHERE id = ?").bind(1, state).bind(2, run_id).run();
 }
 
 std::optional<long> Store::last_seq(Id run_id) {
-  std::lock_guard lock(mutex_);
-  auto st = prepare("SELECT MAX(seq) FROM points WHERE run_id = ?");
+  auto r = reader();
+  auto st = r("SELECT MAX(seq) FROM points WHERE run_id = ?");
   st.bind(1, run_id);
   if (!st.step() || st.is_null(0)) return std::nullopt;
   return static_cast<long>(st.i64(0));
 }
 
 bool Store::run_has_flag(Id run_id, int flag) {
-  std::lock_guard lock(mutex_);
-  auto st = prepare("SELECT 1 FROM points WHERE run_id = ? AND (flags & ?) != 0 LIMIT 1");
+  auto r = reader();
+  auto st = r("SELECT 1 FROM points WHERE run_id = ? AND (flags & ?) != 0 LIMIT 1");
   st.bind(1, run_id).bind(2, flag);
   return st.step();
 }
 
-void Store::insert_point(Id job_id, const PointRow& p) {
-  std::lock_guard lock(mutex_);
-  Transaction tx(db_);
-  prepare(
-      "INSERT INTO points(run_id, seq, kind, set_value, set_unit, supply_v, v, i_a, ac_in_v, ac_out_v, ac_unit, freq_hz, temp_k, t_s, flags)"
-      " VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)")
-      .bind(1, p.run_id).bind(2, p.seq).bind(3, p.kind).bind(4, p.set_value).bind(5, p.set_unit).bind(6, p.supply_v)
-      .bind(7, p.v).bind(8, p.i_a).bind(9, p.ac_in_v).bind(10, p.ac_out_v)
-      .bind_opt(11, p.ac_unit.empty() ? std::nullopt : std::optional<std::string>(p.ac_unit))
-      .bind(12, p.freq_hz).bind(13, p.temp_k).bind(14, p.t_s).bind(15, p.flags)
-      .run();
-  prepare((std::string("UPDATE jobs SET points_done = points_done + 1, updated_at = ") + kNow + " WHERE id = ?").c_str())
+void Store::insert_point(Id job_id, const PointRow& p) { insert_points(job_id, {p}); }
+
+void Store::insert_points(Id job_id, const std::vector<PointRow>& points) {
+  if (points.empty()) return;
+  std::lock_guard lock(write_mutex_);
+  Transaction tx(writer_->db);
+  for (const auto& p : points)
+    Stmt(*writer_,
+         "INSERT INTO points(run_id, seq, kind, set_value, set_unit, supply_v, v, i_a, ac_in_v, ac_out_v, ac_unit, freq_hz, temp_k, t_s, flags)"
+         " VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)")
+        .bind(1, p.run_id).bind(2, p.seq).bind(3, p.kind).bind(4, p.set_value).bind(5, p.set_unit).bind(6, p.supply_v)
+        .bind(7, p.v).bind(8, p.i_a).bind(9, p.ac_in_v).bind(10, p.ac_out_v)
+        .bind_opt(11, p.ac_unit.empty() ? std::nullopt : std::optional<std::string>(p.ac_unit))
+        .bind(12, p.freq_hz).bind(13, p.temp_k).bind(14, p.t_s).bind(15, p.flags)
+        .run();
+  Stmt(*writer_, std::string("UPDATE jobs SET points_done = points_done + ?2, updated_at = ") + kNow + " WHERE id = ?1")
       .bind(1, job_id)
+      .bind(2, static_cast<Id>(points.size()))
       .run();
   tx.commit();
 }
 
 std::vector<PointRow> Store::points(Id run_id) {
-  std::lock_guard lock(mutex_);
-  auto st = prepare(
+  auto r = reader();
+  auto st = r(
       "SELECT run_id, seq, kind, set_value, set_unit, supply_v, v, i_a, ac_in_v, ac_out_v, COALESCE(ac_unit, ''), freq_hz, temp_k, t_s, flags"
       " FROM points WHERE run_id = ? ORDER BY seq");
   st.bind(1, run_id);
@@ -397,7 +474,6 @@ std::vector<PointRow> Store::points(Id run_id) {
 // ---- fits ------------------------------------------------------------------
 
 Id Store::insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit) {
-  std::lock_guard lock(mutex_);
   Json excluded = Json::array();
   for (const auto& e : fit.excluded) excluded.push_back({{"index", e.index}, {"reason", e.reason}});
   Json detail = {{"parameter_names", fit.parameter_names}, {"correlation", Json::array()}, {"excluded", excluded}, {"iterations", fit.iterations}};
@@ -406,45 +482,61 @@ Id Store::insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit) {
     for (double c : row) r.push_back(nullable(c));
     detail["correlation"].push_back(r);
   }
-  prepare((std::string("INSERT INTO fits(part_id, run_id, model, status, message, is_a, is_a_se, n, n_se, rs_ohm, rs_ohm_se, rsh_ohm, rsh_ohm_se,"
-                       " temp_k, cost, rms_residual, points_used, warnings, detail, created_at)"
-                       " VALUES (?, ?, 'forward', ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ") +
-           kNow + ")")
-              .c_str())
-      .bind(1, part_id).bind(2, run_id).bind(3, fitting::to_string(fit.status)).bind(4, fit.message)
-      .bind(5, fit.is_a.value).bind(6, fit.is_a.std_error).bind(7, fit.n.value).bind(8, fit.n.std_error)
-      .bind(9, fit.rs_ohm.value).bind(10, fit.rs_ohm.std_error).bind(11, fit.rsh_ohm.value).bind(12, fit.rsh_ohm.std_error)
-      .bind(13, fit.temp_k).bind(14, fit.cost).bind(15, fit.rms_residual).bind(16, fit.points_used)
-      .bind(17, Json(fit.warnings).dump()).bind(18, detail.dump())
-      .run();
-  return sqlite3_last_insert_rowid(db_);
+  Id id = 0;
+  {
+    std::lock_guard lock(write_mutex_);
+    Stmt(*writer_, std::string("INSERT INTO fits(part_id, run_id, model, status, message, is_a, is_a_se, n, n_se, rs_ohm, rs_ohm_se, rsh_ohm, rsh_ohm_se,"
+                               " temp_k, cost, rms_residual, points_used, warnings, detail, created_at)"
+                               " VALUES (?, ?, 'forward', ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ") +
+                       kNow + ")")
+        .bind(1, part_id).bind(2, run_id).bind(3, fitting::to_string(fit.status)).bind(4, fit.message)
+        .bind(5, fit.is_a.value).bind(6, fit.is_a.std_error).bind(7, fit.n.value).bind(8, fit.n.std_error)
+        .bind(9, fit.rs_ohm.value).bind(10, fit.rs_ohm.std_error).bind(11, fit.rsh_ohm.value).bind(12, fit.rsh_ohm.std_error)
+        .bind(13, fit.temp_k).bind(14, fit.cost).bind(15, fit.rms_residual).bind(16, fit.points_used)
+        .bind(17, Json(fit.warnings).dump()).bind(18, detail.dump())
+        .run();
+    id = sqlite3_last_insert_rowid(writer_->db);
+  }
+  std::lock_guard lock(fit_cache_mutex_);
+  ++fit_generation_;
+  fit_cache_.erase(part_id);
+  return id;
 }
 
 std::optional<Json> Store::latest_fit(Id part_id) {
-  std::lock_guard lock(mutex_);
-  auto st = prepare(
+  std::uint64_t generation = 0;
+  {
+    std::lock_guard lock(fit_cache_mutex_);
+    if (auto it = fit_cache_.find(part_id); it != fit_cache_.end()) return it->second;
+    generation = fit_generation_;
+  }
+  auto r = reader();
+  auto st = r(
       "SELECT id, part_id, run_id, model, status, COALESCE(message, ''), is_a, is_a_se, n, n_se, rs_ohm, rs_ohm_se, rsh_ohm, rsh_ohm_se,"
       " temp_k, cost, rms_residual, points_used, warnings, COALESCE(detail, '{}'), created_at FROM fits WHERE part_id = ? ORDER BY id DESC LIMIT 1");
   st.bind(1, part_id);
   if (!st.step()) return std::nullopt;
   auto est = [&](int c) { return Json{{"value", nullable(st.real(c))}, {"std_error", nullable(st.real(c + 1))}}; };
-  return Json{{"fit_id", st.i64(0)},
-              {"part_id", st.i64(1)},
-              {"run_id", st.is_null(2) ? Json(nullptr) : Json(st.i64(2))},
-              {"model", st.text(3)},
-              {"status", st.text(4)},
-              {"message", st.text(5)},
-              {"is_a", est(6)},
-              {"n", est(8)},
-              {"rs_ohm", est(10)},
-              {"rsh_ohm", est(12)},
-              {"temp_k", nullable(st.real(14))},
-              {"cost", nullable(st.real(15))},
-              {"rms_residual", nullable(st.real(16))},
-              {"points_used", st.i64(17)},
-              {"warnings", Json::parse(st.text(18))},
-              {"detail", Json::parse(st.text(19))},
-              {"created_at", st.text(20)}};
+  Json fit{{"fit_id", st.i64(0)},
+           {"part_id", st.i64(1)},
+           {"run_id", st.is_null(2) ? Json(nullptr) : Json(st.i64(2))},
+           {"model", st.text(3)},
+           {"status", st.text(4)},
+           {"message", st.text(5)},
+           {"is_a", est(6)},
+           {"n", est(8)},
+           {"rs_ohm", est(10)},
+           {"rsh_ohm", est(12)},
+           {"temp_k", nullable(st.real(14))},
+           {"cost", nullable(st.real(15))},
+           {"rms_residual", nullable(st.real(16))},
+           {"points_used", st.i64(17)},
+           {"warnings", Json::parse(st.text(18))},
+           {"detail", Json::parse(st.text(19))},
+           {"created_at", st.text(20)}};
+  std::lock_guard lock(fit_cache_mutex_);
+  if (generation == fit_generation_) fit_cache_.emplace(part_id, fit);  // no fit inserted meanwhile
+  return fit;
 }
 
 // ---- JSON views ------------------------------------------------------------

@@ -1,10 +1,15 @@
 // The store: one SQLite file owned by juncod. WAL journal, synchronous=FULL
 // (a COMMIT has reached the disk when it returns), foreign keys on, a busy
-// timeout, prepared statements only. Each reading is committed in its own
-// transaction together with its job's progress counter.
+// timeout, prepared statements only (each connection caches its own). The
+// readings of one bias step (its DC reading and the AC readings at that
+// bias) are committed in one transaction together with the job's progress
+// counter.
 //
-// Thread safety: one connection guarded by a mutex; every public method is
-// safe to call from any thread (the executor writes, RPC sessions read).
+// Thread safety: every public method is safe to call from any thread. Writes
+// go through one connection guarded by a mutex (the executor and job
+// updates); reads borrow a read-only connection from a pool, so a query never
+// waits for a writer's COMMIT (WAL lets readers run during a write). A read
+// sees every transaction committed before it started.
 #pragma once
 
 #include <nlohmann/json.hpp>
@@ -18,6 +23,7 @@
 #include <optional>
 #include <stdexcept>
 #include <string>
+#include <unordered_map>
 #include <vector>
 
 struct sqlite3;
@@ -119,6 +125,9 @@ class Store {
 
   Id insert_job(const Json& plan, long points_total, int uid, int pid);
   std::optional<JobRow> job(Id id);
+  // Seconds since the job first went running (started_at, kept across pauses
+  // and restarts); 0 when it never ran.
+  double seconds_since_first_start(Id id);
   std::vector<JobRow> jobs(const std::optional<std::string>& state);
   // Sets state and error (nullopt = leave error unchanged); stamps started_at on
   // the first "running", finished_at on terminal states.
@@ -139,6 +148,8 @@ class Store {
   // One transaction: the reading and its job's points_done. Throws StoreError
   // (also when (run_id, seq) already exists: a reading is never stored twice).
   void insert_point(Id job_id, const PointRow& p);
+  // The same for several readings (one bias step): all or none.
+  void insert_points(Id job_id, const std::vector<PointRow>& points);
   std::vector<PointRow> points(Id run_id);
 
   Id insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit);
@@ -146,12 +157,23 @@ class Store {
 
  private:
   class Stmt;
-  Stmt prepare(const char* sql);
-  void exec(const char* sql);
+  class Conn;
+  class ReadLease;
+  ReadLease reader();
+  void release(std::unique_ptr<Conn> conn);
+  bool set_job_state_if(Id id, const std::optional<std::string>& from, const std::string& state,
+                        const std::optional<std::string>& error);
 
   std::filesystem::path file_;
-  sqlite3* db_ = nullptr;
-  std::recursive_mutex mutex_;
+  std::unique_ptr<Conn> writer_;
+  std::recursive_mutex write_mutex_;
+  std::mutex pool_mutex_;
+  std::vector<std::unique_ptr<Conn>> idle_readers_;
+  // part.fit cache: latest fit per part, dropped when a fit is inserted.
+  // fit_generation_ guards against storing a row read before that insert.
+  std::mutex fit_cache_mutex_;
+  std::uint64_t fit_generation_ = 0;
+  std::unordered_map<Id, Json> fit_cache_;
 };
 
 Json to_json(const JobRow& j);
