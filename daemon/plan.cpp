@@ -222,7 +222,10 @@ std::vector<double> sweep_values(const SweepSpec& s) {
     out.push_back(s.spacing == Spacing::linear ? s.start + f * (s.stop - s.start)
                                                : std::exp(std::log(s.start) + f * (std::log(s.stop) - std::log(s.start))));
   }
-  out.back() = s.stop;  // exact end point, no rounding above the checked limit
+  // Exact end points: exp(log(x)) may round above x (10 → 10.000000000000002),
+  // i.e. above the limit check_plan compared start/stop with.
+  out.front() = s.start;
+  out.back() = s.stop;
   return out;
 }
 
