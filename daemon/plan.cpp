@@ -217,14 +217,16 @@ void check_plan(const Plan& p, const Config& c) {
 std::vector<double> sweep_values(const SweepSpec& s) {
   std::vector<double> out;
   if (s.count == 1) return {s.start};
+  // exp(log(x)) may round above x (10 → 10.000000000000002), i.e. above the
+  // limit check_plan compared start/stop with: keep every step inside them.
+  const double lo = std::min(s.start, s.stop), hi = std::max(s.start, s.stop);
   for (int k = 0; k < s.count; ++k) {
     const double f = static_cast<double>(k) / (s.count - 1);
-    out.push_back(s.spacing == Spacing::linear ? s.start + f * (s.stop - s.start)
-                                               : std::exp(std::log(s.start) + f * (std::log(s.stop) - std::log(s.start))));
+    const double x = s.spacing == Spacing::linear ? s.start + f * (s.stop - s.start)
+                                                  : std::exp(std::log(s.start) + f * (std::log(s.stop) - std::log(s.start)));
+    out.push_back(std::clamp(x, lo, hi));
   }
-  // Exact end points: exp(log(x)) may round above x (10 → 10.000000000000002),
-  // i.e. above the limit check_plan compared start/stop with.
-  out.front() = s.start;
+  out.front() = s.start;  // exact end points
   out.back() = s.stop;
   return out;
 }
