@@ -1,5 +1,7 @@
 #include "fitting/design_readings_csv.hpp"
 
+#include "fitting/iv_csv.hpp"
+
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
@@ -41,49 +43,64 @@ std::string ac_readings_csv(std::span<const AcPoint> points) {
   return s;
 }
 
-std::optional<ReadingsTable> parse_readings_csv(const std::string& text, std::string* why) {
+namespace {
+
+// The AC table's own header; anything else is a forward I-V table, read by
+// the same parser as `junco fit` so every tool accepts the same files.
+bool is_ac_header(const std::string& text) {
+  std::istringstream in(text);
+  std::string line;
+  while (std::getline(in, line)) {
+    if (line.empty() || line[0] == '#' || line == "\r") continue;
+    return split(line) == std::vector<std::string>{"bias_i_a", "freq_hz", "vin", "vout"};
+  }
+  return false;
+}
+
+std::optional<ReadingsTable> parse_ac_csv(const std::string& text, std::string* why) {
   std::istringstream in(text);
   std::string line;
   int line_no = 0;
-  std::vector<std::string> header;
+  bool header_seen = false;
   ReadingsTable t;
   while (std::getline(in, line)) {
     ++line_no;
     if (line.empty() || line[0] == '#' || line == "\r") continue;
     const auto cells = split(line);
-    if (header.empty()) {
-      header = cells;
-      const bool iv = header == std::vector<std::string>{"v", "i_a"};
-      const bool ac = header == std::vector<std::string>{"bias_i_a", "freq_hz", "vin", "vout"};
-      if (!iv && !ac) {
-        if (why) *why = "line " + std::to_string(line_no) + ": header must be 'v,i_a' or 'bias_i_a,freq_hz,vin,vout'";
-        return std::nullopt;
-      }
+    if (!header_seen) {
+      header_seen = true;
       continue;
     }
-    if (cells.size() != header.size()) {
-      if (why) *why = "line " + std::to_string(line_no) + ": expected " + std::to_string(header.size()) + " fields";
+    if (cells.size() != 4) {
+      if (why) *why = "line " + std::to_string(line_no) + ": expected 4 fields";
       return std::nullopt;
     }
-    std::vector<double> x;
-    for (const auto& c : cells) {
+    double x[4];
+    for (std::size_t k = 0; k < 4; ++k) {
+      const std::string& c = cells[k];
       char* end = nullptr;
-      const double v = std::strtod(c.c_str(), &end);
-      if (c.empty() || *end != '\0' || !std::isfinite(v)) {
+      x[k] = std::strtod(c.c_str(), &end);
+      if (c.empty() || *end != '\0' || !std::isfinite(x[k])) {
         if (why) *why = "line " + std::to_string(line_no) + ": '" + c + "' is not a finite number";
         return std::nullopt;
       }
-      x.push_back(v);
     }
-    if (x.size() == 2)
-      t.iv.push_back({x[0], x[1]});
-    else
-      t.ac.push_back({x[0], x[1], x[2], x[3]});
+    t.ac.push_back({x[0], x[1], x[2], x[3]});
   }
-  if (header.empty()) {
-    if (why) *why = "no header line";
+  return t;
+}
+
+}  // namespace
+
+std::optional<ReadingsTable> parse_readings_csv(const std::string& text, std::string* why) {
+  if (is_ac_header(text)) return parse_ac_csv(text, why);
+  IvCsv iv = parse_iv_csv(text);
+  if (!iv.ok()) {
+    if (why) *why = iv.error;
     return std::nullopt;
   }
+  ReadingsTable t;
+  t.iv = std::move(iv.points);
   return t;
 }
 

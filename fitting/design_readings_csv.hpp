@@ -2,7 +2,8 @@
 // (used by `junco plot`). Header row names the columns with SI units:
 //   forward readings:  v,i_a
 //   AC readings:       bias_i_a,freq_hz,vin,vout
-// Lines starting with '#' are comments; the reader accepts either header.
+// Lines starting with '#' are comments. A forward table is read by
+// parse_iv_csv (fitting/iv_csv.hpp), so it accepts whatever `junco fit` does.
 #pragma once
 
 #include "fitting/extract.hpp"

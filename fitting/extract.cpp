@@ -173,7 +173,7 @@ FitResult fit_forward(std::span<const IvPoint> points, const FitOptions& opt) {
     r.message = "temperature must be a finite number above 0 K";
     return r;
   }
-  const double floor_a = std::isnan(opt.noise_floor_a) ? 10.0 * opt.accuracy.i_abs_a : opt.noise_floor_a;
+  const double floor_a = effective_noise_floor_a(opt);
   std::vector<std::size_t> index;
   const std::vector<IvPoint> pts = screen(points, floor_a, r, index);
   r.points_used = pts.size();

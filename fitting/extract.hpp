@@ -81,6 +81,11 @@ struct FitResult {
   DiodeParams params() const { return {is_a.value, n.value, rs_ohm.value, rsh_ohm.value == rsh_ohm.value ? rsh_ohm.value : std::numeric_limits<double>::infinity()}; }
 };
 
+// The noise floor the fit applies with these options (see noise_floor_a).
+inline double effective_noise_floor_a(const FitOptions& options) {
+  return options.noise_floor_a == options.noise_floor_a ? options.noise_floor_a : 10.0 * options.accuracy.i_abs_a;
+}
+
 FitResult fit_forward(std::span<const IvPoint> points, const FitOptions& options = {});
 
 // Standard uncertainties implied by the accuracy model. The figures are read

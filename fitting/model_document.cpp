@@ -117,4 +117,19 @@ std::optional<PartModel> parse_model_document(const std::string& text, std::stri
   return std::nullopt;
 }
 
+PartModel part_model_from_fit(const FitResult& fit, std::string part_label, std::string lot, std::string run_id) {
+  PartModel m;
+  m.part_label = std::move(part_label);
+  m.lot = std::move(lot);
+  m.run_id = std::move(run_id);
+  m.temp_k = fit.temp_k;
+  m.params = fit.params();
+  m.is_se_a = fit.is_a.std_error;
+  m.n_se = fit.n.std_error;
+  m.rs_se_ohm = fit.rs_ohm.std_error;
+  m.rms_residual = fit.rms_residual;
+  m.points_used = fit.points_used;
+  return m;
+}
+
 }  // namespace junco::fitting

@@ -14,6 +14,7 @@
 // is omitted (never null).
 #pragma once
 
+#include "fitting/extract.hpp"
 #include "fitting/spice_card.hpp"
 
 #include <optional>
@@ -25,6 +26,10 @@ inline constexpr const char* model_document_format = "junco.part-model";
 inline constexpr int model_document_version = 1;
 
 std::string model_document_json(const PartModel& part);
+
+// The part model of a forward fit: parameters, standard errors, temperature,
+// RMS residual and points used, with the given identity.
+PartModel part_model_from_fit(const FitResult& fit, std::string part_label, std::string lot, std::string run_id = "");
 
 // nullopt with *why (one line naming the field) on a malformed document.
 std::optional<PartModel> parse_model_document(const std::string& text, std::string* why = nullptr);

@@ -2,11 +2,15 @@
 #include "fitting/derived.hpp"
 #include "fitting/extract.hpp"
 #include "fitting/iv_csv.hpp"
+#include "fitting/model_document.hpp"
 #include "tools/junco/command.hpp"
 
 #include <nlohmann/json.hpp>
 
+#include <cerrno>
 #include <cmath>
+#include <cstring>
+#include <filesystem>
 #include <cstdio>
 #include <fstream>
 #include <map>
@@ -52,15 +56,21 @@ options:
   --accuracy-i REL,ABS ammeter accuracy ±(REL·|I| + ABS amps) (default 0.2%,1e-9)
   --noise-floor A      exclude currents below A amps (default 10 × the current offset)
   --json               machine-readable output (see docs/fitting.md)
+  --model-out FILE     also write the fitted part as a JSON model document, which
+                       `junco design --model`, `junco export` and `junco plot` read
+  --label L, --lot L   the part's label and lot in that document (default: file name)
 
 exit status: 0 fitted; 1 the fit failed; 2 bad command line or bad input file.
-Example: junco fit tools/examples/kestrel24b_k24b017.csv --robust huber)";
+Examples: junco fit tools/examples/kestrel24b_k24b017.csv --robust huber
+          junco fit curve.csv --model-out part.json && junco plot iv --readings curve.csv --model part.json --out iv.svg)";
 
 struct Args {
   std::string file;
   jf::IvCsvOptions columns;
   jf::FitOptions fit;
   bool json = false;
+  std::string model_out;  // empty: no model document
+  std::string label, lot;
 };
 
 struct UsageError : std::runtime_error {
@@ -107,6 +117,12 @@ Args parse_args(const std::vector<std::string>& argv) {
     };
     if (s == "--json") {
       a.json = true;
+    } else if (s == "--model-out") {
+      a.model_out = value();
+    } else if (s == "--label") {
+      a.label = value();
+    } else if (s == "--lot") {
+      a.lot = value();
     } else if (s == "--shunt") {
       a.fit.fit_shunt = true;
     } else if (s == "--v-col") {
@@ -238,6 +254,21 @@ void print_human(const Args& a, const jf::IvCsv& csv, const jf::FitResult& r) {
   for (const auto& w : r.warnings) std::printf("  warning: %s\n", w.c_str());
 }
 
+// Only a converged fit becomes a model document: a calculator must never be
+// fed parameters the fit itself did not stand behind.
+int write_model(const Args& a, const jf::FitResult& r) {
+  const std::string stem = std::filesystem::path(a.file).stem().string();
+  const auto part = jf::part_model_from_fit(r, a.label.empty() ? stem : a.label, a.lot);
+  std::ofstream out(a.model_out, std::ios::trunc);
+  out << jf::model_document_json(part) << "\n";
+  out.close();
+  if (!out) {
+    std::fprintf(stderr, "junco fit: cannot write %s: %s\n", a.model_out.c_str(), std::strerror(errno));
+    return exit_failure;
+  }
+  return exit_ok;
+}
+
 int run_fit(const std::vector<std::string>& argv) {
   Args a;
   jf::IvCsv csv;
@@ -274,6 +305,7 @@ int run_fit(const std::vector<std::string>& argv) {
     std::fprintf(stderr, "junco fit: %s: fit did not converge: %s\n", a.file.c_str(), r.message.c_str());
     return exit_failure;
   }
+  if (!a.model_out.empty()) return write_model(a, r);
   return exit_ok;
 }
 

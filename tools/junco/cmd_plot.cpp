@@ -59,33 +59,49 @@ std::string row(double a, double b) {
   return buf;
 }
 
-std::string title_of(const PartModel& m) { return "part " + m.part_label + ", lot " + m.lot; }
+std::string title_of(const PartModel& m) {
+  return "part " + m.part_label + (m.lot.empty() ? std::string() : ", lot " + m.lot);
+}
 
 int plot_iv(std::map<std::string, std::string>& o) {
   const auto m = load_model(o["model"]);
   const auto t = load_readings(o["readings"]);
   if (t.iv.empty()) throw std::runtime_error("no forward readings (v,i_a) in " + o["readings"]);
-  std::string meas, resid, model;
+  // Readings the fit leaves out (reverse, below the noise floor) are drawn
+  // apart and kept out of the residual panel, as the fit report lists them.
+  FitOptions fit_rules;
+  if (o.count("noise-floor")) fit_rules.noise_floor_a = std::stod(o["noise-floor"]);
+  const double floor_a = effective_noise_floor_a(fit_rules);
+  std::string meas, excluded, resid, model;
   double i_lo = 1e300, i_hi = 0;
   for (const auto& p : t.iv) {
-    if (!(p.i_a > 0)) continue;
+    if (!(p.i_a > 0) || !(p.v > 0)) continue;  // not on a log current axis
+    if (p.i_a < floor_a) {
+      excluded += row(p.v, p.i_a);
+      continue;
+    }
     meas += row(p.v, p.i_a);
     resid += row(p.i_a, 1e3 * (p.v - diode_voltage_v(m.params, p.i_a, m.temp_k)));
     i_lo = std::min(i_lo, p.i_a);
     i_hi = std::max(i_hi, p.i_a);
   }
+  if (meas.empty()) throw std::runtime_error("no forward readings above the noise floor in " + o["readings"]);
   for (int k = 0; k <= 200; ++k) {
     const double i = i_lo * std::pow(i_hi / i_lo, k / 200.0);
     model += row(diode_voltage_v(m.params, i, m.temp_k), i);
   }
-  PlotJob job{o["out"], {meas, model, resid}, "", 800, 800};
+  if (excluded.empty()) excluded = "NaN NaN\n";  // keeps $d3 valid; draws nothing
+  PlotJob job{o["out"], {meas, model, resid, excluded}, "", 800, 800};
   char fit_label[200];
   std::snprintf(fit_label, sizeof fit_label, "model IS=%.3g A, N=%.3f, RS=%.3g {/Symbol W}", m.params.is_a, m.params.n,
                 m.params.rs_ohm);
-  job.body = "set multiplot layout 2,1 title '" + title_of(m) + "'\n"
+  char floor_label[80];
+  std::snprintf(floor_label, sizeof floor_label, "excluded (below noise floor %.2g A)", floor_a);
+  job.body = "set multiplot layout 2,1 title " + gnuplot_literal(title_of(m)) + " noenhanced\n"
              "set logscale y\nset format y '10^{%L}'\nset xlabel 'forward voltage V (V)'\n"
              "set ylabel 'forward current I (A)'\n"
-             "plot $d0 using 1:2 with points pt 7 ps 0.6 title 'readings', "
+             "plot $d0 using 1:2 with points pt 7 ps 0.6 title 'readings used by the fit', "
+             "$d3 using 1:2 with points pt 6 ps 0.8 lc 'gray40' title '" + std::string(floor_label) + "', "
              "$d1 using 1:2 with lines lw 2 title '" + std::string(fit_label) + "'\n"
              "unset logscale y\nset format y '%g'\nset logscale x\nset format x '10^{%L}'\n"
              "set xlabel 'forward current I (A)'\nset ylabel 'residual V_{meas} - V_{model} (mV)'\n"
@@ -118,7 +134,7 @@ int plot_ac(std::map<std::string, std::string>& o) {
     model += row(i, to_db(fixture_gain(fx, diode_on_impedance(part, i, freq, m.temp_k))));
   }
   PlotJob job{o["out"], {meas, model}, "", 800, 600};
-  job.body = "set title '" + title_of(m) + ": AC transfer of the series switch'\n"
+  job.body = "set title " + gnuplot_literal(title_of(m) + ": AC transfer of the series switch") + " noenhanced\n"
              "set logscale x\nset format x '10^{%L}'\nset xlabel 'bias current I (A)'\n"
              "set ylabel 'transfer V_{out}/V_{in} (dB)'\nset key bottom right\n"
              "plot $d0 using 1:2 with points pt 7 ps 0.8 title 'measured', "
@@ -140,8 +156,9 @@ int plot_lot(const std::vector<std::string>& files, std::map<std::string, std::s
     ++k;
   }
   PlotJob job{o["out"], {is, n, rs}, "", 800, 900};
-  job.body = "set multiplot layout 3,1 title 'lot " + lot + ": spread of the fitted parameters (" + std::to_string(k) +
-             " parts)'\nset xlabel 'part index'\nset key off\n"
+  job.body = "set multiplot layout 3,1 title " +
+             gnuplot_literal("lot " + lot + ": spread of the fitted parameters (" + std::to_string(k) + " parts)") +
+             " noenhanced\nset xlabel 'part index'\nset key off\n"
              "set logscale y\nset format y '10^{%L}'\nset ylabel 'IS (A)'\nplot $d0 using 1:2 with points pt 7\n"
              "unset logscale y\nset format y '%g'\nset ylabel 'N (1)'\nplot $d1 using 1:2 with points pt 7\n"
              "set ylabel 'RS ({/Symbol W})'\nplot $d2 using 1:2 with points pt 7\nunset multiplot";

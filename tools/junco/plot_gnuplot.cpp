@@ -17,6 +17,16 @@ std::string quote(const std::string& s) {
 }
 }  // namespace
 
+std::string gnuplot_literal(const std::string& text) {
+  std::string q = "'";
+  for (char c : text) {
+    if (c == '\'') q += "''";  // the only escape inside a single-quoted gnuplot string
+    else if (static_cast<unsigned char>(c) < 0x20) q += ' ';
+    else q += c;
+  }
+  return q + "'";
+}
+
 std::string run_gnuplot(const PlotJob& job) {
   const bool png = ends_with(job.output_path, ".png");
   if (!png && !ends_with(job.output_path, ".svg")) return "output must end in .svg or .png";
@@ -29,7 +39,7 @@ std::string run_gnuplot(const PlotJob& job) {
       f << "set terminal pngcairo size " << job.width_px << "," << job.height_px << " font 'Sans,11'\n";
     else
       f << "set terminal svg size " << job.width_px << "," << job.height_px << " dynamic font 'Sans,12' background '#ffffff'\n";
-    f << "set output '" << job.output_path << "'\nset grid\nset key top left box opaque\n" << job.body << "\nunset output\n";
+    f << "set output " << gnuplot_literal(job.output_path) << "\nset grid\nset key top left box opaque\n" << job.body << "\nunset output\n";
     if (!f) return "cannot write " + script;
   }
   const int status = std::system(("gnuplot " + quote(script) + " 2>" + quote(job.output_path + ".log")).c_str());

@@ -16,6 +16,13 @@ struct PlotJob {
   int width_px = 800, height_px = 600;
 };
 
+// A gnuplot single-quoted string literal holding `text` verbatim. Labels and
+// paths come from files a user did not write (model documents, CSV names):
+// a quote must not end the literal (gnuplot scripts can run shell commands),
+// and a newline must not start a new command. Use with `noenhanced` so '_'
+// and '^' in labels are not read as sub/superscripts.
+std::string gnuplot_literal(const std::string& text);
+
 // Writes OUTPUT.gp next to the output and runs gnuplot. Returns "" on success,
 // else a one-line reason.
 std::string run_gnuplot(const PlotJob& job);
