@@ -6,6 +6,7 @@
 #include "tools/junco/command.hpp"
 #include "tools/junco/rpc_client.hpp"
 
+#include <array>
 #include <fcntl.h>
 #include <poll.h>
 #include <signal.h>
@@ -266,10 +267,12 @@ bool print_lot(RpcClient& client, const std::string& lot) {
   options.currents_a = {1e-3, 5e-3, 10e-3};
   const auto stats = fitting::lot_statistics(fitted, options);
   std::printf("\nlot spread (%zu parts)\n%-14s %-12s %-12s %-12s %-12s\n", fitted.size(), "quantity", "mean", "std", "min", "max");
-  const std::vector<std::pair<std::string, std::string>> shown{{"is_a", "A"},          {"n", ""},
-                                                               {"rs_ohm", "Ω"},        {"vf_v@0.001A", "V"},
-                                                               {"vf_v@0.01A", "V"},    {"rd_ohm@0.005A", "Ω"}};
-  for (const auto& [name, unit] : shown)
+  // {statistic's name, unit, label shown to the reader}
+  const std::vector<std::array<std::string, 3>> shown{
+      {"is_a", "A", "Is"},          {"n", "", "n"},
+      {"rs_ohm", "Ω", "Rs"},        {"vf_v@0.001A", "V", "Vf @ 1 mA"},
+      {"vf_v@0.01A", "V", "Vf @ 10 mA"}, {"rd_ohm@0.005A", "Ω", "rd @ 5 mA"}};
+  for (const auto& [name, unit, label] : shown)
     for (const auto& q : stats.front().quantities) {
       if (q.name != name) continue;
       const auto f = [&, u = unit](double x) {
@@ -278,7 +281,7 @@ bool print_lot(RpcClient& client, const std::string& lot) {
         std::snprintf(t, sizeof t, "%.4f", x);
         return std::string(t);
       };
-      std::printf("%s%s\n", (pad(q.name, 15) + pad(f(q.mean), 13) + pad(f(q.std_dev), 13) + pad(f(q.min), 13) + f(q.max)).c_str(),
+      std::printf("%s%s\n", (pad(label, 15) + pad(f(q.mean), 13) + pad(f(q.std_dev), 13) + pad(f(q.min), 13) + f(q.max)).c_str(),
                   q.outliers.empty() ? "" : ("  outliers: " + Json(q.outliers).dump()).c_str());
     }
   return all_fitted;
