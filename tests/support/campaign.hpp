@@ -270,14 +270,16 @@ inline long points_lost(const std::filesystem::path& file, long steps_per_run) {
   return lost;
 }
 
-// Committed points (read-only; safe while the daemon is dead or alive, WAL).
-inline long committed_points(const std::filesystem::path& file) {
+// Committed points, of one job or all (read-only; safe while the daemon is dead or alive, WAL).
+inline long committed_points(const std::filesystem::path& file, long job_id = 0) {
   sqlite3* db = nullptr;
   long n = -1;
   if (sqlite3_open_v2(file.c_str(), &db, SQLITE_OPEN_READONLY, nullptr) == SQLITE_OK) {
     sqlite3_busy_timeout(db, 5000);
     sqlite3_stmt* st = nullptr;
-    if (sqlite3_prepare_v2(db, "SELECT COUNT(*) FROM points", -1, &st, nullptr) == SQLITE_OK && sqlite3_step(st) == SQLITE_ROW)
+    const char* sql = "SELECT COUNT(*) FROM points p JOIN runs r ON r.id = p.run_id WHERE ?1 = 0 OR r.job_id = ?1";
+    if (sqlite3_prepare_v2(db, sql, -1, &st, nullptr) == SQLITE_OK && sqlite3_bind_int64(st, 1, job_id) == SQLITE_OK &&
+        sqlite3_step(st) == SQLITE_ROW)
       n = sqlite3_column_int64(st, 0);
     sqlite3_finalize(st);
   }
