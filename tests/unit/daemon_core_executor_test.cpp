@@ -6,7 +6,10 @@
 #include "daemon/core_service.hpp"
 #include "daemon/store.hpp"
 #include "drivers/errors.hpp"
+#include "fitting/design_units.hpp"
 #include "fitting/diode.hpp"
+#include "fitting/model_document.hpp"
+#include "tests/support/process.hpp"
 
 #include <catch2/catch.hpp>
 
@@ -16,6 +19,8 @@
 
 #include <atomic>
 #include <filesystem>
+#include <fstream>
+#include <regex>
 #include <mutex>
 #include <set>
 #include <thread>
@@ -85,7 +90,8 @@ struct FakeMeter final : drv::Meter {
     if (int d = lab.delay_ms.load()) std::this_thread::sleep_for(std::chrono::milliseconds(d));
     const int n = lab.meter_reads++;
     if (lab.meter_fail_after >= 0 && n >= lab.meter_fail_after && n < lab.meter_fail_after + lab.meter_fail_count)
-      throw drv::DriverError(drv::ErrorKind::timeout, "meter: no reply within 2000 ms");
+      // Worded as the real drivers word it: the kind is already in the message.
+      throw drv::DriverError(drv::ErrorKind::timeout, "instrument 'meter' (fake): measure_voltage: timeout: no reply within 2000 ms");
     return lab.op().first;
   }
   double measure_dc_current_a() override { return lab.op().second; }
@@ -275,7 +281,9 @@ TEST_CASE("transient faults are retried and flagged; a persistent one pauses the
   job = svc->call("job.submit", {{"plan", plan(10, 0.0, 1)}}, kCaller)["job_id"];
   const Json j = wait_for_state(*svc, job, {"done", "paused"});
   CHECK(j["state"] == "paused");
-  CHECK(j["error"].get<std::string>().find("timeout: meter: no reply within 2000 ms") != std::string::npos);
+  const std::string error = j["error"];
+  CHECK(error.find("instrument 'meter' (fake): measure_voltage: timeout: no reply within 2000 ms") != std::string::npos);
+  CHECK(error.find("timeout") == error.rfind("timeout"));  // the kind once, not prefixed again
   CHECK(j["points_done"] == 3);
   CHECK_FALSE(lab.out_on);
   { std::lock_guard l(lab.m); check_safety_order(lab.log); }
@@ -393,4 +401,79 @@ TEST_CASE("a plan that forbids resuming is marked interrupted after a restart") 
   const Json j = svc->call("job.get", {{"job_id", 1}}, kCaller);
   CHECK(j["state"] == "interrupted");
   CHECK(j["error"].get<std::string>().find("forbids resuming") != std::string::npos);
+}
+
+TEST_CASE("max_job_s counts from the job's first start: a paused and resumed job gets only what is left") {
+  TempDir dir;
+  FakeLab lab;
+  Config cfg = config_in(dir.path);
+  cfg.safety.max_job_s = 1.5;
+  auto svc = make_service(cfg, fake_options(lab));
+  // 100 points × 50 ms settle ≈ 5 s: longer than the limit.
+  const Id job = svc->call("job.submit", {{"plan", plan(100, 0.05, 1)}}, kCaller)["job_id"];
+  wait_for_state(*svc, job, {"running"});
+  const auto first_start = std::chrono::steady_clock::now();
+  std::this_thread::sleep_for(700ms);
+  svc->call("job.pause", {{"job_id", job}}, kCaller);
+  REQUIRE(wait_for_state(*svc, job, {"paused", "failed", "done"})["state"] == "paused");
+  std::this_thread::sleep_for(400ms);  // paused time counts too: the limit is wall-clock from the first start
+  const auto resumed = std::chrono::steady_clock::now();
+  svc->call("job.resume", {{"job_id", job}}, kCaller);
+  const Json j = wait_for_state(*svc, job, {"failed", "done"}, 10s);
+  const double after_resume_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - resumed).count();
+  const double total_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - first_start).count();
+  INFO(j.dump());
+  REQUIRE(j["state"] == "failed");
+  CHECK(j["error"].get<std::string>().find("max_job_s") != std::string::npos);
+  CHECK(j["points_done"].get<long>() < 100);
+  // ≈ 0.4 s were left; timed from the resume it would have run another 1.5 s.
+  CHECK(after_resume_s < 1.0);
+  CHECK(total_s >= 1.5 - 0.05);
+  CHECK(total_s < 2.3);
+  CHECK_FALSE(lab.out_on);
+  { std::lock_guard l(lab.m); check_safety_order(lab.log); }
+}
+
+TEST_CASE("part.export json is a model document that junco design op reads; spice is the shared card") {
+  TempDir dir;
+  FakeLab lab;
+  auto svc = make_service(config_in(dir.path), fake_options(lab));
+  const Id job = svc->call("job.submit", {{"plan", plan(30, 0.0, 1)}}, kCaller)["job_id"];
+  REQUIRE(wait_for_state(*svc, job, {"done", "failed", "paused"})["state"] == "done");
+  const Json fit = svc->call("part.fit", {{"part_id", 1}}, kCaller);
+  const std::string doc = svc->call("part.export", {{"part_id", 1}, {"format", "json"}}, kCaller)["content"];
+  std::string why;
+  const auto model = fit::parse_model_document(doc, &why);
+  INFO(why << "\n" << doc);
+  REQUIRE(model);
+  CHECK(model->params.is_a == fit["is_a"]["value"].get<double>());
+  CHECK(model->params.rs_ohm == fit["rs_ohm"]["value"].get<double>());
+  CHECK(model->part_label == "QX-7-01");
+  CHECK(model->lot == "QX-7");
+
+  // The junco binary (a real process) reads the exported file.
+  const fs::path file = dir.path / "QX-7-01.json";
+  std::ofstream(file) << doc;
+  junco::test::ChildProcess cli({std::string(JUNCO_BIN_DIR) + "/junco", "design", "op", "--model", file.string(), "--supply", "5",
+                                 "--rbias", "100"});
+  std::string out;
+  while (auto line = cli.read_line(5000ms)) out += *line + "\n";
+  INFO(out);
+  REQUIRE(cli.wait(5000ms) == 0);
+  std::smatch m;
+  REQUIRE(std::regex_search(out, m, std::regex("bias current +([^\n]+)")));
+  const auto i_a = fit::parse_engineering(m[1].str(), "A");
+  REQUIRE(i_a);
+  // Against the fake part itself: supply 5 V through 100 Ω into the diode (Lambert W, fitting/diode.hpp).
+  fit::DiodeParams total = lab.diode;
+  total.rs_ohm += 100;
+  CHECK(*i_a == Approx(fit::diode_current_a(total, 5.0, 300.15)).epsilon(2e-3));
+
+  const std::string card = svc->call("part.export", {{"part_id", 1}, {"format", "spice"}}, kCaller)["content"];
+  CHECK(card.find(".model D_QX_7_QX_7_01 D(IS=") != std::string::npos);
+  CHECK(card.find("TNOM=27") != std::string::npos);  // 300.15 K in °C (SPICE TNOM is °C)
+
+  const std::string iv = svc->call("part.export", {{"part_id", 1}, {"format", "iv-csv"}}, kCaller)["content"];
+  CHECK(iv.rfind("v,i_a\n", 0) == 0);
+  CHECK(std::count(iv.begin(), iv.end(), '\n') == 31);
 }
