@@ -50,6 +50,32 @@ std::optional<std::string> opt_string_param(const Json& params, const char* key)
   return v.get<std::string>();
 }
 
+// The params each method takes (schema/api/*.json: additionalProperties
+// false). Anything else is refused, not ignored: a misspelt option, or a
+// field that looks like a safety limit or a file path, must never pass as if
+// it had been honoured.
+const std::map<std::string, std::set<std::string>>& known_params() {
+  static const std::map<std::string, std::set<std::string>> table{
+      {"daemon.status", {}},           {"bench.describe", {}},           {"job.submit", {"plan"}},
+      {"job.list", {"state"}},         {"job.get", {"job_id"}},          {"job.cancel", {"job_id"}},
+      {"job.pause", {"job_id"}},       {"job.resume", {"job_id"}},       {"lot.list", {}},
+      {"part.list", {"lot"}},          {"part.readings", {"part_id", "run_id"}},
+      {"part.fit", {"part_id"}},       {"part.figures", {"part_id", "currents_a"}},
+      {"part.export", {"part_id", "format"}}};
+  return table;
+}
+
+void reject_unknown_params(const std::string& method, const Json& params) {
+  if (!params.is_object()) return;
+  const auto it = known_params().find(method);
+  if (it == known_params().end()) return;
+  for (const auto& [key, value] : params.items()) {
+    (void)value;
+    if (!it->second.count(key))
+      throw RequestError(RpcCode::invalid_params, key + ": unknown param for " + method, Json{{"field", key}});
+  }
+}
+
 const std::set<std::string> kStates{"queued", "running", "paused", "done", "failed", "cancelled", "interrupted"};
 
 class CoreService final : public Service {
@@ -76,6 +102,7 @@ class CoreService final : public Service {
     auto it = table_.find(std::string(method));
     if (it == table_.end()) throw RequestError(RpcCode::method_not_found, "unknown method \"" + std::string(method) + "\"");
     require_object(params);
+    reject_unknown_params(it->first, params);
     const Json p = params.is_null() ? Json::object() : params;
     try {
       return it->second(p, caller);

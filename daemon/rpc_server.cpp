@@ -5,15 +5,19 @@
 #include <boost/asio/dispatch.hpp>
 #include <boost/asio/local/stream_protocol.hpp>
 #include <boost/asio/post.hpp>
+#include <boost/asio/steady_timer.hpp>
 #include <boost/asio/strand.hpp>
 #include <boost/asio/write.hpp>
 
 #include <grp.h>       // getgrnam_r
+#include <sys/resource.h>  // getrlimit
 #include <sys/socket.h>  // SO_PEERCRED
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <array>
+#include <chrono>
 #include <atomic>
 #include <cerrno>
 #include <cstdio>
@@ -47,10 +51,27 @@ std::string parent_dir(const std::string& path) {
   return path.substr(0, slash);
 }
 
+// The automatic connection cap: half the descriptor limit (the rest is for
+// the store, the instruments and the accept() itself), at most 1024.
+std::size_t auto_max_connections() {
+  rlimit lim{};
+  if (::getrlimit(RLIMIT_NOFILE, &lim) != 0 || lim.rlim_cur == RLIM_INFINITY) return 1024;
+  return std::clamp<std::size_t>(static_cast<std::size_t>(lim.rlim_cur / 2), 4, 1024);
+}
+
 // Event kinds the Service publishes (service.hpp).
 const std::set<std::string>& known_event_kinds() {
   static const std::set<std::string> kinds{"job.state", "job.progress", "point.added"};
   return kinds;
+}
+
+// Same rule as the Service's methods: params not in the schema are refused.
+void only_params(const char* method, const Json& params, std::initializer_list<const char*> allowed) {
+  for (const auto& [key, value] : params.items()) {
+    (void)value;
+    if (std::find_if(allowed.begin(), allowed.end(), [&key = key](const char* a) { return key == a; }) == allowed.end())
+      throw RequestError(RpcCode::invalid_params, key + ": unknown param for " + method, Json{{"field", key}});
+  }
 }
 
 }  // namespace
@@ -116,6 +137,7 @@ class Connection : public std::enable_shared_from_this<Connection> {
   bool writing_ = false;
   bool reading_ = false;
   bool closed_ = false;
+  bool read_eof_ = false;  // the client shut its write side: finish writing, then close
   Caller caller_;
   std::string peer_;  // "pid 123 uid 1000" for logs
   std::atomic<std::size_t> queued_{0};  // messages enqueued or posted, not yet written
@@ -128,7 +150,9 @@ class Connection : public std::enable_shared_from_this<Connection> {
 class RpcServer::Impl : public std::enable_shared_from_this<RpcServer::Impl> {
  public:
   Impl(asio::io_context& io, Service& service, ServerOptions options)
-      : io_(io), service_(service), options_(std::move(options)), acceptor_(io) {}
+      : io_(io), service_(service), options_(std::move(options)), acceptor_(io), retry_timer_(io) {
+    if (options_.max_connections == 0) options_.max_connections = auto_max_connections();
+  }
 
   void log(std::string_view level, const std::string& message) const {
     if (options_.log) options_.log(level, message);
@@ -151,7 +175,7 @@ class RpcServer::Impl : public std::enable_shared_from_this<RpcServer::Impl> {
       throw std::runtime_error("cannot give socket " + path + " to group " + options_.group + ": " + errno_text(errno));
     acceptor_.listen(asio::socket_base::max_listen_connections);
     bound_ = true;
-    log("info", "listening on " + path);
+    log("info", "listening on " + path + " (at most " + std::to_string(options_.max_connections) + " clients)");
     accept();
   }
 
@@ -167,6 +191,7 @@ class RpcServer::Impl : public std::enable_shared_from_this<RpcServer::Impl> {
     asio::post(acceptor_.get_executor(), [self = shared_from_this()] {
       boost::system::error_code ignored;
       self->acceptor_.close(ignored);
+      self->retry_timer_.cancel();
     });
     for (auto& c : live) c->close("daemon stopping");
     if (bound_) ::unlink(options_.socket_path.c_str());
@@ -201,25 +226,68 @@ class RpcServer::Impl : public std::enable_shared_from_this<RpcServer::Impl> {
   void accept() {
     acceptor_.async_accept(io_, [self = shared_from_this()](boost::system::error_code ec, stream::socket s) {
       if (ec == asio::error::operation_aborted || !self->acceptor_.is_open()) return;
-      if (ec) {
-        self->log("warn", "accept failed: " + ec.message());
-      } else {
-        auto c = std::make_shared<Connection>(std::move(s), self);
-        {
-          std::lock_guard lock(self->mutex_);
-          if (self->stopped_) return;
-          self->connections_[c.get()] = c;
-        }
-        c->start();
+      if (ec == asio::error::no_descriptors || ec.value() == ENFILE || ec == asio::error::no_buffer_space ||
+          ec == asio::error::no_memory) {
+        // Retrying at once would fail at once: wait for descriptors to free up.
+        if (!self->starved_) self->log("warn", "accept failed: " + ec.message() + "; retrying every " +
+                                                   std::to_string(self->options_.accept_retry_ms) + " ms");
+        self->starved_ = true;
+        self->retry_timer_.expires_after(std::chrono::milliseconds(self->options_.accept_retry_ms));
+        self->retry_timer_.async_wait([self](boost::system::error_code tec) {
+          if (!tec) self->accept();
+        });
+        return;
       }
+      if (self->starved_) self->log("info", "accepting clients again");
+      self->starved_ = false;
+      if (ec) self->log("warn", "accept failed: " + ec.message());
+      else self->admit(std::move(s));
       self->accept();
     });
+  }
+
+  void admit(stream::socket s) {
+    bool full = false;
+    {
+      std::lock_guard lock(mutex_);
+      if (stopped_) return;
+      full = connections_.size() >= options_.max_connections;
+    }
+    if (full) {
+      refuse_busy(std::move(s));
+      return;
+    }
+    auto c = std::make_shared<Connection>(std::move(s), shared_from_this());
+    {
+      std::lock_guard lock(mutex_);
+      if (stopped_) return;
+      connections_[c.get()] = c;
+    }
+    c->start();
+  }
+
+  // One error line, best effort and never blocking, then close.
+  void refuse_busy(stream::socket s) {
+    static const std::string line = rpc::to_line(rpc::make_error(
+        nullptr, RpcCode::unavailable, "server busy: too many clients connected; try again later"));
+    boost::system::error_code ignored;
+    s.non_blocking(true, ignored);
+    s.write_some(asio::buffer(line), ignored);
+    s.shutdown(stream::socket::shutdown_both, ignored);
+    s.close(ignored);
+    const auto n = ++refused_;
+    // 1st, 10th, 100th, ...: the log shows the pressure without flooding.
+    if (n == 1 || n == 10 || n == 100 || n % 1000 == 0)
+      log("warn", "refused client #" + std::to_string(n) + ": " + std::to_string(options_.max_connections) + " clients connected");
   }
 
   asio::io_context& io_;
   Service& service_;
   ServerOptions options_;
   stream::acceptor acceptor_;
+  asio::steady_timer retry_timer_;  // accept back-off when out of descriptors
+  bool starved_ = false;           // touched only by the accept chain
+  std::atomic<unsigned long> refused_{0};
   bool bound_ = false;
   mutable std::mutex mutex_;  // guards connections_ and stopped_
   std::unordered_map<Connection*, std::weak_ptr<Connection>> connections_;
@@ -260,14 +328,20 @@ void Connection::close(std::string_view why) {
 }
 
 void Connection::read_more() {
-  if (closed_ || reading_) return;
+  if (closed_ || reading_ || read_eof_) return;
   if (out_.size() >= server_.options().pause_reading_at) return;  // write_next resumes
   reading_ = true;
   socket_.async_read_some(asio::buffer(read_buf_), asio::bind_executor(strand_, [self = shared_from_this()](
                                                                                      boost::system::error_code ec, std::size_t n) {
     self->reading_ = false;
+    if (ec == asio::error::eof) {
+      // A half-closed client still gets every reply it asked for.
+      self->read_eof_ = true;
+      if (!self->writing_) self->close("end of stream");
+      return;
+    }
     if (ec) {
-      self->close(ec == asio::error::eof ? "end of stream" : ec.message());
+      self->close(ec.message());
       return;
     }
     self->handle_lines(n);
@@ -308,7 +382,10 @@ void Connection::handle_line(std::string_view line) {
 Json Connection::dispatch(const rpc::Request& req) {
   try {
     if (req.method == "events.subscribe") return rpc::make_result(req.id, subscribe(req.params));
-    if (req.method == "events.unsubscribe") return rpc::make_result(req.id, unsubscribe());
+    if (req.method == "events.unsubscribe") {
+      only_params("events.unsubscribe", req.params, {});
+      return rpc::make_result(req.id, unsubscribe());
+    }
     return rpc::make_result(req.id, server_.service().call(req.method, req.params, caller_));
   } catch (const RequestError& e) {
     return rpc::make_error(req.id, e.code(), e.what(), e.data());
@@ -323,6 +400,7 @@ Json Connection::dispatch(const rpc::Request& req) {
 }
 
 Json Connection::subscribe(const Json& params) {
+  only_params("events.subscribe", params, {"kinds"});
   std::set<std::string> kinds;
   if (const auto it = params.find("kinds"); it != params.end()) {
     if (!it->is_array()) throw RequestError(RpcCode::invalid_params, "invalid params: \"kinds\" must be an array of strings");
@@ -389,7 +467,8 @@ void Connection::enqueue(std::string line) {
 void Connection::write_next() {
   if (closed_ || out_.empty()) {
     writing_ = false;
-    read_more();
+    if (read_eof_) close("end of stream");
+    else read_more();
     return;
   }
   writing_ = true;

@@ -15,6 +15,14 @@
 //                       so the executor publishing events never waits.
 //   pause_reading_at    a client that pipelines requests without reading the
 //                       replies is simply not read until its queue drains.
+//   max_connections     bounds open client sockets, so clients can never use
+//                       up the descriptors the executor needs to reconnect to
+//                       an instrument or the store needs for its files. A
+//                       client beyond it gets one `unavailable` error line and
+//                       is closed. 0 = automatic: min(1024, RLIMIT_NOFILE / 2).
+//   When accept() itself fails for lack of descriptors, the server waits
+//   accept_retry_ms before trying again (logged once per episode), instead of
+//   spinning on the failing call.
 #pragma once
 
 #include "daemon/rpc_framing.hpp"
@@ -39,6 +47,8 @@ struct ServerOptions {
   std::size_t max_line_bytes = rpc::default_max_line_bytes;
   std::size_t max_queued_messages = 4096;
   std::size_t pause_reading_at = 64;
+  std::size_t max_connections = 0;
+  unsigned accept_retry_ms = 100;
   LogFn log;  // may be empty
 };
 
