@@ -189,6 +189,7 @@ FitResult fit_forward(std::span<const IvPoint> points, const FitOptions& opt) {
   for (std::size_t k = 0; k < pts.size(); ++k) sigma[k] = standard_uncertainty_v(opt.accuracy, pts[k].v);
   r.initial = initial_estimate(pts, sigma, opt.temp_k, opt.fit_shunt);
   WeightedProblem wp{pts, sigma, opt.temp_k, opt.fit_shunt, opt.loss, opt.loss_scale, opt.max_iterations};
+  CurveSolver solver(wp);  // reads `sigma` afresh at every solve
   DiodeParams current = r.initial;
   SolveOutcome s;
   constexpr int max_passes = 4;
@@ -196,7 +197,7 @@ FitResult fit_forward(std::span<const IvPoint> points, const FitOptions& opt) {
     for (std::size_t k = 0; k < pts.size(); ++k) sigma[k] = residual_sigma_v(current, pts[k], opt.accuracy, opt.temp_k);
     // The covariance is wanted only once the weights have settled (last pass).
     const bool last = pass == max_passes - 1;
-    s = solve_weighted(wp, current, last);
+    s = solver.solve(current, last);
     r.iterations += s.iterations;
     if (s.status == FitStatus::failed) break;
     const double change = max_relative_change(s.params, current);
@@ -204,7 +205,7 @@ FitResult fit_forward(std::span<const IvPoint> points, const FitOptions& opt) {
     if (change < 1e-7 && !last) {
       // Settled: a final solve with these weights starts at the optimum and adds the covariance.
       for (std::size_t k = 0; k < pts.size(); ++k) sigma[k] = residual_sigma_v(current, pts[k], opt.accuracy, opt.temp_k);
-      s = solve_weighted(wp, current, true);
+      s = solver.solve(current, true);
       r.iterations += s.iterations;
       break;
     }
