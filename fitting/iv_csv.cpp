@@ -162,7 +162,9 @@ IvCsv parse_iv_csv(std::string_view text, const IvCsvOptions& options) {
       const std::string_view cell = cells[col[q]];
       const char* first = cell.data();
       const char* last = cell.data() + cell.size();
-      if (first != last && *first == '+') ++first;  // from_chars does not take a leading '+'
+      // from_chars does not take a leading '+'; skip one, but only before a digit or '.',
+      // so "+-5" stays an error rather than reading as -5.
+      if (last - first >= 2 && *first == '+' && first[1] != '-' && first[1] != '+') ++first;
       const auto [ptr, ec] = std::from_chars(first, last, value[q]);
       const std::string where = "line " + std::to_string(line_no) + ", column " + std::to_string(col[q] + 1) + " (" +
                                 header[col[q]].name + "): ";

@@ -73,6 +73,8 @@ TEST_CASE("bad files give one exact line each", "[csv]") {
       {"v,voltage,i\n1,1,2\n", "", "two voltage columns ('v' and 'voltage'); pick one with --v-col"},
       {"v,i\n0.6,abc\n", "", "line 2, column 2 (i): 'abc' is not a number"},
       {"v,i\n0.5,1e-4\n0.6x,1e-3\n", "", "line 3, column 1 (v): '0.6x' is not a number"},
+      {"v,i\n+-0.5,1e-4\n", "", "line 2, column 1 (v): '+-0.5' is not a number"},
+      {"v,i\n0.5,++1e-4\n", "", "line 2, column 2 (i): '++1e-4' is not a number"},
       {"v,i\n0.6,\n", "", "line 2, column 2 (i): empty value"},
       {"v,i\n0.6,nan\n", "", "line 2, column 2 (i): 'nan' is not a finite number"},
       {"v,i\n0.6,inf\n", "", "line 2, column 2 (i): 'inf' is not a finite number"},
