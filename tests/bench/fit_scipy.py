@@ -22,6 +22,11 @@ x = (ln_is, n, Rs), cost = 0.5*sum(r^2) in both programs.
 import json
 import math
 import os
+
+# Single-threaded BLAS, as junco is: on a busy 2-core machine BLAS worker threads
+# spinning against each other made SciPy several times slower than it is.
+for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")
 import subprocess
 import sys
 import time
