@@ -114,6 +114,20 @@ TEST_CASE("junco submit, watch, jobs, lots, parts, show against a running daemon
   r = junco_cli(dir, {"show", "CL-1", "--socket", sock});
   CHECK_THAT(r.all(), Catch::Contains("Is  = ") && Catch::Contains("Rs  = ") && Catch::Contains("±"));
 
+  // The daemon's export feeds the offline tools: the SPICE card carries the
+  // fitted N, and the model document is accepted by a calculator.
+  r = junco_cli(dir, {"show", "CL-2", "--export", "spice", "--socket", sock});
+  REQUIRE(r.status == 0);
+  CHECK_THAT(r.all(), Catch::Contains(".model") && Catch::Contains(" D("));
+  const auto model = dir / "cl2.json";
+  r = junco_cli(dir, {"show", "CL-2", "--export", "json", "--out", model.string(), "--socket", sock});
+  REQUIRE(r.status == 0);
+  r = junco_cli(dir, {"design", "op", "--model", model.string(), "--supply", "5V", "--rbias", "1k"});
+  CHECK(r.status == 0);
+  CHECK_THAT(r.all(), Catch::Contains("CL-2"));
+  r = junco_cli(dir, {"show", "CL-2", "--out", model.string(), "--socket", sock});
+  CHECK(r.status == 2);
+
   // Errors from the daemon: printed with their message, exit 1.
   r = junco_cli(dir, {"show", "999", "--socket", sock});
   CHECK(r.status == 1);

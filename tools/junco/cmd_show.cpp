@@ -3,6 +3,7 @@
 #include "tools/junco/rpc_client.hpp"
 
 #include <cstdio>
+#include <fstream>
 
 namespace junco::cli {
 namespace {
@@ -23,6 +24,14 @@ options:
   --lot NAME     the lot of a PART given by label
   --socket PATH  juncod's socket (see junco status --help)
   --json         print {"fit":..., "figures":...} as JSON
+  --export FORMAT  print the part as the daemon exports it instead:
+                 json (model document for junco design/export/plot --model),
+                 spice (.model card), csv (all readings), iv-csv, ac-csv
+  --out FILE     with --export: write to FILE instead of standard output
+
+examples:
+  junco show WR-03 --at 100uA,1mA,10mA
+  junco show WR-03 --export json --out wr03.json && junco design bias-r --model wr03.json --supply 5 --current 10mA
 
 exit status: 0 shown; 1 unknown part, no usable fit, or daemon error; 2 bad options.)";
 
@@ -56,18 +65,38 @@ std::string estimate(const Json& e, const std::string& unit) {
   return text;
 }
 
+// The export is written as the daemon made it; a file is only replaced once
+// the whole document has arrived.
+int export_part(RpcClient& client, long part, const std::string& format, const std::optional<std::string>& out_path) {
+  const Json r = client.call("part.export", Json{{"part_id", part}, {"format", format}});
+  const std::string content = r.value("content", "");
+  if (!out_path) {
+    std::fputs(content.c_str(), stdout);
+    return exit_ok;
+  }
+  std::ofstream f(*out_path, std::ios::trunc);
+  f << content;
+  f.close();
+  if (!f) throw std::runtime_error("cannot write " + *out_path);
+  return exit_ok;
+}
+
 int run(std::vector<std::string> args) {
   return guarded("show", [&] {
     const auto socket = take_socket_option(args);
     const bool json = take_flag(args, "--json");
     const auto lot = take_option(args, "--lot");
     const auto at = take_option(args, "--at");
+    const auto export_format = take_option(args, "--export");
+    const auto out_path = take_option(args, "--out");
+    if (out_path && !export_format) throw std::invalid_argument("--out goes with --export FORMAT");
     const auto currents = parse_quantity_list(at.value_or("1mA,10mA"), "A");
     for (double i : currents)
       if (!(i > 0)) throw std::invalid_argument("--at currents must be > 0 (forward), got " + format_si(i, "A"));
     if (args.size() != 1) throw std::invalid_argument("expected one PART (id or label)");
     RpcClient client(socket);
     const long part = resolve_part(client, args[0], lot);
+    if (export_format) return export_part(client, part, *export_format, out_path);
     const Json fit = client.call("part.fit", Json{{"part_id", part}});
     const Json figures = client.call("part.figures", Json{{"part_id", part}, {"currents_a", currents}});
     if (json) {
