@@ -5,53 +5,22 @@
 #include "fitting/diode.hpp"
 #include "fitting/model_document.hpp"
 
+#include "tests/support/cli_run.hpp"
+
 #include <catch2/catch.hpp>
 
-#include <cstdio>
-#include <cstdlib>
 #include <filesystem>
 #include <fstream>
-#include <sstream>
 #include <string>
-#include <sys/wait.h>
-#include <unistd.h>
 
 namespace fs = std::filesystem;
 using namespace junco::fitting;
 
+using junco::test::run_junco;
+using junco::test::ScratchDir;
+using junco::test::slurp;
+
 namespace {
-
-struct Run {
-  int status;
-  std::string out;
-};
-
-Run run_junco(const std::string& args) {
-  const std::string cmd = std::string(JUNCO_BIN_DIR) + "/junco " + args + " 2>&1";
-  FILE* p = popen(cmd.c_str(), "r");
-  REQUIRE(p);
-  std::string out;
-  char buf[512];
-  while (std::fgets(buf, sizeof buf, p)) out += buf;
-  const int st = pclose(p);
-  return {WIFEXITED(st) ? WEXITSTATUS(st) : -1, out};
-}
-
-std::string slurp(const fs::path& path) {
-  std::ifstream f(path);
-  std::stringstream ss;
-  ss << f.rdbuf();
-  return ss.str();
-}
-
-struct ScratchDir {
-  fs::path path;
-  ScratchDir() {
-    char t[] = "/tmp/junco-offline-flow-XXXXXX";
-    path = mkdtemp(t);
-  }
-  ~ScratchDir() { fs::remove_all(path); }
-};
 
 const std::string example = std::string(JUNCO_SOURCE_DIR) + "/tools/examples/kestrel24b_k24b017.csv";
 

@@ -3,6 +3,8 @@
 #include "fitting/design_readings_csv.hpp"
 #include "fitting/model_document.hpp"
 
+#include "tests/support/cli_run.hpp"
+
 #include <catch2/catch.hpp>
 
 #include <cmath>
@@ -18,38 +20,9 @@ using namespace junco::fitting;
 
 namespace {
 
-struct Run {
-  int status;
-  std::string out;
-};
-
-Run run_junco(const std::string& args) {
-  const std::string cmd = std::string(JUNCO_BIN_DIR) + "/junco " + args + " 2>&1";
-  FILE* p = popen(cmd.c_str(), "r");
-  REQUIRE(p);
-  std::string out;
-  char buf[512];
-  while (std::fgets(buf, sizeof buf, p)) out += buf;
-  const int st = pclose(p);
-  return {WIFEXITED(st) ? WEXITSTATUS(st) : -1, out};
-}
-
-std::string slurp(const std::string& path) {
-  std::ifstream f(path);
-  std::stringstream ss;
-  ss << f.rdbuf();
-  return ss.str();
-}
-
-struct Dir {
-  std::string path;
-  Dir() {
-    char t[] = "/tmp/junco-design-cli-XXXXXX";
-    path = mkdtemp(t);
-  }
-  ~Dir() { std::system(("rm -rf " + path).c_str()); }
-  std::string file(const std::string& name) const { return path + "/" + name; }
-};
+using junco::test::run_junco;
+using junco::test::slurp;
+using Dir = junco::test::ScratchDir;
 
 PartModel demo_part(const std::string& label, double is_a) {
   PartModel p;
