@@ -241,7 +241,6 @@ TEST_CASE("malformed bursts, 1 MiB lines, dropped requests and churn: daemon up,
   const auto plan = test::sweep_plan("ABUSE-B", 4, 60, 0.01);
   const long job = b.submit(c, plan);
   Probe probe(b.socket());
-  const long fds_before = test::open_fds(b.daemon_pid());
 
   auto round = [&] {
     std::vector<std::thread> t;
@@ -255,6 +254,8 @@ TEST_CASE("malformed bursts, 1 MiB lines, dropped requests and churn: daemon up,
   // Round 1 warms the allocator up; later rounds must not grow the daemon.
   round();
   const long rss_warm = test::rss_kib(b.daemon_pid());
+  // Measured after warm-up too: the store opens its read connections on demand.
+  const long fds_before = test::open_fds(b.daemon_pid());
   round();
   round();
   const long rss_after = test::rss_kib(b.daemon_pid());
@@ -268,14 +269,15 @@ TEST_CASE("malformed bursts, 1 MiB lines, dropped requests and churn: daemon up,
   CHECK(rss_after < 256 * 1024);
   check_probe(probe);
 
-  // Every dropped connection was closed by the daemon (fds back near where they were).
+  // Every dropped connection was closed by the daemon (fds back near where they were;
+  // a leak of even 1 % of the dropped connections would be 30 descriptors).
   long fds_now = 0;
   for (int i = 0; i < 100; ++i) {
     fds_now = test::open_fds(b.daemon_pid());
-    if (fds_now <= fds_before + 2) break;
+    if (fds_now <= fds_before + 8) break;
     std::this_thread::sleep_for(std::chrono::milliseconds(50));
   }
-  CHECK(fds_now <= fds_before + 2);
+  CHECK(fds_now <= fds_before + 8);  // slack for the store's read pool; rounds drop ~3000 connections
 
   const auto done = LiveBench::wait_final(c, job, std::chrono::seconds(120));
   CHECK(done["state"] == "done");
