@@ -341,10 +341,15 @@ Executor::Executor(const Config& config, Store& store, JobQueue& queue, EventBus
 Executor::~Executor() { stop(); }
 
 void Executor::make_bench_safe_at_start() {
-  if (!ensure_bench()) return;
+  if (!ensure_bench()) {
+    unsafe_ = true;  // a previous daemon may have left an output on: retried by the executor thread
+    return;
+  }
   const std::string errors = bench_->make_safe();
+  note_safety(errors);
   if (errors.empty()) log_("bench: every output off, scanner open");
-  else log_("bench: could not make every instrument safe at start: " + errors);
+  else log_("bench: could not make every instrument safe at start: " + errors + " (retrying every " +
+            std::to_string(kMakeSafeRetry.count()) + " ms)");
 }
 
 void Executor::start() {
@@ -354,7 +359,10 @@ void Executor::start() {
 void Executor::stop() {
   queue_.stop();
   if (thread_.joinable()) thread_.join();
-  if (bench_) bench_->make_safe();
+  if (!bench_) return;
+  const std::string errors = bench_->make_safe();
+  note_safety(errors);
+  if (!errors.empty()) log_("bench: could not make every instrument safe at shutdown: " + errors);
 }
 
 Json Executor::identities() const {
@@ -367,10 +375,11 @@ bool Executor::ensure_bench() {
   try {
     bench_ = open_(config_);
     bench_open_ = true;
+    last_bench_problem_.clear();
     identify();
     return true;
   } catch (const std::exception& e) {
-    log_(std::string("bench: cannot open: ") + e.what());
+    log_bench_problem(std::string("bench: cannot open: ") + e.what());
     bench_.reset();
     bench_open_ = false;
     return false;
@@ -378,9 +387,45 @@ bool Executor::ensure_bench() {
 }
 
 void Executor::drop_bench() {
-  if (bench_) bench_->make_safe();
+  if (bench_) note_safety(bench_->make_safe());
   bench_.reset();
   bench_open_ = false;
+}
+
+void Executor::log_bench_problem(const std::string& line) {
+  if (line == last_bench_problem_) return;
+  last_bench_problem_ = line;
+  log_(line);
+}
+
+void Executor::note_safety(const std::string& errors) {
+  if (errors.empty()) {
+    unsafe_ = false;
+    unsafe_errors_.clear();
+    return;
+  }
+  unsafe_ = true;
+  unsafe_errors_ = errors;  // already logged by the caller; a retry logs only a different outcome
+}
+
+// One make-safe attempt while no job runs (the bench is not known safe):
+// every instrument is tried (Bench::make_safe), the outcome logged once per change.
+void Executor::retry_make_safe() {
+  if (!ensure_bench()) return;  // "cannot open" logged once by ensure_bench
+  const std::string errors = bench_->make_safe();
+  if (errors.empty()) {
+    note_safety(errors);
+    last_bench_problem_.clear();
+    log_("bench: every output off, scanner open (make-safe retried)");
+    return;
+  }
+  if (errors != unsafe_errors_) log_("bench: still not safe, retrying every " + std::to_string(kMakeSafeRetry.count()) + " ms: " + errors);
+  note_safety(errors);
+}
+
+void Executor::stop_job(Id id, const std::string& state, const std::optional<std::string>& message) {
+  if (!queue_.set_stop_state(id, state, message))
+    log_("job " + std::to_string(id) + ": state " + state + " could not be saved, held in memory" + (message ? ": " + *message : ""));
 }
 
 void Executor::identify() {
@@ -404,23 +449,39 @@ void Executor::identify() {
 }
 
 void Executor::loop() {
-  while (auto id = queue_.wait_next()) {
+  for (;;) {
+    // While the bench is not known safe, wake every kMakeSafeRetry to try again.
+    const auto id = unsafe_ ? queue_.wait_next_for(kMakeSafeRetry) : queue_.wait_next();
+    if (queue_.stopping()) break;
+    if (!id) {
+      retry_make_safe();
+      continue;
+    }
+    if (reopen_before_job_) {
+      drop_bench();  // reconnect and re-identify after an instrument fault
+      reopen_before_job_ = false;
+    }
     if (!ensure_bench()) {
       // Leave the job queued; try again shortly unless we are stopping.
       queue_.sleep_for(std::chrono::seconds(2));
       continue;
     }
-    if (!queue_.claim(*id)) continue;
+    bool claimed = false;
+    try {
+      claimed = queue_.claim(*id);
+    } catch (const StoreError& e) {
+      log_bench_problem("job " + std::to_string(*id) + ": cannot start: storage: " + e.what());
+      queue_.sleep_for(std::chrono::seconds(2));
+      continue;
+    }
+    if (!claimed) continue;
     try {
       run_job(*id);
     } catch (const std::exception& e) {
-      // A bug or a store failure: never leave the bench live.
-      if (bench_) bench_->make_safe();
+      // A bug: never leave the bench live.
+      if (bench_) note_safety(bench_->make_safe());
       log_("job " + std::to_string(*id) + ": failed: " + e.what());
-      try {
-        queue_.set_state(*id, "failed", e.what());
-      } catch (...) {
-      }
+      stop_job(*id, "failed", e.what());
     }
     queue_.set_running(std::nullopt);
   }
@@ -435,25 +496,39 @@ void Executor::run_job(Id id) {
   try {
     run.run_all_parts();
     const std::string errors = bench_->make_safe();
-    queue_.set_state(id, "done", errors.empty() ? std::optional<std::string>() : "finished, but: " + errors);
+    note_safety(errors);
+    stop_job(id, "done", errors.empty() ? std::optional<std::string>() : "finished, but: " + errors);
     log_("job " + std::to_string(id) + ": done");
   } catch (const JobStop& stop) {
     const std::string errors = bench_->make_safe();
+    note_safety(errors);
     const std::string msg = stop.message + (errors.empty() ? "" : "; " + errors);
     log_("job " + std::to_string(id) + ": " + msg);
     switch (stop.why) {
-      case JobStop::Why::pause: queue_.set_state(id, "paused", msg); break;
+      case JobStop::Why::pause: stop_job(id, "paused", msg); break;
       case JobStop::Why::fault:
-        queue_.set_state(id, "paused", msg);
-        drop_bench();  // reopened (reconnected) when a job next runs
+        stop_job(id, "paused", msg);
+        // The drivers reconnect by themselves; the bench is kept for the
+        // make-safe retries and reopened before the next job.
+        reopen_before_job_ = true;
         break;
-      case JobStop::Why::cancel: queue_.set_state(id, "cancelled", msg); break;
-      case JobStop::Why::timeout: queue_.set_state(id, "failed", msg); break;
+      case JobStop::Why::cancel: stop_job(id, "cancelled", msg); break;
+      case JobStop::Why::timeout: stop_job(id, "failed", msg); break;
       case JobStop::Why::shutdown:
         // As after a crash: resumable jobs go back to the queue on restart.
-        queue_.set_state(id, plan.resume ? "queued" : "interrupted", msg);
+        stop_job(id, plan.resume ? "queued" : "interrupted", msg);
         break;
     }
+  } catch (const StoreError& e) {
+    // A commit failed (read-only file, disk full): nothing more can be kept,
+    // so the job stops here with the outputs off. Paused, not failed: once
+    // the storage is fixed it can be resumed (after a restart the file's
+    // "running" is recovered as usual).
+    const std::string errors = bench_->make_safe();
+    note_safety(errors);
+    const std::string msg = std::string("storage: ") + e.what() + (errors.empty() ? "" : "; " + errors);
+    log_("job " + std::to_string(id) + ": " + msg);
+    stop_job(id, "paused", msg);
   }
 }
 

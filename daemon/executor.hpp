@@ -7,6 +7,11 @@
 // and make_safe() again at the end of the job, on any fault, on cancel,
 // pause, timeout and shutdown. Transient driver faults are retried per
 // reading (kPointAttempts); a persistent fault pauses the job with the error.
+// When make_safe() cannot reach every instrument (one stopped answering), the
+// bench is "not known safe" and make_safe() is retried every
+// kMakeSafeRetry while no job runs, until it succeeds. A store that cannot
+// commit (read-only, disk full) pauses the job with outputs off; if the
+// paused state cannot be written either, the store holds it in memory.
 #pragma once
 
 #include "daemon/bench.hpp"
@@ -15,6 +20,7 @@
 #include "daemon/store.hpp"
 
 #include <atomic>
+#include <chrono>
 #include <functional>
 #include <memory>
 #include <string_view>
@@ -24,6 +30,8 @@ namespace junco::daemon {
 
 // Attempts per reading before a fault counts as persistent.
 inline constexpr int kPointAttempts = 4;
+// Pause between make-safe attempts while the bench is not known safe.
+inline constexpr std::chrono::milliseconds kMakeSafeRetry{500};
 
 using BenchOpener = std::function<std::unique_ptr<Bench>(const Config&)>;
 using LogFn = std::function<void(std::string_view)>;
@@ -45,6 +53,8 @@ class Executor {
   // Instruments as last identified (role → {manufacturer, model, ...}); for bench.describe.
   Json identities() const;
   bool bench_open() const { return bench_open_.load(); }
+  // False from a make_safe() that failed for some instrument until a retry succeeds.
+  bool bench_known_safe() const { return !unsafe_.load(); }
 
  private:
   void loop();
@@ -52,6 +62,12 @@ class Executor {
   bool ensure_bench();
   void drop_bench();
   void identify();
+  // Records the outcome of a make_safe(): "" = safe, else not known safe.
+  void note_safety(const std::string& errors);
+  void retry_make_safe();
+  // Logs a bench problem once, not again while it stays the same.
+  void log_bench_problem(const std::string& line);
+  void stop_job(Id id, const std::string& state, const std::optional<std::string>& message);
 
   const Config& config_;
   Store& store_;
@@ -61,6 +77,10 @@ class Executor {
   LogFn log_;
   std::unique_ptr<Bench> bench_;  // executor thread only (and before start())
   std::atomic<bool> bench_open_{false};
+  std::atomic<bool> unsafe_{false};    // bench not known safe (written by the executor thread)
+  std::string unsafe_errors_;          // the last make_safe() failures, executor thread only
+  std::string last_bench_problem_;     // executor thread only
+  bool reopen_before_job_ = false;     // after an instrument fault: reconnect before the next job
   mutable std::mutex ident_mutex_;
   Json identities_ = Json::object();
   std::thread thread_;

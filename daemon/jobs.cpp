@@ -1,5 +1,7 @@
 #include "daemon/jobs.hpp"
 
+#include <algorithm>
+
 namespace junco::daemon {
 
 JobQueue::JobQueue(Store& store, EventBus& events) : store_(store), events_(events) {}
@@ -26,6 +28,18 @@ void JobQueue::publish_state(Id id, const std::string& state, const std::optiona
 void JobQueue::set_state(Id id, const std::string& state, const std::optional<std::string>& error) {
   store_.set_job_state(id, state, error);
   publish_state(id, state, error);
+}
+
+bool JobQueue::set_stop_state(Id id, const std::string& state, const std::optional<std::string>& error) {
+  try {
+    set_state(id, state, error);
+    return true;
+  } catch (const StoreError& e) {
+    const std::string held = (error ? *error + "; " : "") + "job state not saved: storage: " + e.what();
+    store_.hold_job_state(id, state, held);
+    publish_state(id, state, held);
+    return false;
+  }
 }
 
 JobRow JobQueue::cancel(Id id) {
@@ -91,6 +105,17 @@ std::optional<Id> JobQueue::wait_next() {
     if (stop_) return std::nullopt;
     if (auto id = store_.next_queued_job()) return id;
     cv_.wait_for(lock, std::chrono::seconds(1));
+  }
+}
+
+std::optional<Id> JobQueue::wait_next_for(std::chrono::duration<double> d) {
+  std::unique_lock lock(mutex_);
+  const auto until = std::chrono::steady_clock::now() + std::chrono::duration_cast<std::chrono::steady_clock::duration>(d);
+  for (;;) {
+    if (stop_) return std::nullopt;
+    if (auto id = store_.next_queued_job()) return id;
+    if (std::chrono::steady_clock::now() >= until) return std::nullopt;
+    cv_.wait_until(lock, std::min(until, std::chrono::steady_clock::now() + std::chrono::seconds(1)));
   }
 }
 

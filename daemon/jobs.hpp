@@ -39,6 +39,8 @@ class JobQueue {
 
   // Executor side.
   std::optional<Id> wait_next();  // blocks; nullopt once stop() was called
+  // The same, waiting at most `d`: nullopt on timeout too (check stopping()).
+  std::optional<Id> wait_next_for(std::chrono::duration<double> d);
   // Moves a queued job to running and makes it the running job, atomically
   // with respect to cancel/pause; false when it was no longer queued.
   bool claim(Id id);
@@ -52,6 +54,12 @@ class JobQueue {
 
   // State change persisted and published as job.state.
   void set_state(Id id, const std::string& state, const std::optional<std::string>& error = std::nullopt);
+  // For the executor's stop states (paused, failed, done, ...): persisted like
+  // set_state; when the store cannot write it (read-only, disk full), the
+  // state and the error, with the storage error appended, are held in memory
+  // by the store (job.get / job.list serve them with "persisted": false) and
+  // published. Returns false then. Never throws StoreError.
+  bool set_stop_state(Id id, const std::string& state, const std::optional<std::string>& error);
 
  private:
   JobRow require(Id id);

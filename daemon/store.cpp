@@ -5,13 +5,47 @@
 
 #include <sqlite3.h>
 
+#include <fcntl.h>
+#include <unistd.h>
+
 #include <algorithm>
+#include <cerrno>
+#include <cstring>
 #include <system_error>
 #include <unordered_map>
 
 namespace junco::daemon {
 
 namespace fs = std::filesystem;
+
+namespace {
+
+// SQLite's message for a failed call, with the cause a person needs. A file
+// system that went read-only under an open database (an ext4 error, a failing
+// disk) makes a commit fail as a bare "disk I/O error", and statvfs may not
+// show it; so on an I/O-class failure an unnamed file (O_TMPFILE: nothing is
+// left behind) is tried in the database's directory, and its errno named.
+std::string failure(sqlite3* db, const std::string& what) {
+  std::string out = (what.empty() ? "" : what + ": ") + sqlite3_errmsg(db);
+  const int primary = sqlite3_errcode(db) & 0xff;
+  if (primary != SQLITE_IOERR && primary != SQLITE_READONLY && primary != SQLITE_CANTOPEN && primary != SQLITE_FULL) return out;
+  if (const int err = sqlite3_system_errno(db); err != 0) out += std::string(" (") + std::strerror(err) + ")";
+  const char* name = sqlite3_db_filename(db, "main");
+  if (!name || !*name) return out;
+  const fs::path dir = fs::path(name).parent_path();
+  const int fd = ::open(dir.c_str(), O_TMPFILE | O_WRONLY | O_CLOEXEC, 0600);
+  const int err = errno;
+  if (fd >= 0) {
+    ::close(fd);
+  } else if (err == EROFS) {
+    out += "; database is read-only: the file system holding " + dir.string() + " is read-only";
+  } else if (err == ENOSPC || err == EDQUOT) {
+    out += "; the disk holding " + dir.string() + " is full";
+  }
+  return out;
+}
+
+}  // namespace
 
 // How long a writer waits for another connection's lock (e.g. the sqlite3
 // shell reading a copy) before SQLITE_BUSY becomes an error.
@@ -51,12 +85,7 @@ class Store::Conn {
   }
 
   void exec(const char* sql) {
-    char* err = nullptr;
-    if (sqlite3_exec(db, sql, nullptr, nullptr, &err) != SQLITE_OK) {
-      std::string msg = err ? err : sqlite3_errmsg(db);
-      sqlite3_free(err);
-      throw StoreError(std::string(sql) + ": " + msg);
-    }
+    if (sqlite3_exec(db, sql, nullptr, nullptr, nullptr) != SQLITE_OK) throw StoreError(failure(db, sql));
   }
 
   sqlite3* db = nullptr;
@@ -95,7 +124,7 @@ class Store::Stmt {
     const int rc = sqlite3_step(st_);
     if (rc == SQLITE_ROW) return true;
     if (rc == SQLITE_DONE) return false;
-    throw StoreError(sqlite3_errmsg(db_));
+    throw StoreError(failure(db_, ""));
   }
   void run() { while (step()) {} }
 
@@ -152,11 +181,41 @@ class Transaction {
 
  private:
   void run(const char* sql) {
-    if (sqlite3_exec(db_, sql, nullptr, nullptr, nullptr) != SQLITE_OK) throw StoreError(std::string(sql) + ": " + sqlite3_errmsg(db_));
+    if (sqlite3_exec(db_, sql, nullptr, nullptr, nullptr) != SQLITE_OK) throw StoreError(failure(db_, sql));
   }
   sqlite3* db_;
   bool done_ = false;
 };
+
+}  // namespace
+
+namespace {
+
+// PRAGMA quick_check (integrity_check without the index-content cross-check:
+// linear in the file size, a second or so for a few hundred MB). A damaged
+// page makes SQLite report "malformed" here instead of failing some later
+// query in the middle of a job. Throws with the first complaint, one line.
+void check_integrity(sqlite3* db) {
+  sqlite3_stmt* st = nullptr;
+  if (sqlite3_prepare_v2(db, "PRAGMA quick_check", -1, &st, nullptr) != SQLITE_OK)
+    throw StoreError(std::string("PRAGMA quick_check: ") + sqlite3_errmsg(db));
+  std::string first;
+  long problems = 0;
+  int rc;
+  while ((rc = sqlite3_step(st)) == SQLITE_ROW) {
+    const auto* t = sqlite3_column_text(st, 0);
+    const std::string line = t ? reinterpret_cast<const char*>(t) : "";
+    if (line == "ok") continue;
+    if (problems++ == 0) first = line;
+  }
+  const std::string step_error = rc == SQLITE_DONE ? "" : sqlite3_errmsg(db);
+  sqlite3_finalize(st);
+  if (!step_error.empty()) throw StoreError("database is corrupt: PRAGMA quick_check: " + step_error);
+  if (problems == 0) return;
+  std::replace(first.begin(), first.end(), '\n', ' ');
+  throw StoreError("database is corrupt: PRAGMA quick_check: " + first +
+                   (problems > 1 ? " (and " + std::to_string(problems - 1) + " more problems)" : ""));
+}
 
 }  // namespace
 
@@ -172,6 +231,7 @@ Store::Store(const fs::path& file) : file_(file) {
     writer_->exec("PRAGMA journal_mode=WAL");
     writer_->exec("PRAGMA synchronous=FULL");
     writer_->exec("PRAGMA foreign_keys=ON");
+    check_integrity(writer_->db);  // before migrations write into a damaged file
     apply_migrations(writer_->db, embedded_migrations());
     release(std::make_unique<Conn>(file, true));  // fail here, not on the first query
   } catch (const StoreError& e) {
@@ -307,7 +367,8 @@ constexpr const char* kJobColumns =
 template <typename S>
 JobRow job_row(const S& st) {
   return JobRow{st.i64(0), Json::parse(st.text(1)), st.text(2), static_cast<long>(st.i64(3)), static_cast<long>(st.i64(4)),
-                st.text(5), static_cast<int>(st.i64(6)), static_cast<int>(st.i64(7)), st.text(8), st.text(9), st.text(10), st.text(11)};
+                st.text(5), static_cast<int>(st.i64(6)), static_cast<int>(st.i64(7)), st.text(8), st.text(9), st.text(10), st.text(11),
+                true};
 }
 }  // namespace
 
@@ -326,7 +387,23 @@ std::optional<JobRow> Store::job(Id id) {
   auto st = r(std::string(kJobColumns) + "WHERE id = ?");
   st.bind(1, id);
   if (!st.step()) return std::nullopt;
-  return job_row(st);
+  JobRow row = job_row(st);
+  apply_held(row);
+  return row;
+}
+
+void Store::hold_job_state(Id id, const std::string& state, const std::string& error) {
+  std::lock_guard lock(held_mutex_);
+  held_states_[id] = {state, error};
+}
+
+void Store::apply_held(JobRow& row) {
+  std::lock_guard lock(held_mutex_);
+  const auto it = held_states_.find(row.id);
+  if (it == held_states_.end()) return;
+  row.state = it->second.first;
+  row.error = it->second.second;
+  row.persisted = false;
 }
 
 double Store::seconds_since_first_start(Id id) {
@@ -339,10 +416,23 @@ double Store::seconds_since_first_start(Id id) {
 
 std::vector<JobRow> Store::jobs(const std::optional<std::string>& state) {
   auto r = reader();
+  bool any_held = false;
+  {
+    std::lock_guard lock(held_mutex_);
+    any_held = !held_states_.empty();
+  }
+  // With held states the file's state is not the one served: filter after.
   auto st = r(std::string(kJobColumns) + "WHERE (?1 IS NULL OR state = ?1) ORDER BY id");
-  st.bind_opt(1, state);
+  st.bind_opt(1, any_held ? std::nullopt : state);
   std::vector<JobRow> out;
-  while (st.step()) out.push_back(job_row(st));
+  while (st.step()) {
+    JobRow row = job_row(st);
+    if (any_held) {
+      apply_held(row);
+      if (state && row.state != *state) continue;
+    }
+    out.push_back(std::move(row));
+  }
   return out;
 }
 
@@ -356,7 +446,12 @@ bool Store::set_job_state_if(Id id, const std::optional<std::string>& from, cons
                      " ELSE finished_at END WHERE id = ?1 AND (?5 IS NULL OR state = ?5)")
       .bind(1, id).bind(2, state).bind(3, error ? 1 : 0).bind_opt(4, error).bind_opt(5, from)
       .run();
-  return sqlite3_changes(writer_->db) > 0;
+  const bool changed = sqlite3_changes(writer_->db) > 0;
+  if (changed) {
+    std::lock_guard held(held_mutex_);
+    held_states_.erase(id);  // the file has the state again
+  }
+  return changed;
 }
 
 void Store::set_job_state(Id id, const std::string& state, const std::optional<std::string>& error) {
@@ -543,17 +638,19 @@ std::optional<Json> Store::latest_fit(Id part_id) {
 
 Json to_json(const JobRow& j) {
   auto opt = [](const std::string& s) { return s.empty() ? Json(nullptr) : Json(s); };
-  return Json{{"job_id", j.id},
-              {"state", j.state},
-              {"plan", j.plan},
-              {"points_done", j.points_done},
-              {"points_total", j.points_total},
-              {"error", opt(j.error)},
-              {"submitted_by", {{"uid", j.submitted_uid}, {"pid", j.submitted_pid}}},
-              {"submitted_at", j.submitted_at},
-              {"started_at", opt(j.started_at)},
-              {"finished_at", opt(j.finished_at)},
-              {"updated_at", j.updated_at}};
+  Json out{{"job_id", j.id},
+           {"state", j.state},
+           {"plan", j.plan},
+           {"points_done", j.points_done},
+           {"points_total", j.points_total},
+           {"error", opt(j.error)},
+           {"submitted_by", {{"uid", j.submitted_uid}, {"pid", j.submitted_pid}}},
+           {"submitted_at", j.submitted_at},
+           {"started_at", opt(j.started_at)},
+           {"finished_at", opt(j.finished_at)},
+           {"updated_at", j.updated_at}};
+  if (!j.persisted) out["persisted"] = false;  // held in memory: the store could not write it
+  return out;
 }
 
 Json to_json(const RunRow& r) {

@@ -61,6 +61,9 @@ struct JobRow {
   int submitted_uid = -1;
   int submitted_pid = -1;
   std::string submitted_at, started_at, finished_at, updated_at;
+  // false: state and error are held in memory because the store could not
+  // write them (Store::hold_job_state); the file still has the old state.
+  bool persisted = true;
 };
 
 struct RunRow {
@@ -103,7 +106,9 @@ struct PartRow {
 
 class Store {
  public:
-  // Opens (creating parent directories and the file if needed) and migrates.
+  // Opens (creating parent directories and the file if needed), runs
+  // PRAGMA quick_check (a damaged file is refused: StoreError naming the file
+  // and SQLite's first complaint) and migrates.
   explicit Store(const std::filesystem::path& file);
   ~Store();
   Store(const Store&) = delete;
@@ -136,6 +141,11 @@ class Store {
   bool transition_job(Id id, const std::string& from, const std::string& to,
                       const std::optional<std::string>& error = std::nullopt);
   std::optional<Id> next_queued_job();
+  // A job state the store could not write (read-only file, disk full): kept
+  // in memory and served by job() and jobs() in place of the file's state
+  // (persisted = false) until a state write for that job succeeds. A restart
+  // forgets it and recovers the job from the file as usual.
+  void hold_job_state(Id id, const std::string& state, const std::string& error);
 
   // Returns the run of (job, part), creating it when absent.
   RunRow ensure_run(Id job_id, Id part_id, int slot, const Json& fixture, double temp_k);
@@ -163,6 +173,7 @@ class Store {
   void release(std::unique_ptr<Conn> conn);
   bool set_job_state_if(Id id, const std::optional<std::string>& from, const std::string& state,
                         const std::optional<std::string>& error);
+  void apply_held(JobRow& row);
 
   std::filesystem::path file_;
   std::unique_ptr<Conn> writer_;
@@ -174,6 +185,8 @@ class Store {
   std::mutex fit_cache_mutex_;
   std::uint64_t fit_generation_ = 0;
   std::unordered_map<Id, Json> fit_cache_;
+  std::mutex held_mutex_;
+  std::unordered_map<Id, std::pair<std::string, std::string>> held_states_;  // id → {state, error}
 };
 
 Json to_json(const JobRow& j);

@@ -7,6 +7,8 @@
 // kernel: the database directory is a read-only bind mount, or a small tmpfs,
 // inside a private mount namespace of the daemon (unshare -m); the test
 // enters that namespace with nsenter to change it under the running daemon.
+// Read-only under a running daemon: an ext4 image (loop device) forced
+// read-only by an injected file system error.
 #include "tests/support/campaign.hpp"
 
 #include <catch2/catch.hpp>
@@ -96,22 +98,39 @@ TEST_CASE("the database turns read-only under a running job: the job is not done
           "[storage]") {
   test::CampaignBench b("ro-mid", 6);
   const fs::path d = own_db_dir(b);
-  REQUIRE(b.start_daemon(in_namespace(d, "mount --bind \"$D\" \"$D\"")));
+  // The kernel refuses to remount read-only a file system that has files open
+  // for writing (EBUSY), and juncod keeps its database open. So the database
+  // lives on an ext4 image mounted errors=remount-ro, and an injected file
+  // system error (/sys/fs/ext4/DEV/trigger_fs_error) turns it read-only under
+  // the daemon, as a failing disk would. Mounted in the test's own namespace
+  // (SQLite cannot open a file through /proc/PID/root: it resolves the
+  // symlink), lazily unmounted on the way out.
+  const fs::path img = b.dir() / "db.img";
+  REQUIRE(sh("truncate -s 16M '" + img.string() + "' && mkfs.ext4 -q '" + img.string() + "'") == 0);
+  REQUIRE(sh("mount -o loop,errors=remount-ro '" + img.string() + "' '" + d.string() + "'") == 0);
+  struct Unmount {
+    fs::path dir;
+    ~Unmount() { sh("umount -l '" + dir.string() + "'"); }
+  } unmount{d};
+  REQUIRE(b.start_daemon());
   const long job = b.rpc("job.submit", {{"plan", test::campaign_plan("STORE-B", 1, 2, 400)}})["job_id"];
   // Let some points commit, then remount read-only under the daemon.
   for (int i = 0; i < 500 && b.rpc("job.get", {{"job_id", job}})["points_done"].get<long>() < 20; ++i) std::this_thread::sleep_for(5ms);
-  REQUIRE(sh("nsenter -t " + std::to_string(b.daemon()->pid()) + " -m mount -o remount,bind,ro '" + d.string() + "'") == 0);
-  const long at_fault = test::committed_points(d / "junco.db");
+  REQUIRE(sh("echo 1 > /sys/fs/ext4/$(basename $(findmnt -n -o SOURCE '" + d.string() + "'))/trigger_fs_error") == 0);
+  const fs::path db = d / "junco.db";
+  const long at_fault = test::committed_points(db);
+  REQUIRE(at_fault >= 0);
   const Json j = wait_settled(b, job, 20s);
   INFO(j.dump());
   CHECK(j["state"] != "done");
   CHECK(j["state"] != "running");  // the client is told the job stopped, not left waiting
-  CHECK(j["error"].get<std::string>().find("readonly") != std::string::npos);
+  const std::string error = j["error"].is_string() ? j["error"].get<std::string>() : "";
+  CHECK(error.find("readonly") + error.find("read-only") != 2 * std::string::npos);  // as at start
   CHECK_FALSE(b.source_on());
   CHECK(b.scanner_slot() == 0);
   // Nothing was reported that the file does not hold.
-  CHECK(j["points_done"].get<long>() <= test::committed_points(d / "junco.db"));
-  CHECK(test::committed_points(d / "junco.db") >= at_fault);
+  CHECK(j["points_done"].get<long>() <= test::committed_points(db));
+  CHECK(test::committed_points(db) >= at_fault);
   // A new submission is refused with an error, not accepted into a store that cannot keep it.
   const Json r = b.call("job.submit", {{"plan", test::campaign_plan("STORE-B2", 3, 1, 5)}});
   INFO(r.dump());

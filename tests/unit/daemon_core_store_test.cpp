@@ -11,7 +11,10 @@
 #include <sys/wait.h>
 #include <unistd.h>
 
+#include <cstdio>
 #include <filesystem>
+#include <string>
+#include <vector>
 
 using namespace junco::daemon;
 namespace fs = std::filesystem;
@@ -177,4 +180,92 @@ TEST_CASE("readings committed by a process killed with SIGKILL survive") {
   REQUIRE(static_cast<long>(pts.size()) >= last_reported + 1);
   for (std::size_t k = 0; k < pts.size(); ++k) CHECK(pts[k].seq == static_cast<long>(k));  // no gaps, no duplicates
   CHECK(s.job(job_id)->points_done == static_cast<long>(pts.size()));  // counter committed with each reading
+}
+
+TEST_CASE("a damaged page is refused at open: PRAGMA quick_check, the file named in one line") {
+  TempDir dir;
+  const fs::path db = dir.path / "junco.db";
+  {
+    Store s(db);
+    const Id job = s.insert_job(plan_json(), 400, 1000, 42);
+    const Id part = s.ensure_part(s.ensure_lot("QX-7"), "QX-7-01", 1);
+    const RunRow run = s.ensure_run(job, part, 1, Json::object(), 300.15);
+    std::vector<PointRow> step;
+    for (long k = 0; k < 400; ++k) {
+      PointRow p;
+      p.run_id = run.id;
+      p.seq = k;
+      p.v = 0.5 + 1e-3 * static_cast<double>(k);
+      p.i_a = 1e-6 * static_cast<double>(k);
+      step.push_back(p);
+    }
+    s.insert_points(job, step);
+  }  // last connection closed: checkpointed, the file is all there is
+  REQUIRE_FALSE(fs::exists(dir.path / "junco.db-wal"));
+  REQUIRE(fs::file_size(db) > 6 * 4096);
+  { Store again(db); }  // healthy: opens
+
+  // A table page in the middle of the file overwritten with junk (a bad sector, a stray write).
+  {
+    sqlite3* h = nullptr;
+    REQUIRE(sqlite3_open_v2(db.c_str(), &h, SQLITE_OPEN_READONLY, nullptr) == SQLITE_OK);
+    sqlite3_stmt* st = nullptr;
+    REQUIRE(sqlite3_prepare_v2(h, "PRAGMA page_size", -1, &st, nullptr) == SQLITE_OK);
+    REQUIRE(sqlite3_step(st) == SQLITE_ROW);
+    const long page_size = sqlite3_column_int(st, 0);
+    sqlite3_finalize(st);
+    sqlite3_close(h);
+    std::FILE* f = std::fopen(db.c_str(), "r+b");
+    REQUIRE(f);
+    const long pages = static_cast<long>(fs::file_size(db)) / page_size;
+    std::fseek(f, (pages - 2) * page_size, SEEK_SET);  // one of the points table's leaves
+    std::string junk(static_cast<std::size_t>(page_size), '\0');
+    for (std::size_t k = 0; k < junk.size(); ++k) junk[k] = static_cast<char>(0x5A ^ (k * 17));
+    REQUIRE(std::fwrite(junk.data(), 1, junk.size(), f) == junk.size());
+    std::fclose(f);
+  }
+  std::string what;
+  try {
+    Store broken(db);
+  } catch (const StoreError& e) {
+    what = e.what();
+  }
+  INFO(what);
+  REQUIRE_FALSE(what.empty());
+  CHECK(what.rfind(db.string() + ": ", 0) == 0);
+  CHECK(what.find("quick_check") != std::string::npos);
+  CHECK((what.find("malformed") != std::string::npos || what.find("corrupt") != std::string::npos));
+  CHECK(what.find('\n') == std::string::npos);
+}
+
+TEST_CASE("a job state the store could not write is held in memory and served until a write succeeds") {
+  TempDir dir;
+  Store s(dir.path / "junco.db");
+  const Id a = s.insert_job(plan_json(), 10, 1000, 42);
+  const Id b = s.insert_job(plan_json(), 10, 1000, 43);
+  s.set_job_state(a, "running");
+  s.set_job_state(b, "running");
+  s.hold_job_state(a, "paused", "storage: attempt to write a readonly database");
+  const auto held = s.job(a);
+  REQUIRE(held);
+  CHECK(held->state == "paused");
+  CHECK(held->error == "storage: attempt to write a readonly database");
+  CHECK_FALSE(held->persisted);
+  const Json j = to_json(*held);
+  CHECK(j["persisted"] == false);
+  CHECK(j["state"] == "paused");
+  CHECK_FALSE(to_json(*s.job(b)).contains("persisted"));
+  // The file still has the old state; the lists serve the held one.
+  CHECK(count_rows(dir.path / "junco.db", "SELECT COUNT(*) FROM jobs WHERE state = 'running'") == 2);
+  const auto running = s.jobs(std::string("running"));
+  REQUIRE(running.size() == 1);
+  CHECK(running[0].id == b);
+  const auto paused = s.jobs(std::string("paused"));
+  REQUIRE(paused.size() == 1);
+  CHECK(paused[0].id == a);
+  CHECK(s.jobs(std::nullopt).size() == 2);
+  // A state written for that job replaces the held one.
+  s.set_job_state(a, "queued");
+  CHECK(s.job(a)->state == "queued");
+  CHECK(s.job(a)->persisted);
 }
