@@ -42,13 +42,28 @@ std::string Bench::make_safe() noexcept {
   return errors;
 }
 
+namespace {
+
+template <typename Role, typename Open>
+void open_role(const Config& config, const char* role, Open open, std::unique_ptr<Role>& slot, std::vector<std::string>& missing) {
+  const auto* ic = config.instrument(role);
+  if (!ic) return;  // optional role not configured
+  try {
+    slot = open(spec_of(*ic));
+  } catch (const std::exception& e) {
+    missing.push_back(std::string(role) + ": " + e.what());
+  }
+}
+
+}  // namespace
+
 std::unique_ptr<Bench> open_bench(const Config& config) {
   auto b = std::make_unique<Bench>();
-  b->source = drivers::open_source(spec_of(*config.instrument("source")));
-  b->meter = drivers::open_meter(spec_of(*config.instrument("meter")));
-  b->scanner = drivers::open_scanner(spec_of(*config.instrument("scanner")));
-  if (const auto* g = config.instrument("siggen")) b->siggen = drivers::open_signal_gen(spec_of(*g));
-  if (const auto* l = config.instrument("levelmeter")) b->levelmeter = drivers::open_level_meter(spec_of(*l));
+  open_role(config, "source", drivers::open_source, b->source, b->missing);
+  open_role(config, "meter", drivers::open_meter, b->meter, b->missing);
+  open_role(config, "scanner", drivers::open_scanner, b->scanner, b->missing);
+  open_role(config, "siggen", drivers::open_signal_gen, b->siggen, b->missing);
+  open_role(config, "levelmeter", drivers::open_level_meter, b->levelmeter, b->missing);
   return b;
 }
 

@@ -10,6 +10,7 @@
 #include <memory>
 #include <string>
 #include <string_view>
+#include <vector>
 
 namespace junco::daemon {
 
@@ -19,6 +20,9 @@ struct Bench {
   std::unique_ptr<drivers::Scanner> scanner;
   std::unique_ptr<drivers::SignalGen> siggen;         // may be null
   std::unique_ptr<drivers::LevelMeter> levelmeter;    // may be null
+  // Instruments of the config that could not be opened ("scanner: why");
+  // a bench with any is incomplete: it can be made safe, never run a job.
+  std::vector<std::string> missing;
 
   // Supply output off, generator output off, scanner open — in that order
   // (never switch relays with current flowing). Every step is attempted even
@@ -26,8 +30,10 @@ struct Bench {
   std::string make_safe() noexcept;
 };
 
-// Opens every instrument of config.bench through drivers/factory.hpp.
-// Throws drivers::DriverError when one cannot be opened.
+// Opens every instrument of config.bench through drivers/factory.hpp, each
+// on its own: one that does not answer is listed in Bench::missing and the
+// others stay usable, so a supply left on by a killed daemon can be turned
+// off even while, say, the scanner is mute.
 std::unique_ptr<Bench> open_bench(const Config& config);
 
 }  // namespace junco::daemon

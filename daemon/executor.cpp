@@ -373,7 +373,18 @@ Json Executor::identities() const {
 bool Executor::ensure_bench() {
   if (bench_) return true;
   try {
-    bench_ = open_(config_);
+    auto opened = open_(config_);
+    if (!opened->missing.empty()) {
+      // Make safe what answers, then give the rest back: no job on a partial bench.
+      const std::string errors = opened->make_safe();
+      std::string why;
+      for (const auto& m : opened->missing) why += (why.empty() ? "" : "; ") + m;
+      log_bench_problem("bench: cannot open: " + why + (errors.empty() ? " (the others are safe)" : "; also: " + errors));
+      unsafe_ = true;  // the missing ones may still be on: keep retrying
+      unsafe_errors_ = why;
+      return false;
+    }
+    bench_ = std::move(opened);
     bench_open_ = true;
     last_bench_problem_.clear();
     identify();

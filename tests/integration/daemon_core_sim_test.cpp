@@ -11,7 +11,9 @@
 #include <cmath>
 #include <filesystem>
 #include <set>
+#include <mutex>
 #include <thread>
+#include <vector>
 
 using namespace junco::daemon;
 using namespace std::chrono_literals;
@@ -211,4 +213,51 @@ TEST_CASE("a meter that stops answering pauses the job with outputs off; resumed
   // Current-targeted steps land near their targets.
   const double i_mid = pts[30]["i_a"].get<double>(), target = pts[30]["set_value"].get<double>();
   CHECK(i_mid == Approx(target).epsilon(0.05));
+}
+
+TEST_CASE("a supply left on is turned off at start even while the scanner is mute") {
+  // A daemon killed mid-sweep leaves the supply on; the next one must turn it
+  // off first, whatever else on the bench fails to answer.
+  junco::test::SimProcess sim({"--seed", "4", "--settle-ms", "0"});
+  {
+    junco::test::LineClient supply(sim.endpoint("source"));
+    const bool scpi = sim.family("source") == "scpi-source";
+    supply.send(scpi ? "CURR 0.05" : "ISET 0.05");
+    supply.send(scpi ? "VOLT 2" : "VSET 2");
+    supply.send(scpi ? "OUTP ON" : "OUT 1");
+    REQUIRE(supply.query("*OPC?"));
+  }
+  REQUIRE(sim.control("state?")["source"]["output_on"].get<bool>());
+  sim.control("fault scanner silent");
+
+  TempDir dir;
+  std::vector<std::string> lines;
+  std::mutex m;
+  ServiceOptions o;
+  o.log = [&](std::string_view line) {
+    std::lock_guard lock(m);
+    lines.emplace_back(line);
+  };
+  auto svc = make_service(config_for(sim, dir.path), o);
+  const auto until = std::chrono::steady_clock::now() + 10s;
+  while (sim.control("state?")["source"]["output_on"].get<bool>() && std::chrono::steady_clock::now() < until)
+    std::this_thread::sleep_for(50ms);
+  CHECK_FALSE(sim.control("state?")["source"]["output_on"].get<bool>());
+  {
+    std::lock_guard lock(m);
+    bool named = false;
+    for (const auto& l : lines) named = named || (l.find("cannot open") != std::string::npos && l.find("scanner") != std::string::npos);
+    CHECK(named);  // the log says which instrument is missing
+  }
+  // Once the scanner answers, the bench opens whole and is made safe.
+  sim.control("fault scanner clear");
+  const auto until2 = std::chrono::steady_clock::now() + 10s;
+  bool retried = false;
+  while (!retried && std::chrono::steady_clock::now() < until2) {
+    std::this_thread::sleep_for(100ms);
+    std::lock_guard lock(m);
+    for (const auto& l : lines) retried = retried || l.find("make-safe retried") != std::string::npos;
+  }
+  CHECK(retried);
+  svc->shutdown();
 }
