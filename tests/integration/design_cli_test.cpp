@@ -108,7 +108,7 @@ TEST_CASE("junco plot renders SVGs with labelled axes, and a PNG") {
       {"plot ac --readings " + d.file("ac.csv") + " --model " + d.file("m.json") + " --out " + d.file("ac.svg"),
        d.file("ac.svg"), {"bias current I (A)", "(dB)"}},
       {"plot lot " + d.file("m.json") + " " + d.file("m2.json") + " --out " + d.file("lot.svg"), d.file("lot.svg"),
-       {"IS (A)", "N (1)", "part index"}},
+       {"IS (A)", "N (1)", "DM-01", "DM-02"}},
   };
   for (const auto& c : cases) {
     const auto r = run_junco(c.args);

@@ -144,24 +144,42 @@ int plot_ac(std::map<std::string, std::string>& o) {
   return exit_ok;
 }
 
+// A part label as one whitespace-free, quote-free token of a data block row
+// (it becomes the x tick label).
+std::string tick_label(const std::string& label) {
+  std::string t;
+  for (char c : label) t += (c == '"' || c == '\'' || static_cast<unsigned char>(c) <= ' ') ? '_' : c;
+  return t.empty() ? "?" : t;
+}
+
+// "index value standard-error label"; an undetermined error draws no bar.
+std::string lot_row(int k, double value, double se, const std::string& label) {
+  char buf[160];
+  std::snprintf(buf, sizeof buf, "%d %.9g %.9g \"%s\"\n", k, value, std::isfinite(se) ? se : 0.0, tick_label(label).c_str());
+  return buf;
+}
+
 int plot_lot(const std::vector<std::string>& files, std::map<std::string, std::string>& o) {
   std::string is, n, rs, lot;
   int k = 0;
   for (const auto& f : files) {
     const auto m = load_model(f);
     lot = m.lot;
-    is += row(k, m.params.is_a);
-    n += row(k, m.params.n);
-    rs += row(k, m.params.rs_ohm);
+    is += lot_row(k, m.params.is_a, m.is_se_a, m.part_label);
+    n += lot_row(k, m.params.n, m.n_se, m.part_label);
+    rs += lot_row(k, m.params.rs_ohm, m.rs_se_ohm, m.part_label);
     ++k;
   }
   PlotJob job{o["out"], {is, n, rs}, "", 800, 900};
+  const std::string range = "set xrange [-0.5:" + std::to_string(k) + "-0.5]\n";
+  const std::string points = " using 1:2:3:xtic(4) with yerrorbars pt 7 lw 1.5\n";
   job.body = "set multiplot layout 3,1 title " +
-             gnuplot_literal("lot " + lot + ": spread of the fitted parameters (" + std::to_string(k) + " parts)") +
-             " noenhanced\nset xlabel 'part index'\nset key off\n"
-             "set logscale y\nset format y '10^{%L}'\nset ylabel 'IS (A)'\nplot $d0 using 1:2 with points pt 7\n"
-             "unset logscale y\nset format y '%g'\nset ylabel 'N (1)'\nplot $d1 using 1:2 with points pt 7\n"
-             "set ylabel 'RS ({/Symbol W})'\nplot $d2 using 1:2 with points pt 7\nunset multiplot";
+             gnuplot_literal("lot " + lot + ": spread of the fitted parameters (" + std::to_string(k) +
+                             " parts, bars: ± 1 standard error)") +
+             " noenhanced\n" + range + "set xtics rotate by -30 noenhanced\nset key off\n"
+             "set logscale y\nset format y '10^{%L}'\nset ylabel 'IS (A)'\nplot $d0" + points +
+             "unset logscale y\nset format y '%g'\nset ylabel 'N (1)'\nplot $d1" + points +
+             "set ylabel 'RS ({/Symbol W})'\nset xlabel 'part'\nplot $d2" + points + "unset multiplot";
   const auto err = run_gnuplot(job);
   if (!err.empty()) throw std::runtime_error(err);
   return exit_ok;
