@@ -189,7 +189,7 @@ Config parse_config(const std::string& text, const fs::path& file) {
   Json doc;
   try {
     doc = Json::parse(text, nullptr, true, true);
-  } catch (const Json::parse_error& e) {
+  } catch (const Json::exception& e) {  // parse_error, and out_of_range for numbers that overflow
     // nlohmann's message carries line and column; drop its "[json.exception...]" prefix.
     std::string what = e.what();
     if (auto pos = what.find("] "); pos != std::string::npos) what = what.substr(pos + 2);

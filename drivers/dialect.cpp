@@ -256,7 +256,7 @@ Dialect parse_dialect(std::string_view text, const std::string& origin) {
   json root;
   try {
     root = json::parse(text, nullptr, true, /*ignore_comments=*/true);
-  } catch (const json::parse_error& e) {
+  } catch (const json::exception& e) {  // parse_error, and out_of_range for numbers that overflow
     // nlohmann's message already gives line and column.
     throw DriverError(ErrorKind::config, origin + ": not valid JSON: " + e.what());
   }

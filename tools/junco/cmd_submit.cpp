@@ -42,7 +42,7 @@ Json read_plan(const std::string& path) {
   text << in.rdbuf();
   try {
     return Json::parse(text.str(), nullptr, true, /*ignore_comments=*/true);
-  } catch (const Json::parse_error& e) {
+  } catch (const Json::exception& e) {  // parse_error, and out_of_range for numbers that overflow
     throw std::invalid_argument(path + ": not valid JSON: " + e.what());
   }
 }
