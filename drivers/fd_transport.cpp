@@ -63,17 +63,8 @@ std::size_t FdTransport::read_some(char* buf, std::size_t size, long wait_ms) {
 
 std::string FdTransport::read_message(std::chrono::milliseconds deadline_ms) {
   if (fd_ < 0) throw DriverError(ErrorKind::disconnected, describe() + ": not open");
-  auto deadline = std::chrono::steady_clock::now() + deadline_ms;
-  char buf[4096];
-  while (true) {
-    if (auto message = framer_.next()) return *message;
-    long left = remaining_ms(deadline);
-    if (left == 0)
-      throw DriverError(ErrorKind::timeout,
-                        describe() + ": no complete reply within " + std::to_string(deadline_ms.count()) + " ms");
-    std::size_t n = read_some(buf, sizeof buf, left);
-    framer_.feed(std::string_view(buf, n));
-  }
+  return read_framed(framer_, deadline_ms, describe(),
+                     [this](char* buf, std::size_t size, long left) { return read_some(buf, size, left); });
 }
 
 void FdTransport::close() {

@@ -32,19 +32,12 @@ class SerialTransport final : public Transport {
 
   std::string read_message(std::chrono::milliseconds deadline_ms) override {
     ensure_open();
-    auto deadline = std::chrono::steady_clock::now() + deadline_ms;
-    char buf[4096];
-    while (true) {
-      if (auto message = framer_.next()) return *message;
-      long left = remaining_ms(deadline);
-      if (left == 0)
-        throw DriverError(ErrorKind::timeout,
-                          describe() + ": no complete reply within " + std::to_string(deadline_ms.count()) + " ms");
-      // A timeout of 0 would mean "wait forever" to libserialport.
-      sp_return n = sp_blocking_read_next(port_, buf, sizeof buf, static_cast<unsigned>(left));
+    return read_framed(framer_, deadline_ms, describe(), [this](char* buf, std::size_t size, long left) {
+      // A timeout of 0 would mean "wait forever" to libserialport; left is ≥ 1 here.
+      const sp_return n = sp_blocking_read_next(port_, buf, size, static_cast<unsigned>(left));
       if (n < 0) fail("read");
-      framer_.feed(std::string_view(buf, static_cast<std::size_t>(n)));
-    }
+      return static_cast<std::size_t>(n);
+    });
   }
 
   void close() override {

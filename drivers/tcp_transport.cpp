@@ -38,25 +38,18 @@ class TcpTransport final : public Transport {
 
   std::string read_message(std::chrono::milliseconds deadline_ms) override {
     ensure_open();
-    auto deadline = std::chrono::steady_clock::now() + deadline_ms;
-    char buf[4096];
-    while (true) {
-      if (auto message = framer_.next()) return *message;
-      long left = remaining_ms(deadline);
-      if (left == 0)
-        throw DriverError(ErrorKind::timeout,
-                          describe() + ": no complete reply within " + std::to_string(deadline_ms.count()) + " ms");
+    return read_framed(framer_, deadline_ms, describe(), [this](char* buf, std::size_t size, long left) {
       boost::system::error_code result = asio::error::would_block;
       std::size_t got = 0;
-      socket_.async_read_some(asio::buffer(buf), [&](const boost::system::error_code& ec, std::size_t n) {
+      socket_.async_read_some(asio::buffer(buf, size), [&](const boost::system::error_code& ec, std::size_t n) {
         result = ec;
         got = n;
       });
       run_for(std::chrono::milliseconds(left));
-      framer_.feed(std::string_view(buf, got));
-      if (result == asio::error::would_block || result == asio::error::operation_aborted) continue;
-      if (result) fail(result, "read");
-    }
+      if (!result || result == asio::error::would_block || result == asio::error::operation_aborted) return got;
+      framer_.feed(std::string_view(buf, got));  // keep what arrived with the error
+      fail(result, "read");
+    });
   }
 
   void close() override {

@@ -25,6 +25,19 @@ long remaining_ms(std::chrono::steady_clock::time_point deadline) {
   return left.count() > 0 ? static_cast<long>(left.count()) : 0;
 }
 
+std::string read_framed(LineFramer& framer, std::chrono::milliseconds deadline_ms, const std::string& who,
+                        const std::function<std::size_t(char* buf, std::size_t size, long left_ms)>& read_some) {
+  const auto deadline = std::chrono::steady_clock::now() + deadline_ms;
+  char buf[4096];
+  while (true) {
+    if (auto message = framer.next()) return *message;
+    const long left = remaining_ms(deadline);
+    if (left == 0)
+      throw DriverError(ErrorKind::timeout, who + ": no complete reply within " + std::to_string(deadline_ms.count()) + " ms");
+    framer.feed(std::string_view(buf, read_some(buf, sizeof buf, left)));
+  }
+}
+
 }  // namespace detail
 
 std::unique_ptr<Transport> open_transport(std::string_view address, const TransportOptions& options) {
