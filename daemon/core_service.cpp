@@ -3,6 +3,7 @@
 #include "daemon/bench.hpp"
 #include "daemon/event_bus.hpp"
 #include "daemon/executor.hpp"
+#include "daemon/part_analysis.hpp"
 #include "daemon/part_export.hpp"
 #include "daemon/jobs.hpp"
 #include "daemon/plan.hpp"
@@ -61,7 +62,9 @@ const std::map<std::string, std::set<std::string>>& known_params() {
       {"job.pause", {"job_id"}},       {"job.resume", {"job_id"}},       {"lot.list", {}},
       {"part.list", {"lot"}},          {"part.readings", {"part_id", "run_id"}},
       {"part.fit", {"part_id"}},       {"part.figures", {"part_id", "currents_a"}},
-      {"part.export", {"part_id", "format"}}};
+      {"part.export", {"part_id", "format"}},
+      {"part.design", {"part_id", "calculator", "inputs"}},
+      {"part.transfer", {"part_id", "run_id", "ac_sigma_db", "cj_f"}}};
   return table;
 }
 
@@ -138,6 +141,8 @@ class CoreService final : public Service {
     table_["part.fit"] = [this](const Json& p, const Caller&) { return fit_of(id_param(p, "part_id")); };
     table_["part.figures"] = [this](const Json& p, const Caller&) { return figures(p); };
     table_["part.export"] = [this](const Json& p, const Caller&) { return export_part(p); };
+    table_["part.design"] = [this](const Json& p, const Caller&) { return design(p); };
+    table_["part.transfer"] = [this](const Json& p, const Caller&) { return transfer(p); };
   }
 
   Json status() {
@@ -206,19 +211,72 @@ class CoreService final : public Service {
     return *p;
   }
 
-  Json readings(const Json& params) {
-    const PartRow part = part_or_throw(id_param(params, "part_id"));
+  // The run asked for, else the part's latest; nullopt when it has none.
+  std::optional<RunRow> run_of(const PartRow& part, const Json& params) {
     const auto run_id = opt_id_param(params, "run_id");
-    const auto runs = store_.runs_of_part(part.id);
-    const RunRow* run = nullptr;
-    for (const auto& r : runs)
-      if (!run_id || r.id == *run_id) run = &r;  // latest unless asked
+    std::optional<RunRow> run;
+    for (const auto& r : store_.runs_of_part(part.id))
+      if (!run_id || r.id == *run_id) run = r;  // latest unless asked
     if (run_id && !run)
       throw RequestError(RpcCode::not_found, "no run " + std::to_string(*run_id) + " for part " + std::to_string(part.id), Json{{"run_id", *run_id}});
+    return run;
+  }
+
+  Json readings(const Json& params) {
+    const PartRow part = part_or_throw(id_param(params, "part_id"));
+    const auto run = run_of(part, params);
     Json points = Json::array();
     if (run)
       for (const auto& pt : store_.points(run->id)) points.push_back(to_json(pt));
     return {{"part", to_json(part)}, {"run", run ? to_json(*run) : Json(nullptr)}, {"points", points}};
+  }
+
+  Json usable_fit(const PartRow& part, const char* purpose) {
+    const auto fit = store_.latest_fit(part.id);
+    if (!fit || !fit_result_from_json(*fit).usable())
+      throw RequestError(RpcCode::not_found, "part " + std::to_string(part.id) + " has no usable fit " + purpose, Json{{"part_id", part.id}});
+    return *fit;
+  }
+
+  static double opt_number_param(const Json& params, const char* key, double fallback, bool allow_zero) {
+    if (!params.contains(key) || params[key].is_null()) return fallback;
+    const Json& v = params[key];
+    if (!v.is_number() || !std::isfinite(v.get<double>()) || v.get<double>() < 0 || (!allow_zero && v.get<double>() == 0))
+      throw RequestError(RpcCode::invalid_params, std::string(key) + (allow_zero ? ": must be a number >= 0" : ": must be a number > 0"),
+                         Json{{"field", key}});
+    return v.get<double>();
+  }
+
+  // A design calculator on the latest usable fit (fitting/design_calculators.hpp).
+  Json design(const Json& params) {
+    const PartRow part = part_or_throw(id_param(params, "part_id"));
+    const auto calculator = opt_string_param(params, "calculator");
+    if (!calculator) throw RequestError(RpcCode::invalid_params, "calculator: missing (required)", Json{{"field", "calculator"}});
+    const Json inputs = params.contains("inputs") ? params["inputs"] : Json::object();
+    const Json fit = usable_fit(part, "to design with");
+    const fitting::DesignPart dp = design_part(part, fit);
+    try {
+      Json answer = fitting::run_design(*calculator, &dp, inputs);
+      answer["part_id"] = part.id;
+      answer["fit_id"] = fit.value("fit_id", Json());
+      return answer;
+    } catch (const fitting::DesignInputError& e) {
+      const bool top = e.field() == "calculator" || e.field() == "inputs";
+      const std::string field = top ? e.field() : "inputs." + e.field();
+      throw RequestError(RpcCode::invalid_params, (top ? "" : "inputs.") + std::string(e.what()), Json{{"field", field}});
+    }
+  }
+
+  // The AC readings of a run against the model of the latest fit, and the joint AC+DC fit.
+  Json transfer(const Json& params) {
+    const PartRow part = part_or_throw(id_param(params, "part_id"));
+    TransferOptions o;
+    o.ac_sigma_db = opt_number_param(params, "ac_sigma_db", o.ac_sigma_db, false);
+    o.cj_f = opt_number_param(params, "cj_f", o.cj_f, true);
+    const auto run = run_of(part, params);
+    if (!run) throw RequestError(RpcCode::not_found, "part " + std::to_string(part.id) + " has no run", Json{{"part_id", part.id}});
+    const Json fit = usable_fit(part, "to model the transfer with");
+    return transfer_report(part, *run, fit, store_.points(run->id), o);
   }
 
   Json fit_of(Id part_id) {
@@ -259,11 +317,8 @@ class CoreService final : public Service {
     const auto format = opt_string_param(params, "format");
     if (!format) throw RequestError(RpcCode::invalid_params, "format: missing (required)", Json{{"field", "format"}});
     if (*format == "json" || *format == "spice") {
-      const auto fit = store_.latest_fit(part.id);
-      if (!fit || !fit_result_from_json(*fit).usable())
-        throw RequestError(RpcCode::not_found, "part " + std::to_string(part.id) + " has no usable fit to export as a model",
-                           Json{{"part_id", part.id}});
-      return {{"format", *format}, {"content", *format == "json" ? export_model_json(part, *fit) : export_spice(part, *fit)}};
+      const Json fit = usable_fit(part, "to export as a model");
+      return {{"format", *format}, {"content", *format == "json" ? export_model_json(part, fit) : export_spice(part, fit)}};
     }
     if (*format == "csv") return {{"format", "csv"}, {"content", export_csv(readings(Json{{"part_id", part.id}})["points"])}};
     if (*format == "iv-csv" || *format == "ac-csv") {

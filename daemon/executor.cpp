@@ -13,7 +13,6 @@ namespace {
 
 using Clock = std::chrono::steady_clock;
 
-constexpr int flag_power_limit = 8;  // v·i above max_power_w: excluded, sweep stops going up
 constexpr int kStopFlags = flag_current_limit | flag_power_limit;
 // Current-targeted steps: corrections of the supply voltage per step, and
 // the tolerance that ends them (common practice, no source).

@@ -1,5 +1,7 @@
 #include "daemon/part_export.hpp"
 
+#include "daemon/part_analysis.hpp"
+
 #include "fitting/design_readings_csv.hpp"
 #include "fitting/model_document.hpp"
 
@@ -74,17 +76,7 @@ std::string export_iv_csv(const std::vector<PointRow>& points) {
   return fitting::iv_readings_csv(iv);
 }
 
-std::string export_ac_csv(const std::vector<PointRow>& points) {
-  std::vector<fitting::AcPoint> ac;
-  double bias_i_a = kNaN;  // the DC reading of the step the AC readings belong to
-  for (const auto& p : points) {
-    if (p.kind == "dc") bias_i_a = p.i_a;
-    else if (p.kind != "ac") bias_i_a = kNaN;
-    else if (std::isfinite(bias_i_a) && std::isfinite(p.freq_hz) && std::isfinite(p.ac_in_v) && std::isfinite(p.ac_out_v))
-      ac.push_back({bias_i_a, p.freq_hz, p.ac_in_v, p.ac_out_v});
-  }
-  return fitting::ac_readings_csv(ac);
-}
+std::string export_ac_csv(const std::vector<PointRow>& points) { return fitting::ac_readings_csv(ac_points(points)); }
 
 fitting::FitResult fit_result_from_json(const Json& fit) {
   fitting::FitResult r;

@@ -49,6 +49,7 @@ enum PointFlag : int {
   flag_current_limit = 1,  // supply was regulating current: excluded from fits
   flag_retried = 2,        // taken after a transient fault was retried
   flag_off_target = 4,     // current-targeted step missed its target by > 5 %
+  flag_power_limit = 8,    // v·i above max_power_w: excluded from fits, the sweep stops going up
 };
 
 struct JobRow {

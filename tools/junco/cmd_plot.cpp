@@ -1,10 +1,13 @@
-// junco plot: offline plots from a CSV of readings and a JSON model document.
+// junco plot: plots of a part's readings and fit, its AC transfer, and a
+// lot's spread; from files (a readings CSV and a JSON model document) or
+// straight from juncod (--part, --lot), which exports the same documents.
 #include "fitting/design_readings_csv.hpp"
 #include "fitting/lot_stats.hpp"
 #include "fitting/model_document.hpp"
 #include "fitting/transfer.hpp"
 #include "tools/junco/command.hpp"
 #include "tools/junco/plot_gnuplot.hpp"
+#include "tools/junco/rpc_client.hpp"
 
 #include <cmath>
 #include <cstdio>
@@ -20,10 +23,13 @@ namespace {
 using namespace junco::fitting;
 
 const char* const help =
-    "usage: junco plot iv  --readings IV.csv --model MODEL.json --out FILE.svg|.png\n"
-    "       junco plot ac  --readings AC.csv --model MODEL.json --out FILE [--rg OHM] [--rl OHM]\n"
+    "usage: junco plot iv  (--part PART | --readings IV.csv --model MODEL.json) --out FILE.svg|.png\n"
+    "       junco plot ac  (--part PART | --readings AC.csv --model MODEL.json) --out FILE [--rg OHM] [--rl OHM]\n"
     "                      [--rbias OHM] [--rreturn OHM]\n"
-    "       junco plot lot MODEL.json... --out FILE\n\n"
+    "       junco plot lot (--lot NAME | MODEL.json...) --out FILE\n\n"
+    "--part PART (id or label, with --lot NAME when a label is in several lots) and\n"
+    "--lot NAME read the readings and fits from juncod (--socket PATH, see junco status\n"
+    "--help); for ac the fixture is the one stored with the run.\n"
     "iv:  forward current (log axis) against voltage, readings and the model, and the voltage\n"
     "     residual (mV) of each reading against the model. CSV header: v,i_a\n"
     "ac:  fixture gain Vout/Vin (dB) against bias current, measured and modelled.\n"
@@ -39,19 +45,42 @@ std::string slurp(const std::string& path) {
   return ss.str();
 }
 
-PartModel load_model(const std::string& path) {
+PartModel parse_model(const std::string& text, const std::string& where) {
   std::string why;
-  auto m = parse_model_document(slurp(path), &why);
-  if (!m) throw std::runtime_error(path + ": " + why);
+  auto m = parse_model_document(text, &why);
+  if (!m) throw std::runtime_error(where + ": " + why);
   return *m;
 }
 
-ReadingsTable load_readings(const std::string& path) {
+ReadingsTable parse_readings(const std::string& text, const std::string& where) {
   std::string why;
-  auto t = parse_readings_csv(slurp(path), &why);
-  if (!t) throw std::runtime_error(path + ": " + why);
+  auto t = parse_readings_csv(text, &why);
+  if (!t) throw std::runtime_error(where + ": " + why);
   return *t;
 }
+
+// Where a plot's documents come from: the files named on the command line,
+// or juncod's exports of a stored part (the same formats).
+struct Source {
+  std::map<std::string, std::string>& o;
+  std::optional<RpcClient> client;
+  long part_id = 0;
+
+  Source(std::map<std::string, std::string>& options, const std::string& socket) : o(options) {
+    if (!o.count("part")) return;
+    client.emplace(socket);
+    part_id = resolve_part(*client, o["part"], o.count("lot") ? std::optional<std::string>(o["lot"]) : std::nullopt);
+  }
+  bool daemon() const { return client.has_value(); }
+  std::string where(const char* what) const { return daemon() ? "part " + std::to_string(part_id) + " " + what : o.at(what); }
+  std::string exported(const char* format) {
+    return client->call("part.export", Json{{"part_id", part_id}, {"format", format}}).value("content", "");
+  }
+  PartModel model() { return parse_model(daemon() ? exported("json") : slurp(o["model"]), where("model")); }
+  ReadingsTable readings(const char* format) {
+    return parse_readings(daemon() ? exported(format) : slurp(o["readings"]), where("readings"));
+  }
+};
 
 std::string row(double a, double b) {
   char buf[64];
@@ -63,10 +92,11 @@ std::string title_of(const PartModel& m) {
   return "part " + m.part_label + (m.lot.empty() ? std::string() : ", lot " + m.lot);
 }
 
-int plot_iv(std::map<std::string, std::string>& o) {
-  const auto m = load_model(o["model"]);
-  const auto t = load_readings(o["readings"]);
-  if (t.iv.empty()) throw std::runtime_error("no forward readings (v,i_a) in " + o["readings"]);
+int plot_iv(Source& src) {
+  auto& o = src.o;
+  const auto m = src.model();
+  const auto t = src.readings("iv-csv");
+  if (t.iv.empty()) throw std::runtime_error("no forward readings (v,i_a) in " + src.where("readings"));
   // Readings the fit leaves out (reverse, below the noise floor) are drawn
   // apart and kept out of the residual panel, as the fit report lists them.
   FitOptions fit_rules;
@@ -85,7 +115,7 @@ int plot_iv(std::map<std::string, std::string>& o) {
     i_lo = std::min(i_lo, p.i_a);
     i_hi = std::max(i_hi, p.i_a);
   }
-  if (meas.empty()) throw std::runtime_error("no forward readings above the noise floor in " + o["readings"]);
+  if (meas.empty()) throw std::runtime_error("no forward readings above the noise floor in " + src.where("readings"));
   for (int k = 0; k <= 200; ++k) {
     const double i = i_lo * std::pow(i_hi / i_lo, k / 200.0);
     model += row(diode_voltage_v(m.params, i, m.temp_k), i);
@@ -116,11 +146,18 @@ double number(std::map<std::string, std::string>& o, const char* key, double fal
   return o.count(key) ? std::stod(o[key]) : fallback;
 }
 
-int plot_ac(std::map<std::string, std::string>& o) {
-  const auto m = load_model(o["model"]);
-  const auto t = load_readings(o["readings"]);
-  if (t.ac.empty()) throw std::runtime_error("no AC readings (bias_i_a,freq_hz,vin,vout) in " + o["readings"]);
+int plot_ac(Source& src) {
+  auto& o = src.o;
+  const auto m = src.model();
+  const auto t = src.readings("ac-csv");
+  if (t.ac.empty()) throw std::runtime_error("no AC readings (bias_i_a,freq_hz,vin,vout) in " + src.where("readings"));
   Fixture fx{number(o, "rg", 50), number(o, "rl", 50), number(o, "rbias", no_shunt_ohm), number(o, "rreturn", no_shunt_ohm)};
+  if (src.daemon()) {  // the fixture stored with the run, unless overridden here
+    const Json f = src.client->call("part.transfer", Json{{"part_id", src.part_id}})["fixture"];
+    if (!o.count("rl")) fx.rl_ohm = f["rl_ohm"].get<double>();
+    if (!o.count("rg")) fx.rg_ohm = f["rg_ohm"].get<double>();
+    if (!o.count("rreturn") && f["dc_return_ohm"].is_number()) fx.dc_return_ohm = f["dc_return_ohm"].get<double>();
+  }
   const AcPart part{m.params, std::isfinite(m.cj0_f) ? m.cj0_f : 0.0};
   std::string meas, model;
   double i_lo = 1e300, i_hi = 0, freq = t.ac.front().freq_hz;
@@ -159,11 +196,27 @@ std::string lot_row(int k, double value, double se, const std::string& label) {
   return buf;
 }
 
-int plot_lot(const std::vector<std::string>& files, std::map<std::string, std::string>& o) {
+// The model documents of a lot's parts that have a usable fit, from juncod.
+std::vector<PartModel> lot_from_daemon(const std::string& socket, const std::string& lot) {
+  RpcClient client(socket);
+  std::vector<PartModel> models;
+  for (const auto& p : client.call("part.list", Json{{"lot", lot}}).value("parts", Json::array())) {
+    const long id = p.value("part_id", 0L);
+    try {
+      const std::string text = client.call("part.export", Json{{"part_id", id}, {"format", "json"}}).value("content", "");
+      models.push_back(parse_model(text, "part " + std::to_string(id)));
+    } catch (const RpcError& e) {
+      std::fprintf(stderr, "junco plot lot: leaving out part %s: %s\n", p.value("label", "?").c_str(), e.what());
+    }
+  }
+  if (models.empty()) throw std::runtime_error("no fitted parts in lot '" + lot + "'");
+  return models;
+}
+
+int plot_lot(const std::vector<PartModel>& models, std::map<std::string, std::string>& o) {
   std::string is, n, rs, lot;
   int k = 0;
-  for (const auto& f : files) {
-    const auto m = load_model(f);
+  for (const auto& m : models) {
     lot = m.lot;
     is += lot_row(k, m.params.is_a, m.is_se_a, m.part_label);
     n += lot_row(k, m.params.n, m.n_se, m.part_label);
@@ -185,9 +238,16 @@ int plot_lot(const std::vector<std::string>& files, std::map<std::string, std::s
   return exit_ok;
 }
 
-int run(const std::vector<std::string>& args) {
+int run(std::vector<std::string> args) {
   if (args.empty()) {
     std::fprintf(stderr, "junco plot: which plot? (iv, ac, lot; junco plot --help)\n");
+    return exit_usage;
+  }
+  std::string socket;
+  try {
+    socket = take_socket_option(args);
+  } catch (const std::invalid_argument& e) {
+    std::fprintf(stderr, "junco plot: %s\n", e.what());
     return exit_usage;
   }
   std::map<std::string, std::string> o;
@@ -214,16 +274,35 @@ int run(const std::vector<std::string>& args) {
     return true;
   };
   try {
-    if (kind == "iv") return need({"readings", "model", "out"}) ? plot_iv(o) : exit_usage;
-    if (kind == "ac") return need({"readings", "model", "out"}) ? plot_ac(o) : exit_usage;
-    if (kind == "lot") {
-      if (files.empty()) {
-        std::fprintf(stderr, "junco plot lot: give the parts' model documents\n");
+    if (kind == "iv" || kind == "ac") {
+      if (o.count("part") && (o.count("readings") || o.count("model"))) {
+        std::fprintf(stderr, "junco plot %s: give --part, or --readings and --model, not both\n", kind.c_str());
         return exit_usage;
       }
-      return need({"out"}) ? plot_lot(files, o) : exit_usage;
+      if (!need(o.count("part") ? std::initializer_list<const char*>{"out"} : std::initializer_list<const char*>{"readings", "model", "out"}))
+        return exit_usage;
+      Source src(o, socket);
+      return kind == "iv" ? plot_iv(src) : plot_ac(src);
     }
-  } catch (const std::runtime_error& e) {
+    if (kind == "lot") {
+      if (files.empty() == !o.count("lot")) {
+        std::fprintf(stderr, "junco plot lot: give the parts' model documents, or --lot NAME (from juncod)\n");
+        return exit_usage;
+      }
+      if (!need({"out"})) return exit_usage;
+      std::vector<PartModel> models;
+      if (o.count("lot")) models = lot_from_daemon(socket, o["lot"]);
+      else
+        for (const auto& f : files) models.push_back(parse_model(slurp(f), f));
+      return plot_lot(models, o);
+    }
+  } catch (const ConnectError& e) {
+    std::fprintf(stderr, "junco plot %s: %s\n", kind.c_str(), e.what());
+    return exit_failure;
+  } catch (const RpcError& e) {
+    std::fprintf(stderr, "junco plot %s: juncod: %s\n", kind.c_str(), e.what());
+    return exit_failure;
+  } catch (const std::exception& e) {  // unreadable file or document, bad option value, unknown part
     std::fprintf(stderr, "junco plot %s: %s\n", kind.c_str(), e.what());
     return exit_usage;
   }

@@ -35,22 +35,6 @@ examples:
 
 exit status: 0 shown; 1 unknown part, no usable fit, or daemon error; 2 bad options.)";
 
-long resolve_part(RpcClient& client, const std::string& text, const std::optional<std::string>& lot) {
-  if (!text.empty() && text.find_first_not_of("0123456789") == std::string::npos) return parse_id(text, "PART");
-  Json params = Json::object();
-  if (lot) params["lot"] = *lot;
-  long found = 0;
-  int matches = 0;
-  for (const auto& p : client.call("part.list", params).value("parts", Json::array()))
-    if (p.value("label", "") == text) {
-      found = p.value("part_id", 0L);
-      ++matches;
-    }
-  if (matches == 0) throw std::runtime_error("no part labelled '" + text + "'" + (lot ? " in lot " + *lot : ""));
-  if (matches > 1) throw std::invalid_argument("label '" + text + "' is used in several lots; add --lot NAME");
-  return found;
-}
-
 std::string estimate(const Json& e, const std::string& unit) {
   if (!e.is_object() || !e["value"].is_number()) return "not determined";
   const auto fmt = [&](double x, int digits) {

@@ -222,6 +222,22 @@ int guarded(const std::string& command, const std::function<int()>& body) {
   }
 }
 
+long resolve_part(RpcClient& client, const std::string& text, const std::optional<std::string>& lot) {
+  if (!text.empty() && text.find_first_not_of("0123456789") == std::string::npos) return parse_id(text, "PART");
+  Json params = Json::object();
+  if (lot) params["lot"] = *lot;
+  long found = 0;
+  int matches = 0;
+  for (const auto& p : client.call("part.list", params).value("parts", Json::array()))
+    if (p.value("label", "") == text) {
+      found = p.value("part_id", 0L);
+      ++matches;
+    }
+  if (matches == 0) throw std::runtime_error("no part labelled '" + text + "'" + (lot ? " in lot " + *lot : ""));
+  if (matches > 1) throw std::invalid_argument("label '" + text + "' is used in several lots; add --lot NAME");
+  return found;
+}
+
 long parse_id(const std::string& text, const std::string& what) {
   std::size_t used = 0;
   long id = 0;

@@ -95,6 +95,11 @@ int guarded(const std::string& command, const std::function<int()>& body);
 // Parses a job or part id given on the command line ("12"); throws std::invalid_argument.
 long parse_id(const std::string& text, const std::string& what);
 
+// A part given on the command line: an id ("12") or a label ("WR-03"); a
+// label used in several lots needs the lot. Throws std::runtime_error for no
+// such part, std::invalid_argument for an ambiguous label.
+long resolve_part(RpcClient& client, const std::string& text, const std::optional<std::string>& lot);
+
 // Follows a job until it ends (cmd_watch.cpp): a live progress bar on a
 // terminal, plain lines otherwise. Returns 0 when the job is done, 1 when it
 // failed, was cancelled or interrupted.

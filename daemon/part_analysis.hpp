@@ -1,0 +1,39 @@
+// What the daemon computes from a stored part beyond its fit: design
+// calculators on the latest fit (part.design) and the AC transfer of a run
+// against the model, with the joint AC+DC fit (part.transfer).
+#pragma once
+
+#include "daemon/store.hpp"
+#include "fitting/design_calculators.hpp"
+#include "fitting/design_joint_fit.hpp"
+#include "fitting/transfer.hpp"
+
+#include <vector>
+
+namespace junco::daemon {
+
+// A run's readings as the fits take them. DC: forward readings not taken in
+// current or power limit. AC: each AC reading with the current of the DC
+// reading of its bias step (the step's readings share one transaction).
+std::vector<fitting::IvPoint> dc_fit_points(const std::vector<PointRow>& points);
+std::vector<fitting::AcPoint> ac_points(const std::vector<PointRow>& points);
+
+// The small-signal fixture of a run, from the fixture JSON stored with it:
+// Vout/Vin sees the load and the DC return (0 Ω = a choke, open at AC). The
+// bias feed and the source do not enter the ratio (ch1 is the anode node).
+fitting::Fixture ac_fixture(const Json& run_fixture);
+
+// The latest fit as the calculators take it ("WR-03 (lot WREN-0912, fit 7)").
+fitting::DesignPart design_part(const PartRow& part, const Json& fit);
+
+struct TransferOptions {
+  double ac_sigma_db = 0.01;  // standard uncertainty of one AC ratio reading
+  double cj_f = 0.0;          // junction capacitance for the AC model (0: ignored)
+};
+
+// part.transfer's result: per-point measured/model/residual, their RMS, and
+// the DC-only and joint fits with the agreement verdict (null without AC readings).
+Json transfer_report(const PartRow& part, const RunRow& run, const Json& fit, const std::vector<PointRow>& points,
+                     const TransferOptions& options);
+
+}  // namespace junco::daemon

@@ -1,0 +1,376 @@
+#include "fitting/design_calculators.hpp"
+
+#include "fitting/design_bias.hpp"
+#include "fitting/design_distortion.hpp"
+#include "fitting/transfer.hpp"
+
+#include <cmath>
+#include <functional>
+#include <limits>
+#include <map>
+
+namespace junco::fitting {
+
+namespace {
+
+using Json = nlohmann::json;
+constexpr double inf = std::numeric_limits<double>::infinity();
+
+DesignInputSpec required(std::string key, std::string option, std::string unit, std::string label, InputRange range) {
+  return {std::move(key), std::move(option), std::move(unit), std::move(label), std::nullopt, false, range, {}, {}};
+}
+DesignInputSpec with_default(std::string key, std::string option, std::string unit, std::string label, double fallback,
+                             InputRange range, std::string infinite_text = {}) {
+  return {std::move(key), std::move(option), std::move(unit), std::move(label), fallback, false, range, {}, std::move(infinite_text)};
+}
+DesignInputSpec optional_input(std::string key, std::string option, std::string unit, std::string label, InputRange range) {
+  return {std::move(key), std::move(option), std::move(unit), std::move(label), std::nullopt, true, range, {}, {}};
+}
+DesignInputSpec switch_input() { return {"switch", "switch", "", "switch", std::nullopt, false, InputRange::any, {"series", "shunt"}, {}}; }
+
+// Circuit values shared by the AC calculators.
+std::vector<DesignInputSpec> circuit_inputs(bool with_freq) {
+  std::vector<DesignInputSpec> v{with_default("rg_ohm", "rg", "Ohm", "source Rg", 50.0, InputRange::positive),
+                                 with_default("rl_ohm", "rl", "Ohm", "load RL", 50.0, InputRange::positive)};
+  if (with_freq) {
+    v.push_back(with_default("freq_hz", "freq", "Hz", "frequency", 10e6, InputRange::positive));
+    v.push_back(with_default("ls_h", "ls", "H", "series L", 0.0, InputRange::non_negative));
+  }
+  return v;
+}
+
+std::vector<DesignInputSpec> join(std::vector<DesignInputSpec> a, const std::vector<DesignInputSpec>& b) {
+  a.insert(a.end(), b.begin(), b.end());
+  return a;
+}
+
+// What one run of a calculator sees: the checked inputs, and the answer it builds.
+class Run {
+ public:
+  Run(const DesignCalculator& calc, const DesignPart* part, const Json& inputs) : calc_(calc), part_(part) {
+    if (!inputs.is_null() && !inputs.is_object())
+      throw DesignInputError("inputs", std::string("inputs must be an object, not ") + inputs.type_name());
+    std::vector<const DesignInputSpec*> specs;
+    for (const auto& s : calc.inputs) specs.push_back(&s);
+    if (calc.needs_part)
+      for (const auto& s : design_part_inputs()) specs.push_back(&s);
+    if (inputs.is_object())
+      for (const auto& [key, value] : inputs.items()) {
+        (void)value;
+        bool known = false;
+        for (const auto* s : specs) known = known || s->key == key;
+        if (!known) throw DesignInputError(key, key + ": not an input of the " + calc.name + " calculator");
+      }
+    for (const auto* s : specs) read(*s, inputs);
+    answer_["calculator"] = calc.name;
+    answer_["assumed"] = Json::array();
+    answer_["result"] = Json::array();
+    answer_["achievable"] = true;
+    answer_["reason"] = "";
+    answer_["warnings"] = Json::array();
+    answer_["failures"] = Json::array();
+    if (calc.needs_part) {
+      if (!part_) throw DesignInputError("part", "the " + calc.name + " calculator needs a part");
+      part_copy_ = *part_;
+      if (has("cj0_f")) part_copy_.cap.cj0_f = number("cj0_f");
+      if (has("vj_v")) part_copy_.cap.vj_v = number("vj_v");
+      if (has("m")) part_copy_.cap.m = number("m");
+      if (has("temp_k")) part_copy_.temp_k = number("temp_k");
+      if (!(part_copy_.dc.is_a > 0 && part_copy_.dc.n > 0 && part_copy_.dc.rs_ohm >= 0))
+        throw DesignInputError("part", "the part needs Is > 0, n > 0 and Rs >= 0");
+      answer_["part"] = design_part_json(part_copy_);
+    }
+  }
+
+  const DesignPart& part() const { return part_copy_; }
+  bool has(const std::string& key) const { return numbers_.count(key) != 0; }
+  double number(const std::string& key) const { return numbers_.at(key); }
+  const std::string& text(const std::string& key) const { return texts_.at(key); }
+  SwitchKind kind() const { return text("switch") == "series" ? SwitchKind::series : SwitchKind::shunt; }
+
+  // Echoes an input into "assumed" (in the table's order when called in order).
+  void assumed(const std::string& key) {
+    const DesignInputSpec* spec = nullptr;
+    for (const auto& s : calc_.inputs) spec = s.key == key ? &s : spec;
+    for (const auto& s : design_part_inputs()) spec = s.key == key ? &s : spec;
+    Json line{{"key", key}, {"label", spec->label}, {"unit", spec->unit}};
+    if (!spec->choices.empty()) {
+      line["value"] = nullptr;
+      line["text"] = text(key);
+    } else if (!has(key)) {
+      line["value"] = nullptr;
+      line["text"] = "not given";
+    } else if (!std::isfinite(number(key))) {
+      line["value"] = nullptr;
+      line["text"] = spec->infinite_text;
+    } else {
+      line["value"] = number(key);
+    }
+    answer_["assumed"].push_back(std::move(line));
+  }
+  void assume_all() {
+    for (const auto& s : calc_.inputs) assumed(s.key);
+  }
+  void result(const std::string& key, const std::string& label, double value, const std::string& unit) {
+    answer_["result"].push_back({{"key", key}, {"label", label}, {"unit", unit}, {"value", std::isfinite(value) ? Json(value) : Json(nullptr)}});
+  }
+  void not_achievable(const std::string& why) {
+    answer_["achievable"] = false;
+    answer_["reason"] = why;
+  }
+  void warn(const std::string& w) { answer_["warnings"].push_back(w); }
+  void fail(const std::string& f) { answer_["failures"].push_back(f); }
+  Json take() { return std::move(answer_); }
+
+ private:
+  void read(const DesignInputSpec& s, const Json& inputs) {
+    const bool given = inputs.is_object() && inputs.contains(s.key) && !inputs.at(s.key).is_null();
+    if (!s.choices.empty()) {
+      std::string t = s.choices.front();
+      if (given) {
+        const Json& v = inputs.at(s.key);
+        if (!v.is_string()) throw DesignInputError(s.key, s.key + ": must be a string");
+        t = v.get<std::string>();
+        bool ok = false;
+        std::string list;
+        for (const auto& c : s.choices) {
+          ok = ok || c == t;
+          list += (list.empty() ? "" : " or ") + c;
+        }
+        if (!ok) throw DesignInputError(s.key, s.key + ": must be " + list + ", got '" + t + "'");
+      }
+      texts_[s.key] = t;
+      return;
+    }
+    if (!given) {
+      if (s.fallback) numbers_[s.key] = *s.fallback;
+      else if (!s.optional) throw DesignInputError(s.key, s.key + ": missing (required by the " + calc_.name + " calculator)");
+      return;
+    }
+    const Json& v = inputs.at(s.key);
+    if (!v.is_number()) throw DesignInputError(s.key, s.key + ": must be a number, not " + std::string(v.type_name()));
+    const double x = v.get<double>();
+    if (!std::isfinite(x)) throw DesignInputError(s.key, s.key + ": must be finite");
+    if (s.range == InputRange::positive && !(x > 0)) throw DesignInputError(s.key, s.key + ": must be > 0");
+    if (s.range == InputRange::non_negative && !(x >= 0)) throw DesignInputError(s.key, s.key + ": must be >= 0");
+    numbers_[s.key] = x;
+  }
+
+  const DesignCalculator& calc_;
+  const DesignPart* part_;
+  DesignPart part_copy_;
+  std::map<std::string, double> numbers_;
+  std::map<std::string, std::string> texts_;
+  Json answer_;
+};
+
+// ---- the calculators --------------------------------------------------------
+
+void op(Run& r) {
+  r.assume_all();
+  const auto& p = r.part();
+  const auto o = operating_point(p.dc, r.number("supply_v"), r.number("rbias_ohm"), r.number("rreturn_ohm"), p.temp_k);
+  r.result("bias_current_a", "bias current", o.i_a, "A");
+  r.result("diode_voltage_v", "diode voltage", o.vd_v, "V");
+  r.result("resistor_drop_v", "resistor drop", o.v_rb_v, "V");
+  r.result("rd_ohm", "rd (small-sig)", o.rd_ohm, "Ohm");
+}
+
+void bias_r(Run& r) {
+  r.assume_all();
+  const auto& p = r.part();
+  std::string why;
+  const auto rb = bias_resistor_ohm(p.dc, r.number("supply_v"), r.number("current_a"), r.number("rreturn_ohm"), p.temp_k, &why);
+  if (!rb) return r.not_achievable(why);
+  r.result("bias_resistor_ohm", "bias resistor", *rb, "Ohm");
+  r.result("diode_voltage_v", "diode voltage", diode_voltage_v(p.dc, r.number("current_a"), p.temp_k), "V");
+}
+
+Parasitics series_l(const Run& r) { return {r.number("ls_h"), 0.0}; }
+
+void loss(Run& r) {
+  r.assume_all();
+  const auto& p = r.part();
+  const double db = on_state_loss_db(r.kind(), p.dc, r.number("current_a"), r.number("rg_ohm"), r.number("rl_ohm"),
+                                     r.number("freq_hz"), series_l(r), p.temp_k);
+  if (r.kind() == SwitchKind::series) r.result("loss_db", "insertion loss (biased series switch)", db, "dB");
+  else r.result("loss_db", "isolation (biased shunt switch)", db, "dB");
+}
+
+void bias_for_loss(Run& r) {
+  r.assume_all();
+  const auto& p = r.part();
+  std::string why;
+  const auto i = bias_for_loss_a(r.kind(), p.dc, r.number("target_db"), r.number("rg_ohm"), r.number("rl_ohm"),
+                                 r.number("freq_hz"), series_l(r), p.temp_k, &why);
+  if (!i) return r.not_achievable(why);
+  r.result("bias_current_a", "bias current", *i, "A");
+  if (!r.has("supply_v")) return;
+  const auto rb = bias_resistor_ohm(p.dc, r.number("supply_v"), *i, 0.0, p.temp_k, &why);
+  if (!rb) return r.not_achievable(why);
+  r.result("bias_resistor_ohm", "bias resistor (or less)", *rb, "Ohm");
+}
+
+void headroom(Run& r) {
+  r.assume_all();
+  const auto h = drive_headroom(r.number("amplitude_v"), r.number("rl_ohm"), r.number("rreturn_ohm"), r.number("floor_a"));
+  r.result("signal_peak_a", "signal peak through the diode", h.signal_peak_a, "A");
+  r.result("min_bias_a", "minimum bias (series switch stays forward-biased)", h.min_bias_a, "A");
+}
+
+DistortionInput distortion_input(const Run& r) {
+  DistortionInput in;
+  in.part = r.part().dc;
+  in.temp_k = r.part().temp_k;
+  in.source_peak_v = r.number("amplitude_v");
+  in.rg_ohm = r.number("rg_ohm");
+  in.rl_ohm = r.number("rl_ohm");
+  return in;
+}
+
+void harmonics(Run& r, const DistortionResult& d) {
+  r.result("load_peak_v", "load fundamental (peak)", d.load_peak_v, "V");
+  r.result("hd2_dbc", "HD2", d.load.dbc[2], "dBc");
+  r.result("hd3_dbc", "HD3", d.load.dbc[3], "dBc");
+  r.result("thd_pct", "THD", 100 * d.load.thd, "%");
+  r.result("thd_db", "THD", d.load.thd_db(), "dB");
+  r.result("min_current_a", "diode current, trough", d.min_current_a, "A");
+  r.result("max_current_a", "diode current, crest", d.max_current_a, "A");
+  if (d.min_current_a <= 0) r.warn("the diode turns off in the trough (clipping); raise the bias");
+}
+
+void distortion(Run& r) {
+  r.assume_all();
+  auto in = distortion_input(r);
+  in.bias_i_a = r.number("current_a");
+  harmonics(r, solve_distortion(in));
+}
+
+void bias_for_thd(Run& r) {
+  r.assume_all();
+  auto in = distortion_input(r);
+  std::string why;
+  const auto i = bias_for_thd_a(in, r.number("target_pct") / 100.0, &why);
+  if (!i) return r.not_achievable(why);
+  in.bias_i_a = *i;
+  r.result("least_bias_a", "least bias", *i, "A");
+  harmonics(r, solve_distortion(in));
+}
+
+void isolation(Run& r) {
+  const auto& p = r.part();
+  if (!(p.cap.cj0_f > 0))
+    throw DesignInputError("cj0_f", "isolation needs the junction capacitance: give cj0_f (--cj), or a model that has it");
+  r.assume_all();
+  const double cj = junction_capacitance_f(p.cap, -r.number("reverse_v"));
+  const auto z = off_impedance(cj, r.number("freq_hz"), {r.number("ls_h"), r.number("rr_ohm")});
+  const double db = switch_loss_db(r.kind(), z, r.number("rg_ohm"), r.number("rl_ohm"));
+  r.result("cj_f", "Cj at the reverse bias", cj, "F");
+  if (r.kind() == SwitchKind::series) r.result("isolation_db", "isolation (unbiased series switch)", db, "dB");
+  else r.result("isolation_db", "insertion loss (unbiased shunt switch)", db, "dB");
+}
+
+void power(Run& r) {
+  r.assume_all();
+  const auto& p = r.part();
+  const double rb = r.number("rbias_ohm");
+  const auto o = operating_point(p.dc, r.number("supply_v"), rb, 0.0, p.temp_k);
+  const PowerLimits lim{r.has("max_diode_w") ? r.number("max_diode_w") : 0.0, r.has("max_resistor_w") ? r.number("max_resistor_w") : 0.0, 0.8};
+  const auto c = check_power(o, rb, r.number("signal_peak_a"), lim);
+  r.result("bias_current_a", "bias current", o.i_a, "A");
+  r.result("diode_power_w", "diode power", c.diode_w, "W");
+  r.result("resistor_power_w", "resistor power", c.resistor_w, "W");
+  for (const auto& w : c.warnings) r.warn(w);
+  for (const auto& f : c.failures) r.fail(f);
+}
+
+const std::map<std::string, std::function<void(Run&)>>& bodies() {
+  static const std::map<std::string, std::function<void(Run&)>> table{
+      {"op", op},           {"bias-r", bias_r},         {"loss", loss},   {"bias-for-loss", bias_for_loss},
+      {"headroom", headroom}, {"distortion", distortion}, {"bias-for-thd", bias_for_thd},
+      {"isolation", isolation}, {"power", power}};
+  return table;
+}
+
+}  // namespace
+
+const std::vector<DesignInputSpec>& design_part_inputs() {
+  static const std::vector<DesignInputSpec> v{
+      optional_input("cj0_f", "cj", "F", "zero-bias Cj", InputRange::positive),
+      optional_input("vj_v", "vj", "V", "junction potential VJ", InputRange::positive),
+      optional_input("m", "m", "", "grading coefficient M", InputRange::positive),
+      optional_input("temp_k", "temp", "K", "junction temperature", InputRange::positive)};
+  return v;
+}
+
+const std::vector<DesignCalculator>& design_calculators() {
+  using R = InputRange;
+  static const std::vector<DesignCalculator> table{
+      {"op", "operating point: supply and bias resistor -> bias current and diode voltage (exact, Lambert W)", true,
+       {required("supply_v", "supply", "V", "supply", R::positive), required("rbias_ohm", "rbias", "Ohm", "bias resistor", R::non_negative),
+        with_default("rreturn_ohm", "rreturn", "Ohm", "DC return", 0.0, R::non_negative)}},
+      {"bias-r", "bias resistor for a target current: Rb = (Vs - Vd(I))/I - Rr", true,
+       {required("supply_v", "supply", "V", "supply", R::positive), required("current_a", "current", "A", "target current", R::positive),
+        with_default("rreturn_ohm", "rreturn", "Ohm", "DC return", 0.0, R::non_negative)}},
+      {"loss", "biased-state loss at a bias current: insertion loss (series) or isolation (shunt)", true,
+       join({switch_input(), required("current_a", "current", "A", "bias current", R::positive)}, circuit_inputs(true))},
+      {"bias-for-loss", "bias current (and resistor, given a supply) for a target biased-state loss", true,
+       join({switch_input(), required("target_db", "target", "dB", "target loss", R::positive),
+             optional_input("supply_v", "supply", "V", "supply", R::positive)},
+            circuit_inputs(true))},
+      {"headroom", "least bias that keeps a series switch conducting over the signal swing", false,
+       {required("amplitude_v", "amplitude", "V", "load peak", R::positive),
+        with_default("rl_ohm", "rl", "Ohm", "load RL", 50.0, R::positive),
+        with_default("rreturn_ohm", "rreturn", "Ohm", "DC return", inf, R::positive, "choke (no AC shunt)"),
+        with_default("floor_a", "floor", "A", "trough floor", 0.0, R::non_negative)}},
+      {"distortion", "HD2, HD3 and THD at a bias and amplitude (time-domain solve of the nonlinear circuit)", true,
+       join({required("current_a", "current", "A", "bias current", R::positive),
+             required("amplitude_v", "amplitude", "V", "EMF peak", R::positive)},
+            circuit_inputs(false))},
+      {"bias-for-thd", "least bias for a target THD at an amplitude", true,
+       join({required("target_pct", "target", "%", "target THD", R::positive), required("amplitude_v", "amplitude", "V", "EMF peak", R::positive)},
+            circuit_inputs(false))},
+      {"isolation", "off state from the junction capacitance Cj(V): isolation (series) or loss (shunt)", true,
+       join({switch_input(), with_default("reverse_v", "reverse", "V", "reverse bias", 0.0, R::non_negative),
+             with_default("rr_ohm", "rr", "Ohm", "off resistance", 0.0, R::non_negative)},
+            circuit_inputs(true))},
+      {"power", "dissipation in the part and the bias resistor, against limits (warn at 80 %, fail above)", true,
+       {required("supply_v", "supply", "V", "supply", R::positive), required("rbias_ohm", "rbias", "Ohm", "bias resistor", R::non_negative),
+        with_default("signal_peak_a", "signal-peak", "A", "signal peak", 0.0, R::non_negative),
+        optional_input("max_diode_w", "max-diode", "W", "diode limit", R::positive),
+        optional_input("max_resistor_w", "max-resistor", "W", "resistor limit", R::positive)}},
+  };
+  return table;
+}
+
+const DesignCalculator* find_design_calculator(const std::string& name) {
+  for (const auto& c : design_calculators())
+    if (c.name == name) return &c;
+  return nullptr;
+}
+
+Json design_part_json(const DesignPart& p) {
+  Json j{{"label", p.label}, {"is_a", p.dc.is_a}, {"n", p.dc.n}, {"rs_ohm", p.dc.rs_ohm}, {"temp_k", p.temp_k}};
+  if (p.cap.cj0_f > 0) {
+    j["cj0_f"] = p.cap.cj0_f;
+    j["vj_v"] = p.cap.vj_v;
+    j["m"] = p.cap.m;
+  } else {
+    j["cj0_f"] = nullptr;
+  }
+  return j;
+}
+
+Json run_design(const std::string& calculator, const DesignPart* part, const Json& inputs) {
+  const DesignCalculator* calc = find_design_calculator(calculator);
+  if (!calc) {
+    std::string names;
+    for (const auto& c : design_calculators()) names += (names.empty() ? "" : ", ") + c.name;
+    throw DesignInputError("calculator", "unknown calculator '" + calculator + "' (one of: " + names + ")");
+  }
+  Run run(*calc, part, inputs);
+  bodies().at(calc->name)(run);
+  return run.take();
+}
+
+}  // namespace junco::fitting

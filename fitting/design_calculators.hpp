@@ -1,0 +1,86 @@
+// The design calculators as one table. Each calculator names its inputs
+// (SI units, defaults, allowed range), runs on a DesignPart and answers with
+// named, labelled values. `junco design` builds its options and help from
+// this table and the daemon's part.design method validates its params with
+// it, so the command line and the socket take the same inputs and give the
+// same answers.
+//
+// Inputs and answers are JSON documents (schema/api/part.design.json):
+//   inputs  {"supply_v": 5, "rbias_ohm": 390, "switch": "series", ...}
+//   answer  {"calculator", "part", "assumed": [line...], "result": [line...],
+//            "achievable", "reason", "warnings", "failures"}
+//   line    {"key", "label", "unit", "value"} (+ "text" for a choice, or for
+//            a value with no number such as "choke (no AC shunt)")
+// Every input the calculator used appears in "assumed", defaults included.
+#pragma once
+
+#include "fitting/diode.hpp"
+#include "fitting/design_switch.hpp"
+
+#include <nlohmann/json.hpp>
+
+#include <optional>
+#include <stdexcept>
+#include <string>
+#include <vector>
+
+namespace junco::fitting {
+
+// The part a calculator works on: a fit (from a model document, the store or
+// explicit values) and, when known, its junction capacitance law.
+struct DesignPart {
+  std::string label = "(explicit parameters)";
+  DiodeParams dc;
+  double temp_k = 300.15;
+  JunctionCap cap;  // cj0_f = 0: unknown
+};
+
+enum class InputRange { any, positive, non_negative };
+
+struct DesignInputSpec {
+  std::string key;     // JSON key, SI unit in the name ("supply_v")
+  std::string option;  // command-line option without the dashes ("supply")
+  std::string unit;    // "V", "A", "Ohm", "Hz", "H", "W", "F", "dB", "%", "" (none)
+  std::string label;   // as printed ("supply")
+  std::optional<double> fallback;      // nullopt and !optional: required
+  bool optional = false;               // may be absent, with no default (the calculator decides)
+  InputRange range = InputRange::any;
+  std::vector<std::string> choices;    // non-empty: a text choice, choices[0] the default
+  std::string infinite_text;           // how an infinite fallback reads ("choke (no AC shunt)")
+};
+
+struct DesignCalculator {
+  std::string name;      // "op", "bias-r", ...
+  std::string synopsis;  // one line for --help
+  bool needs_part = true;
+  std::vector<DesignInputSpec> inputs;  // the part overrides (part_inputs()) come on top when needs_part
+};
+
+// A bad or missing input, naming it (field = the JSON key).
+class DesignInputError : public std::invalid_argument {
+ public:
+  DesignInputError(std::string field, const std::string& message)
+      : std::invalid_argument(message), field_(std::move(field)) {}
+  const std::string& field() const { return field_; }
+
+ private:
+  std::string field_;
+};
+
+const std::vector<DesignCalculator>& design_calculators();
+const DesignCalculator* find_design_calculator(const std::string& name);
+
+// Inputs every part-based calculator also takes: they override the part's
+// junction capacitance law (cj0_f, vj_v, m) and temperature (temp_k).
+const std::vector<DesignInputSpec>& design_part_inputs();
+
+// Runs a calculator. part may be null only for calculators that do not need
+// one. Throws DesignInputError for an unknown calculator or input, a missing
+// required one, a value of the wrong type or outside its range. A target that
+// cannot be met is not an error: achievable = false and reason say why.
+nlohmann::json run_design(const std::string& calculator, const DesignPart* part, const nlohmann::json& inputs);
+
+// The part as the answer reports it (SPICE names, SI units).
+nlohmann::json design_part_json(const DesignPart& part);
+
+}  // namespace junco::fitting

@@ -1,0 +1,156 @@
+// junco transfer PART: a run's AC readings against the model of the part's
+// fit, and the joint AC+DC fit with its verdict (juncod's part.transfer).
+#include "tools/junco/command.hpp"
+#include "tools/junco/rpc_client.hpp"
+
+#include <cmath>
+#include <cstdio>
+#include <map>
+
+namespace junco::cli {
+namespace {
+
+const char* const usage = R"(usage: junco transfer PART [--run ID] [--sigma DB] [--cj F] [--points] [--lot NAME] [--socket PATH] [--json]
+
+Compares the AC readings of a part's run (the fixture gain Vout/Vin, in dB)
+with the small-signal model of its latest fit: the diode as Rs + n·Vt/I
+(parallel Cj when given) between the fixture input and the load. Then fits
+Is, n and Rs to the DC curve and the AC readings together and says whether
+that joint fit agrees with the DC-only one within their uncertainties: the AC
+readings pin Rs and n through the dynamic resistance, the DC curve pins Is.
+A disagreement with a larger AC Rs is the mark of self-heating at the top of
+the DC sweep.
+
+options:
+  --run ID       the run (default: the part's latest)
+  --sigma DB     uncertainty of one AC reading (default 0.01 dB)
+  --cj F         junction capacitance for the model, e.g. 2pF (default: none)
+  --points       list every reading, not just the summary per frequency
+  --lot NAME     the lot of a PART given by label
+  --socket PATH  juncod's socket (see junco status --help)
+  --json         print juncod's part.transfer result as JSON
+
+example:
+  junco transfer WR-03 --cj 2pF --points
+
+exit status: 0 shown (agreeing or not); 1 unknown part, no AC readings or fit, or daemon error; 2 bad options.)";
+
+double num(const Json& j) { return j.is_number() ? j.get<double>() : std::nan(""); }
+
+std::string estimate(const Json& e, const std::string& unit) {
+  if (!e.is_object() || !e["value"].is_number()) return "not determined";
+  const auto fmt = [&](double x, int digits) {
+    if (!unit.empty()) return format_si(x, unit, digits);
+    char t[32];
+    std::snprintf(t, sizeof t, "%.*g", digits, x);
+    return std::string(t);
+  };
+  std::string text = fmt(e["value"].get<double>(), 5);
+  if (e["std_error"].is_number()) text += " ± " + fmt(e["std_error"].get<double>(), 2);
+  return text;
+}
+
+// Pads to `width` columns (Ω and ± are two bytes, one column).
+std::string pad(std::string text, std::size_t width) {
+  std::size_t cols = 0;
+  for (unsigned char c : text) cols += (c & 0xC0) != 0x80;
+  if (cols < width) text.append(width - cols, ' ');
+  return text;
+}
+
+void print_report(const Json& r, bool all_points) {
+  const auto& fx = r["fixture"];
+  std::printf("part %ld  run %ld  fit %ld: AC transfer Vout/Vin against the model\n", r["part_id"].get<long>(), r["run_id"].get<long>(),
+              r["fit_id"].get<long>());
+  std::printf("  fixture RL %s, DC return %s, T = %.2f K; sigma %.3g dB per reading%s\n", format_si(num(fx["rl_ohm"]), "Ω").c_str(),
+              fx["dc_return_ohm"].is_number() ? format_si(num(fx["dc_return_ohm"]), "Ω").c_str() : "choke (open at AC)",
+              num(r["temp_k"]), num(r["ac_sigma_db"]), num(r["cj_f"]) > 0 ? (", Cj " + format_si(num(r["cj_f"]), "F")).c_str() : "");
+  const Json& points = r["points"];
+  if (points.empty()) {
+    std::printf("  no AC readings in this run (plan an \"ac\" section to take them)\n");
+    return;
+  }
+  if (all_points) {
+    std::printf("\n  %-12s %-12s %12s %12s %12s\n", "I", "f", "measured dB", "model dB", "residual dB");
+    for (const auto& p : points)
+      std::printf("  %-12s %-12s %12.4f %12.4f %12.4f\n", format_si(num(p["bias_i_a"]), "A").c_str(), format_si(num(p["freq_hz"]), "Hz").c_str(),
+                  num(p["measured_db"]), num(p["model_db"]), num(p["residual_db"]));
+  }
+  struct Sum {
+    int count = 0;
+    double sq = 0, worst = 0;
+  };
+  std::map<double, Sum> by_freq;
+  for (const auto& p : points) {
+    auto& s = by_freq[num(p["freq_hz"])];
+    const double res = num(p["residual_db"]);
+    ++s.count;
+    s.sq += res * res;
+    s.worst = std::max(s.worst, std::abs(res));
+  }
+  std::printf("\n  %-12s %8s %16s %16s\n", "frequency", "readings", "rms residual dB", "worst |res| dB");
+  for (const auto& [f, s] : by_freq)
+    std::printf("  %-12s %8d %16.4f %16.4f\n", format_si(f, "Hz").c_str(), s.count, std::sqrt(s.sq / s.count), s.worst);
+  const Json& j = r["joint"];
+  if (!j.is_object()) return;
+  std::printf("\n  joint AC+DC fit against the DC-only fit\n  %-14s %-26s %-26s\n", "", "DC only", "DC + AC");
+  const auto row = [&](const char* name, const char* key, const std::string& unit) {
+    std::printf("  %s%s%s\n", pad(name, 15).c_str(), pad(estimate(j["dc_only"][key], unit), 27).c_str(), estimate(j["joint"][key], unit).c_str());
+  };
+  row("Is", "is_a", "A");
+  row("n", "n", "");
+  row("Rs", "rs_ohm", "Ω");
+  std::printf("  %s%s%s\n", pad("reduced chi2", 15).c_str(), pad(std::to_string(num(j["dc_only"]["reduced_chi2"])).substr(0, 8), 27).c_str(),
+              std::to_string(num(j["joint"]["reduced_chi2"])).substr(0, 8).c_str());
+  std::printf("  %s%s%s\n", pad("readings", 15).c_str(), pad(std::to_string(j["dc_only"]["dc_points"].get<long>()) + " DC", 27).c_str(),
+              (std::to_string(j["joint"]["dc_points"].get<long>()) + " DC + " + std::to_string(j["joint"]["ac_points"].get<long>()) + " AC").c_str());
+  for (const char* which : {"dc_only", "joint"})
+    if (!j[which]["ok"].get<bool>()) std::printf("  %s fit: %s\n", which, j[which]["message"].get<std::string>().c_str());
+  std::printf("\n  verdict: %s\n", j["agree"].get<bool>() ? "AC and DC agree within their uncertainties" : "AC and DC DISAGREE");
+  std::string lines = j["agreement"].get<std::string>();
+  std::size_t start = 0;
+  while (start < lines.size()) {
+    const auto end = lines.find('\n', start);
+    std::printf("    %s\n", lines.substr(start, end - start).c_str());
+    if (end == std::string::npos) break;
+    start = end + 1;
+  }
+  if (j.contains("hint")) std::printf("  hint: %s\n", j["hint"].get<std::string>().c_str());
+}
+
+int run(std::vector<std::string> args) {
+  return guarded("transfer", [&] {
+    const auto socket = take_socket_option(args);
+    const bool json = take_flag(args, "--json");
+    const bool all_points = take_flag(args, "--points");
+    const auto lot = take_option(args, "--lot");
+    const auto run_id = take_option(args, "--run");
+    const auto sigma = take_option(args, "--sigma");
+    const auto cj = take_option(args, "--cj");
+    if (args.size() != 1) throw std::invalid_argument("expected one PART (id or label)");
+    Json params = Json::object();
+    if (run_id) params["run_id"] = parse_id(*run_id, "--run");
+    if (sigma) {
+      const double s = parse_quantity(*sigma, "dB");
+      if (!(s > 0)) throw std::invalid_argument("--sigma must be > 0 dB");
+      params["ac_sigma_db"] = s;
+    }
+    if (cj) {
+      const double c = parse_quantity(*cj, "F");
+      if (!(c >= 0)) throw std::invalid_argument("--cj must be >= 0 F");
+      params["cj_f"] = c;
+    }
+    RpcClient client(socket);
+    params["part_id"] = resolve_part(client, args[0], lot);
+    const Json r = client.call("part.transfer", params);
+    if (json) std::printf("%s\n", r.dump(2).c_str());
+    else print_report(r, all_points);
+    return r["points"].empty() ? exit_failure : exit_ok;
+  });
+}
+
+const bool registered = register_command(
+    {"transfer", "AC transfer of a part's run against its model, and the joint AC+DC fit", usage, run});
+
+}  // namespace
+}  // namespace junco::cli
