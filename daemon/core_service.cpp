@@ -64,7 +64,7 @@ const std::map<std::string, std::set<std::string>>& known_params() {
       {"part.fit", {"part_id"}},       {"part.figures", {"part_id", "currents_a"}},
       {"part.export", {"part_id", "format"}},
       {"part.design", {"part_id", "calculator", "inputs"}},
-      {"part.transfer", {"part_id", "run_id", "ac_sigma_db", "cj_f"}}};
+      {"part.transfer", {"part_id", "run_id", "ac_sigma_db", "cj_f", "max_signal_ratio", "ac_floor_v"}}};
   return table;
 }
 
@@ -273,6 +273,8 @@ class CoreService final : public Service {
     TransferOptions o;
     o.ac_sigma_db = opt_number_param(params, "ac_sigma_db", o.ac_sigma_db, false);
     o.cj_f = opt_number_param(params, "cj_f", o.cj_f, true);
+    o.max_signal_ratio = opt_number_param(params, "max_signal_ratio", o.max_signal_ratio, false);
+    o.ac_floor_v = opt_number_param(params, "ac_floor_v", o.ac_floor_v, true);
     const auto run = run_of(part, params);
     if (!run) throw RequestError(RpcCode::not_found, "part " + std::to_string(part.id) + " has no run", Json{{"part_id", part.id}});
     const Json fit = usable_fit(part, "to model the transfer with");

@@ -67,16 +67,46 @@ Json transfer_report(const PartRow& part, const RunRow& run, const Json& fit, co
   const fitting::FitResult r = fit_result_from_json(fit);
   const double temp_k = std::isfinite(r.temp_k) ? r.temp_k : 300.15;
   const fitting::Fixture fx = ac_fixture(run.fixture);
-  const auto ac = ac_points(points);
+  const double z_cathode_ohm = std::abs(1.0 / (1.0 / fx.rl_ohm + 1.0 / fx.dc_return_ohm));
   const fitting::AcPart ac_part{r.params(), options.cj_f};
+  // The AC readings with the bias of their step and their level unit.
+  std::vector<fitting::AcPoint> all;
+  std::vector<double> peak_per_unit;  // peak volts per reading unit (√2 for vrms, ½ for vpp)
+  double bias_i_a = kNaN;
+  for (const auto& p : points) {
+    if (p.kind == "dc") bias_i_a = p.i_a;
+    else if (p.kind != "ac") bias_i_a = kNaN;
+    else if (std::isfinite(bias_i_a) && std::isfinite(p.freq_hz) && std::isfinite(p.ac_in_v) && std::isfinite(p.ac_out_v)) {
+      all.push_back({bias_i_a, p.freq_hz, p.ac_in_v, p.ac_out_v});
+      peak_per_unit.push_back(p.ac_unit == "vpp" ? 0.5 : std::sqrt(2.0));
+    }
+  }
+  std::vector<fitting::AcPoint> used;
   Json rows = Json::array();
   double sum_sq = 0.0, worst = 0.0;
-  for (const auto& res : fitting::ac_residuals(fx, ac_part, ac, temp_k)) {
-    rows.push_back({{"bias_i_a", res.bias_i_a}, {"measured_db", res.measured_db}, {"model_db", res.model_db}, {"residual_db", res.residual_db}});
-    sum_sq += res.residual_db * res.residual_db;
-    worst = std::max(worst, std::abs(res.residual_db));
+  long large_signal = 0, below_floor = 0;
+  const auto residuals = fitting::ac_residuals(fx, ac_part, all, temp_k);
+  for (std::size_t k = 0; k < all.size(); ++k) {
+    const auto& pt = all[k];
+    const auto& res = residuals[k];
+    Json row{{"bias_i_a", pt.bias_i_a}, {"freq_hz", pt.freq_hz}, {"measured_db", res.measured_db}, {"model_db", res.model_db},
+             {"residual_db", res.residual_db}, {"used", true}};
+    const double signal_peak_a = pt.vout * peak_per_unit[k] / z_cathode_ohm;
+    if (!(pt.vout >= options.ac_floor_v && pt.vin >= options.ac_floor_v)) {
+      row["used"] = false;
+      row["excluded"] = "below the level floor";
+      ++below_floor;
+    } else if (!(signal_peak_a <= options.max_signal_ratio * pt.bias_i_a)) {
+      row["used"] = false;
+      row["excluded"] = "large signal";
+      ++large_signal;
+    } else {
+      used.push_back(pt);
+      sum_sq += res.residual_db * res.residual_db;
+      worst = std::max(worst, std::abs(res.residual_db));
+    }
+    rows.push_back(std::move(row));
   }
-  for (std::size_t k = 0; k < rows.size(); ++k) rows[k]["freq_hz"] = ac[k].freq_hz;
   Json out{{"part_id", part.id},
            {"run_id", run.id},
            {"fit_id", fit.value("fit_id", Json())},
@@ -85,10 +115,15 @@ Json transfer_report(const PartRow& part, const RunRow& run, const Json& fit, co
             {{"rl_ohm", fx.rl_ohm}, {"dc_return_ohm", number_or_null(fx.dc_return_ohm)}, {"rg_ohm", fx.rg_ohm}}},
            {"ac_sigma_db", options.ac_sigma_db},
            {"cj_f", options.cj_f},
+           {"max_signal_ratio", options.max_signal_ratio},
+           {"ac_floor_v", options.ac_floor_v},
            {"points", rows},
-           {"rms_residual_db", rows.empty() ? Json(nullptr) : Json(std::sqrt(sum_sq / static_cast<double>(rows.size())))},
-           {"max_abs_residual_db", rows.empty() ? Json(nullptr) : Json(worst)},
+           {"points_used", used.size()},
+           {"excluded", {{"large_signal", large_signal}, {"below_floor", below_floor}}},
+           {"rms_residual_db", used.empty() ? Json(nullptr) : Json(std::sqrt(sum_sq / static_cast<double>(used.size())))},
+           {"max_abs_residual_db", used.empty() ? Json(nullptr) : Json(worst)},
            {"joint", nullptr}};
+  const auto& ac = used;
   if (ac.empty()) return out;
   fitting::JointFitOptions jo;
   jo.temp_k = temp_k;

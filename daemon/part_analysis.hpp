@@ -29,9 +29,17 @@ fitting::DesignPart design_part(const PartRow& part, const Json& fit);
 struct TransferOptions {
   double ac_sigma_db = 0.01;  // standard uncertainty of one AC ratio reading
   double cj_f = 0.0;          // junction capacitance for the AC model (0: ignored)
+  // Readings the small-signal model cannot describe are left out of the RMS
+  // and the joint fit (and listed as such): a signal current peak above this
+  // fraction of the bias (the junction is driven nonlinearly), and an output
+  // level below the floor (in the readings' own unit, the meter's noise
+  // dominates). Common practice, no source.
+  double max_signal_ratio = 0.1;
+  double ac_floor_v = 100e-6;
 };
 
-// part.transfer's result: per-point measured/model/residual, their RMS, and
+// part.transfer's result: per-point measured/model/residual (and whether the
+// point is used, or why not), the RMS over the used points, and
 // the DC-only and joint fits with the agreement verdict (null without AC readings).
 Json transfer_report(const PartRow& part, const RunRow& run, const Json& fit, const std::vector<PointRow>& points,
                      const TransferOptions& options);

@@ -179,7 +179,7 @@ void write_file(const fs::path& path, const std::string& text) {
 
 std::string config_text(const Json& ready, const fs::path& dir) {
   Json bench = Json::object();
-  for (const char* role : {"source", "meter", "scanner"})
+  for (const char* role : {"source", "meter", "scanner", "siggen", "levelmeter"})
     bench[role] = {{"address", ready["endpoints"][role]}, {"dialect", ready["families"][role]}};
   const Json config{
       {"bench", bench},
@@ -204,6 +204,11 @@ const char* const plan_text = R"(// Lot WREN-0912: eight switching diodes for th
   // forward: 1 µA to 30 mA, 4 points per decade and then some
   "sweep": {"mode": "current", "spacing": "log", "start": 1e-6, "stop": 0.03,
             "count": 40, "settle_s": 0.05, "average": 2},
+  // small-signal transfer at each bias step: 2 mV rms at 10 MHz keeps the
+  // signal current well below the bias from 1 µA up (junco transfer checks);
+  // the generator is off during DC readings, so give the levels 10 time
+  // constants (junco-sim: 2 ms) to settle after it comes on
+  "ac": {"freqs_hz": [10e6], "amplitude": 0.002, "unit": "vrms", "settle_s": 0.02},
   // isolation side: a few reverse-bias points
   "reverse_v": [1, 5, 8],
   "temp_k": 300.15

@@ -208,7 +208,16 @@ int run_calculator(const DesignCalculator& c, const std::vector<std::string>& ar
     if (r.part) {
       RpcClient client(r.socket);
       const long part_id = resolve_part(client, *r.part, r.lot);
-      answer = client.call("part.design", {{"part_id", part_id}, {"calculator", c.name}, {"inputs", r.inputs}});
+      try {
+        answer = client.call("part.design", {{"part_id", part_id}, {"calculator", c.name}, {"inputs", r.inputs}});
+      } catch (const RpcError& e) {  // juncod names inputs.KEY; say the option instead
+        const std::string field = e.data().is_object() ? e.data().value("field", "") : "";
+        const std::string prefix = "inputs.";
+        if (field.rfind(prefix, 0) != 0) throw;
+        const std::string message = e.what();
+        throw std::invalid_argument(as_option_message(
+            c, DesignInputError(field.substr(prefix.size()), message.rfind(prefix, 0) == 0 ? message.substr(prefix.size()) : message)));
+      }
     } else {
       try {
         const DesignPart part = c.needs_part ? local_part(r) : DesignPart{};

@@ -9,6 +9,7 @@
 #include "tools/junco/plot_gnuplot.hpp"
 #include "tools/junco/rpc_client.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 #include <fstream>
@@ -104,7 +105,9 @@ int plot_iv(Source& src) {
   const double floor_a = effective_noise_floor_a(fit_rules);
   std::string meas, excluded, resid, model;
   double i_lo = 1e300, i_hi = 0;
-  for (const auto& p : t.iv) {
+  std::vector<IvPoint> by_current(t.iv.begin(), t.iv.end());  // the residual line runs along the axis
+  std::sort(by_current.begin(), by_current.end(), [](const IvPoint& a, const IvPoint& b) { return a.i_a < b.i_a; });
+  for (const auto& p : by_current) {
     if (!(p.i_a > 0) || !(p.v > 0)) continue;  // not on a log current axis
     if (p.i_a < floor_a) {
       excluded += row(p.v, p.i_a);
@@ -146,36 +149,83 @@ double number(std::map<std::string, std::string>& o, const char* key, double fal
   return o.count(key) ? std::stod(o[key]) : fallback;
 }
 
+// One AC reading as plotted: measured and modelled gain, and whether the
+// small-signal comparison uses it (juncod's part.transfer says; from files,
+// every reading is used).
+struct AcRow {
+  double i_a, freq_hz, measured_db, residual_db;
+  bool used;
+};
+
 int plot_ac(Source& src) {
   auto& o = src.o;
   const auto m = src.model();
-  const auto t = src.readings("ac-csv");
-  if (t.ac.empty()) throw std::runtime_error("no AC readings (bias_i_a,freq_hz,vin,vout) in " + src.where("readings"));
   Fixture fx{number(o, "rg", 50), number(o, "rl", 50), number(o, "rbias", no_shunt_ohm), number(o, "rreturn", no_shunt_ohm)};
-  if (src.daemon()) {  // the fixture stored with the run, unless overridden here
-    const Json f = src.client->call("part.transfer", Json{{"part_id", src.part_id}})["fixture"];
+  const AcPart part{m.params, std::isfinite(m.cj0_f) ? m.cj0_f : 0.0};
+  std::vector<AcRow> rows;
+  if (src.daemon()) {  // the run's fixture and juncod's residuals, unless the fixture is overridden here
+    const Json r = src.client->call("part.transfer", Json{{"part_id", src.part_id}});
+    const Json& f = r["fixture"];
     if (!o.count("rl")) fx.rl_ohm = f["rl_ohm"].get<double>();
     if (!o.count("rg")) fx.rg_ohm = f["rg_ohm"].get<double>();
     if (!o.count("rreturn") && f["dc_return_ohm"].is_number()) fx.dc_return_ohm = f["dc_return_ohm"].get<double>();
+    for (const auto& p : r["points"]) {
+      const double i = p["bias_i_a"], freq = p["freq_hz"], meas = p["measured_db"];
+      const double model = to_db(fixture_gain(fx, diode_on_impedance(part, i, freq, m.temp_k)));
+      rows.push_back({i, freq, meas, meas - model, p.value("used", true)});
+    }
+  } else {
+    const auto t = src.readings("ac-csv");
+    for (const auto& r : ac_residuals(fx, part, t.ac, m.temp_k)) rows.push_back({r.bias_i_a, 0.0, r.measured_db, r.residual_db, true});
+    for (std::size_t k = 0; k < rows.size(); ++k) rows[k].freq_hz = t.ac[k].freq_hz;
   }
-  const AcPart part{m.params, std::isfinite(m.cj0_f) ? m.cj0_f : 0.0};
-  std::string meas, model;
-  double i_lo = 1e300, i_hi = 0, freq = t.ac.front().freq_hz;
-  for (const auto& r : ac_residuals(fx, part, t.ac, m.temp_k)) {
-    meas += row(r.bias_i_a, r.measured_db);
-    i_lo = std::min(i_lo, r.bias_i_a);
-    i_hi = std::max(i_hi, r.bias_i_a);
+  if (rows.empty()) throw std::runtime_error("no AC readings (bias_i_a,freq_hz,vin,vout) in " + src.where("readings"));
+  std::sort(rows.begin(), rows.end(), [](const AcRow& a, const AcRow& b) { return a.i_a < b.i_a; });
+  std::vector<double> freqs;
+  double i_lo = 1e300, i_hi = 0;
+  std::string excluded;
+  for (const auto& r : rows) {
+    if (std::find(freqs.begin(), freqs.end(), r.freq_hz) == freqs.end()) freqs.push_back(r.freq_hz);
+    i_lo = std::min(i_lo, r.i_a);
+    i_hi = std::max(i_hi, r.i_a);
+    if (!r.used) excluded += row(r.i_a, r.measured_db);
   }
-  for (int k = 0; k <= 200; ++k) {
-    const double i = i_lo * std::pow(i_hi / i_lo, k / 200.0);
-    model += row(i, to_db(fixture_gain(fx, diode_on_impedance(part, i, freq, m.temp_k))));
+  std::sort(freqs.begin(), freqs.end());
+  if (excluded.empty()) excluded = "NaN NaN\n";  // keeps $d0 valid; draws nothing
+  PlotJob job{o["out"], {excluded}, "", 800, 800};
+  std::string top = "plot $d0 using 1:2 with points pt 6 ps 0.8 lc 'gray40' title 'left out (large signal or near the level floor)'";
+  std::string bottom = "plot 0 with lines lc 'black' notitle";
+  for (std::size_t k = 0; k < freqs.size(); ++k) {
+    std::string meas, model, resid;
+    for (const auto& r : rows)
+      if (r.freq_hz == freqs[k] && r.used) {
+        meas += row(r.i_a, r.measured_db);
+        resid += row(r.i_a, r.residual_db);
+      }
+    for (int s = 0; s <= 200; ++s) {
+      const double i = i_lo * std::pow(i_hi / i_lo, s / 200.0);
+      model += row(i, to_db(fixture_gain(fx, diode_on_impedance(part, i, freqs[k], m.temp_k))));
+    }
+    if (meas.empty()) meas = resid = "NaN NaN\n";
+    const std::size_t base = job.datablocks.size();
+    job.datablocks.insert(job.datablocks.end(), {meas, model, resid});
+    const std::string f = format_si(freqs[k], "Hz", 3);
+    const std::string colour = " lc " + std::to_string(k + 1);
+    top += ", $d" + std::to_string(base) + " using 1:2 with points pt 7 ps 0.8" + colour + " title 'measured, " + f + "'";
+    top += ", $d" + std::to_string(base + 1) + " using 1:2 with lines lw 2" + colour + " title 'model, " + f + "'";
+    bottom += ", $d" + std::to_string(base + 2) + " using 1:2 with linespoints pt 7 ps 0.6" + colour + " title '" + f + "'";
   }
-  PlotJob job{o["out"], {meas, model}, "", 800, 600};
-  job.body = "set title " + gnuplot_literal(title_of(m) + ": AC transfer of the series switch") + " noenhanced\n"
-             "set logscale x\nset format x '10^{%L}'\nset xlabel 'bias current I (A)'\n"
+  char model_label[200];
+  std::snprintf(model_label, sizeof model_label, "model: IS=%.3g A, N=%.3f, RS=%.3g {/Symbol W}, RL=%.4g {/Symbol W}%s", m.params.is_a,
+                m.params.n, m.params.rs_ohm, fx.rl_ohm, part.cj_f > 0 ? ", with Cj" : "");
+  char xrange[80];  // both panels on the same current axis
+  std::snprintf(xrange, sizeof xrange, "set xrange [%.6g:%.6g]\n", i_lo / 1.25, i_hi * 1.25);
+  job.body = "set multiplot layout 2,1 title " + gnuplot_literal(title_of(m) + ": AC transfer of the series switch") + " noenhanced\n"
+             "set logscale x\nset format x '10^{%L}'\n" + std::string(xrange) + "set xlabel 'bias current I (A)'\n"
              "set ylabel 'transfer V_{out}/V_{in} (dB)'\nset key bottom right\n"
-             "plot $d0 using 1:2 with points pt 7 ps 0.8 title 'measured', "
-             "$d1 using 1:2 with lines lw 2 title 'model'";
+             "set label 1 '" + std::string(model_label) + "' at graph 0.02, graph 0.95\n" + top + "\n"
+             "unset label 1\nset ylabel 'residual measured - model (dB)'\nset key top right\n" + bottom + "\n"
+             "unset multiplot";
   const auto err = run_gnuplot(job);
   if (!err.empty()) throw std::runtime_error(err);
   return exit_ok;

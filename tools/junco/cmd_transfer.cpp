@@ -73,8 +73,9 @@ void print_report(const Json& r, bool all_points) {
   if (all_points) {
     std::printf("\n  %-12s %-12s %12s %12s %12s\n", "I", "f", "measured dB", "model dB", "residual dB");
     for (const auto& p : points)
-      std::printf("  %-12s %-12s %12.4f %12.4f %12.4f\n", format_si(num(p["bias_i_a"]), "A").c_str(), format_si(num(p["freq_hz"]), "Hz").c_str(),
-                  num(p["measured_db"]), num(p["model_db"]), num(p["residual_db"]));
+      std::printf("  %-12s %-12s %12.4f %12.4f %12.4f%s\n", format_si(num(p["bias_i_a"]), "A").c_str(), format_si(num(p["freq_hz"]), "Hz").c_str(),
+                  num(p["measured_db"]), num(p["model_db"]), num(p["residual_db"]),
+                  p.value("used", true) ? "" : ("  (left out: " + p.value("excluded", "?") + ")").c_str());
   }
   struct Sum {
     int count = 0;
@@ -82,6 +83,7 @@ void print_report(const Json& r, bool all_points) {
   };
   std::map<double, Sum> by_freq;
   for (const auto& p : points) {
+    if (!p.value("used", true)) continue;
     auto& s = by_freq[num(p["freq_hz"])];
     const double res = num(p["residual_db"]);
     ++s.count;
@@ -91,6 +93,9 @@ void print_report(const Json& r, bool all_points) {
   std::printf("\n  %-12s %8s %16s %16s\n", "frequency", "readings", "rms residual dB", "worst |res| dB");
   for (const auto& [f, s] : by_freq)
     std::printf("  %-12s %8d %16.4f %16.4f\n", format_si(f, "Hz").c_str(), s.count, std::sqrt(s.sq / s.count), s.worst);
+  const Json& ex = r["excluded"];
+  std::printf("  left out: %ld large-signal (signal peak > %.3g x bias), %ld below the level floor (%s)\n", ex["large_signal"].get<long>(),
+              num(r["max_signal_ratio"]), ex["below_floor"].get<long>(), format_si(num(r["ac_floor_v"]), "V").c_str());
   const Json& j = r["joint"];
   if (!j.is_object()) return;
   std::printf("\n  joint AC+DC fit against the DC-only fit\n  %-14s %-26s %-26s\n", "", "DC only", "DC + AC");
