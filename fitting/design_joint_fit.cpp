@@ -78,7 +78,7 @@ SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, co
     const double sv = o.accuracy.v_rel * std::abs(p.v) + o.accuracy.v_abs_v;
     const double si = 1.5 * vt * (o.accuracy.i_rel + o.accuracy.i_abs_a / p.i_a);
     problem.AddResidualBlock(new ceres::AutoDiffCostFunction<DcCost, 1, 3>(
-                                 new DcCost{p.v, p.i_a, vt, 1.0 / std::hypot(sv, si)}),
+                                 new DcCost{p.v, p.i_a, vt, 1.0 / (o.dc_sigma_scale * std::hypot(sv, si))}),
                              nullptr, x);
   }
   const double z_load = std::isfinite(fixture.dc_return_ohm)
@@ -137,7 +137,9 @@ JointFitReport compare_dc_and_joint(std::span<const IvPoint> dc, std::span<const
                                     const JointFitOptions& options) {
   JointFitReport r;
   r.dc_only = fit_dc_ac(dc, {}, fixture, options);
-  r.joint = fit_dc_ac(dc, ac, fixture, options);
+  JointFitOptions joint_options = options;
+  if (r.dc_only.ok && r.dc_only.reduced_chi2 > 1.0) joint_options.dc_sigma_scale *= std::sqrt(r.dc_only.reduced_chi2);
+  r.joint = fit_dc_ac(dc, ac, fixture, joint_options);
   r.agree = r.dc_only.ok && r.joint.ok;
   const auto check = [&](const char* name, const Estimate& a, const Estimate& b) {
     const double limit = options.agree_k * std::hypot(a.std_error, b.std_error);

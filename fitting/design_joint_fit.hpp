@@ -14,6 +14,11 @@
 // the joint fit's reduced χ² at most max_reduced_chi2 (default 3): with the
 // covariance scaled by χ², inconsistent AC and DC data inflate the standard
 // errors instead of moving the estimates, so χ² is what reveals them.
+// The DC data carry the scatter the DC-only fit found: when its reduced χ²
+// exceeds 1 (the accuracy model understates the bench's noise) the joint fit
+// widens the DC uncertainties by its square root (the Birge ratio), so the
+// χ² test weighs how well AC and DC agree, not how well the accuracy model
+// was guessed. The AC uncertainty is taken as given.
 #pragma once
 
 #include "fitting/extract.hpp"
@@ -31,6 +36,7 @@ struct JointFitOptions {
   double cj_f = 0.0;          // junction capacitance used by the AC model
   double agree_k = 2.0;
   double max_reduced_chi2 = 3.0;
+  double dc_sigma_scale = 1.0;  // multiplies every DC uncertainty (compare_dc_and_joint sets it)
   int max_iterations = 200;
 };
 

@@ -1,0 +1,198 @@
+// Using stored parts through juncod: the design calculators (part.design),
+// the AC transfer against the model with the joint AC+DC fit
+// (part.transfer), and the CLI's design/transfer/plot commands on --part —
+// junco-sim, juncod and junco as real processes on real sockets.
+#include "fitting/design_calculators.hpp"
+#include "fitting/design_units.hpp"
+#include "fitting/model_document.hpp"
+#include "tests/support/bench_daemon.hpp"
+
+#include <catch2/catch.hpp>
+
+#include <cmath>
+#include <fstream>
+
+using namespace junco;
+using junco::test::BenchDaemon;
+using Json = nlohmann::json;
+
+namespace {
+
+Json plan(const std::string& lot, int parts, const Json& freqs) {
+  Json p{{"lot", lot},
+         {"parts", Json::array()},
+         {"sweep", {{"mode", "current"}, {"spacing", "log"}, {"start", 1e-6}, {"stop", 0.02}, {"count", 24}, {"settle_s", 0}}},
+         {"ac", {{"freqs_hz", freqs}, {"amplitude", 0.002}, {"unit", "vrms"}, {"settle_s", 0}}}};
+  for (int i = 1; i <= parts; ++i) p["parts"].push_back({{"slot", i}, {"label", "DS-" + std::to_string(i)}});
+  return p;
+}
+
+std::vector<std::string> no_heating() {
+  return {"--settle-ms", "0", "--config", std::string(JUNCO_SOURCE_DIR) + "/tools/sim/no-heating.json"};
+}
+
+double value_of(const Json& lines, const std::string& key) {
+  for (const auto& l : lines)
+    if (l["key"] == key) return l["value"].get<double>();
+  FAIL("no line " << key << " in " << lines.dump());
+  return 0;
+}
+
+}  // namespace
+
+TEST_CASE("part.design answers as the calculators do on the exported model", "[design][daemon]") {
+  BenchDaemon b("design", no_heating());
+  b.run_plan(plan("DSN-0413", 1, {1e6}));
+  const Json model_text = b.result("part.export", {{"part_id", 1}, {"format", "json"}})["content"];
+  std::string why;
+  const auto model = fitting::parse_model_document(model_text.get<std::string>(), &why);
+  REQUIRE(model);
+  fitting::DesignPart local;
+  local.dc = model->params;
+  local.temp_k = model->temp_k;
+
+  struct Case {
+    std::string calculator;
+    Json inputs;
+    std::string key;
+  };
+  const std::vector<Case> cases{
+      {"op", {{"supply_v", 5.0}, {"rbias_ohm", 390.0}}, "bias_current_a"},
+      {"bias-r", {{"supply_v", 5.0}, {"current_a", 0.01}}, "bias_resistor_ohm"},
+      {"loss", {{"current_a", 0.01}, {"switch", "shunt"}, {"freq_hz", 1e8}}, "loss_db"},
+      {"distortion", {{"current_a", 0.005}, {"amplitude_v", 0.1}}, "thd_pct"},
+      {"isolation", {{"cj0_f", 2e-12}, {"reverse_v", 5.0}, {"freq_hz", 1e9}}, "isolation_db"},
+  };
+  const Json schema = test::api_schema("part.design");
+  for (const auto& c : cases) {
+    const Json params{{"part_id", 1}, {"calculator", c.calculator}, {"inputs", c.inputs}};
+    const Json remote = b.result("part.design", params);
+    INFO(c.calculator << ": " << remote.dump());
+    CHECK(test::schema_problem(schema["result"], remote) == "");
+    CHECK(test::schema_problem(schema["params"], params) == "");
+    const Json mine = fitting::run_design(c.calculator, &local, c.inputs);
+    // The model document carries the fit to 9 significant digits.
+    CHECK(value_of(remote["result"], c.key) == Approx(value_of(mine["result"], c.key)).epsilon(1e-6));
+    CHECK(remote["assumed"].size() == mine["assumed"].size());
+    CHECK(remote["part_id"] == 1);
+  }
+  // Bad input is refused and names the field; nothing about the part changes.
+  auto reply = b.client().request("part.design", {{"part_id", 1}, {"calculator", "op"}, {"inputs", {{"supply_v", 5.0}}}});
+  CHECK(reply["error"]["code"] == -32602);
+  CHECK(reply["error"]["data"]["field"] == "inputs.rbias_ohm");
+  reply = b.client().request("part.design", {{"part_id", 1}, {"calculator", "op"}, {"inputs", {{"supply_v", 5.0}, {"rbias_ohm", 1.0}, {"vbias", 3}}}});
+  CHECK(reply["error"]["data"]["field"] == "inputs.vbias");
+  reply = b.client().request("part.design", {{"part_id", 1}, {"calculator", "warp"}});
+  CHECK(reply["error"]["data"]["field"] == "calculator");
+  reply = b.client().request("part.design", {{"part_id", 9}, {"calculator", "op"}});
+  CHECK(reply["error"]["code"] == -32001);
+  reply = b.client().request("part.design", {{"part_id", 1}, {"calculator", "op"}, {"supply_v", 5.0}});
+  CHECK(reply["error"]["data"]["field"] == "supply_v");  // inputs go inside "inputs"
+
+  // The CLI on --part: the daemon's numbers, printed with the assumed inputs.
+  const double i_a = value_of(b.result("part.design", {{"part_id", 1}, {"calculator", "op"}, {"inputs", {{"supply_v", 5.0}, {"rbias_ohm", 390.0}}}})["result"],
+                              "bias_current_a");
+  auto cli = b.junco({"design", "op", "--part", "DS-1", "--supply", "5V", "--rbias", "390"});
+  INFO(cli.out << cli.err);
+  CHECK(cli.status == 0);
+  CHECK(cli.out.find("assumed   bias resistor    390.0 ohm") != std::string::npos);
+  CHECK(cli.out.find(fitting::format_engineering(i_a, "A", 6)) != std::string::npos);
+  cli = b.junco({"design", "op", "--part", "DS-1", "--supply", "-5", "--rbias", "390"});
+  CHECK(cli.status == 2);
+  CHECK(cli.err.find("--supply: must be > 0") != std::string::npos);
+  cli = b.junco({"design", "op", "--part", "NO-SUCH", "--supply", "5", "--rbias", "390"});
+  CHECK(cli.status == 1);
+  CHECK(cli.err.find("no part labelled 'NO-SUCH'") != std::string::npos);
+}
+
+TEST_CASE("part.transfer: without self-heating the AC readings agree with the DC fit", "[transfer][daemon]") {
+  BenchDaemon b("transfer", no_heating());
+  b.run_plan(plan("DSN-0414", 2, {1e6, 2e6}));
+  const Json truth = b.sim().control("lot?")["parts"];
+  const Json schema = test::api_schema("part.transfer");
+  for (long part = 1; part <= 2; ++part) {
+    const Json params{{"part_id", part}};
+    const Json r = b.result("part.transfer", params);
+    INFO("part " << part << ": " << r.dump().substr(0, 1500));
+    CHECK(test::schema_problem(schema["result"], r) == "");
+    CHECK(r["points"].size() == 48);  // 24 steps x 2 frequencies
+    CHECK(r["points_used"].get<long>() >= 20);
+    // junco-sim's level meter: 0.01 % of reading + 2 uV (tools/sim); the
+    // model is the same small-signal circuit, so the residual is noise plus
+    // the DC fit's own error (its Rs is uncertain by ~0.1 ohm against rd of
+    // a few ohms at the top): a few hundredths of a dB (our bound, no source).
+    CHECK(r["rms_residual_db"].get<double>() < 0.05);
+    const Json& j = r["joint"];
+    REQUIRE(j.is_object());
+    CHECK(j["joint"]["ok"] == true);
+    CHECK(j["agree"] == true);
+    CHECK_FALSE(j.contains("hint"));
+    // The joint fit recovers the simulator's true Rs and n (its `lot?`).
+    const Json& t = truth[static_cast<std::size_t>(part - 1)];
+    CHECK(j["joint"]["rs_ohm"]["value"].get<double>() == Approx(t["rs_ohm"].get<double>()).epsilon(0.05));
+    CHECK(j["joint"]["n"]["value"].get<double>() == Approx(t["n"].get<double>()).epsilon(0.01));
+  }
+  // Options are checked; unknown params refused.
+  CHECK(b.client().request("part.transfer", {{"part_id", 1}, {"ac_sigma_db", 0}})["error"]["data"]["field"] == "ac_sigma_db");
+  CHECK(b.client().request("part.transfer", {{"part_id", 1}, {"sigma", 0.1}})["error"]["data"]["field"] == "sigma");
+  CHECK(b.client().request("part.transfer", {{"part_id", 1}, {"run_id", 77}})["error"]["code"] == -32001);
+
+  // The CLI's report, and the plots straight from the daemon.
+  auto cli = b.junco({"transfer", "DS-1"});
+  INFO(cli.out << cli.err);
+  CHECK(cli.status == 0);
+  CHECK(cli.out.find("verdict: AC and DC agree") != std::string::npos);
+  CHECK(cli.out.find("1 MHz") != std::string::npos);
+  CHECK(cli.out.find("2 MHz") != std::string::npos);
+  const auto svg = [&](const std::string& name) {
+    std::ifstream f(b.dir() / name);
+    return std::string(std::istreambuf_iterator<char>(f), std::istreambuf_iterator<char>());
+  };
+  struct Plot {
+    std::vector<std::string> args;
+    std::string file;
+    std::vector<std::string> labels;
+  };
+  const std::vector<Plot> plots{
+      {{"plot", "iv", "--part", "DS-1"}, "iv.svg", {"forward voltage V (V)", "DS-1", "DSN-0414"}},
+      {{"plot", "ac", "--part", "DS-2"}, "ac.svg", {"bias current I (A)", "(dB)", "measured, 1 MHz", "model, 2 MHz", "DS-2"}},
+      {{"plot", "lot", "--lot", "DSN-0414"}, "lot.svg", {"IS (A)", "DS-1", "DS-2"}},
+  };
+  for (const auto& p : plots) {
+    auto args = p.args;
+    args.push_back("--out");
+    args.push_back((b.dir() / p.file).string());
+    const auto r = b.junco(args);
+    INFO(p.file << ": " << r.out << r.err);
+    REQUIRE(r.status == 0);
+    const std::string text = svg(p.file);
+    CHECK(text.find("</svg>") != std::string::npos);
+    for (const auto& l : p.labels) CHECK(text.find(l) != std::string::npos);
+  }
+}
+
+TEST_CASE("part.transfer: self-heating shows as AC and DC disagreeing, with a hint", "[transfer][daemon]") {
+  // A 600 K/W junction with a 5 ms thermal time constant, and 30 ms of
+  // settling per step: the top of the DC sweep runs hot, every time (with
+  // less settling the heating would depend on the machine's timing).
+  const auto config = test::scratch_dir("heating-cfg") / "hot.json";
+  std::filesystem::create_directories(config.parent_path());
+  std::ofstream(config) << R"({"thermal": {"theta_k_per_w": 600, "tau_s": 0.005}})";
+  BenchDaemon b("heating", {"--settle-ms", "0", "--config", config.string()});
+  auto p = plan("DSN-0415", 1, {1e6});
+  p["sweep"]["settle_s"] = 0.03;
+  b.run_plan(p);
+  std::filesystem::remove_all(config.parent_path());
+  const Json r = b.result("part.transfer", {{"part_id", 1}});
+  INFO(r.dump().substr(0, 1500));
+  const Json& j = r["joint"];
+  REQUIRE(j.is_object());
+  WARN("self-heating: " << j["agreement"].get<std::string>());
+  CHECK(j["agree"] == false);
+  CHECK(j["joint"]["rs_ohm"]["value"].get<double>() > j["dc_only"]["rs_ohm"]["value"].get<double>());
+  CHECK(j.value("hint", "").find("self-heating") != std::string::npos);
+  const Json truth = b.sim().control("lot?")["parts"][0];
+  // The AC readings see the true Rs better than the hot DC curve does.
+  CHECK(std::abs(j["joint"]["rs_ohm"]["value"].get<double>() - truth["rs_ohm"].get<double>()) <
+        std::abs(j["dc_only"]["rs_ohm"]["value"].get<double>() - truth["rs_ohm"].get<double>()));
+}
