@@ -1,0 +1,158 @@
+// The calculator table behind `junco design` and part.design: its answers
+// against published check values (REFERENCES.md E8, E11, E12, E5), the
+// inputs it echoes, and how it refuses bad input.
+#include "fitting/design_calculators.hpp"
+
+#include <catch2/catch.hpp>
+
+#include <cmath>
+#include <set>
+
+using namespace junco::fitting;
+using Json = nlohmann::json;
+
+namespace {
+
+// The SPICE default junction of E8/E11: IS = 1e-14 A, N = 1, RS = 1 Ω, 27 °C.
+DesignPart e8_part() {
+  DesignPart p;
+  p.dc = {1e-14, 1.0, 1.0};
+  p.temp_k = 300.15;
+  return p;
+}
+
+double value_of(const Json& lines, const std::string& key) {
+  for (const auto& l : lines)
+    if (l["key"] == key) return l["value"].get<double>();
+  FAIL("no line " << key << " in " << lines.dump());
+  return 0;
+}
+
+std::string field_of(const std::string& calc, const DesignPart* part, const Json& inputs) {
+  try {
+    run_design(calc, part, inputs);
+  } catch (const DesignInputError& e) {
+    return e.field();
+  }
+  return "(accepted)";
+}
+
+}  // namespace
+
+TEST_CASE("E8: bias resistor and the operating point it gives back") {
+  // Source: REFERENCES.md E8: 5 V, 10 mA → Vd = 0.724674 V, R = 427.533 Ω;
+  // feeding R back through the Lambert-W form returns 10.0000 mA.
+  const auto part = e8_part();
+  const Json a = run_design("bias-r", &part, {{"supply_v", 5.0}, {"current_a", 0.01}});
+  CHECK(a["achievable"] == true);
+  const double rb = value_of(a["result"], "bias_resistor_ohm");
+  CHECK(rb == Approx(427.533).margin(5e-4));
+  CHECK(value_of(a["result"], "diode_voltage_v") == Approx(0.724674).margin(1e-6));
+  const Json op = run_design("op", &part, {{"supply_v", 5.0}, {"rbias_ohm", rb}});
+  CHECK(value_of(op["result"], "bias_current_a") == Approx(0.01).epsilon(1e-6));
+  // Every input is echoed, the default DC return included.
+  std::set<std::string> keys;
+  for (const auto& l : op["assumed"]) keys.insert(l["key"].get<std::string>());
+  CHECK(keys == std::set<std::string>{"supply_v", "rbias_ohm", "rreturn_ohm"});
+  CHECK(op["part"]["is_a"] == 1e-14);
+}
+
+TEST_CASE("E11: series insertion loss and shunt isolation over bias, defaults 50/50 ohm") {
+  // Source: REFERENCES.md E11 (N = 1, RS = 1 Ω, 27 °C, 50 Ω): series IL
+  // 2.067 / 0.306 dB at 1 / 10 mA; the same diode as a shunt isolates
+  // 5.71 / 18.03 dB. The calculator's default frequency (10 MHz) and zero
+  // series inductance leave the resistive result unchanged.
+  const auto part = e8_part();
+  const Json s1 = run_design("loss", &part, {{"current_a", 1e-3}});
+  CHECK(value_of(s1["result"], "loss_db") == Approx(2.067).margin(1e-3));
+  const Json s10 = run_design("loss", &part, {{"current_a", 1e-2}, {"switch", "series"}});
+  CHECK(value_of(s10["result"], "loss_db") == Approx(0.306).margin(1e-3));
+  const Json h1 = run_design("loss", &part, {{"current_a", 1e-3}, {"switch", "shunt"}});
+  CHECK(value_of(h1["result"], "loss_db") == Approx(5.71).margin(0.01));
+  const Json h10 = run_design("loss", &part, {{"current_a", 1e-2}, {"switch", "shunt"}});
+  CHECK(value_of(h10["result"], "loss_db") == Approx(18.03).margin(0.01));
+  CHECK(s1["assumed"][0]["text"] == "series");  // the default choice is shown
+  // And back: the bias for 0.306 dB is 10 mA.
+  const Json b = run_design("bias-for-loss", &part, {{"target_db", value_of(s10["result"], "loss_db")}});
+  CHECK(value_of(b["result"], "bias_current_a") == Approx(0.01).epsilon(1e-4));
+}
+
+TEST_CASE("E12 and E5: off-state isolation from the junction capacitance, with reverse bias") {
+  // Source: REFERENCES.md E12: Cj = 0.3 pF at 1 GHz → series isolation 14.646 dB,
+  // shunt insertion loss 0.00963 dB (the capacitance given as the part's override).
+  const auto part = e8_part();
+  const Json s = run_design("isolation", &part, {{"cj0_f", 0.3e-12}, {"freq_hz", 1e9}});
+  CHECK(value_of(s["result"], "isolation_db") == Approx(14.646).margin(1e-3));
+  const Json h = run_design("isolation", &part, {{"cj0_f", 0.3e-12}, {"freq_hz", 1e9}, {"switch", "shunt"}});
+  CHECK(value_of(h["result"], "isolation_db") == Approx(0.00963).margin(1e-5));
+  // REFERENCES.md E5: CJO = 1 pF, VJ = 1 V, M = 0.5 → C(−4 V) = 0.447214 pF.
+  const Json r = run_design("isolation", &part, {{"cj0_f", 1e-12}, {"vj_v", 1.0}, {"m", 0.5}, {"reverse_v", 4.0}});
+  CHECK(value_of(r["result"], "cj_f") == Approx(0.447214e-12).epsilon(1e-5));
+  CHECK(r["part"]["cj0_f"] == 1e-12);
+  // Without a capacitance there is no answer, and the missing input is named.
+  CHECK(field_of("isolation", &part, Json::object()) == "cj0_f");
+}
+
+TEST_CASE("the temperature override reaches the physics") {
+  // Vt = kT/q grows with T, so at a fixed supply and resistor the diode
+  // drops less voltage when hot (REFERENCES.md E3: about -1.8 mV/K at 1 mA).
+  const auto part = e8_part();
+  const Json cold = run_design("op", &part, {{"supply_v", 5.0}, {"rbias_ohm", 4300.0}});
+  const Json hot = run_design("op", &part, {{"supply_v", 5.0}, {"rbias_ohm", 4300.0}, {"temp_k", 310.15}});
+  const double dv = value_of(hot["result"], "diode_voltage_v") - value_of(cold["result"], "diode_voltage_v");
+  // IS is not temperature-scaled here (the part's IS is the fit's at its own
+  // temperature): only N·Vt changes, +10 K → V·(10/300.15) larger.
+  CHECK(dv == Approx(value_of(cold["result"], "diode_voltage_v") * 10.0 / 300.15).epsilon(0.05));
+  CHECK(hot["part"]["temp_k"] == 310.15);
+}
+
+TEST_CASE("targets that cannot be met and power over a limit are answers, not errors") {
+  const auto part = e8_part();
+  const Json a = run_design("bias-r", &part, {{"supply_v", 0.5}, {"current_a", 0.01}});
+  CHECK(a["achievable"] == false);
+  CHECK_FALSE(a["reason"].get<std::string>().empty());
+  const Json b = run_design("bias-for-loss", &part, {{"target_db", 0.01}});  // RS alone gives 0.086 dB
+  CHECK(b["achievable"] == false);
+  // 5 V into 100 Ω: ~42 mA, 177 mW in the resistor; a 125 mW part fails.
+  const Json p = run_design("power", &part, {{"supply_v", 5.0}, {"rbias_ohm", 100.0}, {"max_resistor_w", 0.125}});
+  CHECK(p["failures"].size() == 1);
+  CHECK(value_of(p["result"], "resistor_power_w") == Approx(0.1769).margin(5e-4));
+  const Json ok = run_design("power", &part, {{"supply_v", 5.0}, {"rbias_ohm", 100.0}, {"max_resistor_w", 0.5}});
+  CHECK(ok["failures"].empty());
+  // Headroom needs no part: I_min = V̂/RL with a choke return (common practice, no source).
+  const Json h = run_design("headroom", nullptr, {{"amplitude_v", 1.0}});
+  CHECK(value_of(h["result"], "min_bias_a") == Approx(0.02).epsilon(1e-9));
+  CHECK_FALSE(h.contains("part"));
+}
+
+TEST_CASE("bad input is refused, naming the field") {
+  const auto part = e8_part();
+  CHECK(field_of("warp", &part, Json::object()) == "calculator");
+  CHECK(field_of("op", &part, {{"supply_v", 5.0}}) == "rbias_ohm");                              // missing
+  CHECK(field_of("op", &part, {{"supply_v", "5V"}, {"rbias_ohm", 1.0}}) == "supply_v");          // not a number
+  CHECK(field_of("op", &part, {{"supply_v", -5.0}, {"rbias_ohm", 1.0}}) == "supply_v");          // out of range
+  CHECK(field_of("op", &part, {{"supply_v", 5.0}, {"rbias_ohm", 1.0}, {"vbias", 2.0}}) == "vbias");  // unknown
+  CHECK(field_of("loss", &part, {{"current_a", 0.01}, {"switch", "diagonal"}}) == "switch");     // not a choice
+  CHECK(field_of("op", nullptr, {{"supply_v", 5.0}, {"rbias_ohm", 1.0}}) == "part");
+  CHECK(field_of("headroom", &part, {{"amplitude_v", 1.0}, {"cj0_f", 1e-12}}) == "cj0_f");      // no part inputs
+  CHECK(field_of("op", &part, Json::array()) == "inputs");
+  DesignPart broken = part;
+  broken.dc.n = 0;
+  CHECK(field_of("op", &broken, {{"supply_v", 5.0}, {"rbias_ohm", 1.0}}) == "part");
+  CHECK(field_of("op", &part, {{"supply_v", 5.0}, {"rbias_ohm", 1.0}}) == "(accepted)");
+}
+
+TEST_CASE("every calculator in the table runs on its required inputs alone") {
+  const auto part = e8_part();
+  for (const auto& c : design_calculators()) {
+    Json inputs = Json::object();
+    for (const auto& s : c.inputs)
+      if (!s.fallback && !s.optional && s.choices.empty()) inputs[s.key] = s.unit == "dB" ? 1.0 : s.unit == "%" ? 5.0 : s.unit == "A" ? 0.01 : 1.0;
+    if (c.name == "isolation") inputs["cj0_f"] = 1e-12;
+    INFO(c.name << " " << inputs.dump());
+    const Json a = run_design(c.name, c.needs_part ? &part : nullptr, inputs);
+    CHECK(a["calculator"] == c.name);
+    CHECK(a["assumed"].size() == c.inputs.size());
+    CHECK_FALSE(a["result"].empty());
+  }
+}
