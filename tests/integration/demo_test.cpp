@@ -62,6 +62,23 @@ TEST_CASE("junco demo characterises the simulated lot end to end") {
   const std::regex vf1(R"(\nWR-0[1-8] .* (5[5-9][0-9]|6[0-9]{2})\.[0-9] mV +(6[5-9][0-9]|7[0-9]{2})\.[0-9] mV)");
   CHECK(std::distance(std::sregex_iterator(r.out.begin(), r.out.end(), vf1), std::sregex_iterator()) == 8);
 
+  // The AC section: one row per part with the joint AC+DC verdict. The
+  // simulated junction heats (400 K/W), so the verdict must say DISAGREE and
+  // the AC readings must see the larger Rs (REFERENCES.md §3: self-heating
+  // mimics a lower RS in the DC curve).
+  const std::regex ac_row(R"(\nWR-0[1-8] +0\.[0-9]+ dB +([0-9.]+) mΩ ± [0-9.]+ mΩ +([0-9.]+) mΩ ± [0-9.]+ mΩ +DISAGREE)");
+  int ac_rows = 0;
+  for (auto it = std::sregex_iterator(r.out.begin(), r.out.end(), ac_row); it != std::sregex_iterator(); ++it, ++ac_rows)
+    CHECK(std::stod((*it)[2].str()) > std::stod((*it)[1].str()));
+  CHECK(ac_rows == 8);
+  CHECK(r.out.find("typical of self-heating") != std::string::npos);
+  // The design example and the plots.
+  CHECK(std::regex_search(r.out, std::regex(R"(loses 0\.5 dB at [0-9.]+ mA: from 5 V, a bias resistor of [0-9.]+ Ω or less)")));
+  for (const char* plot : {"WR-01-iv.svg", "WR-01-ac.svg", "lot.svg"}) {
+    CHECK(fs::exists(dir / plot));
+    CHECK(r.out.find((dir / plot).string()) != std::string::npos);
+  }
+
   const fs::path db = dir / "junco.db";
   REQUIRE(fs::exists(db));
   CHECK(count_rows(db, "SELECT count(DISTINCT part_id) FROM fits WHERE status = 'converged'") == 8);

@@ -33,14 +33,18 @@ namespace fs = std::filesystem;
 const char* const usage = R"(usage: junco demo [--dir DIR] [--seed N] [--keep-running]
 
 Runs junco end to end on the simulated bench, no hardware needed:
-  1. starts junco-sim (a simulated supply, meter and 8-slot fixture holding a
-     lot of switching diodes) and juncod, both found next to this junco;
+  1. starts junco-sim (a simulated supply, meter, signal generator, level
+     meter and 8-slot fixture holding a lot of switching diodes) and
+     juncod, both found next to this junco;
   2. writes a bench config and a plan into DIR and submits the plan: an
      overnight characterisation, accelerated (the simulated instruments settle
      in milliseconds), of lot WREN-0912 — eight PIN-style switching diodes
      bought for the transmit/receive switch of an invented marine VHF radio;
   3. shows the job's progress, then the lot table (Is, n, Rs ± standard
-     error, Vf at 1 mA and 10 mA, rd at 5 mA) and the lot spread;
+     error, Vf at 1 mA and 10 mA, rd at 5 mA) and the lot spread; each
+     part's AC transfer against its fit with the joint AC+DC verdict; one
+     design calculation on a stored part; and writes plots (I-V, AC
+     transfer, lot spread) into DIR;
   4. stops both children (also on Ctrl-C) and leaves DIR with the database,
      the config, the plan and both logs for inspection.
 Takes about a minute.
@@ -292,6 +296,76 @@ bool print_lot(RpcClient& client, const std::string& lot) {
   return all_fitted;
 }
 
+// Each part's AC readings against its fit, and the joint AC+DC fit (part.transfer).
+void print_transfer(RpcClient& client, const std::string& lot) {
+  std::printf("\nAC transfer at 10 MHz against each fit, and the joint AC+DC fit (junco transfer PART)\n");
+  std::printf("%-6s %-13s %-20s %-20s %s\n", "part", "rms residual", "Rs from DC", "Rs from DC + AC", "verdict");
+  std::string hint;
+  for (const auto& p : client.call("part.list", Json{{"lot", lot}}).value("parts", Json::array())) {
+    const std::string label = p.value("label", "?");
+    try {
+      const Json r = client.call("part.transfer", Json{{"part_id", p["part_id"]}});
+      const Json& j = r["joint"];
+      if (!j.is_object()) {
+        std::printf("%-6s no AC readings\n", label.c_str());
+        continue;
+      }
+      char res[32];
+      std::snprintf(res, sizeof res, "%.3f dB", num(r["rms_residual_db"]));
+      const auto rs = [&](const char* which) { return pm(num(j[which]["rs_ohm"]["value"]), num(j[which]["rs_ohm"]["std_error"]), "Ω"); };
+      std::printf("%s\n", (pad(label, 7) + pad(res, 14) + pad(rs("dc_only"), 21) + pad(rs("joint"), 21) +
+                            (j["agree"].get<bool>() ? "agree" : "DISAGREE"))
+                               .c_str());
+      if (j.contains("hint")) hint = j["hint"].get<std::string>();
+    } catch (const RpcError& e) {
+      std::printf("%-6s %s\n", label.c_str(), e.what());
+    }
+  }
+  if (!hint.empty()) std::printf("note: %s\n", hint.c_str());
+}
+
+// One calculator on a stored part, as `junco design ... --part` does it.
+void print_design_example(RpcClient& client, const std::string& lot) {
+  const Json parts = client.call("part.list", Json{{"lot", lot}}).value("parts", Json::array());
+  if (parts.empty()) return;
+  const std::string label = parts[0].value("label", "?");
+  try {
+    const Json a = client.call("part.design", Json{{"part_id", parts[0]["part_id"]},
+                                                   {"calculator", "bias-for-loss"},
+                                                   {"inputs", {{"target_db", 0.5}, {"supply_v", 5.0}}}});
+    double i_a = std::nan(""), rb = std::nan("");
+    for (const auto& l : a["result"]) {
+      if (l["key"] == "bias_current_a") i_a = num(l["value"]);
+      if (l["key"] == "bias_resistor_ohm") rb = num(l["value"]);
+    }
+    std::printf("\ndesign (junco design bias-for-loss --part %s --target 0.5 --supply 5):\n"
+                "  %s as a series switch in 50 Ω at 10 MHz loses 0.5 dB at %s: from 5 V, a bias resistor of %s or less\n",
+                label.c_str(), label.c_str(), format_si(i_a, "A").c_str(), format_si(rb, "Ω").c_str());
+  } catch (const RpcError& e) {
+    std::printf("\ndesign example on %s: %s\n", label.c_str(), e.what());
+  }
+}
+
+// The first part's I-V and AC plots and the lot's spread, drawn by `junco plot`.
+void write_plots(const std::string& socket, const std::string& lot, const fs::path& dir, RpcClient& client) {
+  const Json parts = client.call("part.list", Json{{"lot", lot}}).value("parts", Json::array());
+  const Command* plot = nullptr;
+  for (const auto& c : commands())
+    if (c.name == "plot") plot = &c;
+  if (parts.empty() || !plot) return;
+  const std::string label = parts[0].value("label", "?");
+  const std::vector<std::pair<std::vector<std::string>, fs::path>> jobs{
+      {{"iv", "--part", label}, dir / (label + "-iv.svg")},
+      {{"ac", "--part", label}, dir / (label + "-ac.svg")},
+      {{"lot", "--lot", lot}, dir / "lot.svg"}};
+  std::printf("\nplots (junco plot; gnuplot):\n");
+  for (const auto& [args, out] : jobs) {
+    auto argv = args;
+    argv.insert(argv.end(), {"--socket", socket, "--out", out.string()});
+    if (plot->run(argv) == exit_ok) std::printf("  %s\n", out.c_str());
+  }
+}
+
 void wait_for_socket(const std::string& path, Child& daemon, const fs::path& log) {
   for (int i = 0; i < 300; ++i) {
     if (g_interrupted) throw std::runtime_error("interrupted");
@@ -354,8 +428,11 @@ int run(std::vector<std::string> args) {
     }
     if (g_interrupted) {
       std::printf("\ninterrupted: stopping juncod (outputs off) and junco-sim\n");
-    } else if (!print_lot(client, plan["lot"])) {
-      status = exit_failure;
+    } else {
+      if (!print_lot(client, plan["lot"])) status = exit_failure;
+      print_transfer(client, plan["lot"]);
+      print_design_example(client, plan["lot"]);
+      write_plots(socket, plan["lot"], dir, client);
     }
     if (keep && !g_interrupted) {
       daemon.release();
