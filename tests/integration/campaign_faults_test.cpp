@@ -115,9 +115,14 @@ std::string fault_line(const std::string& mode, std::mt19937_64& rng) {
 
 long retried_in_job(test::CampaignBench& b, long job) {
   long n = 0;
-  for (const auto& part : b.rpc("part.list", {{"lot", "CAMP-" + std::to_string(job)}})["parts"])
-    for (const auto& p : b.rpc("part.readings", {{"part_id", part["part_id"]}})["points"])
+  // Each reply is held in a named value: a range-for over a member of a
+  // temporary (rpc(...)["parts"]) would iterate a destroyed object.
+  const Json parts = b.rpc("part.list", {{"lot", "CAMP-" + std::to_string(job)}});
+  for (const auto& part : parts["parts"]) {
+    const Json readings = b.rpc("part.readings", {{"part_id", part["part_id"]}});
+    for (const auto& p : readings["points"])
       if (p["flags"].get<int>() & 2) ++n;
+  }
   return n;
 }
 

@@ -1,7 +1,12 @@
-// A child process for tests: started with posix_spawn from an argv (no shell),
-// its stdout read line by line with a deadline, stopped on destruction with
-// SIGTERM, then SIGKILL if it has not exited within the grace period, and
-// always reaped (no zombies). Header-only; POSIX only.
+// A child process for tests: started with fork + execve from an argv (no
+// shell), its stdout read line by line with a deadline, stopped on destruction
+// with SIGTERM, then SIGKILL if it has not exited within the grace period, and
+// always reaped (no zombies). The child is also SIGKILLed by the kernel if the
+// test dies without running destructors (a crash, a sanitizer report, an
+// uncaught signal): an orphaned daemon or simulator would otherwise keep
+// ctest's output pipe open and the test would hang until ctest's timeout.
+// (PR_SET_PDEATHSIG follows the spawning thread: create children on a thread
+// that outlives them, e.g. the test's own.) Header-only; Linux only.
 //
 //   junco::test::ChildProcess p({"/path/junco-sim", "--seed", "1"});
 //   auto line = p.read_line(std::chrono::seconds(5));   // nullopt on timeout/EOF
@@ -9,7 +14,7 @@
 
 #include <poll.h>
 #include <signal.h>
-#include <spawn.h>
+#include <sys/prctl.h>
 #include <sys/types.h>
 #include <sys/wait.h>
 #include <unistd.h>
@@ -28,6 +33,21 @@ extern char** environ;
 
 namespace junco::test {
 
+// True when this test program is built with AddressSanitizer (the debug
+// preset builds the programs it starts the same way). GCC defines
+// __SANITIZE_ADDRESS__, clang answers __has_feature(address_sanitizer).
+#if defined(__SANITIZE_ADDRESS__)
+inline constexpr bool kAddressSanitizer = true;
+#elif defined(__has_feature)
+#if __has_feature(address_sanitizer)
+inline constexpr bool kAddressSanitizer = true;
+#else
+inline constexpr bool kAddressSanitizer = false;
+#endif
+#else
+inline constexpr bool kAddressSanitizer = false;
+#endif
+
 struct ChildOptions {
   std::string stderr_path;  // empty: the child's stderr is the test's stderr
   std::chrono::milliseconds stop_grace{3000};  // SIGTERM → SIGKILL delay
@@ -39,22 +59,58 @@ class ChildProcess {
     if (argv.empty()) throw std::invalid_argument("ChildProcess: empty argv");
     int fds[2];
     if (::pipe2(fds, O_CLOEXEC) != 0) throw std::runtime_error(std::string("pipe: ") + std::strerror(errno));
-    posix_spawn_file_actions_t actions;
-    posix_spawn_file_actions_init(&actions);
-    posix_spawn_file_actions_adddup2(&actions, fds[1], STDOUT_FILENO);
-    posix_spawn_file_actions_addopen(&actions, STDIN_FILENO, "/dev/null", O_RDONLY, 0);
-    if (!options_.stderr_path.empty())
-      posix_spawn_file_actions_addopen(&actions, STDERR_FILENO, options_.stderr_path.c_str(),
-                                       O_WRONLY | O_CREAT | O_TRUNC, 0644);
+    int exec_status[2];  // the child writes errno here if execve fails; closed by a successful exec
+    if (::pipe2(exec_status, O_CLOEXEC) != 0) {
+      const int e = errno;
+      ::close(fds[0]);
+      ::close(fds[1]);
+      throw std::runtime_error(std::string("pipe: ") + std::strerror(e));
+    }
     std::vector<char*> cargv;
     for (auto& a : argv) cargv.push_back(a.data());
     cargv.push_back(nullptr);
-    const int rc = ::posix_spawn(&pid_, cargv[0], &actions, nullptr, cargv.data(), environ);
-    posix_spawn_file_actions_destroy(&actions);
+    const char* stderr_path = options_.stderr_path.empty() ? nullptr : options_.stderr_path.c_str();
+    const pid_t parent = ::getpid();
+    pid_ = ::fork();
+    if (pid_ == 0) {
+      // Async-signal-safe calls only until execve (the test may have threads).
+      auto fail = [&](int e) {
+        (void)!::write(exec_status[1], &e, sizeof e);
+        ::_exit(127);
+      };
+      if (::prctl(PR_SET_PDEATHSIG, SIGKILL) != 0) fail(errno);
+      if (::getppid() != parent) ::_exit(127);  // the test died before the line above took effect
+      if (::dup2(fds[1], STDOUT_FILENO) < 0) fail(errno);
+      const int in = ::open("/dev/null", O_RDONLY);
+      if (in < 0 || ::dup2(in, STDIN_FILENO) < 0) fail(errno);
+      if (in != STDIN_FILENO) ::close(in);
+      if (stderr_path) {
+        const int err = ::open(stderr_path, O_WRONLY | O_CREAT | O_TRUNC, 0644);
+        if (err < 0 || ::dup2(err, STDERR_FILENO) < 0) fail(errno);
+        if (err != STDERR_FILENO) ::close(err);
+      }
+      ::execve(cargv[0], cargv.data(), environ);
+      fail(errno);
+    }
+    const int fork_errno = errno;
     ::close(fds[1]);
-    if (rc != 0) {
+    ::close(exec_status[1]);
+    if (pid_ < 0) {
       ::close(fds[0]);
-      throw std::runtime_error("posix_spawn " + argv[0] + ": " + std::strerror(rc));
+      ::close(exec_status[0]);
+      throw std::runtime_error("fork " + argv[0] + ": " + std::strerror(fork_errno));
+    }
+    int child_errno = 0;
+    ssize_t got;
+    while ((got = ::read(exec_status[0], &child_errno, sizeof child_errno)) < 0 && errno == EINTR) {
+    }
+    ::close(exec_status[0]);
+    if (got > 0) {
+      int status = 0;
+      while (::waitpid(pid_, &status, 0) < 0 && errno == EINTR) {
+      }
+      ::close(fds[0]);
+      throw std::runtime_error("exec " + argv[0] + ": " + std::strerror(child_errno));
     }
     out_fd_ = fds[0];
   }
