@@ -11,6 +11,7 @@
 #include <catch2/catch.hpp>
 
 #include <cstdlib>
+#include <dlfcn.h>
 #include <filesystem>
 #include <sys/mount.h>
 #include <sys/stat.h>
@@ -50,6 +51,25 @@ std::string find_tty_node() {
 }
 
 std::string self_exe() { return fs::read_symlink("/proc/self/exe").string(); }
+
+// LD_PRELOAD for the namespace child. A dynamically linked AddressSanitizer
+// runtime (GCC's default) refuses to start unless it is the first object
+// loaded after the program, so under ASan the runtime this executable uses
+// goes first and the shim after it. The shim's ioctl is then reached through
+// ASan's interceptor, which looks the real call up with RTLD_NEXT and so finds
+// the shim before libc. A statically linked runtime (clang's default) needs
+// nothing preloaded.
+std::string preload_list(const std::string& shim) {
+  if constexpr (junco::test::kAddressSanitizer) {
+    Dl_info info{};
+    void* init = ::dlsym(RTLD_DEFAULT, "__asan_init");
+    if (init && ::dladdr(init, &info) != 0 && info.dli_fname) {
+      const std::string runtime = info.dli_fname;
+      if (runtime.find("asan") != std::string::npos && runtime.find(".so") != std::string::npos) return runtime + ":" + shim;
+    }
+  }
+  return shim;
+}
 
 }  // namespace
 
@@ -135,7 +155,7 @@ TEST_CASE("libserialport end to end: the sim's pty bind-mounted over a tty node"
   // `unshare -m` (a private mount namespace: the bind mount is invisible
   // outside) with the shim preloaded.
   junco::test::ChildProcess child({"/usr/bin/unshare", "-m", "--propagation", "private", "/usr/bin/env",
-                                   "LD_PRELOAD=" + shim, "JUNCO_NS_PTY=" + path_of(sim.endpoint("meter")),
+                                   "LD_PRELOAD=" + preload_list(shim), "JUNCO_NS_PTY=" + path_of(sim.endpoint("meter")),
                                    "JUNCO_NS_NODE=" + node, "JUNCO_NS_CONTROL=" + sim.endpoint("control"),
                                    self_exe(), "[.serial-ns-child]"});
   std::string output;
