@@ -30,10 +30,7 @@ struct TransferOptions {
   double ac_sigma_db = 0.01;  // standard uncertainty of one AC ratio reading
   double cj_f = 0.0;          // junction capacitance for the AC model (0: ignored)
   // Readings the small-signal model cannot describe are left out of the RMS
-  // and the joint fit (and listed as such): a signal current peak above this
-  // fraction of the bias (the junction is driven nonlinearly), and an output
-  // level below the floor (in the readings' own unit, the meter's noise
-  // dominates). Common practice, no source.
+  // and the joint fit, and listed as such (fitting::screen_ac_readings).
   double max_signal_ratio = 0.1;
   double ac_floor_v = 100e-6;
 };

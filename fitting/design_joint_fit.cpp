@@ -161,7 +161,44 @@ JointFitReport compare_dc_and_joint(std::span<const IvPoint> dc, std::span<const
   std::snprintf(line, sizeof line, "joint reduced chi2 %.3g %s %.3g (%s)\n", r.joint.reduced_chi2,
                 consistent ? "<=" : ">", options.max_reduced_chi2, consistent ? "consistent" : "DISAGREE: AC and DC data inconsistent");
   r.agreement += line;
+  // A junction warmed by its own dissipation at the top of the sweep reads a
+  // lower Vf there, which the DC fit takes as a smaller Rs; the AC readings
+  // see the dynamic resistance directly (REFERENCES.md §3, self-heating).
+  if (!r.agree && r.dc_only.ok && r.joint.ok && r.joint.rs_ohm.value > r.dc_only.rs_ohm.value)
+    r.hint =
+        "the AC readings see a larger Rs than the DC curve: typical of self-heating at the top of the DC sweep "
+        "(shorter settling or pulsed readings there, or trust the joint fit's Rs)";
   return r;
+}
+
+std::vector<std::string> screen_ac_readings(std::span<const AcPoint> ac, const Fixture& fx, const AcScreen& screen) {
+  const double z_cathode_ohm = 1.0 / (1.0 / fx.rl_ohm + 1.0 / fx.dc_return_ohm);  // 1/inf = 0: a choke
+  std::vector<std::string> why;
+  why.reserve(ac.size());
+  for (const auto& p : ac) {
+    const double signal_peak_a = p.vout * p.peak_per_unit / z_cathode_ohm;
+    if (!(p.vout >= screen.floor_v && p.vin >= screen.floor_v)) why.emplace_back("below the level floor");
+    else if (!(signal_peak_a <= screen.max_signal_ratio * p.bias_i_a)) why.emplace_back("large signal");
+    else why.emplace_back();
+  }
+  return why;
+}
+
+namespace {
+nlohmann::json number_or_null(double x) { return std::isfinite(x) ? nlohmann::json(x) : nlohmann::json(nullptr); }
+nlohmann::json estimate_json(const Estimate& e) { return {{"value", number_or_null(e.value)}, {"std_error", number_or_null(e.std_error)}}; }
+}  // namespace
+
+nlohmann::json simple_fit_json(const SimpleFit& f) {
+  return {{"ok", f.ok},          {"message", f.message},       {"is_a", estimate_json(f.is_a)},
+          {"n", estimate_json(f.n)}, {"rs_ohm", estimate_json(f.rs_ohm)}, {"reduced_chi2", number_or_null(f.reduced_chi2)},
+          {"dc_points", f.dc_points}, {"ac_points", f.ac_points}};
+}
+
+nlohmann::json joint_report_json(const JointFitReport& r) {
+  nlohmann::json j{{"dc_only", simple_fit_json(r.dc_only)}, {"joint", simple_fit_json(r.joint)}, {"agree", r.agree}, {"agreement", r.agreement}};
+  if (!r.hint.empty()) j["hint"] = r.hint;
+  return j;
 }
 
 }  // namespace junco::fitting

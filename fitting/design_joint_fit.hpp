@@ -24,8 +24,11 @@
 #include "fitting/extract.hpp"
 #include "fitting/transfer.hpp"
 
+#include <nlohmann/json.hpp>
+
 #include <span>
 #include <string>
+#include <vector>
 
 namespace junco::fitting {
 
@@ -54,8 +57,26 @@ struct JointFitReport {
   SimpleFit dc_only;
   SimpleFit joint;
   bool agree = false;
-  std::string agreement;  // one line per parameter
+  std::string agreement;  // one line per parameter, then the χ² test
+  std::string hint;       // set when the disagreement looks like self-heating
 };
+
+// Which AC readings the small-signal model can describe. A reading is left
+// out when a level is below the floor (in the readings' unit: the meter's
+// noise dominates), or when its signal current peak, Vout·peak_per_unit over
+// |RL ∥ Rr|, exceeds max_signal_ratio of the bias (the junction is driven
+// nonlinearly). Both thresholds are common practice, no source.
+struct AcScreen {
+  double max_signal_ratio = 0.1;
+  double floor_v = 100e-6;
+};
+// One entry per reading: "" when used, else "large signal" or "below the level floor".
+std::vector<std::string> screen_ac_readings(std::span<const AcPoint> ac, const Fixture& fixture, const AcScreen& screen);
+
+// {ok, message, is_a:{value,std_error}, n, rs_ohm, reduced_chi2, dc_points, ac_points}
+nlohmann::json simple_fit_json(const SimpleFit& fit);
+// {dc_only, joint, agree, agreement[, hint]}
+nlohmann::json joint_report_json(const JointFitReport& report);
 
 // ac may be empty (then this is the DC-only fit).
 SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, const Fixture& fixture,

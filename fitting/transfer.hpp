@@ -69,6 +69,7 @@ struct AcPoint {
   double freq_hz = 0.0;
   double vin = 0.0;   // ch1, fixture input
   double vout = 0.0;  // ch2, fixture output
+  double peak_per_unit = 1.4142135623730951;  // peak volts per reading unit: √2 for Vrms readings, ½ for Vpp
 };
 
 struct AcResidual {

@@ -5,6 +5,8 @@
 
 #include "tests/support/cli_run.hpp"
 
+#include <nlohmann/json.hpp>
+
 #include <catch2/catch.hpp>
 
 #include <cmath>
@@ -126,4 +128,42 @@ TEST_CASE("junco plot renders SVGs with labelled axes, and a PNG") {
   REQUIRE(png.size() > 8);
   CHECK(png.substr(1, 3) == "PNG");
   CHECK(run_junco("plot iv --readings " + d.file("missing.csv") + " --model " + d.file("m.json") + " --out x.svg").status == 2);
+}
+
+TEST_CASE("junco fit --ac: joint AC+DC fit offline, agreeing and disagreeing") {
+  // Readings generated from the Shockley equation with series resistance
+  // (REFERENCES.md §2) and the fixture divider 50/(50 + Rs + n·Vt/I)
+  // (REFERENCES.md §6, small-signal rd); "another Rs" feeds the AC readings
+  // a different Rs than the DC curve, as a hot DC sweep would.
+  Dir d;
+  const DiodeParams truth{2e-9, 1.8, 0.7};
+  const double vt = 0.025864;  // kT/q at 300.15 K (REFERENCES.md §1)
+  std::vector<IvPoint> iv;
+  std::vector<AcPoint> ac_same, ac_other;
+  for (int k = 0; k < 30; ++k) {
+    const double i = 1e-5 * std::pow(10.0, k / 8.0);
+    iv.push_back({diode_voltage_v(truth, i, 300.15) + 5e-5 * ((k % 3) - 1), i});
+    const double wiggle = 1.0 + 1e-4 * ((k % 2) ? 1 : -1);
+    ac_same.push_back({i, 1e6, 1e-3, 1e-3 * wiggle * 50.0 / (50.0 + 0.7 + 1.8 * vt / i)});
+    ac_other.push_back({i, 1e6, 1e-3, 1e-3 * wiggle * 50.0 / (50.0 + 2.0 + 1.8 * vt / i)});
+  }
+  std::ofstream(d.file("iv.csv")) << iv_readings_csv(iv);
+  std::ofstream(d.file("same.csv")) << ac_readings_csv(ac_same);
+  std::ofstream(d.file("other.csv")) << ac_readings_csv(ac_other);
+  auto r = run_junco("fit " + d.file("iv.csv") + " --ac " + d.file("same.csv"));
+  INFO(r.out);
+  CHECK(r.status == 0);
+  CHECK(r.out.find("verdict: AC and DC agree") != std::string::npos);
+  r = run_junco("fit " + d.file("iv.csv") + " --ac " + d.file("other.csv"));
+  INFO(r.out);
+  CHECK(r.status == 0);  // a disagreement is a finding, not a failure
+  CHECK(r.out.find("verdict: AC and DC DISAGREE") != std::string::npos);
+  CHECK(r.out.find("self-heating") != std::string::npos);
+  r = run_junco("fit " + d.file("iv.csv") + " --ac " + d.file("same.csv") + " --json");
+  const auto j = nlohmann::json::parse(r.out);
+  CHECK(j["joint"]["agree"] == true);
+  CHECK(j["joint"]["joint"]["rs_ohm"]["value"].get<double>() == Approx(0.7).margin(0.02));
+  CHECK(j["joint"]["ac_used"].get<long>() > 20);
+  CHECK(run_junco("fit " + d.file("iv.csv") + " --ac " + d.file("iv.csv")).status == 2);
+  CHECK(run_junco("fit " + d.file("iv.csv") + " --ac " + d.file("same.csv") + " --ac-unit dBm").status == 2);
 }

@@ -1,9 +1,13 @@
 // junco fit FILE.csv: offline fit of one measured forward curve.
 #include "fitting/derived.hpp"
+#include "fitting/design_joint_fit.hpp"
+#include "fitting/design_readings_csv.hpp"
+#include "fitting/design_units.hpp"
 #include "fitting/extract.hpp"
 #include "fitting/iv_csv.hpp"
 #include "fitting/model_document.hpp"
 #include "tools/junco/command.hpp"
+#include "tools/junco/joint_report.hpp"
 
 #include <nlohmann/json.hpp>
 
@@ -60,9 +64,21 @@ options:
                        `junco design --model`, `junco export` and `junco plot` read
   --label L, --lot L   the part's label and lot in that document (default: file name)
 
+joint AC+DC fit (the AC readings pin Rs and n through rd = Rs + n·Vt/I, the DC
+curve pins Is; says whether the two agree within their uncertainties):
+  --ac AC.csv          fixture-gain readings, header bias_i_a,freq_hz,vin,vout
+                       (junco show PART --export ac-csv writes one)
+  --ac-unit vrms|vpp   the unit of vin and vout (default vrms)
+  --rl OHM             fixture load (default 50)
+  --rreturn OHM        DC-return resistor at the cathode (default: a choke, open at AC)
+  --ac-sigma DB        uncertainty of one AC reading (default 0.01)
+  --cj F               junction capacitance in the AC model (default: none)
+  AC readings below 100 uV or with a signal current above 0.1 x the bias are left out.
+
 exit status: 0 fitted; 1 the fit failed; 2 bad command line or bad input file.
 Examples: junco fit tools/examples/kestrel24b_k24b017.csv --robust huber
-          junco fit curve.csv --model-out part.json && junco plot iv --readings curve.csv --model part.json --out iv.svg)";
+          junco fit curve.csv --model-out part.json && junco plot iv --readings curve.csv --model part.json --out iv.svg
+          junco fit iv.csv --ac ac.csv --rl 50)";
 
 struct Args {
   std::string file;
@@ -71,6 +87,9 @@ struct Args {
   bool json = false;
   std::string model_out;  // empty: no model document
   std::string label, lot;
+  std::string ac_file;  // empty: no joint fit
+  jf::Fixture fixture;  // for the AC model (rl, dc return)
+  double ac_sigma_db = 0.01, cj_f = 0.0, peak_per_unit = 1.4142135623730951;
 };
 
 struct UsageError : std::runtime_error {
@@ -144,6 +163,26 @@ Args parse_args(const std::vector<std::string>& argv) {
       std::tie(a.fit.accuracy.v_rel, a.fit.accuracy.v_abs_v) = parse_accuracy(s, value());
     } else if (s == "--accuracy-i") {
       std::tie(a.fit.accuracy.i_rel, a.fit.accuracy.i_abs_a) = parse_accuracy(s, value());
+    } else if (s == "--ac") {
+      a.ac_file = value();
+    } else if (s == "--ac-unit") {
+      const std::string& v = value();
+      if (v == "vrms") a.peak_per_unit = std::sqrt(2.0);
+      else if (v == "vpp") a.peak_per_unit = 0.5;
+      else throw UsageError("--ac-unit: '" + v + "' is not vrms or vpp");
+    } else if (s == "--rl" || s == "--rreturn" || s == "--ac-sigma" || s == "--cj") {
+      const char* unit = s == "--ac-sigma" ? "dB" : s == "--cj" ? "F" : "Ohm";
+      std::string why;
+      const auto v = jf::parse_engineering(value(), unit, &why);
+      if (!v) throw UsageError(s + ": " + why);
+      if (s == "--rl" && !(*v > 0)) throw UsageError("--rl must be > 0");
+      if (s == "--rreturn" && !(*v > 0)) throw UsageError("--rreturn must be > 0 (leave it out for a choke)");
+      if (s == "--ac-sigma" && !(*v > 0)) throw UsageError("--ac-sigma must be > 0");
+      if (s == "--cj" && !(*v >= 0)) throw UsageError("--cj must be >= 0");
+      if (s == "--rl") a.fixture.rl_ohm = *v;
+      else if (s == "--rreturn") a.fixture.dc_return_ohm = *v;
+      else if (s == "--ac-sigma") a.ac_sigma_db = *v;
+      else a.cj_f = *v;
     } else if (s == "--noise-floor") {
       a.fit.noise_floor_a = parse_number(s, value());
       if (a.fit.noise_floor_a < 0.0) throw UsageError("--noise-floor must be ≥ 0");
@@ -197,7 +236,7 @@ Derived derive(const jf::FitResult& r) {
   return {jf::forward_voltage_v(r, 1e-3), jf::forward_voltage_v(r, 10e-3), jf::small_signal_resistance_ohm(r, 5e-3)};
 }
 
-void print_json(const Args& a, const jf::IvCsv& csv, const jf::FitResult& r) {
+void print_json(const Args& a, const jf::IvCsv& csv, const jf::FitResult& r, const nlohmann::json& joint) {
   nlohmann::json j;
   j["file"] = a.file;
   j["status"] = jf::to_string(r.status);
@@ -231,6 +270,7 @@ void print_json(const Args& a, const jf::IvCsv& csv, const jf::FitResult& r) {
   j["derived"] = {{"vf_at_1ma_v", number(d.vf_1ma.value)},   {"vf_at_1ma_v_se", number(d.vf_1ma.std_error)},
                   {"vf_at_10ma_v", number(d.vf_10ma.value)}, {"vf_at_10ma_v_se", number(d.vf_10ma.std_error)},
                   {"rd_at_5ma_ohm", number(d.rd_5ma.value)}, {"rd_at_5ma_ohm_se", number(d.rd_5ma.std_error)}};
+  if (!joint.is_null()) j["joint"] = joint;
   std::printf("%s\n", j.dump(2).c_str());
 }
 
@@ -269,6 +309,52 @@ int write_model(const Args& a, const jf::FitResult& r) {
   return exit_ok;
 }
 
+// The joint AC+DC fit of --ac: the readings, which of them are used, and the report.
+struct JointRun {
+  std::size_t ac_total = 0, ac_used = 0;
+  std::map<std::string, int> left_out;  // reason → count
+  jf::JointFitReport report;
+};
+
+JointRun joint_fit(const Args& a, const jf::IvCsv& csv) {
+  std::string why;
+  const auto table = jf::parse_readings_csv(read_file(a.ac_file), &why);
+  if (!table) throw UsageError(a.ac_file + ": " + why);
+  if (table->ac.empty()) throw UsageError(a.ac_file + ": no AC readings (header bias_i_a,freq_hz,vin,vout)");
+  JointRun run;
+  std::vector<jf::AcPoint> all(table->ac.begin(), table->ac.end()), used;
+  for (auto& p : all) p.peak_per_unit = a.peak_per_unit;
+  const auto reasons = jf::screen_ac_readings(all, a.fixture, {});
+  for (std::size_t k = 0; k < all.size(); ++k) {
+    if (reasons[k].empty()) used.push_back(all[k]);
+    else ++run.left_out[reasons[k]];
+  }
+  run.ac_total = all.size();
+  run.ac_used = used.size();
+  jf::JointFitOptions o;
+  o.temp_k = a.fit.temp_k;
+  o.accuracy = a.fit.accuracy;
+  o.ac_sigma_db = a.ac_sigma_db;
+  o.cj_f = a.cj_f;
+  run.report = jf::compare_dc_and_joint(csv.points, used, a.fixture, o);
+  return run;
+}
+
+nlohmann::json joint_json(const JointRun& j) {
+  nlohmann::json out = jf::joint_report_json(j.report);
+  out["ac_readings"] = j.ac_total;
+  out["ac_used"] = j.ac_used;
+  out["ac_left_out"] = j.left_out;
+  return out;
+}
+
+void print_joint(const Args& a, const JointRun& j) {
+  std::printf("\n%s: %zu AC readings, %zu used", a.ac_file.c_str(), j.ac_total, j.ac_used);
+  for (const auto& [reason, count] : j.left_out) std::printf(", %d left out (%s)", count, reason.c_str());
+  std::printf("\n");
+  print_joint_report(jf::joint_report_json(j.report));
+}
+
 int run_fit(const std::vector<std::string>& argv) {
   Args a;
   jf::IvCsv csv;
@@ -296,10 +382,20 @@ int run_fit(const std::vector<std::string>& argv) {
     std::fprintf(stderr, "junco fit: %s: fit failed: %s\n", a.file.c_str(), r.message.c_str());
     return exit_failure;
   }
+  JointRun joint;
+  if (!a.ac_file.empty()) {
+    try {
+      joint = joint_fit(a, csv);
+    } catch (const UsageError& e) {
+      std::fprintf(stderr, "junco fit: %s\n", e.what());
+      return exit_usage;
+    }
+  }
   if (a.json) {
-    print_json(a, csv, r);
+    print_json(a, csv, r, a.ac_file.empty() ? nlohmann::json(nullptr) : joint_json(joint));
   } else {
     print_human(a, csv, r);
+    if (!a.ac_file.empty()) print_joint(a, joint);
   }
   if (!r.usable()) {
     std::fprintf(stderr, "junco fit: %s: fit did not converge: %s\n", a.file.c_str(), r.message.c_str());

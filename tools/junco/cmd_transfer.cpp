@@ -1,6 +1,7 @@
 // junco transfer PART: a run's AC readings against the model of the part's
 // fit, and the joint AC+DC fit with its verdict (juncod's part.transfer).
 #include "tools/junco/command.hpp"
+#include "tools/junco/joint_report.hpp"
 #include "tools/junco/rpc_client.hpp"
 
 #include <cmath>
@@ -36,27 +37,6 @@ example:
 exit status: 0 shown (agreeing or not); 1 unknown part, no AC readings or fit, or daemon error; 2 bad options.)";
 
 double num(const Json& j) { return j.is_number() ? j.get<double>() : std::nan(""); }
-
-std::string estimate(const Json& e, const std::string& unit) {
-  if (!e.is_object() || !e["value"].is_number()) return "not determined";
-  const auto fmt = [&](double x, int digits) {
-    if (!unit.empty()) return format_si(x, unit, digits);
-    char t[32];
-    std::snprintf(t, sizeof t, "%.*g", digits, x);
-    return std::string(t);
-  };
-  std::string text = fmt(e["value"].get<double>(), 5);
-  if (e["std_error"].is_number()) text += " ± " + fmt(e["std_error"].get<double>(), 2);
-  return text;
-}
-
-// Pads to `width` columns (Ω and ± are two bytes, one column).
-std::string pad(std::string text, std::size_t width) {
-  std::size_t cols = 0;
-  for (unsigned char c : text) cols += (c & 0xC0) != 0x80;
-  if (cols < width) text.append(width - cols, ' ');
-  return text;
-}
 
 void print_report(const Json& r, bool all_points) {
   const auto& fx = r["fixture"];
@@ -96,31 +76,7 @@ void print_report(const Json& r, bool all_points) {
   const Json& ex = r["excluded"];
   std::printf("  left out: %ld large-signal (signal peak > %.3g x bias), %ld below the level floor (%s)\n", ex["large_signal"].get<long>(),
               num(r["max_signal_ratio"]), ex["below_floor"].get<long>(), format_si(num(r["ac_floor_v"]), "V").c_str());
-  const Json& j = r["joint"];
-  if (!j.is_object()) return;
-  std::printf("\n  joint AC+DC fit against the DC-only fit\n  %-14s %-26s %-26s\n", "", "DC only", "DC + AC");
-  const auto row = [&](const char* name, const char* key, const std::string& unit) {
-    std::printf("  %s%s%s\n", pad(name, 15).c_str(), pad(estimate(j["dc_only"][key], unit), 27).c_str(), estimate(j["joint"][key], unit).c_str());
-  };
-  row("Is", "is_a", "A");
-  row("n", "n", "");
-  row("Rs", "rs_ohm", "Ω");
-  std::printf("  %s%s%s\n", pad("reduced chi2", 15).c_str(), pad(std::to_string(num(j["dc_only"]["reduced_chi2"])).substr(0, 8), 27).c_str(),
-              std::to_string(num(j["joint"]["reduced_chi2"])).substr(0, 8).c_str());
-  std::printf("  %s%s%s\n", pad("readings", 15).c_str(), pad(std::to_string(j["dc_only"]["dc_points"].get<long>()) + " DC", 27).c_str(),
-              (std::to_string(j["joint"]["dc_points"].get<long>()) + " DC + " + std::to_string(j["joint"]["ac_points"].get<long>()) + " AC").c_str());
-  for (const char* which : {"dc_only", "joint"})
-    if (!j[which]["ok"].get<bool>()) std::printf("  %s fit: %s\n", which, j[which]["message"].get<std::string>().c_str());
-  std::printf("\n  verdict: %s\n", j["agree"].get<bool>() ? "AC and DC agree within their uncertainties" : "AC and DC DISAGREE");
-  std::string lines = j["agreement"].get<std::string>();
-  std::size_t start = 0;
-  while (start < lines.size()) {
-    const auto end = lines.find('\n', start);
-    std::printf("    %s\n", lines.substr(start, end - start).c_str());
-    if (end == std::string::npos) break;
-    start = end + 1;
-  }
-  if (j.contains("hint")) std::printf("  hint: %s\n", j["hint"].get<std::string>().c_str());
+  if (r["joint"].is_object()) print_joint_report(r["joint"]);
 }
 
 int run(std::vector<std::string> args) {

@@ -1,0 +1,70 @@
+#include "tools/junco/joint_report.hpp"
+
+#include "tools/junco/rpc_client.hpp"
+
+#include <cmath>
+#include <cstdio>
+#include <string>
+
+namespace junco::cli {
+
+namespace {
+
+double num(const Json& j) { return j.is_number() ? j.get<double>() : std::nan(""); }
+
+std::string estimate(const Json& e, const std::string& unit) {
+  if (!e.is_object() || !e["value"].is_number()) return "not determined";
+  const auto fmt = [&](double x, int digits) {
+    if (!unit.empty()) return format_si(x, unit, digits);
+    char t[32];
+    std::snprintf(t, sizeof t, "%.*g", digits, x);
+    return std::string(t);
+  };
+  std::string text = fmt(e["value"].get<double>(), 5);
+  if (e["std_error"].is_number()) text += " ± " + fmt(e["std_error"].get<double>(), 2);
+  return text;
+}
+
+// Pads to `width` columns (Ω and ± are two bytes, one column).
+std::string pad(std::string text, std::size_t width) {
+  std::size_t cols = 0;
+  for (unsigned char c : text) cols += (c & 0xC0) != 0x80;
+  if (cols < width) text.append(width - cols, ' ');
+  return text;
+}
+
+std::string chi2(const Json& j) {
+  char t[32];
+  std::snprintf(t, sizeof t, "%.3g", num(j));
+  return t;
+}
+
+}  // namespace
+
+void print_joint_report(const Json& j) {
+  std::printf("\n  joint AC+DC fit against the DC-only fit\n  %-14s %-26s %-26s\n", "", "DC only", "DC + AC");
+  const auto row = [&](const char* name, const char* key, const std::string& unit) {
+    std::printf("  %s%s%s\n", pad(name, 15).c_str(), pad(estimate(j["dc_only"][key], unit), 27).c_str(), estimate(j["joint"][key], unit).c_str());
+  };
+  row("Is", "is_a", "A");
+  row("n", "n", "");
+  row("Rs", "rs_ohm", "Ω");
+  std::printf("  %s%s%s\n", pad("reduced chi2", 15).c_str(), pad(chi2(j["dc_only"]["reduced_chi2"]), 27).c_str(),
+              chi2(j["joint"]["reduced_chi2"]).c_str());
+  std::printf("  %s%s%s\n", pad("readings", 15).c_str(), pad(std::to_string(j["dc_only"]["dc_points"].get<long>()) + " DC", 27).c_str(),
+              (std::to_string(j["joint"]["dc_points"].get<long>()) + " DC + " + std::to_string(j["joint"]["ac_points"].get<long>()) + " AC").c_str());
+  for (const char* which : {"dc_only", "joint"})
+    if (!j[which]["ok"].get<bool>()) std::printf("  %s fit: %s\n", which, j[which]["message"].get<std::string>().c_str());
+  std::printf("\n  verdict: %s\n", j["agree"].get<bool>() ? "AC and DC agree within their uncertainties" : "AC and DC DISAGREE");
+  const std::string lines = j["agreement"].get<std::string>();
+  std::size_t start = 0;
+  while (start < lines.size()) {
+    const auto end = lines.find('\n', start);
+    std::printf("    %s\n", lines.substr(start, end - start).c_str());
+    if (end == std::string::npos) break;
+    start = end + 1;
+  }
+  if (j.contains("hint")) std::printf("  hint: %s\n", j["hint"].get<std::string>().c_str());
+}
+
+}  // namespace junco::cli
