@@ -9,6 +9,8 @@
 #include "daemon/plan.hpp"
 #include "daemon/store.hpp"
 #include "fitting/derived.hpp"
+#include "fitting/model_document.hpp"
+#include "fitting/spice_card.hpp"
 
 #include <chrono>
 #include <iostream>
@@ -64,6 +66,8 @@ const std::map<std::string, std::set<std::string>>& known_params() {
       {"part.fit", {"part_id"}},       {"part.figures", {"part_id", "currents_a"}},
       {"part.export", {"part_id", "format"}},
       {"part.design", {"part_id", "calculator", "inputs"}},
+      {"lot.stats", {"lot", "currents_a", "match_current_a", "match_tolerance_v", "set_size"}},
+      {"lot.export", {"lot", "format"}},
       {"part.transfer", {"part_id", "run_id", "ac_sigma_db", "cj_f", "max_signal_ratio", "ac_floor_v"}}};
   return table;
 }
@@ -143,6 +147,8 @@ class CoreService final : public Service {
     table_["part.export"] = [this](const Json& p, const Caller&) { return export_part(p); };
     table_["part.design"] = [this](const Json& p, const Caller&) { return design(p); };
     table_["part.transfer"] = [this](const Json& p, const Caller&) { return transfer(p); };
+    table_["lot.stats"] = [this](const Json& p, const Caller&) { return lot_stats(p); };
+    table_["lot.export"] = [this](const Json& p, const Caller&) { return lot_export(p); };
   }
 
   Json status() {
@@ -238,6 +244,19 @@ class CoreService final : public Service {
     return *fit;
   }
 
+  static std::vector<double> positive_list(const Json& params, const char* key) {
+    const Json& c = params[key];
+    if (!c.is_array() || c.empty() || c.size() > 64)
+      throw RequestError(RpcCode::invalid_params, std::string(key) + ": must be an array of 1..64 numbers", Json{{"field", key}});
+    std::vector<double> out;
+    for (const auto& v : c) {
+      if (!v.is_number() || !(v.get<double>() > 0) || !std::isfinite(v.get<double>()))
+        throw RequestError(RpcCode::invalid_params, std::string(key) + ": every entry must be a number > 0", Json{{"field", key}});
+      out.push_back(v.get<double>());
+    }
+    return out;
+  }
+
   static double opt_number_param(const Json& params, const char* key, double fallback, bool allow_zero) {
     if (!params.contains(key) || params[key].is_null()) return fallback;
     const Json& v = params[key];
@@ -267,6 +286,58 @@ class CoreService final : public Service {
     }
   }
 
+  // The lot's parts with a usable fit, as lot statistics take them; the others
+  // are listed with the reason. not_found for an unknown lot or no fit at all.
+  std::vector<fitting::LotPart> lot_parts(const Json& params, Json& left_out) {
+    const auto lot = opt_string_param(params, "lot");
+    if (!lot) throw RequestError(RpcCode::invalid_params, "lot: missing (required)", Json{{"field", "lot"}});
+    const Json parts = store_.parts(*lot);
+    if (parts.empty()) throw RequestError(RpcCode::not_found, "no lot \"" + *lot + "\"", Json{{"lot", *lot}});
+    std::vector<fitting::LotPart> out;
+    left_out = Json::array();
+    for (const auto& p : parts) {
+      const std::string label = p.value("label", "");
+      const auto fit = store_.latest_fit(p.value("part_id", Id{0}));
+      const fitting::FitResult r = fit ? fit_result_from_json(*fit) : fitting::FitResult{};
+      if (!fit || !r.usable()) {
+        left_out.push_back({{"label", label}, {"reason", fit ? "fit " + fit->value("status", std::string("?")) : std::string("no fit yet")}});
+        continue;
+      }
+      out.push_back({label, *lot, r.params(), std::isfinite(r.temp_k) ? r.temp_k : 300.15});
+    }
+    if (out.empty()) throw RequestError(RpcCode::not_found, "lot \"" + *lot + "\" has no part with a usable fit", Json{{"lot", *lot}});
+    return out;
+  }
+
+  Json lot_stats(const Json& params) {
+    fitting::LotStatsOptions o;
+    if (params.contains("currents_a")) o.currents_a = positive_list(params, "currents_a");
+    o.match_current_a = opt_number_param(params, "match_current_a", o.match_current_a, false);
+    o.match_tolerance_v = opt_number_param(params, "match_tolerance_v", o.match_tolerance_v, false);
+    if (params.contains("set_size")) {
+      const Json& v = params["set_size"];
+      if (!v.is_number_integer() || v.get<long>() < 2 || v.get<long>() > 64)
+        throw RequestError(RpcCode::invalid_params, "set_size: must be an integer 2..64", Json{{"field", "set_size"}});
+      o.set_size = v.get<std::size_t>();
+    }
+    Json left_out;
+    const auto parts = lot_parts(params, left_out);
+    return lot_stats_report(params["lot"].get<std::string>(), parts, left_out, o);
+  }
+
+  Json lot_export(const Json& params) {
+    const auto format = opt_string_param(params, "format");
+    if (!format || (*format != "spice" && *format != "json"))
+      throw RequestError(RpcCode::invalid_params, "format: must be \"spice\" or \"json\"", Json{{"field", "format"}});
+    Json left_out;
+    const auto parts = lot_parts(params, left_out);
+    const std::string lot = params["lot"].get<std::string>();
+    const fitting::PartModel m = lot_nominal_model(lot, parts);
+    const std::string content = *format == "spice" ? fitting::spice_model_card(m, fitting::spice_model_name("D_" + lot + "_NOM"))
+                                                   : fitting::model_document_json(m);
+    return {{"format", *format}, {"content", content}, {"parts", parts.size()}, {"left_out", left_out}};
+  }
+
   // The AC readings of a run against the model of the latest fit, and the joint AC+DC fit.
   Json transfer(const Json& params) {
     const PartRow part = part_or_throw(id_param(params, "part_id"));
@@ -291,16 +362,7 @@ class CoreService final : public Service {
   Json figures(const Json& params) {
     const Id part_id = id_param(params, "part_id");
     std::vector<double> currents{1e-4, 1e-3, 1e-2};
-    if (params.contains("currents_a")) {
-      const Json& c = params["currents_a"];
-      if (!c.is_array() || c.empty()) throw RequestError(RpcCode::invalid_params, "currents_a: must be a non-empty array of numbers", Json{{"field", "currents_a"}});
-      currents.clear();
-      for (const auto& v : c) {
-        if (!v.is_number() || !(v.get<double>() > 0))
-          throw RequestError(RpcCode::invalid_params, "currents_a: every entry must be a number > 0", Json{{"field", "currents_a"}});
-        currents.push_back(v.get<double>());
-      }
-    }
+    if (params.contains("currents_a")) currents = positive_list(params, "currents_a");
     const Json fit = fit_of(part_id);
     const fitting::FitResult r = fit_result_from_json(fit);
     if (!r.usable()) throw RequestError(RpcCode::not_found, "part " + std::to_string(part_id) + " has no usable fit (" + fit.value("status", "") + ")");

@@ -3,6 +3,7 @@
 #include "daemon/part_export.hpp"
 
 #include <cmath>
+#include <cstdio>
 
 namespace junco::daemon {
 
@@ -115,6 +116,47 @@ Json transfer_report(const PartRow& part, const RunRow& run, const Json& fit, co
   const auto rep = fitting::compare_dc_and_joint(dc, ac, fx, jo);
   out["joint"] = fitting::joint_report_json(rep);
   return out;
+}
+
+Json lot_stats_report(const std::string& lot, const std::vector<fitting::LotPart>& parts, const Json& left_out,
+                      const fitting::LotStatsOptions& options) {
+  const auto all = fitting::lot_statistics(parts, options);
+  const fitting::LotStats& st = all.front();  // one lot in, one lot out
+  Json quantities = Json::array();
+  for (const auto& q : st.quantities)
+    quantities.push_back({{"name", q.name}, {"count", q.count}, {"mean", number_or_null(q.mean)}, {"std_dev", number_or_null(q.std_dev)},
+                          {"min", number_or_null(q.min)}, {"max", number_or_null(q.max)}, {"median", number_or_null(q.median)},
+                          {"mad", number_or_null(q.mad)}, {"outliers", q.outliers}});
+  Json matched = Json::array();
+  for (const auto& m : st.matched) matched.push_back({{"labels", m.labels}, {"spread_v", m.spread_v}});
+  return {{"lot", lot},
+          {"parts", st.labels},
+          {"left_out", left_out},
+          {"currents_a", options.currents_a},
+          {"match_current_a", options.match_current_a},
+          {"match_tolerance_v", options.match_tolerance_v},
+          {"set_size", options.set_size},
+          {"quantities", quantities},
+          {"matched", matched},
+          {"nominal", {{"is_a", st.nominal.is_a}, {"n", st.nominal.n}, {"rs_ohm", st.nominal.rs_ohm}}}};
+}
+
+fitting::PartModel lot_nominal_model(const std::string& lot, const std::vector<fitting::LotPart>& parts) {
+  fitting::LotStatsOptions options;
+  options.currents_a.clear();
+  const fitting::LotStats st = fitting::lot_statistics(parts, options).front();
+  fitting::PartModel m;
+  m.part_label = lot + "_NOM";
+  m.lot = lot;
+  m.temp_k = parts.front().temp_k;
+  m.params = st.nominal;
+  m.notes.push_back("lot nominal: median of " + std::to_string(parts.size()) + " fitted parts (IS in log)");
+  for (const auto& q : st.quantities) {
+    char line[160];
+    std::snprintf(line, sizeof line, "lot spread %s: std dev %.4g, range %.4g .. %.4g", q.name.c_str(), q.std_dev, q.min, q.max);
+    m.notes.push_back(line);
+  }
+  return m;
 }
 
 }  // namespace junco::daemon

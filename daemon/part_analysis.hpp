@@ -6,6 +6,8 @@
 #include "daemon/store.hpp"
 #include "fitting/design_calculators.hpp"
 #include "fitting/design_joint_fit.hpp"
+#include "fitting/lot_stats.hpp"
+#include "fitting/spice_card.hpp"
 #include "fitting/transfer.hpp"
 
 #include <vector>
@@ -40,5 +42,15 @@ struct TransferOptions {
 // the DC-only and joint fits with the agreement verdict (null without AC readings).
 Json transfer_report(const PartRow& part, const RunRow& run, const Json& fit, const std::vector<PointRow>& points,
                      const TransferOptions& options);
+
+// lot.stats's result: the statistics of the lot's fitted parts (mean, std
+// dev, range, median, MAD, outliers per quantity; matched sets; the median
+// nominal), and the parts left out for want of a usable fit.
+Json lot_stats_report(const std::string& lot, const std::vector<fitting::LotPart>& parts, const Json& left_out,
+                      const fitting::LotStatsOptions& options);
+
+// The lot's nominal part (median of each parameter) as the exporters take it;
+// the card's comment says how many parts it stands for and their spread.
+fitting::PartModel lot_nominal_model(const std::string& lot, const std::vector<fitting::LotPart>& parts);
 
 }  // namespace junco::daemon

@@ -16,7 +16,9 @@
 //   part.figures      {part_id, currents_a?:[..]} → Vf and rd at those currents
 //   part.export       {part_id, format}           → {format, content}
 //   part.design       {part_id, calculator, inputs} → a design calculator's answer on the latest fit
-//   part.transfer     {part_id, run_id?, ac_sigma_db?, cj_f?} → AC readings vs model, joint AC+DC fit
+//   part.transfer     {part_id, run_id?, ac_sigma_db?, cj_f?, ...} → AC readings vs model, joint AC+DC fit
+//   lot.stats         {lot, currents_a?, match_current_a?, ...} → spread, outliers, matched sets, nominal
+//   lot.export        {lot, format}               → the lot nominal as a SPICE card or model document
 // Events (published on the EventBus, sent as JSON-RPC notifications by the
 // server to subscribed clients): job.state, job.progress, point.added.
 #pragma once

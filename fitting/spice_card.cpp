@@ -42,6 +42,7 @@ std::string spice_model_card(const PartModel& part, const std::string& name) {
   std::string s;
   s += "* junco diode model: part " + one_line(part.part_label) + ", lot " + one_line(part.lot) + "\n";
   if (!part.run_id.empty()) s += "* run " + one_line(part.run_id) + "\n";
+  for (const auto& note : part.notes) s += "* " + one_line(note) + "\n";
   char line[160];
   std::snprintf(line, sizeof line, "* fitted at %.2f K (TNOM = %.2f degC)\n", part.temp_k, tnom_c);
   s += line;

@@ -10,6 +10,7 @@
 
 #include <limits>
 #include <string>
+#include <vector>
 
 namespace junco::fitting {
 
@@ -27,6 +28,7 @@ struct PartModel {
   double m = std::numeric_limits<double>::quiet_NaN();
   double rms_residual = std::numeric_limits<double>::quiet_NaN();  // of the fit, as the fit reports it
   std::size_t points_used = 0;
+  std::vector<std::string> notes;  // extra comment lines for the card (e.g. what a lot nominal is made of)
 };
 
 // A SPICE-legal model name from a label: letters, digits and '_' only,

@@ -137,6 +137,32 @@ TEST_CASE("part.transfer: without self-heating the AC readings agree with the DC
   CHECK(b.client().request("part.transfer", {{"part_id", 1}, {"sigma", 0.1}})["error"]["data"]["field"] == "sigma");
   CHECK(b.client().request("part.transfer", {{"part_id", 1}, {"run_id", 77}})["error"]["code"] == -32001);
 
+  // Lot statistics and the lot nominal over the two parts, against their fits:
+  // the mean of n is their average; the nominal IS is the median in log, for
+  // two parts their geometric mean (definition of the median, no source needed).
+  const Json stats_params{{"lot", "DSN-0414"}, {"currents_a", {1e-3}}};
+  const Json stats = b.result("lot.stats", stats_params);
+  CHECK(test::schema_problem(test::api_schema("lot.stats")["result"], stats) == "");
+  CHECK(test::schema_problem(test::api_schema("lot.stats")["params"], stats_params) == "");
+  const Json f1 = b.result("part.fit", {{"part_id", 1}}), f2 = b.result("part.fit", {{"part_id", 2}});
+  CHECK(stats["parts"].size() == 2);
+  for (const auto& q : stats["quantities"])
+    if (q["name"] == "n") CHECK(q["mean"].get<double>() == Approx((f1["n"]["value"].get<double>() + f2["n"]["value"].get<double>()) / 2));
+  const double is_nominal = std::sqrt(f1["is_a"]["value"].get<double>() * f2["is_a"]["value"].get<double>());
+  CHECK(stats["nominal"]["is_a"].get<double>() == Approx(is_nominal).epsilon(1e-9));
+  const Json card = b.result("lot.export", {{"lot", "DSN-0414"}, {"format", "spice"}});
+  CHECK(card["parts"] == 2);
+  CHECK(card["content"].get<std::string>().find(".model D_DSN_0414_NOM D(IS=") != std::string::npos);
+  CHECK(card["content"].get<std::string>().find("median of 2 fitted parts") != std::string::npos);
+  CHECK(b.client().request("lot.stats", {{"lot", "NO-SUCH"}})["error"]["code"] == -32001);
+  CHECK(b.client().request("lot.stats", {{"lot", "DSN-0414"}, {"set_size", 1}})["error"]["data"]["field"] == "set_size");
+  CHECK(b.client().request("lot.export", {{"lot", "DSN-0414"}, {"format", "pdf"}})["error"]["data"]["field"] == "format");
+  auto lots = b.junco({"lots", "DSN-0414", "--at", "1mA"});
+  INFO(lots.out << lots.err);
+  CHECK(lots.status == 0);
+  CHECK(lots.out.find("lot DSN-0414: 2 fitted parts") != std::string::npos);
+  CHECK(lots.out.find("Vf @ 1 mA") != std::string::npos);
+
   // The CLI's report, and the plots straight from the daemon.
   auto cli = b.junco({"transfer", "DS-1"});
   INFO(cli.out << cli.err);
