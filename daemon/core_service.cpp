@@ -123,7 +123,10 @@ class CoreService final : public Service {
   void shutdown() override {
     std::call_once(shutdown_once_, [this] {
       executor_.stop();
-      log_("shut down: outputs off");
+      // Only claim what is known: a bench that would not take the make-safe
+      // commands (already logged by the executor) is not reported as off.
+      log_(executor_.bench_known_safe() ? "shut down: outputs off"
+                                        : "shut down: outputs NOT known to be off (see the errors above); check the bench");
     });
   }
 

@@ -529,3 +529,41 @@ TEST_CASE("a supply that stops answering: the job pauses, and once it answers ag
   INFO(lines.size());
   CHECK(attempts_logged <= 4);  // start, (maybe) one failure, the success
 }
+
+TEST_CASE("shutdown with a mute supply says the outputs are not known to be off") {
+  TempDir dir;
+  FakeLab lab;
+  ServiceOptions o = fake_options(lab);
+  std::mutex lm;
+  std::vector<std::string> lines;
+  o.log = [&](std::string_view line) { std::lock_guard l(lm); lines.emplace_back(line); };
+  auto svc = make_service(config_in(dir.path), std::move(o));
+  const Id job = svc->call("job.submit", {{"plan", plan(200, 0.02, 1)}}, kCaller)["job_id"];
+  wait_for_state(*svc, job, {"running"});
+  while (svc->call("job.get", {{"job_id", job}}, kCaller)["points_done"].get<long>() < 3) std::this_thread::sleep_for(5ms);
+  lab.source_mute = true;
+  wait_for_state(*svc, job, {"paused", "done", "failed"});
+  REQUIRE(lab.out_on);  // make-safe could not reach it
+  svc->shutdown();
+  std::lock_guard l(lm);
+  CHECK(std::count(lines.begin(), lines.end(), "shut down: outputs off") == 0);
+  bool warned = false;
+  for (const auto& line : lines) warned = warned || line.rfind("shut down: outputs NOT known to be off", 0) == 0;
+  CHECK(warned);
+}
+
+TEST_CASE("shutdown after a clean job says the outputs are off") {
+  TempDir dir;
+  FakeLab lab;
+  ServiceOptions o = fake_options(lab);
+  std::mutex lm;
+  std::vector<std::string> lines;
+  o.log = [&](std::string_view line) { std::lock_guard l(lm); lines.emplace_back(line); };
+  auto svc = make_service(config_in(dir.path), std::move(o));
+  const Id job = svc->call("job.submit", {{"plan", plan(5, 0.0, 1)}}, kCaller)["job_id"];
+  wait_for_state(*svc, job, {"done"});
+  svc->shutdown();
+  CHECK_FALSE(lab.out_on);
+  std::lock_guard l(lm);
+  CHECK(std::count(lines.begin(), lines.end(), "shut down: outputs off") == 1);
+}
