@@ -1,8 +1,7 @@
 // The junco CLI as a real program against a real juncod + junco-sim:
 // submit/watch/jobs/lots/parts/show output, exit statuses, and the messages
 // for a daemon that is not running and for bad option values.
-#include "tests/integration/daemon_api_test_support.hpp"
-#include "tests/support/sim_process.hpp"
+#include "tests/support/bench_daemon.hpp"
 
 #include <catch2/catch.hpp>
 
@@ -59,25 +58,14 @@ TEST_CASE("junco explains an unreachable daemon and bad values", "[cli]") {
 }
 
 TEST_CASE("junco submit, watch, jobs, lots, parts, show against a running daemon", "[cli]") {
-  const auto dir = test::scratch_dir("cli");
-  test::SimProcess sim({"--settle-ms", "0"});
-  daemon::Json bench = daemon::Json::object();
-  for (const char* role : {"source", "meter", "scanner"}) bench[role] = {{"address", sim.endpoint(role)}, {"dialect", sim.family(role)}};
-  const auto sock = (dir / "run" / "juncod.sock").string();
-  std::ofstream(dir / "bench.jsonc") << daemon::Json{
-      {"bench", bench},
-      {"fixture", {{"bias_resistor_ohm", 100.0}, {"slots", 8}}},
-      {"safety", {{"max_supply_v", 10.0}, {"current_limit_a", 0.05}, {"max_power_w", 0.1}, {"max_reverse_v", 5.0}, {"max_job_s", 600.0}}},
-      {"paths", {{"database", (dir / "junco.db").string()}, {"socket", sock}}}}
-                                                .dump();
+  test::BenchDaemonOptions bench;
+  bench.roles = {"source", "meter", "scanner"};
+  test::BenchDaemon b("cli", {"--settle-ms", "0"}, bench);
+  const auto& dir = b.dir();
+  const auto sock = b.socket();
   std::ofstream(dir / "plan.jsonc") << R"(// two parts of an invented lot
 { "lot": "CLI-LOT", "parts": [{"slot": 1, "label": "CL-1"}, {"slot": 2, "label": "CL-2"}],
   /* quick sweep */ "sweep": {"mode": "current", "spacing": "log", "start": 1e-6, "stop": 0.02, "count": 10, "settle_s": 0} })";
-  test::ChildOptions o;
-  o.stderr_path = (dir / "juncod.log").string();
-  test::ChildProcess juncod({std::string(JUNCO_BIN_DIR) + "/juncod", "--config", (dir / "bench.jsonc").string()}, o);
-  for (int i = 0; i < 400 && !fs::exists(sock); ++i) std::this_thread::sleep_for(std::chrono::milliseconds(25));
-  REQUIRE(fs::exists(sock));
 
   auto r = junco_cli(dir, {"status", "--socket", sock});
   CHECK(r.status == 0);
@@ -140,6 +128,5 @@ TEST_CASE("junco submit, watch, jobs, lots, parts, show against a running daemon
   r = junco_cli(dir, {"submit", (dir / "hot.jsonc").string(), "--socket", sock});
   CHECK(r.status == 2);
   CHECK_FALSE(r.err.empty());
-  CHECK(juncod.stop() == 0);
-  fs::remove_all(dir);
+  CHECK(b.daemon().stop() == 0);
 }

@@ -1,8 +1,7 @@
 // tools/python/junco_client.py and examples/lot_to_csv.py against a real
 // juncod + junco-sim: the CSV must carry exactly the daemon's fitted values.
 // Runs /usr/bin/python3 (Debian's, standard library only).
-#include "tests/integration/daemon_api_test_support.hpp"
-#include "tests/support/sim_process.hpp"
+#include "tests/support/bench_daemon.hpp"
 
 #include <catch2/catch.hpp>
 
@@ -26,33 +25,15 @@ std::vector<std::string> split(const std::string& line) {
 
 TEST_CASE("lot_to_csv.py writes the lot's fits as the daemon reports them", "[python]") {
   if (::access("/usr/bin/python3", X_OK) != 0) FAIL("/usr/bin/python3 is required (tools/setup installs it)");
-  const auto dir = test::scratch_dir("py");
-  test::SimProcess sim({"--settle-ms", "0"});
-  daemon::Json bench = daemon::Json::object();
-  for (const char* role : {"source", "meter", "scanner"}) bench[role] = {{"address", sim.endpoint(role)}, {"dialect", sim.family(role)}};
-  const auto sock = (dir / "run" / "juncod.sock").string();
-  std::ofstream(dir / "bench.jsonc") << daemon::Json{
-      {"bench", bench},
-      {"fixture", {{"bias_resistor_ohm", 100.0}, {"slots", 8}}},
-      {"safety", {{"max_supply_v", 10.0}, {"current_limit_a", 0.05}, {"max_power_w", 0.1}, {"max_reverse_v", 5.0}, {"max_job_s", 600.0}}},
-      {"paths", {{"database", (dir / "junco.db").string()}, {"socket", sock}}}}
-                                                .dump();
-  test::ChildOptions o;
-  o.stderr_path = (dir / "juncod.log").string();
-  test::ChildProcess juncod({std::string(JUNCO_BIN_DIR) + "/juncod", "--config", (dir / "bench.jsonc").string()}, o);
-  for (int i = 0; i < 400 && !fs::exists(sock); ++i) std::this_thread::sleep_for(std::chrono::milliseconds(25));
-  REQUIRE(fs::exists(sock));
-
-  test::SocketClient c(sock);
-  daemon::Json plan{{"lot", "PY-LOT"},
-                    {"parts", {{{"slot", 1}, {"label", "PY-1"}}, {{"slot", 2}, {"label", "PY-2"}}, {{"slot", 3}, {"label", "PY-3"}}}},
-                    {"sweep", {{"mode", "current"}, {"spacing", "log"}, {"start", 1e-6}, {"stop", 0.02}, {"count", 12}, {"settle_s", 0.0}}}};
-  const long job = c.request("job.submit", {{"plan", plan}})["result"]["job_id"];
-  for (int i = 0; i < 600; ++i) {
-    if (c.request("job.get", {{"job_id", job}})["result"]["state"] == "done") break;
-    std::this_thread::sleep_for(std::chrono::milliseconds(20));
-  }
-  REQUIRE(c.request("job.get", {{"job_id", job}})["result"]["state"] == "done");
+  test::BenchDaemonOptions bench;
+  bench.roles = {"source", "meter", "scanner"};
+  test::BenchDaemon b("py", {"--settle-ms", "0"}, bench);
+  const auto& dir = b.dir();
+  const auto sock = b.socket();
+  auto& c = b.client();
+  b.run_plan({{"lot", "PY-LOT"},
+              {"parts", {{{"slot", 1}, {"label", "PY-1"}}, {{"slot", 2}, {"label", "PY-2"}}, {{"slot", 3}, {"label", "PY-3"}}}},
+              {"sweep", {{"mode", "current"}, {"spacing", "log"}, {"start", 1e-6}, {"stop", 0.02}, {"count", 12}, {"settle_s", 0.0}}}});
 
   const auto csv = dir / "lot.csv";
   test::ChildProcess py({"/usr/bin/python3", std::string(JUNCO_SOURCE_DIR) + "/tools/python/examples/lot_to_csv.py", "PY-LOT",
@@ -91,6 +72,5 @@ TEST_CASE("lot_to_csv.py writes the lot's fits as the daemon reports them", "[py
   test::ChildProcess missing({"/usr/bin/python3", std::string(JUNCO_SOURCE_DIR) + "/tools/python/examples/lot_to_csv.py", "NO-SUCH-LOT",
                               (dir / "none.csv").string(), "--socket", sock});
   CHECK(missing.wait(std::chrono::seconds(30)).value_or(-1) == 1);
-  CHECK(juncod.stop() == 0);
-  fs::remove_all(dir);
+  CHECK(b.daemon().stop() == 0);
 }
