@@ -37,22 +37,31 @@ namespace {
 constexpr double gmin_s = 1e-12;  // conductance across the junction, as SPICE adds
 
 // Junction current and conductance with the exponent limited for robustness
-// (linear continuation beyond exp(80), far outside any real operating point).
+// (linear continuation beyond exp(80), far outside any real operating point),
+// and the junction's charge and capacitance (part.hpp), all from one exp()
+// and at most one pow() per voltage: the period solve evaluates this at every
+// Newton iterate of every time step.
 struct Junction {
+  struct At {
+    double i_a, g_s, q_c, c_f;
+  };
+  Junction(const PartParams& part, double is, double n_vt) : p(part), depletion(part), is_a(is), nvt(n_vt) {}
   PartParams p;
+  DepletionLaw depletion;
   double is_a;
   double nvt;
-  double current(double v) const {
+  At at(double v) const {
     const double x = v / nvt;
-    const double e = x < 80.0 ? std::exp(x) : std::exp(80.0) * (1.0 + x - 80.0);
-    return is_a * (e - 1.0) + gmin_s * v;
+    const double e = std::exp(std::min(x, 80.0));
+    At r;
+    r.i_a = is_a * ((x < 80.0 ? e : e * (1.0 + x - 80.0)) - 1.0) + gmin_s * v;
+    r.g_s = is_a / nvt * e + gmin_s;
+    const auto d = depletion.at(v);
+    r.q_c = d.q_c + p.tt_s * r.i_a;
+    r.c_f = d.c_f + p.tt_s * r.g_s;
+    return r;
   }
-  double conductance(double v) const {
-    const double x = v / nvt;
-    return is_a / nvt * std::exp(std::min(x, 80.0)) + gmin_s;
-  }
-  double charge(double v) const { return junction_charge_c(p, v, current(v)); }
-  double capacitance(double v) const { return junction_capacitance_f(p, v, conductance(v)); }
+  double charge(double v) const { return at(v).q_c; }
 };
 
 // Which constant unknowns the period solve has (block voltages, choke currents).
@@ -76,10 +85,16 @@ class PeriodSolver {
   PeriodSolver(const FixtureConfig& fx, const PartParams* part, const BiasSetting& bias, bool current_limited,
                double temp_k, const AcDrive& drive)
       : fx_(fx), part_(part), bias_(bias), cc_(current_limited), drive_(drive),
-        junction_{part ? *part : PartParams{}, part ? saturation_current_a(*part, temp_k) : 0.0,
-                  part ? part->n * fitting::thermal_voltage_v(temp_k) : 1.0} {
+        junction_(part ? *part : PartParams{}, part ? saturation_current_a(*part, temp_k) : 0.0,
+                  part ? part->n * fitting::thermal_voltage_v(temp_k) : 1.0) {
     u_.bias_current_unknown = bias.output_on && !cc_ && fx.bias_choke;
     u_.return_current_unknown = fx.return_kind == ReturnKind::inductor;
+    // The generator EMF at each time step, the same for every residual evaluation.
+    const int n = fx.steps_per_period;
+    const double period = 1.0 / drive.freq_hz, h = period / n, w = 2.0 * M_PI * drive.freq_hz;
+    const double amp = drive.emf_vpp / 2.0;
+    emf_.resize(static_cast<std::size_t>(n));
+    for (int step = 0; step < n; ++step) emf_[static_cast<std::size_t>(step)] = amp * std::sin(w * h * step);
   }
   const Unknowns& unknowns() const { return u_; }
 
@@ -108,9 +123,8 @@ class PeriodSolver {
     const double rth = ra + (part_ ? part_->rs_ohm : 0.0) + rk;
 
     const int n = fx_.steps_per_period;
-    const double period = 1.0 / drive_.freq_hz, h = period / n, w = 2.0 * M_PI * drive_.freq_hz;
-    const double amp = drive_.emf_vpp / 2.0;
-    auto emf = [&](int step) { return amp * std::sin(w * h * step); };
+    const double h = 1.0 / drive_.freq_hz / n;
+    auto emf = [&](int step) { return emf_[static_cast<std::size_t>(step)]; };
     out.ch1.assign(n, 0.0);
     out.ch2.assign(n, 0.0);
     out.i.assign(n, 0.0);
@@ -180,11 +194,14 @@ class PeriodSolver {
   // Solves (vth − v)/rth − Id(v) − (a·q(v) − b)/h = 0; f is strictly
   // decreasing in v, so a bracket plus safeguarded Newton always converges.
   double solve_step(double vth, double rth, double a, double b, double h, double guess) const {
-    auto f = [&](double v) { return (vth - v) / rth - junction_.current(v) - (a * junction_.charge(v) - b) / h; };
-    auto df = [&](double v) { return -1.0 / rth - junction_.conductance(v) - a * junction_.capacitance(v) / h; };
-    double lo = guess, hi = guess;
-    double f0 = f(guess);
+    auto f = [&](double v) {
+      const auto j = junction_.at(v);
+      return (vth - v) / rth - j.i_a - (a * j.q_c - b) / h;
+    };
+    const auto j0 = junction_.at(guess);
+    const double f0 = (vth - guess) / rth - j0.i_a - (a * j0.q_c - b) / h;
     if (f0 == 0.0) return guess;
+    double lo = guess, hi = guess;
     double step = 0.05;
     if (f0 > 0) {
       do { lo = hi; hi += step; step *= 2; } while (f(hi) > 0);
@@ -193,10 +210,15 @@ class PeriodSolver {
     }
     double v = f0 > 0 ? lo : hi;
     for (int it = 0; it < 200; ++it) {
-      const double fv = f(v);
+      const auto j = v == guess ? j0 : junction_.at(v);  // the first iterate is the guess
+      const double fv = (vth - v) / rth - j.i_a - (a * j.q_c - b) / h;
+      const double dfv = -1.0 / rth - j.g_s - a * j.c_f / h;
       if (fv > 0) lo = v; else hi = v;
-      double next = v - fv / df(v);
-      if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
+      double next = v - fv / dfv;
+      // Bisect only when Newton leaves the bracket. An iterate that has
+      // converged to the last bit (next == v, an end of the bracket) stays:
+      // throwing it away for a bisection cost three times the iterations.
+      if (!(next >= lo && next <= hi)) next = 0.5 * (lo + hi);
       if (std::abs(next - v) < 1e-15 + 1e-13 * std::abs(v) || hi - lo < 1e-15) return next;
       v = next;
     }
@@ -210,6 +232,7 @@ class PeriodSolver {
   AcDrive drive_;
   Junction junction_;
   Unknowns u_;
+  std::vector<double> emf_;
   std::vector<double> vj_;
 };
 

@@ -20,34 +20,29 @@ fitting::DiodeParams dc_params(const PartParams& p, double temp_k, double extra_
   return d;
 }
 
-namespace {
 // Depletion charge, SPICE form: below FC·VJ the integral of CJO(1−V/VJ)^−M;
 // above, the integral of the linear extension, joined continuously.
-double depletion_charge(const PartParams& p, double v) {
-  const double vj = p.vj_v;
-  const double fcv = p.fc * vj;
-  auto q_below = [&](double x) { return p.cj0_f * vj / (1.0 - p.m) * (1.0 - std::pow(1.0 - x / vj, 1.0 - p.m)); };
-  if (v < fcv) return q_below(v);
-  const double f2 = std::pow(1.0 - p.fc, 1.0 + p.m);
-  const double f3 = 1.0 - p.fc * (1.0 + p.m);
-  const double dv = v - fcv;
-  return q_below(fcv) + p.cj0_f / f2 * (f3 * dv + p.m / (2.0 * vj) * (v * v - fcv * fcv));
+DepletionLaw::DepletionLaw(const PartParams& p)
+    : cj0_f_(p.cj0_f), vj_v_(p.vj_v), m_(p.m), fcv_(p.fc * p.vj_v), q_scale_(p.cj0_f * p.vj_v / (1.0 - p.m)),
+      q_fcv_(q_scale_ * (1.0 - std::pow(1.0 - p.fc, 1.0 - p.m))), c_lin_(p.cj0_f / std::pow(1.0 - p.fc, 1.0 + p.m)),
+      f3_(1.0 - p.fc * (1.0 + p.m)) {}
+
+DepletionLaw::At DepletionLaw::at(double v) const {
+  if (v < fcv_) {
+    const double t = 1.0 - v / vj_v_;
+    const double t_m = std::pow(t, -m_);  // (1 − V/VJ)^−M; t·t_m = (1 − V/VJ)^(1−M)
+    return {q_scale_ * (1.0 - t * t_m), cj0_f_ * t_m};
+  }
+  const double dv = v - fcv_;
+  return {q_fcv_ + c_lin_ * (f3_ * dv + m_ / (2.0 * vj_v_) * (v * v - fcv_ * fcv_)), c_lin_ * (f3_ + m_ * v / vj_v_)};
 }
-double depletion_capacitance(const PartParams& p, double v) {
-  const double fcv = p.fc * p.vj_v;
-  if (v < fcv) return p.cj0_f * std::pow(1.0 - v / p.vj_v, -p.m);
-  const double f2 = std::pow(1.0 - p.fc, 1.0 + p.m);
-  const double f3 = 1.0 - p.fc * (1.0 + p.m);
-  return p.cj0_f / f2 * (f3 + p.m * v / p.vj_v);
-}
-}  // namespace
 
 double junction_charge_c(const PartParams& p, double v, double diode_current_a) {
-  return depletion_charge(p, v) + p.tt_s * diode_current_a;
+  return DepletionLaw(p).at(v).q_c + p.tt_s * diode_current_a;
 }
 
 double junction_capacitance_f(const PartParams& p, double v, double diode_conductance_s) {
-  return depletion_capacitance(p, v) + p.tt_s * diode_conductance_s;
+  return DepletionLaw(p).at(v).c_f + p.tt_s * diode_conductance_s;
 }
 
 std::vector<Slot> draw_lot(const PartParams& nominal, const LotSpread& spread, int slots, std::uint64_t seed) {

@@ -35,6 +35,24 @@ fitting::DiodeParams dc_params(const PartParams& p, double temp_k, double extra_
 double junction_charge_c(const PartParams& p, double v, double diode_current_a);
 double junction_capacitance_f(const PartParams& p, double v, double diode_conductance_s);
 
+// The same depletion C–V law with its constant factors worked out once, for
+// callers that evaluate it many times (the AC solve: millions of times per
+// second). Charge and capacitance come from one evaluation: at most one pow().
+class DepletionLaw {
+ public:
+  explicit DepletionLaw(const PartParams& p);
+  struct At {
+    double q_c, c_f;
+  };
+  At at(double v) const;
+
+ private:
+  double cj0_f_, vj_v_, m_, fcv_;
+  double q_scale_;       // CJO·VJ/(1 − M)
+  double q_fcv_;         // charge at FC·VJ
+  double c_lin_, f3_;    // CJO/(1 − FC)^(1+M), 1 − FC·(1 + M)
+};
+
 struct LotSpread {
   double is_ln_sigma = 0.25;     // spread of ln(Is)
   double n_sigma = 0.02;         // absolute
