@@ -30,6 +30,7 @@ void dialect(std::string_view data);       // drivers/dialect.hpp parse_dialect,
 void rpc_request(std::string_view data);   // daemon/rpc_framing.hpp LineFramer + parse_line + replies
 void plan(std::string_view data);          // daemon/plan.hpp parse_plan + check_plan on a fixed bench
 void iv_csv(std::string_view data);        // fitting/iv_csv.hpp parse_iv_csv
+void design(std::string_view data);        // fitting/design_calculators.hpp run_design (part.design's inputs)
 
 struct Target {
   const char* name;  // also the directory under corpus/ and regressions/
@@ -38,7 +39,7 @@ struct Target {
 
 inline constexpr Target targets[] = {
     {"reply_parser", reply_parser}, {"dialect", dialect}, {"rpc_request", rpc_request},
-    {"plan", plan},                 {"iv_csv", iv_csv},
+    {"plan", plan},                 {"iv_csv", iv_csv},           {"design", design},
 };
 
 }  // namespace junco::fuzz
