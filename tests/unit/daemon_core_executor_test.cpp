@@ -186,6 +186,38 @@ void check_safety_order(const std::vector<std::string>& log) {
 
 }  // namespace
 
+// Starts a long job (200 points × 20 ms), lets a few points in, then the
+// supply stops answering; returns once the job has paused on it.
+Id mute_mid_job(Service& svc, FakeLab& lab) {
+  const Id job = svc.call("job.submit", {{"plan", plan(200, 0.02, 1)}}, kCaller)["job_id"];
+  wait_for_state(svc, job, {"running"});
+  while (svc.call("job.get", {{"job_id", job}}, kCaller)["points_done"].get<long>() < 3) std::this_thread::sleep_for(5ms);
+  lab.source_mute = true;
+  const Json j = wait_for_state(svc, job, {"paused", "done", "failed"});
+  INFO(j.dump());
+  REQUIRE(j["state"] == "paused");
+  return job;
+}
+
+// A service whose log lines the test reads (thread-safe: the executor logs).
+struct LoggedService {
+  std::mutex m;
+  std::vector<std::string> lines;
+  std::unique_ptr<Service> svc;
+  LoggedService(const Config& config, FakeLab& lab) {
+    ServiceOptions o = fake_options(lab);
+    o.log = [this](std::string_view line) {
+      std::lock_guard l(m);
+      lines.emplace_back(line);
+    };
+    svc = make_service(config, std::move(o));
+  }
+  std::vector<std::string> snapshot() {
+    std::lock_guard l(m);
+    return lines;
+  }
+};
+
 TEST_CASE("a job runs to done in the safe order, readings stored and each part fitted") {
   TempDir dir;
   FakeLab lab;
@@ -488,29 +520,16 @@ TEST_CASE("part.export json is a model document that junco design op reads; spic
 TEST_CASE("a supply that stops answering: the job pauses, and once it answers again its output goes off without a new job") {
   TempDir dir;
   FakeLab lab;
-  ServiceOptions o = fake_options(lab);
-  std::mutex lm;
-  std::vector<std::string> lines;
-  o.log = [&](std::string_view line) { std::lock_guard l(lm); lines.emplace_back(line); };
-  auto svc = make_service(config_in(dir.path), std::move(o));
-  // 200 points × 20 ms: long enough to go mute in the middle of it.
-  const Id job = svc->call("job.submit", {{"plan", plan(200, 0.02, 1)}}, kCaller)["job_id"];
-  wait_for_state(*svc, job, {"running"});
-  while (svc->call("job.get", {{"job_id", job}}, kCaller)["points_done"].get<long>() < 3) std::this_thread::sleep_for(5ms);
-  lab.source_mute = true;
-  const Json j = wait_for_state(*svc, job, {"paused", "done", "failed"});
-  INFO(j.dump());
-  REQUIRE(j["state"] == "paused");
+  LoggedService logged(config_in(dir.path), lab);
+  auto& svc = logged.svc;
+  const Id job = mute_mid_job(*svc, lab);
   // The premise: make-safe could not reach the supply, its output is still on.
   REQUIRE(lab.out_on);
   std::this_thread::sleep_for(1600ms);  // ≥ 3 retries while mute
   CHECK(lab.out_on);
   std::size_t while_mute = 0;
-  {
-    std::lock_guard l(lm);
-    for (const auto& line : lines)
-      if (line.rfind("bench: still not safe", 0) == 0) ++while_mute;
-  }
+  for (const auto& line : logged.snapshot())
+    if (line.rfind("bench: still not safe", 0) == 0) ++while_mute;
   CHECK(while_mute <= 1);  // the same failure is logged once, not every 0.5 s
 
   lab.source_mute = false;  // answers again; no job is submitted or resumed
@@ -521,7 +540,7 @@ TEST_CASE("a supply that stops answering: the job pauses, and once it answers ag
   CHECK(svc->call("job.get", {{"job_id", job}}, kCaller)["state"] == "paused");
   { std::lock_guard l(lab.m); check_safety_order(lab.log); }
   std::this_thread::sleep_for(1200ms);  // safe now: no more attempts, no more lines
-  std::lock_guard l(lm);
+  const auto lines = logged.snapshot();
   CHECK(std::count(lines.begin(), lines.end(), "bench: every output off, scanner open (make-safe retried)") == 1);
   std::size_t attempts_logged = 0;
   for (const auto& line : lines)
@@ -533,19 +552,11 @@ TEST_CASE("a supply that stops answering: the job pauses, and once it answers ag
 TEST_CASE("shutdown with a mute supply says the outputs are not known to be off") {
   TempDir dir;
   FakeLab lab;
-  ServiceOptions o = fake_options(lab);
-  std::mutex lm;
-  std::vector<std::string> lines;
-  o.log = [&](std::string_view line) { std::lock_guard l(lm); lines.emplace_back(line); };
-  auto svc = make_service(config_in(dir.path), std::move(o));
-  const Id job = svc->call("job.submit", {{"plan", plan(200, 0.02, 1)}}, kCaller)["job_id"];
-  wait_for_state(*svc, job, {"running"});
-  while (svc->call("job.get", {{"job_id", job}}, kCaller)["points_done"].get<long>() < 3) std::this_thread::sleep_for(5ms);
-  lab.source_mute = true;
-  wait_for_state(*svc, job, {"paused", "done", "failed"});
+  LoggedService logged(config_in(dir.path), lab);
+  mute_mid_job(*logged.svc, lab);
   REQUIRE(lab.out_on);  // make-safe could not reach it
-  svc->shutdown();
-  std::lock_guard l(lm);
+  logged.svc->shutdown();
+  const auto lines = logged.snapshot();
   CHECK(std::count(lines.begin(), lines.end(), "shut down: outputs off") == 0);
   bool warned = false;
   for (const auto& line : lines) warned = warned || line.rfind("shut down: outputs NOT known to be off", 0) == 0;
@@ -555,15 +566,11 @@ TEST_CASE("shutdown with a mute supply says the outputs are not known to be off"
 TEST_CASE("shutdown after a clean job says the outputs are off") {
   TempDir dir;
   FakeLab lab;
-  ServiceOptions o = fake_options(lab);
-  std::mutex lm;
-  std::vector<std::string> lines;
-  o.log = [&](std::string_view line) { std::lock_guard l(lm); lines.emplace_back(line); };
-  auto svc = make_service(config_in(dir.path), std::move(o));
-  const Id job = svc->call("job.submit", {{"plan", plan(5, 0.0, 1)}}, kCaller)["job_id"];
-  wait_for_state(*svc, job, {"done"});
-  svc->shutdown();
+  LoggedService logged(config_in(dir.path), lab);
+  const Id job = logged.svc->call("job.submit", {{"plan", plan(5, 0.0, 1)}}, kCaller)["job_id"];
+  wait_for_state(*logged.svc, job, {"done"});
+  logged.svc->shutdown();
   CHECK_FALSE(lab.out_on);
-  std::lock_guard l(lm);
+  const auto lines = logged.snapshot();
   CHECK(std::count(lines.begin(), lines.end(), "shut down: outputs off") == 1);
 }

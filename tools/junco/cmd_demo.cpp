@@ -224,13 +224,6 @@ std::string pm(double value, double se, const std::string& unit, int digits = 4)
   return format_si(value, unit, digits) + (std::isfinite(se) ? " ± " + format_si(se, unit, 2) : "");
 }
 
-// Pads to `width` columns; printf counts bytes, and Ω and ± take two.
-std::string pad(std::string text, std::size_t width) {
-  std::size_t cols = 0;
-  for (unsigned char c : text) cols += (c & 0xC0) != 0x80;
-  if (cols < width) text.append(width - cols, ' ');
-  return text;
-}
 
 double num(const Json& j) { return j.is_number() ? j.get<double>() : std::nan(""); }
 
@@ -250,9 +243,9 @@ bool print_lot(RpcClient& client, const std::string& lot) {
       const Json figs = client.call("part.figures", Json{{"part_id", id}, {"currents_a", at}})["figures"];
       char nbuf[48];
       std::snprintf(nbuf, sizeof nbuf, "%.4f ± %.4f", num(fit["n"]["value"]), num(fit["n"]["std_error"]));
-      std::printf("%s\n", (pad(label, 7) + pad(pm(num(fit["is_a"]["value"]), num(fit["is_a"]["std_error"]), "A"), 23) +
-                            pad(nbuf, 17) + pad(pm(num(fit["rs_ohm"]["value"]), num(fit["rs_ohm"]["std_error"]), "Ω"), 21) +
-                            pad(format_si(num(figs[0]["vf_v"]), "V"), 12) + pad(format_si(num(figs[1]["vf_v"]), "V"), 12) +
+      std::printf("%s\n", (pad_columns(label, 7) + pad_columns(pm(num(fit["is_a"]["value"]), num(fit["is_a"]["std_error"]), "A"), 23) +
+                            pad_columns(nbuf, 17) + pad_columns(pm(num(fit["rs_ohm"]["value"]), num(fit["rs_ohm"]["std_error"]), "Ω"), 21) +
+                            pad_columns(format_si(num(figs[0]["vf_v"]), "V"), 12) + pad_columns(format_si(num(figs[1]["vf_v"]), "V"), 12) +
                             format_si(num(figs[2]["rd_ohm"]), "Ω"))
                                .c_str());
       fitting::LotPart lp;
@@ -290,7 +283,7 @@ bool print_lot(RpcClient& client, const std::string& lot) {
         std::snprintf(t, sizeof t, "%.4f", x);
         return std::string(t);
       };
-      std::printf("%s%s\n", (pad(label, 15) + pad(f(q.mean), 13) + pad(f(q.std_dev), 13) + pad(f(q.min), 13) + f(q.max)).c_str(),
+      std::printf("%s%s\n", (pad_columns(label, 15) + pad_columns(f(q.mean), 13) + pad_columns(f(q.std_dev), 13) + pad_columns(f(q.min), 13) + f(q.max)).c_str(),
                   q.outliers.empty() ? "" : ("  outliers: " + Json(q.outliers).dump()).c_str());
     }
   return all_fitted;
@@ -313,7 +306,7 @@ void print_transfer(RpcClient& client, const std::string& lot) {
       char res[32];
       std::snprintf(res, sizeof res, "%.3f dB", num(r["rms_residual_db"]));
       const auto rs = [&](const char* which) { return pm(num(j[which]["rs_ohm"]["value"]), num(j[which]["rs_ohm"]["std_error"]), "Ω"); };
-      std::printf("%s\n", (pad(label, 7) + pad(res, 14) + pad(rs("dc_only"), 21) + pad(rs("joint"), 21) +
+      std::printf("%s\n", (pad_columns(label, 7) + pad_columns(res, 14) + pad_columns(rs("dc_only"), 21) + pad_columns(rs("joint"), 21) +
                             (j["agree"].get<bool>() ? "agree" : "DISAGREE"))
                                .c_str());
       if (j.contains("hint")) hint = j["hint"].get<std::string>();

@@ -64,23 +64,16 @@ std::string shown(double v, const std::string& unit) {
   return t;
 }
 
-// Pads to `width` columns (Ω is two bytes, one column).
-std::string pad(std::string text, std::size_t width) {
-  std::size_t cols = 0;
-  for (unsigned char c : text) cols += (c & 0xC0) != 0x80;
-  if (cols < width) text.append(width - cols, ' ');
-  return text;
-}
 
 void print_stats(const Json& r) {
   std::printf("lot %s: %zu fitted parts\n", r["lot"].get<std::string>().c_str(), r["parts"].size());
   for (const auto& l : r["left_out"]) std::printf("  left out %s: %s\n", l["label"].get<std::string>().c_str(), l["reason"].get<std::string>().c_str());
-  std::printf("\n  %s%s%s%s%s%s%s outliers\n", pad("quantity", 16).c_str(), pad("mean", 13).c_str(), pad("std dev", 13).c_str(),
-              pad("min", 13).c_str(), pad("max", 13).c_str(), pad("median", 13).c_str(), pad("MAD", 13).c_str());
+  std::printf("\n  %s%s%s%s%s%s%s outliers\n", pad_columns("quantity", 16).c_str(), pad_columns("mean", 13).c_str(), pad_columns("std dev", 13).c_str(),
+              pad_columns("min", 13).c_str(), pad_columns("max", 13).c_str(), pad_columns("median", 13).c_str(), pad_columns("MAD", 13).c_str());
   for (const auto& q : r["quantities"]) {
     const auto [label, unit] = describe(q["name"].get<std::string>());
-    std::string line = pad(label, 16);
-    for (const char* k : {"mean", "std_dev", "min", "max", "median", "mad"}) line += pad(shown(num(q[k]), unit), 13);
+    std::string line = pad_columns(label, 16);
+    for (const char* k : {"mean", "std_dev", "min", "max", "median", "mad"}) line += pad_columns(shown(num(q[k]), unit), 13);
     for (const auto& o : q["outliers"]) line += " " + o.get<std::string>();
     std::printf("  %s\n", line.c_str());
   }
@@ -136,15 +129,7 @@ int run(std::vector<std::string> args) {
     if (export_format) {
       RpcClient client(socket);
       const Json r = client.call("lot.export", Json{{"lot", args[0]}, {"format", *export_format}});
-      const std::string content = r.value("content", "");
-      if (!out_path) {
-        std::fputs(content.c_str(), stdout);
-      } else {
-        std::ofstream f(*out_path, std::ios::trunc);
-        f << content;
-        f.close();
-        if (!f) throw std::runtime_error("cannot write " + *out_path);
-      }
+      write_document(r.value("content", ""), out_path);
       for (const auto& l : r.value("left_out", Json::array()))
         std::fprintf(stderr, "junco lots: the nominal leaves out %s (%s)\n", l["label"].get<std::string>().c_str(), l["reason"].get<std::string>().c_str());
       return exit_ok;

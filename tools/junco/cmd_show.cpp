@@ -52,16 +52,7 @@ std::string estimate(const Json& e, const std::string& unit) {
 // The export is written as the daemon made it; a file is only replaced once
 // the whole document has arrived.
 int export_part(RpcClient& client, long part, const std::string& format, const std::optional<std::string>& out_path) {
-  const Json r = client.call("part.export", Json{{"part_id", part}, {"format", format}});
-  const std::string content = r.value("content", "");
-  if (!out_path) {
-    std::fputs(content.c_str(), stdout);
-    return exit_ok;
-  }
-  std::ofstream f(*out_path, std::ios::trunc);
-  f << content;
-  f.close();
-  if (!f) throw std::runtime_error("cannot write " + *out_path);
+  write_document(client.call("part.export", Json{{"part_id", part}, {"format", format}}).value("content", ""), out_path);
   return exit_ok;
 }
 

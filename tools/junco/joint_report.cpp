@@ -25,13 +25,6 @@ std::string estimate(const Json& e, const std::string& unit) {
   return text;
 }
 
-// Pads to `width` columns (Ω and ± are two bytes, one column).
-std::string pad(std::string text, std::size_t width) {
-  std::size_t cols = 0;
-  for (unsigned char c : text) cols += (c & 0xC0) != 0x80;
-  if (cols < width) text.append(width - cols, ' ');
-  return text;
-}
 
 std::string chi2(const Json& j) {
   char t[32];
@@ -44,14 +37,14 @@ std::string chi2(const Json& j) {
 void print_joint_report(const Json& j) {
   std::printf("\n  joint AC+DC fit against the DC-only fit\n  %-14s %-26s %-26s\n", "", "DC only", "DC + AC");
   const auto row = [&](const char* name, const char* key, const std::string& unit) {
-    std::printf("  %s%s%s\n", pad(name, 15).c_str(), pad(estimate(j["dc_only"][key], unit), 27).c_str(), estimate(j["joint"][key], unit).c_str());
+    std::printf("  %s%s%s\n", pad_columns(name, 15).c_str(), pad_columns(estimate(j["dc_only"][key], unit), 27).c_str(), estimate(j["joint"][key], unit).c_str());
   };
   row("Is", "is_a", "A");
   row("n", "n", "");
   row("Rs", "rs_ohm", "Ω");
-  std::printf("  %s%s%s\n", pad("reduced chi2", 15).c_str(), pad(chi2(j["dc_only"]["reduced_chi2"]), 27).c_str(),
+  std::printf("  %s%s%s\n", pad_columns("reduced chi2", 15).c_str(), pad_columns(chi2(j["dc_only"]["reduced_chi2"]), 27).c_str(),
               chi2(j["joint"]["reduced_chi2"]).c_str());
-  std::printf("  %s%s%s\n", pad("readings", 15).c_str(), pad(std::to_string(j["dc_only"]["dc_points"].get<long>()) + " DC", 27).c_str(),
+  std::printf("  %s%s%s\n", pad_columns("readings", 15).c_str(), pad_columns(std::to_string(j["dc_only"]["dc_points"].get<long>()) + " DC", 27).c_str(),
               (std::to_string(j["joint"]["dc_points"].get<long>()) + " DC + " + std::to_string(j["joint"]["ac_points"].get<long>()) + " AC").c_str());
   for (const char* which : {"dc_only", "joint"})
     if (!j[which]["ok"].get<bool>()) std::printf("  %s fit: %s\n", which, j[which]["message"].get<std::string>().c_str());

@@ -13,6 +13,7 @@
 #include <cerrno>
 #include <cmath>
 #include <cstdio>
+#include <fstream>
 #include <cstring>
 
 namespace junco::cli {
@@ -220,6 +221,24 @@ int guarded(const std::string& command, const std::function<int()>& body) {
     std::fprintf(stderr, "junco %s: %s\n", command.c_str(), e.what());
     return 1;
   }
+}
+
+std::string pad_columns(std::string text, std::size_t width) {
+  std::size_t cols = 0;
+  for (unsigned char c : text) cols += (c & 0xC0) != 0x80;
+  if (cols < width) text.append(width - cols, ' ');
+  return text;
+}
+
+void write_document(const std::string& content, const std::optional<std::string>& out_path) {
+  if (!out_path) {
+    std::fputs(content.c_str(), stdout);
+    return;
+  }
+  std::ofstream f(*out_path, std::ios::trunc);
+  f << content;
+  f.close();
+  if (!f) throw std::runtime_error("cannot write " + *out_path);
 }
 
 long resolve_part(RpcClient& client, const std::string& text, const std::optional<std::string>& lot) {

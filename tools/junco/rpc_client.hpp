@@ -86,6 +86,13 @@ std::vector<double> parse_quantity_list(const std::string& text, const std::stri
 // Formats with an SI prefix and unit: 1.234e-3 → "1.234 mA".
 std::string format_si(double value, const std::string& unit, int digits = 4);
 
+// Pads to `width` terminal columns (UTF-8: Ω and ± are two bytes, one column).
+std::string pad_columns(std::string text, std::size_t width);
+
+// A document the daemon made (an export): to stdout, or to out_path, which is
+// only written once the whole content is in hand. Throws std::runtime_error.
+void write_document(const std::string& content, const std::optional<std::string>& out_path);
+
 // Runs a daemon-facing subcommand, printing any error as one line
 // "junco COMMAND: ..." on stderr. Exit statuses: std::invalid_argument (bad
 // options) → 2; an RPC error for bad input (invalid params, refused plan) → 2;
