@@ -121,6 +121,21 @@ FixtureConfig parse_fixture(const Checker& c, const Json& obj) {
   return f;
 }
 
+fitting::AccuracyModel parse_accuracy(const Checker& c, const Json& obj) {
+  const std::string p = "/accuracy";
+  c.only_keys(obj, p, {"v_rel", "v_abs_v", "i_rel", "i_abs_a"});
+  fitting::AccuracyModel a;
+  a.v_rel = c.number(obj, "v_rel", p, a.v_rel, false, 0, true);
+  a.v_abs_v = c.number(obj, "v_abs_v", p, a.v_abs_v, false, 0, true);
+  a.i_rel = c.number(obj, "i_rel", p, a.i_rel, false, 0, true);
+  a.i_abs_a = c.number(obj, "i_abs_a", p, a.i_abs_a, false, 0, true);
+  // A reading known exactly cannot be weighted; a relative term alone leaves
+  // zero readings with zero uncertainty.
+  if (!(a.v_abs_v > 0)) c.fail(p + "/v_abs_v", "must be > 0 (the voltage reading's offset term)");
+  if (!(a.i_abs_a > 0)) c.fail(p + "/i_abs_a", "must be > 0 (the current reading's offset term)");
+  return a;
+}
+
 SafetyLimits parse_safety(const Checker& c, const Json& obj) {
   const std::string p = "/safety";
   c.only_keys(obj, p, {"max_supply_v", "current_limit_a", "max_power_w", "max_reverse_v", "max_job_s"});
@@ -196,7 +211,7 @@ Config parse_config(const std::string& text, const fs::path& file) {
     c.fail("", "not valid JSON: " + what);
   }
   if (!doc.is_object()) c.fail("", std::string("must be an object, not ") + doc.type_name());
-  c.only_keys(doc, "", {"bench", "fixture", "safety", "paths"});
+  c.only_keys(doc, "", {"bench", "fixture", "safety", "accuracy", "paths"});
 
   Config cfg;
   cfg.file = file;
@@ -220,6 +235,7 @@ Config parse_config(const std::string& text, const fs::path& file) {
   cfg.fixture = parse_fixture(c, c.object(doc, "fixture", "/fixture"));
   if (!doc.contains("safety")) c.fail("/safety", "missing (required)");
   cfg.safety = parse_safety(c, c.object(doc, "safety", "/safety"));
+  if (doc.contains("accuracy")) cfg.accuracy = parse_accuracy(c, c.object(doc, "accuracy", "/accuracy"));
 
   cfg.paths = default_paths();
   if (doc.contains("paths")) {

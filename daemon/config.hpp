@@ -5,6 +5,8 @@
 // File format: docs/daemon-core.md and tools/examples/bench.jsonc.
 #pragma once
 
+#include "fitting/extract.hpp"
+
 #include <nlohmann/json.hpp>
 
 #include <filesystem>
@@ -69,6 +71,11 @@ struct Config {
   std::map<std::string, InstrumentConfig> bench;  // by role
   FixtureConfig fixture;
   SafetyLimits safety;
+  // How well the bench reads voltage and current, as ±(rel·|x| + abs) limits
+  // (the meter's, or the supply's readback when current comes from it). The
+  // fits weight every reading by it and exclude currents below 10 × i_abs_a.
+  // Optional; fitting::AccuracyModel's defaults otherwise.
+  fitting::AccuracyModel accuracy;
   PathsConfig paths;
   nlohmann::json raw;  // the parsed document (for bench.describe)
 

@@ -182,7 +182,10 @@ class CoreService final : public Service {
               {"load_ohm", f.load_ohm}, {"slots", f.slots}, {"current_from", to_string(f.current_from)}}},
             {"safety",
              {{"max_supply_v", s.max_supply_v}, {"current_limit_a", s.current_limit_a}, {"max_power_w", s.max_power_w},
-              {"max_reverse_v", s.max_reverse_v}, {"max_job_s", s.max_job_s}}}};
+              {"max_reverse_v", s.max_reverse_v}, {"max_job_s", s.max_job_s}}},
+            {"accuracy",
+             {{"v_rel", config_.accuracy.v_rel}, {"v_abs_v", config_.accuracy.v_abs_v}, {"i_rel", config_.accuracy.i_rel},
+              {"i_abs_a", config_.accuracy.i_abs_a}}}};
   }
 
   Json submit(const Json& params, const Caller& caller) {
@@ -345,6 +348,7 @@ class CoreService final : public Service {
   Json transfer(const Json& params) {
     const PartRow part = part_or_throw(id_param(params, "part_id"));
     TransferOptions o;
+    o.accuracy = config_.accuracy;
     o.ac_sigma_db = opt_number_param(params, "ac_sigma_db", o.ac_sigma_db, false);
     o.cj_f = opt_number_param(params, "cj_f", o.cj_f, true);
     o.max_signal_ratio = opt_number_param(params, "max_signal_ratio", o.max_signal_ratio, false);

@@ -303,6 +303,7 @@ class JobRun {
     try {
       fitting::FitOptions opt;
       opt.temp_k = plan_.temp_k;
+      opt.accuracy = cfg_.accuracy;
       const auto fit = fitting::fit_forward(pts, opt);
       store_.insert_fit(part_id, run_id, fit);
       log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": fit " + fitting::to_string(fit.status) + " on " +

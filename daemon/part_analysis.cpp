@@ -110,6 +110,7 @@ Json transfer_report(const PartRow& part, const RunRow& run, const Json& fit, co
   if (ac.empty()) return out;
   fitting::JointFitOptions jo;
   jo.temp_k = temp_k;
+  jo.accuracy = options.accuracy;
   jo.ac_sigma_db = options.ac_sigma_db;
   jo.cj_f = options.cj_f;
   const auto dc = dc_fit_points(points);

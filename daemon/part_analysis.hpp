@@ -29,6 +29,7 @@ fitting::Fixture ac_fixture(const Json& run_fixture);
 fitting::DesignPart design_part(const PartRow& part, const Json& fit);
 
 struct TransferOptions {
+  fitting::AccuracyModel accuracy;  // of the DC readings (the bench config's)
   double ac_sigma_db = 0.01;  // standard uncertainty of one AC ratio reading
   double cj_f = 0.0;          // junction capacitance for the AC model (0: ignored)
   // Readings the small-signal model cannot describe are left out of the RMS

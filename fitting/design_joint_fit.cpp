@@ -3,6 +3,8 @@
 #include <ceres/ceres.h>
 
 #include <algorithm>
+#include <array>
+#include <limits>
 #include <cmath>
 #include <cstdio>
 #include <numbers>
@@ -133,10 +135,55 @@ SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, co
   return f;
 }
 
+SimpleFit fit_ac_only(std::span<const AcPoint> ac, const Fixture& fixture, const JointFitOptions& o) {
+  SimpleFit f;
+  const double vt = thermal_voltage_v(o.temp_k);
+  const double z = 1.0 / (1.0 / fixture.rl_ohm + 1.0 / fixture.dc_return_ohm);
+  // Weighted normal equations for rd = Rs + n·x, x = Vt/I.
+  double s_w = 0, s_x = 0, s_y = 0, s_xx = 0, s_xy = 0;
+  std::vector<std::array<double, 3>> rows;  // x, rd, weight
+  for (const auto& p : ac) {
+    if (!(p.vin > 0.0 && p.vout > 0.0 && p.bias_i_a > 0.0)) continue;
+    const double g = p.vout / p.vin;
+    const double rd = z * (1.0 / g - 1.0);
+    const double sigma = z / g * o.ac_sigma_db * std::log(10.0) / 20.0;
+    const double w = 1.0 / (sigma * sigma), x = vt / p.bias_i_a;
+    rows.push_back({x, rd, w});
+    s_w += w;
+    s_x += w * x;
+    s_y += w * rd;
+    s_xx += w * x * x;
+    s_xy += w * x * rd;
+  }
+  f.ac_points = rows.size();
+  if (rows.size() < 3) {
+    f.message = "need at least 3 AC readings for the dynamic-resistance fit";
+    return f;
+  }
+  const double det = s_w * s_xx - s_x * s_x;
+  if (!(det > 0) || !std::isfinite(det)) {
+    f.message = "the AC readings span too little of 1/I to separate Rs and n";
+    return f;
+  }
+  const double rs = (s_xx * s_y - s_x * s_xy) / det, n = (s_w * s_xy - s_x * s_y) / det;
+  double chi2 = 0;
+  for (const auto& [x, rd, w] : rows) chi2 += w * (rd - rs - n * x) * (rd - rs - n * x);
+  const double scale = chi2 / static_cast<double>(rows.size() - 2);
+  f.reduced_chi2 = scale;
+  f.cost = 0.5 * chi2;
+  f.rs_ohm = {rs, std::sqrt(s_xx / det * scale)};
+  f.n = {n, std::sqrt(s_w / det * scale)};
+  f.is_a = {std::numeric_limits<double>::quiet_NaN(), std::numeric_limits<double>::quiet_NaN()};
+  f.ok = std::isfinite(rs) && std::isfinite(n);
+  if (!f.ok) f.message = "the dynamic-resistance fit did not give finite values";
+  return f;
+}
+
 JointFitReport compare_dc_and_joint(std::span<const IvPoint> dc, std::span<const AcPoint> ac, const Fixture& fixture,
                                     const JointFitOptions& options) {
   JointFitReport r;
   r.dc_only = fit_dc_ac(dc, {}, fixture, options);
+  r.ac_only = fit_ac_only(ac, fixture, options);
   JointFitOptions joint_options = options;
   if (r.dc_only.ok && r.dc_only.reduced_chi2 > 1.0) joint_options.dc_sigma_scale *= std::sqrt(r.dc_only.reduced_chi2);
   r.joint = fit_dc_ac(dc, ac, fixture, joint_options);
@@ -155,6 +202,23 @@ JointFitReport compare_dc_and_joint(std::span<const IvPoint> dc, std::span<const
   check("is_a", r.dc_only.is_a, r.joint.is_a);
   check("n", r.dc_only.n, r.joint.n);
   check("rs_ohm", r.dc_only.rs_ohm, r.joint.rs_ohm);
+  // DC alone against AC alone (independent data).
+  const auto versus_ac = [&](const char* name, const Estimate& a, const Estimate& b) {
+    const double limit = options.agree_k * std::hypot(a.std_error, b.std_error);
+    const double diff = b.value - a.value;
+    const bool ok = std::isfinite(limit) && std::abs(diff) <= limit;
+    r.agree = r.agree && ok;
+    char line[200];
+    std::snprintf(line, sizeof line, "%s: DC %.6g ± %.3g, AC alone %.6g ± %.3g, |diff| %.3g %s %.3g (%s)\n", name, a.value,
+                  a.std_error, b.value, b.std_error, std::abs(diff), ok ? "<=" : ">", limit, ok ? "agree" : "DISAGREE");
+    r.agreement += line;
+    return diff > limit;  // AC above DC by more than the limit
+  };
+  bool ac_rs_higher = false;
+  if (r.ac_only.ok) {
+    versus_ac("n", r.dc_only.n, r.ac_only.n);
+    ac_rs_higher = versus_ac("rs_ohm", r.dc_only.rs_ohm, r.ac_only.rs_ohm);
+  }
   const bool consistent = r.joint.reduced_chi2 <= options.max_reduced_chi2;
   r.agree = r.agree && consistent;
   char line[160];
@@ -164,10 +228,10 @@ JointFitReport compare_dc_and_joint(std::span<const IvPoint> dc, std::span<const
   // A junction warmed by its own dissipation at the top of the sweep reads a
   // lower Vf there, which the DC fit takes as a smaller Rs; the AC readings
   // see the dynamic resistance directly (REFERENCES.md §3, self-heating).
-  if (!r.agree && r.dc_only.ok && r.joint.ok && r.joint.rs_ohm.value > r.dc_only.rs_ohm.value)
+  if (r.dc_only.ok && ac_rs_higher)
     r.hint =
-        "the AC readings see a larger Rs than the DC curve: typical of self-heating at the top of the DC sweep "
-        "(shorter settling or pulsed readings there, or trust the joint fit's Rs)";
+        "the AC readings alone see a larger Rs than the DC curve: typical of self-heating at the top of the DC sweep "
+        "(shorter settling or pulsed readings there, or take Rs from the AC readings)";
   return r;
 }
 
@@ -196,7 +260,8 @@ nlohmann::json simple_fit_json(const SimpleFit& f) {
 }
 
 nlohmann::json joint_report_json(const JointFitReport& r) {
-  nlohmann::json j{{"dc_only", simple_fit_json(r.dc_only)}, {"joint", simple_fit_json(r.joint)}, {"agree", r.agree}, {"agreement", r.agreement}};
+  nlohmann::json j{{"dc_only", simple_fit_json(r.dc_only)}, {"ac_only", simple_fit_json(r.ac_only)}, {"joint", simple_fit_json(r.joint)},
+                   {"agree", r.agree}, {"agreement", r.agreement}};
   if (!r.hint.empty()) j["hint"] = r.hint;
   return j;
 }

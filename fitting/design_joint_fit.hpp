@@ -55,6 +55,7 @@ struct SimpleFit {
 
 struct JointFitReport {
   SimpleFit dc_only;
+  SimpleFit ac_only;  // n and Rs from the AC readings alone (is_a not determined)
   SimpleFit joint;
   bool agree = false;
   std::string agreement;  // one line per parameter, then the χ² test
@@ -82,6 +83,19 @@ nlohmann::json joint_report_json(const JointFitReport& report);
 SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, const Fixture& fixture,
                     const JointFitOptions& options);
 
+// n and Rs from the AC readings alone, by the dynamic-resistance method
+// (REFERENCES.md §3): each reading gives rd = Z·(1/G − 1), with G = Vout/Vin
+// and Z = RL ∥ Rr, and rd = Rs + n·Vt/I is a straight line in Vt/I; a
+// weighted linear least-squares fit gives Rs (intercept) and n (slope), with
+// σ(rd) = (Z/G)·σ_dB·ln10/20 and errors scaled by the reduced χ². Junction
+// capacitance is neglected (valid while ω·Cj·rd ≪ 1). Needs 3 readings.
+SimpleFit fit_ac_only(std::span<const AcPoint> ac, const Fixture& fixture, const JointFitOptions& options);
+
+// The verdict also compares n and Rs of the DC-only and AC-only fits within
+// agree_k·sqrt(se² + se²): the AC readings alone are independent of the DC
+// curve, so a heated DC sweep cannot pull them (the joint fit, where precise
+// DC readings outweigh the AC ones, can be). The self-heating hint is given
+// when the AC-only Rs exceeds the DC one by more than that.
 JointFitReport compare_dc_and_joint(std::span<const IvPoint> dc, std::span<const AcPoint> ac, const Fixture& fixture,
                                     const JointFitOptions& options);
 

@@ -131,6 +131,10 @@ TEST_CASE("part.transfer: without self-heating the AC readings agree with the DC
     const Json& t = truth[static_cast<std::size_t>(part - 1)];
     CHECK(j["joint"]["rs_ohm"]["value"].get<double>() == Approx(t["rs_ohm"].get<double>()).epsilon(0.05));
     CHECK(j["joint"]["n"]["value"].get<double>() == Approx(t["n"].get<double>()).epsilon(0.01));
+    // And so do the AC readings alone (rd = Rs + n·Vt/I, REFERENCES.md §3).
+    REQUIRE(j["ac_only"]["ok"] == true);
+    CHECK(j["ac_only"]["rs_ohm"]["value"].get<double>() == Approx(t["rs_ohm"].get<double>()).epsilon(0.05));
+    CHECK(j["ac_only"]["n"]["value"].get<double>() == Approx(t["n"].get<double>()).epsilon(0.01));
   }
   // Options are checked; unknown params refused.
   CHECK(b.client().request("part.transfer", {{"part_id", 1}, {"ac_sigma_db", 0}})["error"]["data"]["field"] == "ac_sigma_db");
@@ -221,4 +225,7 @@ TEST_CASE("part.transfer: self-heating shows as AC and DC disagreeing, with a hi
   // The AC readings see the true Rs better than the hot DC curve does.
   CHECK(std::abs(j["joint"]["rs_ohm"]["value"].get<double>() - truth["rs_ohm"].get<double>()) <
         std::abs(j["dc_only"]["rs_ohm"]["value"].get<double>() - truth["rs_ohm"].get<double>()));
+  CHECK(std::abs(j["ac_only"]["rs_ohm"]["value"].get<double>() - truth["rs_ohm"].get<double>()) <
+        std::abs(j["dc_only"]["rs_ohm"]["value"].get<double>() - truth["rs_ohm"].get<double>()));
+  CHECK(j["ac_only"]["rs_ohm"]["value"].get<double>() > j["dc_only"]["rs_ohm"]["value"].get<double>());
 }

@@ -118,3 +118,21 @@ TEST_CASE("the shipped example config loads") {
   CHECK(c.bench.size() == 5);
   CHECK(c.paths.socket_group == "junco");
 }
+
+TEST_CASE("the bench's accuracy: optional, defaults from the fit, each term checked") {
+  const junco::fitting::AccuracyModel defaults;
+  const Config plain = parse_config(kGood, "/etc/junco/bench.jsonc");
+  CHECK(plain.accuracy.i_abs_a == defaults.i_abs_a);
+  CHECK(plain.accuracy.v_rel == defaults.v_rel);
+  const std::string declared =
+      with(kGood, "\"paths\":", "\"accuracy\": {\"v_rel\": 1e-5, \"v_abs_v\": 5e-6, \"i_abs_a\": 3.5e-7},\n  \"paths\":");
+  const Config c = parse_config(declared, "/etc/junco/bench.jsonc");
+  CHECK(c.accuracy.v_rel == 1e-5);
+  CHECK(c.accuracy.v_abs_v == 5e-6);
+  CHECK(c.accuracy.i_abs_a == 3.5e-7);
+  CHECK(c.accuracy.i_rel == defaults.i_rel);  // not given: the default
+  CHECK(message_of(with(declared, "\"v_rel\": 1e-5", "\"v_rel\": -1")) == "/etc/junco/bench.jsonc: /accuracy/v_rel: must be >= 0, got -1");
+  CHECK(message_of(with(declared, "\"i_abs_a\": 3.5e-7", "\"i_abs_a\": 0")) ==
+        "/etc/junco/bench.jsonc: /accuracy/i_abs_a: must be > 0 (the current reading's offset term)");
+  CHECK(message_of(with(declared, "\"v_rel\"", "\"v_relative\"")) == "/etc/junco/bench.jsonc: /accuracy/v_relative: unknown key");
+}

@@ -574,3 +574,29 @@ TEST_CASE("shutdown after a clean job says the outputs are off") {
   const auto lines = logged.snapshot();
   CHECK(std::count(lines.begin(), lines.end(), "shut down: outputs off") == 1);
 }
+
+TEST_CASE("the bench's declared accuracy reaches the fit: its noise floor excludes the readings below it") {
+  // fitting/extract.hpp: the noise floor is 10 × the current offset term, so
+  // i_abs_a = 2 mA leaves out every reading below 20 mA (our rule).
+  TempDir dir;
+  FakeLab lab;
+  Config cfg = config_in(dir.path);
+  cfg.accuracy.i_abs_a = 2e-3;
+  auto svc = make_service(cfg, fake_options(lab));
+  const Id job = svc->call("job.submit", {{"plan", plan(30, 0.0, 1)}}, kCaller)["job_id"];
+  REQUIRE(wait_for_state(*svc, job, {"done", "failed", "paused"})["state"] == "done");
+  const Json points = svc->call("part.readings", {{"part_id", 1}}, kCaller)["points"];
+  long below = 0, forward = 0;
+  for (const auto& p : points) {
+    if (!(p["i_a"].is_number() && p["v"].is_number()) || p["i_a"].get<double>() <= 0 || p["v"].get<double>() <= 0) continue;
+    ++forward;
+    below += p["i_a"].get<double>() < 20e-3;
+  }
+  REQUIRE(below >= 3);
+  const Json f = svc->call("part.fit", {{"part_id", 1}}, kCaller);
+  long floor_exclusions = 0;
+  for (const auto& e : f["detail"]["excluded"]) floor_exclusions += e["reason"].get<std::string>().find("noise floor") != std::string::npos;
+  CHECK(floor_exclusions == below);
+  CHECK(f["points_used"].get<long>() == forward - below);
+  CHECK(svc->call("bench.describe", Json::object(), kCaller)["accuracy"]["i_abs_a"] == 2e-3);
+}

@@ -7,6 +7,7 @@
 
 #include <cmath>
 #include <random>
+#include <span>
 
 using namespace junco::fitting;
 
@@ -36,6 +37,42 @@ Data make(const DiodeParams& p, double ac_rs_ohm, unsigned seed) {
   return d;
 }
 }  // namespace
+
+TEST_CASE("AC alone: the dynamic-resistance line rd = Rs + n·Vt/I gives back Rs and n") {
+  // REFERENCES.md §3, dynamic resistance: dV/dI = N·Vt/I + RS is a straight
+  // line against 1/I with slope N·Vt and intercept RS. Exact readings from the
+  // fixture divider (RL = 50 Ω, I ≫ IS) must return the generating values;
+  // Vt = kT/q at 300.15 K (REFERENCES.md §1).
+  const double vt = 1.380649e-23 * 300.15 / 1.602176634e-19;
+  std::vector<AcPoint> ac;
+  for (int k = 0; k <= 10; ++k) {
+    const double i = 1e-4 * std::pow(10.0, k / 4.0);
+    const double rd = 0.8 + 1.7 * vt / i;
+    ac.push_back({i, 1e6, 1.0, 50.0 / (50.0 + rd)});
+  }
+  JointFitOptions o;
+  const SimpleFit f = fit_ac_only(ac, Fixture{}, o);
+  REQUIRE(f.ok);
+  CHECK(f.rs_ohm.value == Approx(0.8).margin(1e-9));
+  CHECK(f.n.value == Approx(1.7).epsilon(1e-9));
+  CHECK(f.ac_points == ac.size());
+  CHECK(std::isnan(f.is_a.value));  // AC readings cannot see Is
+  // A DC return shunt enters through Z = RL ∥ Rr (divider with the shunt).
+  Fixture shunt;
+  shunt.dc_return_ohm = 200.0;
+  std::vector<AcPoint> ac2;
+  for (const auto& p : ac) {
+    const double rd = 50.0 / p.vout - 50.0;  // the rd that point was made from
+    ac2.push_back({p.bias_i_a, 1e6, 1.0, 40.0 / (40.0 + rd)});
+  }
+  const SimpleFit g = fit_ac_only(ac2, shunt, o);
+  CHECK(g.rs_ohm.value == Approx(0.8).margin(1e-9));
+  CHECK(g.n.value == Approx(1.7).epsilon(1e-9));
+  // Too few readings: no fit, and it says why.
+  const SimpleFit none = fit_ac_only(std::span<const AcPoint>(ac.data(), 2), Fixture{}, o);
+  CHECK_FALSE(none.ok);
+  CHECK_FALSE(none.message.empty());
+}
 
 TEST_CASE("joint fit recovers the generating Rs and n and agrees with DC-only") {
   const DiodeParams truth{1e-9, 1.8, 0.5};

@@ -190,6 +190,9 @@ std::string config_text(const Json& ready, const fs::path& dir) {
       // junco-sim's default fixture: 100 Ω bias resistor, choke return.
       {"fixture", {{"bias_resistor_ohm", 100.0}, {"slots", 8}, {"current_from", "source"}}},
       {"safety", {{"max_supply_v", 10.0}, {"current_limit_a", 0.05}, {"max_power_w", 0.1}, {"max_reverse_v", 8.0}, {"max_job_s", 3600.0}}},
+      // junco-sim's readings as ±(rel·|x| + abs) limits: the supply's current
+      // readback has 0.2 µA rms of noise in 0.1 µA steps, the meter a few µV.
+      {"accuracy", {{"v_rel", 1e-5}, {"v_abs_v", 5e-6}, {"i_rel", 1e-3}, {"i_abs_a", 3.5e-7}}},
       {"paths", {{"database", (dir / "junco.db").string()}, {"socket", (dir / "run" / "juncod.sock").string()}}}};
   return "// junco demo bench: junco-sim's instruments on 127.0.0.1 (written by junco demo)\n" + config.dump(2) + "\n";
 }
@@ -292,7 +295,7 @@ bool print_lot(RpcClient& client, const std::string& lot) {
 // Each part's AC readings against its fit, and the joint AC+DC fit (part.transfer).
 void print_transfer(RpcClient& client, const std::string& lot) {
   std::printf("\nAC transfer at 10 MHz against each fit, and the joint AC+DC fit (junco transfer PART)\n");
-  std::printf("%-6s %-13s %-20s %-20s %s\n", "part", "rms residual", "Rs from DC", "Rs from DC + AC", "verdict");
+  std::printf("%-6s %-13s %-20s %-20s %s\n", "part", "rms residual", "Rs from DC", "Rs from AC alone", "verdict");
   std::string hint;
   for (const auto& p : client.call("part.list", Json{{"lot", lot}}).value("parts", Json::array())) {
     const std::string label = p.value("label", "?");
@@ -306,7 +309,7 @@ void print_transfer(RpcClient& client, const std::string& lot) {
       char res[32];
       std::snprintf(res, sizeof res, "%.3f dB", num(r["rms_residual_db"]));
       const auto rs = [&](const char* which) { return pm(num(j[which]["rs_ohm"]["value"]), num(j[which]["rs_ohm"]["std_error"]), "Ω"); };
-      std::printf("%s\n", (pad_columns(label, 7) + pad_columns(res, 14) + pad_columns(rs("dc_only"), 21) + pad_columns(rs("joint"), 21) +
+      std::printf("%s\n", (pad_columns(label, 7) + pad_columns(res, 14) + pad_columns(rs("dc_only"), 21) + pad_columns(rs("ac_only"), 21) +
                             (j["agree"].get<bool>() ? "agree" : "DISAGREE"))
                                .c_str());
       if (j.contains("hint")) hint = j["hint"].get<std::string>();

@@ -35,19 +35,25 @@ std::string chi2(const Json& j) {
 }  // namespace
 
 void print_joint_report(const Json& j) {
-  std::printf("\n  joint AC+DC fit against the DC-only fit\n  %-14s %-26s %-26s\n", "", "DC only", "DC + AC");
+  const Json none = Json::object();
+  const Json& ac = j.contains("ac_only") ? j["ac_only"] : none;
+  std::printf("\n  DC-only, AC-only (rd = Rs + n·Vt/I) and joint AC+DC fits\n  %s%s%s%s\n", pad_columns("", 15).c_str(),
+              pad_columns("DC only", 27).c_str(), pad_columns("AC alone", 27).c_str(), "DC + AC");
   const auto row = [&](const char* name, const char* key, const std::string& unit) {
-    std::printf("  %s%s%s\n", pad_columns(name, 15).c_str(), pad_columns(estimate(j["dc_only"][key], unit), 27).c_str(), estimate(j["joint"][key], unit).c_str());
+    std::printf("  %s%s%s%s\n", pad_columns(name, 15).c_str(), pad_columns(estimate(j["dc_only"][key], unit), 27).c_str(),
+                pad_columns(ac.contains(key) ? estimate(ac[key], unit) : "—", 27).c_str(), estimate(j["joint"][key], unit).c_str());
   };
   row("Is", "is_a", "A");
   row("n", "n", "");
   row("Rs", "rs_ohm", "Ω");
-  std::printf("  %s%s%s\n", pad_columns("reduced chi2", 15).c_str(), pad_columns(chi2(j["dc_only"]["reduced_chi2"]), 27).c_str(),
-              chi2(j["joint"]["reduced_chi2"]).c_str());
-  std::printf("  %s%s%s\n", pad_columns("readings", 15).c_str(), pad_columns(std::to_string(j["dc_only"]["dc_points"].get<long>()) + " DC", 27).c_str(),
+  std::printf("  %s%s%s%s\n", pad_columns("reduced chi2", 15).c_str(), pad_columns(chi2(j["dc_only"]["reduced_chi2"]), 27).c_str(),
+              pad_columns(ac.contains("reduced_chi2") ? chi2(ac["reduced_chi2"]) : "—", 27).c_str(), chi2(j["joint"]["reduced_chi2"]).c_str());
+  std::printf("  %s%s%s%s\n", pad_columns("readings", 15).c_str(),
+              pad_columns(std::to_string(j["dc_only"]["dc_points"].get<long>()) + " DC", 27).c_str(),
+              pad_columns(ac.contains("ac_points") ? std::to_string(ac["ac_points"].get<long>()) + " AC" : "—", 27).c_str(),
               (std::to_string(j["joint"]["dc_points"].get<long>()) + " DC + " + std::to_string(j["joint"]["ac_points"].get<long>()) + " AC").c_str());
-  for (const char* which : {"dc_only", "joint"})
-    if (!j[which]["ok"].get<bool>()) std::printf("  %s fit: %s\n", which, j[which]["message"].get<std::string>().c_str());
+  for (const char* which : {"dc_only", "ac_only", "joint"})
+    if (j.contains(which) && !j[which]["ok"].get<bool>()) std::printf("  %s fit: %s\n", which, j[which]["message"].get<std::string>().c_str());
   std::printf("\n  verdict: %s\n", j["agree"].get<bool>() ? "AC and DC agree within their uncertainties" : "AC and DC DISAGREE");
   const std::string lines = j["agreement"].get<std::string>();
   std::size_t start = 0;
