@@ -16,11 +16,13 @@ const char* const usage = R"(usage: junco transfer PART [--run ID] [--sigma DB] 
 Compares the AC readings of a part's run (the fixture gain Vout/Vin, in dB)
 with the small-signal model of its latest fit: the diode as Rs + n·Vt/I
 (parallel Cj when given) between the fixture input and the load. Then fits
-Is, n and Rs to the DC curve and the AC readings together and says whether
-that joint fit agrees with the DC-only one within their uncertainties: the AC
-readings pin Rs and n through the dynamic resistance, the DC curve pins Is.
-A disagreement with a larger AC Rs is the mark of self-heating at the top of
-the DC sweep.
+n and Rs to the AC readings alone (the straight line rd = Rs + n·Vt/I), and
+Is, n and Rs to the DC curve and the AC readings together, and says whether
+these agree with the DC-only fit within their uncertainties: the AC readings
+pin Rs and n through the dynamic resistance, the DC curve pins Is. A larger
+Rs from the AC readings alone is the mark of self-heating at the top of the
+DC sweep. Readings at a level below 100 uV or with a signal current above
+0.1 x the bias are left out (and listed with --points).
 
 options:
   --run ID       the run (default: the part's latest)
