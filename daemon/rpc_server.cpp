@@ -126,9 +126,11 @@ class Connection : public std::enable_shared_from_this<Connection> {
   Json unsubscribe();
   void enqueue(std::string line);
   void write_next();
+  void arm_idle_timer();
 
   stream::socket socket_;
   asio::strand<asio::any_io_executor> strand_;
+  asio::steady_timer idle_timer_;
   std::shared_ptr<RpcServer::Impl> server_holder_;  // keeps the server alive while handlers run
   RpcServer::Impl& server_;
   rpc::LineFramer framer_;
@@ -295,7 +297,7 @@ class RpcServer::Impl : public std::enable_shared_from_this<RpcServer::Impl> {
 };
 
 Connection::Connection(stream::socket socket, std::shared_ptr<RpcServer::Impl> server)
-    : socket_(std::move(socket)), strand_(asio::make_strand(socket_.get_executor())),
+    : socket_(std::move(socket)), strand_(asio::make_strand(socket_.get_executor())), idle_timer_(strand_),
       server_holder_(std::move(server)), server_(*server_holder_), framer_(server_.options().max_line_bytes) {
   ucred cred{};
   socklen_t len = sizeof cred;
@@ -311,13 +313,39 @@ Connection::~Connection() {
 
 void Connection::start() {
   server_.log("debug", "client connected: " + peer_);
-  asio::dispatch(strand_, [self = shared_from_this()] { self->read_more(); });
+  asio::dispatch(strand_, [self = shared_from_this()] {
+    self->arm_idle_timer();
+    self->read_more();
+  });
+}
+
+// (Re)starts the idle countdown; on the strand. Setting a new expiry cancels
+// the previous wait, whose handler then sees operation_aborted.
+void Connection::arm_idle_timer() {
+  const unsigned ms = server_.options().idle_timeout_ms;
+  if (ms == 0 || closed_) return;
+  idle_timer_.expires_after(std::chrono::milliseconds(ms));
+  idle_timer_.async_wait(asio::bind_executor(strand_, [self = shared_from_this(), ms](boost::system::error_code ec) {
+    if (ec || self->closed_) return;
+    bool subscribed = false;
+    {
+      std::lock_guard lock(self->filter_mutex_);
+      subscribed = self->subscription_.has_value();
+    }
+    if (subscribed || self->writing_ || !self->out_.empty()) {
+      self->arm_idle_timer();  // waiting for events, or still being answered
+      return;
+    }
+    self->server_.log("info", "client " + self->peer_ + " closed: sent nothing for " + std::to_string(ms / 1000.0).substr(0, 5) + " s");
+    self->close("idle");
+  }));
 }
 
 void Connection::close(std::string_view why) {
   asio::dispatch(strand_, [self = shared_from_this(), reason = std::string(why)] {
     if (self->closed_) return;
     self->closed_ = true;
+    self->idle_timer_.cancel();
     self->unsubscribe();
     boost::system::error_code ignored;
     self->socket_.shutdown(stream::socket::shutdown_both, ignored);
@@ -344,6 +372,7 @@ void Connection::read_more() {
       self->close(ec.message());
       return;
     }
+    self->arm_idle_timer();
     self->handle_lines(n);
     self->read_more();
   }));

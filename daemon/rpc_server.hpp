@@ -20,6 +20,11 @@
 //                       an instrument or the store needs for its files. A
 //                       client beyond it gets one `unavailable` error line and
 //                       is closed. 0 = automatic: min(1024, RLIMIT_NOFILE / 2).
+//   idle_timeout_ms     a client that sends nothing for this long while it
+//                       has no subscription and nothing left to receive is
+//                       closed (logged), so forgotten or stuck clients do not
+//                       hold connection slots for ever; subscribers may wait
+//                       silently for events as long as they like. 0 = never.
 //   When accept() itself fails for lack of descriptors, the server waits
 //   accept_retry_ms before trying again (logged once per episode), instead of
 //   spinning on the failing call.
@@ -49,6 +54,7 @@ struct ServerOptions {
   std::size_t pause_reading_at = 64;
   std::size_t max_connections = 0;
   unsigned accept_retry_ms = 100;
+  unsigned idle_timeout_ms = 600000;  // 10 min
   LogFn log;  // may be empty
 };
 

@@ -289,3 +289,35 @@ TEST_CASE("a subscriber that does not read is dropped; the publisher never waits
   CHECK(healthy.request("daemon.status").contains("result"));  // the daemon goes on
   fs::remove_all(dir);
 }
+
+namespace {
+// True when the server closed the connection within `within` (end of stream).
+bool closed_by_server(SocketClient& c, std::chrono::milliseconds within) {
+  pollfd p{c.fd(), POLLIN, 0};
+  if (::poll(&p, 1, static_cast<int>(within.count())) <= 0) return false;
+  char byte;
+  return ::recv(c.fd(), &byte, 1, MSG_PEEK | MSG_DONTWAIT) == 0;
+}
+}  // namespace
+
+TEST_CASE("a silent client is closed after the idle timeout; talkers and subscribers stay", "[rpc][socket]") {
+  const auto dir = test::scratch_dir("idle");
+  FakeService service;
+  auto o = options_in(dir);
+  o.idle_timeout_ms = 300;
+  RunningServer s(service, o);
+  SocketClient silent(o.socket_path), talker(o.socket_path), subscriber(o.socket_path);
+  CHECK(subscriber.request("events.subscribe")["result"]["kinds"].size() == 3);
+  // The talker sends every 100 ms for a second: never idle for 300 ms.
+  for (int i = 0; i < 10; ++i) {
+    CHECK(talker.request("test.echo", {{"i", i}})["result"]["i"] == i);
+    std::this_thread::sleep_for(std::chrono::milliseconds(100));
+  }
+  CHECK(closed_by_server(silent, std::chrono::milliseconds(2000)));
+  CHECK_FALSE(closed_by_server(talker, std::chrono::milliseconds(0)));
+  CHECK_FALSE(closed_by_server(subscriber, std::chrono::milliseconds(0)));
+  // The silent subscriber still gets its events, and answers.
+  service.bus.publish({"job.state", {{"job_id", 1}, {"state", "done"}}});
+  CHECK(subscriber.read_json()["method"] == "job.state");
+  CHECK(subscriber.request("test.echo", {{"x", 1}})["result"]["x"] == 1);
+}
