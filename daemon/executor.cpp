@@ -1,5 +1,7 @@
 #include "daemon/executor.hpp"
 
+#include "daemon/part_analysis.hpp"
+
 #include "drivers/errors.hpp"
 #include "fitting/extract.hpp"
 
@@ -13,7 +15,6 @@ namespace {
 
 using Clock = std::chrono::steady_clock;
 
-constexpr int kStopFlags = flag_current_limit | flag_power_limit;
 // Current-targeted steps: corrections of the supply voltage per step, and
 // the tolerance that ends them (common practice, no source).
 constexpr int kTargetIterations = 5;
@@ -63,7 +64,7 @@ class JobRun {
     run_id_ = run.id;
     const auto last = store_.last_seq(run.id);
     const std::size_t first = last ? static_cast<std::size_t>(*last + 1) : 0;
-    stopped_high_ = store_.run_has_flag(run.id, kStopFlags);
+    stopped_high_ = store_.run_has_flag(run.id, kLimitFlags);
     if (first < steps_.size()) measure(part.slot, first);
     store_.finish_run(run.id, "done");
     fit_part(part_id, run.id);
@@ -102,7 +103,7 @@ class JobRun {
     p.run_id = run_id_;
     p.seq = static_cast<long>(seq);
     pending_.push_back(p);
-    if (p.flags & kStopFlags) {
+    if (p.flags & kLimitFlags) {
       stopped_high_ = true;
       guarded([&] { bench_.source->set_voltage_v(0.0); });
       log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " +
@@ -203,7 +204,7 @@ class JobRun {
       set_supply(v_set);
       wait(plan_.sweep.settle_s);
       read_dc(p);
-      if (p.flags & kStopFlags) return;
+      if (p.flags & kLimitFlags) return;
       if (std::fabs(p.i_a - target_a) <= kTargetTolerance * target_a) break;
       // Secant on (supply, current) when two readings differ; else the
       // fixture resistance plus a generous junction rd ≈ 2·Vt/I.
@@ -297,9 +298,7 @@ class JobRun {
   }
 
   void fit_part(Id part_id, Id run_id) {
-    std::vector<fitting::IvPoint> pts;
-    for (const auto& p : store_.points(run_id))
-      if (p.kind == "dc" && !(p.flags & kStopFlags) && std::isfinite(p.v) && std::isfinite(p.i_a)) pts.push_back({p.v, p.i_a});
+    const std::vector<fitting::IvPoint> pts = dc_fit_points(store_.points(run_id));
     try {
       fitting::FitOptions opt;
       opt.temp_k = plan_.temp_k;

@@ -16,7 +16,7 @@ Json number_or_null(double x) { return std::isfinite(x) ? Json(x) : Json(nullptr
 std::vector<fitting::IvPoint> dc_fit_points(const std::vector<PointRow>& points) {
   std::vector<fitting::IvPoint> out;
   for (const auto& p : points)
-    if (p.kind == "dc" && !(p.flags & (flag_current_limit | flag_power_limit)) && std::isfinite(p.v) && std::isfinite(p.i_a))
+    if (p.kind == "dc" && !(p.flags & kLimitFlags) && std::isfinite(p.v) && std::isfinite(p.i_a))
       out.push_back({p.v, p.i_a});
   return out;
 }
@@ -28,7 +28,7 @@ std::vector<fitting::AcPoint> ac_points(const std::vector<PointRow>& points) {
     if (p.kind == "dc") bias_i_a = p.i_a;
     else if (p.kind != "ac") bias_i_a = kNaN;
     else if (std::isfinite(bias_i_a) && std::isfinite(p.freq_hz) && std::isfinite(p.ac_in_v) && std::isfinite(p.ac_out_v))
-      ac.push_back({bias_i_a, p.freq_hz, p.ac_in_v, p.ac_out_v});
+      ac.push_back({bias_i_a, p.freq_hz, p.ac_in_v, p.ac_out_v, p.ac_unit == "vpp" ? 0.5 : std::sqrt(2.0)});
   }
   return ac;
 }
@@ -61,15 +61,7 @@ Json transfer_report(const PartRow& part, const RunRow& run, const Json& fit, co
   const double temp_k = std::isfinite(r.temp_k) ? r.temp_k : 300.15;
   const fitting::Fixture fx = ac_fixture(run.fixture);
   const fitting::AcPart ac_part{r.params(), options.cj_f};
-  // The AC readings with the bias of their step and their level unit.
-  std::vector<fitting::AcPoint> all;
-  double bias_i_a = kNaN;
-  for (const auto& p : points) {
-    if (p.kind == "dc") bias_i_a = p.i_a;
-    else if (p.kind != "ac") bias_i_a = kNaN;
-    else if (std::isfinite(bias_i_a) && std::isfinite(p.freq_hz) && std::isfinite(p.ac_in_v) && std::isfinite(p.ac_out_v))
-      all.push_back({bias_i_a, p.freq_hz, p.ac_in_v, p.ac_out_v, p.ac_unit == "vpp" ? 0.5 : std::sqrt(2.0)});
-  }
+  const std::vector<fitting::AcPoint> all = ac_points(points);
   const auto left_out = fitting::screen_ac_readings(all, fx, {options.max_signal_ratio, options.ac_floor_v});
   std::vector<fitting::AcPoint> used;
   Json rows = Json::array();
@@ -106,15 +98,14 @@ Json transfer_report(const PartRow& part, const RunRow& run, const Json& fit, co
            {"rms_residual_db", used.empty() ? Json(nullptr) : Json(std::sqrt(sum_sq / static_cast<double>(used.size())))},
            {"max_abs_residual_db", used.empty() ? Json(nullptr) : Json(worst)},
            {"joint", nullptr}};
-  const auto& ac = used;
-  if (ac.empty()) return out;
+  if (used.empty()) return out;
   fitting::JointFitOptions jo;
   jo.temp_k = temp_k;
   jo.accuracy = options.accuracy;
   jo.ac_sigma_db = options.ac_sigma_db;
   jo.cj_f = options.cj_f;
   const auto dc = dc_fit_points(points);
-  const auto rep = fitting::compare_dc_and_joint(dc, ac, fx, jo);
+  const auto rep = fitting::compare_dc_and_joint(dc, used, fx, jo);
   out["joint"] = fitting::joint_report_json(rep);
   return out;
 }

@@ -16,7 +16,8 @@ namespace junco::daemon {
 
 // A run's readings as the fits take them. DC: forward readings not taken in
 // current or power limit. AC: each AC reading with the current of the DC
-// reading of its bias step (the step's readings share one transaction).
+// reading of its bias step (the step's readings share one transaction) and
+// its level unit (peak_per_unit: √2 for vrms, ½ for vpp).
 std::vector<fitting::IvPoint> dc_fit_points(const std::vector<PointRow>& points);
 std::vector<fitting::AcPoint> ac_points(const std::vector<PointRow>& points);
 

@@ -38,17 +38,10 @@ std::string spice_name(const PartRow& part) { return fitting::spice_model_name("
 
 fitting::PartModel part_model(const PartRow& part, const Json& fit) {
   const fitting::FitResult r = fit_result_from_json(fit);
-  fitting::PartModel m;
-  m.part_label = part.label;
-  m.lot = part.lot;
-  if (fit.contains("run_id") && fit["run_id"].is_number_integer()) m.run_id = "run-" + std::to_string(fit["run_id"].get<Id>());
-  if (std::isfinite(r.temp_k)) m.temp_k = r.temp_k;
-  m.params = r.params();
-  m.is_se_a = r.is_a.std_error;
-  m.n_se = r.n.std_error;
-  m.rs_se_ohm = r.rs_ohm.std_error;
-  m.rms_residual = r.rms_residual;
-  m.points_used = r.points_used;
+  const std::string run_id =
+      fit.contains("run_id") && fit["run_id"].is_number_integer() ? "run-" + std::to_string(fit["run_id"].get<Id>()) : "";
+  fitting::PartModel m = fitting::part_model_from_fit(r, part.label, part.lot, run_id);
+  if (!std::isfinite(m.temp_k)) m.temp_k = fitting::PartModel{}.temp_k;  // a stored fit without a temperature
   return m;
 }
 

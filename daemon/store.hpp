@@ -51,6 +51,8 @@ enum PointFlag : int {
   flag_off_target = 4,     // current-targeted step missed its target by > 5 %
   flag_power_limit = 8,    // v·i above max_power_w: excluded from fits, the sweep stops going up
 };
+// The readings taken in a limit: left out of fits, and the sweep goes no higher.
+inline constexpr int kLimitFlags = flag_current_limit | flag_power_limit;
 
 struct JobRow {
   Id id = 0;

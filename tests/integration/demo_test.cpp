@@ -1,6 +1,8 @@
 // The README's first command ends in `junco demo`: run it for real (junco-sim
 // and juncod as child processes, a real socket, a real SQLite file) and check
 // what a user is promised: a fitted lot table, the spread, the database kept.
+#include "tests/support/db_rows.hpp"
+
 #include <catch2/catch.hpp>
 #include <sqlite3.h>
 
@@ -30,17 +32,7 @@ Run run(const std::string& cmd) {
   return {WIFEXITED(st) ? WEXITSTATUS(st) : -1, out};
 }
 
-int count_rows(const fs::path& db, const char* sql) {
-  sqlite3* h = nullptr;
-  REQUIRE(sqlite3_open_v2(db.c_str(), &h, SQLITE_OPEN_READONLY, nullptr) == SQLITE_OK);
-  sqlite3_stmt* st = nullptr;
-  REQUIRE(sqlite3_prepare_v2(h, sql, -1, &st, nullptr) == SQLITE_OK);
-  REQUIRE(sqlite3_step(st) == SQLITE_ROW);
-  const int n = sqlite3_column_int(st, 0);
-  sqlite3_finalize(st);
-  sqlite3_close(h);
-  return n;
-}
+using junco::test::count_rows;
 
 }  // namespace
 

@@ -4,6 +4,8 @@
 #include "daemon/migrations.hpp"
 #include "daemon/store.hpp"
 
+#include "tests/support/db_rows.hpp"
+
 #include <catch2/catch.hpp>
 
 #include <signal.h>
@@ -30,17 +32,7 @@ struct TempDir {
   ~TempDir() { fs::remove_all(path); }
 };
 
-int count_rows(const fs::path& db, const char* sql) {
-  sqlite3* h = nullptr;
-  REQUIRE(sqlite3_open_v2(db.c_str(), &h, SQLITE_OPEN_READONLY, nullptr) == SQLITE_OK);
-  sqlite3_stmt* st = nullptr;
-  REQUIRE(sqlite3_prepare_v2(h, sql, -1, &st, nullptr) == SQLITE_OK);
-  REQUIRE(sqlite3_step(st) == SQLITE_ROW);
-  const int n = sqlite3_column_int(st, 0);
-  sqlite3_finalize(st);
-  sqlite3_close(h);
-  return n;
-}
+using junco::test::count_rows;
 
 Json plan_json() { return Json{{"lot", "QX-7"}, {"parts", Json::array()}, {"resume", true}}; }
 
