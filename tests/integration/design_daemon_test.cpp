@@ -166,6 +166,12 @@ TEST_CASE("part.transfer: without self-heating the AC readings agree with the DC
   CHECK(lots.status == 0);
   CHECK(lots.out.find("lot DSN-0414: 2 fitted parts") != std::string::npos);
   CHECK(lots.out.find("Vf @ 1 mA") != std::string::npos);
+  lots = b.junco({"lots", "DSN-0414", "--set-size", "two"});
+  CHECK(lots.status == 2);
+  CHECK(lots.err.find("--set-size must be a whole number of parts (2..64), not 'two'") != std::string::npos);
+  lots = b.junco({"lots", "DSN-0414", "--set-size", "1"});
+  CHECK(lots.status == 2);
+  CHECK(lots.err.find("set_size: must be an integer 2..64") != std::string::npos);
 
   // The CLI's report, and the plots straight from the daemon.
   auto cli = b.junco({"transfer", "DS-1"});

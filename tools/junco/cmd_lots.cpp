@@ -137,7 +137,11 @@ int run(std::vector<std::string> args) {
     if (at) params["currents_a"] = parse_quantity_list(*at, "A");
     if (match_current) params["match_current_a"] = parse_quantity(*match_current, "A");
     if (match_tol) params["match_tolerance_v"] = parse_quantity(*match_tol, "V");
-    if (set_size) params["set_size"] = parse_id(*set_size, "--set-size");
+    if (set_size) {  // the daemon checks the range (2..64) and says so
+      if (set_size->empty() || set_size->find_first_not_of("0123456789") != std::string::npos || set_size->size() > 6)
+        throw std::invalid_argument("--set-size must be a whole number of parts (2..64), not '" + *set_size + "'");
+      params["set_size"] = std::stol(*set_size);
+    }
     RpcClient client(socket);
     const Json r = client.call("lot.stats", params);
     if (json) std::printf("%s\n", r.dump(2).c_str());
