@@ -6,6 +6,7 @@
 
 #include <cmath>
 #include <cstdio>
+#include <cstdlib>
 #include <fstream>
 #include <set>
 #include <sstream>
@@ -335,6 +336,9 @@ std::string format_number(double value) {
   char buf[32];
   // 10 significant digits: finer than any bench instrument resolves.
   std::snprintf(buf, sizeof buf, "%.10g", value);
+  // Within 5e-10 of ±DBL_MAX the rounded text lies beyond the largest double
+  // and would be read back as infinity; send the exact value instead.
+  if (!std::isfinite(std::strtod(buf, nullptr))) std::snprintf(buf, sizeof buf, "%.17g", value);
   return buf;
 }
 

@@ -5,6 +5,9 @@
 
 #include <catch2/catch.hpp>
 
+#include <cfloat>
+#include <cmath>
+#include <cstdlib>
 #include <filesystem>
 #include <set>
 
@@ -85,6 +88,21 @@ TEST_CASE("shipped dialects carry the command-sets.md commands", "[drivers][dial
   Dialect acv = load_dialect(dialect_dir + "scpi-acv.json");
   CHECK(acv.find("measure_vpp") == nullptr);  // Vpp not offered (command-sets.md)
   CHECK(expand_template(acv.find("measure_vrms")->query, {{"ch", "2"}}) == "MEAS:VOLT:AC? (@2)");
+}
+
+TEST_CASE("numbers sent to instruments read back as what was meant", "[drivers][dialect]") {
+  CHECK(format_number(0.65) == "0.65");
+  CHECK(format_number(-2.5e-9) == "-2.5e-09");
+  CHECK(format_number(1.0 / 3.0) == "0.3333333333");
+  // Ten digits of ±DBL_MAX round past the largest double, which reads back as
+  // infinity (found by the dialect fuzzer); the text must stay finite.
+  for (double v : {DBL_MAX, -DBL_MAX, std::nextafter(DBL_MAX, 0.0)}) {
+    const auto text = format_number(v);
+    CAPTURE(text);
+    CHECK(std::strtod(text.c_str(), nullptr) == v);
+  }
+  CHECK_THROWS_AS(format_number(std::nan("")), DriverError);
+  CHECK_THROWS_AS(format_number(HUGE_VAL), DriverError);
 }
 
 TEST_CASE("broken dialects name file, key and what is wrong", "[drivers][dialect]") {
