@@ -66,6 +66,7 @@ const std::map<std::string, std::set<std::string>>& known_params() {
       {"part.fit", {"part_id"}},       {"part.figures", {"part_id", "currents_a"}},
       {"part.export", {"part_id", "format"}},
       {"part.design", {"part_id", "calculator", "inputs"}},
+      {"design.run", {"calculator", "part", "inputs"}},
       {"lot.stats", {"lot", "currents_a", "match_current_a", "match_tolerance_v", "set_size"}},
       {"lot.export", {"lot", "format"}},
       {"part.transfer", {"part_id", "run_id", "ac_sigma_db", "cj_f", "max_signal_ratio", "ac_floor_v"}}};
@@ -149,6 +150,7 @@ class CoreService final : public Service {
     table_["part.figures"] = [this](const Json& p, const Caller&) { return figures(p); };
     table_["part.export"] = [this](const Json& p, const Caller&) { return export_part(p); };
     table_["part.design"] = [this](const Json& p, const Caller&) { return design(p); };
+    table_["design.run"] = [this](const Json& p, const Caller&) { return design_by_value(p); };
     table_["part.transfer"] = [this](const Json& p, const Caller&) { return transfer(p); };
     table_["lot.stats"] = [this](const Json& p, const Caller&) { return lot_stats(p); };
     table_["lot.export"] = [this](const Json& p, const Caller&) { return lot_export(p); };
@@ -275,18 +277,44 @@ class CoreService final : public Service {
   // A design calculator on the latest usable fit (fitting/design_calculators.hpp).
   Json design(const Json& params) {
     const PartRow part = part_or_throw(id_param(params, "part_id"));
-    const auto calculator = opt_string_param(params, "calculator");
-    if (!calculator) throw RequestError(RpcCode::invalid_params, "calculator: missing (required)", Json{{"field", "calculator"}});
-    const Json inputs = params.contains("inputs") ? params["inputs"] : Json::object();
+    const std::string calculator = calculator_param(params);
     const Json fit = usable_fit(part, "to design with");
     const fitting::DesignPart dp = design_part(part, fit);
+    Json answer = run_calculator(calculator, &dp, params);
+    answer["part_id"] = part.id;
+    answer["fit_id"] = fit.value("fit_id", Json());
+    return answer;
+  }
+
+  // A design calculator on a part given by value (an answer's "part" reads
+  // back as the same part); no store access.
+  Json design_by_value(const Json& params) {
+    const std::string calculator = calculator_param(params);
+    std::optional<fitting::DesignPart> dp;
+    if (params.contains("part")) {
+      try {
+        dp = fitting::design_part_from_json(params["part"]);
+      } catch (const fitting::DesignInputError& e) {
+        throw RequestError(RpcCode::invalid_params, e.what(), Json{{"field", e.field()}});
+      }
+    }
+    return run_calculator(calculator, dp ? &*dp : nullptr, params);
+  }
+
+  static std::string calculator_param(const Json& params) {
+    const auto calculator = opt_string_param(params, "calculator");
+    if (!calculator) throw RequestError(RpcCode::invalid_params, "calculator: missing (required)", Json{{"field", "calculator"}});
+    return *calculator;
+  }
+
+  // Runs the calculator on params.inputs; a bad input is invalid_params with
+  // data.field = inputs.KEY (or calculator, inputs, part).
+  static Json run_calculator(const std::string& calculator, const fitting::DesignPart* part, const Json& params) {
+    const Json inputs = params.contains("inputs") ? params["inputs"] : Json::object();
     try {
-      Json answer = fitting::run_design(*calculator, &dp, inputs);
-      answer["part_id"] = part.id;
-      answer["fit_id"] = fit.value("fit_id", Json());
-      return answer;
+      return fitting::run_design(calculator, part, inputs);
     } catch (const fitting::DesignInputError& e) {
-      const bool top = e.field() == "calculator" || e.field() == "inputs";
+      const bool top = e.field() == "calculator" || e.field() == "inputs" || e.field() == "part";
       const std::string field = top ? e.field() : "inputs." + e.field();
       throw RequestError(RpcCode::invalid_params, (top ? "" : "inputs.") + std::string(e.what()), Json{{"field", field}});
     }

@@ -16,6 +16,7 @@
 //   part.figures      {part_id, currents_a?:[..]} → Vf and rd at those currents
 //   part.export       {part_id, format}           → {format, content}
 //   part.design       {part_id, calculator, inputs} → a design calculator's answer on the latest fit
+//   design.run        {calculator, part?, inputs} → the same, on a part given by value
 //   part.transfer     {part_id, run_id?, ac_sigma_db?, cj_f?, ...} → AC readings vs model, joint AC+DC fit
 //   lot.stats         {lot, currents_a?, match_current_a?, ...} → spread, outliers, matched sets, nominal
 //   lot.export        {lot, format}               → the lot nominal as a SPICE card or model document

@@ -361,6 +361,40 @@ Json design_part_json(const DesignPart& p) {
   return j;
 }
 
+DesignPart design_part_from_json(const Json& j) {
+  if (!j.is_object()) throw DesignInputError("part", std::string("part must be an object, not ") + j.type_name());
+  static const std::map<std::string, InputRange> numbers{{"is_a", InputRange::positive},  {"n", InputRange::positive},
+                                                         {"rs_ohm", InputRange::non_negative}, {"temp_k", InputRange::positive},
+                                                         {"cj0_f", InputRange::non_negative}, {"vj_v", InputRange::positive},
+                                                         {"m", InputRange::positive}};
+  for (const auto& [key, value] : j.items()) {
+    if (key == "label") {
+      if (!value.is_string()) throw DesignInputError("part.label", "part.label: must be a string");
+      continue;
+    }
+    const auto it = numbers.find(key);
+    if (it == numbers.end())
+      throw DesignInputError("part." + key, "part." + key + ": not a part parameter (is_a, n, rs_ohm, temp_k, cj0_f, vj_v, m, label)");
+    if (key == "cj0_f" && value.is_null()) continue;
+    const bool positive = it->second == InputRange::positive;
+    if (!value.is_number() || !std::isfinite(value.get<double>()) || value.get<double>() < 0 ||
+        (positive && value.get<double>() == 0))
+      throw DesignInputError("part." + key, "part." + key + (positive ? ": must be a number > 0" : ": must be a number >= 0"));
+  }
+  for (const char* key : {"is_a", "n", "rs_ohm"})
+    if (!j.contains(key)) throw DesignInputError(std::string("part.") + key, std::string("part.") + key + ": missing (required)");
+  DesignPart p;
+  p.label = j.value("label", p.label);
+  p.dc.is_a = j["is_a"].get<double>();
+  p.dc.n = j["n"].get<double>();
+  p.dc.rs_ohm = j["rs_ohm"].get<double>();
+  if (j.contains("temp_k")) p.temp_k = j["temp_k"].get<double>();
+  if (j.contains("cj0_f") && j["cj0_f"].is_number()) p.cap.cj0_f = j["cj0_f"].get<double>();
+  if (j.contains("vj_v")) p.cap.vj_v = j["vj_v"].get<double>();
+  if (j.contains("m")) p.cap.m = j["m"].get<double>();
+  return p;
+}
+
 Json run_design(const std::string& calculator, const DesignPart* part, const Json& inputs) {
   const DesignCalculator* calc = find_design_calculator(calculator);
   if (!calc) {

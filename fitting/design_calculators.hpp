@@ -83,4 +83,11 @@ nlohmann::json run_design(const std::string& calculator, const DesignPart* part,
 // The part as the answer reports it (SPICE names, SI units).
 nlohmann::json design_part_json(const DesignPart& part);
 
+// The inverse, for a part given by value (the socket's design.run): is_a > 0,
+// n > 0 and rs_ohm >= 0 required; label, temp_k > 0, cj0_f >= 0 (or null:
+// unknown), vj_v > 0 and m > 0 optional (as the inputs'
+// overrides). So an answer's "part" reads back
+// as the same part. Throws DesignInputError naming "part.KEY".
+DesignPart design_part_from_json(const nlohmann::json& part);
+
 }  // namespace junco::fitting

@@ -1,7 +1,10 @@
 // Fuzz entry: fitting/design_calculators.hpp run_design, the code behind
-// juncod's part.design (inputs from any client) and `junco design`. The bytes
-// are JSON: {"calculator": NAME, "part": {is_a, n, rs_ohm, temp_k, cj0_f},
-// "inputs": {...}} (comments allowed). Only DesignInputError may escape.
+// juncod's part.design and design.run (inputs from any client) and `junco
+// design`. The bytes are JSON: {"calculator": NAME, "part": {is_a, n, rs_ohm,
+// temp_k, cj0_f, ...}, "inputs": {...}} (comments allowed); the part is read
+// by design_part_from_json, as design.run reads it. Only DesignInputError may
+// escape, and one about the part names a part.KEY field. The answer's part
+// reads back as the same part.
 // Invariants on an answer: every input the calculator has is echoed in
 // "assumed"; a target that cannot be met says why; the answer serialises;
 // and for the operating point, Kirchhoff's voltage law: I·(Rb + Rr) + Vd = Vs
@@ -21,16 +24,13 @@ void design(std::string_view data) {
   const std::string name = j.contains("calculator") && j["calculator"].is_string() ? j["calculator"].get<std::string>() : "op";
   fitting::DesignPart part;
   part.dc = {2.5e-9, 1.85, 0.7};  // an invented part, unless the input gives one
-  if (j.contains("part") && j["part"].is_object()) {
-    const Json& p = j["part"];
-    const auto take = [&](const char* key, double& into) {
-      if (p.contains(key) && p[key].is_number() && std::isfinite(p[key].get<double>())) into = p[key].get<double>();
-    };
-    take("is_a", part.dc.is_a);
-    take("n", part.dc.n);
-    take("rs_ohm", part.dc.rs_ohm);
-    take("temp_k", part.temp_k);
-    take("cj0_f", part.cap.cj0_f);
+  if (j.contains("part")) {
+    try {
+      part = fitting::design_part_from_json(j["part"]);  // as juncod's design.run reads it
+    } catch (const fitting::DesignInputError& e) {
+      require(e.field().rfind("part", 0) == 0, std::string("a bad part named another field: ") + e.what());
+      return;
+    }
   }
   const Json inputs = j.contains("inputs") ? j["inputs"] : Json::object();
   Json a;
@@ -54,6 +54,13 @@ void design(std::string_view data) {
     if (std::isfinite(i) && std::isfinite(vd) && std::isfinite(r * i)) {
       require(i >= 0 && vd >= 0 && vd <= vs * (1 + 1e-6), "op: a bias current or diode voltage outside 0..supply");
       require(std::abs(i * r + vd - vs) <= 1e-6 * vs + 1e-12, "op: I·(Rb + Rr) + Vd differs from the supply");
+    }
+  }
+  if (a.contains("part")) {  // the answer's part reads back as the same part (design.run's promise)
+    try {
+      require(fitting::design_part_json(fitting::design_part_from_json(a["part"])) == a["part"], "the answer's part reads back differently");
+    } catch (const fitting::DesignInputError& e) {
+      require(false, std::string("the answer's part does not read back: ") + e.what());
     }
   }
   (void)a.dump();

@@ -7,6 +7,7 @@
 #include "fitting/model_document.hpp"
 #include "tests/support/bench_daemon.hpp"
 
+#include <boost/math/special_functions/lambert_w.hpp>
 #include <catch2/catch.hpp>
 
 #include <cmath>
@@ -64,6 +65,7 @@ TEST_CASE("part.design answers as the calculators do on the exported model", "[d
       {"isolation", {{"cj0_f", 2e-12}, {"reverse_v", 5.0}, {"freq_hz", 1e9}}, "isolation_db"},
   };
   const Json schema = test::api_schema("part.design");
+  const Json by_value_schema = test::api_schema("design.run");
   for (const auto& c : cases) {
     const Json params{{"part_id", 1}, {"calculator", c.calculator}, {"inputs", c.inputs}};
     const Json remote = b.result("part.design", params);
@@ -75,6 +77,43 @@ TEST_CASE("part.design answers as the calculators do on the exported model", "[d
     CHECK(value_of(remote["result"], c.key) == Approx(value_of(mine["result"], c.key)).epsilon(1e-6));
     CHECK(remote["assumed"].size() == mine["assumed"].size());
     CHECK(remote["part_id"] == 1);
+    // design.run on the answer's own part (by value) answers the same.
+    const Json by_value_params{{"calculator", c.calculator}, {"part", remote["part"]}, {"inputs", c.inputs}};
+    const Json by_value = b.result("design.run", by_value_params);
+    CHECK(test::schema_problem(by_value_schema["params"], by_value_params) == "");
+    CHECK(test::schema_problem(by_value_schema["result"], by_value) == "");
+    CHECK(value_of(by_value["result"], c.key) == value_of(remote["result"], c.key));
+    CHECK(by_value["part"] == remote["part"]);
+    CHECK_FALSE(by_value.contains("part_id"));
+  }
+  // A calculator without a part takes none; one that needs a part says so,
+  // and a bad part names its field.
+  const Json headroom = b.result("design.run", {{"calculator", "headroom"}, {"inputs", {{"amplitude_v", 1.0}}}});
+  CHECK(test::schema_problem(by_value_schema["result"], headroom) == "");
+  CHECK_FALSE(headroom.contains("part"));
+  CHECK(test::schema_problem(schema["result"], b.result("part.design", {{"part_id", 1}, {"calculator", "headroom"}, {"inputs", {{"amplitude_v", 1.0}}}})) == "");
+  const Json good_part{{"is_a", 2e-9}, {"n", 1.8}, {"rs_ohm", 0.7}};
+  auto by_value_error = [&](const Json& part) {
+    Json params{{"calculator", "op"}, {"inputs", {{"supply_v", 5.0}, {"rbias_ohm", 390.0}}}};
+    if (!part.is_null()) params["part"] = part;
+    const Json r = b.client().request("design.run", params);
+    INFO(r.dump());
+    CHECK(r["error"]["code"] == -32602);
+    return r["error"]["data"].value("field", std::string());
+  };
+  CHECK(by_value_error(nullptr) == "part");
+  CHECK(by_value_error(Json::array()) == "part");
+  CHECK(by_value_error({{"n", 1.8}, {"rs_ohm", 0.7}}) == "part.is_a");
+  CHECK(by_value_error({{"is_a", -2e-9}, {"n", 1.8}, {"rs_ohm", 0.7}}) == "part.is_a");
+  CHECK(by_value_error({{"is_a", 2e-9}, {"n", 1.8}, {"rs_ohm", 0.7}, {"cj", 1e-12}}) == "part.cj");
+  CHECK(by_value_error({{"is_a", 2e-9}, {"n", "1.8"}, {"rs_ohm", 0.7}}) == "part.n");
+  // The op answer by value against REFERENCES.md §2's explicit current with
+  // Boost.Math's W0: I = (N·Vt/R)·W0[(IS·R/(N·Vt))·exp((V + IS·R)/(N·Vt))] − IS, R = RBIAS + RS.
+  {
+    const Json op = b.result("design.run", {{"calculator", "op"}, {"part", good_part}, {"inputs", {{"supply_v", 5.0}, {"rbias_ohm", 390.0}}}});
+    const double nvt = 1.8 * 1.380649e-23 * 300.15 / 1.602176634e-19, r = 390.0 + 0.7, is = 2e-9;
+    const double expected = nvt / r * boost::math::lambert_w0(is * r / nvt * std::exp((5.0 + is * r) / nvt)) - is;
+    CHECK(value_of(op["result"], "bias_current_a") == Approx(expected).epsilon(1e-9));
   }
   // Bad input is refused and names the field; nothing about the part changes.
   auto reply = b.client().request("part.design", {{"part_id", 1}, {"calculator", "op"}, {"inputs", {{"supply_v", 5.0}}}});
