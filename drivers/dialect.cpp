@@ -4,10 +4,12 @@
 
 #include <nlohmann/json.hpp>
 
+#include <cctype>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
 #include <fstream>
+#include <optional>
 #include <set>
 #include <sstream>
 
@@ -72,6 +74,37 @@ const std::vector<OperationRule>& rules_for(Role role) {
   return source;
 }
 
+// std::regex reads the number of a backreference (\12) or a repeat count
+// ({2,5}) into a long without a range check, so a long digit run is
+// undefined behaviour inside the library (found by the dialect fuzzer), and
+// a huge count builds a huge state machine. No reply pattern needs either.
+std::optional<std::string> regex_number_problem(const std::string& text) {
+  constexpr std::size_t max_backref_digits = 2;  // \1 .. \99
+  constexpr long max_repeat = 1000;
+  const auto digits_at = [&](std::size_t i) {
+    std::size_t n = 0;
+    while (i + n < text.size() && std::isdigit(static_cast<unsigned char>(text[i + n]))) ++n;
+    return n;
+  };
+  for (std::size_t i = 0; i < text.size(); ++i) {
+    if (text[i] == '\\' && i + 1 < text.size()) {
+      const std::size_t n = digits_at(i + 1);
+      if (n > max_backref_digits) return "backreference \\" + text.substr(i + 1, n) + " out of range";
+      i += n ? n : 1;
+    } else if (text[i] == '{') {
+      for (std::size_t j = i + 1, part = 0; part < 2; ++part) {
+        const std::size_t n = digits_at(j);
+        if (n > 4 || (n && std::stol(text.substr(j, n)) > max_repeat))
+          return "repeat count {" + text.substr(j, n) + "} above " + std::to_string(max_repeat);
+        j += n;
+        if (j >= text.size() || text[j] != ',') break;
+        ++j;
+      }
+    }
+  }
+  return std::nullopt;
+}
+
 // Collects the context of one file so every message names file and key.
 class Checker {
  public:
@@ -104,6 +137,7 @@ class Checker {
     return member(object, pointer, key, json::value_t::string, "a string").get<std::string>();
   }
   std::regex regex_at(const std::string& text, const std::string& pointer) const {
+    if (const auto why = regex_number_problem(text)) fail(pointer, "not a valid regular expression: " + *why);
     try {
       return std::regex(text, std::regex::ECMAScript);
     } catch (const std::regex_error& e) {

@@ -143,6 +143,14 @@ TEST_CASE("broken dialects name file, key and what is wrong", "[drivers][dialect
        "broken.json: /operations/disconnect_all/query: this operation returns nothing"},
       {"bad regex", replaced(good_scanner, R"("role")", R"("idn_match": "([", "role")"),
        "broken.json: /idn_match: not a valid regular expression"},
+      // std::regex would read these numbers into a long unchecked (found by
+      // the dialect fuzzer); refused before the library sees them.
+      {"huge backreference", replaced(good_scanner, R"("role")", R"("idn_match": "(a)\\88888888888888888888", "role")"),
+       "broken.json: /idn_match: not a valid regular expression: backreference \\88888888888888888888 out of range"},
+      {"huge repeat", replaced(good_scanner, R"("role")", R"("idn_match": "a{2,99999999999999}", "role")"),
+       "broken.json: /idn_match: not a valid regular expression: repeat count {99999999999999} above 1000"},
+      {"repeat above the limit", replaced(good_scanner, R"("role")", R"("idn_match": "a{1001}", "role")"),
+       "broken.json: /idn_match: not a valid regular expression: repeat count {1001} above 1000"},
       {"bad terminator", replaced(good_scanner, R"("role")", R"("read_terminator": ";", "role")"),
        "broken.json: /read_terminator: must be"},
       {"negative delay", replaced(good_scanner, R"({ "commands": ["ROUT:OPEN:ALL"] })",
@@ -171,6 +179,8 @@ TEST_CASE("reply specs are checked against what the operation returns", "[driver
   CHECK_THAT(error_of(replaced(levels, R"(, "reply": REPLY)", "")),
              Catch::StartsWith("broken.json: /operations/measure_vrms/reply: missing"));
   CHECK_NOTHROW(parse_dialect(replaced(levels, "REPLY", R"({"type": "number", "regex": "^V=(\\S+)$"})"), "ok"));
+  // Ordinary counts and backreferences stay allowed.
+  CHECK_NOTHROW(parse_dialect(replaced(levels, "REPLY", R"({"type": "number", "regex": "^(V)=([0-9.]{1,1000})\\1?$"})"), "ok"));
 }
 
 TEST_CASE("a file that cannot be read is named", "[drivers][dialect]") {
