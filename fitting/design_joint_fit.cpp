@@ -24,20 +24,94 @@ struct DcCost {
   }
 };
 
+// 20·log10|Vout/Vin| of the fixture (transfer.hpp): the diode Rs + (rj ∥ Cj)
+// in series with the cathode's load z_load = RL ∥ Rr.
+template <typename T>
+T fixture_gain_db(const T& rj, const T& rs, double omega_cj, double z_load) {
+  const T a = T(omega_cj) * rj;  // ω·Cj·rj
+  const T re = rs + rj / (T(1.0) + a * a) + T(z_load);
+  const T im = -a * rj / (T(1.0) + a * a);
+  return T(10.0) * log10(T(z_load * z_load) / (re * re + im * im));
+}
+
 struct AcCost {
   double bias_i_a, measured_db, vt, omega_cj, z_load, inv_sigma;
   template <typename T>
   bool operator()(const T* const x, T* r) const {
+    // x = {ln Is, n, Rs}
     const T rj = x[1] * T(vt) / (T(bias_i_a) + exp(x[0]));
-    const T a = T(omega_cj) * rj;  // ω·Cj·rj
-    const T re = x[2] + rj / (T(1.0) + a * a) + T(z_load);
-    const T im = -a * rj / (T(1.0) + a * a);
-    const T gain_sq = T(z_load * z_load) / (re * re + im * im);
-    const T model_db = T(10.0) * log10(gain_sq);
-    r[0] = (model_db - T(measured_db)) * T(inv_sigma);
+    r[0] = (fixture_gain_db(rj, x[2], omega_cj, z_load) - T(measured_db)) * T(inv_sigma);
     return true;
   }
 };
+
+// The AC readings alone: Is (≪ I) does not enter.
+struct AcOnlyCost {
+  double bias_i_a, measured_db, vt, omega_cj, z_load, inv_sigma;
+  template <typename T>
+  bool operator()(const T* const x, T* r) const {
+    // x = {n, Rs}
+    const T rj = x[0] * T(vt) / T(bias_i_a);
+    r[0] = (fixture_gain_db(rj, x[1], omega_cj, z_load) - T(measured_db)) * T(inv_sigma);
+    return true;
+  }
+};
+
+double cathode_load_ohm(const Fixture& fx) {
+  return std::isfinite(fx.dc_return_ohm) ? fx.rl_ohm * fx.dc_return_ohm / (fx.rl_ohm + fx.dc_return_ohm) : fx.rl_ohm;
+}
+
+// Refines the dynamic-resistance line's n and Rs by least squares on the
+// readings in dB with the junction capacitance in the model: the line takes
+// each reading's |Vout/Vin| as resistive, which reads ω·Cj·rj as extra
+// resistance where rj is large (low bias, high frequency).
+void refine_ac_with_cj(std::span<const AcPoint> ac, const Fixture& fixture, const JointFitOptions& o, SimpleFit& f) {
+  const double vt = thermal_voltage_v(o.temp_k), z_load = cathode_load_ohm(fixture);
+  double x[2] = {f.n.value, std::max(f.rs_ohm.value, 0.0)};
+  ceres::Problem problem;
+  std::size_t used = 0;
+  for (const auto& p : ac) {
+    if (!(p.vin > 0.0 && p.vout > 0.0 && p.bias_i_a > 0.0)) continue;
+    problem.AddResidualBlock(new ceres::AutoDiffCostFunction<AcOnlyCost, 1, 2>(new AcOnlyCost{
+                                 p.bias_i_a, 20.0 * std::log10(p.vout / p.vin), vt,
+                                 2.0 * std::numbers::pi * p.freq_hz * o.cj_f, z_load, 1.0 / o.ac_sigma_db}),
+                             nullptr, x);
+    ++used;
+  }
+  problem.SetParameterLowerBound(x, 0, 0.5);
+  problem.SetParameterUpperBound(x, 0, 5.0);
+  problem.SetParameterLowerBound(x, 1, 0.0);
+  problem.SetParameterUpperBound(x, 1, 1e3);
+  ceres::Solver::Options so;
+  so.max_num_iterations = o.max_iterations;
+  so.function_tolerance = 1e-12;
+  so.parameter_tolerance = 1e-12;
+  so.gradient_tolerance = 1e-14;
+  ceres::Solver::Summary summary;
+  ceres::Solve(so, &problem, &summary);
+  if (summary.termination_type != ceres::CONVERGENCE) {
+    f.ok = false;
+    f.message = "the AC-alone fit with Cj did not converge: " + summary.message;
+    return;
+  }
+  ceres::Covariance::Options co;
+  co.algorithm_type = ceres::DENSE_SVD;
+  ceres::Covariance cov(co);
+  std::vector<std::pair<const double*, const double*>> blocks{{x, x}};
+  f.n.value = x[0];
+  f.rs_ohm.value = x[1];
+  f.cost = summary.final_cost;
+  f.reduced_chi2 = 2.0 * summary.final_cost / static_cast<double>(used - 2);
+  if (cov.Compute(blocks, &problem)) {
+    double c[4];
+    cov.GetCovarianceBlock(x, x, c);
+    f.n.std_error = std::sqrt(c[0] * f.reduced_chi2);
+    f.rs_ohm.std_error = std::sqrt(c[3] * f.reduced_chi2);
+  } else {
+    f.n.std_error = f.rs_ohm.std_error = std::numeric_limits<double>::quiet_NaN();
+    f.message = "covariance not determined";
+  }
+}
 
 // Start from the slope of the lowest decade and the excess at the top.
 void initial_estimate(std::span<const IvPoint> dc, double vt, double x[3]) {
@@ -83,9 +157,7 @@ SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, co
                                  new DcCost{p.v, p.i_a, vt, 1.0 / (o.dc_sigma_scale * std::hypot(sv, si))}),
                              nullptr, x);
   }
-  const double z_load = std::isfinite(fixture.dc_return_ohm)
-                            ? fixture.rl_ohm * fixture.dc_return_ohm / (fixture.rl_ohm + fixture.dc_return_ohm)
-                            : fixture.rl_ohm;
+  const double z_load = cathode_load_ohm(fixture);
   for (const auto& p : ac) {
     if (!(p.vin > 0.0 && p.vout > 0.0 && p.bias_i_a > 0.0)) continue;
     const double omega_cj = 2.0 * std::numbers::pi * p.freq_hz * o.cj_f;
@@ -138,7 +210,7 @@ SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, co
 SimpleFit fit_ac_only(std::span<const AcPoint> ac, const Fixture& fixture, const JointFitOptions& o) {
   SimpleFit f;
   const double vt = thermal_voltage_v(o.temp_k);
-  const double z = 1.0 / (1.0 / fixture.rl_ohm + 1.0 / fixture.dc_return_ohm);
+  const double z = cathode_load_ohm(fixture);
   // Weighted normal equations for rd = Rs + n·x, x = Vt/I.
   double s_w = 0, s_x = 0, s_y = 0, s_xx = 0, s_xy = 0;
   std::vector<std::array<double, 3>> rows;  // x, rd, weight
@@ -176,6 +248,7 @@ SimpleFit fit_ac_only(std::span<const AcPoint> ac, const Fixture& fixture, const
   f.is_a = {std::numeric_limits<double>::quiet_NaN(), std::numeric_limits<double>::quiet_NaN()};
   f.ok = std::isfinite(rs) && std::isfinite(n);
   if (!f.ok) f.message = "the dynamic-resistance fit did not give finite values";
+  else if (o.cj_f > 0.0) refine_ac_with_cj(ac, fixture, o, f);
   return f;
 }
 

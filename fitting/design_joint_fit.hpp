@@ -87,8 +87,12 @@ SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, co
 // (REFERENCES.md §3): each reading gives rd = Z·(1/G − 1), with G = Vout/Vin
 // and Z = RL ∥ Rr, and rd = Rs + n·Vt/I is a straight line in Vt/I; a
 // weighted linear least-squares fit gives Rs (intercept) and n (slope), with
-// σ(rd) = (Z/G)·σ_dB·ln10/20 and errors scaled by the reduced χ². Junction
-// capacitance is neglected (valid while ω·Cj·rd ≪ 1). Needs 3 readings.
+// σ(rd) = (Z/G)·σ_dB·ln10/20 and errors scaled by the reduced χ². The line
+// neglects the junction capacitance (valid while ω·Cj·rj ≪ 1); when
+// options.cj_f > 0 the line's n and Rs start a least-squares fit of the
+// readings in dB with Rs + (rj ∥ Cj) in the model (Is, ≪ I, left out), and
+// that fit's values and errors (scaled by its reduced χ², N − 2) are
+// returned. Needs 3 readings.
 SimpleFit fit_ac_only(std::span<const AcPoint> ac, const Fixture& fixture, const JointFitOptions& options);
 
 // The verdict also compares n and Rs of the DC-only and AC-only fits within

@@ -72,7 +72,8 @@ curve pins Is; says whether the two agree within their uncertainties):
   --rl OHM             fixture load (default 50)
   --rreturn OHM        DC-return resistor at the cathode (default: a choke, open at AC)
   --ac-sigma DB        uncertainty of one AC reading (default 0.01)
-  --cj F               junction capacitance in the AC model (default: none)
+  --cj F               junction capacitance in the AC model and the AC-alone fit
+                       (default: none)
   AC readings below 100 uV or with a signal current above 0.1 x the bias are left out.
 
 exit status: 0 fitted; 1 the fit failed; 2 bad command line or bad input file.

@@ -27,7 +27,8 @@ DC sweep. Readings at a level below 100 uV or with a signal current above
 options:
   --run ID       the run (default: the part's latest)
   --sigma DB     uncertainty of one AC reading (default 0.01 dB)
-  --cj F         junction capacitance for the model, e.g. 2pF (default: none)
+  --cj F         junction capacitance for the model and the AC-alone fit, e.g.
+                 2pF (default: none; matters once 2*pi*f*Cj*n*Vt/I nears 0.1)
   --points       list every reading, not just the summary per frequency
   --lot NAME     the lot of a PART given by label
   --socket PATH  juncod's socket (see junco status --help)
