@@ -211,7 +211,7 @@ Config parse_config(const std::string& text, const fs::path& file) {
     c.fail("", "not valid JSON: " + what);
   }
   if (!doc.is_object()) c.fail("", std::string("must be an object, not ") + doc.type_name());
-  c.only_keys(doc, "", {"bench", "fixture", "safety", "accuracy", "paths"});
+  c.only_keys(doc, "", {"bench", "fixture", "safety", "accuracy", "paths", "server"});
 
   Config cfg;
   cfg.file = file;
@@ -236,6 +236,13 @@ Config parse_config(const std::string& text, const fs::path& file) {
   if (!doc.contains("safety")) c.fail("/safety", "missing (required)");
   cfg.safety = parse_safety(c, c.object(doc, "safety", "/safety"));
   if (doc.contains("accuracy")) cfg.accuracy = parse_accuracy(c, c.object(doc, "accuracy", "/accuracy"));
+
+  if (doc.contains("server")) {
+    const Json& server = c.object(doc, "server", "/server");
+    c.only_keys(server, "/server", {"idle_timeout_s"});
+    cfg.server.idle_timeout_s = c.number(server, "idle_timeout_s", "/server", cfg.server.idle_timeout_s, false, 0, true);
+    if (cfg.server.idle_timeout_s > 86400) c.fail("/server/idle_timeout_s", "must be at most 86400 (a day; 0 = never)");
+  }
 
   cfg.paths = default_paths();
   if (doc.contains("paths")) {

@@ -66,6 +66,13 @@ struct PathsConfig {
   std::string socket_group;        // group allowed to connect ("" = owner only)
 };
 
+// The socket server's client policy (rpc_server.hpp ServerOptions).
+struct ServerConfig {
+  // A client that sends nothing this long, without a subscription or replies
+  // pending, is closed; 0 = never.
+  double idle_timeout_s = 600.0;
+};
+
 struct Config {
   std::filesystem::path file;  // where it was loaded from ("" when built in code)
   std::map<std::string, InstrumentConfig> bench;  // by role
@@ -77,6 +84,7 @@ struct Config {
   // Optional; fitting::AccuracyModel's defaults otherwise.
   fitting::AccuracyModel accuracy;
   PathsConfig paths;
+  ServerConfig server;
   nlohmann::json raw;  // the parsed document (for bench.describe)
 
   const InstrumentConfig* instrument(const std::string& role) const {

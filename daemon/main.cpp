@@ -10,6 +10,7 @@
 #include <boost/asio/io_context.hpp>
 #include <boost/asio/signal_set.hpp>
 
+#include <cmath>
 #include <csignal>
 #include <cstdio>
 #include <exception>
@@ -156,6 +157,7 @@ int main(int argc, char** argv) {
   d::ServerOptions server_options;
   server_options.socket_path = config.paths.socket.string();
   server_options.group = config.paths.socket_group;
+  server_options.idle_timeout_ms = static_cast<unsigned>(std::lround(config.server.idle_timeout_s * 1000.0));
   server_options.log = log;
   d::RpcServer server(io, *service, server_options);
   try {

@@ -29,6 +29,7 @@ struct BenchDaemonOptions {
   std::vector<std::string> roles{"source", "meter", "scanner", "siggen", "levelmeter"};
   Json fixture{{"bias_resistor_ohm", 100.0}, {"slots", 8}};
   Json safety{{"max_supply_v", 10.0}, {"current_limit_a", 0.05}, {"max_power_w", 0.1}, {"max_reverse_v", 5.0}, {"max_job_s", 600.0}};
+  Json extra = Json::object();  // more top-level config keys ("server", "accuracy")
 };
 
 class BenchDaemon {
@@ -37,10 +38,11 @@ class BenchDaemon {
       : dir_(scratch_dir(tag)), sim_(std::move(sim_args)) {
     Json bench = Json::object();
     for (const auto& role : options.roles) bench[role] = {{"address", sim_.endpoint(role)}, {"dialect", sim_.family(role)}};
-    const Json config{{"bench", bench},
-                      {"fixture", options.fixture},
-                      {"safety", options.safety},
-                      {"paths", {{"database", (dir_ / "junco.db").string()}, {"socket", socket()}}}};
+    Json config{{"bench", bench},
+                {"fixture", options.fixture},
+                {"safety", options.safety},
+                {"paths", {{"database", (dir_ / "junco.db").string()}, {"socket", socket()}}}};
+    config.update(options.extra);
     std::ofstream(dir_ / "bench.jsonc") << "// test bench (tests/support/bench_daemon.hpp)\n" << config.dump(2);
     ChildOptions o;
     o.stderr_path = (dir_ / "juncod.log").string();

@@ -136,3 +136,16 @@ TEST_CASE("the bench's accuracy: optional, defaults from the fit, each term chec
         "/etc/junco/bench.jsonc: /accuracy/i_abs_a: must be > 0 (the current reading's offset term)");
   CHECK(message_of(with(declared, "\"v_rel\"", "\"v_relative\"")) == "/etc/junco/bench.jsonc: /accuracy/v_relative: unknown key");
 }
+
+TEST_CASE("the socket's idle timeout: 10 min by default, 0 = never, bounded") {
+  CHECK(parse_config(kGood, "/etc/junco/bench.jsonc").server.idle_timeout_s == 600.0);
+  const auto server = [](const std::string& body) { return with(kGood, "\"paths\":", "\"server\": " + body + ",\n  \"paths\":"); };
+  CHECK(parse_config(server(R"({"idle_timeout_s": 0})"), "/etc/junco/bench.jsonc").server.idle_timeout_s == 0.0);
+  CHECK(parse_config(server(R"({"idle_timeout_s": 2.5})"), "/etc/junco/bench.jsonc").server.idle_timeout_s == 2.5);
+  CHECK(parse_config(server("{}"), "/etc/junco/bench.jsonc").server.idle_timeout_s == 600.0);
+  CHECK(message_of(server(R"({"idle_timeout_s": -1})")) == "/etc/junco/bench.jsonc: /server/idle_timeout_s: must be >= 0, got -1");
+  CHECK(message_of(server(R"({"idle_timeout_s": 1e9})")) ==
+        "/etc/junco/bench.jsonc: /server/idle_timeout_s: must be at most 86400 (a day; 0 = never)");
+  CHECK(message_of(server(R"({"idle_timeout": 5})")) == "/etc/junco/bench.jsonc: /server/idle_timeout: unknown key");
+  CHECK(message_of(server("5")) == "/etc/junco/bench.jsonc: /server: must be an object, not number");
+}
