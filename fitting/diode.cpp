@@ -56,7 +56,22 @@ double diode_current_a(const DiodeParams& p, double v, double temp_k) {
   }
   if (!has_shunt(p)) {
     const double log_arg = std::log(p.is_a * p.rs_ohm / nvt) + (v + p.is_a * p.rs_ohm) / nvt;
-    return nvt / p.rs_ohm * lambert_w0_of_exp(log_arg) - p.is_a;
+    const double i = nvt / p.rs_ohm * lambert_w0_of_exp(log_arg) - p.is_a;
+    if (i >= p.is_a) return i;
+    // Below Is the subtraction above cancels (relative error ε·Is/I: all of
+    // it once a huge resistance leaves I ≪ Is). Solve for d = I/Is instead:
+    // ln(1 + d) + y·d = V/nVt with y = Is·R/nVt, increasing and concave in d.
+    const double y = p.is_a * p.rs_ohm / nvt, target = v / nvt;
+    double d = std::max(i / p.is_a, -0.5);
+    for (int k = 0; k < 60; ++k) {
+      const double step = (std::log1p(d) + y * d - target) / (1.0 / (1.0 + d) + y);
+      double next = d - step;
+      if (next <= -1.0) next = 0.5 * (d - 1.0);  // stay above the asymptote
+      const bool done = std::abs(next - d) <= 1e-15 * std::abs(next);
+      d = next;
+      if (done) break;
+    }
+    return p.is_a * d;
   }
   const double rsum = p.rs_ohm + p.rsh_ohm;
   const double log_arg =

@@ -54,6 +54,31 @@ TEST_CASE("Round trip V(I(V)) = V across the forward range", "[reference]") {
   }
 }
 
+TEST_CASE("Below Is the current stays exact: V(I(V)) = V down to a huge resistance", "[reference]") {
+  // The W form subtracts Is from nVt/R·W, which cancels once I ≪ Is (found by
+  // the design fuzzer: 5 V through 1.1e69 Ω gave 4e-25 A instead of 4.5e-69 A).
+  // Checks: the §2 inverse V = I·R + N·Vt·ln(1 + I/IS) returns the applied V,
+  // and deep in that range the junction is the linear conductance IS/(N·Vt)
+  // (first term of the exponential; calculus, no source).
+  const double temp_k = 300.15;
+  const DiodeParams base{2.5e-9, 1.85, 0.7};
+  const double nvt = base.n * thermal_voltage_v(temp_k);
+  for (double r = 1.0; r < 1e80; r *= 37.0) {
+    DiodeParams p = base;
+    p.rs_ohm = r;
+    for (double v : {-3.0, -1e-3, 1e-6, 1e-3, 0.05, 0.3, 5.0}) {
+      const double i = diode_current_a(p, v, temp_k);
+      INFO("R = " << r << " Ω, V = " << v << " V, I = " << i << " A");
+      REQUIRE(std::isfinite(i));
+      // Deep reverse bias (I → −Is) leaves V(I) ill-conditioned; there the
+      // current is −Is while R is small against N·Vt/IS.
+      if (i > -0.5 * p.is_a) CHECK(diode_voltage_v(p, i, temp_k) == Approx(v).epsilon(1e-9).margin(1e-300));
+      else if (r < 1e5) CHECK(i == Approx(-p.is_a).epsilon(1e-6));
+      if (std::abs(i) < 1e-6 * p.is_a) CHECK(i == Approx(v / (r + nvt / p.is_a)).epsilon(1e-6));
+    }
+  }
+}
+
 TEST_CASE("I(V) matches Banwell–Jayakumar evaluated directly with Boost.Math", "[reference]") {
   // Formula as in boostorg/math example/lambert_w_diode.cpp (REFERENCES.md §2):
   // I = (nVt/R)·W0[(Is·R/nVt)·exp((V + Is·R)/nVt)] − Is, computed here with
