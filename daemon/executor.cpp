@@ -7,6 +7,7 @@
 
 #include <chrono>
 #include <cmath>
+#include <cstdio>
 #include <sstream>
 
 namespace junco::daemon {
@@ -67,7 +68,7 @@ class JobRun {
     stopped_high_ = store_.run_has_flag(run.id, kLimitFlags);
     if (first < steps_.size()) measure(part.slot, first);
     store_.finish_run(run.id, "done");
-    fit_part(part_id, run.id);
+    fit_part(part_id, run.id, fixture);
   }
 
   void measure(int slot, std::size_t first) {
@@ -78,7 +79,7 @@ class JobRun {
       bench_.source->set_voltage_v(0.0);
       bench_.source->set_output(true);
     });
-    biased_index_ = -1;
+    biased_index_ = reversed_index_ = -1;
     siggen_on_ = false;
     vf_guess_v_ = kFirstVfGuessV;
     try {
@@ -93,9 +94,10 @@ class JobRun {
 
   void step_at(std::size_t seq) {
     const Step& step = steps_[seq];
-    if (step.kind != Step::Kind::ac) commit_pending();  // a new bias step begins
+    const bool reverse = step.kind == Step::Kind::reverse || step.kind == Step::Kind::reverse_ac;
+    if (step.kind == Step::Kind::dc || step.kind == Step::Kind::reverse) commit_pending();  // a new bias step begins
     poll();
-    if (stopped_high_ && step.kind != Step::Kind::reverse) {
+    if (stopped_high_ && !reverse) {
       ++skipped_;
       return;
     }
@@ -138,7 +140,7 @@ class JobRun {
              (retry ? " (retrying, attempt " + std::to_string(attempt) + ")" : ""));
         if (!retry)
           throw JobStop{JobStop::Why::fault, describe(e) + " (part " + part_label_ + ", after " + std::to_string(attempt) + " attempts)"};
-        biased_index_ = -1;  // re-establish the bias on the next attempt
+        biased_index_ = reversed_index_ = -1;  // re-establish the bias on the next attempt
         if (!queue_.sleep_for(std::chrono::milliseconds(50 * attempt))) poll();
       }
     }
@@ -148,40 +150,56 @@ class JobRun {
     PointRow p;
     p.kind = to_string(step.kind);
     p.set_value = step.set_value;
-    p.set_unit = (step.kind != Step::Kind::reverse && plan_.sweep.mode == SweepMode::current) ? "A" : "V";
-    if (step.kind != Step::Kind::ac && siggen_on_) {
+    const bool reverse = step.kind == Step::Kind::reverse || step.kind == Step::Kind::reverse_ac;
+    p.set_unit = (!reverse && plan_.sweep.mode == SweepMode::current) ? "A" : "V";
+    const bool levels = step.kind == Step::Kind::ac || step.kind == Step::Kind::reverse_ac;
+    if (!levels && siggen_on_) {  // DC readings are taken with the generator off
       bench_.siggen->set_output(false);
       siggen_on_ = false;
     }
     if (step.kind == Step::Kind::reverse) {
-      biased_index_ = -1;
-      set_supply(step.set_value);  // negative: reverse bias; magnitude checked against max_reverse_v
-      wait(plan_.sweep.settle_s);
+      reverse_bias(step);
       read_dc(p);
     } else if (step.kind == Step::Kind::dc) {
       bias(step, p);
     } else {
-      if (biased_index_ != step.dc_index) {
+      if (step.kind == Step::Kind::reverse_ac && reversed_index_ != step.dc_index) {
+        reverse_bias(step);  // resumed into the off-state part of a reverse step
+      } else if (step.kind == Step::Kind::ac && biased_index_ != step.dc_index) {
         PointRow scratch;
         bias(step, scratch);  // resumed into the AC part of a step: bias first
       }
-      if (!siggen_on_) {
-        bench_.siggen->set_amplitude(plan_.ac->amplitude, plan_.ac->unit);
-      }
-      bench_.siggen->set_frequency_hz(step.freq_hz);
-      if (!siggen_on_) {
-        bench_.siggen->set_output(true);
-        siggen_on_ = true;
-      }
-      wait(plan_.ac->settle_s);
-      p.ac_unit = plan_.ac->unit == drivers::LevelUnit::vrms ? "vrms" : "vpp";
-      p.freq_hz = step.freq_hz;
-      p.ac_in_v = bench_.levelmeter->measure_level(1, plan_.ac->unit);
-      p.ac_out_v = bench_.levelmeter->measure_level(2, plan_.ac->unit);
-      p.supply_v = supply_v_;
+      read_levels(step, p);
     }
     p.t_s = unix_time_s();
     return p;
+  }
+
+  void reverse_bias(const Step& step) {
+    biased_index_ = -1;
+    set_supply(step.set_value);  // negative: reverse bias; magnitude checked against max_reverse_v
+    wait(plan_.sweep.settle_s);
+    reversed_index_ = step.dc_index;
+  }
+
+  // The two level-meter channels at the step's frequency, generator on.
+  void read_levels(const Step& step, PointRow& p) {
+    const double amplitude = step.kind == Step::Kind::reverse_ac ? plan_.ac->off_state->amplitude : plan_.ac->amplitude;
+    if (!siggen_on_ || amplitude != siggen_amplitude_) {
+      bench_.siggen->set_amplitude(amplitude, plan_.ac->unit);
+      siggen_amplitude_ = amplitude;
+    }
+    bench_.siggen->set_frequency_hz(step.freq_hz);
+    if (!siggen_on_) {
+      bench_.siggen->set_output(true);
+      siggen_on_ = true;
+    }
+    wait(plan_.ac->settle_s);
+    p.ac_unit = plan_.ac->unit == drivers::LevelUnit::vrms ? "vrms" : "vpp";
+    p.freq_hz = step.freq_hz;
+    p.ac_in_v = bench_.levelmeter->measure_level(1, plan_.ac->unit);
+    p.ac_out_v = bench_.levelmeter->measure_level(2, plan_.ac->unit);
+    p.supply_v = supply_v_;
   }
 
   // Programs the forward bias of a dc step and reads it into p.
@@ -194,6 +212,7 @@ class JobRun {
       target_current(step.set_value, p);
     }
     biased_index_ = step.dc_index;
+    reversed_index_ = -1;
   }
 
   void target_current(double target_a, PointRow& p) {
@@ -297,16 +316,28 @@ class JobRun {
                      {{"job_id", job_id_}, {"points_done", points_done_}, {"points_total", points_total_}, {"eta_s", eta}, {"part", part_label_}}});
   }
 
-  void fit_part(Id part_id, Id run_id) {
-    const std::vector<fitting::IvPoint> pts = dc_fit_points(store_.points(run_id));
+  void fit_part(Id part_id, Id run_id, const Json& fixture) {
+    const std::vector<PointRow> points = store_.points(run_id);
+    const std::vector<fitting::IvPoint> pts = dc_fit_points(points);
     try {
       fitting::FitOptions opt;
       opt.temp_k = plan_.temp_k;
       opt.accuracy = cfg_.accuracy;
       const auto fit = fitting::fit_forward(pts, opt);
-      store_.insert_fit(part_id, run_id, fit);
-      log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": fit " + fitting::to_string(fit.status) + " on " +
-           std::to_string(fit.points_used) + " points");
+      const auto cap = junction_cap_of_run(points, fixture, fit.usable() ? fit.rs_ohm.value : 0.0);
+      store_.insert_fit(part_id, run_id, fit, cap ? &*cap : nullptr);
+      std::string line = "job " + std::to_string(job_id_) + " part " + part_label_ + ": fit " + fitting::to_string(fit.status) +
+                         " on " + std::to_string(fit.points_used) + " points";
+      if (cap) {
+        char buf[160];
+        if (cap->ok)
+          std::snprintf(buf, sizeof buf, "; CJO %.4g pF VJ %.3g V M %.3g from %zu off-state readings%s", cap->cj0_f.value * 1e12,
+                        cap->vj_v.value, cap->m.value, cap->points_used, cap->law_held ? " (VJ, M held)" : "");
+        else
+          std::snprintf(buf, sizeof buf, "; junction capacitance not fitted: %s", cap->message.c_str());
+        line += buf;
+      }
+      log_(line);
     } catch (const std::exception& e) {
       log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": fit failed: " + e.what());
     }
@@ -328,7 +359,9 @@ class JobRun {
   std::string part_label_;
   Id part_id_ = 0, run_id_ = 0;
   bool stopped_high_ = false, siggen_on_ = false;
-  int biased_index_ = -1;
+  int biased_index_ = -1;    // the forward step the supply is at, -1 = none or unknown
+  int reversed_index_ = -1;  // the reverse_v point the supply is at, -1 = none or unknown
+  double siggen_amplitude_ = 0;  // as last programmed (valid while siggen_on_)
   double supply_v_ = 0, vf_guess_v_ = kFirstVfGuessV;
 };
 

@@ -33,6 +33,21 @@ std::vector<fitting::AcPoint> ac_points(const std::vector<PointRow>& points) {
   return ac;
 }
 
+std::vector<fitting::OffStatePoint> off_state_points(const std::vector<PointRow>& points) {
+  std::vector<fitting::OffStatePoint> out;
+  for (const auto& p : points)
+    if (p.kind == "reverse_ac" && std::isfinite(p.freq_hz) && std::isfinite(p.ac_in_v) && std::isfinite(p.ac_out_v))
+      out.push_back({std::fabs(p.set_value), p.freq_hz, p.ac_in_v, p.ac_out_v});
+  return out;
+}
+
+std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<PointRow>& points, const Json& run_fixture,
+                                                           double rs_ohm) {
+  const auto off = off_state_points(points);
+  if (off.empty()) return std::nullopt;
+  return fitting::fit_junction_cap(off, ac_fixture(run_fixture), std::isfinite(rs_ohm) && rs_ohm > 0 ? rs_ohm : 0.0);
+}
+
 fitting::Fixture ac_fixture(const Json& f) {
   const auto ohm = [&](const char* key, double fallback) {
     return f.is_object() && f.contains(key) && f[key].is_number() ? f[key].get<double>() : fallback;
@@ -52,6 +67,14 @@ fitting::DesignPart design_part(const PartRow& part, const Json& fit) {
   p.label = part.label + " (lot " + part.lot + ", fit " + std::to_string(fit.value("fit_id", 0L)) + ")";
   p.dc = r.params();
   if (std::isfinite(r.temp_k)) p.temp_k = r.temp_k;
+  const auto measured = [&](const char* key) {
+    return fit.contains(key) && fit[key].is_object() && fit[key]["value"].is_number() ? fit[key]["value"].get<double>() : kNaN;
+  };
+  if (const double cj0 = measured("cj0_f"); cj0 > 0) {
+    p.cap.cj0_f = cj0;
+    if (const double vj = measured("vj_v"); vj > 0) p.cap.vj_v = vj;
+    if (const double m = measured("m"); m > 0) p.cap.m = m;
+  }
   return p;
 }
 

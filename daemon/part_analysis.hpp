@@ -6,10 +6,12 @@
 #include "daemon/store.hpp"
 #include "fitting/design_calculators.hpp"
 #include "fitting/design_joint_fit.hpp"
+#include "fitting/junction_cap.hpp"
 #include "fitting/lot_stats.hpp"
 #include "fitting/spice_card.hpp"
 #include "fitting/transfer.hpp"
 
+#include <optional>
 #include <vector>
 
 namespace junco::daemon {
@@ -21,12 +23,22 @@ namespace junco::daemon {
 std::vector<fitting::IvPoint> dc_fit_points(const std::vector<PointRow>& points);
 std::vector<fitting::AcPoint> ac_points(const std::vector<PointRow>& points);
 
+// Off-state readings: the levels read at each reverse bias (kind reverse_ac).
+std::vector<fitting::OffStatePoint> off_state_points(const std::vector<PointRow>& points);
+
+// The junction capacitance law from a run's off-state readings, with the
+// part's Rs from its forward fit (0 when that is not usable); nullopt when
+// the run has no off-state readings.
+std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<PointRow>& points, const Json& run_fixture,
+                                                           double rs_ohm);
+
 // The small-signal fixture of a run, from the fixture JSON stored with it:
 // Vout/Vin sees the load and the DC return (0 Ω = a choke, open at AC). The
 // bias feed and the source do not enter the ratio (ch1 is the anode node).
 fitting::Fixture ac_fixture(const Json& run_fixture);
 
-// The latest fit as the calculators take it ("WR-03 (lot WREN-0912, fit 7)").
+// The latest fit as the calculators take it ("WR-03 (lot WREN-0912, fit 7)"),
+// with its measured capacitance law when the fit has one.
 fitting::DesignPart design_part(const PartRow& part, const Json& fit);
 
 struct TransferOptions {

@@ -42,6 +42,13 @@ fitting::PartModel part_model(const PartRow& part, const Json& fit) {
       fit.contains("run_id") && fit["run_id"].is_number_integer() ? "run-" + std::to_string(fit["run_id"].get<Id>()) : "";
   fitting::PartModel m = fitting::part_model_from_fit(r, part.label, part.lot, run_id);
   if (!std::isfinite(m.temp_k)) m.temp_k = fitting::PartModel{}.temp_k;  // a stored fit without a temperature
+  // The capacitance law, when the run's off-state readings gave one.
+  const double cj0 = estimate(fit.value("cj0_f", Json())).value;
+  if (cj0 > 0) {
+    m.cj0_f = cj0;
+    m.vj_v = estimate(fit.value("vj_v", Json())).value;
+    m.m = estimate(fit.value("m", Json())).value;
+  }
   return m;
 }
 

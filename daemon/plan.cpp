@@ -78,7 +78,7 @@ SweepSpec parse_sweep(const Json& s) {
 
 AcSpec parse_ac(const Json& a) {
   const std::string f = "plan.ac";
-  only_keys(a, f, {"freqs_hz", "amplitude", "unit", "settle_s"});
+  only_keys(a, f, {"freqs_hz", "amplitude", "unit", "settle_s", "off_state"});
   AcSpec out;
   const Json& freqs = need(a, "freqs_hz", f);
   if (!freqs.is_array()) bad(f + ".freqs_hz", std::string("must be an array, not ") + freqs.type_name());
@@ -89,6 +89,21 @@ AcSpec parse_ac(const Json& a) {
   else if (unit == "vpp") out.unit = drivers::LevelUnit::vpp;
   else bad(f + ".unit", "must be \"vrms\" or \"vpp\", got \"" + unit + "\"");
   if (a.contains("settle_s")) out.settle_s = number(a["settle_s"], f + ".settle_s");
+  if (a.contains("off_state") && !a["off_state"].is_null()) {
+    const Json& o = a["off_state"];
+    const std::string g = f + ".off_state";
+    if (!o.is_object()) bad(g, std::string("must be an object ({} for the forward readings' frequencies and amplitude), not ") + o.type_name());
+    only_keys(o, g, {"freqs_hz", "amplitude"});
+    AcSpec::OffState off{out.freqs_hz, out.amplitude};
+    if (o.contains("freqs_hz")) {
+      const Json& fo = o["freqs_hz"];
+      if (!fo.is_array()) bad(g + ".freqs_hz", std::string("must be an array, not ") + fo.type_name());
+      off.freqs_hz.clear();
+      for (std::size_t i = 0; i < fo.size(); ++i) off.freqs_hz.push_back(number(fo[i], g + ".freqs_hz[" + std::to_string(i) + "]"));
+    }
+    if (o.contains("amplitude")) off.amplitude = number(o["amplitude"], g + ".amplitude");
+    out.off_state = off;
+  }
   return out;
 }
 
@@ -99,6 +114,7 @@ const char* to_string(Step::Kind kind) {
     case Step::Kind::dc: return "dc";
     case Step::Kind::ac: return "ac";
     case Step::Kind::reverse: return "reverse";
+    case Step::Kind::reverse_ac: return "reverse_ac";
   }
   return "?";
 }
@@ -208,6 +224,22 @@ void check_plan(const Plan& p, const Config& c) {
     if (p.ac->amplitude <= 0 || p.ac->amplitude > lim.max_supply_v)
       refuse("plan.ac amplitude " + num(p.ac->amplitude) + " must be > 0 and not above max_supply_v = " + num(lim.max_supply_v) + " V");
     if (p.ac->settle_s < 0 || p.ac->settle_s > 3600) refuse("plan.ac settle_s " + num(p.ac->settle_s) + " s must be in 0..3600");
+    if (const auto& off = p.ac->off_state) {
+      if (p.reverse_v.empty()) refuse("plan.ac.off_state needs reverse_v: the reverse biases to read the levels at");
+      if (off->freqs_hz.empty()) refuse("plan.ac.off_state.freqs_hz must list at least one frequency");
+      for (double f : off->freqs_hz)
+        if (f <= 0 || f > 1e10) refuse("plan.ac.off_state frequency " + num(f) + " Hz must be in (0, 1e10]");
+      if (off->amplitude <= 0 || off->amplitude > lim.max_supply_v)
+        refuse("plan.ac.off_state amplitude " + num(off->amplitude) + " must be > 0 and not above max_supply_v = " +
+               num(lim.max_supply_v) + " V");
+      // The signal must not carry the junction into conduction on its peaks:
+      // peak at most the smallest reverse bias + 0.1 V (common practice, no source).
+      const double peak_v = p.ac->unit == drivers::LevelUnit::vrms ? off->amplitude * std::sqrt(2.0) : off->amplitude / 2.0;
+      const double least_v = *std::min_element(p.reverse_v.begin(), p.reverse_v.end());
+      if (peak_v > least_v + 0.1)
+        refuse("plan.ac.off_state amplitude peak " + num(peak_v) + " V is above the smallest reverse bias " + num(least_v) +
+               " V + 0.1 V: the junction would conduct on the signal peaks of the off-state readings");
+    }
   }
   const double t = min_duration_s(p);
   if (t > lim.max_job_s)
@@ -239,14 +271,20 @@ std::vector<Step> expand_steps(const Plan& plan) {
     if (plan.ac)
       for (double f : plan.ac->freqs_hz) steps.push_back({Step::Kind::ac, k, values[k], f});
   }
-  for (double r : plan.reverse_v) steps.push_back({Step::Kind::reverse, 0, -r, 0});
+  for (std::size_t k = 0; k < plan.reverse_v.size(); ++k) {
+    const int index = static_cast<int>(k);
+    steps.push_back({Step::Kind::reverse, index, -plan.reverse_v[k], 0});
+    if (plan.ac && plan.ac->off_state)
+      for (double f : plan.ac->off_state->freqs_hz) steps.push_back({Step::Kind::reverse_ac, index, -plan.reverse_v[k], f});
+  }
   return steps;
 }
 
 double min_duration_s(const Plan& p) {
   const double n_ac = p.ac ? static_cast<double>(p.ac->freqs_hz.size()) : 0.0;
+  const double n_off = p.ac && p.ac->off_state ? static_cast<double>(p.ac->off_state->freqs_hz.size()) : 0.0;
   const double per_part = p.sweep.count * (p.sweep.settle_s + n_ac * (p.ac ? p.ac->settle_s : 0.0)) +
-                          static_cast<double>(p.reverse_v.size()) * p.sweep.settle_s;
+                          static_cast<double>(p.reverse_v.size()) * (p.sweep.settle_s + n_off * (p.ac ? p.ac->settle_s : 0.0));
   return per_part * static_cast<double>(p.parts.size());
 }
 
@@ -273,6 +311,7 @@ Json to_json(const Plan& p) {
                {"amplitude", p.ac->amplitude},
                {"unit", p.ac->unit == drivers::LevelUnit::vrms ? "vrms" : "vpp"},
                {"settle_s", p.ac->settle_s}};
+  if (p.ac && p.ac->off_state) j["ac"]["off_state"] = {{"freqs_hz", p.ac->off_state->freqs_hz}, {"amplitude", p.ac->off_state->amplitude}};
   return j;
 }
 

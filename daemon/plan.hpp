@@ -39,6 +39,15 @@ struct AcSpec {
   double amplitude = 0.0;
   drivers::LevelUnit unit = drivers::LevelUnit::vrms;
   double settle_s = 0.01;  // after each frequency change
+  // Also read the levels at every reverse_v point (the part switched off):
+  // the off-state isolation, and the junction capacitance law fitted from it.
+  // Its own amplitude: the isolation leaves little signal at the output, and
+  // a reverse-biased junction takes a larger swing than a forward one.
+  struct OffState {
+    std::vector<double> freqs_hz;  // default: the forward readings' frequencies
+    double amplitude = 0.0;        // default: the forward readings' amplitude
+  };
+  std::optional<OffState> off_state;
 };
 
 struct Plan {
@@ -56,10 +65,10 @@ struct Plan {
 
 // One measurement of the expansion; a point's seq is its index here.
 struct Step {
-  enum class Kind { dc, ac, reverse } kind = Kind::dc;
-  int dc_index = 0;      // which forward step (dc and ac kinds)
-  double set_value = 0;  // V or A for dc/ac (by mode); −|V| for reverse
-  double freq_hz = 0;    // ac only
+  enum class Kind { dc, ac, reverse, reverse_ac } kind = Kind::dc;
+  int dc_index = 0;      // which forward step (dc and ac), or which reverse_v point (reverse, reverse_ac)
+  double set_value = 0;  // V or A for dc/ac (by mode); −|V| for reverse and reverse_ac
+  double freq_hz = 0;    // ac and reverse_ac
 };
 
 Plan parse_plan(const Json& plan);                  // throws RequestError(invalid_params)

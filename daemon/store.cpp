@@ -2,6 +2,7 @@
 
 #include "daemon/migrations.hpp"
 #include "fitting/extract.hpp"
+#include "fitting/junction_cap.hpp"
 
 #include <sqlite3.h>
 
@@ -568,7 +569,7 @@ std::vector<PointRow> Store::points(Id run_id) {
 
 // ---- fits ------------------------------------------------------------------
 
-Id Store::insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit) {
+Id Store::insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap) {
   Json excluded = Json::array();
   for (const auto& e : fit.excluded) excluded.push_back({{"index", e.index}, {"reason", e.reason}});
   Json detail = {{"parameter_names", fit.parameter_names}, {"correlation", Json::array()}, {"excluded", excluded}, {"iterations", fit.iterations}};
@@ -577,18 +578,30 @@ Id Store::insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit) {
     for (double c : row) r.push_back(nullable(c));
     detail["correlation"].push_back(r);
   }
+  // The law's columns only when its fit succeeded; the report (with the
+  // reason when it did not) goes into detail either way.
+  fitting::Estimate cj0, vj, m;
+  if (cap) {
+    detail["junction_cap"] = fitting::junction_cap_json(*cap);
+    if (cap->ok) {
+      cj0 = cap->cj0_f;
+      vj = cap->vj_v;
+      m = cap->m;
+    }
+  }
   Id id = 0;
   {
     std::lock_guard lock(write_mutex_);
     Stmt(*writer_, std::string("INSERT INTO fits(part_id, run_id, model, status, message, is_a, is_a_se, n, n_se, rs_ohm, rs_ohm_se, rsh_ohm, rsh_ohm_se,"
-                               " temp_k, cost, rms_residual, points_used, warnings, detail, created_at)"
-                               " VALUES (?, ?, 'forward', ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ") +
+                               " temp_k, cost, rms_residual, points_used, warnings, detail, cj0_f, cj0_f_se, vj_v, vj_v_se, m, m_se, created_at)"
+                               " VALUES (?, ?, 'forward', ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ") +
                        kNow + ")")
         .bind(1, part_id).bind(2, run_id).bind(3, fitting::to_string(fit.status)).bind(4, fit.message)
         .bind(5, fit.is_a.value).bind(6, fit.is_a.std_error).bind(7, fit.n.value).bind(8, fit.n.std_error)
         .bind(9, fit.rs_ohm.value).bind(10, fit.rs_ohm.std_error).bind(11, fit.rsh_ohm.value).bind(12, fit.rsh_ohm.std_error)
         .bind(13, fit.temp_k).bind(14, fit.cost).bind(15, fit.rms_residual).bind(16, fit.points_used)
         .bind(17, Json(fit.warnings).dump()).bind(18, detail.dump())
+        .bind(19, cj0.value).bind(20, cj0.std_error).bind(21, vj.value).bind(22, vj.std_error).bind(23, m.value).bind(24, m.std_error)
         .run();
     id = sqlite3_last_insert_rowid(writer_->db);
   }
@@ -608,7 +621,8 @@ std::optional<Json> Store::latest_fit(Id part_id) {
   auto r = reader();
   auto st = r(
       "SELECT id, part_id, run_id, model, status, COALESCE(message, ''), is_a, is_a_se, n, n_se, rs_ohm, rs_ohm_se, rsh_ohm, rsh_ohm_se,"
-      " temp_k, cost, rms_residual, points_used, warnings, COALESCE(detail, '{}'), created_at FROM fits WHERE part_id = ? ORDER BY id DESC LIMIT 1");
+      " temp_k, cost, rms_residual, points_used, warnings, COALESCE(detail, '{}'), created_at, cj0_f, cj0_f_se, vj_v, vj_v_se, m, m_se"
+      " FROM fits WHERE part_id = ? ORDER BY id DESC LIMIT 1");
   st.bind(1, part_id);
   if (!st.step()) return std::nullopt;
   auto est = [&](int c) { return Json{{"value", nullable(st.real(c))}, {"std_error", nullable(st.real(c + 1))}}; };
@@ -628,7 +642,10 @@ std::optional<Json> Store::latest_fit(Id part_id) {
            {"points_used", st.i64(17)},
            {"warnings", Json::parse(st.text(18))},
            {"detail", Json::parse(st.text(19))},
-           {"created_at", st.text(20)}};
+           {"created_at", st.text(20)},
+           {"cj0_f", est(21)},
+           {"vj_v", est(23)},
+           {"m", est(25)}};
   std::lock_guard lock(fit_cache_mutex_);
   if (generation == fit_generation_) fit_cache_.emplace(part_id, fit);  // no fit inserted meanwhile
   return fit;

@@ -30,6 +30,7 @@ struct sqlite3;
 
 namespace junco::fitting {
 struct FitResult;
+struct JunctionCapFit;
 }
 
 namespace junco::daemon {
@@ -165,7 +166,9 @@ class Store {
   void insert_points(Id job_id, const std::vector<PointRow>& points);
   std::vector<PointRow> points(Id run_id);
 
-  Id insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit);
+  // cap: the junction capacitance law from the run's off-state readings,
+  // stored with the forward fit (null: the run had none).
+  Id insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap = nullptr);
   std::optional<Json> latest_fit(Id part_id);
 
  private:

@@ -143,3 +143,44 @@ TEST_CASE("malformed ranges are refused") {
   j["ac"] = {{"freqs_hz", {1e6}}, {"amplitude", 0.1}};
   CHECK(outcome(j).second == "plan.ac needs a siggen and a levelmeter in the bench config");
 }
+
+TEST_CASE("off-state readings: after each reverse point, their own frequencies and amplitude") {
+  Config c = bench();
+  c.bench["siggen"] = {};
+  c.bench["levelmeter"] = {};
+  Json j = plan();
+  j["ac"] = {{"freqs_hz", {1e6, 1e7}}, {"amplitude", 0.002}, {"off_state", Json::object()}};
+  j["reverse_v"] = {0.5, 2};
+  Plan p = parse_plan(j);
+  REQUIRE(p.ac->off_state);
+  CHECK(p.ac->off_state->freqs_hz == std::vector<double>{1e6, 1e7});  // defaults: the forward readings'
+  CHECK(p.ac->off_state->amplitude == 0.002);
+  j["ac"]["off_state"] = {{"freqs_hz", {1e8}}, {"amplitude", 0.05}};
+  p = parse_plan(j);
+  REQUIRE_NOTHROW(check_plan(p, c));
+  const auto steps = expand_steps(p);
+  REQUIRE(steps.size() == 11 * 3 + 2 * 2);
+  CHECK(steps[33].kind == Step::Kind::reverse);
+  CHECK(steps[34].kind == Step::Kind::reverse_ac);
+  CHECK(steps[34].freq_hz == 1e8);
+  CHECK(steps[34].set_value == -0.5);
+  CHECK(steps[34].dc_index == 0);
+  CHECK(steps[36].kind == Step::Kind::reverse_ac);
+  CHECK(steps[36].dc_index == 1);
+  CHECK(std::string(to_string(steps[36].kind)) == "reverse_ac");
+  CHECK(to_json(parse_plan(to_json(p))) == to_json(p));
+  // Each settle counts: 2 × (11 × (0.01 + 2 × 0.01) + 2 × (0.01 + 1 × 0.01)).
+  CHECK(min_duration_s(p) == Approx(2 * (11 * 0.03 + 2 * 0.02)));
+
+  j["ac"]["off_state"] = true;
+  CHECK(outcome(j, c) == std::pair{RpcCode::invalid_params, std::string("plan.ac.off_state: must be an object ({} for the forward readings' frequencies and amplitude), not boolean")});
+  j["ac"]["off_state"] = {{"amplitud", 0.05}};
+  CHECK(outcome(j, c) == std::pair{RpcCode::invalid_params, std::string("plan.ac.off_state.amplitud: unknown field")});
+  j["ac"]["off_state"] = {{"amplitude", 0.5}};  // 0.71 V peak against 0.5 V reverse
+  CHECK(outcome(j, c) == std::pair{RpcCode::plan_refused,
+                                   std::string("plan.ac.off_state amplitude peak 0.707107 V is above the smallest reverse bias 0.5 V + 0.1 V: "
+                                               "the junction would conduct on the signal peaks of the off-state readings")});
+  j["ac"]["off_state"] = Json::object();
+  j.erase("reverse_v");
+  CHECK(outcome(j, c) == std::pair{RpcCode::plan_refused, std::string("plan.ac.off_state needs reverse_v: the reverse biases to read the levels at")});
+}

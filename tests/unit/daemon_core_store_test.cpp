@@ -83,6 +83,60 @@ TEST_CASE("a failing migration leaves nothing of itself behind and names itself"
   sqlite3_close(h);
 }
 
+TEST_CASE("a schema-1 store upgrades to off-state readings keeping every row and id") {
+  TempDir dir;
+  const fs::path db = dir.path / "old.db";
+  {
+    sqlite3* h = nullptr;
+    REQUIRE(sqlite3_open(db.c_str(), &h) == SQLITE_OK);
+    REQUIRE(apply_migrations(h, {embedded_migrations().front()}) == 1);
+    const char* rows =
+        "INSERT INTO lots VALUES (1, 'QX-7', '2026-01-01T00:00:00Z');"
+        "INSERT INTO parts VALUES (1, 1, 'QX-7-01', 1, '2026-01-01T00:00:00Z');"
+        "INSERT INTO jobs (id, plan, state, points_total, submitted_at, updated_at) VALUES (1, '{}', 'done', 3, 'x', 'x');"
+        "INSERT INTO runs VALUES (1, 1, 1, 1, '{}', 300.15, 'done', 'x', 'x');"
+        "INSERT INTO points VALUES (7, 1, 0, 'dc', 0.01, 'A', 1.7, 0.69, 0.0101, NULL, NULL, NULL, NULL, NULL, 1.0, 0);"
+        "INSERT INTO points VALUES (8, 1, 1, 'ac', 0.01, 'A', 1.7, NULL, NULL, 0.002, 0.0019, 'vrms', 1e7, NULL, 2.0, 0);"
+        "INSERT INTO points VALUES (9, 1, 2, 'reverse', -2, 'V', -2, -2, -1e-9, NULL, NULL, NULL, NULL, NULL, 3.0, 4);"
+        "INSERT INTO fits (id, part_id, run_id, model, status, is_a, n, rs_ohm, points_used, warnings, created_at)"
+        " VALUES (5, 1, 1, 'forward', 'converged', 2.5e-9, 1.85, 0.7, 1, '[]', 'x');";
+    char* err = nullptr;
+    REQUIRE(sqlite3_exec(h, rows, nullptr, nullptr, &err) == SQLITE_OK);
+    // Schema 1 has no off-state kind.
+    CHECK(sqlite3_exec(h, "INSERT INTO points VALUES (10, 1, 3, 'reverse_ac', -2, 'V', -2, NULL, NULL, 0.05, 1e-3, 'vrms', 1e8, NULL, 4.0, 0)",
+                       nullptr, nullptr, &err) == SQLITE_CONSTRAINT);
+    sqlite3_free(err);
+    sqlite3_close(h);
+  }
+  Store s(db);
+  CHECK(s.schema_version() == embedded_migrations().back().version);
+  const auto points = s.points(1);
+  REQUIRE(points.size() == 3);
+  CHECK(points[0].kind == "dc");
+  CHECK(points[0].i_a == 0.0101);
+  CHECK(points[1].ac_out_v == 0.0019);
+  CHECK(points[2].kind == "reverse");
+  CHECK(points[2].flags == 4);
+  CHECK(count_rows(db, "SELECT COUNT(*) FROM points WHERE id IN (7, 8, 9)") == 3);
+  const auto fit = s.latest_fit(1);
+  REQUIRE(fit);
+  CHECK((*fit)["fit_id"] == 5);
+  CHECK((*fit)["n"]["value"] == 1.85);
+  CHECK((*fit)["cj0_f"]["value"].is_null());  // no off-state readings, no capacitance law
+  PointRow off;
+  off.run_id = 1;
+  off.seq = 3;
+  off.kind = "reverse_ac";
+  off.set_value = -2;
+  off.set_unit = "V";
+  off.ac_in_v = 0.05;
+  off.ac_out_v = 1e-3;
+  off.ac_unit = "vrms";
+  off.freq_hz = 1e8;
+  s.insert_point(1, off);
+  CHECK(s.points(1).back().kind == "reverse_ac");
+}
+
 TEST_CASE("a reading is stored once per (run, seq) and counted in its job") {
   TempDir dir;
   Store s(dir.path / "junco.db");
