@@ -337,7 +337,15 @@ class CoreService final : public Service {
         left_out.push_back({{"label", label}, {"reason", fit ? "fit " + fit->value("status", std::string("?")) : std::string("no fit yet")}});
         continue;
       }
-      out.push_back({label, *lot, r.params(), std::isfinite(r.temp_k) ? r.temp_k : 300.15});
+      fitting::LotPart lp{label, *lot, r.params(), std::isfinite(r.temp_k) ? r.temp_k : 300.15};
+      const auto law = [&](const char* key) {
+        const Json& e = fit->value(key, Json());
+        return e.is_object() && e.value("value", Json()).is_number() ? e["value"].get<double>() : kNaN;
+      };
+      lp.cj0_f = law("cj0_f");
+      lp.vj_v = law("vj_v");
+      lp.m = law("m");
+      out.push_back(std::move(lp));
     }
     if (out.empty()) throw RequestError(RpcCode::not_found, "lot \"" + *lot + "\" has no part with a usable fit", Json{{"lot", *lot}});
     return out;

@@ -153,7 +153,9 @@ Json lot_stats_report(const std::string& lot, const std::vector<fitting::LotPart
           {"set_size", options.set_size},
           {"quantities", quantities},
           {"matched", matched},
-          {"nominal", {{"is_a", st.nominal.is_a}, {"n", st.nominal.n}, {"rs_ohm", st.nominal.rs_ohm}}}};
+          {"nominal",
+           {{"is_a", st.nominal.is_a}, {"n", st.nominal.n}, {"rs_ohm", st.nominal.rs_ohm}, {"cj0_f", number_or_null(st.nominal_cj0_f)},
+            {"vj_v", number_or_null(st.nominal_vj_v)}, {"m", number_or_null(st.nominal_m)}}}};
 }
 
 fitting::PartModel lot_nominal_model(const std::string& lot, const std::vector<fitting::LotPart>& parts) {
@@ -166,6 +168,14 @@ fitting::PartModel lot_nominal_model(const std::string& lot, const std::vector<f
   m.temp_k = parts.front().temp_k;
   m.params = st.nominal;
   m.notes.push_back("lot nominal: median of " + std::to_string(parts.size()) + " fitted parts (IS in log)");
+  if (std::isfinite(st.nominal_cj0_f)) {
+    m.cj0_f = st.nominal_cj0_f;
+    m.vj_v = st.nominal_vj_v;
+    m.m = st.nominal_m;
+    std::size_t with_cap = 0;
+    for (const auto& p : parts) with_cap += std::isfinite(p.cj0_f) && p.cj0_f > 0;
+    m.notes.push_back("CJO, VJ, M: median of the " + std::to_string(with_cap) + " parts with off-state readings");
+  }
   for (const auto& q : st.quantities) {
     char line[160];
     std::snprintf(line, sizeof line, "lot spread %s: std dev %.4g, range %.4g .. %.4g", q.name.c_str(), q.std_dev, q.min, q.max);

@@ -93,6 +93,24 @@ LotStats one_lot(const std::string& lot, const std::vector<const LotPart*>& part
                             return l;
                           }())),
                           median_of(n), median_of(rs)};
+  // The capacitance law, over the parts whose off-state readings gave one.
+  std::vector<std::string> with_cap;
+  std::vector<double> cj0, vj, m;
+  for (const auto* p : parts)
+    if (std::isfinite(p->cj0_f) && p->cj0_f > 0) {
+      with_cap.push_back(p->label);
+      cj0.push_back(p->cj0_f);
+      vj.push_back(p->vj_v);
+      m.push_back(p->m);
+    }
+  if (!with_cap.empty()) {
+    s.quantities.push_back(describe("cj0_f", with_cap, cj0, false));
+    s.quantities.push_back(describe("vj_v", with_cap, vj, false));
+    s.quantities.push_back(describe("m", with_cap, m, false));
+    s.nominal_cj0_f = median_of(cj0);
+    s.nominal_vj_v = median_of(vj);
+    s.nominal_m = median_of(m);
+  }
   return s;
 }
 

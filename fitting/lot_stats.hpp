@@ -10,6 +10,7 @@
 
 #include "fitting/diode.hpp"
 
+#include <limits>
 #include <string>
 #include <vector>
 
@@ -20,12 +21,16 @@ struct LotPart {
   std::string lot;
   DiodeParams params;
   double temp_k = 300.15;
+  // The junction capacitance law, when off-state readings gave one (NaN: not measured).
+  double cj0_f = std::numeric_limits<double>::quiet_NaN();
+  double vj_v = std::numeric_limits<double>::quiet_NaN();
+  double m = std::numeric_limits<double>::quiet_NaN();
 };
 
 inline constexpr double outlier_z_threshold = 3.5;
 
 struct QuantityStats {
-  std::string name;    // "is_a", "n", "rs_ohm", "vf_v@0.01A", "rd_ohm@0.01A"
+  std::string name;    // "is_a", "n", "rs_ohm", "vf_v@0.01A", "rd_ohm@0.01A"; "cj0_f", "vj_v", "m" when measured
   std::size_t count = 0;
   double mean = 0.0, std_dev = 0.0, min = 0.0, max = 0.0, median = 0.0, mad = 0.0;
   std::vector<std::string> outliers;  // labels
@@ -42,6 +47,10 @@ struct LotStats {
   std::vector<QuantityStats> quantities;
   std::vector<MatchedSet> matched;
   DiodeParams nominal;  // median of each parameter (a robust lot nominal)
+  // Median of the capacitance law over the parts that have one; NaN when none has.
+  double nominal_cj0_f = std::numeric_limits<double>::quiet_NaN();
+  double nominal_vj_v = std::numeric_limits<double>::quiet_NaN();
+  double nominal_m = std::numeric_limits<double>::quiet_NaN();
 };
 
 struct LotStatsOptions {

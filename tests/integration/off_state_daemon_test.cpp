@@ -63,6 +63,19 @@ TEST_CASE("off-state readings give each part's CJO, VJ and M, served, exported a
     CHECK(card.find(" M=") != std::string::npos);
   }
 
+  // The lot: the law's spread, and the nominal's CJO the median of the parts' (two: their mean).
+  const Json stats = b.result("lot.stats", {{"lot", "OSL-0707"}});
+  CHECK(test::schema_problem(test::api_schema("lot.stats")["result"], stats) == "");
+  const double cj1 = b.result("part.fit", {{"part_id", 1}})["cj0_f"]["value"], cj2 = b.result("part.fit", {{"part_id", 2}})["cj0_f"]["value"];
+  CHECK(stats["nominal"]["cj0_f"].get<double>() == Approx(0.5 * (cj1 + cj2)).epsilon(1e-12));
+  bool spread_listed = false;
+  for (const auto& q : stats["quantities"]) spread_listed = spread_listed || (q["name"] == "cj0_f" && q["count"] == 2);
+  CHECK(spread_listed);
+  const std::string nominal_card = b.result("lot.export", {{"lot", "OSL-0707"}, {"format", "spice"}})["content"];
+  INFO(nominal_card);
+  CHECK(nominal_card.find("CJO=") != std::string::npos);
+  CHECK(nominal_card.find("CJO, VJ, M: median of the 2 parts with off-state readings") != std::string::npos);
+
   // The isolation calculator on a stored part needs no cj0_f now, and
   // agrees with the same calculator given the fitted law by value.
   const Json fit = b.result("part.fit", {{"part_id", 1}});

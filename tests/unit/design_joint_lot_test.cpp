@@ -139,3 +139,32 @@ TEST_CASE("lot statistics: moments, robust outlier, matched pairs") {
   CHECK(p0p3);
   CHECK(a.nominal.n == Approx(1.805));
 }
+
+TEST_CASE("lot statistics: the capacitance law over the parts that have one") {
+  std::vector<LotPart> parts;
+  const double cj[] = {2.0e-12, 2.2e-12, 1.9e-12};
+  for (int k = 0; k < 3; ++k) {
+    LotPart p{"C" + std::to_string(k), "LOT-C", {1e-9, 1.8, 0.5}, 300.15};
+    p.cj0_f = cj[k];
+    p.vj_v = 0.6 + 0.05 * k;
+    p.m = 0.4;
+    parts.push_back(p);
+  }
+  parts.push_back({"C3", "LOT-C", {1e-9, 1.8, 0.5}, 300.15});  // no off-state readings
+  const auto st = lot_statistics(parts).front();
+  const QuantityStats* c = nullptr;
+  for (const auto& q : st.quantities) c = q.name == "cj0_f" ? &q : c;
+  REQUIRE(c != nullptr);
+  CHECK(c->count == 3);  // C3 has no law: not counted, and not 0 F
+  CHECK(c->mean == Approx(6.1e-12 / 3));
+  CHECK(c->min == 1.9e-12);
+  CHECK(st.nominal_cj0_f == 2.0e-12);  // median of the three
+  CHECK(st.nominal_vj_v == Approx(0.65));
+  CHECK(st.nominal_m == 0.4);
+  // None measured: no such quantities, NaN nominal.
+  parts.resize(1);
+  parts[0].cj0_f = std::nan("");
+  const auto none = lot_statistics(parts).front();
+  for (const auto& q : none.quantities) CHECK(q.name != "cj0_f");
+  CHECK(std::isnan(none.nominal_cj0_f));
+}
