@@ -63,6 +63,13 @@ TEST_CASE("off-state readings give each part's CJO, VJ and M, served, exported a
     CHECK(card.find(" M=") != std::string::npos);
   }
 
+  // junco show prints the law.
+  auto shown = b.junco({"show", "OS-1"});
+  INFO(shown.out << shown.err);
+  CHECK(shown.status == 0);
+  CHECK(shown.out.find("CJO = 2.0") != std::string::npos);  // the sim's slot-1 part: 2.03 pF
+  CHECK(shown.out.find("(from 12 off-state readings)") != std::string::npos);
+
   // The lot: the law's spread, and the nominal's CJO the median of the parts' (two: their mean).
   const Json stats = b.result("lot.stats", {{"lot", "OSL-0707"}});
   CHECK(test::schema_problem(test::api_schema("lot.stats")["result"], stats) == "");
@@ -97,6 +104,8 @@ TEST_CASE("off-state readings at too few biases hold VJ and M; the plan's checks
   CHECK(fit["detail"]["junction_cap"]["law_held"] == true);
   CHECK(fit["vj_v"]["std_error"].is_null());
   CHECK(fit["cj0_f"]["value"].get<double>() > 0);
+  const auto shown = b.junco({"show", "OS-3"});
+  CHECK(shown.out.find("(held at the default: fewer than 4 reverse biases)") != std::string::npos);
 
   plan["ac"]["off_state"]["amplitude"] = 1.0;  // 1.41 V peak against 1 V reverse
   const Json reply = b.client().request("job.submit", {{"plan", plan}});

@@ -85,6 +85,22 @@ int run(std::vector<std::string> args) {
     if (fit.contains("rsh_ohm") && fit["rsh_ohm"].is_object() && fit["rsh_ohm"]["value"].is_number())
       std::printf("  Rsh = %s\n", estimate(fit["rsh_ohm"], "Ω").c_str());
     if (fit.value("rms_residual", Json()).is_number()) std::printf("  rms residual %.3g\n", fit["rms_residual"].get<double>());
+    // The capacitance law, when the run read the part off (plan.ac.off_state).
+    const Json cap = fit.value("detail", Json::object()).value("junction_cap", Json());
+    if (fit.value("cj0_f", Json()).is_object() && fit["cj0_f"]["value"].is_number()) {
+      const bool held = cap.value("law_held", false);
+      const auto law = [&](const char* key, const char* unit) {
+        if (!held) return estimate(fit[key], unit);
+        Json value_only = fit[key];
+        value_only["std_error"] = nullptr;
+        const std::string text = estimate(value_only, unit);
+        return text.substr(0, text.find(" ±")) + " (held at the default: fewer than 4 reverse biases)";
+      };
+      std::printf("  CJO = %s\n  VJ  = %s\n  M   = %s\n  (from %ld off-state readings)\n", estimate(fit["cj0_f"], "F").c_str(),
+                  law("vj_v", "V").c_str(), law("m", "").c_str(), cap.value("points_used", 0L));
+    } else if (cap.is_object()) {
+      std::printf("  junction capacitance not fitted: %s\n", cap.value("message", std::string("?")).c_str());
+    }
     for (const auto& w : fit.value("warnings", Json::array())) std::printf("  warning: %s\n", w.dump().c_str());
     std::printf("\n  %12s  %24s  %24s\n", "I", "Vf", "rd");
     for (const auto& f : figures.value("figures", Json::array())) {
