@@ -65,6 +65,20 @@ TEST_CASE("junco demo characterises the simulated lot end to end") {
     CHECK(std::stod((*it)[2].str()) > std::stod((*it)[1].str()));
   CHECK(ac_rows == 8);
   CHECK(r.out.find("typical of self-heating") != std::string::npos);
+  // The off-state section: a capacitance law and an isolation for each part.
+  // Common practice, no source: small signal and PIN switching diodes have
+  // zero-bias capacitances of a fraction of a pF to a few pF, and VJ of a
+  // few tenths of a volt up to about 1 V.
+  const std::regex off_row(R"(\nWR-0[1-8] +([0-9.]+) pF ± [0-9.]+ fF +([0-9.]+) mV ± [0-9.]+ [mu]V +0\.[0-9]+ ± [0-9.e-]+ +([0-9.]+) dB)");
+  int off_rows = 0;
+  for (auto it = std::sregex_iterator(r.out.begin(), r.out.end(), off_row); it != std::sregex_iterator(); ++it, ++off_rows) {
+    CHECK(std::stod((*it)[1].str()) > 0.1);
+    CHECK(std::stod((*it)[1].str()) < 10.0);
+    CHECK(std::stod((*it)[2].str()) > 200.0);
+    CHECK(std::stod((*it)[3].str()) > 10.0);  // off at 8 V, 100 MHz in 50 Ω: well isolated
+  }
+  CHECK(off_rows == 8);
+  CHECK(std::regex_search(r.out, std::regex(R"(measured Cj is [0-9.]+ fF: [0-9.]+ dB of isolation at 1 GHz)")));
   // The design example and the plots.
   CHECK(std::regex_search(r.out, std::regex(R"(loses 0\.5 dB at [0-9.]+ mA: from 5 V, a bias resistor of [0-9.]+ Ω or less)")));
   for (const char* plot : {"WR-01-iv.svg", "WR-01-ac.svg", "lot.svg"}) {

@@ -4,6 +4,8 @@
 
 #include <catch2/catch.hpp>
 
+#include <fstream>
+
 using namespace junco::daemon;
 
 namespace {
@@ -183,4 +185,20 @@ TEST_CASE("off-state readings: after each reverse point, their own frequencies a
   j["ac"]["off_state"] = Json::object();
   j.erase("reverse_v");
   CHECK(outcome(j, c) == std::pair{RpcCode::plan_refused, std::string("plan.ac.off_state needs reverse_v: the reverse biases to read the levels at")});
+}
+
+TEST_CASE("the shipped example plan parses and passes on a bench that has what it asks for") {
+  std::ifstream f(std::string(JUNCO_SOURCE_DIR) + "/tools/examples/plan.jsonc");
+  REQUIRE(f);
+  const Json j = Json::parse(f, nullptr, true, /*ignore_comments=*/true);
+  Config c = bench();
+  c.bench["siggen"] = {};
+  c.bench["levelmeter"] = {};
+  const Plan p = parse_plan(j);
+  CHECK_NOTHROW(check_plan(p, c));
+  REQUIRE(p.ac);
+  CHECK(p.ac->off_state);
+  std::size_t off = 0;
+  for (const auto& s : expand_steps(p)) off += s.kind == Step::Kind::reverse_ac;
+  CHECK(off == p.reverse_v.size() * p.ac->off_state->freqs_hz.size());
 }

@@ -42,9 +42,10 @@ Runs junco end to end on the simulated bench, no hardware needed:
      bought for the transmit/receive switch of an invented marine VHF radio;
   3. shows the job's progress, then the lot table (Is, n, Rs ± standard
      error, Vf at 1 mA and 10 mA, rd at 5 mA) and the lot spread; each
-     part's AC transfer against its fit with the joint AC+DC verdict; one
-     design calculation on a stored part; and writes plots (I-V, AC
-     transfer, lot spread) into DIR;
+     part's AC transfer against its fit with the joint AC+DC verdict; each
+     part's junction capacitance (CJO, VJ, M) from the off-state readings
+     and its measured isolation; two design calculations on a stored part;
+     and writes plots (I-V, AC transfer, lot spread) into DIR;
   4. stops both children (also on Ctrl-C) and leaves DIR with the database,
      the config, the plan and both logs for inspection.
 Takes about a minute.
@@ -211,13 +212,17 @@ const char* const plan_text = R"(// Lot WREN-0912: eight switching diodes for th
   // forward: 1 µA to 30 mA, 4 points per decade and then some
   "sweep": {"mode": "current", "spacing": "log", "start": 1e-6, "stop": 0.03,
             "count": 40, "settle_s": 0.05, "average": 2},
+  // isolation side: reverse-bias points
+  "reverse_v": [0, 0.5, 1, 2, 3, 5, 8],
   // small-signal transfer at each bias step: 2 mV rms at 10 MHz keeps the
   // signal current well below the bias from 1 µA up (junco transfer checks);
   // the generator is off during DC readings, so give the levels 10 time
-  // constants (junco-sim: 2 ms) to settle after it comes on
-  "ac": {"freqs_hz": [10e6], "amplitude": 0.002, "unit": "vrms", "settle_s": 0.02},
-  // isolation side: a few reverse-bias points
-  "reverse_v": [1, 5, 8],
+  // constants (junco-sim: 2 ms) to settle after it comes on. off_state: the
+  // levels at each reverse bias too, at 100 MHz, with the part off; the
+  // isolation leaves little signal at the output, so these use 50 mV rms
+  // (its 71 mV peak stays below 0 V + 0.1 V, as juncod checks)
+  "ac": {"freqs_hz": [10e6], "amplitude": 0.002, "unit": "vrms", "settle_s": 0.02,
+         "off_state": {"freqs_hz": [100e6], "amplitude": 0.05}},
   "temp_k": 300.15
 }
 )";
@@ -320,6 +325,38 @@ void print_transfer(RpcClient& client, const std::string& lot) {
   if (!hint.empty()) std::printf("note: %s\n", hint.c_str());
 }
 
+// Each part's off-state side: the capacitance law juncod fitted from the
+// off-state readings, and the isolation measured at the highest reverse bias.
+void print_off_state(RpcClient& client, const std::string& lot) {
+  std::printf("\noff state: junction capacitance from the levels at 0..8 V reverse, 100 MHz (junco show PART)\n");
+  std::printf("%-6s %-22s %-22s %-19s %s\n", "part", "CJO", "VJ", "M", "isolation @ 8 V");
+  for (const auto& p : client.call("part.list", Json{{"lot", lot}}).value("parts", Json::array())) {
+    const std::string label = p.value("label", "?");
+    try {
+      const Json fit = client.call("part.fit", Json{{"part_id", p["part_id"]}});
+      if (!fit["cj0_f"].is_object() || !fit["cj0_f"]["value"].is_number()) {
+        const Json cap = fit["detail"].value("junction_cap", Json());
+        std::printf("%-6s not fitted: %s\n", label.c_str(), cap.is_object() ? cap.value("message", std::string("?")).c_str() : "no off-state readings");
+        continue;
+      }
+      char m[48], iso[32] = "—";
+      std::snprintf(m, sizeof m, "%.4f ± %.2g", num(fit["m"]["value"]), num(fit["m"]["std_error"]));
+      double deepest = -1;
+      const Json readings = client.call("part.readings", Json{{"part_id", p["part_id"]}});
+      for (const auto& r : readings["points"])
+        if (r["kind"] == "reverse_ac" && -num(r["set_value"]) >= deepest && num(r["ac_in_v"]) > 0 && num(r["ac_out_v"]) > 0) {
+          deepest = -num(r["set_value"]);
+          std::snprintf(iso, sizeof iso, "%.1f dB", -20.0 * std::log10(num(r["ac_out_v"]) / num(r["ac_in_v"])));
+        }
+      std::printf("%s\n", (pad_columns(label, 7) + pad_columns(pm(num(fit["cj0_f"]["value"]), num(fit["cj0_f"]["std_error"]), "F"), 23) +
+                            pad_columns(pm(num(fit["vj_v"]["value"]), num(fit["vj_v"]["std_error"]), "V"), 23) + pad_columns(m, 20) + iso)
+                               .c_str());
+    } catch (const RpcError& e) {
+      std::printf("%-6s %s\n", label.c_str(), e.what());
+    }
+  }
+}
+
 // One calculator on a stored part, as `junco design ... --part` does it.
 void print_design_example(RpcClient& client, const std::string& lot) {
   const Json parts = client.call("part.list", Json{{"lot", lot}}).value("parts", Json::array());
@@ -339,6 +376,22 @@ void print_design_example(RpcClient& client, const std::string& lot) {
                 label.c_str(), label.c_str(), format_si(i_a, "A").c_str(), format_si(rb, "Ω").c_str());
   } catch (const RpcError& e) {
     std::printf("\ndesign example on %s: %s\n", label.c_str(), e.what());
+  }
+  // The off side, on the capacitance law measured for the part.
+  try {
+    const Json a = client.call("part.design", Json{{"part_id", parts[0]["part_id"]},
+                                                   {"calculator", "isolation"},
+                                                   {"inputs", {{"freq_hz", 1e9}, {"reverse_v", 5.0}}}});
+    double iso_db = std::nan(""), cj = std::nan("");
+    for (const auto& l : a["result"]) {
+      if (l["key"] == "isolation_db") iso_db = num(l["value"]);
+      if (l["key"] == "cj_f") cj = num(l["value"]);
+    }
+    std::printf("design (junco design isolation --part %s --freq 1GHz --reverse 5):\n"
+                "  off at 5 V reverse, its measured Cj is %s: %.1f dB of isolation at 1 GHz as a series switch in 50 Ω\n",
+                label.c_str(), format_si(cj, "F").c_str(), iso_db);
+  } catch (const RpcError& e) {
+    std::printf("design example (isolation) on %s: %s\n", label.c_str(), e.what());
   }
 }
 
@@ -427,6 +480,7 @@ int run(std::vector<std::string> args) {
     } else {
       if (!print_lot(client, plan["lot"])) status = exit_failure;
       print_transfer(client, plan["lot"]);
+      print_off_state(client, plan["lot"]);
       print_design_example(client, plan["lot"]);
       write_plots(socket, plan["lot"], dir, client);
     }

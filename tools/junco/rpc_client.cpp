@@ -198,6 +198,9 @@ std::string format_si(double value, const std::string& unit, int digits) {
       if (mag == 0) break;
       char text[64];
       std::snprintf(text, sizeof text, "%.*g %s%s", digits, value / scale, p, unit.c_str());
+      // Fewer digits than the integer part has (900 to 2 digits) make %g
+      // write an exponent ("9e+02 u"); print the integer instead.
+      if (std::strchr(text, 'e')) std::snprintf(text, sizeof text, "%.0f %s%s", value / scale, p, unit.c_str());
       return text;
     }
   char text[64];
