@@ -17,6 +17,7 @@
 #include <sys/wait.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <atomic>
 #include <filesystem>
 #include <fstream>
@@ -47,6 +48,10 @@ struct FakeLab {
   int meter_reads = 0;
   std::atomic<int> delay_ms{0};
   std::atomic<bool> source_mute{false};  // the supply stops answering: every call times out, nothing changes
+  double gen_amplitude = 0;
+  bool gen_on = false;
+  std::atomic<int> level_reads{0};
+  std::atomic<int> level_fail_after{-1};  // level readings before they fail for good (-1 = never)
 
   void source_call() {
     if (source_mute) throw drv::DriverError(drv::ErrorKind::timeout, "instrument 'source' (fake): timeout: no reply within 2000 ms");
@@ -117,6 +122,34 @@ struct FakeScanner final : drv::Scanner {
   void disconnect_all() override { lab.note("scanner.open"); lab.slot = 0; }
 };
 
+// A generator and a two-channel level meter: off (reverse bias) the part
+// passes 1 % of the signal, on it passes 90 %. The level meter can be made
+// to fail after some reads, as the DC meter can.
+struct FakeSiggen final : drv::SignalGen {
+  FakeLab& lab;
+  explicit FakeSiggen(FakeLab& l) : lab(l) {}
+  drv::Identity identify() override { return {"fake", "GEN", "G1", "1"}; }
+  void reset() override {}
+  void set_frequency_hz(double hz) override { lab.note("siggen.freq " + std::to_string(hz)); }
+  void set_amplitude(double v, drv::LevelUnit) override { lab.note("siggen.amplitude " + std::to_string(v)); lab.gen_amplitude = v; }
+  void set_output(bool on) override { lab.note(on ? "siggen.on" : "siggen.off"); lab.gen_on = on; }
+};
+
+struct FakeLevelMeter final : drv::LevelMeter {
+  FakeLab& lab;
+  explicit FakeLevelMeter(FakeLab& l) : lab(l) {}
+  drv::Identity identify() override { return {"fake", "LVL", "L1", "1"}; }
+  void reset() override {}
+  double measure_level(int channel, drv::LevelUnit) override {
+    const int n = lab.level_reads++;
+    if (lab.level_fail_after >= 0 && n >= lab.level_fail_after)
+      throw drv::DriverError(drv::ErrorKind::timeout, "instrument 'levelmeter' (fake): measure_vrms: timeout: no reply within 2000 ms");
+    lab.note("level " + std::to_string(channel) + " at " + std::to_string(lab.v_set) + " V");
+    const double in = lab.gen_on ? lab.gen_amplitude : 0.0;
+    return channel == 1 ? in : in * (lab.v_set < 0 ? 0.01 : 0.9);
+  }
+};
+
 ServiceOptions fake_options(FakeLab& lab) {
   ServiceOptions o;
   o.open_bench = [&lab](const Config&) {
@@ -124,6 +157,8 @@ ServiceOptions fake_options(FakeLab& lab) {
     b->source = std::make_unique<FakeSource>(lab);
     b->meter = std::make_unique<FakeMeter>(lab);
     b->scanner = std::make_unique<FakeScanner>(lab);
+    b->siggen = std::make_unique<FakeSiggen>(lab);
+    b->levelmeter = std::make_unique<FakeLevelMeter>(lab);
     return b;
   };
   o.log = [](std::string_view) {};
@@ -599,4 +634,61 @@ TEST_CASE("the bench's declared accuracy reaches the fit: its noise floor exclud
   CHECK(floor_exclusions == below);
   CHECK(f["points_used"].get<long>() == forward - below);
   CHECK(svc->call("bench.describe", Json::object(), kCaller)["accuracy"]["i_abs_a"] == 2e-3);
+}
+
+TEST_CASE("off-state readings: generator at its own amplitude at each reverse bias; a resume sets the bias again first") {
+  TempDir dir;
+  FakeLab lab;
+  Config c = config_in(dir.path);
+  c.bench["siggen"] = {};
+  c.bench["levelmeter"] = {};
+  Json p = plan(3, 0.0, 1);
+  p["reverse_v"] = {1, 2};
+  p["ac"] = {{"freqs_hz", {1e6}}, {"amplitude", 0.002}, {"settle_s", 0}, {"off_state", {{"freqs_hz", {1e6, 1e7}}, {"amplitude", 0.05}}}};
+  // Forward: 3 steps × 2 channels = 6 level reads; off at 1 V: 4 more. The
+  // 9th read (the second off-state frequency at 1 V) fails for good.
+  lab.level_fail_after = 8;
+  auto svc = make_service(c, fake_options(lab));
+  const Id job = svc->call("job.submit", {{"plan", p}}, kCaller)["job_id"];
+  const Json paused = wait_for_state(*svc, job, {"paused", "done", "failed"});
+  REQUIRE(paused["state"] == "paused");
+  CHECK(paused["points_done"] == 8);  // 3 × (dc + ac), the reverse point at 1 V and its first off-state reading
+  CHECK_FALSE(lab.out_on);
+  CHECK_FALSE(lab.gen_on);
+
+  std::size_t resumed_at = 0;
+  {
+    std::lock_guard l(lab.m);
+    resumed_at = lab.log.size();
+  }
+  lab.level_fail_after = -1;
+  svc->call("job.resume", {{"job_id", job}}, kCaller);
+  REQUIRE(wait_for_state(*svc, job, {"done", "paused", "failed"})["state"] == "done");
+  std::vector<std::string> after;
+  {
+    std::lock_guard l(lab.m);
+    after.assign(lab.log.begin() + static_cast<long>(resumed_at), lab.log.end());
+    check_safety_order(lab.log);
+  }
+  const auto first_level = std::find_if(after.begin(), after.end(), [](const std::string& e) { return e.rfind("level ", 0) == 0; });
+  REQUIRE(first_level != after.end());
+  CHECK(*first_level == "level 1 at -1.000000 V");  // back at the reverse bias before reading on
+
+  const Json runs = svc->call("job.get", {{"job_id", job}}, kCaller)["runs"];
+  const Json pts = svc->call("part.readings", {{"part_id", 1}, {"run_id", runs[0]["run_id"]}}, kCaller)["points"];
+  REQUIRE(pts.size() == 12);
+  for (int k = 0; k < 12; ++k) CHECK(pts[k]["seq"] == k);
+  int off = 0;
+  for (const auto& pt : pts) {
+    if (pt["kind"] == "ac") CHECK(pt["ac_in_v"] == 0.002);
+    if (pt["kind"] != "reverse_ac") continue;
+    ++off;
+    CHECK(pt["ac_in_v"] == 0.05);  // the off-state amplitude
+    CHECK(pt["ac_out_v"].get<double>() == Approx(0.0005));
+    CHECK(pt["set_value"].get<double>() < 0);
+  }
+  CHECK(off == 4);
+  // The fit carries the capacitance report (two biases: the law held).
+  const Json fit = svc->call("part.fit", {{"part_id", 1}}, kCaller);
+  CHECK(fit["detail"]["junction_cap"]["law_held"] == true);
 }
