@@ -6,7 +6,8 @@
 //  - voltage sweep: 0 <= V <= max_supply_v, power bound <= max_power_w;
 //  - current sweep: 0 < I <= compliance <= current_limit_a, I·R_total <=
 //    max_supply_v, vf_max_v·I <= max_power_w;
-//  - reverse steps: |V| <= max_reverse_v and <= max_supply_v;
+//  - reverse and off-state steps: |V| <= max_reverse_v and <= max_supply_v;
+//    off-state steps at a good frequency, their signal peak at most |V| + 0.1 V;
 //  - min_duration_s <= max_job_s; to_json round-trips through parse_plan and
 //    the round-tripped plan is accepted too.
 #include "tests/fuzz/entries.hpp"
@@ -56,7 +57,7 @@ void check_steps(const daemon::Plan& p, const daemon::Config& c) {
     char value[32];
     std::snprintf(value, sizeof value, "%.17g", x);
     const std::string at = std::string(daemon::to_string(step.kind)) + " step " + value;
-    if (step.kind == daemon::Step::Kind::reverse) {
+    if (step.kind == daemon::Step::Kind::reverse || step.kind == daemon::Step::Kind::reverse_ac) {
       require(x <= 0 && -x <= lim.max_reverse_v && -x <= lim.max_supply_v, at + " exceeds a reverse limit");
     } else if (p.sweep.mode == daemon::SweepMode::voltage) {
       require(x >= 0 && x <= lim.max_supply_v, at + " V outside 0..max_supply_v");
@@ -67,7 +68,14 @@ void check_steps(const daemon::Plan& p, const daemon::Config& c) {
       require(x * r_total <= lim.max_supply_v, at + " A needs more than max_supply_v");
       require(p.vf_max_v * x <= lim.max_power_w, at + " A may exceed max_power_w");
     }
-    if (step.kind == daemon::Step::Kind::ac) require(step.freq_hz > 0 && step.freq_hz <= 1e10, at + " at a bad frequency");
+    if (step.kind == daemon::Step::Kind::ac || step.kind == daemon::Step::Kind::reverse_ac)
+      require(step.freq_hz > 0 && step.freq_hz <= 1e10, at + " at a bad frequency");
+    if (step.kind == daemon::Step::Kind::reverse_ac) {
+      // The signal peak stays within the smallest reverse bias + 0.1 V (check_plan).
+      const auto& off = *p.ac->off_state;
+      const double peak = p.ac->unit == drivers::LevelUnit::vrms ? off.amplitude * std::sqrt(2.0) : off.amplitude / 2.0;
+      require(peak <= -x + 0.1 + 1e-12 * peak, at + " with a signal peak that forward-biases the junction");
+    }
   }
 }
 
