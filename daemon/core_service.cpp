@@ -428,12 +428,15 @@ class CoreService final : public Service {
       return {{"format", *format}, {"content", *format == "json" ? export_model_json(part, fit) : export_spice(part, fit)}};
     }
     if (*format == "csv") return {{"format", "csv"}, {"content", export_csv(readings(Json{{"part_id", part.id}})["points"])}};
-    if (*format == "iv-csv" || *format == "ac-csv") {
+    if (*format == "iv-csv" || *format == "ac-csv" || *format == "off-csv") {
       const auto runs = store_.runs_of_part(part.id);
       const auto points = runs.empty() ? std::vector<PointRow>{} : store_.points(runs.back().id);  // latest run
-      return {{"format", *format}, {"content", *format == "iv-csv" ? export_iv_csv(points) : export_ac_csv(points)}};
+      const std::string content =
+          *format == "iv-csv" ? export_iv_csv(points) : *format == "ac-csv" ? export_ac_csv(points) : export_off_csv(points);
+      return {{"format", *format}, {"content", content}};
     }
-    throw RequestError(RpcCode::invalid_params, "format: must be \"json\", \"spice\", \"csv\", \"iv-csv\" or \"ac-csv\", got \"" + *format + "\"",
+    throw RequestError(RpcCode::invalid_params,
+                       "format: must be \"json\", \"spice\", \"csv\", \"iv-csv\", \"ac-csv\" or \"off-csv\", got \"" + *format + "\"",
                        Json{{"field", "format"}});
   }
 

@@ -325,7 +325,8 @@ class JobRun {
       opt.accuracy = cfg_.accuracy;
       const auto fit = fitting::fit_forward(pts, opt);
       const auto cap = junction_cap_of_run(points, fixture, fit.usable() ? fit.rs_ohm.value : 0.0);
-      store_.insert_fit(part_id, run_id, fit, cap ? &*cap : nullptr);
+      store_.insert_fit(part_id, run_id, fit, cap ? &*cap : nullptr,
+                        cap ? off_state_readings_report(off_state_points(points), *cap) : Json());
       std::string line = "job " + std::to_string(job_id_) + " part " + part_label_ + ": fit " + fitting::to_string(fit.status) +
                          " on " + std::to_string(fit.points_used) + " points";
       if (cap) {

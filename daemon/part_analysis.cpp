@@ -48,6 +48,19 @@ std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<Poi
   return fitting::fit_junction_cap(off, ac_fixture(run_fixture), std::isfinite(rs_ohm) && rs_ohm > 0 ? rs_ohm : 0.0);
 }
 
+Json off_state_readings_report(const std::vector<fitting::OffStatePoint>& points, const fitting::JunctionCapFit& fit) {
+  Json rows = Json::array();
+  for (std::size_t k = 0; k < points.size(); ++k) {
+    const double c = k < fit.c_f.size() ? fit.c_f[k] : kNaN;
+    rows.push_back({{"reverse_v", points[k].reverse_v},
+                    {"freq_hz", points[k].freq_hz},
+                    {"isolation_db", number_or_null(fitting::off_state_isolation_db(points[k]))},
+                    {"c_f", number_or_null(c)},
+                    {"left_out", k < fit.left_out.size() ? fit.left_out[k] : std::string()}});
+  }
+  return rows;
+}
+
 fitting::Fixture ac_fixture(const Json& f) {
   const auto ohm = [&](const char* key, double fallback) {
     return f.is_object() && f.contains(key) && f[key].is_number() ? f[key].get<double>() : fallback;

@@ -32,6 +32,10 @@ std::vector<fitting::OffStatePoint> off_state_points(const std::vector<PointRow>
 std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<PointRow>& points, const Json& run_fixture,
                                                            double rs_ohm);
 
+// What each off-state reading gave, in the order of off_state_points:
+// [{reverse_v, freq_hz, isolation_db, c_f (null when left out), left_out}].
+Json off_state_readings_report(const std::vector<fitting::OffStatePoint>& points, const fitting::JunctionCapFit& fit);
+
 // The small-signal fixture of a run, from the fixture JSON stored with it:
 // Vout/Vin sees the load and the DC return (0 Ω = a choke, open at AC). The
 // bias feed and the source do not enter the ratio (ch1 is the anode node).

@@ -78,6 +78,8 @@ std::string export_iv_csv(const std::vector<PointRow>& points) {
 
 std::string export_ac_csv(const std::vector<PointRow>& points) { return fitting::ac_readings_csv(ac_points(points)); }
 
+std::string export_off_csv(const std::vector<PointRow>& points) { return fitting::off_state_readings_csv(off_state_points(points)); }
+
 fitting::FitResult fit_result_from_json(const Json& fit) {
   fitting::FitResult r;
   const std::string status = fit.value("status", "");

@@ -28,6 +28,7 @@ std::string export_spice(const PartRow& part, const Json& fit);
 std::string export_csv(const Json& points);
 std::string export_iv_csv(const std::vector<PointRow>& points);
 std::string export_ac_csv(const std::vector<PointRow>& points);
+std::string export_off_csv(const std::vector<PointRow>& points);  // reverse_v,freq_hz,vin,vout
 
 // Rebuilds what the figures need (values, standard errors, correlation).
 fitting::FitResult fit_result_from_json(const Json& fit);

@@ -569,7 +569,8 @@ std::vector<PointRow> Store::points(Id run_id) {
 
 // ---- fits ------------------------------------------------------------------
 
-Id Store::insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap) {
+Id Store::insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap,
+                     const Json& cap_readings) {
   Json excluded = Json::array();
   for (const auto& e : fit.excluded) excluded.push_back({{"index", e.index}, {"reason", e.reason}});
   Json detail = {{"parameter_names", fit.parameter_names}, {"correlation", Json::array()}, {"excluded", excluded}, {"iterations", fit.iterations}};
@@ -583,6 +584,7 @@ Id Store::insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const
   fitting::Estimate cj0, vj, m;
   if (cap) {
     detail["junction_cap"] = fitting::junction_cap_json(*cap);
+    if (!cap_readings.is_null()) detail["junction_cap"]["readings"] = cap_readings;
     if (cap->ok) {
       cj0 = cap->cj0_f;
       vj = cap->vj_v;

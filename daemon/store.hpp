@@ -167,8 +167,10 @@ class Store {
   std::vector<PointRow> points(Id run_id);
 
   // cap: the junction capacitance law from the run's off-state readings,
-  // stored with the forward fit (null: the run had none).
-  Id insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap = nullptr);
+  // stored with the forward fit (null: the run had none); cap_readings, when
+  // not null, lists what each reading gave (detail.junction_cap.readings).
+  Id insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap = nullptr,
+                const Json& cap_readings = Json());
   std::optional<Json> latest_fit(Id part_id);
 
  private:

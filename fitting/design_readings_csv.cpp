@@ -43,21 +43,34 @@ std::string ac_readings_csv(std::span<const AcPoint> points) {
   return s;
 }
 
+std::string off_state_readings_csv(std::span<const OffStatePoint> points) {
+  std::string s = "reverse_v,freq_hz,vin,vout\n";
+  for (const auto& p : points) s += g(p.reverse_v) + "," + g(p.freq_hz) + "," + g(p.vin) + "," + g(p.vout) + "\n";
+  return s;
+}
+
 namespace {
 
-// The AC table's own header; anything else is a forward I-V table, read by
-// the same parser as `junco fit` so every tool accepts the same files.
-bool is_ac_header(const std::string& text) {
+enum class TableKind { iv, ac, off };
+
+// The AC and off-state tables' own headers; anything else is a forward I-V
+// table, read by the same parser as `junco fit` so every tool accepts the
+// same files.
+TableKind table_kind(const std::string& text) {
   std::istringstream in(text);
   std::string line;
   while (std::getline(in, line)) {
     if (line.empty() || line[0] == '#' || line == "\r") continue;
-    return split(line) == std::vector<std::string>{"bias_i_a", "freq_hz", "vin", "vout"};
+    const auto header = split(line);
+    if (header == std::vector<std::string>{"bias_i_a", "freq_hz", "vin", "vout"}) return TableKind::ac;
+    if (header == std::vector<std::string>{"reverse_v", "freq_hz", "vin", "vout"}) return TableKind::off;
+    return TableKind::iv;
   }
-  return false;
+  return TableKind::iv;
 }
 
-std::optional<ReadingsTable> parse_ac_csv(const std::string& text, std::string* why) {
+// Either four-column table (after its header).
+std::optional<ReadingsTable> parse_four_columns(const std::string& text, TableKind kind, std::string* why) {
   std::istringstream in(text);
   std::string line;
   int line_no = 0;
@@ -85,7 +98,8 @@ std::optional<ReadingsTable> parse_ac_csv(const std::string& text, std::string* 
         return std::nullopt;
       }
     }
-    t.ac.push_back({x[0], x[1], x[2], x[3]});
+    if (kind == TableKind::ac) t.ac.push_back({x[0], x[1], x[2], x[3]});
+    else t.off.push_back({x[0], x[1], x[2], x[3]});
   }
   return t;
 }
@@ -93,7 +107,7 @@ std::optional<ReadingsTable> parse_ac_csv(const std::string& text, std::string* 
 }  // namespace
 
 std::optional<ReadingsTable> parse_readings_csv(const std::string& text, std::string* why) {
-  if (is_ac_header(text)) return parse_ac_csv(text, why);
+  if (const TableKind kind = table_kind(text); kind != TableKind::iv) return parse_four_columns(text, kind, why);
   IvCsv iv = parse_iv_csv(text);
   if (!iv.ok()) {
     if (why) *why = iv.error;

@@ -7,7 +7,10 @@
 
 #include <catch2/catch.hpp>
 
+#include <algorithm>
 #include <cmath>
+#include <filesystem>
+#include <fstream>
 
 using namespace junco;
 using Json = nlohmann::json;
@@ -69,6 +72,44 @@ TEST_CASE("off-state readings give each part's CJO, VJ and M, served, exported a
   CHECK(shown.status == 0);
   CHECK(shown.out.find("CJO = 2.0") != std::string::npos);  // the sim's slot-1 part: 2.03 pF
   CHECK(shown.out.find("(from 12 off-state readings)") != std::string::npos);
+
+  // Each reading's C as stored with the fit follows the fitted law (the
+  // simulator's readings carry little noise: within 1 %, our bound).
+  {
+    const Json fit1 = b.result("part.fit", {{"part_id", 1}});
+    const Json readings = fit1["detail"]["junction_cap"]["readings"];
+    REQUIRE(readings.size() == 12);
+    const double cj0 = fit1["cj0_f"]["value"], vj = fit1["vj_v"]["value"], m = fit1["m"]["value"];
+    for (const auto& r : readings) {
+      INFO(r.dump());
+      REQUIRE(r["c_f"].is_number());
+      CHECK(r["c_f"].get<double>() == Approx(cj0 * std::pow(1.0 + r["reverse_v"].get<double>() / vj, -m)).epsilon(0.01));
+      CHECK(r["isolation_db"].get<double>() > 10.0);
+    }
+  }
+  // The off-state plot, from juncod and from the exported files; and the CSV.
+  const std::string off_csv = b.result("part.export", {{"part_id", 1}, {"format", "off-csv"}})["content"];
+  CHECK(off_csv.rfind("reverse_v,freq_hz,vin,vout\n", 0) == 0);
+  CHECK(std::count(off_csv.begin(), off_csv.end(), '\n') == 13);
+  auto plotted = b.junco({"plot", "off", "--part", "OS-1", "--out", (b.dir() / "off.svg").string()});
+  INFO(plotted.err);
+  CHECK(plotted.status == 0);
+  const auto svg_text = [](const std::filesystem::path& path) {
+    std::ifstream f(path);
+    return std::string((std::istreambuf_iterator<char>(f)), std::istreambuf_iterator<char>());
+  };
+  const std::string svg = svg_text(b.dir() / "off.svg");
+  for (const char* text : {"reverse bias V", "junction capacitance C", "(pF)", "isolation", "fitted law", "OS-1", "100 MHz", "30 MHz"})
+    CHECK(svg.find(text) != std::string::npos);
+  std::ofstream(b.dir() / "os1-off.csv") << off_csv;
+  std::ofstream(b.dir() / "os1.json") << b.result("part.export", {{"part_id", 1}, {"format", "json"}})["content"].get<std::string>();
+  plotted = b.junco({"plot", "off", "--readings", (b.dir() / "os1-off.csv").string(), "--model", (b.dir() / "os1.json").string(), "--out",
+                     (b.dir() / "off-files.svg").string()});
+  CHECK(plotted.status == 0);
+  CHECK(svg_text(b.dir() / "off-files.svg").find("fitted law") != std::string::npos);
+  plotted = b.junco({"plot", "off", "--readings", (b.dir() / "os1.json").string(), "--model", (b.dir() / "os1.json").string(), "--out",
+                     (b.dir() / "bad.svg").string()});
+  CHECK(plotted.status == 2);
 
   // The lot: the law's spread, and the nominal's CJO the median of the parts' (two: their mean).
   const Json stats = b.result("lot.stats", {{"lot", "OSL-0707"}});

@@ -2,6 +2,7 @@
 // lot's spread; from files (a readings CSV and a JSON model document) or
 // straight from juncod (--part, --lot), which exports the same documents.
 #include "fitting/design_readings_csv.hpp"
+#include "fitting/junction_cap.hpp"
 #include "fitting/lot_stats.hpp"
 #include "fitting/model_document.hpp"
 #include "fitting/transfer.hpp"
@@ -27,6 +28,7 @@ const char* const help =
     "usage: junco plot iv  (--part PART | --readings IV.csv --model MODEL.json) --out FILE.svg|.png\n"
     "       junco plot ac  (--part PART | --readings AC.csv --model MODEL.json) --out FILE [--rg OHM] [--rl OHM]\n"
     "                      [--rbias OHM] [--rreturn OHM]\n"
+    "       junco plot off (--part PART | --readings OFF.csv --model MODEL.json) --out FILE [--rl OHM] [--rreturn OHM]\n"
     "       junco plot lot (--lot NAME | MODEL.json...) --out FILE\n\n"
     "--part PART (id or label, with --lot NAME when a label is in several lots) and\n"
     "--lot NAME read the readings and fits from juncod (--socket PATH, see junco status\n"
@@ -35,6 +37,9 @@ const char* const help =
     "     residual (mV) of each reading against the model. CSV header: v,i_a\n"
     "ac:  fixture gain Vout/Vin (dB) against bias current, measured and modelled.\n"
     "     CSV header: bias_i_a,freq_hz,vin,vout. Fixture defaults 50/50 ohm, no shunts.\n"
+    "off: the part switched off (plan.ac.off_state): junction capacitance from each reading against\n"
+    "     reverse bias with the fitted law CJO*(1+VR/VJ)^-M, and the isolation measured. CSV header:\n"
+    "     reverse_v,freq_hz,vin,vout (junco show PART --export off-csv writes one).\n"
     "lot: the spread of IS, N and RS over the parts, one panel each.\n"
     "The gnuplot script is kept as FILE.gp. PNG when FILE ends in .png.\n";
 
@@ -231,6 +236,92 @@ int plot_ac(Source& src) {
   return exit_ok;
 }
 
+// One off-state reading as plotted.
+struct OffRow {
+  double reverse_v, freq_hz, c_f, isolation_db;
+  bool used;
+};
+
+// C against reverse bias with the fitted law, and the isolation measured
+// with the part off. From juncod, the per-reading C of its fit; from files,
+// computed here from the readings, the model's RS and the fixture options.
+int plot_off(Source& src) {
+  auto& o = src.o;
+  const auto m = src.model();
+  std::vector<OffRow> rows;
+  if (src.daemon()) {
+    const Json fit = src.client->call("part.fit", Json{{"part_id", src.part_id}});
+    const Json cap = fit.value("detail", Json::object()).value("junction_cap", Json());
+    if (!cap.is_object()) throw std::runtime_error("part " + std::to_string(src.part_id) + " has no off-state readings (plan.ac.off_state)");
+    for (const auto& r : cap.value("readings", Json::array()))
+      rows.push_back({r["reverse_v"], r["freq_hz"], r["c_f"].is_number() ? r["c_f"].get<double>() : std::nan(""),
+                      r["isolation_db"].is_number() ? r["isolation_db"].get<double>() : std::nan(""), r.value("left_out", "").empty()});
+  } else {
+    const auto t = src.readings("off-csv");
+    if (t.off.empty() && (!t.iv.empty() || !t.ac.empty()))
+      throw std::runtime_error(src.where("readings") + ": not an off-state table (header reverse_v,freq_hz,vin,vout; "
+                               "junco show PART --export off-csv writes one)");
+    const Fixture fx{50.0, number(o, "rl", 50), no_shunt_ohm, number(o, "rreturn", no_shunt_ohm)};
+    const auto fit = fit_junction_cap(t.off, fx, m.params.rs_ohm);
+    for (std::size_t k = 0; k < t.off.size(); ++k)
+      rows.push_back({t.off[k].reverse_v, t.off[k].freq_hz, fit.c_f[k], off_state_isolation_db(t.off[k]), fit.left_out[k].empty()});
+  }
+  if (rows.empty()) throw std::runtime_error("no off-state readings (reverse_v,freq_hz,vin,vout) in " + src.where("readings"));
+  std::vector<double> freqs;
+  double v_hi = 0;
+  std::string left_out = "NaN NaN\n";
+  for (const auto& r : rows) {
+    if (std::find(freqs.begin(), freqs.end(), r.freq_hz) == freqs.end()) freqs.push_back(r.freq_hz);
+    v_hi = std::max(v_hi, r.reverse_v);
+    if (!r.used && std::isfinite(r.isolation_db)) left_out += row(r.reverse_v, r.isolation_db);
+  }
+  std::sort(freqs.begin(), freqs.end());
+  std::string law = "NaN NaN\n";
+  const bool has_law = std::isfinite(m.cj0_f) && m.cj0_f > 0;
+  if (has_law) {
+    law.clear();
+    for (int k = 0; k <= 200; ++k) {
+      const double v = v_hi * 1.05 * k / 200.0;
+      law += row(v, 1e12 * m.cj0_f * std::pow(1.0 + v / m.vj_v, -m.m));
+    }
+  }
+  PlotJob job{o["out"], {law, left_out}, "", 800, 800};
+  std::string top = "plot $d0 using 1:2 with lines lw 2 lc 'black' title '" +
+                    std::string(has_law ? "fitted law" : "no law fitted") + "'";
+  const bool any_left_out = left_out != "NaN NaN\n";
+  std::string bottom = "plot $d1 using 1:2 with points pt 6 ps 0.8 lc 'gray40' " +
+                       std::string(any_left_out ? "title 'left out of the fit (below the level floor, too little isolation)'" : "notitle");
+  for (std::size_t k = 0; k < freqs.size(); ++k) {
+    std::string c, iso;
+    for (const auto& r : rows) {
+      if (r.freq_hz != freqs[k]) continue;
+      if (r.used && std::isfinite(r.c_f)) c += row(r.reverse_v, 1e12 * r.c_f);
+      if (r.used && std::isfinite(r.isolation_db)) iso += row(r.reverse_v, r.isolation_db);
+    }
+    if (c.empty()) c = "NaN NaN\n";
+    if (iso.empty()) iso = "NaN NaN\n";
+    const std::size_t base = job.datablocks.size();
+    job.datablocks.insert(job.datablocks.end(), {c, iso});
+    const std::string f = format_si(freqs[k], "Hz", 3), colour = " lc " + std::to_string(k + 1);
+    top += ", $d" + std::to_string(base) + " using 1:2 with points pt 7 ps 0.8" + colour + " title 'from each reading, " + f + "'";
+    bottom += ", $d" + std::to_string(base + 1) + " using 1:2 with linespoints pt 7 ps 0.6" + colour + " title '" + f + "'";
+  }
+  char law_label[200] = "";
+  if (has_law)
+    std::snprintf(law_label, sizeof law_label, "CJO=%.4g pF, VJ=%.3g V, M=%.3g (RS=%.3g {/Symbol W})", 1e12 * m.cj0_f, m.vj_v, m.m,
+                  m.params.rs_ohm);
+  char xrange[80];  // both panels on the same bias axis, the end points clear of the border
+  std::snprintf(xrange, sizeof xrange, "set xrange [%.6g:%.6g]\n", -0.03 * v_hi, 1.06 * v_hi);
+  job.body = "set multiplot layout 2,1 title " + gnuplot_literal(title_of(m) + ": off state") + " noenhanced\n" + std::string(xrange) +
+             "set xlabel 'reverse bias V_R (V)'\nset ylabel 'junction capacitance C_j (pF)'\nset key top right\n"
+             "set label 1 '" + std::string(law_label) + "' at graph 0.02, graph 0.08\n" + top + "\n"
+             "unset label 1\nset ylabel 'isolation -20 log_{10}(V_{out}/V_{in}) (dB)'\nset key bottom right\n" + bottom + "\n"
+             "unset multiplot";
+  const auto err = run_gnuplot(job);
+  if (!err.empty()) throw std::runtime_error(err);
+  return exit_ok;
+}
+
 // A part label as one whitespace-free, quote-free token of a data block row
 // (it becomes the x tick label).
 std::string tick_label(const std::string& label) {
@@ -290,7 +381,7 @@ int plot_lot(const std::vector<PartModel>& models, std::map<std::string, std::st
 
 int run(std::vector<std::string> args) {
   if (args.empty()) {
-    std::fprintf(stderr, "junco plot: which plot? (iv, ac, lot; junco plot --help)\n");
+    std::fprintf(stderr, "junco plot: which plot? (iv, ac, off, lot; junco plot --help)\n");
     return exit_usage;
   }
   std::string socket;
@@ -324,7 +415,7 @@ int run(std::vector<std::string> args) {
     return true;
   };
   try {
-    if (kind == "iv" || kind == "ac") {
+    if (kind == "iv" || kind == "ac" || kind == "off") {
       if (o.count("part") && (o.count("readings") || o.count("model"))) {
         std::fprintf(stderr, "junco plot %s: give --part, or --readings and --model, not both\n", kind.c_str());
         return exit_usage;
@@ -332,7 +423,7 @@ int run(std::vector<std::string> args) {
       if (!need(o.count("part") ? std::initializer_list<const char*>{"out"} : std::initializer_list<const char*>{"readings", "model", "out"}))
         return exit_usage;
       Source src(o, socket);
-      return kind == "iv" ? plot_iv(src) : plot_ac(src);
+      return kind == "iv" ? plot_iv(src) : kind == "ac" ? plot_ac(src) : plot_off(src);
     }
     if (kind == "lot") {
       if (files.empty() == !o.count("lot")) {
@@ -356,11 +447,11 @@ int run(std::vector<std::string> args) {
     std::fprintf(stderr, "junco plot %s: %s\n", kind.c_str(), e.what());
     return exit_usage;
   }
-  std::fprintf(stderr, "junco plot: unknown plot '%s' (iv, ac, lot)\n", kind.c_str());
+  std::fprintf(stderr, "junco plot: unknown plot '%s' (iv, ac, off, lot)\n", kind.c_str());
   return exit_usage;
 }
 
-const bool registered = register_command({"plot", "plot readings, fits, AC transfer and lot spread (SVG/PNG, gnuplot)", help, run});
+const bool registered = register_command({"plot", "plot readings, fits, AC transfer, the off state and lot spread (SVG/PNG, gnuplot)", help, run});
 
 }  // namespace
 }  // namespace junco::cli

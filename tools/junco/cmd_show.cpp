@@ -26,7 +26,7 @@ options:
   --json         print {"fit":..., "figures":...} as JSON
   --export FORMAT  print the part as the daemon exports it instead:
                  json (model document for junco design/export/plot --model),
-                 spice (.model card), csv (all readings), iv-csv, ac-csv
+                 spice (.model card), csv (all readings), iv-csv, ac-csv, off-csv
   --out FILE     with --export: write to FILE instead of standard output
 
 examples:
