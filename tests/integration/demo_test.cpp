@@ -81,7 +81,7 @@ TEST_CASE("junco demo characterises the simulated lot end to end") {
   CHECK(std::regex_search(r.out, std::regex(R"(measured Cj is [0-9.]+ fF: [0-9.]+ dB of isolation at 1 GHz)")));
   // The design example and the plots.
   CHECK(std::regex_search(r.out, std::regex(R"(loses 0\.5 dB at [0-9.]+ mA: from 5 V, a bias resistor of [0-9.]+ Ω or less)")));
-  for (const char* plot : {"WR-01-iv.svg", "WR-01-ac.svg", "lot.svg"}) {
+  for (const char* plot : {"WR-01-iv.svg", "WR-01-ac.svg", "WR-01-off.svg", "lot.svg"}) {
     CHECK(fs::exists(dir / plot));
     CHECK(r.out.find((dir / plot).string()) != std::string::npos);
   }

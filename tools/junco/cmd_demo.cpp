@@ -45,7 +45,7 @@ Runs junco end to end on the simulated bench, no hardware needed:
      part's AC transfer against its fit with the joint AC+DC verdict; each
      part's junction capacitance (CJO, VJ, M) from the off-state readings
      and its measured isolation; two design calculations on a stored part;
-     and writes plots (I-V, AC transfer, lot spread) into DIR;
+     and writes plots (I-V, AC transfer, off state, lot spread) into DIR;
   4. stops both children (also on Ctrl-C) and leaves DIR with the database,
      the config, the plan and both logs for inspection.
 Takes about a minute.
@@ -395,7 +395,7 @@ void print_design_example(RpcClient& client, const std::string& lot) {
   }
 }
 
-// The first part's I-V and AC plots and the lot's spread, drawn by `junco plot`.
+// The first part's I-V, AC and off-state plots and the lot's spread, drawn by `junco plot`.
 void write_plots(const std::string& socket, const std::string& lot, const fs::path& dir, RpcClient& client) {
   const Json parts = client.call("part.list", Json{{"lot", lot}}).value("parts", Json::array());
   const Command* plot = nullptr;
@@ -406,6 +406,7 @@ void write_plots(const std::string& socket, const std::string& lot, const fs::pa
   const std::vector<std::pair<std::vector<std::string>, fs::path>> jobs{
       {{"iv", "--part", label}, dir / (label + "-iv.svg")},
       {{"ac", "--part", label}, dir / (label + "-ac.svg")},
+      {{"off", "--part", label}, dir / (label + "-off.svg")},
       {{"lot", "--lot", lot}, dir / "lot.svg"}};
   std::printf("\nplots (junco plot; gnuplot):\n");
   for (const auto& [args, out] : jobs) {
