@@ -57,10 +57,6 @@ struct AcOnlyCost {
   }
 };
 
-double cathode_load_ohm(const Fixture& fx) {
-  return std::isfinite(fx.dc_return_ohm) ? fx.rl_ohm * fx.dc_return_ohm / (fx.rl_ohm + fx.dc_return_ohm) : fx.rl_ohm;
-}
-
 // Refines the dynamic-resistance line's n and Rs by least squares on the
 // readings in dB with the junction capacitance in the model: the line takes
 // each reading's |Vout/Vin| as resistive, which reads ω·Cj·rj as extra
@@ -309,7 +305,7 @@ JointFitReport compare_dc_and_joint(std::span<const IvPoint> dc, std::span<const
 }
 
 std::vector<std::string> screen_ac_readings(std::span<const AcPoint> ac, const Fixture& fx, const AcScreen& screen) {
-  const double z_cathode_ohm = 1.0 / (1.0 / fx.rl_ohm + 1.0 / fx.dc_return_ohm);  // 1/inf = 0: a choke
+  const double z_cathode_ohm = cathode_load_ohm(fx);
   std::vector<std::string> why;
   why.reserve(ac.size());
   for (const auto& p : ac) {

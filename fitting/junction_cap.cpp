@@ -19,10 +19,6 @@ constexpr double m_min = 0.05, m_max = 0.95;
 // setting resolution; common practice, no source).
 constexpr double same_bias_v = 1e-3;
 
-double cathode_load_ohm(const Fixture& fx) {
-  return std::isfinite(fx.dc_return_ohm) ? fx.rl_ohm * fx.dc_return_ohm / (fx.rl_ohm + fx.dc_return_ohm) : fx.rl_ohm;
-}
-
 // (z/|G|)² and (z + Rs)² of one reading; the reactance² is their difference.
 struct Divider {
   double a_ohm2 = nan_v, r_ohm2 = nan_v;

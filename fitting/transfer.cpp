@@ -30,6 +30,10 @@ cplx diode_on_impedance(const AcPart& part, double bias_i_a, double freq_hz, dou
   return part.dc.rs_ohm + zj;
 }
 
+double cathode_load_ohm(const Fixture& fx) {
+  return std::isfinite(fx.dc_return_ohm) ? fx.rl_ohm * fx.dc_return_ohm / (fx.rl_ohm + fx.dc_return_ohm) : fx.rl_ohm;
+}
+
 cplx fixture_gain(const Fixture& fx, cplx z_diode) {
   // The anode node is ch1; the diode and the cathode-node load form a divider.
   const cplx z_cathode = parallel(cplx(fx.rl_ohm), fx.dc_return_ohm);

@@ -52,6 +52,9 @@ double junction_resistance_ohm(const DiodeParams& p, double bias_i_a, double tem
 // Impedance of the forward-biased diode at the signal frequency.
 std::complex<double> diode_on_impedance(const AcPart& part, double bias_i_a, double freq_hz, double temp_k);
 
+// What the diode drives at the cathode: RL ∥ Rr (Rr infinite: RL alone).
+double cathode_load_ohm(const Fixture& fx);
+
 // Vout/Vin (ch2/ch1) of the fixture with the diode of impedance z_diode.
 std::complex<double> fixture_gain(const Fixture& fx, std::complex<double> z_diode);
 // Vout/Vout_thru (see above).
