@@ -43,11 +43,23 @@ fitting::PartModel part_model(const PartRow& part, const Json& fit) {
   fitting::PartModel m = fitting::part_model_from_fit(r, part.label, part.lot, run_id);
   if (!std::isfinite(m.temp_k)) m.temp_k = fitting::PartModel{}.temp_k;  // a stored fit without a temperature
   // The capacitance law, when the run's off-state readings gave one.
-  const double cj0 = estimate(fit.value("cj0_f", Json())).value;
-  if (cj0 > 0) {
-    m.cj0_f = cj0;
-    m.vj_v = estimate(fit.value("vj_v", Json())).value;
-    m.m = estimate(fit.value("m", Json())).value;
+  const fitting::Estimate cj0 = estimate(fit.value("cj0_f", Json())), vj = estimate(fit.value("vj_v", Json())),
+                          grading = estimate(fit.value("m", Json()));
+  if (cj0.value > 0) {
+    m.cj0_f = cj0.value;
+    m.vj_v = vj.value;
+    m.m = grading.value;
+    const Json cap = fit.value("detail", Json::object()).value("junction_cap", Json::object());
+    const auto se = [](double x) -> std::string {
+      if (!std::isfinite(x)) return "held";  // VJ, M with fewer than 4 reverse biases
+      char t[32];
+      std::snprintf(t, sizeof t, "%.3g", x);
+      return t;
+    };
+    char note[200];
+    std::snprintf(note, sizeof note, "CJO, VJ, M from %ld off-state readings; standard errors %s F, %s V, %s", cap.value("points_used", 0L),
+                  se(cj0.std_error).c_str(), se(vj.std_error).c_str(), se(grading.std_error).c_str());
+    m.notes.push_back(note);
   }
   return m;
 }

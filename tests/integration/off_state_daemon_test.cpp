@@ -63,6 +63,7 @@ TEST_CASE("off-state readings give each part's CJO, VJ and M, served, exported a
 
     const std::string card = b.result("part.export", {{"part_id", part_id}, {"format", "spice"}})["content"];
     CHECK(card.find("CJO=") != std::string::npos);
+    CHECK(card.find("* CJO, VJ, M from 12 off-state readings; standard errors ") != std::string::npos);
     CHECK(card.find(" M=") != std::string::npos);
   }
 
@@ -124,6 +125,11 @@ TEST_CASE("off-state readings give each part's CJO, VJ and M, served, exported a
   CHECK(nominal_card.find("CJO=") != std::string::npos);
   CHECK(nominal_card.find("CJO, VJ, M: median of the 2 parts with off-state readings") != std::string::npos);
 
+  const auto lots = b.junco({"lots", "OSL-0707"});
+  INFO(lots.out);
+  CHECK(lots.out.find("CJO  ") != std::string::npos);  // a spread row
+  CHECK(lots.out.find(", CJO = 2.") != std::string::npos);  // and the nominal (the sim's lot: about 2 pF)
+
   // The isolation calculator on a stored part needs no cj0_f now, and
   // agrees with the same calculator given the fitted law by value.
   const Json fit = b.result("part.fit", {{"part_id", 1}});
@@ -145,6 +151,9 @@ TEST_CASE("off-state readings at too few biases hold VJ and M; the plan's checks
   CHECK(fit["detail"]["junction_cap"]["law_held"] == true);
   CHECK(fit["vj_v"]["std_error"].is_null());
   CHECK(fit["cj0_f"]["value"].get<double>() > 0);
+  const std::string card = b.result("part.export", {{"part_id", 1}, {"format", "spice"}})["content"];
+  CHECK(card.find(" V, held, held") == std::string::npos);
+  CHECK(card.find(" F, held V, held") != std::string::npos);
   const auto shown = b.junco({"show", "OS-3"});
   CHECK(shown.out.find("(held at the default: fewer than 4 reverse biases)") != std::string::npos);
 

@@ -53,6 +53,9 @@ std::pair<std::string, std::string> describe(const std::string& name) {
   if (base == "rs_ohm") return {"Rs", "Ω"};
   if (base == "vf_v") return {"Vf" + where, "V"};
   if (base == "rd_ohm") return {"rd" + where, "Ω"};
+  if (base == "cj0_f") return {"CJO", "F"};
+  if (base == "vj_v") return {"VJ", "V"};
+  if (base == "m") return {"M", ""};
   return {name, ""};
 }
 
@@ -86,8 +89,15 @@ void print_stats(const Json& r) {
     std::printf("  (spread %s)", format_si(num(m["spread_v"]), "V", 3).c_str());
   }
   const Json& nom = r["nominal"];
-  std::printf("\n\n  nominal (median): Is = %s, n = %.4f, Rs = %s   (junco lots %s --export spice)\n", format_si(num(nom["is_a"]), "A").c_str(),
-              num(nom["n"]), format_si(num(nom["rs_ohm"]), "Ω").c_str(), r["lot"].get<std::string>().c_str());
+  std::string law;  // the capacitance law, when some parts were read off
+  if (nom.contains("cj0_f") && nom["cj0_f"].is_number()) {
+    char text[96];
+    std::snprintf(text, sizeof text, ", CJO = %s, VJ = %s, M = %.3f", format_si(num(nom["cj0_f"]), "F").c_str(),
+                  format_si(num(nom["vj_v"]), "V").c_str(), num(nom["m"]));
+    law = text;
+  }
+  std::printf("\n\n  nominal (median): Is = %s, n = %.4f, Rs = %s%s   (junco lots %s --export spice)\n", format_si(num(nom["is_a"]), "A").c_str(),
+              num(nom["n"]), format_si(num(nom["rs_ohm"]), "Ω").c_str(), law.c_str(), r["lot"].get<std::string>().c_str());
 }
 
 int list_lots(RpcClient& client, bool json) {
