@@ -106,12 +106,14 @@ InstrumentConfig parse_instrument(const Checker& c, const Json& obj, const std::
 
 FixtureConfig parse_fixture(const Checker& c, const Json& obj) {
   const std::string p = "/fixture";
-  c.only_keys(obj, p, {"bias_resistor_ohm", "dc_return_ohm", "source_ohm", "load_ohm", "slots", "current_from"});
+  c.only_keys(obj, p, {"bias_resistor_ohm", "dc_return_ohm", "source_ohm", "load_ohm", "slots", "current_from", "stray_c_f"});
   FixtureConfig f;
   f.bias_resistor_ohm = c.number(obj, "bias_resistor_ohm", p, 0, true, 0, true);
   f.dc_return_ohm = c.number(obj, "dc_return_ohm", p, 0, false, 0, true);
   f.source_ohm = c.number(obj, "source_ohm", p, 50, false, 0, true);
   f.load_ohm = c.number(obj, "load_ohm", p, 50, false, 0, false);
+  f.stray_c_f = c.number(obj, "stray_c_f", p, 0, false, 0, true);
+  if (f.stray_c_f > 1e-9) c.fail(p + "/stray_c_f", "must be at most 1e-9 F (a fixture's stray is pF; is the unit farads?)");
   if (!obj.contains("slots")) c.fail(p + "/slots", "missing (required)");
   f.slots = c.integer(obj, "slots", p, 1, 1, 256);
   const std::string from = c.string(obj, "current_from", p, "source", false);

@@ -48,6 +48,7 @@ struct FixtureConfig {
   double source_ohm = 50.0;        // signal generator source resistance
   double load_ohm = 50.0;          // AC load on the cathode side
   int slots = 1;                   // scanner slots, numbered from 1
+  double stray_c_f = 0.0;          // the fixture's capacitance across an empty slot (subtracted from off-state C)
   CurrentFrom current_from = CurrentFrom::source;  // diode voltage always from the meter
 };
 

@@ -181,7 +181,7 @@ class CoreService final : public Service {
             {"seen", store_.instruments()},
             {"fixture",
              {{"bias_resistor_ohm", f.bias_resistor_ohm}, {"dc_return_ohm", f.dc_return_ohm}, {"source_ohm", f.source_ohm},
-              {"load_ohm", f.load_ohm}, {"slots", f.slots}, {"current_from", to_string(f.current_from)}}},
+              {"load_ohm", f.load_ohm}, {"slots", f.slots}, {"current_from", to_string(f.current_from)}, {"stray_c_f", f.stray_c_f}}},
             {"safety",
              {{"max_supply_v", s.max_supply_v}, {"current_limit_a", s.current_limit_a}, {"max_power_w", s.max_power_w},
               {"max_reverse_v", s.max_reverse_v}, {"max_job_s", s.max_job_s}}},

@@ -57,7 +57,7 @@ class JobRun {
     const Id part_id = store_.ensure_part(lot_id, part.label, part.slot);
     const Json fixture{{"bias_resistor_ohm", cfg_.fixture.bias_resistor_ohm}, {"dc_return_ohm", cfg_.fixture.dc_return_ohm},
                        {"source_ohm", cfg_.fixture.source_ohm}, {"load_ohm", cfg_.fixture.load_ohm},
-                       {"current_from", to_string(cfg_.fixture.current_from)}};
+                       {"current_from", to_string(cfg_.fixture.current_from)}, {"stray_c_f", cfg_.fixture.stray_c_f}};
     const RunRow run = store_.ensure_run(job_id_, part_id, part.slot, fixture, plan_.temp_k);
     if (run.state == "done") return;  // finished before a restart
     part_label_ = part.label;

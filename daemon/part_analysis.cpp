@@ -45,7 +45,9 @@ std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<Poi
                                                            double rs_ohm) {
   const auto off = off_state_points(points);
   if (off.empty()) return std::nullopt;
-  return fitting::fit_junction_cap(off, ac_fixture(run_fixture), std::isfinite(rs_ohm) && rs_ohm > 0 ? rs_ohm : 0.0);
+  fitting::JunctionCapOptions o;
+  if (run_fixture.is_object() && run_fixture.value("stray_c_f", Json()).is_number()) o.stray_c_f = run_fixture["stray_c_f"].get<double>();
+  return fitting::fit_junction_cap(off, ac_fixture(run_fixture), std::isfinite(rs_ohm) && rs_ohm > 0 ? rs_ohm : 0.0, o);
 }
 
 Json off_state_readings_report(const std::vector<fitting::OffStatePoint>& points, const fitting::JunctionCapFit& fit) {

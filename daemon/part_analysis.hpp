@@ -27,8 +27,9 @@ std::vector<fitting::AcPoint> ac_points(const std::vector<PointRow>& points);
 std::vector<fitting::OffStatePoint> off_state_points(const std::vector<PointRow>& points);
 
 // The junction capacitance law from a run's off-state readings, with the
-// part's Rs from its forward fit (0 when that is not usable); nullopt when
-// the run has no off-state readings.
+// part's Rs from its forward fit (0 when that is not usable) and the
+// fixture's stray capacitance as stored with the run (subtracted); nullopt
+// when the run has no off-state readings.
 std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<PointRow>& points, const Json& run_fixture,
                                                            double rs_ohm);
 

@@ -207,8 +207,8 @@ JunctionCapFit fit_junction_cap(std::span<const OffStatePoint> points, const Fix
     f.message = "rs_ohm must be a finite value >= 0";
     return f;
   }
-  if (!(o.ac_sigma_db > 0.0 && o.vj_v_held > 0.0 && o.m_held >= 0.0)) {
-    f.message = "options: ac_sigma_db and vj_v_held must be positive, m_held not negative";
+  if (!(o.ac_sigma_db > 0.0 && o.vj_v_held > 0.0 && o.m_held >= 0.0 && o.stray_c_f >= 0.0 && std::isfinite(o.stray_c_f))) {
+    f.message = "options: ac_sigma_db and vj_v_held must be positive, m_held and stray_c_f not negative";
     return f;
   }
   std::vector<Reading> used;
@@ -223,10 +223,13 @@ JunctionCapFit fit_junction_cap(std::span<const OffStatePoint> points, const Fix
     else if (!(p.vin >= o.floor_v && p.vout >= o.floor_v)) reason = "below the level floor";
     else if (!(g <= o.max_gain)) reason = "gain above max_gain";
     else {
-      const double c = off_state_capacitance_f(p, fixture, rs_ohm);
-      if (!std::isfinite(c)) reason = "no series C gives this gain";
+      const double c_seen = off_state_capacitance_f(p, fixture, rs_ohm);
+      const double c = c_seen - o.stray_c_f;  // the stray is in parallel with the part
+      if (!std::isfinite(c_seen)) reason = "no series C gives this gain";
+      else if (!(c > 0.0)) reason = "not above the fixture's stray capacitance";
       else {
-        const double s = off_state_sigma_ln_c(p, fixture, rs_ohm, o.ac_sigma_db);
+        // dC = dC_seen: the relative uncertainty grows by C_seen/C.
+        const double s = off_state_sigma_ln_c(p, fixture, rs_ohm, o.ac_sigma_db) * c_seen / c;
         f.c_f[k] = c;
         used.push_back({p.reverse_v, std::log(c), 1.0 / (s * s)});
       }

@@ -50,6 +50,10 @@ struct JunctionCapOptions {
   double floor_v = 100e-6;    // a level below this is left out ("below the level floor")
   double max_gain = 0.9;      // |G| above this is left out: too little isolation to resolve C (common practice, no source)
   double vj_v_held = 1.0, m_held = 0.5;  // SPICE defaults (REFERENCES.md §2), used when the law cannot be fitted
+  // The fixture's own capacitance across the slot (measured with the slot
+  // empty): in parallel with the part, so subtracted from each reading's C
+  // before the law is fitted. A reading not above it is left out.
+  double stray_c_f = 0.0;
   int max_iterations = 200;
 };
 
@@ -61,7 +65,7 @@ struct JunctionCapFit {
   std::size_t points_used = 0;
   double reduced_chi2 = std::numeric_limits<double>::quiet_NaN();      // 2·cost/(N − 3), or /(N − 1) when held
   double vj_m_correlation = std::numeric_limits<double>::quiet_NaN();  // of the VJ and M estimates; NaN when held
-  std::vector<double> c_f;             // per input point: C from that reading, NaN when left out
+  std::vector<double> c_f;             // per input point: the part's C from that reading (stray subtracted), NaN when left out
   std::vector<std::string> left_out;   // per input point: "" when used, else the reason
 };
 

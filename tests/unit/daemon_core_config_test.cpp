@@ -149,3 +149,13 @@ TEST_CASE("the socket's idle timeout: 10 min by default, 0 = never, bounded") {
   CHECK(message_of(server(R"({"idle_timeout": 5})")) == "/etc/junco/bench.jsonc: /server/idle_timeout: unknown key");
   CHECK(message_of(server("5")) == "/etc/junco/bench.jsonc: /server: must be an object, not number");
 }
+
+TEST_CASE("the fixture's stray capacitance: optional, in farads, bounded") {
+  CHECK(parse_config(kGood, "/etc/junco/bench.jsonc").fixture.stray_c_f == 0.0);
+  const std::string with_stray = with(kGood, "\"slots\": 8", "\"slots\": 8, \"stray_c_f\": 0.2e-12");
+  CHECK(parse_config(with_stray, "/etc/junco/bench.jsonc").fixture.stray_c_f == 0.2e-12);
+  CHECK(message_of(with(kGood, "\"slots\": 8", "\"slots\": 8, \"stray_c_f\": -1e-12")) ==
+        "/etc/junco/bench.jsonc: /fixture/stray_c_f: must be >= 0, got -1e-12");
+  CHECK(message_of(with(kGood, "\"slots\": 8", "\"slots\": 8, \"stray_c_f\": 0.2")) ==
+        "/etc/junco/bench.jsonc: /fixture/stray_c_f: must be at most 1e-9 F (a fixture's stray is pF; is the unit farads?)");
+}

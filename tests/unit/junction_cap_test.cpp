@@ -298,3 +298,35 @@ TEST_CASE("noisy readings (0.01 dB): the standard errors cover the truth") {
   SECTION("200 seeds at the stated 0.01 dB: about 66 % within 1σ, reduced χ² about 1") { ensemble(0.01, 1.0); }
   SECTION("200 seeds at 0.03 dB, stated 0.01 dB: χ² about 9 and the scaled errors still cover") { ensemble(0.03, 9.0); }
 }
+
+TEST_CASE("the fixture's stray capacitance is subtracted before the law is fitted") {
+  const Law law{0.9e-12, 0.7, 0.38};
+  const double stray_f = 0.25e-12, rs = 1.0, z = 50.0;
+  const Fixture fx;
+  // The slot holds the part with the stray in parallel.
+  std::vector<OffStatePoint> pts;
+  for (double f : freqs_hz)
+    for (double vr : biases_v) pts.push_back(reading(vr, f, law.at(vr) + stray_f, rs, z));
+  JunctionCapOptions o;
+  const JunctionCapFit ignored = fit_junction_cap(pts, fx, rs, o);
+  o.stray_c_f = stray_f;
+  const JunctionCapFit fit = fit_junction_cap(pts, fx, rs, o);
+  INFO(fit.message);
+  REQUIRE(fit.ok);
+  CHECK(fit.cj0_f.value == Approx(law.cjo_f).epsilon(1e-8));
+  CHECK(fit.vj_v.value == Approx(law.vj_v).epsilon(1e-6));
+  CHECK(fit.m.value == Approx(law.m).epsilon(1e-6));
+  for (std::size_t k = 0; k < pts.size(); ++k) CHECK(fit.c_f[k] == Approx(law.at(pts[k].reverse_v)).epsilon(1e-9));
+  // Not subtracted, the stray flattens the law: M reads low (the bias that
+  // an open-slot reading removes).
+  REQUIRE(ignored.ok);
+  CHECK(ignored.m.value < law.m - 0.05);
+  // A stray as large as the smallest reading leaves those readings out, with the reason.
+  o.stray_c_f = law.at(12.0) + 1.001 * stray_f;
+  const JunctionCapFit too_much = fit_junction_cap(pts, fx, rs, o);
+  std::size_t left = 0;
+  for (const auto& r : too_much.left_out) left += r == "not above the fixture's stray capacitance";
+  CHECK(left == 2);  // the 12 V readings at both frequencies
+  o.stray_c_f = -1e-12;
+  CHECK_FALSE(fit_junction_cap(pts, fx, rs, o).ok);
+}
