@@ -1,5 +1,7 @@
 #include "fitting/design_joint_fit.hpp"
 
+#include "fitting/solver_options.hpp"
+
 #include <ceres/ceres.h>
 
 #include <algorithm>
@@ -78,11 +80,7 @@ void refine_ac_with_cj(std::span<const AcPoint> ac, const Fixture& fixture, cons
   problem.SetParameterUpperBound(x, 0, 5.0);
   problem.SetParameterLowerBound(x, 1, 0.0);
   problem.SetParameterUpperBound(x, 1, 1e3);
-  ceres::Solver::Options so;
-  so.max_num_iterations = o.max_iterations;
-  so.function_tolerance = 1e-12;
-  so.parameter_tolerance = 1e-12;
-  so.gradient_tolerance = 1e-14;
+  const ceres::Solver::Options so = solver_options(o.max_iterations);
   ceres::Solver::Summary summary;
   ceres::Solve(so, &problem, &summary);
   if (summary.termination_type != ceres::CONVERGENCE) {
@@ -168,11 +166,7 @@ SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, co
   problem.SetParameterUpperBound(x, 1, 5.0);
   problem.SetParameterLowerBound(x, 2, 0.0);
   problem.SetParameterUpperBound(x, 2, 1e3);
-  ceres::Solver::Options so;
-  so.max_num_iterations = o.max_iterations;
-  so.function_tolerance = 1e-12;
-  so.parameter_tolerance = 1e-12;
-  so.gradient_tolerance = 1e-14;
+  const ceres::Solver::Options so = solver_options(o.max_iterations);
   ceres::Solver::Summary summary;
   ceres::Solve(so, &problem, &summary);
   f.cost = summary.final_cost;

@@ -1,5 +1,7 @@
 #include "fitting/fit_solve.hpp"
 
+#include "fitting/solver_options.hpp"
+
 #include <ceres/ceres.h>
 
 #include <Eigen/Dense>
@@ -166,19 +168,6 @@ FitStatus status_of(const ceres::Solver::Summary& summary) {
   }
 }
 
-ceres::Solver::Options solver_options(int max_iterations) {
-  ceres::Solver::Options options;
-  options.linear_solver_type = ceres::DENSE_NORMAL_CHOLESKY;  // 3 or 4 columns: J'J is tiny and well scaled (Jacobi scaling)
-  options.max_num_line_search_step_size_iterations = 0;
-  options.trust_region_strategy_type = ceres::LEVENBERG_MARQUARDT;
-  options.max_num_iterations = max_iterations;
-  options.function_tolerance = 1e-12;
-  options.parameter_tolerance = 1e-12;
-  options.gradient_tolerance = 1e-14;
-  options.num_threads = 1;
-  options.logging_type = ceres::SILENT;
-  return options;
-}
 
 
 // Levenberg–Marquardt on the dim×dim normal equations, for the usual case of
@@ -439,6 +428,20 @@ bool solver_residuals_and_jacobian(const WeightedProblem& wp, std::span<const do
   const std::vector<double> inv_sigma = inverse_of(wp.sigma_v);
   const Curve curve{readings, inv_sigma, thermal_voltage_v(wp.temp_k), wp.loss, wp.loss_scale};
   return evaluate_curve(curve, wp.fit_shunt, x.data(), residuals.data(), jacobian.data());
+}
+
+ceres::Solver::Options solver_options(int max_iterations) {
+  ceres::Solver::Options options;
+  options.linear_solver_type = ceres::DENSE_NORMAL_CHOLESKY;  // 3 or 4 columns: J'J is tiny and well scaled (Jacobi scaling)
+  options.max_num_line_search_step_size_iterations = 0;
+  options.trust_region_strategy_type = ceres::LEVENBERG_MARQUARDT;
+  options.max_num_iterations = max_iterations;
+  options.function_tolerance = 1e-12;
+  options.parameter_tolerance = 1e-12;
+  options.gradient_tolerance = 1e-14;
+  options.num_threads = 1;
+  options.logging_type = ceres::SILENT;
+  return options;
 }
 
 }  // namespace junco::fitting

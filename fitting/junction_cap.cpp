@@ -1,5 +1,7 @@
 #include "fitting/junction_cap.hpp"
 
+#include "fitting/solver_options.hpp"
+
 #include <ceres/ceres.h>
 
 #include <algorithm>
@@ -139,11 +141,7 @@ void fit_full(const std::vector<Reading>& rs, const JunctionCapOptions& o, Junct
   problem.SetParameterUpperBound(x, 1, vj_max_v);
   problem.SetParameterLowerBound(x, 2, m_min);
   problem.SetParameterUpperBound(x, 2, m_max);
-  ceres::Solver::Options so;
-  so.max_num_iterations = o.max_iterations;
-  so.function_tolerance = 1e-12;
-  so.parameter_tolerance = 1e-12;
-  so.gradient_tolerance = 1e-14;
+  const ceres::Solver::Options so = solver_options(o.max_iterations);
   ceres::Solver::Summary summary;
   ceres::Solve(so, &problem, &summary);
   f.cj0_f.value = std::exp(x[0]);
