@@ -2,7 +2,10 @@
 
 #include "drivers/errors.hpp"
 
+#include <algorithm>
+#include <cctype>
 #include <charconv>
+#include <vector>
 
 namespace junco::drivers {
 
@@ -71,11 +74,93 @@ Address parse_serial(std::string_view address, std::string_view rest) {
   return a;
 }
 
+std::string upper(std::string_view text) {
+  std::string out(text);
+  std::transform(out.begin(), out.end(), out.begin(), [](unsigned char c) { return static_cast<char>(std::toupper(c)); });
+  return out;
+}
+
+// "TCPIP0" → true for prefix "TCPIP": the interface name, then an optional board number.
+bool is_interface(std::string_view field, std::string_view prefix) {
+  const std::string f = upper(field);
+  if (f.compare(0, prefix.size(), prefix) != 0) return false;
+  return std::all_of(f.begin() + static_cast<long>(prefix.size()), f.end(), [](unsigned char c) { return std::isdigit(c) != 0; });
+}
+
+// Splits a VISA resource name at "::"; an IPv6 host in brackets keeps its colons.
+std::vector<std::string_view> visa_fields(std::string_view text) {
+  std::vector<std::string_view> out;
+  std::size_t start = 0;
+  bool bracket = false;
+  for (std::size_t i = 0; i < text.size(); ++i) {
+    if (text[i] == '[') bracket = true;
+    else if (text[i] == ']') bracket = false;
+    else if (!bracket && text.compare(i, 2, "::") == 0) {
+      out.push_back(text.substr(start, i - start));
+      start = i + 2;
+      ++i;
+    }
+  }
+  out.push_back(text.substr(start));
+  return out;
+}
+
+// VISA resource names (IVI VPP-4.3; docs/references.md §8) for the two
+// transports labs reach over plain byte streams:
+//   TCPIP[board]::HOST::PORT::SOCKET       a raw SCPI socket
+//   ASRL[board]::INSTR, ASRLPATH::INSTR    a serial port (ASRL1 = /dev/ttyS0)
+// The serial line settings are not part of a VISA name; junco takes the same
+// ?baud=..&parity=.. options after ::INSTR as after serial:PATH. Names are
+// case-insensitive as in VISA. Other VISA interfaces are refused with the
+// spelling to use instead.
+Address parse_visa(std::string_view address) {
+  std::string_view text = address;
+  std::string_view options;
+  if (const auto q = text.find('?'); q != std::string_view::npos) {
+    options = text.substr(q);
+    text = text.substr(0, q);
+  }
+  const auto f = visa_fields(text);
+  const std::string last = upper(f.back());
+  if (is_interface(f[0], "TCPIP")) {
+    if (last != "SOCKET")
+      bad(address, "only raw sockets are supported over TCPIP (VXI-11 and HiSLIP are not); use TCPIP0::HOST::PORT::SOCKET with the "
+                   "instrument's SCPI socket port, often 5025");
+    if (f.size() != 4 || f[1].empty()) bad(address, "expected TCPIP0::HOST::PORT::SOCKET");
+    if (!options.empty()) bad(address, "a TCPIP resource takes no ?options");
+    std::string_view host = f[1];
+    if (host.size() > 2 && host.front() == '[' && host.back() == ']') host = host.substr(1, host.size() - 2);
+    long port = 0;
+    if (!to_int(f[2], port) || port < 1 || port > 65535) bad(address, "port must be 1..65535, got '" + std::string(f[2]) + "'");
+    Address a;
+    a.kind = Address::Kind::tcp;
+    a.host = std::string(host);
+    a.port = static_cast<std::uint16_t>(port);
+    return a;
+  }
+  if (upper(f[0]).rfind("ASRL", 0) == 0) {
+    if (f.size() != 2 || last != "INSTR") bad(address, "expected ASRL/dev/PATH::INSTR or ASRLn::INSTR");
+    const std::string_view board = f[0].substr(4);
+    std::string path;
+    long n = 0;
+    if (!board.empty() && board.front() == '/') path = std::string(board);
+    else if (to_int(board, n) && n >= 1 && n <= 256) path = "/dev/ttyS" + std::to_string(n - 1);  // ASRL1 is the first port
+    else bad(address, "expected ASRL/dev/PATH::INSTR or ASRLn::INSTR (n = 1 for /dev/ttyS0)");
+    return parse_serial(address, path + std::string(options));
+  }
+  for (const char* other : {"USB", "GPIB", "VXI", "PXI"})
+    if (is_interface(f[0], other))
+      bad(address, std::string(other) + " resources are not supported; for a USBTMC instrument use usbtmc:/dev/usbtmcN");
+  bad(address, "unknown VISA interface '" + std::string(f[0]) + "' (known: TCPIPn::HOST::PORT::SOCKET, ASRL…::INSTR)");
+}
+
 }  // namespace
 
 Address parse_address(std::string_view address) {
+  if (address.find("::") != std::string_view::npos) return parse_visa(address);
   auto colon = address.find(':');
-  if (colon == std::string_view::npos) bad(address, "expected tcp:HOST:PORT, serial:PATH or usbtmc:PATH");
+  if (colon == std::string_view::npos)
+    bad(address, "expected tcp:HOST:PORT, serial:PATH, usbtmc:PATH or a VISA name (TCPIP0::HOST::PORT::SOCKET, ASRL/dev/PATH::INSTR)");
   std::string_view scheme = address.substr(0, colon);
   std::string_view rest = address.substr(colon + 1);
   if (scheme == "tcp") {

@@ -35,7 +35,9 @@ struct Address {
 };
 
 // tcp:HOST:PORT | serial:PATH[?baud=..&bits=..&parity=..&stop=..&flow=..&via=..]
-// | usbtmc:PATH. Throws DriverError(config).
+// | usbtmc:PATH, or the VISA resource names TCPIPn::HOST::PORT::SOCKET and
+// ASRL/dev/PATH::INSTR / ASRLn::INSTR (serial options may follow ::INSTR).
+// Throws DriverError(config).
 Address parse_address(std::string_view address);
 
 const char* to_string(Parity parity);
