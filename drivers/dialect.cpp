@@ -35,19 +35,24 @@ const std::vector<OperationRule>& rules_for(Role role) {
       {"set_current_limit", true, {"a"}, Returns::nothing},
       {"output_on", true, {}, Returns::nothing},
       {"output_off", true, {}, Returns::nothing},
-      {"measure_voltage", true, {}, Returns::number},
+      {"measure_voltage", false, {}, Returns::number},
       {"measure_current", true, {}, Returns::number},
-      {"in_current_limit", true, {}, Returns::boolean},
+      // Without it, a reading counts as current-limited when the measured
+      // current is within current_limit_tolerance of the programmed limit.
+      {"in_current_limit", false, {}, Returns::boolean},
   };
   static const std::vector<OperationRule> meter = {
       {"measure_dc_voltage", true, {}, Returns::number},
-      {"measure_dc_current", true, {}, Returns::number},
-      {"set_voltage_range", true, {"range"}, Returns::nothing},
-      {"set_voltage_autorange", true, {}, Returns::nothing},
-      {"set_current_range", true, {"range"}, Returns::nothing},
-      {"set_current_autorange", true, {}, Returns::nothing},
-      {"set_nplc", true, {"nplc"}, Returns::nothing},
-      {"set_averaging", true, {"count"}, Returns::nothing},
+      // Needed only with fixture.current_from = "meter".
+      {"measure_dc_current", false, {}, Returns::number},
+      // Sent only when something asks for them; a meter left in its own
+      // (auto)range and integration time works without.
+      {"set_voltage_range", false, {"range"}, Returns::nothing},
+      {"set_voltage_autorange", false, {}, Returns::nothing},
+      {"set_current_range", false, {"range"}, Returns::nothing},
+      {"set_current_autorange", false, {}, Returns::nothing},
+      {"set_nplc", false, {"nplc"}, Returns::nothing},
+      {"set_averaging", false, {"count"}, Returns::nothing},
       {"set_averaging_off", false, {}, Returns::nothing},
   };
   static const std::vector<OperationRule> scanner = {
@@ -297,7 +302,7 @@ Dialect parse_dialect(std::string_view text, const std::string& origin) {
   }
   c.typed(root, "", json::value_t::object, "an object");
   c.only_keys(root, "", {"dialect", "role", "description", "idn_match", "write_terminator", "read_terminator",
-                         "drain_errors", "reset", "operations"});
+                         "drain_errors", "reset", "current_limit_tolerance", "operations"});
   Dialect d;
   d.path = origin;
   d.name = c.string_at(root, "", "dialect");
@@ -321,6 +326,13 @@ Dialect parse_dialect(std::string_view text, const std::string& origin) {
       d.reset_commands.push_back(c.typed(list[k], p, json::value_t::string, "a string").get<std::string>());
       check_template(c, d.reset_commands.back(), p, {});
     }
+  }
+  if (root.contains("current_limit_tolerance")) {
+    if (d.role != Role::source) c.fail("/current_limit_tolerance", "only a source dialect takes it");
+    const json& t = c.member(root, "", "current_limit_tolerance", json::value_t::number_float, "a number");
+    d.current_limit_tolerance = t.get<double>();
+    if (!(d.current_limit_tolerance > 0.0 && d.current_limit_tolerance < 0.5))
+      c.fail("/current_limit_tolerance", "must be between 0 and 0.5 (a fraction of the limit), got " + t.dump());
   }
   const json& ops = c.member(root, "", "operations", json::value_t::object, "an object");
   const auto& rules = rules_for(d.role);

@@ -49,6 +49,9 @@ struct Dialect {
   std::optional<std::string> write_terminator;  // unset: the transport's
   std::optional<std::string> read_terminator;
   std::vector<std::string> reset_commands{"*RST", "*CLS"};
+  // Source without an in_current_limit query: a reading counts as limited
+  // when |measured current| >= (1 − this) × the programmed limit.
+  double current_limit_tolerance = 0.02;
   std::map<std::string, Operation, std::less<>> operations;
 
   // nullptr when the dialect does not offer the (optional) operation.

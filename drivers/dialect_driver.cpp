@@ -28,7 +28,9 @@ DialectDriver::DialectDriver(InstrumentSpec spec, Dialect dialect)
   if (dialect_.read_terminator) transport_options_.read_terminator = *dialect_.read_terminator;
   if (spec_.max_retries < 0) config_error("max_retries must be >= 0");
   with_retries("open", [&] { ensure_session(); });
-  if (dialect_.idn_match) check_identity();
+  // *IDN? always (IEEE 488.2 makes it mandatory): an instrument that does not
+  // answer is not open, whether or not the dialect names a model.
+  check_identity();
 }
 
 std::string DialectDriver::label() const {
@@ -160,6 +162,7 @@ DialectDriver::Outcome DialectDriver::run(const char* operation, const Placehold
 void DialectDriver::check_identity() {
   Identity id = identify();
   std::string text = id.manufacturer + "," + id.model + "," + id.serial + "," + id.firmware;
+  if (!dialect_.idn_match) return;
   if (!std::regex_search(text, *dialect_.idn_match))
     config_error("*IDN? reply '" + text + "' does not match the dialect's idn_match '" + dialect_.idn_match_text +
                  "': wrong instrument or wrong dialect file");
@@ -187,12 +190,19 @@ void DialectDriver::set_current_limit_a(double amps) {
   require_finite(amps, "current limit");
   if (amps <= 0) config_error("current limit must be positive, got " + format_number(amps));
   run("set_current_limit", {{"a", format_number(amps)}});
+  current_limit_a_ = amps;
 }
 
 void DialectDriver::set_output(bool on) { run(on ? "output_on" : "output_off"); }
 double DialectDriver::measure_voltage_v() { return run("measure_voltage").number; }
 double DialectDriver::measure_current_a() { return run("measure_current").number; }
-bool DialectDriver::in_current_limit() { return run("in_current_limit").flag; }
+// A supply with no status query for "regulating current" is judged from its
+// own current reading against the limit this driver programmed.
+bool DialectDriver::in_current_limit() {
+  if (dialect_.find("in_current_limit")) return run("in_current_limit").flag;
+  if (!std::isfinite(current_limit_a_)) return false;  // no limit programmed by us: nothing to compare
+  return std::fabs(measure_current_a()) >= (1.0 - dialect_.current_limit_tolerance) * current_limit_a_;
+}
 double DialectDriver::measure_dc_voltage_v() { return run("measure_dc_voltage").number; }
 double DialectDriver::measure_dc_current_a() { return run("measure_dc_current").number; }
 

@@ -8,14 +8,15 @@
 #include "drivers/scpi.hpp"
 
 #include <functional>
+#include <limits>
 #include <optional>
 
 namespace junco::drivers {
 
 class DialectDriver final : public Source, public Meter, public Scanner, public SignalGen, public LevelMeter {
  public:
-  // Opens the transport (with retries) and, when the dialect has an
-  // idn_match, checks *IDN? against it. Throws DriverError.
+  // Opens the transport (with retries), asks *IDN? and, when the dialect has
+  // an idn_match, checks the answer against it. Throws DriverError.
   DialectDriver(InstrumentSpec spec, Dialect dialect);
 
   Identity identify() override;
@@ -66,6 +67,7 @@ class DialectDriver final : public Source, public Meter, public Scanner, public 
   TransportOptions transport_options_;
   std::unique_ptr<ScpiSession> session_;
   bool needs_reconnect_ = false;
+  double current_limit_a_ = std::numeric_limits<double>::quiet_NaN();  // as last programmed
 };
 
 }  // namespace junco::drivers

@@ -18,6 +18,7 @@
 #include <cstdio>
 #include <filesystem>
 #include <fstream>
+#include <map>
 #include <memory>
 #include <string>
 #include <thread>
@@ -30,6 +31,9 @@ struct BenchDaemonOptions {
   Json fixture{{"bias_resistor_ohm", 100.0}, {"slots", 8}};
   Json safety{{"max_supply_v", 10.0}, {"current_limit_a", 0.05}, {"max_power_w", 0.1}, {"max_reverse_v", 5.0}, {"max_job_s", 600.0}};
   Json extra = Json::object();  // more top-level config keys ("server", "accuracy")
+  // Dialect per role when it is not named like the sim's family (a bare
+  // name of a shipped dialect, or a path).
+  std::map<std::string, std::string> dialects;
 };
 
 class BenchDaemon {
@@ -37,7 +41,10 @@ class BenchDaemon {
   BenchDaemon(const std::string& tag, std::vector<std::string> sim_args, BenchDaemonOptions options = {})
       : dir_(scratch_dir(tag)), sim_(std::move(sim_args)) {
     Json bench = Json::object();
-    for (const auto& role : options.roles) bench[role] = {{"address", sim_.endpoint(role)}, {"dialect", sim_.family(role)}};
+    for (const auto& role : options.roles) {
+      const auto d = options.dialects.find(role);
+      bench[role] = {{"address", sim_.endpoint(role)}, {"dialect", d != options.dialects.end() ? d->second : sim_.family(role)}};
+    }
     Json config{{"bench", bench},
                 {"fixture", options.fixture},
                 {"safety", options.safety},

@@ -192,3 +192,50 @@ TEST_CASE("a file that cannot be read is named", "[drivers][dialect]") {
     CHECK_THAT(std::string(e.what()), Catch::StartsWith("/nonexistent/x.json: cannot read dialect file"));
   }
 }
+
+// A bare supply and a bare meter: only what juncod always calls. Everything
+// else (ranges, integration time, averaging, a limit query, a voltage
+// readback) is optional and sent only when asked for.
+TEST_CASE("a dialect with only the operations juncod always calls loads", "[drivers][dialect]") {
+  const std::string supply = R"J({
+    "dialect": "bare-supply", "role": "source",
+    "operations": {
+      "set_voltage": { "commands": ["VOLT {v}"] },
+      "set_current_limit": { "commands": ["CURR {a}"] },
+      "output_on": { "commands": ["OUTP ON"] },
+      "output_off": { "commands": ["OUTP OFF"] },
+      "measure_current": { "query": "MEAS:CURR?", "reply": { "type": "number" } }
+    }
+  })J";
+  const Dialect s = parse_dialect(supply, "bare-supply.json");
+  CHECK(s.find("in_current_limit") == nullptr);
+  CHECK(s.current_limit_tolerance == 0.02);  // the documented default
+  const Dialect tight = parse_dialect(replaced(supply, R"("operations")", R"("current_limit_tolerance": 0.005, "operations")"), "t.json");
+  CHECK(tight.current_limit_tolerance == 0.005);
+
+  const Dialect m = parse_dialect(R"J({
+    "dialect": "bare-meter", "role": "meter",
+    "operations": { "measure_dc_voltage": { "query": "MEAS:VOLT:DC?", "reply": { "type": "number" } } }
+  })J", "bare-meter.json");
+  CHECK(m.find("set_nplc") == nullptr);
+  CHECK(m.find("measure_dc_current") == nullptr);
+
+  CHECK(error_of(replaced(supply, R"("operations")", R"("current_limit_tolerance": 0.7, "operations")")) ==
+        "broken.json: /current_limit_tolerance: must be between 0 and 0.5 (a fraction of the limit), got 0.7");
+  CHECK(error_of(replaced(good_scanner, R"("operations")", R"("current_limit_tolerance": 0.01, "operations")")) ==
+        "broken.json: /current_limit_tolerance: only a source dialect takes it");
+  CHECK(error_of(replaced(supply, R"(,
+      "measure_current": { "query": "MEAS:CURR?", "reply": { "type": "number" } })", "")) ==
+        "broken.json: /operations/measure_current: missing (required for role source)");
+}
+
+TEST_CASE("the shipped generic dialects accept any instrument; model files keep their idn_match", "[drivers][dialect]") {
+  for (const char* generic : {"scpi-source", "scpi-dmm", "scpi-switch", "scpi-gen", "scpi-acv"}) {
+    INFO(generic);
+    CHECK_FALSE(load_dialect(dialect_dir + generic + ".json").idn_match.has_value());
+  }
+  for (const char* model : {"psu-compact", "dmm-prefixed", "relay-bank", "gen-channel", "scope-meas"}) {
+    INFO(model);
+    CHECK(load_dialect(dialect_dir + model + ".json").idn_match.has_value());
+  }
+}

@@ -11,9 +11,9 @@ namespace junco::sim {
 
 const std::map<std::string, std::vector<std::string>>& known_families() {
   static const std::map<std::string, std::vector<std::string>> f{
-      {"source", {"scpi-source", "psu-compact"}},
-      {"meter", {"scpi-dmm", "dmm-prefixed"}},
-      {"scanner", {"scpi-switch", "relay-bank"}},
+      {"source", {"scpi-source", "psu-compact", "scpi99"}},
+      {"meter", {"scpi-dmm", "dmm-prefixed", "scpi99"}},
+      {"scanner", {"scpi-switch", "relay-bank", "scpi99"}},
       {"siggen", {"scpi-gen", "gen-channel"}},
       {"levelmeter", {"scpi-acv", "scope-meas"}}};
   return f;

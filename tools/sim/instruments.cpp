@@ -42,8 +42,10 @@ double quantise(double v, double step) { return step > 0 ? std::round(v / step) 
 class SourceSim : public SimInstrument {
  public:
   SourceSim(const std::string& family, Bench& bench, std::uint64_t seed)
-      : SimInstrument("source", family, family == "psu-compact" ? "junco-sim,PSU-C2,SIM-S002,2.1"
-                                                                : "junco-sim,SRC-100,SIM-S001,1.0",
+      : SimInstrument("source", family,
+                      family == "psu-compact" ? "junco-sim,PSU-C2,SIM-S002,2.1"
+                      : family == "scpi99"    ? "Sim Bench Works,ML-3303P,ML33A0571,4.07.2"
+                                              : "junco-sim,SRC-100,SIM-S001,1.0",
                       bench, seed) {
     const bool compact = family == "psu-compact";
     const double v_min = compact ? std::max(0.0, bench.config().source.v_min_v) : bench.config().source.v_min_v;
@@ -89,6 +91,21 @@ class SourceSim : public SimInstrument {
       add("VOLTage", set_v);
       add("SOURce:CURRent", set_i);
       add("CURRent", set_i);
+      if (family == "scpi99") {
+        // The whole SCPI-99 tree, optional nodes spelt out:
+        // [SOURce:]VOLTage[:LEVel][:IMMediate][:AMPLitude], the same for CURRent.
+        for (const char* prefix : {"", "SOURce:"})
+          for (const char* level : {":LEVel", ":LEVel:IMMediate", ":LEVel:IMMediate:AMPLitude"}) {
+            add(std::string(prefix) + "VOLTage" + level, set_v);
+            add(std::string(prefix) + "CURRent" + level, set_i);
+          }
+        add("OUTPut:STATe", [set_out](const std::string& a) {
+          set_out(need_bool(a));
+          return std::optional<std::string>{};
+        });
+        add("MEASure:SCALar:VOLTage:DC?", [this](const std::string&) { return format_nr3(quantise(read_v(), 1e-4), 5); });
+        add("MEASure:SCALar:CURRent:DC?", [this](const std::string&) { return format_nr3(quantise(read_i(), 1e-6), 5); });
+      }
       for (const char* prefix : {"", "SOURce:"}) {
         add(std::string(prefix) + "VOLTage?", [this](const std::string&) { return format_nr3(bench_.bias().voltage_v, 6); });
         add(std::string(prefix) + "CURRent?",
@@ -119,10 +136,23 @@ class SourceSim : public SimInstrument {
 class MeterSim : public SimInstrument {
  public:
   MeterSim(const std::string& family, Bench& bench, std::uint64_t seed)
-      : SimInstrument("meter", family, family == "dmm-prefixed" ? "junco-sim,DMM-P7,SIM-M002,3.0"
-                                                                : "junco-sim,DMM-6,SIM-M001,1.0",
+      : SimInstrument("meter", family,
+                      family == "dmm-prefixed" ? "junco-sim,DMM-P7,SIM-M002,3.0"
+                      : family == "scpi99"     ? "Sim Bench Works,ML-6510,ML65B0119,2.3"
+                                               : "junco-sim,DMM-6,SIM-M001,1.0",
                       bench, seed) {
     prefixed_ = family == "dmm-prefixed";
+    if (family == "scpi99") {
+      // A bare SCPI-99 meter: MEASure queries only, no range, integration
+      // time or averaging commands (anything else answers -113), so a
+      // driver that sends what the plan did not ask for fails here.
+      for (const char* scalar : {"", "SCALar:"}) {
+        add(std::string("MEASure:") + scalar + "VOLTage:DC?", [this](const std::string&) { return reading(0); });
+        add(std::string("MEASure:") + scalar + "CURRent:DC?", [this](const std::string&) { return reading(1); });
+        add(std::string("MEASure:") + scalar + "VOLTage?", [this](const std::string&) { return reading(0); });
+      }
+      return;
+    }
     const std::string p = prefixed_ ? "SENSe:" : "";
     for (int f = 0; f < 2; ++f) {
       const std::string fn = f == 0 ? "VOLTage:DC" : "CURRent:DC";
@@ -226,8 +256,10 @@ class MeterSim : public SimInstrument {
 class ScannerSim : public SimInstrument {
  public:
   ScannerSim(const std::string& family, Bench& bench, std::uint64_t seed)
-      : SimInstrument("scanner", family, family == "relay-bank" ? "junco-sim,RB-8,SIM-X002,1.4"
-                                                                : "junco-sim,SW-20,SIM-X001,1.0",
+      : SimInstrument("scanner", family,
+                      family == "relay-bank" ? "junco-sim,RB-8,SIM-X002,1.4"
+                      : family == "scpi99"   ? "Sim Bench Works,ML-7016,ML70C0033,1.12"
+                                             : "junco-sim,SW-20,SIM-X001,1.0",
                       bench, seed) {
     auto select = [this](int slot) {
       check_range(slot, 1, bench_.config().slots);
