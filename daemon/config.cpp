@@ -201,7 +201,26 @@ std::optional<fs::path> find_dialect(const std::string& name, const fs::path& co
   return std::nullopt;
 }
 
-Config parse_config(const std::string& text, const fs::path& file) {
+namespace {
+
+// Runs one section's checks. Collecting (problems != nullptr), a section's
+// first problem is kept and the parse goes on with the next section, so a
+// --check-config run reports every broken section at once; otherwise the
+// first problem is thrown as before.
+template <typename F>
+void section(std::vector<ConfigError>* problems, F&& body) {
+  if (!problems) {
+    body();
+    return;
+  }
+  try {
+    body();
+  } catch (const ConfigError& e) {
+    problems->push_back(e);
+  }
+}
+
+Config parse_config_impl(const std::string& text, const fs::path& file, std::vector<ConfigError>* problems) {
   const Checker c(file.string());
   Json doc;
   try {
@@ -213,41 +232,51 @@ Config parse_config(const std::string& text, const fs::path& file) {
     c.fail("", "not valid JSON: " + what);
   }
   if (!doc.is_object()) c.fail("", std::string("must be an object, not ") + doc.type_name());
-  c.only_keys(doc, "", {"bench", "fixture", "safety", "accuracy", "paths", "server"});
+  section(problems, [&] { c.only_keys(doc, "", {"bench", "fixture", "safety", "accuracy", "paths", "server"}); });
 
   Config cfg;
   cfg.file = file;
   cfg.raw = doc;
   const fs::path dir = file.has_parent_path() ? file.parent_path() : fs::current_path();
 
-  if (!doc.contains("bench")) c.fail("/bench", "missing (required)");
-  const Json& bench = c.object(doc, "bench", "/bench");
-  for (const auto& [role, obj] : bench.items()) {
-    const std::string p = "/bench/" + role;
-    bool known = false;
-    for (const char* r : kRoles) known = known || role == r;
-    if (!known) c.fail(p, "unknown role (expected source, meter, scanner, siggen or levelmeter)");
-    if (!obj.is_object()) c.fail(p, std::string("must be an object, not ") + obj.type_name());
-    cfg.bench[role] = parse_instrument(c, obj, role, p, dir);
-  }
-  for (const char* r : kRequiredRoles)
-    if (!cfg.bench.count(r)) c.fail(std::string("/bench/") + r, "missing (required)");
+  section(problems, [&] {
+    if (!doc.contains("bench")) c.fail("/bench", "missing (required)");
+    const Json& bench = c.object(doc, "bench", "/bench");
+    for (const auto& [role, obj] : bench.items()) {
+      section(problems, [&, &role = role, &obj = obj] {
+        const std::string p = "/bench/" + role;
+        bool known = false;
+        for (const char* r : kRoles) known = known || role == r;
+        if (!known) c.fail(p, "unknown role (expected source, meter, scanner, siggen or levelmeter)");
+        if (!obj.is_object()) c.fail(p, std::string("must be an object, not ") + obj.type_name());
+        cfg.bench[role] = parse_instrument(c, obj, role, p, dir);
+      });
+    }
+    for (const char* r : kRequiredRoles)
+      if (!cfg.bench.count(r) && !bench.contains(r)) section(problems, [&] { c.fail(std::string("/bench/") + r, "missing (required)"); });
+  });
 
-  if (!doc.contains("fixture")) c.fail("/fixture", "missing (required)");
-  cfg.fixture = parse_fixture(c, c.object(doc, "fixture", "/fixture"));
-  if (!doc.contains("safety")) c.fail("/safety", "missing (required)");
-  cfg.safety = parse_safety(c, c.object(doc, "safety", "/safety"));
-  if (doc.contains("accuracy")) cfg.accuracy = parse_accuracy(c, c.object(doc, "accuracy", "/accuracy"));
+  section(problems, [&] {
+    if (!doc.contains("fixture")) c.fail("/fixture", "missing (required)");
+    cfg.fixture = parse_fixture(c, c.object(doc, "fixture", "/fixture"));
+  });
+  section(problems, [&] {
+    if (!doc.contains("safety")) c.fail("/safety", "missing (required)");
+    cfg.safety = parse_safety(c, c.object(doc, "safety", "/safety"));
+  });
+  section(problems, [&] {
+    if (doc.contains("accuracy")) cfg.accuracy = parse_accuracy(c, c.object(doc, "accuracy", "/accuracy"));
+  });
 
-  if (doc.contains("server")) {
+  section(problems, [&] { if (doc.contains("server")) {
     const Json& server = c.object(doc, "server", "/server");
     c.only_keys(server, "/server", {"idle_timeout_s"});
     cfg.server.idle_timeout_s = c.number(server, "idle_timeout_s", "/server", cfg.server.idle_timeout_s, false, 0, true);
     if (cfg.server.idle_timeout_s > 86400) c.fail("/server/idle_timeout_s", "must be at most 86400 (a day; 0 = never)");
-  }
+  } });
 
   cfg.paths = default_paths();
-  if (doc.contains("paths")) {
+  section(problems, [&] { if (doc.contains("paths")) {
     const Json& paths = c.object(doc, "paths", "/paths");
     c.only_keys(paths, "/paths", {"database", "socket", "socket_group"});
     if (paths.contains("database")) cfg.paths.database = resolve(c.string(paths, "database", "/paths", "", true), dir);
@@ -255,8 +284,23 @@ Config parse_config(const std::string& text, const fs::path& file) {
     cfg.paths.socket_group = c.string(paths, "socket_group", "/paths", "", false);
     if (cfg.paths.database.empty() || paths.value("database", "x").empty()) c.fail("/paths/database", "must not be empty");
     if (paths.value("socket", "x").empty()) c.fail("/paths/socket", "must not be empty");
-  }
+  } });
   return cfg;
+}
+
+}  // namespace
+
+Config parse_config(const std::string& text, const fs::path& file) { return parse_config_impl(text, file, nullptr); }
+
+std::vector<ConfigError> config_problems(const std::string& text, const fs::path& file, Config* parsed) {
+  std::vector<ConfigError> problems;
+  try {
+    Config cfg = parse_config_impl(text, file, &problems);
+    if (parsed) *parsed = std::move(cfg);
+  } catch (const ConfigError& e) {  // the document itself (not JSON, not an object)
+    problems.push_back(e);
+  }
+  return problems;
 }
 
 Config load_config(const fs::path& file) {

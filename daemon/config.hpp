@@ -14,6 +14,7 @@
 #include <optional>
 #include <stdexcept>
 #include <string>
+#include <vector>
 
 namespace junco::daemon {
 
@@ -102,6 +103,10 @@ PathsConfig default_paths();
 // relative paths (its directory). Throws ConfigError.
 Config parse_config(const std::string& text, const std::filesystem::path& file);
 Config load_config(const std::filesystem::path& file);
+// Every problem of the text at once (for --check-config): each section and
+// each instrument is checked on its own; within one, the first problem. The
+// config as far as it could be read goes to *parsed. Empty when it is good.
+std::vector<ConfigError> config_problems(const std::string& text, const std::filesystem::path& file, Config* parsed = nullptr);
 
 // Finds a dialect given as a bare name ("scpi-source") or a path.
 // Search order for bare names: $JUNCO_DIALECT_DIR, the installed share dir,

@@ -3,6 +3,7 @@
 // off and exits 0. Never forks and never listens on TCP; run it under
 // systemd (tools/systemd/juncod.service) or from a shell.
 #include "daemon/config.hpp"
+#include "daemon/config_check.hpp"
 #include "daemon/core_service.hpp"
 #include "daemon/rpc_server.hpp"
 
@@ -123,16 +124,24 @@ int main(int argc, char** argv) {
     std::fputs(usage_text, stdout);
     return 0;
   }
+  if (args.check_only) {
+    // Every problem at once, nothing opened or created (daemon/config_check.hpp).
+    const d::ConfigCheck check = d::check_config_file(args.config);
+    for (const auto& w : check.warnings) std::fprintf(stderr, "juncod: warning: %s\n", w.c_str());
+    for (const auto& p : check.problems) std::fprintf(stderr, "juncod: %s\n", p.c_str());
+    if (!check.ok()) {
+      std::fprintf(stderr, "juncod: %zu problem(s) in %s\n", check.problems.size(), args.config.c_str());
+      return 2;
+    }
+    print_summary(check.config);
+    return 0;
+  }
   d::Config config;
   try {
     config = d::load_config(args.config);
   } catch (const std::exception& e) {
     std::fprintf(stderr, "juncod: bad config: %s\n", e.what());
     return 2;
-  }
-  if (args.check_only) {
-    print_summary(config);
-    return 0;
   }
 
   // A client that hangs up mid-reply must not kill the daemon.
