@@ -132,9 +132,10 @@ class Client:
                 self._lost = "the client was closed"
             self._cond.notify_all()
         try:
-            self._sock.close()
+            self._sock.shutdown(socket.SHUT_RDWR)  # wakes a thread blocked in poll()
         except OSError:
             pass
+        self._sock.close()
 
     def __enter__(self):
         return self
