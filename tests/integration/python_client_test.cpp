@@ -46,6 +46,8 @@ Run run(const std::string& cmd) {
 std::string quote(const std::string& s) { return "'" + s + "'"; }
 
 const std::string kSource = JUNCO_SOURCE_DIR;
+// pip as on a machine without network or pip settings (--no-index on the command line too).
+const std::string kOfflinePip = "env -u PIP_FIND_LINKS -u PIP_INDEX_URL -u PIP_EXTRA_INDEX_URL PIP_CONFIG_FILE=/dev/null ";
 
 }  // namespace
 
@@ -127,12 +129,23 @@ TEST_CASE("the junco_client package installs offline into a venv and works again
   INFO(mk.out);
   REQUIRE(mk.status == 0);
   const auto py = (venv / "bin" / "python").string();
-  const auto pip = run("cd " + quote(dir.string()) + " && PIP_CONFIG_FILE=/dev/null " + quote(py) +
+  const auto pip = run("cd " + quote(dir.string()) + " && " + kOfflinePip + quote(py) +
                        " -m pip install --no-build-isolation --no-index --no-deps --disable-pip-version-check " +
                        quote((dir / "src").string()));
   INFO(pip.out);
   REQUIRE(pip.status == 0);
   REQUIRE(fs::exists(venv / "lib"));
+  // The other documented way: Debian's pip into a directory (no venv).
+  const auto target = dir / "target";
+  const auto tpip = run("cd " + quote(dir.string()) + " && " + kOfflinePip + "/usr/bin/python3 -m pip install "
+                        "--no-build-isolation --no-index --no-deps --disable-pip-version-check --target " +
+                        quote(target.string()) + " " + quote((dir / "src").string()));
+  INFO(tpip.out);
+  REQUIRE(tpip.status == 0);
+  const auto tver = run("PYTHONPATH=" + quote(target.string()) +
+                        " /usr/bin/python3 -B -c 'import junco_client as j, importlib.metadata as m; "
+                        "print(j.__file__, m.version(\"junco-client\") == j.__version__)'");
+  CHECK_THAT(tver.out, Catch::Contains((target / "junco_client.py").string() + " True"));
 
   // -I: the source tree is not on sys.path; the script checks where it imported from.
   const auto ex = run("cd " + quote(dir.string()) + " && " + quote(py) + " -I -B " +
