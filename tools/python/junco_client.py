@@ -222,7 +222,8 @@ class Client:
     def notifications(self, timeout_s: Optional[float] = None, methods=None) -> Iterator[Dict[str, Any]]:
         """Iterates over notifications (after events_subscribe) until none has
         come for timeout_s (None: never ends). methods: only these event
-        kinds (e.g. {"job.state"}); others are skipped."""
+        kinds (e.g. {"job.state"}) are yielded; the others are skipped but
+        still count as something having come."""
         while True:
             try:
                 n = self.next_notification(timeout_s)
@@ -310,12 +311,14 @@ class Client:
     def _read_line(self, deadline):
         """One line from the socket; bytes after it stay in the buffer. Only the
         reading thread touches _buf, so no lock is needed here."""
+        scanned = 0  # bytes of _buf known to hold no newline: a long reply is scanned once
         while True:
-            nl = self._buf.find(b"\n")
+            nl = self._buf.find(b"\n", scanned)
             if nl >= 0:
                 line = bytes(self._buf[:nl])
                 del self._buf[: nl + 1]
                 return line
+            scanned = len(self._buf)
             if not self._poll(select.POLLIN, deadline):
                 raise TimeoutError()
             try:
