@@ -187,12 +187,17 @@ class Client:
 
         try:
             reply = self._wait(ready, deadline)
-        except TimeoutError:
+        except BaseException as e:
+            # Timeout, an earlier id-null error, Ctrl-C: nobody waits for this
+            # reply any more, so it is dropped when it comes (and an id-null
+            # error is not pinned on a call that is no longer there).
             with self._cond:
                 if self._outstanding.get(rid) is _PENDING:
                     self._outstanding[rid] = _ABANDONED
-            raise TimeoutError(f"juncod did not answer {method} (id {rid}) within {self._span(timeout_s)}; "
-                               "a late reply will be discarded") from None
+            if isinstance(e, TimeoutError):
+                raise TimeoutError(f"juncod did not answer {method} (id {rid}) within {self._span(timeout_s)}; "
+                                   "a late reply will be discarded") from None
+            raise
         if isinstance(reply, RpcError):
             raise reply
         if "error" in reply:
