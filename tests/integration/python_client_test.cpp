@@ -1,11 +1,15 @@
-// tools/python/junco_client.py and examples/lot_to_csv.py against a real
-// juncod + junco-sim: the CSV must carry exactly the daemon's fitted values.
-// Runs /usr/bin/python3 (Debian's, standard library only).
+// tools/python (junco_client and examples/lot_to_csv.py) against a real
+// juncod + junco-sim: the CSV must carry exactly the daemon's fitted values;
+// the package installs offline into a venv and its wrappers, timeouts,
+// threads, id-null errors and notifications work (tests/python/exercise_client.py);
+// its wrappers cover schema/api and its version is CMake's (tests/python/check_wrappers.py).
+// Runs /usr/bin/python3 (Debian's: python3-pip, python3-venv from tools/setup).
 #include "tests/support/bench_daemon.hpp"
 
 #include <catch2/catch.hpp>
 
 #include <algorithm>
+#include <cstdio>
 #include <fstream>
 #include <sstream>
 
@@ -20,6 +24,30 @@ std::vector<std::string> split(const std::string& line) {
   for (std::string cell; std::getline(s, cell, ',');) out.push_back(cell);
   return out;
 }
+
+struct Run {
+  int status = -1;
+  std::string out;  // stdout and stderr
+};
+
+// A shell command, output captured (stderr too).
+Run run(const std::string& cmd) {
+  Run r;
+  FILE* p = ::popen((cmd + " 2>&1").c_str(), "r");
+  if (!p) return r;
+  char buf[4096];
+  std::size_t n;
+  while ((n = std::fread(buf, 1, sizeof buf, p)) > 0) r.out.append(buf, n);
+  const int st = ::pclose(p);
+  r.status = WIFEXITED(st) ? WEXITSTATUS(st) : -1;
+  return r;
+}
+
+std::string quote(const std::string& s) { return "'" + s + "'"; }
+
+const std::string kSource = JUNCO_SOURCE_DIR;
+// pip as on a machine without network or pip settings (--no-index on the command line too).
+const std::string kOfflinePip = "env -u PIP_FIND_LINKS -u PIP_INDEX_URL -u PIP_EXTRA_INDEX_URL PIP_CONFIG_FILE=/dev/null ";
 
 }  // namespace
 
@@ -73,4 +101,94 @@ TEST_CASE("lot_to_csv.py writes the lot's fits as the daemon reports them", "[py
                               (dir / "none.csv").string(), "--socket", sock});
   CHECK(missing.wait(std::chrono::seconds(30)).value_or(-1) == 1);
   CHECK(b.daemon().stop() == 0);
+}
+
+TEST_CASE("junco_client has one typed wrapper per schema/api method and the CMake project version", "[python]") {
+  const auto r = run("/usr/bin/python3 -I -B " + quote(kSource + "/tests/python/check_wrappers.py") + " " + quote(kSource));
+  INFO(r.out);
+  CHECK(r.status == 0);
+  CHECK_THAT(r.out, Catch::Contains("wrappers, version"));
+}
+
+TEST_CASE("the junco_client package installs offline into a venv and works against juncod", "[python]") {
+  test::BenchDaemonOptions bench;
+  bench.roles = {"source", "meter", "scanner"};
+  test::BenchDaemon b("pypkg", {"--settle-ms", "0"}, bench);
+  const auto& dir = b.dir();
+  b.run_plan({{"lot", "PY-PKG"},
+              {"parts", {{{"slot", 1}, {"label", "PYP-1"}}, {{"slot", 2}, {"label", "PYP-2"}}, {{"slot", 3}, {"label", "PYP-3"}}}},
+              {"sweep", {{"mode", "current"}, {"spacing", "log"}, {"start", 1e-6}, {"stop", 0.02}, {"count", 12}, {"settle_s", 0.0}}}});
+
+  // Install from a copy, so the build leaves nothing in the source tree;
+  // no index and no pip config: what a machine without network has.
+  fs::create_directories(dir / "src");
+  for (const char* f : {"pyproject.toml", "junco_client.py", "README.md"})
+    fs::copy_file(kSource + "/tools/python/" + f, dir / "src" / f);
+  const auto venv = dir / "venv";
+  const auto mk = run("/usr/bin/python3 -m venv --without-pip --system-site-packages " + quote(venv.string()));
+  INFO(mk.out);
+  REQUIRE(mk.status == 0);
+  const auto py = (venv / "bin" / "python").string();
+  const auto pip = run("cd " + quote(dir.string()) + " && " + kOfflinePip + quote(py) +
+                       " -m pip install --no-build-isolation --no-index --no-deps --disable-pip-version-check " +
+                       quote((dir / "src").string()));
+  INFO(pip.out);
+  REQUIRE(pip.status == 0);
+  REQUIRE(fs::exists(venv / "lib"));
+  // The other documented way: Debian's pip into a directory (no venv).
+  const auto target = dir / "target";
+  const auto tpip = run("cd " + quote(dir.string()) + " && " + kOfflinePip + "/usr/bin/python3 -m pip install "
+                        "--no-build-isolation --no-index --no-deps --disable-pip-version-check --target " +
+                        quote(target.string()) + " " + quote((dir / "src").string()));
+  INFO(tpip.out);
+  REQUIRE(tpip.status == 0);
+  const auto tver = run("PYTHONPATH=" + quote(target.string()) +
+                        " /usr/bin/python3 -B -c 'import junco_client as j, importlib.metadata as m; "
+                        "print(j.__file__, m.version(\"junco-client\") == j.__version__)'");
+  CHECK_THAT(tver.out, Catch::Contains((target / "junco_client.py").string() + " True"));
+
+  // -I: the source tree is not on sys.path; the script checks where it imported from.
+  const auto ex = run("cd " + quote(dir.string()) + " && " + quote(py) + " -I -B " +
+                      quote(kSource + "/tests/python/exercise_client.py") + " main " + quote(b.socket()) + " PY-PKG");
+  INFO(ex.out);
+  REQUIRE(ex.status == 0);
+  for (const char* step : {"ok install:", "ok wrappers:", "ok timeouts:", "ok partial line:", "ok threads:", "ok id-null errors:",
+                           "ok notifications:"})
+    CHECK_THAT(ex.out, Catch::Contains(step));
+  // The values the wrappers returned are the daemon's (checked with the C++ client).
+  const auto last = ex.out.substr(ex.out.rfind('{'));
+  const auto got = nlohmann::json::parse(last);
+  const auto fit = b.result("part.fit", {{"part_id", got["part_id"]}});
+  const auto figs = b.result("part.figures", {{"part_id", got["part_id"]}, {"currents_a", {0.01}}})["figures"];
+  CHECK(got["fit_id"] == fit["fit_id"]);
+  CHECK(got["n"].get<double>() == fit["n"]["value"].get<double>());
+  CHECK(got["is_a"].get<double>() == fit["is_a"]["value"].get<double>());
+  CHECK(got["vf_v@0.01A"].get<double>() == figs[0]["vf_v"].get<double>());
+  REQUIRE(b.daemon().stop() == 0);
+
+  // "server busy": the same juncod with 128 descriptors (max clients =
+  // RLIMIT_NOFILE / 2 = 64, daemon/rpc_server.hpp) refuses the 65th client
+  // with an id-null error. (With far fewer, accept() itself runs out of
+  // descriptors first and a new client waits in the backlog instead.)
+  test::ChildOptions o;
+  o.stderr_path = (dir / "juncod-busy.log").string();
+  test::ChildProcess busy({"/usr/bin/prlimit", "--nofile=128:128", std::string(JUNCO_BIN_DIR) + "/juncod", "--config",
+                           (dir / "bench.jsonc").string()},
+                          o);
+  bool up = false;
+  for (int i = 0; i < 400 && !up; ++i) {
+    REQUIRE(busy.running());
+    try {
+      test::SocketClient probe(b.socket());
+      up = true;
+    } catch (const std::exception&) {
+      std::this_thread::sleep_for(std::chrono::milliseconds(25));
+    }
+  }
+  REQUIRE(up);
+  const auto refused = run(quote(py) + " -I -B " + quote(kSource + "/tests/python/exercise_client.py") + " busy " + quote(b.socket()));
+  INFO(refused.out);
+  CHECK(refused.status == 0);
+  CHECK_THAT(refused.out, Catch::Contains("ok busy:"));
+  CHECK(busy.stop() == 0);
 }

@@ -12,6 +12,8 @@ import csv
 import os
 import sys
 
+# The client next to this directory (source tree, share/junco/python), else
+# the installed package (pip install tools/python).
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), ".."))
 from junco_client import Client, RpcError  # noqa: E402
 
@@ -29,7 +31,7 @@ def main():
     for i in currents:
         columns += [f"vf_v@{i:g}A", f"rd_ohm@{i:g}A"]
     with Client(args.socket) as c:
-        parts = c.call("part.list", lot=args.lot)["parts"]
+        parts = c.part_list(lot=args.lot)["parts"]
         if not parts:
             print(f"lot_to_csv: no parts in lot {args.lot}", file=sys.stderr)
             return 1
@@ -39,12 +41,12 @@ def main():
             for p in parts:
                 row = {"part_id": p["part_id"], "label": p["label"], "slot": p["slot"]}
                 try:
-                    fit = c.call("part.fit", part_id=p["part_id"])
+                    fit = c.part_fit(part_id=p["part_id"])
                     row["status"] = fit["status"]
                     for k in ("is_a", "n", "rs_ohm"):
                         row[k] = fit[k]["value"]
                         row[k + "_se"] = fit[k]["std_error"]
-                    figs = c.call("part.figures", part_id=p["part_id"], currents_a=currents)["figures"]
+                    figs = c.part_figures(part_id=p["part_id"], currents_a=currents)["figures"]
                     for i, fig in zip(currents, figs):
                         row[f"vf_v@{i:g}A"] = fig["vf_v"]
                         row[f"rd_ohm@{i:g}A"] = fig["rd_ohm"]
