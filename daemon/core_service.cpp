@@ -7,6 +7,7 @@
 #include "daemon/part_export.hpp"
 #include "daemon/jobs.hpp"
 #include "daemon/plan.hpp"
+#include "daemon/plan_estimate.hpp"
 #include "daemon/store.hpp"
 #include "fitting/derived.hpp"
 #include "fitting/model_document.hpp"
@@ -60,6 +61,7 @@ std::optional<std::string> opt_string_param(const Json& params, const char* key)
 const std::map<std::string, std::set<std::string>>& known_params() {
   static const std::map<std::string, std::set<std::string>> table{
       {"daemon.status", {}},           {"bench.describe", {}},           {"job.submit", {"plan"}},
+      {"plan.check", {"plan"}},
       {"job.list", {"state"}},         {"job.get", {"job_id"}},          {"job.cancel", {"job_id"}},
       {"job.pause", {"job_id"}},       {"job.resume", {"job_id"}},       {"lot.list", {}},
       {"part.list", {"lot"}},          {"part.readings", {"part_id", "run_id"}},
@@ -138,6 +140,7 @@ class CoreService final : public Service {
     table_["daemon.status"] = [this](const Json&, const Caller&) { return status(); };
     table_["bench.describe"] = [this](const Json&, const Caller&) { return describe(); };
     table_["job.submit"] = [this](const Json& p, const Caller& c) { return submit(p, c); };
+    table_["plan.check"] = [this](const Json& p, const Caller&) { return check_plan_dry(p); };
     table_["job.list"] = [this](const Json& p, const Caller&) { return list_jobs(p); };
     table_["job.get"] = [this](const Json& p, const Caller&) { return get_job(id_param(p, "job_id")); };
     table_["job.cancel"] = [this](const Json& p, const Caller&) { return to_json(queue_.cancel(id_param(p, "job_id"))); };
@@ -199,6 +202,22 @@ class CoreService final : public Service {
     log_("job " + std::to_string(id) + ": submitted by uid " + std::to_string(caller.uid) + " pid " + std::to_string(caller.pid) + " (" +
          std::to_string(total) + " points)");
     return {{"job_id", id}, {"points_total", total}};
+  }
+
+  // job.submit's checks, and what the plan would do; nothing is queued.
+  Json check_plan_dry(const Json& params) {
+    if (!params.contains("plan")) throw RequestError(RpcCode::invalid_params, "plan: missing (required)", Json{{"field", "plan"}});
+    const Plan plan = parse_plan(params.at("plan"));
+    check_plan(plan, config_);
+    const PlanEstimate e = estimate_plan(plan, config_);
+    Json limits = Json::array();
+    for (const auto& l : e.limits)
+      limits.push_back({{"limit", l.limit}, {"limit_value", l.limit_value}, {"plan_value", l.plan_value}, {"unit", l.unit},
+                        {"binds", l.binds}, {"note", l.note}});
+    return {{"points_per_part", e.points_per_part}, {"points_total", e.points_total}, {"parts", plan.parts.size()},
+            {"min_duration_s", e.min_duration_s}, {"duration_s", e.duration_s},
+            {"peak", {{"supply_v", e.peak_supply_v}, {"current_a", e.peak_current_a}, {"power_w", e.peak_power_w}, {"reverse_v", e.peak_reverse_v}}},
+            {"limits", limits}};
   }
 
   Json list_jobs(const Json& params) {

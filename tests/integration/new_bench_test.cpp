@@ -16,6 +16,7 @@
 #include <cmath>
 #include <filesystem>
 #include <fstream>
+#include <map>
 #include <regex>
 #include <sstream>
 
@@ -114,4 +115,52 @@ TEST_CASE("a supply without a limit query is judged current-limited from its own
   CHECK(first_limited_seq > last_unlimited_seq);
   CHECK(last_unlimited_seq >= 5);  // the unlimited part of the sweep was measured
   std::filesystem::remove(dialect);
+}
+
+TEST_CASE("a dry run says what a plan would do and queues nothing", "[daemon][plan]") {
+  test::BenchDaemonOptions o;
+  o.roles = {"source", "meter", "scanner"};
+  test::BenchDaemon b("dry-run", no_heating({}), o);
+  // Fixture 100 Ω (BenchDaemonOptions), safety: 10 V, 50 mA, 0.1 W, 5 V reverse.
+  const Json plan{{"lot", "MARSH-0303"},
+                  {"parts", {{{"slot", 1}, {"label", "MH-21"}}, {{"slot", 2}, {"label", "MH-22"}}}},
+                  {"sweep", {{"mode", "voltage"}, {"spacing", "linear"}, {"start", 0.0}, {"stop", 4.0}, {"count", 41}, {"settle_s", 0.5},
+                             {"compliance_a", 0.02}}},
+                  {"reverse_v", {1, 5}}};
+  const Json r = b.result("plan.check", {{"plan", plan}});
+  INFO(r.dump(2));
+  CHECK(test::schema_problem(test::api_schema("plan.check")["result"], r) == "");
+  CHECK(r["points_per_part"] == 43);  // 41 forward + 2 reverse readings
+  CHECK(r["points_total"] == 86);
+  CHECK(r["min_duration_s"].get<double>() == Approx(2 * 43 * 0.5));  // settle times alone
+  CHECK(r["duration_s"].get<double>() > r["min_duration_s"].get<double>());
+  // 4 V over 100 Ω would drive 40 mA: the 20 mA compliance stops the sweep.
+  CHECK(r["peak"]["current_a"].get<double>() == Approx(0.02));
+  CHECK(r["peak"]["supply_v"].get<double>() == Approx(4.0));
+  CHECK(r["peak"]["power_w"].get<double>() == Approx(1.5 * 0.02));  // vf_max_v default 1.5 V
+  CHECK(r["peak"]["reverse_v"].get<double>() == Approx(5.0));
+  std::map<std::string, Json> limits;
+  for (const auto& l : r["limits"]) limits[l["limit"]] = l;
+  CHECK(limits.at("current_limit_a")["binds"] == true);
+  CHECK(limits.at("max_reverse_v")["binds"] == true);
+  CHECK(limits.at("max_supply_v")["binds"] == false);
+  CHECK(limits.at("max_power_w")["binds"] == false);
+  CHECK(b.result("job.list", Json::object())["jobs"].empty());  // nothing queued
+
+  // The same refusal as a submit, with the limit named.
+  Json too_high = plan;
+  too_high["sweep"]["stop"] = 12.0;
+  const Json refused = b.client().request("plan.check", {{"plan", too_high}});
+  CHECK(refused["error"]["code"] == -32002);
+  CHECK(refused["error"]["data"]["limit"] == "max_supply_v");
+
+  // And from the CLI.
+  std::ofstream(b.dir() / "plan.jsonc") << plan.dump(2);
+  const auto cli = b.junco({"submit", (b.dir() / "plan.jsonc").string(), "--dry-run"});
+  INFO(cli.out << cli.err);
+  CHECK(cli.status == 0);
+  CHECK(cli.out.find("2 part(s) x 43 readings = 86 readings") != std::string::npos);
+  CHECK(cli.out.find("BINDS: the supply's compliance") != std::string::npos);
+  CHECK(cli.out.find("nothing queued (dry run)") != std::string::npos);
+  CHECK(b.result("job.list", Json::object())["jobs"].empty());
 }

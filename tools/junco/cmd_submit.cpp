@@ -9,7 +9,7 @@
 namespace junco::cli {
 namespace {
 
-const char* const usage = R"(usage: junco submit PLAN.jsonc [--watch] [--socket PATH]
+const char* const usage = R"(usage: junco submit PLAN.jsonc [--watch | --dry-run] [--socket PATH]
 
 Sends a plan to juncod, which checks it against the bench's safety limits
 and queues it as a job. Prints the job id (alone on its line, so scripts can
@@ -30,10 +30,14 @@ PLAN.jsonc is JSON with // and /* */ comments allowed, for example:
 The full format (ac sweeps, averaging, compliance) is in docs/daemon-core.md.
 
 options:
+  --dry-run      check the plan as a submit would and show what it would do
+                 on this bench (readings, duration, peak supply voltage,
+                 current and power, which safety limits bind); queue nothing
   --watch        follow the job until it ends (as junco watch)
   --socket PATH  juncod's socket (see junco status --help)
 
-exit status: 0 queued (with --watch: and done); 1 daemon error; 2 bad file or refused plan.)";
+exit status: 0 queued (with --watch: and done; with --dry-run: the plan
+would be accepted); 1 daemon error; 2 bad file or refused plan.)";
 
 Json read_plan(const std::string& path) {
   std::ifstream in(path);
@@ -47,13 +51,40 @@ Json read_plan(const std::string& path) {
   }
 }
 
+// What plan.check said, for people.
+void print_dry_run(const std::string& file, const Json& r) {
+  std::printf("%s: %ld part(s) x %ld readings = %ld readings\n", file.c_str(), r.value("parts", 0L), r.value("points_per_part", 0L),
+              r.value("points_total", 0L));
+  std::printf("duration   about %.2f h (settle times alone %.2f h)\n", r.value("duration_s", 0.0) / 3600.0,
+              r.value("min_duration_s", 0.0) / 3600.0);
+  const Json& peak = r["peak"];
+  std::printf("peak       supply %s, current %s, power in the part <= %s", format_si(peak.value("supply_v", 0.0), "V").c_str(),
+              format_si(peak.value("current_a", 0.0), "A").c_str(), format_si(peak.value("power_w", 0.0), "W").c_str());
+  if (peak.value("reverse_v", 0.0) > 0) std::printf(", reverse %s", format_si(peak.value("reverse_v", 0.0), "V").c_str());
+  std::printf("\nlimits\n");
+  for (const auto& l : r["limits"]) {
+    const double limit = l.value("limit_value", 0.0), used = l.value("plan_value", 0.0);
+    const std::string unit = l.value("unit", "");
+    std::printf("  %-16s %-10s plan %-10s %3.0f %%  %s%s\n", l.value("limit", "").c_str(), format_si(limit, unit).c_str(),
+                format_si(used, unit).c_str(), limit > 0 ? 100.0 * used / limit : 0.0, l.value("binds", false) ? "BINDS: " : "",
+                l.value("note", "").c_str());
+  }
+  std::printf("nothing queued (dry run)\n");
+}
+
 int run(std::vector<std::string> args) {
   return guarded("submit", [&] {
     const auto socket = take_socket_option(args);
     const bool watch = take_flag(args, "--watch");
+    const bool dry_run = take_flag(args, "--dry-run");
     if (args.size() != 1) throw std::invalid_argument("expected one plan file");
+    if (watch && dry_run) throw std::invalid_argument("--dry-run queues nothing to --watch; give one of them");
     const Json plan = read_plan(args[0]);
     RpcClient client(socket);
+    if (dry_run) {
+      print_dry_run(args[0], client.call("plan.check", Json{{"plan", plan}}));
+      return exit_ok;
+    }
     const Json r = client.call("job.submit", Json{{"plan", plan}});
     const long job = r.value("job_id", 0L);
     std::printf("%ld\n", job);

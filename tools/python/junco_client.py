@@ -718,4 +718,17 @@ class Client:
         client's), ConnectionError when the connection is lost.
         """
         return self._method('part.transfer', timeout_s, part_id=part_id, run_id=run_id, ac_sigma_db=ac_sigma_db, cj_f=cj_f, max_signal_ratio=max_signal_ratio, ac_floor_v=ac_floor_v)
+
+    def plan_check(self, *, plan: Dict[str, Any], timeout_s: Optional[float] = None) -> Dict[str, Any]:
+        """`plan.check`: A dry run: checks a plan exactly as job.submit does and says what it would do on this bench, without queuing it. Refused: -32002 plan_refused naming the limit; malformed: -32602.
+
+        Params:
+            plan (Dict[str, Any], required): the plan (docs/daemon-core.md)
+
+        Returns the result object: points_per_part, points_total, parts, min_duration_s, duration_s,
+        peak, limits.
+        Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
+        client's), ConnectionError when the connection is lost.
+        """
+        return self._method('plan.check', timeout_s, plan=plan)
     # ---- END GENERATED WRAPPERS ----

@@ -1,0 +1,71 @@
+#include "daemon/plan_estimate.hpp"
+
+#include <algorithm>
+#include <cmath>
+
+namespace junco::daemon {
+
+namespace {
+
+// Instrument exchanges per reading, as the executor takes them
+// (daemon/executor.cpp): set the supply, read V and I (× average) and the
+// limit state; a current-targeted step corrects the supply ~2 times on
+// average (at most 5); an AC reading sets the frequency and reads two levels.
+double exchanges_per_dc(const Plan& p) {
+  const double per_read = 1 + 2.0 * p.sweep.average + 1;
+  return p.sweep.mode == SweepMode::current ? 2.0 * per_read : per_read;
+}
+constexpr double kExchangesPerAc = 3;
+
+}  // namespace
+
+PlanEstimate estimate_plan(const Plan& p, const Config& c) {
+  PlanEstimate e;
+  const auto& lim = c.safety;
+  const SweepSpec& s = p.sweep;
+  const double n_ac = p.ac ? static_cast<double>(p.ac->freqs_hz.size()) : 0.0;
+  const double n_off = p.ac && p.ac->off_state ? static_cast<double>(p.ac->off_state->freqs_hz.size()) : 0.0;
+  const double n_rev = static_cast<double>(p.reverse_v.size());
+  const double parts = static_cast<double>(p.parts.size());
+  e.points_per_part = static_cast<long>(s.count * (1 + n_ac) + n_rev * (1 + n_off));
+  e.points_total = e.points_per_part * static_cast<long>(p.parts.size());
+  e.min_duration_s = min_duration_s(p);
+  const double exchanges_per_part = s.count * (exchanges_per_dc(p) + n_ac * kExchangesPerAc) + n_rev * (4 + n_off * kExchangesPerAc) + 8;
+  e.duration_s = e.min_duration_s + parts * exchanges_per_part * kExchangeS;
+
+  const double r_total = c.fixture.bias_resistor_ohm + c.fixture.dc_return_ohm;
+  const double i_lim = compliance_a(p, c);
+  const double hi = std::max(s.start, s.stop);
+  if (s.mode == SweepMode::voltage) {
+    e.peak_supply_v = hi;
+    e.peak_current_a = r_total > 0 ? std::min(i_lim, hi / r_total) : i_lim;
+    e.peak_power_w = std::min(hi, p.vf_max_v) * e.peak_current_a;
+  } else {
+    e.peak_current_a = hi;
+    e.peak_supply_v = std::min(lim.max_supply_v, hi * r_total + p.vf_max_v);  // the executor clamps at the limit
+    e.peak_power_w = p.vf_max_v * hi;
+  }
+  for (double r : p.reverse_v) e.peak_reverse_v = std::max(e.peak_reverse_v, r);
+
+  // A sweep by voltage reaches the compliance when V/R passes it: the sweep
+  // stops going up there (the reading is flagged and left out of the fit).
+  const bool compliance_stops = s.mode == SweepMode::voltage && r_total > 0 && hi / r_total > i_lim;
+  e.limits.push_back({"current_limit_a", lim.current_limit_a, s.mode == SweepMode::current ? hi : i_lim, "A",
+                      compliance_stops || (s.mode == SweepMode::current ? hi : i_lim) >= lim.current_limit_a * 0.999,
+                      compliance_stops ? "the supply's compliance (" + std::to_string(i_lim) + " A) will stop the sweep before its end"
+                                       : "the compliance programmed before the output goes on"});
+  const bool supply_clamped = s.mode == SweepMode::current && hi * r_total + p.vf_max_v > lim.max_supply_v;
+  e.limits.push_back({"max_supply_v", lim.max_supply_v, e.peak_supply_v, "V", supply_clamped || e.peak_supply_v >= lim.max_supply_v * 0.999,
+                      supply_clamped ? "a part with a high forward voltage may not reach the top current: the supply stops at the limit"
+                                     : "the highest voltage programmed"});
+  e.limits.push_back({"max_power_w", lim.max_power_w, e.peak_power_w, "W", e.peak_power_w >= lim.max_power_w * 0.999,
+                      "bound on the power in the part (vf_max_v × current); a reading above the limit stops the sweep"});
+  if (!p.reverse_v.empty())
+    e.limits.push_back({"max_reverse_v", lim.max_reverse_v, e.peak_reverse_v, "V", e.peak_reverse_v >= lim.max_reverse_v * 0.999,
+                        "the highest reverse bias"});
+  e.limits.push_back({"max_job_s", lim.max_job_s, e.duration_s, "s", e.duration_s >= lim.max_job_s,
+                      e.duration_s >= lim.max_job_s ? "the job will likely be stopped by the limit before its end" : "the whole job, estimated"});
+  return e;
+}
+
+}  // namespace junco::daemon
