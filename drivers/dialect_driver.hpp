@@ -20,6 +20,9 @@ class DialectDriver final : public Source, public Meter, public Scanner, public 
 
   Identity identify() override;
   void reset() override;
+  // *CLS and SYST:ERR? (ScpiSession::clear_error_queue), with retries; only
+  // when the dialect drains errors in some operation (it has an error queue).
+  std::vector<std::string> clear_errors() override;
 
   // Source
   void set_voltage_v(double volts) override;
@@ -66,6 +69,7 @@ class DialectDriver final : public Source, public Meter, public Scanner, public 
   TransportOptions transport_options_;
   std::unique_ptr<ScpiSession> session_;
   bool needs_reconnect_ = false;
+  bool has_error_queue_ = false;  // some operation drains SYST:ERR?
 };
 
 }  // namespace junco::drivers
