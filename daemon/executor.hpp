@@ -5,8 +5,12 @@
 //   outputs off, scanner open → connect slot → current limit → voltage 0 →
 //   output on → steps … → outputs off, scanner open
 // and make_safe() again at the end of the job, on any fault, on cancel,
-// pause, timeout and shutdown. Transient driver faults are retried per
-// reading (kPointAttempts); a persistent fault pauses the job with the error.
+// pause, timeout and shutdown. Driver faults are retried per reading
+// (kPointAttempts) unless permanent (config, SCPI command error), make-safe
+// steps per step (kMakeSafeAttempts, bench.hpp); a persistent fault pauses
+// the job with the error. Error queues are cleared at bench open and before
+// each job. A part's fit and its run's end are one transaction, and runs an
+// older juncod left done without a fit are fitted before any job runs.
 // When make_safe() cannot reach every instrument (one stopped answering), the
 // bench is "not known safe" and make_safe() is retried every
 // kMakeSafeRetry while no job runs, until it succeeds. A store that cannot

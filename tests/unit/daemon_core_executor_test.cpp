@@ -790,3 +790,29 @@ TEST_CASE("a run a previous daemon marked done without its fit is fitted at star
   CHECK(j["state"] == "done");
   CHECK(j["error"].is_null());
 }
+
+TEST_CASE("a store that cannot keep an instrument's identity is logged as a storage failure, not as a failed *IDN?") {
+  TempDir dir;
+  const Config cfg = config_in(dir.path);
+  { Store s(cfg.paths.database); }  // schema in place
+  {
+    // Every write to instruments fails as a full disk would make it fail.
+    sqlite3* db = nullptr;
+    REQUIRE(sqlite3_open(cfg.paths.database.c_str(), &db) == SQLITE_OK);
+    REQUIRE(sqlite3_exec(db, "CREATE TRIGGER full_disk BEFORE INSERT ON instruments BEGIN SELECT RAISE(ABORT, 'database or disk is full'); END",
+                         nullptr, nullptr, nullptr) == SQLITE_OK);
+    sqlite3_close(db);
+  }
+  FakeLab lab;
+  LoggedService ls(cfg, lab);
+  const auto lines = ls.snapshot();
+  bool storage_line = false;
+  for (const auto& line : lines) {
+    INFO(line);
+    CHECK(line.find("*IDN? failed") == std::string::npos);  // the instrument answered
+    if (line.find("bench: source identified as fake SRC, but storing its identity failed: storage: ") != std::string::npos &&
+        line.find("database or disk is full") != std::string::npos)
+      storage_line = true;
+  }
+  CHECK(storage_line);
+}
