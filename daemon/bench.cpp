@@ -1,6 +1,10 @@
 #include "daemon/bench.hpp"
 
+#include "drivers/errors.hpp"
 #include "drivers/factory.hpp"
+
+#include <chrono>
+#include <thread>
 
 namespace junco::daemon {
 
@@ -16,16 +20,33 @@ drivers::InstrumentSpec spec_of(const InstrumentConfig& ic) {
   return s;
 }
 
+// One make-safe step, retried while the instrument reports an error of its
+// own (see kMakeSafeAttempts); the final failure is appended to `errors`.
 template <typename F>
-void attempt(std::string& errors, const char* what, F&& f) noexcept {
-  try {
-    f();
-  } catch (const std::exception& e) {
+void attempt(std::string& errors, const std::function<void(std::string_view)>& log, const char* what, F&& f) noexcept {
+  auto fail = [&](const std::string& why) {
     if (!errors.empty()) errors += "; ";
-    errors += std::string(what) + ": " + e.what();
-  } catch (...) {
-    if (!errors.empty()) errors += "; ";
-    errors += std::string(what) + ": unknown failure";
+    errors += std::string(what) + ": " + why;
+  };
+  for (int n = 1;; ++n) {
+    try {
+      f();
+      if (n > 1 && log) log(std::string("bench: make-safe step '") + what + "' succeeded on attempt " + std::to_string(n));
+      return;
+    } catch (const drivers::DriverError& e) {
+      const bool again = !e.transient() && !e.permanent() && n < kMakeSafeAttempts;
+      if (!again) return fail(e.what() + (n > 1 ? " (after " + std::to_string(n) + " attempts)" : std::string()));
+      try {
+        if (log) log(std::string("bench: make-safe step '") + what + "' failed (" + e.what() + "); retrying, attempt " + std::to_string(n + 1) +
+                     " of " + std::to_string(kMakeSafeAttempts));
+      } catch (...) {
+      }
+      std::this_thread::sleep_for(std::chrono::milliseconds(50 * n));
+    } catch (const std::exception& e) {
+      return fail(e.what());
+    } catch (...) {
+      return fail("unknown failure");
+    }
   }
 }
 
@@ -34,11 +55,42 @@ void attempt(std::string& errors, const char* what, F&& f) noexcept {
 std::string Bench::make_safe() noexcept {
   std::string errors;
   if (source) {
-    attempt(errors, "source output off", [&] { source->set_output(false); });
-    attempt(errors, "source voltage 0", [&] { source->set_voltage_v(0.0); });
+    attempt(errors, log, "source output off", [&] { source->set_output(false); });
+    attempt(errors, log, "source voltage 0", [&] { source->set_voltage_v(0.0); });
   }
-  if (siggen) attempt(errors, "siggen output off", [&] { siggen->set_output(false); });
-  if (scanner) attempt(errors, "scanner open", [&] { scanner->disconnect_all(); });
+  if (siggen) attempt(errors, log, "siggen output off", [&] { siggen->set_output(false); });
+  if (scanner) attempt(errors, log, "scanner open", [&] { scanner->disconnect_all(); });
+  return errors;
+}
+
+std::string Bench::clear_errors(const std::string& when, Roles roles) noexcept {
+  std::string errors;
+  auto one = [&](const char* role, drivers::Instrument* inst) {
+    if (!inst) return;
+    try {
+      const auto found = inst->clear_errors();
+      if (found.empty() || !log) return;
+      std::string line = "warn: bench: " + std::string(role) + " had " + std::to_string(found.size()) + " stale error" +
+                         (found.size() == 1 ? "" : "s") + " in its queue " + when + ", cleared:";
+      for (const auto& f : found) line += " " + f;
+      log(line);
+    } catch (const std::exception& e) {
+      if (!errors.empty()) errors += "; ";
+      errors += std::string(role) + " clearing its error queue: " + e.what();
+    } catch (...) {
+      if (!errors.empty()) errors += "; ";
+      errors += std::string(role) + " clearing its error queue: unknown failure";
+    }
+  };
+  if (roles != Roles::others) {
+    one("source", source.get());
+    one("siggen", siggen.get());
+    one("scanner", scanner.get());
+  }
+  if (roles != Roles::make_safe) {
+    one("meter", meter.get());
+    one("levelmeter", levelmeter.get());
+  }
   return errors;
 }
 

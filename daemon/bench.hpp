@@ -14,6 +14,13 @@
 
 namespace junco::daemon {
 
+// Attempts per make-safe step when the instrument reports an error of its
+// own (e.g. one stray -222 as the part ends). Timeouts and dropped links are
+// not retried again here: the driver already retried them (1 + max_retries,
+// reconnecting), so a mute instrument costs no more than before. Config and
+// SCPI command errors (-1xx) are never retried.
+inline constexpr int kMakeSafeAttempts = 3;
+
 struct Bench {
   std::unique_ptr<drivers::Source> source;
   std::unique_ptr<drivers::Meter> meter;
@@ -23,11 +30,24 @@ struct Bench {
   // Instruments of the config that could not be opened ("scanner: why");
   // a bench with any is incomplete: it can be made safe, never run a job.
   std::vector<std::string> missing;
+  // Where make_safe() and clear_errors() report retries and stale errors
+  // (one line each); may be empty.
+  std::function<void(std::string_view)> log;
 
   // Supply output off, generator output off, scanner open — in that order
   // (never switch relays with current flowing). Every step is attempted even
-  // when an earlier one fails; returns "" or the failures joined by "; ".
+  // when an earlier one fails, each up to kMakeSafeAttempts times (retries
+  // logged); returns "" or the failures joined by "; ".
   std::string make_safe() noexcept;
+  // Empties every instrument's error queue (Instrument::clear_errors) so an
+  // error someone else left there is not blamed on our next command. What
+  // was found is logged as a warning naming `when`; returns the failures
+  // ("" = all cleared), which the caller treats like any bench fault.
+  // At start the make-safe roles (source, siggen, scanner) are cleared just
+  // before make_safe() and the others after it, so that a mute meter cannot
+  // delay turning the supply off.
+  enum class Roles { all, make_safe, others };
+  std::string clear_errors(const std::string& when, Roles roles = Roles::all) noexcept;
 };
 
 // Opens every instrument of config.bench through drivers/factory.hpp, each

@@ -93,12 +93,17 @@ class CoreService final : public Service {
   CoreService(const Config& config, ServiceOptions options)
       : config_(config),
         log_(options.log ? std::move(options.log) : [](std::string_view line) { std::cerr << "juncod: " << line << std::endl; }),
-        store_(config_.paths.database),
+        open_bench_(options.open_bench ? std::move(options.open_bench) : BenchOpener(open_bench)),
+        // Outputs off before the store is opened: opening a huge database
+        // takes seconds and a damaged one throws, and neither may hold an
+        // output on (members are built in declaration order).
+        safe_start_(make_bench_safe_first(config_, open_bench_, log_)),
+        store_(open_store(config_, log_)),
         queue_(store_, events_),
-        executor_(config_, store_, queue_, events_, options.open_bench ? std::move(options.open_bench) : BenchOpener(open_bench), log_),
+        executor_(config_, store_, queue_, events_, open_bench_, log_),
         started_(std::chrono::steady_clock::now()) {
     log_("store: " + config_.paths.database.string() + " (schema version " + std::to_string(store_.schema_version()) + ")");
-    executor_.make_bench_safe_at_start();
+    executor_.adopt_safe_start(std::move(safe_start_));
     const auto [resumed, interrupted] = queue_.recover();
     if (resumed || interrupted)
       log_("recovered after restart: " + std::to_string(resumed) + " job(s) to resume, " + std::to_string(interrupted) + " interrupted");
@@ -459,9 +464,22 @@ class CoreService final : public Service {
                        Json{{"field", "format"}});
   }
 
+  // Opens the store; a failure is logged (the outputs are already off) and
+  // thrown on to the caller.
+  static Store open_store(const Config& config, const LogFn& log) {
+    try {
+      return Store(config.paths.database);
+    } catch (const StoreError& e) {
+      log(std::string("store: cannot open, stopping (outputs were turned off first): ") + e.what());
+      throw;
+    }
+  }
+
   Config config_;
   LogFn log_;
   LocalEventBus events_;
+  BenchOpener open_bench_;
+  SafeStart safe_start_;  // moved into the executor once the store is open
   Store store_;
   JobQueue queue_;
   Executor executor_;

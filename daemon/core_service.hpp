@@ -18,11 +18,14 @@ struct ServiceOptions {
   // Opens the instruments. Default: from config.bench through drivers/factory.hpp.
   // Tests pass in-process fakes here.
   std::function<std::unique_ptr<Bench>(const Config&)> open_bench;
-  // One line per message (no trailing newline). Default: stderr.
+  // One line per message (no trailing newline). Default: stderr. A line
+  // that starts with "warn: " is a warning (juncod logs it at level warn).
   std::function<void(std::string_view)> log;
 };
 
-// Opens (and migrates) the store, turns every output off, recovers jobs left
+// Turns every output off first (before the database is opened, so a damaged
+// or huge database never holds an output on), then opens (and migrates) the
+// store, recovers jobs left
 // running by a previous daemon (resumed or marked interrupted) and starts the
 // executor thread. Throws StoreError (daemon/store.hpp) if the database cannot
 // be opened; an unreachable bench is logged, not fatal (jobs wait for it).

@@ -8,7 +8,9 @@
 #include <chrono>
 #include <cmath>
 #include <cstdio>
+#include <cstdlib>
 #include <sstream>
+#include <thread>
 
 namespace junco::daemon {
 
@@ -37,6 +39,67 @@ double unix_time_s() {
 // Driver messages already name the error kind (drivers/errors.hpp).
 std::string describe(const drivers::DriverError& e) { return e.what(); }
 
+// Test hook (docs/daemon-core.md, "Fault points"): with the environment
+// variable JUNCOD_FAULT_POINT set to `name`, the executor logs that it
+// reached the point and holds there until the process is killed, so a test
+// can SIGKILL juncod at exactly that moment. Unset, this is one getenv.
+void fault_point(const char* name, const LogFn& log) {
+  static const char* const wanted = std::getenv("JUNCOD_FAULT_POINT");
+  if (!wanted || std::string_view(wanted) != name) return;
+  log(std::string("fault point ") + name + " reached: holding here until killed (JUNCOD_FAULT_POINT, tests only)");
+  for (;;) std::this_thread::sleep_for(std::chrono::hours(1));
+}
+
+// A run's fit, computed from its stored readings: the forward fit and, when
+// the run has off-state readings, the junction capacitance law. A fit that
+// throws comes back as status "failed" with the reason as its message, so
+// it is stored like any other outcome (a part is never left without one).
+struct RunFit {
+  fitting::FitResult fit;
+  std::optional<fitting::JunctionCapFit> cap;
+  Json cap_readings;
+};
+
+RunFit fit_run(const Config& cfg, double temp_k, const Json& fixture, const std::vector<PointRow>& points) {
+  RunFit out;
+  try {
+    fitting::FitOptions opt;
+    opt.temp_k = temp_k;
+    opt.accuracy = cfg.accuracy;
+    out.fit = fitting::fit_forward(dc_fit_points(points), opt);
+  } catch (const std::exception& e) {
+    out.fit = fitting::FitResult{};
+    out.fit.status = fitting::FitStatus::failed;
+    out.fit.temp_k = temp_k;
+    out.fit.message = std::string("fit failed: ") + e.what();
+    return out;
+  }
+  try {
+    out.cap = junction_cap_of_run(points, fixture, out.fit.usable() ? out.fit.rs_ohm.value : 0.0);
+    if (out.cap) out.cap_readings = off_state_readings_report(off_state_points(points), *out.cap);
+  } catch (const std::exception& e) {
+    out.cap.reset();
+    out.fit.warnings.push_back(std::string("junction capacitance not fitted: ") + e.what());
+  }
+  return out;
+}
+
+// One log line for a stored fit.
+std::string describe_fit(const RunFit& f) {
+  std::string line = std::string("fit ") + fitting::to_string(f.fit.status) + " on " + std::to_string(f.fit.points_used) + " points";
+  if (!f.fit.usable() && !f.fit.message.empty()) line += " (" + f.fit.message + ")";
+  if (f.cap) {
+    char buf[160];
+    if (f.cap->ok)
+      std::snprintf(buf, sizeof buf, "; CJO %.4g pF VJ %.3g V M %.3g from %zu off-state readings%s", f.cap->cj0_f.value * 1e12,
+                    f.cap->vj_v.value, f.cap->m.value, f.cap->points_used, f.cap->law_held ? " (VJ, M held)" : "");
+    else
+      std::snprintf(buf, sizeof buf, "; junction capacitance not fitted: %s", f.cap->message.c_str());
+    line += buf;
+  }
+  return line;
+}
+
 // Runs one job on an open bench; owns nothing, lives for one run_job() call.
 class JobRun {
  public:
@@ -59,16 +122,22 @@ class JobRun {
                        {"source_ohm", cfg_.fixture.source_ohm}, {"load_ohm", cfg_.fixture.load_ohm},
                        {"current_from", to_string(cfg_.fixture.current_from)}, {"stray_c_f", cfg_.fixture.stray_c_f}};
     const RunRow run = store_.ensure_run(job_id_, part_id, part.slot, fixture, plan_.temp_k);
-    if (run.state == "done") return;  // finished before a restart
     part_label_ = part.label;
     part_id_ = part_id;
     run_id_ = run.id;
+    if (run.state == "done") {  // finished before a restart
+      // A run marked done by an older juncod may lack its fit (it was stored
+      // after the run's end, in a separate transaction): fit it now.
+      for (const auto& orphan : store_.runs_without_fit(job_id_, true))
+        if (orphan.id == run.id) fit_and_finish(part_id, run.id, fixture);
+      return;
+    }
     const auto last = store_.last_seq(run.id);
     const std::size_t first = last ? static_cast<std::size_t>(*last + 1) : 0;
     stopped_high_ = store_.run_has_flag(run.id, kLimitFlags);
     if (first < steps_.size()) measure(part.slot, first);
-    store_.finish_run(run.id, "done");
-    fit_part(part_id, run.id, fixture);
+    fault_point("before_run_end", log_);
+    fit_and_finish(part_id, run.id, fixture);
   }
 
   void measure(int slot, std::size_t first) {
@@ -135,7 +204,8 @@ class JobRun {
         if (attempt > 1) p.flags |= flag_retried;
         return p;
       } catch (const drivers::DriverError& e) {
-        const bool retry = e.kind() != drivers::ErrorKind::config && attempt < kPointAttempts;
+        // A command error (-1xx) or a config error comes back the same every time.
+        const bool retry = !e.permanent() && attempt < kPointAttempts;
         log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " + describe(e) +
              (retry ? " (retrying, attempt " + std::to_string(attempt) + ")" : ""));
         if (!retry)
@@ -289,7 +359,7 @@ class JobRun {
         f();
         return;
       } catch (const drivers::DriverError& e) {
-        if (e.kind() == drivers::ErrorKind::config || attempt >= kPointAttempts)
+        if (e.permanent() || attempt >= kPointAttempts)
           throw JobStop{JobStop::Why::fault, describe(e) + " (part " + part_label_ + ")"};
         queue_.sleep_for(std::chrono::milliseconds(50 * attempt));
       }
@@ -316,32 +386,14 @@ class JobRun {
                      {{"job_id", job_id_}, {"points_done", points_done_}, {"points_total", points_total_}, {"eta_s", eta}, {"part", part_label_}}});
   }
 
-  void fit_part(Id part_id, Id run_id, const Json& fixture) {
-    const std::vector<PointRow> points = store_.points(run_id);
-    const std::vector<fitting::IvPoint> pts = dc_fit_points(points);
-    try {
-      fitting::FitOptions opt;
-      opt.temp_k = plan_.temp_k;
-      opt.accuracy = cfg_.accuracy;
-      const auto fit = fitting::fit_forward(pts, opt);
-      const auto cap = junction_cap_of_run(points, fixture, fit.usable() ? fit.rs_ohm.value : 0.0);
-      store_.insert_fit(part_id, run_id, fit, cap ? &*cap : nullptr,
-                        cap ? off_state_readings_report(off_state_points(points), *cap) : Json());
-      std::string line = "job " + std::to_string(job_id_) + " part " + part_label_ + ": fit " + fitting::to_string(fit.status) +
-                         " on " + std::to_string(fit.points_used) + " points";
-      if (cap) {
-        char buf[160];
-        if (cap->ok)
-          std::snprintf(buf, sizeof buf, "; CJO %.4g pF VJ %.3g V M %.3g from %zu off-state readings%s", cap->cj0_f.value * 1e12,
-                        cap->vj_v.value, cap->m.value, cap->points_used, cap->law_held ? " (VJ, M held)" : "");
-        else
-          std::snprintf(buf, sizeof buf, "; junction capacitance not fitted: %s", cap->message.c_str());
-        line += buf;
-      }
-      log_(line);
-    } catch (const std::exception& e) {
-      log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": fit failed: " + e.what());
-    }
+  // The run's fit and its end, one transaction (Store::finish_run_with_fit):
+  // a kill leaves the run either done with its fit or not done, and a run
+  // not done is fitted when the resumed job reaches it. A failed fit is
+  // stored with its reason; a StoreError goes up (the job pauses).
+  void fit_and_finish(Id part_id, Id run_id, const Json& fixture) {
+    const RunFit f = fit_run(cfg_, plan_.temp_k, fixture, store_.points(run_id));
+    store_.finish_run_with_fit(part_id, run_id, f.fit, f.cap ? &*f.cap : nullptr, f.cap ? f.cap_readings : Json());
+    log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " + describe_fit(f));
   }
 
   const Config& cfg_;
@@ -373,16 +425,46 @@ Executor::Executor(const Config& config, Store& store, JobQueue& queue, EventBus
 
 Executor::~Executor() { stop(); }
 
-void Executor::make_bench_safe_at_start() {
-  if (!ensure_bench()) {
-    unsafe_ = true;  // a previous daemon may have left an output on: retried by the executor thread
+SafeStart make_bench_safe_first(const Config& config, const BenchOpener& open, const LogFn& log) {
+  SafeStart out;
+  try {
+    out.bench = open(config);
+    out.bench->log = log;
+  } catch (const std::exception& e) {
+    out.errors = std::string("cannot open: ") + e.what();
+    log("bench: " + out.errors + " (retrying every " + std::to_string(kMakeSafeRetry.count()) + " ms)");
+    return out;
+  }
+  // Stale errors first, so none is reported against OUTP OFF; a failure to
+  // clear is not fatal here (make_safe() reports the instrument's state).
+  const std::string clear_first = out.bench->clear_errors("at bench open", Bench::Roles::make_safe);
+  out.errors = out.bench->make_safe();
+  const std::string clear_then = out.bench->clear_errors("at bench open", Bench::Roles::others);
+  if (!clear_first.empty() || !clear_then.empty())
+    log("bench: could not clear every error queue at open: " + clear_first + (clear_first.empty() || clear_then.empty() ? "" : "; ") + clear_then);
+  std::string missing;
+  for (const auto& m : out.bench->missing) missing += (missing.empty() ? "" : "; ") + m;
+  if (!missing.empty()) out.errors = "cannot open: " + missing + (out.errors.empty() ? "" : "; also: " + out.errors);
+  if (out.errors.empty()) log("bench: every output off, scanner open");
+  else log("bench: could not make every instrument safe at start: " + out.errors + " (retrying every " +
+           std::to_string(kMakeSafeRetry.count()) + " ms)");
+  return out;
+}
+
+void Executor::adopt_safe_start(SafeStart start) {
+  if (!start.bench || !start.bench->missing.empty()) {
+    // What answered is off; the missing ones may still be on: the executor
+    // thread reopens and retries (a previous daemon may have left one on).
+    unsafe_ = true;
+    unsafe_errors_ = start.errors;
+    last_bench_problem_ = start.errors.empty() ? "" : "bench: " + start.errors;
     return;
   }
-  const std::string errors = bench_->make_safe();
-  note_safety(errors);
-  if (errors.empty()) log_("bench: every output off, scanner open");
-  else log_("bench: could not make every instrument safe at start: " + errors + " (retrying every " +
-            std::to_string(kMakeSafeRetry.count()) + " ms)");
+  bench_ = std::move(start.bench);
+  bench_->log = log_;
+  bench_open_ = true;
+  note_safety(start.errors);
+  identify();  // the error queues were cleared by make_bench_safe_first()
 }
 
 void Executor::start() {
@@ -407,6 +489,7 @@ bool Executor::ensure_bench() {
   if (bench_) return true;
   try {
     auto opened = open_(config_);
+    opened->log = log_;
     if (!opened->missing.empty()) {
       // Make safe what answers, then give the rest back: no job on a partial bench.
       const std::string errors = opened->make_safe();
@@ -418,9 +501,14 @@ bool Executor::ensure_bench() {
       return false;
     }
     bench_ = std::move(opened);
+    bench_->log = log_;
     bench_open_ = true;
     last_bench_problem_.clear();
     identify();
+    // An error someone else left in a queue must not be blamed on our first
+    // command; a failure here shows again at the next command, so only logged.
+    if (const std::string errors = bench_->clear_errors("at bench open"); !errors.empty())
+      log_("bench: could not clear every error queue at open: " + errors);
     return true;
   } catch (const std::exception& e) {
     log_bench_problem(std::string("bench: cannot open: ") + e.what());
@@ -473,16 +561,27 @@ void Executor::stop_job(Id id, const std::string& state, const std::optional<std
 }
 
 void Executor::identify() {
+  // Two different failures, worded apart: the instrument not answering
+  // *IDN?, and the store not keeping what it answered.
   auto one = [&](const char* role, drivers::Instrument* inst) {
     if (!inst) return;
+    drivers::Identity id;
     try {
-      const auto id = inst->identify();
-      const auto* ic = config_.instrument(role);
-      store_.record_instrument(role, ic ? ic->address : "", id.manufacturer, id.model, id.serial, id.firmware);
-      std::lock_guard lock(ident_mutex_);
-      identities_[role] = {{"manufacturer", id.manufacturer}, {"model", id.model}, {"serial", id.serial}, {"firmware", id.firmware}};
+      id = inst->identify();
     } catch (const std::exception& e) {
       log_(std::string("bench: ") + role + " *IDN? failed: " + e.what());
+      return;
+    }
+    {
+      std::lock_guard lock(ident_mutex_);
+      identities_[role] = {{"manufacturer", id.manufacturer}, {"model", id.model}, {"serial", id.serial}, {"firmware", id.firmware}};
+    }
+    try {
+      const auto* ic = config_.instrument(role);
+      store_.record_instrument(role, ic ? ic->address : "", id.manufacturer, id.model, id.serial, id.firmware);
+    } catch (const std::exception& e) {
+      log_(std::string("bench: ") + role + " identified as " + id.manufacturer + " " + id.model +
+           ", but storing its identity failed: storage: " + e.what());
     }
   };
   one("source", bench_->source.get());
@@ -492,7 +591,26 @@ void Executor::identify() {
   one("levelmeter", bench_->levelmeter.get());
 }
 
+// Runs a previous juncod marked done without storing their fit (before run
+// end and fit were one transaction) get it now, from their stored readings,
+// before any job runs. A storage failure is logged; the next start retries.
+void Executor::refit_runs_without_fit() {
+  try {
+    for (const auto& run : store_.runs_without_fit(std::nullopt, true)) {
+      const auto job = store_.job(run.job_id);
+      const double temp_k = std::isfinite(run.temp_k) ? run.temp_k : job ? job->plan.value("temp_k", 300.15) : 300.15;
+      const RunFit f = fit_run(config_, temp_k, run.fixture, store_.points(run.id));
+      store_.finish_run_with_fit(run.part_id, run.id, f.fit, f.cap ? &*f.cap : nullptr, f.cap ? f.cap_readings : Json());
+      log_("recovered: run " + std::to_string(run.id) + " of job " + std::to_string(run.job_id) +
+           " was done without its fit; fitted now: " + describe_fit(f));
+    }
+  } catch (const std::exception& e) {
+    log_(std::string("recovering fits of done runs failed: ") + e.what());
+  }
+}
+
 void Executor::loop() {
+  refit_runs_without_fit();
   for (;;) {
     // While the bench is not known safe, wake every kMakeSafeRetry to try again.
     const auto id = unsafe_ ? queue_.wait_next_for(kMakeSafeRetry) : queue_.wait_next();
@@ -538,10 +656,24 @@ void Executor::run_job(Id id) {
        " points already committed)");
   JobRun run(config_, store_, queue_, events_, *bench_, log_, id, plan, row->points_done, row->points_total);
   try {
+    // Errors someone else left queued would be reported against our commands.
+    if (const std::string errors = bench_->clear_errors("before job " + std::to_string(id)); !errors.empty())
+      throw JobStop{JobStop::Why::fault, "clearing the instruments' error queues: " + errors};
     run.run_all_parts();
     const std::string errors = bench_->make_safe();
     note_safety(errors);
-    stop_job(id, "done", errors.empty() ? std::optional<std::string>() : "finished, but: " + errors);
+    // Done means every part has its fit (a failed one with its reason); by
+    // construction it has, checked here so a lapse can never pass as done.
+    std::string unfitted;
+    for (const auto& r : store_.runs_without_fit(id, false)) unfitted += (unfitted.empty() ? "" : ", ") + std::to_string(r.id);
+    if (!unfitted.empty()) {
+      const std::string msg = "runs " + unfitted + " have readings but no fit";
+      log_("job " + std::to_string(id) + ": failed: " + msg);
+      stop_job(id, "failed", msg);
+      return;
+    }
+    // "" clears a message left from before (paused by request, restarted …).
+    stop_job(id, "done", errors.empty() ? std::string() : "finished, but: " + errors);
     log_("job " + std::to_string(id) + ": done");
   } catch (const JobStop& stop) {
     const std::string errors = bench_->make_safe();

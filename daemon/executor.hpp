@@ -5,8 +5,12 @@
 //   outputs off, scanner open → connect slot → current limit → voltage 0 →
 //   output on → steps … → outputs off, scanner open
 // and make_safe() again at the end of the job, on any fault, on cancel,
-// pause, timeout and shutdown. Transient driver faults are retried per
-// reading (kPointAttempts); a persistent fault pauses the job with the error.
+// pause, timeout and shutdown. Driver faults are retried per reading
+// (kPointAttempts) unless permanent (config, SCPI command error), make-safe
+// steps per step (kMakeSafeAttempts, bench.hpp); a persistent fault pauses
+// the job with the error. Error queues are cleared at bench open and before
+// each job. A part's fit and its run's end are one transaction, and runs an
+// older juncod left done without a fit are fitted before any job runs.
 // When make_safe() cannot reach every instrument (one stopped answering), the
 // bench is "not known safe" and make_safe() is retried every
 // kMakeSafeRetry while no job runs, until it succeeds. A store that cannot
@@ -36,6 +40,15 @@ inline constexpr std::chrono::milliseconds kMakeSafeRetry{500};
 using BenchOpener = std::function<std::unique_ptr<Bench>(const Config&)>;
 using LogFn = std::function<void(std::string_view)>;
 
+// The first thing juncod does, before the database is opened (a damaged or
+// huge database must never hold an output on): open the bench and turn every
+// output off. Needs no store; Executor::adopt_safe_start() takes the result.
+struct SafeStart {
+  std::unique_ptr<Bench> bench;  // null when it could not be opened at all
+  std::string errors;            // "" = every output known off
+};
+SafeStart make_bench_safe_first(const Config& config, const BenchOpener& open, const LogFn& log);
+
 class Executor {
  public:
   Executor(const Config& config, Store& store, JobQueue& queue, EventBus& events, BenchOpener open, LogFn log);
@@ -43,9 +56,11 @@ class Executor {
   Executor(const Executor&) = delete;
   Executor& operator=(const Executor&) = delete;
 
-  // Opens the bench (if reachable), records the instruments' *IDN? and turns
-  // every output off. Runs on the caller's thread before start().
-  void make_bench_safe_at_start();
+  // Takes the bench make_bench_safe_first() opened and made safe: records
+  // the instruments' *IDN? (now that the store is open) and clears their
+  // error queues; a bench not known safe or incomplete is retried by the
+  // executor thread. Runs on the caller's thread before start().
+  void adopt_safe_start(SafeStart start);
   void start();
   // Stops the running job at the next safe point, outputs off; joins.
   void stop();
@@ -62,6 +77,7 @@ class Executor {
   bool ensure_bench();
   void drop_bench();
   void identify();
+  void refit_runs_without_fit();
   // Records the outcome of a make_safe(): "" = safe, else not known safe.
   void note_safety(const std::string& errors);
   void retry_make_safe();

@@ -35,7 +35,7 @@ bool JobQueue::set_stop_state(Id id, const std::string& state, const std::option
     set_state(id, state, error);
     return true;
   } catch (const StoreError& e) {
-    const std::string held = (error ? *error + "; " : "") + "job state not saved: storage: " + e.what();
+    const std::string held = (error && !error->empty() ? *error + "; " : "") + "job state not saved: storage: " + e.what();
     store_.hold_job_state(id, state, held);
     publish_state(id, state, held);
     return false;

@@ -156,7 +156,10 @@ int main(int argc, char** argv) {
   std::unique_ptr<d::Service> service;
   try {
     d::ServiceOptions so;
-    so.log = [&logger](std::string_view line) { logger("info", line); };
+    so.log = [&logger](std::string_view line) {  // "warn: " marks a warning (core_service.hpp)
+      if (line.substr(0, 6) == "warn: ") logger("warn", line.substr(6));
+      else logger("info", line);
+    };
     service = d::make_service(config, std::move(so));
   } catch (const std::exception& e) {
     log("error", std::string("cannot start: ") + e.what());

@@ -441,7 +441,7 @@ std::vector<JobRow> Store::jobs(const std::optional<std::string>& state) {
 bool Store::set_job_state_if(Id id, const std::optional<std::string>& from, const std::string& state,
                              const std::optional<std::string>& error) {
   std::lock_guard lock(write_mutex_);
-  Stmt(*writer_, std::string("UPDATE jobs SET state = ?2, error = CASE WHEN ?3 THEN ?4 ELSE error END, updated_at = ") + kNow +
+  Stmt(*writer_, std::string("UPDATE jobs SET state = ?2, error = CASE WHEN ?3 THEN NULLIF(?4, '') ELSE error END, updated_at = ") + kNow +
                      ", started_at = CASE WHEN ?2 = 'running' AND started_at IS NULL THEN " + kNow +
                      " ELSE started_at END, finished_at = CASE WHEN ?2 IN ('done','failed','cancelled','interrupted') THEN " + kNow +
                      " ELSE finished_at END WHERE id = ?1 AND (?5 IS NULL OR state = ?5)")
@@ -569,8 +569,8 @@ std::vector<PointRow> Store::points(Id run_id) {
 
 // ---- fits ------------------------------------------------------------------
 
-Id Store::insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap,
-                     const Json& cap_readings) {
+Id Store::insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap,
+                         const Json& cap_readings) {
   Json excluded = Json::array();
   for (const auto& e : fit.excluded) excluded.push_back({{"index", e.index}, {"reason", e.reason}});
   Json detail = {{"parameter_names", fit.parameter_names}, {"correlation", Json::array()}, {"excluded", excluded}, {"iterations", fit.iterations}};
@@ -591,10 +591,7 @@ Id Store::insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const
       m = cap->m;
     }
   }
-  Id id = 0;
-  {
-    std::lock_guard lock(write_mutex_);
-    Stmt(*writer_, std::string("INSERT INTO fits(part_id, run_id, model, status, message, is_a, is_a_se, n, n_se, rs_ohm, rs_ohm_se, rsh_ohm, rsh_ohm_se,"
+  Stmt(*writer_, std::string("INSERT INTO fits(part_id, run_id, model, status, message, is_a, is_a_se, n, n_se, rs_ohm, rs_ohm_se, rsh_ohm, rsh_ohm_se,"
                                " temp_k, cost, rms_residual, points_used, warnings, detail, cj0_f, cj0_f_se, vj_v, vj_v_se, m, m_se, created_at)"
                                " VALUES (?, ?, 'forward', ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ") +
                        kNow + ")")
@@ -605,12 +602,50 @@ Id Store::insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const
         .bind(17, Json(fit.warnings).dump()).bind(18, detail.dump())
         .bind(19, cj0.value).bind(20, cj0.std_error).bind(21, vj.value).bind(22, vj.std_error).bind(23, m.value).bind(24, m.std_error)
         .run();
-    id = sqlite3_last_insert_rowid(writer_->db);
-  }
+  return sqlite3_last_insert_rowid(writer_->db);
+}
+
+void Store::forget_cached_fit(Id part_id) {
   std::lock_guard lock(fit_cache_mutex_);
   ++fit_generation_;
   fit_cache_.erase(part_id);
+}
+
+Id Store::insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap,
+                     const Json& cap_readings) {
+  Id id = 0;
+  {
+    std::lock_guard lock(write_mutex_);
+    id = insert_fit_row(part_id, run_id, fit, cap, cap_readings);
+  }
+  forget_cached_fit(part_id);
   return id;
+}
+
+Id Store::finish_run_with_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap,
+                              const Json& cap_readings) {
+  Id id = 0;
+  {
+    std::lock_guard lock(write_mutex_);
+    Transaction tx(writer_->db);
+    id = insert_fit_row(part_id, run_id, fit, cap, cap_readings);
+    Stmt(*writer_, std::string("UPDATE runs SET state = 'done', finished_at = COALESCE(finished_at, ") + kNow + ") WHERE id = ?").bind(1, run_id).run();
+    tx.commit();
+  }
+  forget_cached_fit(part_id);
+  return id;
+}
+
+std::vector<RunRow> Store::runs_without_fit(std::optional<Id> job_id, bool done_only) {
+  auto r = reader();
+  auto st = r(std::string(kRunColumns) +
+              "WHERE (?1 IS NULL OR job_id = ?1) AND NOT EXISTS (SELECT 1 FROM fits WHERE fits.run_id = runs.id)"
+              " AND (CASE WHEN ?2 THEN state = 'done' ELSE EXISTS (SELECT 1 FROM points WHERE points.run_id = runs.id) END) ORDER BY id");
+  if (job_id) st.bind(1, *job_id);
+  st.bind(2, done_only ? 1 : 0);
+  std::vector<RunRow> out;
+  while (st.step()) out.push_back(run_row(st));
+  return out;
 }
 
 std::optional<Json> Store::latest_fit(Id part_id) {

@@ -138,7 +138,7 @@ class Store {
   // and restarts); 0 when it never ran.
   double seconds_since_first_start(Id id);
   std::vector<JobRow> jobs(const std::optional<std::string>& state);
-  // Sets state and error (nullopt = leave error unchanged); stamps started_at on
+  // Sets state and error (nullopt = leave error unchanged, "" = clear it); stamps started_at on
   // the first "running", finished_at on terminal states.
   void set_job_state(Id id, const std::string& state, const std::optional<std::string>& error = std::nullopt);
   // Atomically moves `from` → `to`; false when the job was not in `from`.
@@ -156,6 +156,15 @@ class Store {
   std::vector<RunRow> runs_of_part(Id part_id);
   std::vector<RunRow> runs_of_job(Id job_id);
   void finish_run(Id run_id, const std::string& state);
+  // The end of a run and its fit, one transaction: the fit row (a failed fit
+  // too, with its status and reason in message) and runs.state = 'done'.
+  // A kill at any moment leaves either both or neither, so a done run always
+  // has its fit. Returns the fit's id.
+  Id finish_run_with_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap = nullptr,
+                         const Json& cap_readings = Json());
+  // Runs without any fit row: state 'done' only (done_only), or every run
+  // with at least one reading. job_id: only that job's runs.
+  std::vector<RunRow> runs_without_fit(std::optional<Id> job_id, bool done_only);
   std::optional<long> last_seq(Id run_id);
   bool run_has_flag(Id run_id, int flag);
 
@@ -182,6 +191,9 @@ class Store {
   bool set_job_state_if(Id id, const std::optional<std::string>& from, const std::string& state,
                         const std::optional<std::string>& error);
   void apply_held(JobRow& row);
+  // INSERT INTO fits; the caller holds write_mutex_ (and its transaction).
+  Id insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap, const Json& cap_readings);
+  void forget_cached_fit(Id part_id);
 
   std::filesystem::path file_;
   std::unique_ptr<Conn> writer_;

@@ -27,6 +27,7 @@ DialectDriver::DialectDriver(InstrumentSpec spec, Dialect dialect)
   if (dialect_.write_terminator) transport_options_.write_terminator = *dialect_.write_terminator;
   if (dialect_.read_terminator) transport_options_.read_terminator = *dialect_.read_terminator;
   if (spec_.max_retries < 0) config_error("max_retries must be >= 0");
+  for (const auto& [name, op] : dialect_.operations) has_error_queue_ = has_error_queue_ || op.drain_errors;
   with_retries("open", [&] { ensure_session(); });
   // *IDN? always (IEEE 488.2 makes it mandatory): an instrument that does not
   // answer is not open, whether or not the dialect names a model.
@@ -135,7 +136,20 @@ DialectDriver::Outcome DialectDriver::run_once(const Operation& op, const Placeh
   Outcome out;
   if (!op.query.empty()) {
     group.push_back(expand_template(op.query, values));
-    out = read_reply(op, group.back());
+    try {
+      out = read_reply(op, group.back());
+    } catch (const DriverError& e) {
+      if (e.kind() != ErrorKind::timeout || !has_error_queue_) throw;
+      // An instrument that did not understand the query answers nothing and
+      // queues the reason (-113 for a mistyped header): report that at once,
+      // not a timeout retried until every attempt has waited out.
+      const auto queued = session_->error_after_timeout();
+      if (!queued) throw;
+      needs_reconnect_ = true;  // in case the reply was only late after all
+      throw DriverError(ErrorKind::instrument, queued->second + " after '" + group.back() + "' (which got no reply within " +
+                                                   std::to_string(spec_.reply_timeout.count()) + " ms)",
+                        queued->first);
+    }
   }
   if (op.drain_errors) {
     try {
@@ -172,6 +186,13 @@ Identity DialectDriver::identify() {
   Identity id;
   with_retries("identify", [&] { id = session_->identify(); });
   return id;
+}
+
+std::vector<std::string> DialectDriver::clear_errors() {
+  std::vector<std::string> found;
+  if (!has_error_queue_) return found;
+  with_retries("clear_errors", [&] { found = session_->clear_error_queue(); });
+  return found;
 }
 
 void DialectDriver::reset() {

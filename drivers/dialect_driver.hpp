@@ -21,6 +21,9 @@ class DialectDriver final : public Source, public Meter, public Scanner, public 
 
   Identity identify() override;
   void reset() override;
+  // *CLS and SYST:ERR? (ScpiSession::clear_error_queue), with retries; only
+  // when the dialect drains errors in some operation (it has an error queue).
+  std::vector<std::string> clear_errors() override;
 
   // Source
   void set_voltage_v(double volts) override;
@@ -68,6 +71,7 @@ class DialectDriver final : public Source, public Meter, public Scanner, public 
   std::unique_ptr<ScpiSession> session_;
   bool needs_reconnect_ = false;
   double current_limit_a_ = std::numeric_limits<double>::quiet_NaN();  // as last programmed
+  bool has_error_queue_ = false;  // some operation drains SYST:ERR?
 };
 
 }  // namespace junco::drivers

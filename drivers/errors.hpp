@@ -28,6 +28,12 @@ class DriverError : public std::runtime_error {
   bool transient() const {
     return kind_ == ErrorKind::timeout || kind_ == ErrorKind::disconnected || kind_ == ErrorKind::garbled;
   }
+  // SCPI-99 command errors (-100 … -199: syntax, undefined header, bad
+  // parameter type …) say the command text itself is wrong: sending it again
+  // gives the same error.
+  bool command_error() const { return kind_ == ErrorKind::instrument && scpi_code_ <= -100 && scpi_code_ >= -199; }
+  // Never worth a retry at any layer: bad configuration or a command error.
+  bool permanent() const { return kind_ == ErrorKind::config || command_error(); }
 
  private:
   ErrorKind kind_;

@@ -5,6 +5,7 @@
 #pragma once
 
 #include <string>
+#include <vector>
 
 namespace junco::drivers {
 
@@ -24,6 +25,11 @@ class Instrument {
   virtual Identity identify() = 0;
   // Puts the instrument in a known state (*RST / *CLS as the dialect says).
   virtual void reset() = 0;
+  // Empties the instrument's error queue so that an error left there by
+  // someone else is not blamed on our next command; returns the entries that
+  // were there ("-222,\"Data out of range\""), oldest first. Instruments
+  // without an error queue return nothing.
+  virtual std::vector<std::string> clear_errors() { return {}; }
 };
 
 // Bias supply. The daemon programs the current limit before output on.

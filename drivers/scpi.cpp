@@ -105,6 +105,43 @@ void ScpiSession::drain_errors() {
                                             std::to_string(options_.max_error_reads) + " reads");
 }
 
+std::vector<std::string> ScpiSession::clear_error_queue() {
+  std::vector<std::string> found;
+  auto read_all = [&] {
+    for (int reads = 0; reads < options_.max_error_reads; ++reads) {
+      std::string reply = query("SYST:ERR?");
+      ErrorEntryReply entry = parse_error_entry(reply);
+      if (entry.status != ParseStatus::ok) {
+        found.push_back("unreadable SYST:ERR? reply '" + reply.substr(0, 40) + "'");
+        return;  // *CLS below clears whatever it was
+      }
+      if (entry.code == 0) return;
+      found.push_back(std::to_string(entry.code) + ",\"" + entry.text + "\"");
+    }
+  };
+  read_all();
+  clear();
+  read_all();  // normally "0,..." at once; an instrument whose *CLS keeps the queue shows it here
+  return found;
+}
+
+std::optional<std::pair<int, std::string>> ScpiSession::error_after_timeout() {
+  // A live instrument answers SYST:ERR? at once; a short wait keeps the cost
+  // small when it is mute (the timeout then stands as it was).
+  constexpr std::chrono::milliseconds kErrorQueryWait{250};
+  command("SYST:ERR?");
+  std::string reply;
+  try {
+    reply = transport_->read_message(std::min(options_.reply_timeout, kErrorQueryWait));
+  } catch (const DriverError&) {
+    return std::nullopt;
+  }
+  log("<", reply);
+  ErrorEntryReply entry = parse_error_entry(reply);
+  if (entry.status != ParseStatus::ok || entry.code == 0) return std::nullopt;
+  return std::make_pair(entry.code, "instrument error " + std::to_string(entry.code) + ",\"" + entry.text + "\"");
+}
+
 void ScpiSession::reconnect() {
   log("#", "reconnect " + transport_->describe());
   transport_->reconnect();

@@ -10,8 +10,11 @@
 #include <chrono>
 #include <functional>
 #include <memory>
+#include <optional>
 #include <string>
 #include <string_view>
+#include <utility>
+#include <vector>
 
 namespace junco::drivers {
 
@@ -43,6 +46,18 @@ class ScpiSession {
   // Reads SYST:ERR? until "0,..." and throws DriverError(instrument) with
   // the first code and text found (and how many more there were).
   void drain_errors();
+  // Reads SYST:ERR? until "0,..." (at most max_error_reads) and returns the
+  // entries as "CODE,\"TEXT\"" without throwing for them; then *CLS and one
+  // more SYST:ERR? that must say 0 (the entries are read before *CLS so that
+  // they can be reported; *CLS then also clears an overflowed queue and the
+  // status bytes). Throws DriverError only when the link fails.
+  std::vector<std::string> clear_error_queue();
+  // After a query got no reply: one SYST:ERR?. An instrument that refused
+  // the query (a mistyped header queues -113 and answers nothing) says so
+  // here; returns its first entry's code and "instrument error CODE,\"TEXT\"",
+  // or nullopt when the queue is empty or the answer is not an error entry
+  // (the instrument may be mute, or the late reply may come in its place).
+  std::optional<std::pair<int, std::string>> error_after_timeout();
   // Reopens the link. Where stale replies may still be in flight (not TCP,
   // whose new connection starts clean) it resynchronises with *OPC?.
   void reconnect();

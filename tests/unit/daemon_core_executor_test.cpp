@@ -14,6 +14,7 @@
 #include <catch2/catch.hpp>
 
 #include <signal.h>
+#include <sqlite3.h>
 #include <sys/wait.h>
 #include <unistd.h>
 
@@ -47,6 +48,9 @@ struct FakeLab {
   int meter_fail_count = 0;    // how many consecutive failures then (huge = persistent)
   int meter_reads = 0;
   std::atomic<int> delay_ms{0};
+  std::atomic<bool> meter_mistyped{false};  // every voltage reading refused with -113 (a command error)
+  std::atomic<int> meter_mistyped_calls{0};
+  std::atomic<int> scanner_open_errors{0};  // disconnect_all calls still to fail with -222
   std::atomic<bool> source_mute{false};  // the supply stops answering: every call times out, nothing changes
   double gen_amplitude = 0;
   bool gen_on = false;
@@ -98,6 +102,11 @@ struct FakeMeter final : drv::Meter {
   void reset() override {}
   double measure_dc_voltage_v() override {
     if (int d = lab.delay_ms.load()) std::this_thread::sleep_for(std::chrono::milliseconds(d));
+    if (lab.meter_mistyped) {
+      ++lab.meter_mistyped_calls;
+      throw drv::DriverError(drv::ErrorKind::instrument,
+                             "instrument 'meter' (fake): measure_dc_voltage: instrument error: instrument error -113,\"Undefined header\"", -113);
+    }
     const int n = lab.meter_reads++;
     if (lab.meter_fail_after >= 0 && n >= lab.meter_fail_after && n < lab.meter_fail_after + lab.meter_fail_count)
       // Worded as the real drivers word it: the kind is already in the message.
@@ -119,7 +128,14 @@ struct FakeScanner final : drv::Scanner {
     lab.note(std::string("scanner.connect") + (lab.out_on ? " HOT" : ""));
     lab.slot = s;
   }
-  void disconnect_all() override { lab.note("scanner.open"); lab.slot = 0; }
+  void disconnect_all() override {
+    if (lab.scanner_open_errors > 0) {
+      --lab.scanner_open_errors;
+      throw drv::DriverError(drv::ErrorKind::instrument, "instrument 'scanner' (fake): disconnect_all: instrument error -222,\"Data out of range\"", -222);
+    }
+    lab.note("scanner.open");
+    lab.slot = 0;
+  }
 };
 
 // A generator and a two-channel level meter: off (reverse bias) the part
@@ -691,4 +707,112 @@ TEST_CASE("off-state readings: generator at its own amplitude at each reverse bi
   // The fit carries the capacitance report (two biases: the law held).
   const Json fit = svc->call("part.fit", {{"part_id", 1}}, kCaller);
   CHECK(fit["detail"]["junction_cap"]["law_held"] == true);
+}
+
+TEST_CASE("a command error (-113) is not retried: the job pauses after one attempt") {
+  TempDir dir;
+  FakeLab lab;
+  auto svc = make_service(config_in(dir.path), fake_options(lab));
+  lab.meter_mistyped = true;
+  const Id job = svc->call("job.submit", {{"plan", plan(10, 0.0, 1)}}, kCaller)["job_id"];
+  const Json j = wait_for_state(*svc, job, {"done", "paused"});
+  CHECK(j["state"] == "paused");
+  CHECK(j["error"].get<std::string>().find("-113") != std::string::npos);
+  CHECK(lab.meter_mistyped_calls == 1);  // kPointAttempts would have made it 4
+  CHECK_FALSE(lab.out_on);
+}
+
+TEST_CASE("make-safe steps are retried on an instrument error; one that persists still pauses the job") {
+  TempDir dir;
+  FakeLab lab;
+  LoggedService ls(config_in(dir.path), lab);
+  // Fails once at the first make-safe of the job (before the part), then works.
+  lab.scanner_open_errors = 1;
+  Id job = ls.svc->call("job.submit", {{"plan", plan(10, 0.0, 2)}}, kCaller)["job_id"];
+  CHECK(wait_for_state(*ls.svc, job, {"done", "paused"})["state"] == "done");
+  int retried = 0;
+  for (const auto& line : ls.snapshot()) retried += line.find("make-safe step 'scanner open' failed") != std::string::npos;
+  CHECK(retried == 1);
+
+  lab.scanner_open_errors = 1000;  // persistent: kMakeSafeAttempts each time, then the job pauses
+  job = ls.svc->call("job.submit", {{"plan", plan(10, 0.0, 2)}}, kCaller)["job_id"];
+  const Json j = wait_for_state(*ls.svc, job, {"done", "paused"});
+  CHECK(j["state"] == "paused");
+  CHECK(j["error"].get<std::string>().find("scanner open") != std::string::npos);
+  CHECK(j["error"].get<std::string>().find("(after 3 attempts)") != std::string::npos);
+  CHECK_FALSE(lab.out_on);
+  lab.scanner_open_errors = 0;
+}
+
+TEST_CASE("a run a previous daemon marked done without its fit is fitted at start; a job done keeps no old error") {
+  TempDir dir;
+  const Config cfg = config_in(dir.path);
+  {
+    // What an older juncod could leave: every reading, run and job done, no fit.
+    FakeLab lab;
+    auto svc = make_service(cfg, fake_options(lab));
+    const Id job = svc->call("job.submit", {{"plan", plan(30, 0.0, 1)}}, kCaller)["job_id"];
+    REQUIRE(wait_for_state(*svc, job, {"done", "paused"})["state"] == "done");
+  }
+  {
+    sqlite3* db = nullptr;
+    REQUIRE(sqlite3_open(cfg.paths.database.c_str(), &db) == SQLITE_OK);
+    REQUIRE(sqlite3_exec(db, "DELETE FROM fits; UPDATE jobs SET error = 'paused by request'", nullptr, nullptr, nullptr) == SQLITE_OK);
+    sqlite3_close(db);
+  }
+  FakeLab lab;
+  LoggedService ls(cfg, lab);
+  const auto until = std::chrono::steady_clock::now() + 20s;
+  Json fit;
+  for (;;) {
+    try {
+      fit = ls.svc->call("part.fit", {{"part_id", 1}}, kCaller);
+      break;
+    } catch (const RequestError&) {
+    }
+    REQUIRE(std::chrono::steady_clock::now() < until);
+    std::this_thread::sleep_for(10ms);
+  }
+  CHECK(fit["status"] == "converged");
+  CHECK(fit["run_id"] == 1);
+  bool logged = false;
+  for (const auto& line : ls.snapshot()) logged = logged || line.find("recovered: run 1 of job 1 was done without its fit") != std::string::npos;
+  CHECK(logged);
+
+  // A job resumed after a pause ends done with its error cleared.
+  lab.delay_ms = 1;
+  const Id job = ls.svc->call("job.submit", {{"plan", plan(100, 0.0, 1)}}, kCaller)["job_id"];
+  wait_for_state(*ls.svc, job, {"running"});
+  ls.svc->call("job.pause", {{"job_id", job}}, kCaller);
+  CHECK(wait_for_state(*ls.svc, job, {"paused", "done"})["error"] == "paused by request");
+  ls.svc->call("job.resume", {{"job_id", job}}, kCaller);
+  const Json j = wait_for_state(*ls.svc, job, {"done", "paused"});
+  CHECK(j["state"] == "done");
+  CHECK(j["error"].is_null());
+}
+
+TEST_CASE("a store that cannot keep an instrument's identity is logged as a storage failure, not as a failed *IDN?") {
+  TempDir dir;
+  const Config cfg = config_in(dir.path);
+  { Store s(cfg.paths.database); }  // schema in place
+  {
+    // Every write to instruments fails as a full disk would make it fail.
+    sqlite3* db = nullptr;
+    REQUIRE(sqlite3_open(cfg.paths.database.c_str(), &db) == SQLITE_OK);
+    REQUIRE(sqlite3_exec(db, "CREATE TRIGGER full_disk BEFORE INSERT ON instruments BEGIN SELECT RAISE(ABORT, 'database or disk is full'); END",
+                         nullptr, nullptr, nullptr) == SQLITE_OK);
+    sqlite3_close(db);
+  }
+  FakeLab lab;
+  LoggedService ls(cfg, lab);
+  const auto lines = ls.snapshot();
+  bool storage_line = false;
+  for (const auto& line : lines) {
+    INFO(line);
+    CHECK(line.find("*IDN? failed") == std::string::npos);  // the instrument answered
+    if (line.find("bench: source identified as fake SRC, but storing its identity failed: storage: ") != std::string::npos &&
+        line.find("database or disk is full") != std::string::npos)
+      storage_line = true;
+  }
+  CHECK(storage_line);
 }

@@ -3,6 +3,7 @@
 // SIGKILLed are all there when the file is opened again.
 #include "daemon/migrations.hpp"
 #include "daemon/store.hpp"
+#include "fitting/extract.hpp"
 
 #include "tests/support/db_rows.hpp"
 
@@ -314,4 +315,70 @@ TEST_CASE("a job state the store could not write is held in memory and served un
   s.set_job_state(a, "queued");
   CHECK(s.job(a)->state == "queued");
   CHECK(s.job(a)->persisted);
+}
+
+TEST_CASE("a run's end and its fit are one transaction: both or neither") {
+  TempDir dir;
+  const fs::path file = dir.path / "junco.db";
+  Store s(file);
+  const Id part = s.ensure_part(s.ensure_lot("QX-7"), "QX-7-01", 1);
+  const Id job = s.insert_job(plan_json(), 2, 1000, 42);
+  const RunRow run = s.ensure_run(job, part, 1, Json::object(), 300.15);
+  PointRow p;
+  p.run_id = run.id;
+  p.v = 0.61;
+  p.i_a = 1e-3;
+  s.insert_point(job, p);
+  CHECK(s.runs_without_fit(job, false).size() == 1);  // readings, no fit
+  CHECK(s.runs_without_fit(job, true).empty());       // not done yet
+
+  junco::fitting::FitResult fit;  // status insufficient: a stated outcome, stored like any other
+  fit.message = "2 usable points, 3 needed";
+  {
+    // The second statement of the transaction (the run's end) fails: the
+    // fit written just before it must not remain. (A trigger on a second
+    // connection makes the UPDATE fail; without one transaction the fit row
+    // would stay while the run is not done.)
+    sqlite3* db = nullptr;
+    REQUIRE(sqlite3_open(file.c_str(), &db) == SQLITE_OK);
+    REQUIRE(sqlite3_exec(db, "CREATE TRIGGER refuse_run_end BEFORE UPDATE ON runs BEGIN SELECT RAISE(ABORT, 'refused by test'); END",
+                         nullptr, nullptr, nullptr) == SQLITE_OK);
+    CHECK_THROWS_AS(s.finish_run_with_fit(part, run.id, fit), StoreError);
+    CHECK(count_rows(file, "SELECT COUNT(*) FROM fits") == 0);
+    CHECK(s.runs_of_job(job)[0].state == "running");
+    CHECK_FALSE(s.latest_fit(part).has_value());
+    REQUIRE(sqlite3_exec(db, "DROP TRIGGER refuse_run_end", nullptr, nullptr, nullptr) == SQLITE_OK);
+    sqlite3_close(db);
+  }
+  const Id fit_id = s.finish_run_with_fit(part, run.id, fit);
+  CHECK(s.runs_of_job(job)[0].state == "done");
+  CHECK_FALSE(s.runs_of_job(job)[0].finished_at.empty());
+  const auto stored = s.latest_fit(part);
+  REQUIRE(stored.has_value());
+  CHECK((*stored)["fit_id"] == fit_id);
+  CHECK((*stored)["status"] == "insufficient");
+  CHECK((*stored)["message"] == "2 usable points, 3 needed");
+  CHECK(s.runs_without_fit(job, false).empty());
+  CHECK(s.runs_without_fit(std::nullopt, true).empty());
+
+  // A database written before: run done, fit missing. Found for recovery.
+  const Id part2 = s.ensure_part(s.ensure_lot("QX-7"), "QX-7-02", 2);
+  const RunRow run2 = s.ensure_run(job, part2, 2, Json::object(), 300.15);
+  s.finish_run(run2.id, "done");
+  const auto orphans = s.runs_without_fit(std::nullopt, true);
+  REQUIRE(orphans.size() == 1);
+  CHECK(orphans[0].id == run2.id);
+}
+
+TEST_CASE("a job state set with an empty error clears the old message") {
+  TempDir dir;
+  Store s(dir.path / "junco.db");
+  const Id job = s.insert_job(plan_json(), 1, 1000, 42);
+  s.set_job_state(job, "paused", "paused by request");
+  CHECK(s.job(job)->error == "paused by request");
+  s.set_job_state(job, "queued");  // nullopt: kept
+  CHECK(s.job(job)->error == "paused by request");
+  s.set_job_state(job, "done", std::string());
+  CHECK(s.job(job)->error.empty());
+  CHECK(to_json(*s.job(job))["error"].is_null());
 }
