@@ -26,7 +26,7 @@ check_options() {  # PAGE HELP-COMMAND...
   local n=0
   for opt in $(options_of "$@"); do
     n=$((n + 1))
-    grep -qE -- "${opt}([^a-z0-9-]|\$)" <<<"$text" || fail "$page does not mention $opt (from: ${*#$bin/} --help)"
+    grep -qE -- "${opt}([^a-z0-9-]|\$)" <<<"$text" || fail "$page does not mention $opt (from: ${*#"$bin"/} --help)"
   done
   [ "$n" -gt 0 ] || fail "no options found in: $* --help"
 }
@@ -67,11 +67,11 @@ expect() {  # "WORDS" WANTED... : each WANTED among the candidates
   got=$(complete_line "$bin/junco" "${w[@]:1}")
   for want in "$@"; do grep -qxF -- "$want" <<<"$got" || fail "completing 'junco ${words#junco }' offers no '$want' (got: $(tr '\n' ' ' <<<"$got"))"; done
 }
-# shellcheck disable=SC2086
+# shellcheck disable=SC2086  # word lists on purpose
 expect "junco " $commands --version
 expect "junco fit --rob" --robust --robust-scale
 expect "junco fit --robust " huber cauchy
-expect "junco jobs --state " queued running paused done failed cancelled interrupted
+expect "junco jobs --state " queued running paused "done" failed cancelled interrupted
 expect "junco design " $calculators
 expect "junco design loss --sw" --switch
 expect "junco design loss --switch " series shunt

@@ -5,6 +5,7 @@
 # junco's own --help when TAB is pressed (the first answer per command is
 # cached for the shell's life), so a new subcommand or option completes
 # without touching this file. Only option values are listed here.
+# shellcheck disable=SC2207  # COMPREPLY=($(compgen ...)): the usual idiom; words have no spaces
 
 _junco_help() {
   # Help text of "junco ARGS --help", cached per ARGS.
@@ -71,13 +72,13 @@ _junco() {
   esac
 
   if [[ "$cur" == -* ]]; then
-    COMPREPLY=($(compgen -W "$(_junco_options "$cmd" $sub) --help" -- "$cur"))
+    COMPREPLY=($(compgen -W "$(_junco_options "$cmd" ${sub:+"$sub"}) --help" -- "$cur"))
     return
   fi
   # Positional arguments that are files.
   case "$cmd" in
     fit | submit | export | plot)
-      if [[ "$cmd" == export && COMP_CWORD -eq 2 ]]; then
+      if [[ "$cmd" == export ]] && ((COMP_CWORD == 2)); then
         COMPREPLY=($(compgen -W "$(_junco_subcommands export)" -- "$cur"))
       else
         COMPREPLY=($(compgen -f -- "$cur")); compopt -o filenames 2>/dev/null
