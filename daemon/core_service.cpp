@@ -12,15 +12,12 @@
 #include "fitting/derived.hpp"
 #include "fitting/model_document.hpp"
 #include "fitting/spice_card.hpp"
+#include "junco/version.hpp"
 
 #include <chrono>
 #include <iostream>
 #include <map>
 #include <set>
-
-#ifndef JUNCO_VERSION
-#define JUNCO_VERSION "0.0.0"
-#endif
 
 namespace junco::daemon {
 
@@ -168,7 +165,7 @@ class CoreService final : public Service {
     Json queued = Json::array();
     for (const auto& j : store_.jobs(std::string("queued"))) queued.push_back(j.id);
     const auto running = queue_.running();
-    return {{"version", JUNCO_VERSION},
+    return {{"version", junco::version},
             {"uptime_s", std::chrono::duration<double>(std::chrono::steady_clock::now() - started_).count()},
             {"running_job", running ? Json(*running) : Json(nullptr)},
             {"queue", queued},

@@ -6,6 +6,7 @@
 #include "daemon/config_check.hpp"
 #include "daemon/core_service.hpp"
 #include "daemon/rpc_server.hpp"
+#include "junco/version.hpp"
 
 #include <boost/asio/executor_work_guard.hpp>
 #include <boost/asio/io_context.hpp>
@@ -36,6 +37,7 @@ constexpr const char* usage_text =
     "  --check-config     validate FILE, print a summary and exit (0 ok, 2 bad)\n"
     "  --foreground       accepted for clarity: juncod never forks; logs go to stderr\n"
     "  --log-level LEVEL  error, warn, info (default) or debug\n"
+    "  --version          print the version and exit\n"
     "  --help             this text\n"
     "\n"
     "On SIGINT or SIGTERM the running job stops with the outputs off and juncod\n"
@@ -115,6 +117,7 @@ void print_summary(const junco::daemon::Config& c) {
 
 int main(int argc, char** argv) {
   namespace d = junco::daemon;
+  if (junco::print_version_if_asked(argc, argv, "juncod")) return 0;
   Args args;
   if (const auto error = parse_args(argc, argv, args); !error.empty()) {
     std::fprintf(stderr, "juncod: %s (see juncod --help)\n", error.c_str());

@@ -21,8 +21,10 @@
 
 #include "daemon/service.hpp"
 
-#include <unistd.h>  // geteuid
+#include <sys/stat.h>  // stat: which default socket exists
+#include <unistd.h>    // geteuid
 
+#include <cerrno>
 #include <cstddef>
 #include <cstdlib>
 #include <optional>
@@ -80,18 +82,30 @@ struct Parsed {
   std::vector<Item> items;  // one for a single message; may be empty only for an empty line
 };
 
-// The socket path clients use when none is given: $JUNCO_SOCKET, else the
-// daemon's default (daemon/config.cpp default_paths): /run/junco/juncod.sock
-// for root, else $XDG_RUNTIME_DIR/junco/juncod.sock, else
-// ${XDG_STATE_HOME:-$HOME/.local/state}/junco/juncod.sock.
+// The socket path clients use when none is given: $JUNCO_SOCKET; else, as
+// root, /run/junco/juncod.sock (the daemon's default, daemon/config.cpp
+// default_paths, and the service's); else the user's own daemon's socket,
+// $XDG_RUNTIME_DIR/junco/juncod.sock or
+// ${XDG_STATE_HOME:-$HOME/.local/state}/junco/juncod.sock, when one is there;
+// else the service's /run/junco/juncod.sock when it exists, so a member of
+// the service's group needs no option (a non-member gets EACCES for it,
+// which the client explains); else the user's path (for the message).
 // Inline so the CLI shares the convention without linking the daemon.
 inline std::string default_socket_path() {
+  constexpr const char* service_socket = "/run/junco/juncod.sock";
   if (const char* env = std::getenv("JUNCO_SOCKET"); env && *env) return env;
-  if (geteuid() == 0) return "/run/junco/juncod.sock";
-  if (const char* xdg = std::getenv("XDG_RUNTIME_DIR"); xdg && *xdg) return std::string(xdg) + "/junco/juncod.sock";
-  if (const char* state = std::getenv("XDG_STATE_HOME"); state && *state) return std::string(state) + "/junco/juncod.sock";
-  const char* home = std::getenv("HOME");
-  return std::string(home ? home : "/tmp") + "/.local/state/junco/juncod.sock";
+  if (geteuid() == 0) return service_socket;
+  std::string own;
+  if (const char* xdg = std::getenv("XDG_RUNTIME_DIR"); xdg && *xdg) own = std::string(xdg) + "/junco/juncod.sock";
+  else if (const char* state = std::getenv("XDG_STATE_HOME"); state && *state) own = std::string(state) + "/junco/juncod.sock";
+  else {
+    const char* home = std::getenv("HOME");
+    own = std::string(home ? home : "/tmp") + "/.local/state/junco/juncod.sock";
+  }
+  struct stat st{};
+  if (::stat(own.c_str(), &st) == 0 && S_ISSOCK(st.st_mode)) return own;
+  if (::stat(service_socket, &st) == 0 ? S_ISSOCK(st.st_mode) : errno == EACCES) return service_socket;
+  return own;
 }
 
 // Parses one line. Never throws.

@@ -13,8 +13,11 @@ Asks juncod what it is doing: version, uptime, the running job, the queue,
 whether the bench is open, the database file.
 
 options:
-  --socket PATH  juncod's socket (default: $JUNCO_SOCKET, /run/junco/juncod.sock
-                 as root, else $XDG_RUNTIME_DIR/junco/juncod.sock)
+  --socket PATH  juncod's socket (default: $JUNCO_SOCKET; as root
+                 /run/junco/juncod.sock; else your own daemon's
+                 $XDG_RUNTIME_DIR/junco/juncod.sock if it is there, else the
+                 service's /run/junco/juncod.sock: members of group junco
+                 need no option)
   --json         print the daemon.status result as JSON
 
 exit status: 0 the daemon answered; 1 it could not be reached.)";

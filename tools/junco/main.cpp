@@ -1,5 +1,6 @@
 // junco: entry point and subcommand dispatch.
 #include "tools/junco/command.hpp"
+#include "junco/version.hpp"
 
 #include <algorithm>
 #include <cstdio>
@@ -34,7 +35,8 @@ namespace {
 void print_overview() {
   std::printf(
       "junco — characterise switching diodes on a bench, fit their models, use the results.\n\n"
-      "usage: junco COMMAND [options]      junco COMMAND --help for details\n\ncommands:\n");
+      "usage: junco COMMAND [options]      junco COMMAND --help for details\n"
+      "       junco --version\n\ncommands:\n");
   for (const auto& c : junco::cli::commands()) std::printf("  %-10s %s\n", c.name.c_str(), c.summary.c_str());
 }
 
@@ -52,7 +54,7 @@ int main(int argc, char** argv) {
     return exit_ok;
   }
   if (name == "--version") {
-    std::printf("junco 0.1.0\n");
+    std::printf("junco %s\n", junco::version);
     return exit_ok;
   }
   const auto& table = commands();

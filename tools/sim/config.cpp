@@ -281,6 +281,7 @@ Options:
                        (first order, wall clock; default 2, 0 = instant)
   --fault ROLE:MODE[:ARG]  inject a fault at start (modes as below;
                        error takes CODE:TEXT, e.g. source:error:-310:System error)
+  --version            print the version and exit
   --help               this text
 
 Config keys (JSON object; SI units; defaults in brackets):

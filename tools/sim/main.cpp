@@ -1,6 +1,7 @@
 // junco-sim: the simulated bench process. See --help and docs/sim.md.
 #include "tools/sim/app.hpp"
 #include "tools/sim/config.hpp"
+#include "junco/version.hpp"
 
 #include <signal.h>
 #include <unistd.h>
@@ -12,6 +13,7 @@
 
 int main(int argc, char** argv) {
   using namespace junco::sim;
+  if (junco::print_version_if_asked(argc, argv, "junco-sim")) return 0;
   ParsedArgs args;
   try {
     args = parse_args(argc, argv);
