@@ -192,3 +192,14 @@ TEST_CASE("a file that cannot be read is named", "[drivers][dialect]") {
     CHECK_THAT(std::string(e.what()), Catch::StartsWith("/nonexistent/x.json: cannot read dialect file"));
   }
 }
+
+TEST_CASE("a dialect nested deeper than 64 levels is refused by name, never built", "[drivers][dialect][limits]") {
+  const std::string deep = replaced(good_scanner, R"("ROUT:OPEN:ALL")", std::string(100000, '[') + std::string(100000, ']'));
+  try {
+    parse_dialect(deep, "deep.json");
+    FAIL("accepted");
+  } catch (const DriverError& e) {
+    CHECK(e.kind() == ErrorKind::config);
+    CHECK(std::string(e.what()) == "deep.json: dialect file nested deeper than 64 levels");
+  }
+}
