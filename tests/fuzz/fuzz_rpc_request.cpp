@@ -138,6 +138,13 @@ void check_parse(std::string_view line) {
   };
   const auto reply = rpc::respond(parsed, run);
   require(internal.empty(), "a request ended in internal_error: " + internal);
+  // Independently of parse_line: a single well-formed notification (JSON-RPC
+  // 2.0 §4.1) is never answered, whatever its params. (Parsing again is safe:
+  // nlohmann's parse and destructor are iterative; only top-level members are read.)
+  const Json raw = Json::parse(line.begin(), line.end(), nullptr, /*allow_exceptions=*/false);
+  if (raw.is_object() && !raw.contains("id") && raw.contains("jsonrpc") && raw["jsonrpc"] == "2.0" && raw.contains("method") &&
+      raw["method"].is_string())
+    require(!reply, "a notification was answered");
   if (expected_ids.empty()) {
     require(!reply, "a reply was sent where none is due (notifications only, or blank)");
     return;
