@@ -149,6 +149,9 @@ class CoreService final : public Service {
             {"safety",
              {{"max_supply_v", s.max_supply_v}, {"current_limit_a", s.current_limit_a}, {"max_power_w", s.max_power_w},
               {"max_reverse_v", s.max_reverse_v}, {"max_job_s", s.max_job_s}}},
+            {"limits",
+             {{"max_points_per_job", config_.limits.max_points_per_job},
+              {"max_plan_memory_bytes", config_.limits.max_plan_memory_bytes}}},
             {"accuracy",
              {{"v_rel", config_.accuracy.v_rel}, {"v_abs_v", config_.accuracy.v_abs_v}, {"i_rel", config_.accuracy.i_rel},
               {"i_abs_a", config_.accuracy.i_abs_a}}}};

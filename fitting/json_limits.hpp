@@ -11,10 +11,14 @@
 // (or discards) any container opened deeper than the limit: a deep document
 // never becomes a json value, and nothing recursive ever sees it.
 //
-// Why here: header-only, depending on nlohmann_json alone, in fitting/ — the
-// one library every JSON reader links or can include (daemon, drivers by
-// include path only, the CLI, junco-sim, the fuzz targets) without pulling in
-// I/O, Ceres or anything else; fitting/ itself reads model documents.
+// Why here: fitting/ is the lowest library: it depends on no other junco
+// library, and every JSON reader links it or can include from it — daemon/,
+// the CLI and junco-sim link it; drivers/ (which does not link it) includes
+// this header by path, which costs nothing because it is header-only and needs
+// nlohmann_json alone (no Ceres, no link dependency); the fuzz targets compile
+// it without Ceres. fitting/ itself reads model documents. One exception to
+// fitting/'s "no I/O" rule: read_json_file below, a bounded file read, kept
+// next to the size limit it enforces so that limit has one home.
 #pragma once
 
 #include <nlohmann/json.hpp>

@@ -151,6 +151,10 @@ TEST_CASE("plans over the job limits are refused at job.submit, at once, naming 
   CHECK(rss_after_kib - rss_before_kib < 50 * 1024);
   SocketClient c(b.socket());
   CHECK(c.request("job.list", Json::object())["result"]["jobs"].empty());
+  // Clients can see the limits in force (the defaults here: the config has no `limits`).
+  const Json limits = c.request("bench.describe", Json::object())["result"]["limits"];
+  CHECK(limits["max_points_per_job"] == 1000000);
+  CHECK(limits["max_plan_memory_bytes"] == 67108864.0);
   REQUIRE(b.daemon->running());
 }
 
