@@ -1,5 +1,7 @@
 #include "daemon/config.hpp"
 
+#include "fitting/json_limits.hpp"
+
 #include <cmath>
 #include <cstdlib>
 #include <fstream>
@@ -156,6 +158,22 @@ SafetyLimits parse_safety(const Checker& c, const Json& obj) {
   return s;
 }
 
+// Optional: the defaults (config.hpp) suit a bench PC with a few GB of memory.
+JobLimits parse_limits(const Checker& c, const Json& obj) {
+  const std::string p = "/limits";
+  c.only_keys(obj, p, {"max_points_per_job", "max_plan_memory_bytes"});
+  JobLimits l;
+  if (obj.contains("max_points_per_job")) {
+    const Json& v = obj.at("max_points_per_job");
+    if (!v.is_number_integer()) c.fail(p + "/max_points_per_job", std::string("must be an integer, not ") + v.type_name());
+    const auto n = v.get<long long>();
+    if (n < 1 || n > 1'000'000'000LL) c.fail(p + "/max_points_per_job", "must be in 1..1000000000, got " + std::to_string(n));
+    l.max_points_per_job = static_cast<long>(n);
+  }
+  l.max_plan_memory_bytes = c.number(obj, "max_plan_memory_bytes", p, l.max_plan_memory_bytes, false, 0, false);
+  return l;
+}
+
 }  // namespace
 
 const char* to_string(CurrentFrom from) { return from == CurrentFrom::source ? "source" : "meter"; }
@@ -224,7 +242,10 @@ Config parse_config_impl(const std::string& text, const fs::path& file, std::vec
   const Checker c(file.string());
   Json doc;
   try {
-    doc = Json::parse(text, nullptr, true, true);
+    // Depth and size checked while parsing: a deep file never becomes a json value.
+    doc = parse_json_limited(text, "the config", /*ignore_comments=*/true);
+  } catch (const JsonLimitError& e) {
+    c.fail("", e.what());
   } catch (const Json::exception& e) {  // parse_error, and out_of_range for numbers that overflow
     // nlohmann's message carries line and column; drop its "[json.exception...]" prefix.
     std::string what = e.what();
@@ -232,7 +253,7 @@ Config parse_config_impl(const std::string& text, const fs::path& file, std::vec
     c.fail("", "not valid JSON: " + what);
   }
   if (!doc.is_object()) c.fail("", std::string("must be an object, not ") + doc.type_name());
-  section(problems, [&] { c.only_keys(doc, "", {"bench", "fixture", "safety", "accuracy", "paths", "server"}); });
+  section(problems, [&] { c.only_keys(doc, "", {"bench", "fixture", "safety", "limits", "accuracy", "paths", "server"}); });
 
   Config cfg;
   cfg.file = file;
@@ -263,6 +284,9 @@ Config parse_config_impl(const std::string& text, const fs::path& file, std::vec
   section(problems, [&] {
     if (!doc.contains("safety")) c.fail("/safety", "missing (required)");
     cfg.safety = parse_safety(c, c.object(doc, "safety", "/safety"));
+  });
+  section(problems, [&] {
+    if (doc.contains("limits")) cfg.limits = parse_limits(c, c.object(doc, "limits", "/limits"));
   });
   section(problems, [&] {
     if (doc.contains("accuracy")) cfg.accuracy = parse_accuracy(c, c.object(doc, "accuracy", "/accuracy"));
@@ -304,11 +328,15 @@ std::vector<ConfigError> config_problems(const std::string& text, const fs::path
 }
 
 Config load_config(const fs::path& file) {
-  std::ifstream in(file, std::ios::binary);
-  if (!in) throw ConfigError(file.string(), "", "cannot read the file");
-  std::ostringstream ss;
-  ss << in.rdbuf();
-  return parse_config(ss.str(), file);
+  std::string text;
+  try {
+    text = read_json_file(file.string());
+  } catch (const JsonLimitError&) {
+    throw ConfigError(file.string(), "", too_big_message("the config is", max_json_file_bytes));
+  } catch (const std::exception&) {
+    throw ConfigError(file.string(), "", "cannot read the file");
+  }
+  return parse_config(text, file);
 }
 
 }  // namespace junco::daemon

@@ -62,6 +62,16 @@ struct SafetyLimits {
   double max_job_s = 86400.0;     // a job running longer is stopped (outputs off, failed)
 };
 
+// Resource limits on what one job may ask of the daemon (docs/daemon-core.md).
+// check_plan refuses a plan over either before anything is expanded.
+struct JobLimits {
+  // Readings one job may take (steps per part × parts).
+  long max_points_per_job = 1'000'000;
+  // Memory the daemon may need to run one plan (plan_memory_bytes in plan.hpp:
+  // the expanded steps and a part's readings held for its fit).
+  double max_plan_memory_bytes = 64.0 * 1024 * 1024;
+};
+
 struct PathsConfig {
   std::filesystem::path database;  // SQLite file; only juncod opens it
   std::filesystem::path socket;    // Unix socket of the JSON-RPC server
@@ -80,6 +90,7 @@ struct Config {
   std::map<std::string, InstrumentConfig> bench;  // by role
   FixtureConfig fixture;
   SafetyLimits safety;
+  JobLimits limits;
   // How well the bench reads voltage and current, as ±(rel·|x| + abs) limits
   // (the meter's, or the supply's readback when current comes from it). The
   // fits weight every reading by it and exclude currents below 10 × i_abs_a.

@@ -8,6 +8,7 @@
 #include "daemon/jobs.hpp"
 #include "daemon/plan.hpp"
 #include "daemon/plan_estimate.hpp"
+#include "daemon/service_params.hpp"
 #include "daemon/store.hpp"
 #include "fitting/derived.hpp"
 #include "fitting/model_document.hpp"
@@ -24,11 +25,6 @@ namespace junco::daemon {
 namespace {
 
 // ---- params helpers: each names the field it rejects ----------------------
-
-void require_object(const Json& params) {
-  if (!params.is_object() && !params.is_null())
-    throw RequestError(RpcCode::invalid_params, std::string("params must be an object, not ") + params.type_name());
-}
 
 Id id_param(const Json& params, const char* key) {
   if (!params.is_object() || !params.contains(key))
@@ -49,38 +45,6 @@ std::optional<std::string> opt_string_param(const Json& params, const char* key)
   const Json& v = params.at(key);
   if (!v.is_string()) throw RequestError(RpcCode::invalid_params, std::string(key) + ": must be a string, not " + v.type_name(), Json{{"field", key}});
   return v.get<std::string>();
-}
-
-// The params each method takes (schema/api/*.json: additionalProperties
-// false). Anything else is refused, not ignored: a misspelt option, or a
-// field that looks like a safety limit or a file path, must never pass as if
-// it had been honoured.
-const std::map<std::string, std::set<std::string>>& known_params() {
-  static const std::map<std::string, std::set<std::string>> table{
-      {"daemon.status", {}},           {"bench.describe", {}},           {"job.submit", {"plan"}},
-      {"plan.check", {"plan"}},
-      {"job.list", {"state"}},         {"job.get", {"job_id"}},          {"job.cancel", {"job_id"}},
-      {"job.pause", {"job_id"}},       {"job.resume", {"job_id"}},       {"lot.list", {}},
-      {"part.list", {"lot"}},          {"part.readings", {"part_id", "run_id"}},
-      {"part.fit", {"part_id"}},       {"part.figures", {"part_id", "currents_a"}},
-      {"part.export", {"part_id", "format"}},
-      {"part.design", {"part_id", "calculator", "inputs"}},
-      {"design.run", {"calculator", "part", "inputs"}},
-      {"lot.stats", {"lot", "currents_a", "match_current_a", "match_tolerance_v", "set_size"}},
-      {"lot.export", {"lot", "format"}},
-      {"part.transfer", {"part_id", "run_id", "ac_sigma_db", "cj_f", "max_signal_ratio", "ac_floor_v"}}};
-  return table;
-}
-
-void reject_unknown_params(const std::string& method, const Json& params) {
-  if (!params.is_object()) return;
-  const auto it = known_params().find(method);
-  if (it == known_params().end()) return;
-  for (const auto& [key, value] : params.items()) {
-    (void)value;
-    if (!it->second.count(key))
-      throw RequestError(RpcCode::invalid_params, key + ": unknown param for " + method, Json{{"field", key}});
-  }
 }
 
 const std::set<std::string> kStates{"queued", "running", "paused", "done", "failed", "cancelled", "interrupted"};
@@ -113,8 +77,7 @@ class CoreService final : public Service {
   Json call(std::string_view method, const Json& params, const Caller& caller) override {
     auto it = table_.find(std::string(method));
     if (it == table_.end()) throw RequestError(RpcCode::method_not_found, "unknown method \"" + std::string(method) + "\"");
-    require_object(params);
-    reject_unknown_params(it->first, params);
+    check_call(it->first, params);
     const Json p = params.is_null() ? Json::object() : params;
     try {
       return it->second(p, caller);
@@ -190,6 +153,9 @@ class CoreService final : public Service {
             {"safety",
              {{"max_supply_v", s.max_supply_v}, {"current_limit_a", s.current_limit_a}, {"max_power_w", s.max_power_w},
               {"max_reverse_v", s.max_reverse_v}, {"max_job_s", s.max_job_s}}},
+            {"limits",
+             {{"max_points_per_job", config_.limits.max_points_per_job},
+              {"max_plan_memory_bytes", config_.limits.max_plan_memory_bytes}}},
             {"accuracy",
              {{"v_rel", config_.accuracy.v_rel}, {"v_abs_v", config_.accuracy.v_abs_v}, {"i_rel", config_.accuracy.i_rel},
               {"i_abs_a", config_.accuracy.i_abs_a}}}};
@@ -199,7 +165,7 @@ class CoreService final : public Service {
     if (!params.contains("plan")) throw RequestError(RpcCode::invalid_params, "plan: missing (required)", Json{{"field", "plan"}});
     const Plan plan = parse_plan(params.at("plan"));
     check_plan(plan, config_);
-    const long total = static_cast<long>(expand_steps(plan).size() * plan.parts.size());
+    const long total = static_cast<long>(points_per_job(plan));  // counted, not expanded (check_plan capped it)
     const Id id = queue_.submit(plan, total, caller);
     log_("job " + std::to_string(id) + ": submitted by uid " + std::to_string(caller.uid) + " pid " + std::to_string(caller.pid) + " (" +
          std::to_string(total) + " points)");

@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <set>
 #include <sstream>
 
@@ -146,6 +147,44 @@ Plan parse_plan(const Json& j) {
   return p;
 }
 
+double steps_per_part(const Plan& p) {
+  const double n_ac = p.ac ? static_cast<double>(p.ac->freqs_hz.size()) : 0.0;
+  const double n_off = p.ac && p.ac->off_state ? static_cast<double>(p.ac->off_state->freqs_hz.size()) : 0.0;
+  return static_cast<double>(p.sweep.count) * (1.0 + n_ac) + static_cast<double>(p.reverse_v.size()) * (1.0 + n_off);
+}
+
+double points_per_job(const Plan& p) { return steps_per_part(p) * static_cast<double>(p.parts.size()); }
+
+double plan_memory_bytes(const Plan& p) { return steps_per_part(p) * (static_cast<double>(sizeof(Step)) + kReadingBytes); }
+
+namespace {
+
+// A count as digits ("160800000"), not "1.608e+08".
+std::string count_text(double n) {
+  if (!(n < 1e15)) return num(n);
+  char text[32];
+  std::snprintf(text, sizeof text, "%.0f", n);
+  return text;
+}
+
+// The size caps, by arithmetic on the plan as parsed: a plan of 100000 steps
+// × 200 frequencies × 8 parts is refused here in microseconds, before
+// expand_steps would allocate its 20 million steps.
+void check_plan_size(const Plan& p, const JobLimits& lim) {
+  const double points = points_per_job(p);
+  if (points > static_cast<double>(lim.max_points_per_job))
+    refuse("plan takes " + count_text(points) + " readings (" + count_text(steps_per_part(p)) + " per part × " + std::to_string(p.parts.size()) +
+               " parts), over limits.max_points_per_job = " + std::to_string(lim.max_points_per_job),
+           "max_points_per_job");
+  const double bytes = plan_memory_bytes(p);
+  if (bytes > lim.max_plan_memory_bytes)
+    refuse("plan needs about " + num(std::ceil(bytes / 1048576.0)) + " MiB to run (" + count_text(steps_per_part(p)) +
+               " steps per part), over limits.max_plan_memory_bytes = " + num(lim.max_plan_memory_bytes) + " bytes",
+           "max_plan_memory_bytes");
+}
+
+}  // namespace
+
 double compliance_a(const Plan& plan, const Config& c) {
   return plan.sweep.compliance_a > 0 ? plan.sweep.compliance_a : c.safety.current_limit_a;
 }
@@ -166,6 +205,7 @@ void check_plan(const Plan& p, const Config& c) {
     if (!labels.insert(part.label).second) refuse("part label \"" + part.label + "\" is named twice");
   }
   if (s.count < 1 || s.count > 100000) refuse("sweep count " + std::to_string(s.count) + " must be in 1..100000");
+  check_plan_size(p, c.limits);
   if (s.settle_s < 0 || s.settle_s > 3600) refuse("sweep settle_s " + num(s.settle_s) + " s must be in 0..3600");
   if (s.average < 1 || s.average > 1000) refuse("sweep average " + std::to_string(s.average) + " must be in 1..1000");
   if (s.compliance_a < 0) refuse("sweep compliance_a " + num(s.compliance_a) + " A must be > 0");

@@ -72,8 +72,20 @@ struct Step {
 };
 
 Plan parse_plan(const Json& plan);                  // throws RequestError(invalid_params)
-void check_plan(const Plan& plan, const Config& c);  // throws RequestError(plan_refused)
+// Throws RequestError(plan_refused); checks the size limits (c.limits) by
+// arithmetic, before anything is expanded.
+void check_plan(const Plan& plan, const Config& c);
 Json to_json(const Plan& plan);                     // normalized (round-trips through parse_plan)
+
+// Steps per part and readings per job, counted without expanding (as
+// doubles: a refused plan may be far beyond any integer type's use).
+double steps_per_part(const Plan& plan);
+double points_per_job(const Plan& plan);
+// Estimate of the memory the daemon needs to run the plan: the expanded steps
+// (sizeof(Step) each) and, at each part's fit, every reading of the part read
+// back (kReadingBytes each). check_plan compares it with limits.max_plan_memory_bytes.
+inline constexpr double kReadingBytes = 256.0;  // a PointRow with its strings, and the fit's copy of its V and I
+double plan_memory_bytes(const Plan& plan);
 
 std::vector<double> sweep_values(const SweepSpec& s);
 std::vector<Step> expand_steps(const Plan& plan);  // per part; same for every part

@@ -11,15 +11,23 @@
 //  - a request is an object with "jsonrpc":"2.0", a string "method", optional
 //    "params" (object or array; we accept only objects, an absent params is
 //    {}), optional "id" (string, number or null). No "id" = notification:
-//    it is executed but gets no reply.
+//    it is executed but never answered — not even when its params are
+//    refused (array, not an object, nested too deep) or the method fails.
 //  - invalid JSON → -32700 with id null; valid JSON that is not a request →
 //    -32600 (with the request's id when it had a usable one).
 //  - a batch (array) is answered by an array of the replies, notifications
 //    omitted; an empty array is one -32600 error; a batch with only
 //    notifications gets no reply at all.
+//  - depth: params may nest at most max_params_depth levels (params itself is
+//    level 1). Deeper containers are discarded while the line is parsed —
+//    never built, copied or destroyed recursively — and the request is
+//    refused (invalid_params "params nested deeper than 64 levels"), or
+//    ignored when it is a notification. fitting/json_limits.hpp has the
+//    limit and its wording for every JSON reader.
 #pragma once
 
 #include "daemon/service.hpp"
+#include "fitting/json_limits.hpp"
 
 #include <sys/stat.h>  // stat: which default socket exists
 #include <unistd.h>    // geteuid
@@ -27,6 +35,7 @@
 #include <cerrno>
 #include <cstddef>
 #include <cstdlib>
+#include <functional>
 #include <optional>
 #include <string>
 #include <string_view>
@@ -39,6 +48,8 @@ namespace junco::daemon::rpc {
 inline constexpr std::size_t default_max_line_bytes = 1u << 20;  // 1 MiB
 // Longest accepted batch; each element costs a Service call.
 inline constexpr std::size_t max_batch_size = 256;
+// Deepest params accepted (and deepest anything else in a request).
+inline constexpr int max_params_depth = max_json_depth;
 
 // Splits a byte stream into lines. A line longer than the limit is reported
 // once (LineKind::too_long) and the rest of it, up to the next newline, is
@@ -74,7 +85,7 @@ struct Request {
 // A request, or a ready-made error reply when the item was not one.
 struct Item {
   std::optional<Request> request;
-  Json error_reply;  // set when !request
+  Json error_reply;  // when !request: the reply, or null for a refused notification (no reply)
 };
 
 struct Parsed {
@@ -110,6 +121,24 @@ inline std::string default_socket_path() {
 
 // Parses one line. Never throws.
 Parsed parse_line(std::string_view line);
+
+// The reply a line gets: each request is run by `run` (which returns its
+// reply, see answer()); notifications' replies are dropped, refused
+// notifications have none. A batch gets an array, a single message one
+// object; nullopt = send nothing. The server and the fuzz target share it.
+std::optional<Json> respond(const Parsed& parsed, const std::function<Json(const Request&)>& run);
+
+// Methods the transport answers itself (events.subscribe on the socket):
+// returns the result, or nullopt when `req` is not one of them. May throw
+// RequestError like Service::call.
+using LocalMethod = std::function<std::optional<Json>(const Request&)>;
+
+// Runs one request: `local` first (may be empty), else service.call. Maps
+// RequestError to its code, a nlohmann::json exception from the Service's
+// accessors to invalid_params, anything else to internal_error (reported to
+// on_internal_error, which may be empty). Never throws.
+Json answer(Service& service, const Request& req, const Caller& caller, const LocalMethod& local,
+            const std::function<void(const std::string&)>& on_internal_error);
 
 // Reply and notification builders (objects; the caller serialises with dump()).
 Json make_result(const Json& id, Json result);

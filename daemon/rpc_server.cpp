@@ -393,39 +393,22 @@ void Connection::handle_lines(std::size_t n) {
 }
 
 void Connection::handle_line(std::string_view line) {
-  const auto parsed = rpc::parse_line(line);
-  Json replies = Json::array();
-  for (const auto& item : parsed.items) {
-    if (!item.request) {
-      replies.push_back(item.error_reply);
-      continue;
-    }
-    Json reply = dispatch(*item.request);
-    if (!item.request->notification) replies.push_back(std::move(reply));
-  }
-  if (replies.empty()) return;
-  enqueue(rpc::to_line(parsed.batch ? replies : replies.front()));
+  const auto reply = rpc::respond(rpc::parse_line(line), [this](const rpc::Request& req) { return dispatch(req); });
+  if (reply) enqueue(rpc::to_line(*reply));
 }
 
-// Methods the server answers itself; everything else goes to the Service.
+// events.subscribe / events.unsubscribe are answered here (they belong to
+// the connection); everything else goes to the Service (rpc::answer).
 Json Connection::dispatch(const rpc::Request& req) {
-  try {
-    if (req.method == "events.subscribe") return rpc::make_result(req.id, subscribe(req.params));
-    if (req.method == "events.unsubscribe") {
-      only_params("events.unsubscribe", req.params, {});
-      return rpc::make_result(req.id, unsubscribe());
+  const rpc::LocalMethod local = [this](const rpc::Request& r) -> std::optional<Json> {
+    if (r.method == "events.subscribe") return subscribe(r.params);
+    if (r.method == "events.unsubscribe") {
+      only_params("events.unsubscribe", r.params, {});
+      return unsubscribe();
     }
-    return rpc::make_result(req.id, server_.service().call(req.method, req.params, caller_));
-  } catch (const RequestError& e) {
-    return rpc::make_error(req.id, e.code(), e.what(), e.data());
-  } catch (const nlohmann::json::exception& e) {
-    // A params member of the wrong type or missing reached the Service's
-    // json accessors: the caller's mistake, not a daemon failure.
-    return rpc::make_error(req.id, RpcCode::invalid_params, std::string("invalid params for ") + req.method + ": " + e.what());
-  } catch (const std::exception& e) {
-    server_.log("error", "internal error in " + req.method + ": " + e.what());
-    return rpc::make_error(req.id, RpcCode::internal_error, std::string("internal error: ") + e.what());
-  }
+    return std::nullopt;
+  };
+  return rpc::answer(server_.service(), req, caller_, local, [this](const std::string& what) { server_.log("error", what); });
 }
 
 Json Connection::subscribe(const Json& params) {

@@ -1,6 +1,7 @@
 #include "drivers/dialect.hpp"
 
 #include "drivers/errors.hpp"
+#include "fitting/json_limits.hpp"  // header-only: no link dependency on junco_fitting
 
 #include <nlohmann/json.hpp>
 
@@ -295,7 +296,10 @@ Dialect parse_dialect(std::string_view text, const std::string& origin) {
   Checker c(origin);
   json root;
   try {
-    root = json::parse(text, nullptr, true, /*ignore_comments=*/true);
+    // Depth and size checked while parsing: a deep file never becomes a json value.
+    root = parse_json_limited(text, "dialect file", /*ignore_comments=*/true);
+  } catch (const JsonLimitError& e) {
+    throw DriverError(ErrorKind::config, origin + ": " + e.what());
   } catch (const json::exception& e) {  // parse_error, and out_of_range for numbers that overflow
     // nlohmann's message already gives line and column.
     throw DriverError(ErrorKind::config, origin + ": not valid JSON: " + e.what());
@@ -351,11 +355,15 @@ Dialect parse_dialect(std::string_view text, const std::string& origin) {
 }
 
 Dialect load_dialect(const std::string& path) {
-  std::ifstream in(path, std::ios::binary);
-  if (!in) throw DriverError(ErrorKind::config, path + ": cannot read dialect file");
-  std::ostringstream text;
-  text << in.rdbuf();
-  return parse_dialect(text.str(), path);
+  std::string text;
+  try {
+    text = read_json_file(path);
+  } catch (const JsonLimitError&) {
+    throw DriverError(ErrorKind::config, path + ": " + too_big_message("dialect file", max_json_file_bytes));
+  } catch (const std::exception&) {
+    throw DriverError(ErrorKind::config, path + ": cannot read dialect file");
+  }
+  return parse_dialect(text, path);
 }
 
 std::string expand_template(std::string_view text, const Placeholders& values) {

@@ -1,5 +1,7 @@
 #include "fitting/model_document.hpp"
 
+#include "fitting/json_limits.hpp"
+
 #include <nlohmann/json.hpp>
 
 #include <cmath>
@@ -73,7 +75,7 @@ std::string model_document_json(const PartModel& p) {
 
 std::optional<PartModel> parse_model_document(const std::string& text, std::string* why) {
   try {
-    const Json doc = Json::parse(text);
+    const Json doc = parse_json_limited(text, "model document");
     if (!doc.is_object()) throw Bad("document must be a JSON object");
     if (doc.value("format", std::string()) != model_document_format)
       throw Bad(std::string("format must be \"") + model_document_format + "\"");
@@ -111,6 +113,8 @@ std::optional<PartModel> parse_model_document(const std::string& text, std::stri
     return p;
   } catch (const Json::exception& e) {
     if (why) *why = std::string("not valid JSON: ") + e.what();
+  } catch (const JsonLimitError& e) {
+    if (why) *why = e.what();
   } catch (const Bad& e) {
     if (why) *why = e.what();
   }

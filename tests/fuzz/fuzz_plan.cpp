@@ -13,6 +13,8 @@
 #include "tests/fuzz/entries.hpp"
 
 #include "daemon/plan.hpp"
+#include "fitting/json_limits.hpp"
+#include "tests/fuzz/rpc_service.hpp"  // fuzz_bench_config
 
 #include <algorithm>
 #include <cmath>
@@ -25,18 +27,8 @@ using daemon::Json;
 using daemon::RequestError;
 using daemon::RpcCode;
 
-// A bench like tools/examples/bench.jsonc, built in code (invented values).
 const daemon::Config& bench() {
-  static const daemon::Config config = [] {
-    daemon::Config c;
-    for (const char* role : {"source", "meter", "scanner", "siggen", "levelmeter"})
-      c.bench[role] = daemon::InstrumentConfig{role, "sim", {}, 2000, 2};
-    c.fixture.bias_resistor_ohm = 100.0;
-    c.fixture.dc_return_ohm = 10.0;
-    c.fixture.slots = 8;
-    c.safety = daemon::SafetyLimits{10.0, 0.1, 0.25, 5.0, 86400.0};
-    return c;
-  }();
+  static const daemon::Config config = fuzz_bench_config();
   return config;
 }
 
@@ -94,8 +86,16 @@ void check_round_trip(const daemon::Plan& p, const daemon::Config& c) {
 }  // namespace
 
 void plan(std::string_view data) {
-  const Json j = Json::parse(data.begin(), data.end(), nullptr, /*allow_exceptions=*/false, /*ignore_comments=*/true);
-  if (j.is_discarded()) return;
+  // As plans reach juncod: depth-limited (a plan file through junco submit,
+  // or params on the socket).
+  Json j;
+  try {
+    j = parse_json_limited(data, "plan", /*ignore_comments=*/true);
+  } catch (const JsonLimitError&) {
+    return;
+  } catch (const Json::exception&) {
+    return;
+  }
   const auto& c = bench();
   daemon::Plan p;
   try {

@@ -4,15 +4,23 @@
 //  - a small-limit LineFramer agrees exactly with a simple model (split at
 //    '\n', strip one '\r', a line over the limit becomes one too_long) and
 //    never yields a line longer than its limit, however the stream is chunked;
-//  - parse_line never throws; every item is a request or a well-formed error
-//    reply; a batch never exceeds max_batch_size;
-//  - the replies a server would send (a fake Service: "echo" returns its
-//    params, anything else is method_not_found) serialise with to_line to
-//    exactly one line that parses back as JSON.
+//  - parse_line never throws; every item is a request, a well-formed error
+//    reply, or no reply (a refused notification); a batch never exceeds
+//    max_batch_size; accepted params nest at most max_params_depth levels;
+//  - every line goes through the server's own dispatch (rpc::respond +
+//    rpc::answer, as daemon/rpc_server.cpp) to rpc_service() — the real
+//    CoreService in the normal build (tests/fuzz/rpc_service.hpp says what
+//    the libFuzzer build links). No request is an internal error; every
+//    request with an id gets exactly one reply with that id and either a
+//    result or an error; notifications are never answered; the reply
+//    serialises with to_line to exactly one line that parses back as JSON.
 #include "tests/fuzz/entries.hpp"
 
 #include "daemon/rpc_framing.hpp"
+#include "tests/fuzz/rpc_service.hpp"
 
+#include <algorithm>
+#include <utility>
 #include <vector>
 
 namespace junco::fuzz {
@@ -81,10 +89,26 @@ void check_error_reply(const Json& reply) {
   check_sent(reply);
 }
 
-// A fake Service::call, enough to serialise realistic replies.
-Json fake_reply(const rpc::Request& req) {
-  if (req.method == "echo") return rpc::make_result(req.id, req.params);
-  return rpc::make_error(req.id, RpcCode::method_not_found, "method not found: " + req.method, Json{{"method", req.method}});
+// Depth of a json value, by an explicit stack (never recursion): parse_line
+// must not hand out anything deeper than its limit.
+int depth_of(const Json& value) {
+  int deepest = 0;
+  std::vector<std::pair<const Json*, int>> todo{{&value, 1}};
+  while (!todo.empty()) {
+    const auto [v, d] = todo.back();
+    todo.pop_back();
+    if (!v->is_structured()) continue;
+    deepest = std::max(deepest, d);
+    for (const auto& child : *v) todo.push_back({&child, d + 1});
+  }
+  return deepest;
+}
+
+void check_reply(const Json& reply, const Json& id) {
+  require(reply.is_object() && reply.value("jsonrpc", "") == "2.0", "reply without jsonrpc 2.0");
+  require(reply.contains("id") && reply.at("id") == id, "reply with another id than its request");
+  require(reply.contains("result") != reply.contains("error"), "reply with both or neither of result and error");
+  if (reply.contains("error")) check_error_reply(reply);
 }
 
 void check_parse(std::string_view line) {
@@ -93,20 +117,46 @@ void check_parse(std::string_view line) {
   require(blank == parsed.items.empty(), "parse_line: items empty must mean a blank line");
   require(!parsed.batch || parsed.items.size() <= rpc::max_batch_size, "parse_line: batch over max_batch_size");
   require(parsed.batch || parsed.items.size() <= 1, "parse_line: several items for a single message");
-  Json batch_reply = Json::array();
+  std::vector<Json> expected_ids;  // in order: one per reply that must be sent
   for (const auto& item : parsed.items) {
     if (!item.request) {
+      if (item.error_reply.is_null()) continue;  // a refused notification: no reply
       check_error_reply(item.error_reply);
-      batch_reply.push_back(item.error_reply);
+      expected_ids.push_back(item.error_reply.at("id"));
       continue;
     }
     const auto& req = *item.request;
     require(req.params.is_object(), "parse_line accepted params that are not an object");
+    require(depth_of(req.params) <= rpc::max_params_depth, "parse_line accepted params deeper than max_params_depth");
     require(req.id.is_null() || req.id.is_string() || req.id.is_number(), "parse_line accepted an unusable id");
     require(!req.notification || req.id.is_null(), "a notification carries an id");
-    if (!req.notification) batch_reply.push_back(fake_reply(req));
+    if (!req.notification) expected_ids.push_back(req.id);
   }
-  if (!batch_reply.empty()) check_sent(parsed.batch ? batch_reply : batch_reply.front());
+  std::string internal;
+  const auto run = [&](const rpc::Request& req) {
+    return rpc::answer(rpc_service(), req, daemon::Caller{}, nullptr, [&](const std::string& what) { internal = what; });
+  };
+  const auto reply = rpc::respond(parsed, run);
+  require(internal.empty(), "a request ended in internal_error: " + internal);
+  // Independently of parse_line: a single well-formed notification (JSON-RPC
+  // 2.0 §4.1) is never answered, whatever its params. (Parsing again is safe:
+  // nlohmann's parse and destructor are iterative; only top-level members are read.)
+  const Json raw = Json::parse(line.begin(), line.end(), nullptr, /*allow_exceptions=*/false);
+  if (raw.is_object() && !raw.contains("id") && raw.contains("jsonrpc") && raw["jsonrpc"] == "2.0" && raw.contains("method") &&
+      raw["method"].is_string())
+    require(!reply, "a notification was answered");
+  if (expected_ids.empty()) {
+    require(!reply, "a reply was sent where none is due (notifications only, or blank)");
+    return;
+  }
+  require(reply.has_value(), "no reply to a request with an id");
+  if (parsed.batch) {
+    require(reply->is_array() && reply->size() == expected_ids.size(), "batch reply does not have one entry per request with an id");
+    for (std::size_t i = 0; i < expected_ids.size(); ++i) check_reply(reply->at(i), expected_ids[i]);
+  } else {
+    check_reply(*reply, expected_ids.front());
+  }
+  check_sent(*reply);
 }
 
 }  // namespace

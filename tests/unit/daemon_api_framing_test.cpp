@@ -165,3 +165,87 @@ TEST_CASE("to_line never throws on invalid UTF-8", "[rpc][framing]") {
   REQUIRE_NOTHROW(line = rpc::to_line(bad));
   CHECK(Json::parse(line).contains("label"));
 }
+
+namespace {
+// `levels` nested arrays: "[[[…]]]".
+std::string nested(std::size_t levels) { return std::string(levels, '[') + std::string(levels, ']'); }
+}  // namespace
+
+TEST_CASE("parse_line refuses params nested deeper than the limit, naming it, with the request's id", "[rpc][framing][limits]") {
+  // The 10^5-level case is what made juncod overflow its stack (issue 10):
+  // the copy of params recursed once per level. The id comes after the deep
+  // part, so the parse must go on past it to find the id.
+  for (const std::size_t levels : {std::size_t{65}, std::size_t{100000}}) {
+    INFO(levels << " levels");
+    const std::string line = R"({"jsonrpc":"2.0","method":"no.such.method","params":{"x":)" + nested(levels - 1) + R"(},"id":42})";
+    const auto parsed = rpc::parse_line(line);
+    REQUIRE(parsed.items.size() == 1);
+    REQUIRE_FALSE(parsed.items[0].request);
+    CHECK(code_of(parsed.items[0]) == -32602);
+    CHECK(parsed.items[0].error_reply["id"] == 42);
+    CHECK(parsed.items[0].error_reply["error"]["message"] == "invalid params: params nested deeper than 64 levels");
+  }
+  // Exactly at the limit: params (level 1) + 63 levels inside is accepted.
+  const auto ok = rpc::parse_line(R"({"jsonrpc":"2.0","id":1,"method":"m","params":{"x":)" + nested(63) + "}}");
+  REQUIRE(ok.items.size() == 1);
+  REQUIRE(ok.items[0].request);
+  CHECK(ok.items[0].request->params.contains("x"));
+}
+
+TEST_CASE("parse_line: deep nesting elsewhere in a request or a batch", "[rpc][framing][limits]") {
+  const auto deep = nested(100000);
+  SECTION("a deep id is refused with id null") {
+    const auto p = rpc::parse_line(R"({"jsonrpc":"2.0","method":"m","id":)" + deep + "}");
+    REQUIRE(p.items.size() == 1);
+    CHECK(code_of(p.items[0]) == -32600);
+    CHECK(p.items[0].error_reply["id"].is_null());
+    CHECK(p.items[0].error_reply["error"]["message"].get<std::string>().find("nested deeper than 64 levels") != std::string::npos);
+  }
+  SECTION("a deep batch element is refused alone; the others run") {
+    const auto p = rpc::parse_line(R"([{"jsonrpc":"2.0","id":1,"method":"a"},{"jsonrpc":"2.0","id":2,"method":"b","params":{"p":)" + deep +
+                                   R"(}},{"jsonrpc":"2.0","id":3,"method":"c"}])");
+    REQUIRE(p.items.size() == 3);
+    CHECK(p.items[0].request);
+    REQUIRE_FALSE(p.items[1].request);
+    CHECK(code_of(p.items[1]) == -32602);
+    CHECK(p.items[1].error_reply["id"] == 2);
+    REQUIRE(p.items[2].request);
+    CHECK(p.items[2].request->id == 3);
+  }
+  SECTION("a top-level batch of deep arrays is answered, element by element") {
+    const auto p = rpc::parse_line("[" + deep + "]");
+    REQUIRE(p.items.size() == 1);
+    CHECK(code_of(p.items[0]) == -32600);
+  }
+}
+
+TEST_CASE("a notification is never answered, whatever is wrong with its params (JSON-RPC 2.0 §4.1)", "[rpc][framing]") {
+  // Specification §4.1: "The Server MUST NOT reply to a Notification,
+  // including those that are within a batch request."
+  const std::string cases[] = {
+      R"({"jsonrpc":"2.0","method":"job.get","params":[1,2]})",                   // positional params
+      R"({"jsonrpc":"2.0","method":"job.get","params":"s"})",                     // params not structured
+      R"({"jsonrpc":"2.0","method":"job.get","params":7})",
+      R"({"jsonrpc":"2.0","method":"job.get","params":{"x":)" + nested(100000) + "}}",  // nested too deep
+      R"({"jsonrpc":"2.0","method":"no.such","params":)" + nested(100000) + "}",
+  };
+  for (const auto& line : cases) {
+    INFO(line.substr(0, 80));
+    const auto parsed = rpc::parse_line(line);
+    REQUIRE(parsed.items.size() == 1);
+    CHECK_FALSE(parsed.items[0].request);
+    CHECK(parsed.items[0].error_reply.is_null());
+    CHECK_FALSE(rpc::respond(parsed, [](const rpc::Request&) { return Json(); }));
+  }
+  // In a batch, the refused notification is left out of the reply array.
+  const auto batch = rpc::parse_line(R"([{"jsonrpc":"2.0","method":"a","params":[1]},{"jsonrpc":"2.0","id":5,"method":"b","params":[1]}])");
+  const auto reply = rpc::respond(batch, [](const rpc::Request&) { return Json(); });
+  REQUIRE(reply);
+  REQUIRE(reply->is_array());
+  REQUIRE(reply->size() == 1);
+  CHECK((*reply)[0]["id"] == 5);
+  CHECK((*reply)[0]["error"]["code"] == -32602);
+  // Not a request at all (no valid method): still answered, id null (spec, Examples).
+  const auto bad = rpc::parse_line(R"({"jsonrpc":"2.0","method":1,"params":"bar"})");
+  CHECK(rpc::respond(bad, [](const rpc::Request&) { return Json(); }));
+}

@@ -159,3 +159,45 @@ TEST_CASE("the fixture's stray capacitance: optional, in farads, bounded") {
   CHECK(message_of(with(kGood, "\"slots\": 8", "\"slots\": 8, \"stray_c_f\": 0.2")) ==
         "/etc/junco/bench.jsonc: /fixture/stray_c_f: must be at most 1e-9 F (a fixture's stray is pF; is the unit farads?)");
 }
+
+TEST_CASE("a config nested deeper than 64 levels or over 4 MiB is refused by name, never built") {
+  // 10^5 levels: before the limit the copy into Config::raw recursed per level
+  // and overflowed the stack (issue 10); now the parse stops at level 65.
+  const std::string deep = with(kGood, R"("paths": {)", R"("x": )" + std::string(100000, '[') + std::string(100000, ']') + R"(, "paths": {)");
+  CHECK(message_of(deep) == "/etc/junco/bench.jsonc: /: the config nested deeper than 64 levels");
+  // 63 levels below the top-level object: within the limit, refused only as an unknown key.
+  const std::string ok_depth = with(kGood, R"("paths": {)", R"("x": )" + std::string(63, '[') + std::string(63, ']') + R"(, "paths": {)");
+  CHECK(message_of(ok_depth) == "/etc/junco/bench.jsonc: /x: unknown key");
+  CHECK(message_of(std::string(4u << 20, ' ') + kGood) == "/etc/junco/bench.jsonc: /: the config larger than the limit of 4194304 bytes");
+  // The file reader refuses before reading it all.
+  const fs::path big = fs::temp_directory_path() / "junco-config-too-big.jsonc";
+  {
+    std::ofstream out(big);
+    out << std::string((4u << 20) + 1, ' ');
+  }
+  try {
+    load_config(big);
+    FAIL("accepted");
+  } catch (const ConfigError& e) {
+    CHECK(std::string(e.what()) == big.string() + ": /: the config is larger than the limit of 4194304 bytes");
+  }
+  fs::remove(big);
+}
+
+TEST_CASE("job limits: optional, with defaults, each checked") {
+  const Config d = parse_config(kGood, "/etc/junco/bench.jsonc");
+  CHECK(d.limits.max_points_per_job == 1000000);
+  CHECK(d.limits.max_plan_memory_bytes == 64.0 * 1024 * 1024);
+  const std::string lim = with(kGood, R"("paths": {)", R"("limits": {"max_points_per_job": 5000, "max_plan_memory_bytes": 1e6}, "paths": {)");
+  const Config c = parse_config(lim, "/etc/junco/bench.jsonc");
+  CHECK(c.limits.max_points_per_job == 5000);
+  CHECK(c.limits.max_plan_memory_bytes == 1e6);
+  CHECK(message_of(with(kGood, R"("paths": {)", R"("limits": {"max_points_per_job": 0}, "paths": {)")) ==
+        "/etc/junco/bench.jsonc: /limits/max_points_per_job: must be in 1..1000000000, got 0");
+  CHECK(message_of(with(kGood, R"("paths": {)", R"("limits": {"max_points_per_job": 1.5}, "paths": {)")) ==
+        "/etc/junco/bench.jsonc: /limits/max_points_per_job: must be an integer, not number");
+  CHECK(message_of(with(kGood, R"("paths": {)", R"("limits": {"max_plan_memory_bytes": -1}, "paths": {)")) ==
+        "/etc/junco/bench.jsonc: /limits/max_plan_memory_bytes: must be > 0, got -1");
+  CHECK(message_of(with(kGood, R"("paths": {)", R"("limits": {"max_plan_mb": 1}, "paths": {)")) ==
+        "/etc/junco/bench.jsonc: /limits/max_plan_mb: unknown key");
+}

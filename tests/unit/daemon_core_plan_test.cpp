@@ -4,6 +4,7 @@
 
 #include <catch2/catch.hpp>
 
+#include <chrono>
 #include <fstream>
 
 using namespace junco::daemon;
@@ -201,4 +202,56 @@ TEST_CASE("the shipped example plan parses and passes on a bench that has what i
   std::size_t off = 0;
   for (const auto& s : expand_steps(p)) off += s.kind == Step::Kind::reverse_ac;
   CHECK(off == p.reverse_v.size() * p.ac->off_state->freqs_hz.size());
+}
+
+TEST_CASE("plan size limits: points per job and memory, refused by arithmetic before any expansion") {
+  // Issue 10: count 100000 × 200 frequencies × 8 parts was accepted and took
+  // 850 MB; with 2000 frequencies juncod died of bad_alloc.
+  Config c = bench();
+  c.bench["siggen"] = InstrumentConfig{"siggen", "sim", {}, 2000, 2};
+  c.bench["levelmeter"] = InstrumentConfig{"levelmeter", "sim", {}, 2000, 2};
+  Json j = plan();
+  j["parts"] = Json::array();
+  for (int s = 1; s <= 8; ++s) j["parts"].push_back({{"slot", s}, {"label", "QX-7-0" + std::to_string(s)}});
+  j["sweep"]["count"] = 100000;
+  j["sweep"]["settle_s"] = 0;
+  j["ac"] = {{"freqs_hz", Json::array()}, {"amplitude", 0.1}, {"settle_s", 0}};
+  for (int k = 0; k < 2000; ++k) j["ac"]["freqs_hz"].push_back(1e6 + k);
+  const Plan p = parse_plan(j);
+  CHECK(steps_per_part(p) == 100000.0 * 2001);  // dc step + one per frequency, per sweep step
+  CHECK(points_per_job(p) == 100000.0 * 2001 * 8);
+  const auto t0 = std::chrono::steady_clock::now();
+  try {
+    check_plan(p, c);
+    FAIL("accepted");
+  } catch (const RequestError& e) {
+    CHECK(e.code() == RpcCode::plan_refused);
+    CHECK(std::string(e.what()) == "plan takes 1600800000 readings (200100000 per part × 8 parts), over limits.max_points_per_job = 1000000");
+    CHECK(e.data()["limit"] == "max_points_per_job");
+  }
+  // Arithmetic only: far below what expanding 200 million steps would take.
+  CHECK(std::chrono::steady_clock::now() - t0 < std::chrono::milliseconds(50));
+
+  // One part of 100000 steps × 3 frequencies: 400000 points (under the
+  // points cap) but ~107 MiB to run, over the 64 MiB default.
+  Json one = plan();
+  one["parts"] = Json::array({{{"slot", 1}, {"label", "QX-7-01"}}});
+  one["sweep"]["count"] = 100000;
+  one["sweep"]["settle_s"] = 0;
+  one["ac"] = {{"freqs_hz", {1e6, 2e6, 3e6}}, {"amplitude", 0.1}, {"settle_s", 0}};
+  const Plan q = parse_plan(one);
+  CHECK(plan_memory_bytes(q) == 400000.0 * (sizeof(Step) + kReadingBytes));
+  try {
+    check_plan(q, c);
+    FAIL("accepted");
+  } catch (const RequestError& e) {
+    CHECK_THAT(std::string(e.what()), Catch::StartsWith("plan needs about 107 MiB to run (400000 steps per part), over limits.max_plan_memory_bytes = "));
+    CHECK(e.data()["limit"] == "max_plan_memory_bytes");
+  }
+  // The same plan passes when the bench's config allows it.
+  c.limits.max_plan_memory_bytes = 256.0 * 1024 * 1024;
+  CHECK_NOTHROW(check_plan(q, c));
+  // And the points cap is configurable too.
+  c.limits.max_points_per_job = 399999;
+  CHECK_THROWS_WITH(check_plan(q, c), Catch::StartsWith("plan takes 400000 readings"));
 }

@@ -239,3 +239,14 @@ TEST_CASE("the shipped generic dialects accept any instrument; model files keep 
     CHECK(load_dialect(dialect_dir + model + ".json").idn_match.has_value());
   }
 }
+
+TEST_CASE("a dialect nested deeper than 64 levels is refused by name, never built", "[drivers][dialect][limits]") {
+  const std::string deep = replaced(good_scanner, R"("ROUT:OPEN:ALL")", std::string(100000, '[') + std::string(100000, ']'));
+  try {
+    parse_dialect(deep, "deep.json");
+    FAIL("accepted");
+  } catch (const DriverError& e) {
+    CHECK(e.kind() == ErrorKind::config);
+    CHECK(std::string(e.what()) == "deep.json: dialect file nested deeper than 64 levels");
+  }
+}

@@ -7,6 +7,7 @@
 #include <catch2/catch.hpp>
 
 #include "tests/fuzz/entries.hpp"
+#include "tests/fuzz/rpc_service.hpp"
 
 #include <filesystem>
 #include <fstream>
@@ -62,4 +63,19 @@ TEST_CASE("the plan entry holds every step to the limits, not only start and sto
   CHECK_NOTHROW(junco::fuzz::plan(R"({"lot":"L","parts":[{"slot":1,"label":"a"}],
       "sweep":{"mode":"voltage","spacing":"log","start":10,"stop":0.01,"count":3,"compliance_a":0.02}})"));
   CHECK_THROWS_AS(junco::fuzz::require(false, "x"), junco::fuzz::InvariantBroken);
+}
+
+TEST_CASE("the rpc_request entry reaches the real CoreService in this build", "[fuzz]") {
+  // tests/fuzz/rpc_service.hpp: in the normal build rpc_service() is the
+  // daemon's make_service over a temporary database; prove it is not a stand-in.
+  REQUIRE(junco::fuzz::rpc_service_is_real());
+  auto& service = junco::fuzz::rpc_service();
+  const auto status = service.call("daemon.status", junco::daemon::Json::object(), {});
+  CHECK(status.at("schema_version").get<int>() >= 1);  // read from the SQLite file
+  CHECK(status.at("bench_open") == false);              // the opener opens nothing
+  const auto submitted = service.call("job.submit", junco::daemon::Json::parse(R"({"plan":{"lot":"WREN-0912",
+      "parts":[{"slot":1,"label":"k24b-01"}],"sweep":{"mode":"current","start":1e-5,"stop":1e-3,"count":3}}})"), {});
+  const auto job = service.call("job.get", {{"job_id", submitted.at("job_id")}}, {});
+  CHECK(job.at("state") == "queued");  // stored, waiting for a bench that never opens
+  CHECK(job.at("points_total") == 3);
 }

@@ -1,6 +1,7 @@
 // junco submit PLAN.jsonc: queue a job on the daemon.
 #include "tools/junco/command.hpp"
 #include "tools/junco/rpc_client.hpp"
+#include "fitting/json_limits.hpp"
 
 #include <cstdio>
 #include <fstream>
@@ -40,14 +41,16 @@ exit status: 0 queued (with --watch: and done; with --dry-run: the plan
 would be accepted); 1 daemon error; 2 bad file or refused plan.)";
 
 Json read_plan(const std::string& path) {
-  std::ifstream in(path);
-  if (!in) throw std::invalid_argument("cannot read plan file " + path);
-  std::stringstream text;
-  text << in.rdbuf();
   try {
-    return Json::parse(text.str(), nullptr, true, /*ignore_comments=*/true);
+    // Depth and size checked while parsing (fitting/json_limits.hpp): a deep
+    // file never becomes a json value this program would copy or dump.
+    return parse_json_limited(read_json_file(path), "plan", /*ignore_comments=*/true);
+  } catch (const JsonLimitError& e) {
+    throw std::invalid_argument(path + ": " + e.what());
   } catch (const Json::exception& e) {  // parse_error, and out_of_range for numbers that overflow
     throw std::invalid_argument(path + ": not valid JSON: " + e.what());
+  } catch (const std::runtime_error&) {
+    throw std::invalid_argument("cannot read plan file " + path);
   }
 }
 

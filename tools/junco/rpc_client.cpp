@@ -72,7 +72,12 @@ Json RpcClient::call(const std::string& method, Json params, std::chrono::millis
       notifications_.push_back(std::move(*msg));
       continue;
     }
-    if ((*msg)["id"] != id) continue;  // a stale reply (cannot happen with one caller; ignore)
+    // An error with id null is juncod saying it could not read our request's
+    // id (line over its size limit, not JSON): it is this call's answer, as
+    // this client has one request in flight at a time. Show it now instead of
+    // waiting out the timeout.
+    const bool unread_request_error = (*msg)["id"].is_null() && msg->contains("error");
+    if ((*msg)["id"] != id && !unread_request_error) continue;  // a stale reply (cannot happen with one caller; ignore)
     if (const auto e = msg->find("error"); e != msg->end())
       throw RpcError(e->value("code", 0), e->value("message", std::string("(no message)")), e->value("data", Json()));
     return msg->value("result", Json());

@@ -1,5 +1,7 @@
 #include "tools/sim/config.hpp"
 
+#include "fitting/json_limits.hpp"
+
 #include <nlohmann/json.hpp>
 
 #include <algorithm>
@@ -70,7 +72,9 @@ void apply_part(PartParams& p, const json& j, const std::string& where) {
 void apply_config_json(SimConfig& cfg, const std::string& json_text) {
   json doc;
   try {
-    doc = json::parse(json_text);
+    doc = junco::parse_json_limited(json_text, "config");
+  } catch (const junco::JsonLimitError& e) {
+    throw std::invalid_argument(std::string("config: ") + e.what());
   } catch (const json::exception& e) {
     throw std::invalid_argument(std::string("config: not valid JSON: ") + e.what());
   }
@@ -185,11 +189,13 @@ ParsedArgs parse_args(int argc, const char* const* argv) {
   // The config file first, so the command line overrides it.
   for (size_t i = 0; i + 1 < args.size(); ++i) {
     if (args[i] == "--config") {
-      std::ifstream in(args[i + 1]);
-      if (!in) throw std::invalid_argument("--config: cannot read " + args[i + 1]);
-      std::stringstream ss;
-      ss << in.rdbuf();
-      apply_config_json(cfg, ss.str());
+      std::string text;
+      try {
+        text = junco::read_json_file(args[i + 1]);
+      } catch (const std::exception& e) {
+        throw std::invalid_argument(std::string("--config: ") + e.what());
+      }
+      apply_config_json(cfg, text);
     }
   }
   auto value = [&](size_t& i) -> const std::string& {
