@@ -470,7 +470,9 @@ TEST_CASE("damaged database at restart: outputs off, the error named, no endless
   for (const auto& sw : switches)
     if (sw["t_ns"].get<long long>() > t_kill) CHECK(sw["on"] == false);
   CHECK_FALSE(b.source_on());
-  std::printf("damaged database: output off %.0f ms after the death; supervisor gave up with exit 1\n", *w * 1e3);
+  const auto cannot = log.find("cannot start");
+  std::printf("damaged database: output off %.0f ms after the death; supervisor gave up with exit 1; worker said: %s\n",
+              *w * 1e3, log.substr(cannot, log.find('\n', cannot) - cannot).c_str());
 }
 
 TEST_CASE("crash loop: more worker deaths than --restart-limit, the supervisor gives up with the outputs off",
