@@ -31,7 +31,8 @@
 namespace {
 
 constexpr const char* usage_text =
-    "usage: juncod --config FILE [--foreground] [--no-supervisor] [--log-level LEVEL]\n"
+    "usage: juncod --config FILE [--foreground] [--no-supervisor | --restart-limit N]\n"
+    "              [--log-level LEVEL]\n"
     "       juncod --config FILE --check-config\n"
     "       juncod --config FILE --make-safe\n"
     "\n"
@@ -53,7 +54,8 @@ constexpr const char* usage_text =
     "                     once and starts a new one\n"
     "  --restart-limit N  supervisor: give up (outputs off, exit 1) after more\n"
     "                     than N worker deaths within 10 minutes (default 20);\n"
-    "                     a worker that never starts serving is retried 5 times\n"
+    "                     a worker that never starts serving is retried 5 times\n"    "  --worker-ready-fd N  internal: the supervisor passes it to its worker, which\n"
+    "                     writes one byte there once its socket listens\n"
     "  --foreground       accepted for clarity: juncod never detaches; logs go to stderr\n"
     "  --log-level LEVEL  error, warn, info (default) or debug\n"
     "  --help             this text\n"
