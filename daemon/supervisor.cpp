@@ -182,6 +182,8 @@ class Supervisor {
       log("error", std::string("fork: ") + std::strerror(errno));
       return false;
     }
+    // Never block on it: a read after the worker's death must return at once.
+    ::fcntl(ready[0], F_SETFL, ::fcntl(ready[0], F_GETFL) | O_NONBLOCK);
     worker_ = pid;
     ready_fd_ = ready[0];
     serving_ = false;
@@ -198,6 +200,7 @@ class Supervisor {
       serving_ = true;
       log("info", "worker pid " + std::to_string(worker_) + " serving");
     }
+    if (n < 0 && errno == EAGAIN) return;  // nothing yet
     if (n <= 0 || serving_) {
       ::close(ready_fd_);
       ready_fd_ = -1;
