@@ -1,12 +1,20 @@
 // juncod: loads the config, opens the Service (store, bench, executor) and
 // serves it on the Unix socket until SIGINT/SIGTERM, then turns the outputs
-// off and exits 0. Never forks and never listens on TCP; run it under
-// systemd (tools/systemd/juncod.service) or from a shell.
+// off and exits 0. Never listens on TCP. Three ways to run:
+//  - default (by hand, `junco demo`): a supervisor process that holds no
+//    instrument re-executes juncod as its worker and makes the bench safe
+//    whenever the worker dies (daemon/supervisor.hpp);
+//  - --no-supervisor: the worker alone (systemd supervises: the unit's
+//    ExecStopPost= runs --make-safe; tools/systemd/juncod.service);
+//  - --make-safe: open the bench, turn every output off, exit; no database.
 #include "daemon/config.hpp"
 #include "daemon/config_check.hpp"
 #include "daemon/core_service.hpp"
 #include "daemon/rpc_server.hpp"
 #include "junco/version.hpp"
+#include "daemon/supervisor.hpp"
+
+#include <unistd.h>
 
 #include <boost/asio/executor_work_guard.hpp>
 #include <boost/asio/io_context.hpp>
@@ -25,8 +33,10 @@
 namespace {
 
 constexpr const char* usage_text =
-    "usage: juncod --config FILE [--foreground] [--log-level LEVEL]\n"
+    "usage: juncod --config FILE [--foreground] [--no-supervisor | --restart-limit N]\n"
+    "              [--log-level LEVEL]\n"
     "       juncod --config FILE --check-config\n"
+    "       juncod --config FILE --make-safe\n"
     "\n"
     "The junco bench daemon: runs characterisation jobs on the instruments in\n"
     "FILE, stores every reading in its SQLite database and serves clients\n"
@@ -35,7 +45,20 @@ constexpr const char* usage_text =
     "options:\n"
     "  --config FILE      bench config (JSON with comments); required\n"
     "  --check-config     validate FILE, print a summary and exit (0 ok, 2 bad)\n"
-    "  --foreground       accepted for clarity: juncod never forks; logs go to stderr\n"
+    "  --make-safe        open the bench, turn the supply output off (0 V), the\n"
+    "                     generator off and the scanner open, then exit (0 all\n"
+    "                     safe, 1 not); never opens the database. The systemd\n"
+    "                     unit runs this after every stop (ExecStopPost=)\n"
+    "  --no-supervisor    run the daemon in this one process (under systemd, which\n"
+    "                     supervises it); default: a supervisor process that holds\n"
+    "                     no instrument runs the daemon as its worker and, if the\n"
+    "                     worker dies (crash, kill -9), turns the outputs off at\n"
+    "                     once and starts a new one\n"
+    "  --restart-limit N  supervisor: give up (outputs off, exit 1) after more\n"
+    "                     than N worker deaths within 10 minutes (default 20);\n"
+    "                     a worker that never starts serving is retried 5 times\n"    "  --worker-ready-fd N  internal: the supervisor passes it to its worker, which\n"
+    "                     writes one byte there once its socket listens\n"
+    "  --foreground       accepted for clarity: juncod never detaches; logs go to stderr\n"
     "  --log-level LEVEL  error, warn, info (default) or debug\n"
     "  --version          print the version and exit\n"
     "  --help             this text\n"
@@ -73,8 +96,25 @@ struct Args {
   std::string config;
   std::string log_level = "info";
   bool check_only = false;
+  bool make_safe = false;
+  bool no_supervisor = false;
+  int restart_limit = 20;
+  int ready_fd = -1;  // internal: set by the supervisor for its worker
   bool help = false;
 };
+
+// A whole non-negative number, or throws naming the option.
+int count_value(const std::string& name, const std::string& text, int max) {
+  std::size_t pos = 0;
+  long v = -1;
+  try {
+    v = std::stol(text, &pos);
+  } catch (const std::exception&) {
+    pos = 0;
+  }
+  if (pos != text.size() || v < 0 || v > max) throw name + " wants a whole number 0.." + std::to_string(max) + ", not '" + text + "'";
+  return static_cast<int>(v);
+}
 
 // Returns an error message, or "" when the command line is fine.
 std::string parse_args(int argc, char** argv, Args& out) {
@@ -91,6 +131,10 @@ std::string parse_args(int argc, char** argv, Args& out) {
       else if (a == "--log-level") out.log_level = value("--log-level");
       else if (a.rfind("--log-level=", 0) == 0) out.log_level = a.substr(12);
       else if (a == "--check-config") out.check_only = true;
+      else if (a == "--make-safe") out.make_safe = true;
+      else if (a == "--no-supervisor") out.no_supervisor = true;
+      else if (a == "--restart-limit") out.restart_limit = count_value(a, value("--restart-limit"), 100000);
+      else if (a == "--worker-ready-fd") out.ready_fd = count_value(a, value("--worker-ready-fd"), 1 << 20);
       else if (a == "--foreground") {
       } else return "unknown option '" + a + "'";
     } catch (const std::string& message) {
@@ -152,6 +196,30 @@ int main(int argc, char** argv) {
   const Logger logger(level_rank(args.log_level));
   const d::LogFn log = [&logger](std::string_view level, std::string_view message) { logger(level, message); };
 
+  if (args.make_safe) {
+    // Three tries 200 ms apart: a supply that is still closing the dead
+    // daemon's connection gets a second chance.
+    const std::string errors = d::make_bench_safe_alone(config, 3);
+    if (!errors.empty()) {
+      log("error", "make-safe: " + errors + "; check the bench");
+      return 1;
+    }
+    log("info", "make-safe: every output off, scanner open");
+    return 0;
+  }
+  if (!args.no_supervisor) {
+    d::SupervisorOptions so;
+    // The worker gets this command line minus the supervisor's own option.
+    for (int i = 0; i < argc; ++i) {
+      if (std::string_view(argv[i]) == "--restart-limit") ++i;
+      else so.worker_argv.push_back(argv[i]);
+    }
+    so.worker_argv.push_back("--no-supervisor");
+    so.crash_limit = args.restart_limit;
+    so.log = log;
+    return d::run_supervisor(config, so);
+  }
+
   boost::asio::io_context io;
   // Installed before the Service starts, so a signal during start-up is not lost.
   boost::asio::signal_set signals(io, SIGINT, SIGTERM);
@@ -181,6 +249,12 @@ int main(int argc, char** argv) {
     log("error", std::string("cannot serve: ") + e.what());
     service->shutdown();
     return 1;
+  }
+
+  if (args.ready_fd >= 0) {
+    // Tell the supervisor this worker serves (its restart back-off resets).
+    (void)!::write(args.ready_fd, "R", 1);
+    ::close(args.ready_fd);
   }
 
   auto work = boost::asio::make_work_guard(io);

@@ -91,7 +91,7 @@ int main(int argc, char** argv) {
                                                 .dump();
   test::ChildOptions o;
   o.stderr_path = (dir / "juncod.log").string();
-  test::ChildProcess juncod({std::string(JUNCO_BIN_DIR) + "/juncod", "--config", (dir / "bench.jsonc").string(), "--log-level", "warn"}, o);
+  test::ChildProcess juncod({std::string(JUNCO_BIN_DIR) + "/juncod", "--config", (dir / "bench.jsonc").string(), "--log-level", "warn", "--no-supervisor"}, o);
   for (int i = 0; i < 400 && !fs::exists(sock); ++i) std::this_thread::sleep_for(std::chrono::milliseconds(25));
   test::SocketClient c(sock);
 

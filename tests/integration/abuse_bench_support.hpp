@@ -120,8 +120,10 @@ class LiveBench {
     ChildOptions o;
     o.stderr_path = log_path();
     std::vector<std::string> argv = options_.daemon_prefix;
+    // --no-supervisor: the tests measure (memory, fds, sockets) and limit
+    // (prlimit) the process that serves the socket.
     for (const auto& a : {std::string(JUNCO_BIN_DIR) + "/juncod", std::string("--config"), (dir / "bench.jsonc").string(),
-                          std::string("--log-level"), options_.log_level})
+                          std::string("--log-level"), options_.log_level, std::string("--no-supervisor")})
       argv.push_back(a);
     daemon = std::make_unique<ChildProcess>(argv, o);
     for (int i = 0; i < 400; ++i) {

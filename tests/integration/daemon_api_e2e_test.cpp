@@ -32,12 +32,16 @@ struct Bench {
   ~Bench() { fs::remove_all(dir); }
   std::string socket() const { return (dir / "run" / "juncod.sock").string(); }
 
-  // Starts juncod and waits until its socket answers.
+  // Starts juncod and waits until its socket answers. --no-supervisor: the
+  // restart test SIGKILLs the process that holds the bench and the database
+  // and checks what the next start does (supervision: campaign_supervise_test).
   std::unique_ptr<test::ChildProcess> start_daemon() {
     test::ChildOptions o;
     o.stderr_path = (dir / ("juncod-" + std::to_string(starts++) + ".log")).string();
     auto p = std::make_unique<test::ChildProcess>(
-        std::vector<std::string>{std::string(JUNCO_BIN_DIR) + "/juncod", "--config", (dir / "bench.jsonc").string()}, o);
+        std::vector<std::string>{std::string(JUNCO_BIN_DIR) + "/juncod", "--config", (dir / "bench.jsonc").string(),
+                                 "--no-supervisor"},
+        o);
     for (int i = 0; i < 400; ++i) {
       REQUIRE(p->running());
       try {

@@ -169,3 +169,39 @@ TEST_CASE("self-heating at high current raises the junction temperature", "[sim]
   CHECK(t - 300.15 == Approx(400.0 * i * v).epsilon(0.02));
   CHECK(t > 310);
 }
+
+TEST_CASE("outputs? stamps every supply and generator switch on the test's monotonic clock", "[sim]") {
+  // The stamps are what the supervision campaign measures output-on windows
+  // with (docs/sim.md); here they are bracketed by the test's own
+  // steady_clock (CLOCK_MONOTONIC on Linux/libstdc++, common practice).
+  SimProcess sim;
+  LineClient src(sim.endpoint("source"));
+  LineClient gen(sim.endpoint("siggen"));
+  auto now_ns = [] {
+    return std::chrono::duration_cast<std::chrono::nanoseconds>(std::chrono::steady_clock::now().time_since_epoch()).count();
+  };
+  const auto before_on = now_ns();
+  REQUIRE(src.query("OUTP ON;*OPC?") == std::optional<std::string>("1"));
+  const auto after_on = now_ns();
+  REQUIRE(src.query("OUTP ON;*OPC?") == std::optional<std::string>("1"));  // no change: no new switch
+  std::this_thread::sleep_for(50ms);
+  const auto before_off = now_ns();
+  REQUIRE(src.query("OUTP OFF;*OPC?") == std::optional<std::string>("1"));
+  const auto after_off = now_ns();
+  REQUIRE(gen.query("OUTP ON;*OPC?") == std::optional<std::string>("1"));
+
+  const auto log = sim.control("outputs?");
+  CHECK(log["clock"] == "CLOCK_MONOTONIC");
+  CHECK(log["now_ns"].get<long long>() >= after_off);
+  const auto& sw = log["source"]["switches"];
+  REQUIRE(sw.size() == 2);
+  CHECK(sw[0]["on"] == true);
+  CHECK(sw[0]["t_ns"].get<long long>() >= before_on);
+  CHECK(sw[0]["t_ns"].get<long long>() <= after_on);
+  CHECK(sw[1]["on"] == false);
+  CHECK(sw[1]["t_ns"].get<long long>() >= before_off);
+  CHECK(sw[1]["t_ns"].get<long long>() <= after_off);
+  CHECK(log["source"]["output_on"] == false);
+  REQUIRE(log["siggen"]["switches"].size() == 1);
+  CHECK(log["siggen"]["output_on"] == true);
+}

@@ -77,6 +77,9 @@ class CampaignBench {
 
   // Starts juncod (optionally behind a wrapper argv such as unshare) and
   // waits until its socket answers. Returns false if it exited instead.
+  // --no-supervisor: the campaigns kill the process that holds the database
+  // and the instruments, with nothing to turn the outputs off for it; the
+  // supervisor is exercised by campaign_supervise_test.
   bool start_daemon(std::vector<std::string> wrapper = {}, std::chrono::milliseconds limit = std::chrono::seconds(10)) {
     client_.reset();
     daemon_.reset();
@@ -84,7 +87,7 @@ class CampaignBench {
     o.stderr_path = log_path(starts_++).string();
     o.stop_grace = std::chrono::milliseconds(5000);
     std::vector<std::string> argv = std::move(wrapper);
-    argv.insert(argv.end(), {std::string(JUNCO_BIN_DIR) + "/juncod", "--config", config_path().string()});
+    argv.insert(argv.end(), {std::string(JUNCO_BIN_DIR) + "/juncod", "--config", config_path().string(), "--no-supervisor"});
     daemon_ = std::make_unique<ChildProcess>(argv, o);
     const auto until = std::chrono::steady_clock::now() + limit;
     while (std::chrono::steady_clock::now() < until) {

@@ -1,5 +1,7 @@
 #include "tools/sim/bench.hpp"
 
+#include <time.h>
+
 #include <algorithm>
 #include <cmath>
 
@@ -31,8 +33,24 @@ double Bench::junction_temp_k() const {
   return slot_ >= 1 ? temp_k_[static_cast<size_t>(slot_ - 1)] : config_.ambient_k;
 }
 
+namespace {
+
+std::int64_t monotonic_ns() {
+  timespec ts{};
+  ::clock_gettime(CLOCK_MONOTONIC, &ts);
+  return static_cast<std::int64_t>(ts.tv_sec) * 1000000000 + ts.tv_nsec;
+}
+
+}  // namespace
+
+void Bench::note_switch(std::deque<Switch>& log, bool on) {
+  log.push_back(Switch{on, monotonic_ns()});
+  if (log.size() > kMaxSwitches) log.pop_front();
+}
+
 void Bench::set_bias(const BiasSetting& bias) {
   advance(Clock::now());
+  if (bias.output_on != bias_.output_on) note_switch(source_switches_, bias.output_on);
   bias_ = bias;
   cached_.reset();
 }
@@ -45,6 +63,7 @@ void Bench::select_slot(int slot) {
 
 void Bench::set_drive(const AcDrive& drive) {
   advance(Clock::now());
+  if (drive.on != drive_.on) note_switch(siggen_switches_, drive.on);
   drive_ = drive;
   cached_.reset();
 }
@@ -138,6 +157,18 @@ nlohmann::json Bench::state_json(Clock::time_point now) {
                  {"out_vrms", target.readings.out_vrms},
                  {"out_vpp", target.readings.out_vpp}};
   return j;
+}
+
+nlohmann::json Bench::outputs_json() const {
+  auto list = [](const std::deque<Switch>& log) {
+    nlohmann::json a = nlohmann::json::array();
+    for (const auto& s : log) a.push_back({{"on", s.on}, {"t_ns", s.t_ns}});
+    return a;
+  };
+  return {{"clock", "CLOCK_MONOTONIC"},
+          {"now_ns", monotonic_ns()},
+          {"source", {{"output_on", bias_.output_on}, {"switches", list(source_switches_)}}},
+          {"siggen", {{"output_on", drive_.on}, {"switches", list(siggen_switches_)}}}};
 }
 
 nlohmann::json Bench::lot_json() const {

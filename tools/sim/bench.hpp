@@ -10,6 +10,8 @@
 #include <nlohmann/json.hpp>
 
 #include <chrono>
+#include <cstdint>
+#include <deque>
 #include <mutex>
 #include <optional>
 #include <vector>
@@ -46,6 +48,11 @@ class Bench {
 
   nlohmann::json state_json(Clock::time_point now);
   nlohmann::json lot_json() const;
+  // Every switch of the supply and generator outputs since start, stamped on
+  // CLOCK_MONOTONIC (ns): the clock the tests' std::chrono::steady_clock
+  // reads, so a test can measure how long an output stayed on after it
+  // killed the daemon (control command `outputs?`, docs/sim.md).
+  nlohmann::json outputs_json() const;
 
   // For tests and the control endpoint: the part in the selected slot, if any.
   const PartParams* connected_part() const;
@@ -60,8 +67,17 @@ class Bench {
   Target compute_target();
   double power_w_at(double temp_k) const;
 
+  // One output switch (on or off) and when it happened.
+  struct Switch {
+    bool on;
+    std::int64_t t_ns;  // CLOCK_MONOTONIC
+  };
+  static constexpr std::size_t kMaxSwitches = 100000;  // oldest dropped beyond this
+  static void note_switch(std::deque<Switch>& log, bool on);
+
   std::mutex mutex_;
   SimConfig config_;
+  std::deque<Switch> source_switches_, siggen_switches_;
   std::vector<Slot> lot_;
   std::vector<double> temp_k_;  // per slot (index slot-1)
   BiasSetting bias_;

@@ -322,6 +322,9 @@ Control endpoint (one line in, one JSON line out):
   state?                        instrument settings and the part's true
                                 operating point {"v","i_a","temp_k"}
   lot?                          true parameters of each slot's part
+  outputs?                      every on/off switch of the supply and the
+                                generator, t_ns on CLOCK_MONOTONIC, with
+                                now_ns and the present state
   fault ROLE drop-after N       answer N more commands, then close the
                                 connection on the next (serial: drop that
                                 line unanswered); one shot
