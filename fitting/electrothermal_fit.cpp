@@ -7,6 +7,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <numbers>
 
 namespace junco::fitting {
@@ -206,6 +207,87 @@ ElectroThermalFit fit_electrothermal(std::span<const IvPoint> dc, std::span<cons
     }
   f.ok = true;
   return f;
+}
+
+ElectroThermalRun fit_run_electrothermal(std::span<const IvPoint> dc, std::span<const AcPoint> ac, const Fixture& fixture,
+                                         const ElectroThermalRunOptions& o) {
+  ElectroThermalRun run;
+  run.ac_total = ac.size();
+  const auto why = screen_ac_readings(ac, fixture, o.screen);
+  std::vector<AcPoint> used;
+  for (std::size_t k = 0; k < ac.size(); ++k)
+    if (why[k].empty()) used.push_back(ac[k]);
+  run.ac_left_out = ac.size() - used.size();
+  char line[400];
+  if (used.size() >= 2) {
+    run.fit = fit_electrothermal(dc, used, fixture, o.fit);
+    run.status = run.fit.ok ? "fitted" : "failed";
+    if (run.fit.ok)
+      std::snprintf(line, sizeof line,
+                    "isothermal Rs %.4g +/- %.2g ohm with Rth %.4g +/- %.2g K/W (Tj %.1f K at the top reading); the DC-only Rs "
+                    "%.4g ohm includes the heating",
+                    run.fit.rs_ohm.value, run.fit.rs_ohm.std_error, run.fit.rth_k_per_w.value, run.fit.rth_k_per_w.std_error,
+                    run.fit.top_tj_k.value, run.fit.apparent_rs_ohm.value);
+    else
+      std::snprintf(line, sizeof line, "electro-thermal fit failed: %s", run.fit.message.c_str());
+    run.note = line;
+    return run;
+  }
+  // No AC readings to separate Rs from the heating: fit DC alone, and size the bias.
+  run.status = "no_ac";
+  FitOptions fo;
+  fo.temp_k = o.fit.ambient_k;
+  fo.accuracy = o.fit.accuracy;
+  const FitResult plain = fit_forward(dc, fo);
+  run.fit.apparent_rs_ohm = plain.rs_ohm;
+  run.fit.message = "no usable AC readings: Rs and the heating cannot be told apart";
+  if (!plain.usable()) {
+    run.note = run.fit.message + " (and the DC-only fit failed: " + plain.message + ")";
+    return run;
+  }
+  std::vector<bool> used_dc(dc.size(), true);
+  for (const auto& e : plain.excluded) used_dc[e.index] = false;
+  for (std::size_t k = 0; k < dc.size(); ++k) {
+    const double power_w = dc[k].v * dc[k].i_a;
+    if (used_dc[k] && !(power_w <= run.fit.top_power_w)) {
+      run.fit.top_power_w = power_w;
+      run.fit.top_i_a = dc[k].i_a;
+    }
+  }
+  const double ta = o.fit.ambient_k, v_top = run.fit.top_power_w / run.fit.top_i_a;
+  const double vj = v_top - run.fit.top_i_a * plain.rs_ohm.value;
+  const double dvj_dt = (vj - o.fit.law.eg_ev - o.fit.law.xti * thermal_voltage_v(ta)) / ta;
+  run.rs_bias_per_100_k_per_w_ohm = 100.0 * v_top * std::abs(dvj_dt);
+  std::snprintf(line, sizeof line,
+                "Rs %.4g +/- %.2g ohm is from DC readings alone and may include self-heating: at the top reading (%.3g W) every "
+                "100 K/W of junction-to-ambient thermal resistance lowers it by about %.2g ohm; take AC readings to separate them",
+                plain.rs_ohm.value, plain.rs_ohm.std_error, run.fit.top_power_w, run.rs_bias_per_100_k_per_w_ohm);
+  run.note = line;
+  return run;
+}
+
+namespace {
+nlohmann::json num_or_null(double x) { return std::isfinite(x) ? nlohmann::json(x) : nlohmann::json(nullptr); }
+nlohmann::json est_json(const Estimate& e) { return {{"value", num_or_null(e.value)}, {"std_error", num_or_null(e.std_error)}}; }
+}  // namespace
+
+nlohmann::json electrothermal_run_json(const ElectroThermalRun& r, const ElectroThermalRunOptions& o) {
+  return {{"status", r.status},
+          {"note", r.note},
+          {"ac_readings", r.ac_total},
+          {"ac_left_out", r.ac_left_out},
+          {"rs_ohm", est_json(r.fit.rs_ohm)},
+          {"is_a", est_json(r.fit.is_a)},
+          {"n", est_json(r.fit.n)},
+          {"rth_k_per_w", est_json(r.fit.rth_k_per_w)},
+          {"top_tj_k", est_json(r.fit.top_tj_k)},
+          {"top_power_w", num_or_null(r.fit.top_power_w)},
+          {"apparent_rs_ohm", est_json(r.fit.apparent_rs_ohm)},
+          {"reduced_chi2", num_or_null(r.fit.reduced_chi2)},
+          {"rs_bias_per_100_k_per_w_ohm", num_or_null(r.rs_bias_per_100_k_per_w_ohm)},
+          {"eg_ev", o.fit.law.eg_ev},
+          {"xti", o.fit.law.xti},
+          {"ambient_k", o.fit.ambient_k}};
 }
 
 }  // namespace junco::fitting

@@ -27,9 +27,12 @@
 // readings taken before the junction settled see less than the steady rise.
 #pragma once
 
+#include "fitting/design_joint_fit.hpp"
 #include "fitting/extract.hpp"
 #include "fitting/temperature.hpp"
 #include "fitting/transfer.hpp"
+
+#include <nlohmann/json.hpp>
 
 #include <limits>
 #include <span>
@@ -84,5 +87,39 @@ double heated_voltage_v(const DiodeParams& p, double i_a, double ambient_k, doub
 // AC readings: without AC readings Rs and Rth cannot be told apart.
 ElectroThermalFit fit_electrothermal(std::span<const IvPoint> dc, std::span<const AcPoint> ac, const Fixture& fixture,
                                      const ElectroThermalOptions& options);
+
+// ---- What juncod calls after a run (one call, pure) -------------------------
+//
+// fit_run_electrothermal screens the run's AC readings (screen_ac_readings),
+// fits electro-thermally when at least 2 remain, and otherwise says what the
+// DC-only Rs may hide: the size of the heating bias per 100 K/W of thermal
+// resistance at the top reading's power (apparent Rs ≈ Rs − Rth·V·|dVj/dT|,
+// dVj/dT = (Vj − EG − XTI·Vt)/T at constant current, REFERENCES.md §2, §8).
+
+struct ElectroThermalRunOptions {
+  ElectroThermalOptions fit;  // ambient_k = the run's temp_k; accuracy, ac_sigma_db from the bench config
+  AcScreen screen;            // as part.transfer screens
+};
+
+struct ElectroThermalRun {
+  // "fitted": fit holds the isothermal parameters and Rth;
+  // "no_ac": fewer than 2 usable AC readings, only the DC-only fit;
+  // "failed": the fit did not converge or had no start (fit.message says why).
+  std::string status;
+  ElectroThermalFit fit;
+  std::size_t ac_total = 0, ac_left_out = 0;
+  // Without AC: the DC-only Rs is low by about this much per 100 K/W of
+  // junction-to-ambient thermal resistance (NaN when no DC fit).
+  double rs_bias_per_100_k_per_w_ohm = std::numeric_limits<double>::quiet_NaN();
+  std::string note;  // one line for the user
+};
+
+ElectroThermalRun fit_run_electrothermal(std::span<const IvPoint> dc, std::span<const AcPoint> ac, const Fixture& fixture,
+                                         const ElectroThermalRunOptions& options);
+
+// {status, note, ac_readings, ac_left_out, rs_ohm:{value,std_error}, is_a, n,
+//  rth_k_per_w, top_tj_k, top_power_w, apparent_rs_ohm, reduced_chi2,
+//  rs_bias_per_100_k_per_w_ohm, eg_ev, xti, ambient_k}; non-finite numbers null.
+nlohmann::json electrothermal_run_json(const ElectroThermalRun& run, const ElectroThermalRunOptions& options);
 
 }  // namespace junco::fitting

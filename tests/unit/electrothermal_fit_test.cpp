@@ -73,8 +73,8 @@ Readings make_readings(const Truth& t, bool noise, unsigned seed) {
     AcPoint p;
     p.bias_i_a = i;
     p.freq_hz = 10e6;
-    p.vin = 0.05;
-    p.vout = 0.05 * std::pow(10.0, db / 20.0);
+    p.vin = 0.002;  // Vrms: 2 mV keeps the signal current under 10 % of the bias (screen_ac_readings)
+    p.vout = 0.002 * std::pow(10.0, db / 20.0);
     r.ac.push_back(p);
   }
   return r;
@@ -153,4 +153,37 @@ TEST_CASE("without AC readings it refuses and says why") {
   CHECK_FALSE(f.ok);
   CHECK(f.message.find("cannot be told apart") != std::string::npos);
   CHECK(f.apparent_rs_ohm.value < t.rs_ohm - 0.2);  // the DC-only Rs is still reported
+}
+
+TEST_CASE("fit_run_electrothermal: fits with AC readings, sizes the heating bias without") {
+  const Truth t;
+  const auto r = make_readings(t, true, 31);
+  ElectroThermalRunOptions o;
+  o.fit.ambient_k = t.ambient_k;
+  // With AC: the fit, and a large-signal reading screened out first (a
+  // reading whose output level means a signal current above 10 % of the bias).
+  auto ac = r.ac;
+  AcPoint big = ac.front();
+  big.vin = 5.0;
+  big.vout = 5.0 * ac.front().vout / ac.front().vin;
+  ac.push_back(big);
+  const auto run = fit_run_electrothermal(r.dc, ac, fixture_50(), o);
+  CHECK(run.status == "fitted");
+  CHECK(run.ac_total == 21);
+  CHECK(run.ac_left_out == 1);
+  CHECK(std::abs(run.fit.rs_ohm.value - t.rs_ohm) < 0.05 * t.rs_ohm);
+  const auto j = electrothermal_run_json(run, o);
+  CHECK(j["rth_k_per_w"]["value"].get<double>() == run.fit.rth_k_per_w.value);
+  CHECK(j["apparent_rs_ohm"]["value"].get<double>() < t.rs_ohm - 0.2);
+  CHECK(j["eg_ev"] == 1.11);
+  // Without AC: DC only, with the bias per 100 K/W. Its size at this part's top
+  // reading (50 mA, ~0.9 V) from dVj/dT = (Vj − EG − XTI·Vt)/T (REFERENCES.md
+  // §2, E3) is about 0.1 ohm; the truth's own bias at 400 K/W (DC-only Rs −
+  // Rs) must be about 4× it (REFERENCES.md §8: Rs_app ≈ Rs − Rth·V·|dV/dT|).
+  const auto dc_only = fit_run_electrothermal(r.dc, {}, fixture_50(), o);
+  CHECK(dc_only.status == "no_ac");
+  CHECK(dc_only.note.find("may include self-heating") != std::string::npos);
+  const double per_100 = dc_only.rs_bias_per_100_k_per_w_ohm;
+  CHECK(per_100 == Approx((t.rs_ohm - dc_only.fit.apparent_rs_ohm.value) / 4.0).epsilon(0.1));  // 0.1100 vs 0.1097 here
+  CHECK(electrothermal_run_json(dc_only, o)["rth_k_per_w"]["value"].is_null());
 }
