@@ -86,10 +86,19 @@ class Run {
       // applies to the exported card).
       const double junction_k = has("temp_k") ? number("temp_k") : part_copy_.temp_k;
       part_copy_.dc = diode_at_temperature(part_copy_.dc, part_copy_.temp_k, junction_k, part_copy_.law);
+      if (part_copy_.cap.cj0_f > 0) {
+        const auto d = depletion_at_temperature(part_copy_.cap.cj0_f, part_copy_.cap.vj_v, part_copy_.cap.m, part_copy_.temp_k, junction_k);
+        part_copy_.cap.cj0_f = d.cj0_f;
+        part_copy_.cap.vj_v = d.vj_v;
+      }
       if (!(part_copy_.dc.rs_ohm >= 0))
         throw DesignInputError("temp_k", "temp_k: TRS makes RS negative at " + std::to_string(junction_k) + " K");
       part_copy_.temp_k = junction_k;
       answer_["junction"] = {{"temp_k", junction_k}, {"is_a", part_copy_.dc.is_a}, {"n", part_copy_.dc.n}, {"rs_ohm", part_copy_.dc.rs_ohm}};
+      if (part_copy_.cap.cj0_f > 0) {
+        answer_["junction"]["cj0_f"] = part_copy_.cap.cj0_f;
+        answer_["junction"]["vj_v"] = part_copy_.cap.vj_v;
+      }
     }
   }
 

@@ -13,8 +13,8 @@
 // EG and XTI default to SPICE's 1.11 eV and 3 (silicon pn junction). Note the
 // exponent: (T/TNOM − 1)·EG/(N·Vt(T)) = EG·q/(N·k)·(1/TNOM − 1/T), so taking
 // a part from T1 to T2 and then to T3 equals going from T1 to T3 (Is part).
-// N does not change with temperature in this law; the junction capacitance's
-// temperature terms are not modelled here (see docs/design.md).
+// N does not change with temperature in this law. The depletion law's VJ and
+// CJO move too (depletion_at_temperature, ngspice tlevc = 0).
 #pragma once
 
 #include "fitting/diode.hpp"
@@ -52,5 +52,20 @@ double series_resistance_at_ohm(double rs_ohm, double tnom_k, double temp_k, con
 // The whole DC model at temp_k: Is and RS moved by the law, N and the shunt
 // as they are. Use the result with temp_k in diode.hpp's functions.
 DiodeParams diode_at_temperature(const DiodeParams& p, double tnom_k, double temp_k, const TemperatureLaw& law);
+
+// VJ and CJO at temp_k of a depletion law given at tnom_k, the SPICE3 /
+// ngspice default (tlevc = 0, diotemp.c; REFERENCES.md §2, check values E4):
+//   pb(T)  = EG_Si(T) − EG_Si(300.15)·T/300.15 − 3·Vt·ln(T/300.15) (as the code
+//            writes it: −2·Vt·(1.5·ln(T/300.15) + q·(−EG_Si(T)/(2kT) + 1.1150877/(2k·300.15))))
+//   EG_Si(T) = 1.16 − 7.02e-4·T²/(T + 1108) eV
+//   pbo    = (VJ − pb(TNOM))·300.15/TNOM,  VJ(T) = pb(T) + (T/300.15)·pbo
+//   CJO(T) = CJO·[1 + M·(4e-4·(T − 300.15) − (VJ(T) − pbo)/pbo)]
+//               / [1 + M·(4e-4·(TNOM − 300.15) − (VJ − pbo)/pbo)]
+// M itself is held (no TM1/TM2).
+struct DepletionAtTemperature {
+  double cj0_f = 0.0;
+  double vj_v = 1.0;
+};
+DepletionAtTemperature depletion_at_temperature(double cj0_f, double vj_v, double m, double tnom_k, double temp_k);
 
 }  // namespace junco::fitting

@@ -105,3 +105,47 @@ TEST_CASE("op calculator equals ngspice .op from -40 to 125 degC", "[reference][
     }
   }
 }
+
+TEST_CASE("isolation calculator's Cj equals ngspice's at -40, 27, 85, 125 degC", "[reference][ngspice]") {
+  // ngspice `.op` of a reverse-biased diode prints its junction capacitance
+  // (@d1[cd]) with VJ and CJO moved by its tlevc = 0 law (diotemp.c,
+  // REFERENCES.md §2, E4); the isolation calculator reports Cj at the same
+  // reverse bias and junction temperature. Card values invented (a small
+  // switching diode: CJO 0.9 pF, VJ 0.65 V, M 0.42).
+  DesignPart dp;
+  dp.dc = {2.52e-9, 1.752, 0.568};
+  dp.temp_k = 300.15;
+  dp.cap.cj0_f = 0.9e-12;
+  dp.cap.vj_v = 0.65;
+  dp.cap.m = 0.42;
+  PartModel model;
+  model.part_label = "WREN-0912-07";
+  model.params = dp.dc;
+  model.cj0_f = dp.cap.cj0_f;
+  model.vj_v = dp.cap.vj_v;
+  model.m = dp.cap.m;
+  const std::string card = spice_model_card(model);
+  for (const double reverse_v : {0.0, 2.0, 10.0}) {
+    for (const double temp_c : {-40.0, 27.0, 85.0, 125.0}) {
+      INFO(reverse_v << " V reverse, " << temp_c << " degC");
+      const fs::path dir = fs::temp_directory_path() / ("junco_ngspice_cj_" + std::to_string(::getpid()));
+      fs::create_directories(dir);
+      std::ostringstream net;
+      net.precision(12);
+      net << "* junco Cj(T) reference\n" << card << "V1 k 0 DC " << reverse_v << "\nD1 0 k " << spice_model_name("WREN-0912-07") << "\n"
+          << ".options temp=" << temp_c << " tnom=27\n.control\nset numdgt=12\nop\nprint @d1[cd]\nquit 0\n.endc\n.end\n";
+      std::ofstream(dir / "cj.cir") << net.str();
+      REQUIRE(std::system(("ngspice -b " + (dir / "cj.cir").string() + " >" + (dir / "cj.out").string() + " 2>&1").c_str()) == 0);
+      double cd = NAN;
+      std::ifstream in(dir / "cj.out");
+      std::string line;
+      while (std::getline(in, line)) std::sscanf(line.c_str(), "@d1[cd] = %lf", &cd);
+      fs::remove_all(dir);
+      REQUIRE(std::isfinite(cd));
+      const Json a = run_design("isolation", &dp, {{"reverse_v", reverse_v}, {"temp_k", kelvin_from_celsius(temp_c)}, {"freq_hz", 1e9}});
+      // At 0 V the junction's diffusion part (TT = 0 here) and GMIN do not
+      // add capacitance; ngspice's k/q (CODATA 2014) moves VJ by ~1e-8 V.
+      CHECK(value_of(a["result"], "cj_f") == Approx(cd).epsilon(1e-6));
+    }
+  }
+}

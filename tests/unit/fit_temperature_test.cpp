@@ -84,3 +84,18 @@ TEST_CASE("the model document and the card carry the temperature law") {
       &why));
   CHECK(why == "temperature_law.eg_ev must be positive (eV)");
 }
+
+TEST_CASE("VJ and CJO at temperature reproduce E4") {
+  // Source: REFERENCES.md E4 (ngspice tlevc = 0, diotemp.c; VJ = 0.7 V, CJO = 1 pF,
+  // M = 0.5, TNOM = 27 degC): at 100 degC VJ = 0.556963 V, CJO = 1.116769 pF;
+  // at −25 degC VJ = 0.797154 V, CJO = 0.920204 pF.
+  const auto hot = depletion_at_temperature(1e-12, 0.7, 0.5, 300.15, 373.15);
+  CHECK(hot.vj_v == Approx(0.556963).margin(1e-6));
+  CHECK(hot.cj0_f == Approx(1.116769e-12).margin(1e-18));
+  const auto cold = depletion_at_temperature(1e-12, 0.7, 0.5, 300.15, 248.15);
+  CHECK(cold.vj_v == Approx(0.797154).margin(1e-6));
+  CHECK(cold.cj0_f == Approx(0.920204e-12).margin(1e-18));
+  const auto same = depletion_at_temperature(1e-12, 0.7, 0.5, 300.15, 300.15);
+  CHECK(same.vj_v == Approx(0.7).epsilon(1e-12));
+  CHECK(same.cj0_f == Approx(1e-12).epsilon(1e-12));
+}
