@@ -71,4 +71,16 @@ Estimate current_for_resistance_a(const FitResult& fit, double rd_ohm) {
   return propagate(fit, [&](const DiodeParams& p) { return current_for_resistance_a(p, rd_ohm, fit.temp_k); });
 }
 
+Estimate forward_voltage_v(const FitResult& fit, double i_a, double temp_k, const TemperatureLaw& law) {
+  return propagate(fit, [&](const DiodeParams& p) {
+    return forward_voltage_v(diode_at_temperature(p, fit.temp_k, temp_k, law), i_a, temp_k);
+  });
+}
+
+Estimate small_signal_resistance_ohm(const FitResult& fit, double i_a, double temp_k, const TemperatureLaw& law) {
+  return propagate(fit, [&](const DiodeParams& p) {
+    return small_signal_resistance_ohm(diode_at_temperature(p, fit.temp_k, temp_k, law), i_a, temp_k);
+  });
+}
+
 }  // namespace junco::fitting

@@ -6,6 +6,7 @@
 
 #include "fitting/diode.hpp"
 #include "fitting/extract.hpp"
+#include "fitting/temperature.hpp"
 
 namespace junco::fitting {
 
@@ -24,5 +25,11 @@ double current_for_resistance_a(const DiodeParams& p, double rd_ohm, double temp
 Estimate forward_voltage_v(const FitResult& fit, double i_a);
 Estimate small_signal_resistance_ohm(const FitResult& fit, double i_a);
 Estimate current_for_resistance_a(const FitResult& fit, double rd_ohm);
+
+// The same at another junction temperature: the fit's Is and Rs moved from
+// fit.temp_k (TNOM) to temp_k by the SPICE law (temperature.hpp), the
+// standard error propagated through the law (EG, XTI held as given).
+Estimate forward_voltage_v(const FitResult& fit, double i_a, double temp_k, const TemperatureLaw& law);
+Estimate small_signal_resistance_ohm(const FitResult& fit, double i_a, double temp_k, const TemperatureLaw& law);
 
 }  // namespace junco::fitting

@@ -75,10 +75,30 @@ class Run {
       if (has("cj0_f")) part_copy_.cap.cj0_f = number("cj0_f");
       if (has("vj_v")) part_copy_.cap.vj_v = number("vj_v");
       if (has("m")) part_copy_.cap.m = number("m");
-      if (has("temp_k")) part_copy_.temp_k = number("temp_k");
+      if (has("eg_ev")) part_copy_.law.eg_ev = number("eg_ev");
+      if (has("xti")) part_copy_.law.xti = number("xti");
+      if (has("trs1_per_k")) part_copy_.law.trs1_per_k = number("trs1_per_k");
       if (!(part_copy_.dc.is_a > 0 && part_copy_.dc.n > 0 && part_copy_.dc.rs_ohm >= 0))
         throw DesignInputError("part", "the part needs Is > 0, n > 0 and Rs >= 0");
       answer_["part"] = design_part_json(part_copy_);
+      // The calculators compute at the junction temperature: the part's
+      // parameters moved there by the SPICE law (the same one a simulator
+      // applies to the exported card).
+      const double junction_k = has("temp_k") ? number("temp_k") : part_copy_.temp_k;
+      part_copy_.dc = diode_at_temperature(part_copy_.dc, part_copy_.temp_k, junction_k, part_copy_.law);
+      if (part_copy_.cap.cj0_f > 0) {
+        const auto d = depletion_at_temperature(part_copy_.cap.cj0_f, part_copy_.cap.vj_v, part_copy_.cap.m, part_copy_.temp_k, junction_k);
+        part_copy_.cap.cj0_f = d.cj0_f;
+        part_copy_.cap.vj_v = d.vj_v;
+      }
+      if (!(part_copy_.dc.rs_ohm >= 0))
+        throw DesignInputError("temp_k", "temp_k: TRS makes RS negative at " + std::to_string(junction_k) + " K");
+      part_copy_.temp_k = junction_k;
+      answer_["junction"] = {{"temp_k", junction_k}, {"is_a", part_copy_.dc.is_a}, {"n", part_copy_.dc.n}, {"rs_ohm", part_copy_.dc.rs_ohm}};
+      if (part_copy_.cap.cj0_f > 0) {
+        answer_["junction"]["cj0_f"] = part_copy_.cap.cj0_f;
+        answer_["junction"]["vj_v"] = part_copy_.cap.vj_v;
+      }
     }
   }
 
@@ -110,6 +130,9 @@ class Run {
   }
   void assume_all() {
     for (const auto& s : calc_.inputs) assumed(s.key);
+    if (!calc_.needs_part) return;
+    for (const char* key : {"temp_k", "eg_ev", "xti", "trs1_per_k"})
+      if (has(key)) assumed(key);
   }
   void result(const std::string& key, const std::string& label, double value, const std::string& unit) {
     answer_["result"].push_back({{"key", key}, {"label", label}, {"unit", unit}, {"value", std::isfinite(value) ? Json(value) : Json(nullptr)}});
@@ -299,7 +322,10 @@ const std::vector<DesignInputSpec>& design_part_inputs() {
       optional_input("cj0_f", "cj", "F", "zero-bias Cj", InputRange::positive),
       optional_input("vj_v", "vj", "V", "junction potential VJ", InputRange::positive),
       optional_input("m", "m", "", "grading coefficient M", InputRange::positive),
-      optional_input("temp_k", "temp", "K", "junction temperature", InputRange::positive)};
+      optional_input("temp_k", "temp", "K", "junction T", InputRange::positive),
+      optional_input("eg_ev", "eg", "eV", "EG", InputRange::positive),
+      optional_input("xti", "xti", "", "XTI", InputRange::any),
+      optional_input("trs1_per_k", "trs1", "", "TRS1 (1/K)", InputRange::any)};
   return v;
 }
 
@@ -350,7 +376,8 @@ const DesignCalculator* find_design_calculator(const std::string& name) {
 }
 
 Json design_part_json(const DesignPart& p) {
-  Json j{{"label", p.label}, {"is_a", p.dc.is_a}, {"n", p.dc.n}, {"rs_ohm", p.dc.rs_ohm}, {"temp_k", p.temp_k}};
+  Json j{{"label", p.label}, {"is_a", p.dc.is_a}, {"n", p.dc.n}, {"rs_ohm", p.dc.rs_ohm}, {"temp_k", p.temp_k},
+         {"eg_ev", p.law.eg_ev}, {"xti", p.law.xti}, {"trs1_per_k", p.law.trs1_per_k}, {"trs2_per_k2", p.law.trs2_per_k2}};
   if (p.cap.cj0_f > 0) {
     j["cj0_f"] = p.cap.cj0_f;
     j["vj_v"] = p.cap.vj_v;
@@ -366,7 +393,9 @@ DesignPart design_part_from_json(const Json& j) {
   static const std::map<std::string, InputRange> numbers{{"is_a", InputRange::positive},  {"n", InputRange::positive},
                                                          {"rs_ohm", InputRange::non_negative}, {"temp_k", InputRange::positive},
                                                          {"cj0_f", InputRange::non_negative}, {"vj_v", InputRange::positive},
-                                                         {"m", InputRange::positive}};
+                                                         {"m", InputRange::positive}, {"eg_ev", InputRange::positive},
+                                                         {"xti", InputRange::any}, {"trs1_per_k", InputRange::any},
+                                                         {"trs2_per_k2", InputRange::any}};
   for (const auto& [key, value] : j.items()) {
     if (key == "label") {
       if (!value.is_string()) throw DesignInputError("part.label", "part.label: must be a string");
@@ -374,12 +403,15 @@ DesignPart design_part_from_json(const Json& j) {
     }
     const auto it = numbers.find(key);
     if (it == numbers.end())
-      throw DesignInputError("part." + key, "part." + key + ": not a part parameter (is_a, n, rs_ohm, temp_k, cj0_f, vj_v, m, label)");
+      throw DesignInputError("part." + key, "part." + key +
+                                                ": not a part parameter (is_a, n, rs_ohm, temp_k, cj0_f, vj_v, m, eg_ev, xti, "
+                                                "trs1_per_k, trs2_per_k2, label)");
     if (key == "cj0_f" && value.is_null()) continue;
-    const bool positive = it->second == InputRange::positive;
-    if (!value.is_number() || !std::isfinite(value.get<double>()) || value.get<double>() < 0 ||
-        (positive && value.get<double>() == 0))
-      throw DesignInputError("part." + key, "part." + key + (positive ? ": must be a number > 0" : ": must be a number >= 0"));
+    const bool positive = it->second == InputRange::positive, any = it->second == InputRange::any;
+    const char* need = any ? ": must be a finite number" : positive ? ": must be a number > 0" : ": must be a number >= 0";
+    if (!value.is_number() || !std::isfinite(value.get<double>()) ||
+        (!any && (value.get<double>() < 0 || (positive && value.get<double>() == 0))))
+      throw DesignInputError("part." + key, "part." + key + need);
   }
   for (const char* key : {"is_a", "n", "rs_ohm"})
     if (!j.contains(key)) throw DesignInputError(std::string("part.") + key, std::string("part.") + key + ": missing (required)");
@@ -392,6 +424,10 @@ DesignPart design_part_from_json(const Json& j) {
   if (j.contains("cj0_f") && j["cj0_f"].is_number()) p.cap.cj0_f = j["cj0_f"].get<double>();
   if (j.contains("vj_v")) p.cap.vj_v = j["vj_v"].get<double>();
   if (j.contains("m")) p.cap.m = j["m"].get<double>();
+  if (j.contains("eg_ev")) p.law.eg_ev = j["eg_ev"].get<double>();
+  if (j.contains("xti")) p.law.xti = j["xti"].get<double>();
+  if (j.contains("trs1_per_k")) p.law.trs1_per_k = j["trs1_per_k"].get<double>();
+  if (j.contains("trs2_per_k2")) p.law.trs2_per_k2 = j["trs2_per_k2"].get<double>();
   return p;
 }
 

@@ -16,6 +16,7 @@
 
 #include "fitting/diode.hpp"
 #include "fitting/design_switch.hpp"
+#include "fitting/temperature.hpp"
 
 #include <nlohmann/json.hpp>
 
@@ -27,11 +28,15 @@
 namespace junco::fitting {
 
 // The part a calculator works on: a fit (from a model document, the store or
-// explicit values) and, when known, its junction capacitance law.
+// explicit values) and, when known, its junction capacitance law. dc holds at
+// temp_k (the fit's temperature, SPICE TNOM); a calculator asked for another
+// junction temperature (input temp_k) moves Is and RS there by law
+// (temperature.hpp) before it computes.
 struct DesignPart {
   std::string label = "(explicit parameters)";
   DiodeParams dc;
-  double temp_k = 300.15;
+  double temp_k = 300.15;  // temperature at which dc holds (TNOM)
+  TemperatureLaw law;      // EG, XTI (SPICE defaults unless given), TRS1/TRS2
   JunctionCap cap;  // cj0_f = 0: unknown
 };
 
@@ -71,7 +76,8 @@ const std::vector<DesignCalculator>& design_calculators();
 const DesignCalculator* find_design_calculator(const std::string& name);
 
 // Inputs every part-based calculator also takes: they override the part's
-// junction capacitance law (cj0_f, vj_v, m) and temperature (temp_k).
+// junction capacitance law (cj0_f, vj_v, m) and temperature law (eg_ev, xti,
+// trs1_per_k), and set the junction temperature (temp_k; default the part's).
 const std::vector<DesignInputSpec>& design_part_inputs();
 
 // Runs a calculator. part may be null only for calculators that do not need
@@ -80,13 +86,16 @@ const std::vector<DesignInputSpec>& design_part_inputs();
 // cannot be met is not an error: achievable = false and reason say why.
 nlohmann::json run_design(const std::string& calculator, const DesignPart* part, const nlohmann::json& inputs);
 
-// The part as the answer reports it (SPICE names, SI units).
+// The part as the answer reports it (SPICE names, SI units): its parameters
+// at its own temp_k, with the temperature law (eg_ev, xti, trs1_per_k,
+// trs2_per_k2). The answer's "junction" object holds what the calculator
+// computed with: {temp_k, is_a, n, rs_ohm} at the junction temperature.
 nlohmann::json design_part_json(const DesignPart& part);
 
 // The inverse, for a part given by value (the socket's design.run): is_a > 0,
 // n > 0 and rs_ohm >= 0 required; label, temp_k > 0, cj0_f >= 0 (or null:
-// unknown), vj_v > 0 and m > 0 optional (as the inputs'
-// overrides). So an answer's "part" reads back
+// unknown), vj_v > 0, m > 0, eg_ev > 0, xti, trs1_per_k, trs2_per_k2
+// optional (as the inputs' overrides). So an answer's "part" reads back
 // as the same part. Throws DesignInputError naming "part.KEY".
 DesignPart design_part_from_json(const nlohmann::json& part);
 

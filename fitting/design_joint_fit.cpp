@@ -26,23 +26,13 @@ struct DcCost {
   }
 };
 
-// 20·log10|Vout/Vin| of the fixture (transfer.hpp): the diode Rs + (rj ∥ Cj)
-// in series with the cathode's load z_load = RL ∥ Rr.
-template <typename T>
-T fixture_gain_db(const T& rj, const T& rs, double omega_cj, double z_load) {
-  const T a = T(omega_cj) * rj;  // ω·Cj·rj
-  const T re = rs + rj / (T(1.0) + a * a) + T(z_load);
-  const T im = -a * rj / (T(1.0) + a * a);
-  return T(10.0) * log10(T(z_load * z_load) / (re * re + im * im));
-}
-
 struct AcCost {
   double bias_i_a, measured_db, vt, omega_cj, z_load, inv_sigma;
   template <typename T>
   bool operator()(const T* const x, T* r) const {
     // x = {ln Is, n, Rs}
     const T rj = x[1] * T(vt) / (T(bias_i_a) + exp(x[0]));
-    r[0] = (fixture_gain_db(rj, x[2], omega_cj, z_load) - T(measured_db)) * T(inv_sigma);
+    r[0] = (fixture_gain_db_of(rj, x[2], omega_cj, z_load) - T(measured_db)) * T(inv_sigma);
     return true;
   }
 };
@@ -54,7 +44,7 @@ struct AcOnlyCost {
   bool operator()(const T* const x, T* r) const {
     // x = {n, Rs}
     const T rj = x[0] * T(vt) / T(bias_i_a);
-    r[0] = (fixture_gain_db(rj, x[1], omega_cj, z_load) - T(measured_db)) * T(inv_sigma);
+    r[0] = (fixture_gain_db_of(rj, x[1], omega_cj, z_load) - T(measured_db)) * T(inv_sigma);
     return true;
   }
 };

@@ -68,7 +68,9 @@ std::string model_document_json(const PartModel& p) {
            {"version", model_document_version},
            {"part", part},
            {"temperature_k", p.temp_k},
-           {"model", model}};
+           {"model", model},
+           {"temperature_law",
+            {{"eg_ev", p.law.eg_ev}, {"xti", p.law.xti}, {"trs1_per_k", p.law.trs1_per_k}, {"trs2_per_k2", p.law.trs2_per_k2}}}};
   if (std::isfinite(p.rms_residual)) doc["fit"] = {{"rms_residual", p.rms_residual}, {"points_used", p.points_used}};
   return doc.dump(2) + "\n";
 }
@@ -104,6 +106,15 @@ std::optional<PartModel> parse_model_document(const std::string& text, std::stri
     if (!(p.params.is_a > 0.0)) throw Bad("model.is_a.value must be positive");
     if (!(p.params.n > 0.0)) throw Bad("model.n.value must be positive");
     if (!(p.params.rs_ohm >= 0.0)) throw Bad("model.rs_ohm.value must not be negative");
+    if (doc.contains("temperature_law")) {
+      const Json& law = doc.at("temperature_law");
+      if (!law.is_object()) throw Bad("temperature_law must be an object {\"eg_ev\":..., \"xti\":...}");
+      if (law.contains("eg_ev")) p.law.eg_ev = number_at(law, "eg_ev", "temperature_law");
+      if (law.contains("xti")) p.law.xti = number_at(law, "xti", "temperature_law");
+      if (law.contains("trs1_per_k")) p.law.trs1_per_k = number_at(law, "trs1_per_k", "temperature_law");
+      if (law.contains("trs2_per_k2")) p.law.trs2_per_k2 = number_at(law, "trs2_per_k2", "temperature_law");
+      if (!(p.law.eg_ev > 0.0)) throw Bad("temperature_law.eg_ev must be positive (eV)");
+    }
     if (doc.contains("fit") && doc.at("fit").is_object()) {
       const Json& fit = doc.at("fit");
       if (fit.contains("rms_residual")) p.rms_residual = number_at(fit, "rms_residual", "fit");

@@ -8,7 +8,11 @@
 //    "temperature_k":300.15,
 //    "model":{"is_a":{"value":2.1e-9,"std_error":1e-11},"n":{...},"rs_ohm":{...},
 //             "rsh_ohm":{...}?,"cj0_f":{...}?,"vj_v":{...}?,"m":{...}?},
+//    "temperature_law":{"eg_ev":1.11,"xti":3,"trs1_per_k":0,"trs2_per_k2":0},
 //    "fit":{"rms_residual":0.8,"points_used":40}?}
+//
+// temperature_law (SPICE EG, XTI, TRS1, TRS2; temperature.hpp) is written
+// always; on reading, an absent law or key means the SPICE default.
 //
 // Unknown fields are ignored on reading; a std_error that is not determined
 // is omitted (never null).

@@ -58,6 +58,10 @@ std::string spice_model_card(const PartModel& part, const std::string& name) {
   if (std::isfinite(part.cj0_f)) s += " CJO=" + num(part.cj0_f);
   if (std::isfinite(part.vj_v)) s += " VJ=" + num(part.vj_v);
   if (std::isfinite(part.m)) s += " M=" + num(part.m);
+  std::snprintf(line, sizeof line, " EG=%.6g XTI=%.6g", part.law.eg_ev, part.law.xti);
+  s += line;
+  if (part.law.trs1_per_k != 0.0) s += " TRS1=" + num(part.law.trs1_per_k);
+  if (part.law.trs2_per_k2 != 0.0) s += " TRS2=" + num(part.law.trs2_per_k2);
   std::snprintf(line, sizeof line, " TNOM=%.4g)\n", tnom_c);
   s += line;
   return s;

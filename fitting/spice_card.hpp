@@ -2,11 +2,15 @@
 // SPICE diode model card made from it. Pure: strings in, string out.
 //
 // Card parameter names and units follow the SPICE level-1 diode (REFERENCES.md
-// §2): IS [A], N, RS [Ω], CJO [F], VJ [V], M, TNOM [°C]. Parameters left at
-// NaN are omitted so the simulator's defaults apply.
+// §2): IS [A], N, RS [Ω], CJO [F], VJ [V], M, EG [eV], XTI, TRS1 [1/K],
+// TRS2 [1/K²], TNOM [°C]. Parameters left at NaN are omitted so the
+// simulator's defaults apply. EG and XTI are always written (the values junco's
+// own calculators use away from TNOM, temperature.hpp), TRS1/TRS2 when not 0,
+// so a simulator and junco agree at every temperature.
 #pragma once
 
 #include "fitting/diode.hpp"
+#include "fitting/temperature.hpp"
 
 #include <limits>
 #include <string>
@@ -20,6 +24,7 @@ struct PartModel {
   std::string run_id;      // the run the fit came from ("" when not from a run)
   double temp_k = 300.15;  // junction temperature of the fit (becomes TNOM)
   DiodeParams params;
+  TemperatureLaw law;  // EG, XTI (SPICE defaults unless measured or given), TRS1/TRS2
   double is_se_a = std::numeric_limits<double>::quiet_NaN();  // standard errors; NaN = not determined
   double n_se = std::numeric_limits<double>::quiet_NaN();
   double rs_se_ohm = std::numeric_limits<double>::quiet_NaN();
@@ -35,7 +40,7 @@ struct PartModel {
 // starting with a letter ("K7-014" -> "K7_014", "014" -> "D014").
 std::string spice_model_name(const std::string& label);
 
-// "* ..." comment header, then `.model NAME D(IS=... N=... RS=... TNOM=...)`.
+// "* ..." comment header, then `.model NAME D(IS=... N=... RS=... EG=... XTI=... TNOM=...)`.
 // An empty name derives one from the part label.
 std::string spice_model_card(const PartModel& part, const std::string& name = "");
 

@@ -62,6 +62,19 @@ std::complex<double> transfer_ratio(const Fixture& fx, std::complex<double> z_di
 
 inline double to_db(std::complex<double> ratio) { return 20.0 * std::log10(std::abs(ratio)); }
 
+// 20·log10|Vout/Vin| of the fixture for a diode Rs + (rj ∥ Cj) in series with
+// the cathode's load z_load = RL ∥ Rr, omega_cj = ω·Cj (0: no Cj). The same
+// value as to_db(fixture_gain(...)), written out in real arithmetic so the
+// fits can differentiate it with Ceres's dual numbers.
+template <typename T>
+T fixture_gain_db_of(const T& rj, const T& rs, double omega_cj, double z_load) {
+  using std::log10;
+  const T a = omega_cj * rj;  // ω·Cj·rj
+  const T re = rs + rj / (1.0 + a * a) + z_load;
+  const T im = -a * rj / (1.0 + a * a);
+  return 10.0 * log10((z_load * z_load) / (re * re + im * im));
+}
+
 // Insertion loss (dB, positive = loss) of the biased part in the fixture.
 double insertion_loss_db(const Fixture& fx, const AcPart& part, double bias_i_a, double freq_hz, double temp_k);
 

@@ -75,7 +75,7 @@ TEST_CASE("junco export spice and lot stats from model documents") {
   std::ofstream(d.file("c.json")) << model_document_json(demo_part("DM-03", 5e-13));
   auto r = run_junco("export spice " + d.file("a.json"));
   CHECK(r.status == 0);
-  CHECK(r.out.find(".model DM_01 D(IS=1.000000e-14 N=1.000000e+00 RS=1.000000e+00 TNOM=27)") != std::string::npos);
+  CHECK(r.out.find(".model DM_01 D(IS=1.000000e-14 N=1.000000e+00 RS=1.000000e+00 EG=1.11 XTI=3 TNOM=27)") != std::string::npos);
   CHECK(r.out.find("* run run-3") != std::string::npos);
   r = run_junco("export spice " + d.file("a.json") + " " + d.file("b.json") + " " + d.file("c.json"));
   CHECK(r.out.find(".model LOT_DEMO7_NOM D(IS=1.020000e-14") != std::string::npos);  // median

@@ -93,17 +93,51 @@ TEST_CASE("E12 and E5: off-state isolation from the junction capacitance, with r
   CHECK(field_of("isolation", &part, Json::object()) == "cj0_f");
 }
 
-TEST_CASE("the temperature override reaches the physics") {
-  // Vt = kT/q grows with T, so at a fixed supply and resistor the diode
-  // drops less voltage when hot (REFERENCES.md E3: about -1.8 mV/K at 1 mA).
-  const auto part = e8_part();
+TEST_CASE("the junction temperature moves IS by the SPICE law: Vf falls as T rises") {
+  // Source: REFERENCES.md E3 (SPICE IS(T) of §2, ngspice diotemp.c; IS = 1e-14 A,
+  // N = 1, XTI = 3, EG = 1.11 eV, TNOM = 27 degC, RS = 0): V(1 mA) falls from
+  // 0.655118 V at 27 degC to 0.523485 V at 100 degC; dV/dT at 27 degC = -1.774 mV/K.
+  DesignPart part;
+  part.dc = {1e-14, 1.0, 0.0};
+  part.temp_k = 300.15;
+  const auto vd_at = [&](double temp_k) {
+    const Json a = run_design("bias-r", &part, {{"supply_v", 5.0}, {"current_a", 1e-3}, {"temp_k", temp_k}});
+    return value_of(a["result"], "diode_voltage_v");
+  };
+  CHECK(vd_at(300.15) == Approx(0.655118).margin(1e-6));
+  CHECK(vd_at(373.15) == Approx(0.523485).margin(1e-6));
+  const double dv_dt = (vd_at(300.65) - vd_at(299.65)) / 1.0;
+  CHECK(dv_dt == Approx(-1.774e-3).margin(2e-6));
+  // The op calculator (fixed supply and resistor) falls the same way, and the
+  // answer says at what temperature it computed, with IS moved there (E3:
+  // IS(100 degC) = 8.5073276e-11 A), while "part" stays the part as given.
   const Json cold = run_design("op", &part, {{"supply_v", 5.0}, {"rbias_ohm", 4300.0}});
-  const Json hot = run_design("op", &part, {{"supply_v", 5.0}, {"rbias_ohm", 4300.0}, {"temp_k", 310.15}});
-  const double dv = value_of(hot["result"], "diode_voltage_v") - value_of(cold["result"], "diode_voltage_v");
-  // IS is not temperature-scaled here (the part's IS is the fit's at its own
-  // temperature): only N·Vt changes, +10 K → V·(10/300.15) larger.
-  CHECK(dv == Approx(value_of(cold["result"], "diode_voltage_v") * 10.0 / 300.15).epsilon(0.05));
-  CHECK(hot["part"]["temp_k"] == 310.15);
+  const Json hot = run_design("op", &part, {{"supply_v", 5.0}, {"rbias_ohm", 4300.0}, {"temp_k", 373.15}});
+  CHECK(value_of(hot["result"], "diode_voltage_v") < value_of(cold["result"], "diode_voltage_v") - 0.1);
+  CHECK(hot["junction"]["temp_k"] == 373.15);
+  CHECK(hot["junction"]["is_a"].get<double>() == Approx(8.5073276e-11).epsilon(1e-7));
+  CHECK(hot["part"]["temp_k"] == 300.15);
+  CHECK(hot["part"]["is_a"] == 1e-14);
+  CHECK(hot["part"]["eg_ev"] == 1.11);
+  std::set<std::string> keys;
+  for (const auto& l : hot["assumed"]) keys.insert(l["key"].get<std::string>());
+  CHECK(keys.count("temp_k") == 1);
+  // A part given by value reads back as the same part (EG, XTI, TRS1 included).
+  const Json law = run_design("op", &part, {{"supply_v", 5.0}, {"rbias_ohm", 430.0}, {"temp_k", 358.15}, {"eg_ev", 0.69},
+                                            {"xti", 2.0}, {"trs1_per_k", 4e-3}});
+  const DesignPart back = design_part_from_json(law["part"]);
+  CHECK(back.law.eg_ev == 0.69);
+  CHECK(back.law.xti == 2.0);
+  CHECK(back.law.trs1_per_k == 4e-3);
+  CHECK(back.temp_k == 300.15);
+}
+
+TEST_CASE("TRS1 moves RS linearly with the junction temperature") {
+  // Source: ngspice diotemp.c / REFERENCES.md §2: RS(T) = RS·(1 + TRS1·ΔT + TRS2·ΔT²).
+  const auto part = e8_part();  // RS = 1 ohm at 27 degC
+  const Json a = run_design("op", &part, {{"supply_v", 5.0}, {"rbias_ohm", 430.0}, {"temp_k", 400.15}, {"trs1_per_k", 2e-3}});
+  CHECK(a["junction"]["rs_ohm"].get<double>() == Approx(1.2).epsilon(1e-12));
+  CHECK(field_of("op", &part, {{"supply_v", 5.0}, {"rbias_ohm", 430.0}, {"temp_k", 400.15}, {"trs1_per_k", -0.02}}) == "temp_k");
 }
 
 TEST_CASE("targets that cannot be met and power over a limit are answers, not errors") {

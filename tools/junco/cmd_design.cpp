@@ -30,7 +30,11 @@ const char* const part_help =
     "  --is A --n N --rs OHM   explicit parameters, e.g. --is 2.5n --n 1.8 --rs 0.6\n"
     "and, for any of them:\n"
     "  --cj F --vj V --m M     junction capacitance law (overrides the part's)\n"
-    "  --temp DEGC         junction temperature (default: the fit's, else 27 degC)\n"
+    "  --temp DEGC         junction temperature (default: the fit's, else 27 degC); IS and RS\n"
+    "                      follow the SPICE law from the fit's temperature (TNOM):\n"
+    "                      IS(T) = IS*(T/TNOM)^(XTI/N)*exp((T/TNOM-1)*EG/(N*Vt(T))),\n"
+    "                      RS(T) = RS*(1 + TRS1*(T-TNOM))\n"
+    "  --eg EV --xti X --trs1 PER_K   the law's EG (default 1.11), XTI (3), TRS1 (0)\n"
     "  --json              print the answer as JSON (the part.design result)\n"
     "values take engineering suffixes: 10mA, 1k, 2.2pF, 100MHz (m = milli, M = mega)\n";
 
@@ -149,6 +153,7 @@ DesignPart local_part(const Request& r) {
     p.label = m->part_label + (m->lot.empty() ? std::string() : " (lot " + m->lot + ")");
     p.dc = m->params;
     p.temp_k = m->temp_k;
+    p.law = m->law;
     if (std::isfinite(m->cj0_f)) p.cap.cj0_f = m->cj0_f;
     if (std::isfinite(m->vj_v)) p.cap.vj_v = m->vj_v;
     if (std::isfinite(m->m)) p.cap.m = m->m;
@@ -183,6 +188,14 @@ void print_answer(const nlohmann::json& a) {
       std::printf("  CJO=%s VJ=%.3g V M=%.3g", format_engineering(p["cj0_f"].get<double>(), "F").c_str(), p["vj_v"].get<double>(),
                   p["m"].get<double>());
     std::printf("  at %.2f degC\n", p["temp_k"].get<double>() - zero_celsius_k);
+    // The calculators computed at the junction temperature (SPICE law from the part's).
+    if (a.contains("junction") && a["junction"]["temp_k"].get<double>() != p["temp_k"].get<double>()) {
+      const auto& j = a["junction"];
+      std::printf("junction  at %.2f degC: IS=%.4g A  RS=%.4g ohm  (EG=%.4g eV XTI=%.4g", j["temp_k"].get<double>() - zero_celsius_k,
+                  j["is_a"].get<double>(), j["rs_ohm"].get<double>(), p.value("eg_ev", 0.0), p.value("xti", 0.0));
+      if (p.value("trs1_per_k", 0.0) != 0.0) std::printf(" TRS1=%.4g/K", p.value("trs1_per_k", 0.0));
+      std::printf(")\n");
+    }
   }
   for (const auto& l : a["assumed"]) std::printf("assumed   %-16s %s\n", l["label"].get<std::string>().c_str(), shown_value(l, 4).c_str());
   std::size_t width = 0;
