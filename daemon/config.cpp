@@ -127,7 +127,7 @@ FixtureConfig parse_fixture(const Checker& c, const Json& obj) {
 
 fitting::AccuracyModel parse_accuracy(const Checker& c, const Json& obj) {
   const std::string p = "/accuracy";
-  c.only_keys(obj, p, {"v_rel", "v_abs_v", "i_rel", "i_abs_a"});
+  c.only_keys(obj, p, {"v_rel", "v_abs_v", "i_rel", "i_abs_a", "level_db"});
   fitting::AccuracyModel a;
   a.v_rel = c.number(obj, "v_rel", p, a.v_rel, false, 0, true);
   a.v_abs_v = c.number(obj, "v_abs_v", p, a.v_abs_v, false, 0, true);
@@ -289,7 +289,12 @@ Config parse_config_impl(const std::string& text, const fs::path& file, std::vec
     if (doc.contains("limits")) cfg.limits = parse_limits(c, c.object(doc, "limits", "/limits"));
   });
   section(problems, [&] {
-    if (doc.contains("accuracy")) cfg.accuracy = parse_accuracy(c, c.object(doc, "accuracy", "/accuracy"));
+    if (doc.contains("accuracy")) {
+      const Json& a = c.object(doc, "accuracy", "/accuracy");
+      cfg.accuracy = parse_accuracy(c, a);
+      cfg.level_db = c.number(a, "level_db", "/accuracy", cfg.level_db, false, 0, false);
+      if (cfg.level_db > 3) c.fail("/accuracy/level_db", "must be at most 3 dB (a level meter's ratio accuracy)");
+    }
   });
 
   section(problems, [&] { if (doc.contains("server")) {

@@ -96,6 +96,11 @@ struct Config {
   // fits weight every reading by it and exclude currents below 10 × i_abs_a.
   // Optional; fitting::AccuracyModel's defaults otherwise.
   fitting::AccuracyModel accuracy;
+  // The level meter's accuracy for the ratio of its two channels, as a
+  // ±limit in dB (accuracy.level_db); σ = limit/√3 as for the DC readings.
+  // Every AC fit and consistency test juncod makes uses this one σ.
+  double level_db = 0.02;
+  double level_sigma_db() const { return level_db / 1.7320508075688772; }
   PathsConfig paths;
   ServerConfig server;
   nlohmann::json raw;  // the parsed document (for bench.describe)

@@ -158,7 +158,7 @@ class CoreService final : public Service {
               {"max_plan_memory_bytes", config_.limits.max_plan_memory_bytes}}},
             {"accuracy",
              {{"v_rel", config_.accuracy.v_rel}, {"v_abs_v", config_.accuracy.v_abs_v}, {"i_rel", config_.accuracy.i_rel},
-              {"i_abs_a", config_.accuracy.i_abs_a}}}};
+              {"i_abs_a", config_.accuracy.i_abs_a}, {"level_db", config_.level_db}}}};
   }
 
   Json submit(const Json& params, const Caller& caller) {
@@ -372,7 +372,7 @@ class CoreService final : public Service {
     const PartRow part = part_or_throw(id_param(params, "part_id"));
     TransferOptions o;
     o.accuracy = config_.accuracy;
-    o.ac_sigma_db = opt_number_param(params, "ac_sigma_db", o.ac_sigma_db, false);
+    o.ac_sigma_db = opt_number_param(params, "ac_sigma_db", config_.level_sigma_db(), false);
     o.cj_f = opt_number_param(params, "cj_f", o.cj_f, true);
     o.max_signal_ratio = opt_number_param(params, "max_signal_ratio", o.max_signal_ratio, false);
     o.ac_floor_v = opt_number_param(params, "ac_floor_v", o.ac_floor_v, true);

@@ -3,6 +3,7 @@
 #include "daemon/part_analysis.hpp"
 
 #include "drivers/errors.hpp"
+#include "fitting/electrothermal_fit.hpp"
 #include "fitting/extract.hpp"
 
 #include <chrono>
@@ -58,7 +59,46 @@ struct RunFit {
   fitting::FitResult fit;
   std::optional<fitting::JunctionCapFit> cap;
   Json cap_readings;
+  Json more_detail = Json::object();  // {"electrothermal": …}
 };
+
+// With AC readings, Rs and self-heating can be told apart
+// (fitting/electrothermal_fit.hpp, docs/fitting.md): the stored Is, n and Rs
+// become the isothermal ones at the run's ambient, with their covariance;
+// the DC-only Rs stays in detail.electrothermal.apparent_rs_ohm. Without AC
+// readings the fit keeps the DC-only values and warns how much heating they
+// may hide.
+void apply_electrothermal(const Config& cfg, double temp_k, const Json& fixture, const std::vector<PointRow>& points, RunFit& out) {
+  fitting::ElectroThermalRunOptions eo;
+  eo.fit.ambient_k = temp_k;
+  eo.fit.accuracy = cfg.accuracy;
+  eo.fit.ac_sigma_db = cfg.level_sigma_db();
+  const auto dc = dc_fit_points(points);
+  const auto ac = ac_points(points);
+  const fitting::ElectroThermalRun et = fitting::fit_run_electrothermal(dc, ac, ac_fixture(fixture), eo);
+  out.more_detail["electrothermal"] = fitting::electrothermal_run_json(et, eo);
+  if (et.status == "no_ac" || et.status == "failed") {
+    if (!et.note.empty()) out.fit.warnings.push_back(et.note);
+    return;
+  }
+  const fitting::ElectroThermalFit& f = et.fit;
+  out.fit.is_a = f.is_a;
+  out.fit.n = f.n;
+  out.fit.rs_ohm = f.rs_ohm;
+  // (ln Is, n, Rs, Rth) correlation → covariance of (Is, n, Rs): a change of
+  // ln Is by d is a change of Is by Is·d, so the correlation carries over.
+  const double se[3] = {f.is_a.std_error, f.n.std_error, f.rs_ohm.std_error};
+  out.fit.parameter_names = {"is_a", "n", "rs_ohm"};
+  out.fit.correlation.assign(3, std::vector<double>(3, 0.0));
+  out.fit.covariance.assign(3, std::vector<double>(3, 0.0));
+  for (int a = 0; a < 3; ++a)
+    for (int b = 0; b < 3; ++b) {
+      const double r = f.correlation.size() >= 3 ? f.correlation[a][b] : (a == b ? 1.0 : 0.0);
+      out.fit.correlation[a][b] = r;
+      out.fit.covariance[a][b] = r * se[a] * se[b];
+    }
+  out.fit.reduced_chi2 = f.reduced_chi2;
+}
 
 RunFit fit_run(const Config& cfg, double temp_k, const Json& fixture, const std::vector<PointRow>& points) {
   RunFit out;
@@ -73,6 +113,13 @@ RunFit fit_run(const Config& cfg, double temp_k, const Json& fixture, const std:
     out.fit.temp_k = temp_k;
     out.fit.message = std::string("fit failed: ") + e.what();
     return out;
+  }
+  if (out.fit.usable()) {
+    try {
+      apply_electrothermal(cfg, temp_k, fixture, points, out);
+    } catch (const std::exception& e) {
+      out.fit.warnings.push_back(std::string("electro-thermal fit not made: ") + e.what());
+    }
   }
   try {
     out.cap = junction_cap_of_run(points, fixture, out.fit.usable() ? out.fit.rs_ohm.value : 0.0);
@@ -392,7 +439,7 @@ class JobRun {
   // stored with its reason; a StoreError goes up (the job pauses).
   void fit_and_finish(Id part_id, Id run_id, const Json& fixture) {
     const RunFit f = fit_run(cfg_, plan_.temp_k, fixture, store_.points(run_id));
-    store_.finish_run_with_fit(part_id, run_id, f.fit, f.cap ? &*f.cap : nullptr, f.cap ? f.cap_readings : Json());
+    store_.finish_run_with_fit(part_id, run_id, f.fit, f.cap ? &*f.cap : nullptr, f.cap ? f.cap_readings : Json(), f.more_detail);
     log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " + describe_fit(f));
   }
 
@@ -600,7 +647,7 @@ void Executor::refit_runs_without_fit() {
       const auto job = store_.job(run.job_id);
       const double temp_k = std::isfinite(run.temp_k) ? run.temp_k : job ? job->plan.value("temp_k", 300.15) : 300.15;
       const RunFit f = fit_run(config_, temp_k, run.fixture, store_.points(run.id));
-      store_.finish_run_with_fit(run.part_id, run.id, f.fit, f.cap ? &*f.cap : nullptr, f.cap ? f.cap_readings : Json());
+      store_.finish_run_with_fit(run.part_id, run.id, f.fit, f.cap ? &*f.cap : nullptr, f.cap ? f.cap_readings : Json(), f.more_detail);
       log_("recovered: run " + std::to_string(run.id) + " of job " + std::to_string(run.job_id) +
            " was done without its fit; fitted now: " + describe_fit(f));
     }

@@ -570,7 +570,7 @@ std::vector<PointRow> Store::points(Id run_id) {
 // ---- fits ------------------------------------------------------------------
 
 Id Store::insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap,
-                         const Json& cap_readings) {
+                         const Json& cap_readings, const Json& more_detail) {
   Json excluded = Json::array();
   for (const auto& e : fit.excluded) excluded.push_back({{"index", e.index}, {"reason", e.reason}});
   Json detail = {{"parameter_names", fit.parameter_names}, {"correlation", Json::array()}, {"excluded", excluded}, {"iterations", fit.iterations}};
@@ -579,6 +579,7 @@ Id Store::insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, c
     for (double c : row) r.push_back(nullable(c));
     detail["correlation"].push_back(r);
   }
+  if (more_detail.is_object()) detail.update(more_detail);
   // The law's columns only when its fit succeeded; the report (with the
   // reason when it did not) goes into detail either way.
   fitting::Estimate cj0, vj, m;
@@ -612,23 +613,23 @@ void Store::forget_cached_fit(Id part_id) {
 }
 
 Id Store::insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap,
-                     const Json& cap_readings) {
+                     const Json& cap_readings, const Json& more_detail) {
   Id id = 0;
   {
     std::lock_guard lock(write_mutex_);
-    id = insert_fit_row(part_id, run_id, fit, cap, cap_readings);
+    id = insert_fit_row(part_id, run_id, fit, cap, cap_readings, more_detail);
   }
   forget_cached_fit(part_id);
   return id;
 }
 
 Id Store::finish_run_with_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap,
-                              const Json& cap_readings) {
+                              const Json& cap_readings, const Json& more_detail) {
   Id id = 0;
   {
     std::lock_guard lock(write_mutex_);
     Transaction tx(writer_->db);
-    id = insert_fit_row(part_id, run_id, fit, cap, cap_readings);
+    id = insert_fit_row(part_id, run_id, fit, cap, cap_readings, more_detail);
     Stmt(*writer_, std::string("UPDATE runs SET state = 'done', finished_at = COALESCE(finished_at, ") + kNow + ") WHERE id = ?").bind(1, run_id).run();
     tx.commit();
   }

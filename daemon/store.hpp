@@ -160,8 +160,10 @@ class Store {
   // too, with its status and reason in message) and runs.state = 'done'.
   // A kill at any moment leaves either both or neither, so a done run always
   // has its fit. Returns the fit's id.
+  // more_detail: further reports merged into the fit's detail (e.g.
+  // {"electrothermal": …}).
   Id finish_run_with_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap = nullptr,
-                         const Json& cap_readings = Json());
+                         const Json& cap_readings = Json(), const Json& more_detail = Json());
   // Runs without any fit row: state 'done' only (done_only), or every run
   // with at least one reading. job_id: only that job's runs.
   std::vector<RunRow> runs_without_fit(std::optional<Id> job_id, bool done_only);
@@ -179,7 +181,7 @@ class Store {
   // stored with the forward fit (null: the run had none); cap_readings, when
   // not null, lists what each reading gave (detail.junction_cap.readings).
   Id insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap = nullptr,
-                const Json& cap_readings = Json());
+                const Json& cap_readings = Json(), const Json& more_detail = Json());
   std::optional<Json> latest_fit(Id part_id);
 
  private:
@@ -192,7 +194,8 @@ class Store {
                         const std::optional<std::string>& error);
   void apply_held(JobRow& row);
   // INSERT INTO fits; the caller holds write_mutex_ (and its transaction).
-  Id insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap, const Json& cap_readings);
+  Id insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap, const Json& cap_readings,
+                    const Json& more_detail);
   void forget_cached_fit(Id part_id);
 
   std::filesystem::path file_;

@@ -410,10 +410,9 @@ TEST_CASE("supervised juncod: 50 worker kills mid-job, outputs off within 1 s of
   // Kills land in the middle of sweeps mostly: the window was measured, not assumed.
   CHECK(fig.on_at_death >= kKills / 3);
   CHECK(fig.max() <= 1.0);
-  // Parts without a fit: a kill between a run's end and its fit (issue 10
-  // item 3, run end and fit made one transaction on their own branch). Only
-  // reported here (docs/campaign.md); make it CHECK(fitted == parts) once
-  // that change is in.
+  // A run's end and its fit are one transaction (Store::finish_run_with_fit),
+  // so no kill can leave a part of a done job without its fit.
+  CHECK(fitted == parts);
 }
 
 TEST_CASE("supervisor SIGKILLed mid-job: the worker stops the job and turns the outputs off", "[supervise]") {
@@ -576,6 +575,7 @@ TEST_CASE("systemd: the shipped unit's ExecStopPost= turns the outputs off withi
   std::printf("systemd campaign: %d kills, output on at %d deaths; output-on window max %.0f ms, median %.0f ms; "
               "%d jobs done of %d; %ld of %ld parts with a fit\n",
               kKills, fig.on_at_death, fig.max() * 1e3, fig.median() * 1e3, done_jobs, feeder.submitted, fitted, parts);
+  CHECK(fitted == parts);
   CHECK(fig.on_at_death >= kKills / 3);
   CHECK(fig.max() <= 1.0);
   CHECK(daemon->stop() == 0);  // systemctl stop: SIGTERM, outputs off, exit 0

@@ -72,6 +72,23 @@ TEST_CASE("junco-sim at 400 K/W: the electro-thermal fit recovers the isothermal
     CHECK(fit.n.value == Approx(t["n"].get<double>()).epsilon(0.01));
     // The DC-only Rs is biased low by the heating (REFERENCES.md §8).
     CHECK(fit.apparent_rs_ohm.value < rs - 0.2);
+    // juncod stores the same isothermal fit as the part's fit: part.fit's
+    // rs_ohm is the isothermal Rs, the DC-only one is kept by its own name.
+    // (juncod screens and weights the AC readings with the bench config's
+    // level_db, so its numbers are close to, not equal to, this call's.)
+    const Json stored = b.result("part.fit", {{"part_id", part}});
+    INFO("part.fit " << stored.dump().substr(0, 1500));
+    const Json& et = stored["detail"]["electrothermal"];
+    REQUIRE(et["status"] == "fitted");
+    const double stored_rs = stored["rs_ohm"]["value"].get<double>(), stored_se = stored["rs_ohm"]["std_error"].get<double>();
+    CHECK(std::abs(stored_rs - rs) < 0.05 * rs);
+    CHECK(std::abs(stored_rs - rs) < 3 * stored_se);
+    CHECK(et["rs_ohm"]["value"].get<double>() == Approx(stored_rs));
+    CHECK(et["apparent_rs_ohm"]["value"].get<double>() < rs - 0.2);
+    CHECK(std::abs(et["rth_k_per_w"]["value"].get<double>() - 400.0) < 3 * et["rth_k_per_w"]["std_error"].get<double>());
+    // Derived figures carry the isothermal fit's errors (part.figures).
+    const Json figs = b.result("part.figures", {{"part_id", part}, {"currents_a", {0.01}}})["figures"];
+    CHECK(figs[0]["rd_ohm_se"].get<double>() > 0);
     WARN("junco-sim part " << part << ": Rs " << fit.rs_ohm.value << " ± " << fit.rs_ohm.std_error << " ohm (truth " << rs
                            << ", DC-only " << fit.apparent_rs_ohm.value << "), Rth " << fit.rth_k_per_w.value << " ± "
                            << fit.rth_k_per_w.std_error << " K/W, Tj top " << fit.top_tj_k.value << " K, chi2r "

@@ -388,7 +388,7 @@ class Client:
     def bench_describe(self, timeout_s: Optional[float] = None) -> Dict[str, Any]:
         """`bench.describe`: The bench: instruments, fixture, safety limits.
 
-        Returns the result object: instruments, seen, fixture, safety, accuracy.
+        Returns the result object: instruments, seen, fixture, safety, limits, accuracy.
         Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
         client's), ConnectionError when the connection is lost.
         """
@@ -421,10 +421,12 @@ class Client:
             (headroom); unknown keys are refused (data.field = part.KEY)
             inputs (Dict[str, Any], optional): the calculator's inputs in SI units, keys as in
             docs/design.md (supply_v, rbias_ohm, current_a, switch, ...); optional part overrides cj0_f,
-            vj_v, m, temp_k. Unknown keys are refused (invalid params, data.field = inputs.KEY)
+            vj_v, m, eg_ev, xti, trs1_per_k and the junction temperature temp_k (IS and RS follow the
+            SPICE law from the part's temp_k). Unknown keys are refused (invalid params, data.field =
+            inputs.KEY)
 
         Returns the result object: calculator, part, assumed, result, achievable, reason, warnings,
-        failures.
+        failures, junction.
         Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
         client's), ConnectionError when the connection is lost.
         """
@@ -597,10 +599,12 @@ class Client:
             bias-for-thd, isolation, power
             inputs (Dict[str, Any], optional): the calculator's inputs in SI units, keys as in
             docs/design.md (supply_v, rbias_ohm, current_a, switch, ...); optional part overrides cj0_f,
-            vj_v, m, temp_k. Unknown keys are refused (invalid params, data.field = inputs.KEY)
+            vj_v, m, eg_ev, xti, trs1_per_k and the junction temperature temp_k (IS and RS follow the
+            SPICE law from the part's temp_k). Unknown keys are refused (invalid params, data.field =
+            inputs.KEY)
 
         Returns the result object: calculator, part, assumed, result, achievable, reason, warnings,
-        failures, part_id, fit_id.
+        failures, part_id, fit_id, junction.
         Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
         client's), ConnectionError when the connection is lost.
         """
