@@ -3,6 +3,7 @@
 #include "daemon/bench.hpp"
 #include "daemon/event_bus.hpp"
 #include "daemon/executor.hpp"
+#include "daemon/lab_publisher.hpp"
 #include "daemon/part_analysis.hpp"
 #include "daemon/part_export.hpp"
 #include "daemon/jobs.hpp"
@@ -92,6 +93,7 @@ class CoreService final : public Service {
       : config_(config),
         log_(options.log ? std::move(options.log) : [](std::string_view line) { std::cerr << "juncod: " << line << std::endl; }),
         store_(config_.paths.database),
+        lab_(config_.paths.database, config_.lab, log_),
         queue_(store_, events_),
         executor_(config_, store_, queue_, events_, options.open_bench ? std::move(options.open_bench) : BenchOpener(open_bench), log_),
         started_(std::chrono::steady_clock::now()) {
@@ -102,6 +104,7 @@ class CoreService final : public Service {
       log_("recovered after restart: " + std::to_string(resumed) + " job(s) to resume, " + std::to_string(interrupted) + " interrupted");
     build_table();
     executor_.start();
+    lab_.start();
   }
 
   ~CoreService() override { shutdown(); }
@@ -124,6 +127,7 @@ class CoreService final : public Service {
   void shutdown() override {
     std::call_once(shutdown_once_, [this] {
       executor_.stop();
+      lab_.stop();
       // Only claim what is known: a bench that would not take the make-safe
       // commands (already logged by the executor) is not reported as off.
       log_(executor_.bench_known_safe() ? "shut down: outputs off"
@@ -166,7 +170,8 @@ class CoreService final : public Service {
             {"queue", queued},
             {"bench_open", executor_.bench_open()},
             {"database", config_.paths.database.string()},
-            {"schema_version", store_.schema_version()}};
+            {"schema_version", store_.schema_version()},
+            {"lab", lab_.status()}};
   }
 
   Json describe() {
@@ -444,6 +449,7 @@ class CoreService final : public Service {
   LogFn log_;
   LocalEventBus events_;
   Store store_;
+  LabPublisher lab_;  // after store_: the store has migrated the outbox in
   JobQueue queue_;
   Executor executor_;
   std::chrono::steady_clock::time_point started_;
