@@ -146,13 +146,15 @@ JOIN junco.runs ru ON ru.bench = r.bench AND ru.id = r.run_id
 JOIN junco.parts p ON p.bench = ru.bench AND p.id = ru.part_id
 JOIN junco.lots l ON l.bench = p.bench AND l.id = p.lot_id;
 
--- One row per lot and bench: how much of it each bench measured.
+-- One row per lot and bench: how many parts it has there, how many of them
+-- have a fit.
 CREATE VIEW junco.lot_benches AS
 SELECT l.bench, l.name AS lot, l.created_at,
-       (SELECT count(*) FROM junco.parts p WHERE p.bench = l.bench AND p.lot_id = l.id) AS parts,
-       (SELECT count(*) FROM junco.parts p JOIN junco.fits f ON f.bench = p.bench AND f.part_id = p.id
-         WHERE p.bench = l.bench AND p.lot_id = l.id) AS fits
-FROM junco.lots l;
+       COALESCE(c.parts, 0) AS parts, COALESCE(c.fitted, 0) AS fitted
+FROM junco.lots l
+LEFT JOIN (SELECT p.bench, p.lot_id, count(*) AS parts,
+                  count(*) FILTER (WHERE EXISTS (SELECT 1 FROM junco.fits f WHERE f.bench = p.bench AND f.part_id = p.id)) AS fitted
+           FROM junco.parts p GROUP BY p.bench, p.lot_id) c ON c.bench = l.bench AND c.lot_id = l.id;
 
 -- The read-only role for team tools: log in as a user granted junco_reader.
 DO $$

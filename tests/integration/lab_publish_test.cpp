@@ -166,11 +166,13 @@ TEST_CASE("two benches publish one lot label each into one lab; part_fits equals
   check_complete(db, a, "bench-a");
   check_complete(db, b, "bench-b");
   // One label, two benches: two lots, queryable together.
-  const auto lots = db.exec("SELECT bench, parts FROM junco.lot_benches WHERE lot = 'WREN-0912' ORDER BY bench");
+  const auto lots = db.exec("SELECT bench, parts, fitted FROM junco.lot_benches WHERE lot = 'WREN-0912' ORDER BY bench");
   REQUIRE(lots.rows() == 2);
   CHECK(std::string(lots.text(0, 0)) == "bench-a");
   CHECK(lots.integer(0, 1) == 4);
   CHECK(lots.integer(1, 1) == 3);
+  CHECK(lots.integer(0, 2) == 4);  // every part fitted (a fit is stored even when insufficient)
+  CHECK(lots.integer(1, 2) == 3);
   CHECK(check_fits_equal(db, a, "bench-a", "WREN-0912") == 4);
   CHECK(check_fits_equal(db, b, "bench-b", "WREN-0912") == 3);
   const auto readings = db.exec("SELECT count(*) FROM junco.part_readings WHERE lot = 'WREN-0912'");

@@ -22,7 +22,7 @@ const char* const usage = R"(usage: junco lab lots [--db CONNINFO] [--json]
        junco lab stats LOT [--db CONNINFO] [--json]
 
 Reads the lab database that the benches publish to (docs/lab.md).
-  lots         every lot, per bench that measured it: parts, fitted parts
+  lots         every lot, per bench that measured it: parts, parts with a fit
   parts LOT    the latest fit of each part of LOT, on every bench (Is, n, Rs,
                CJO, VJ, M, status) from the view junco.part_fits
   stats LOT    the spread of LOT's converged fits, per bench and over all
@@ -68,12 +68,12 @@ std::string si(const lab::PgResult& r, int row, int col, const char* unit, int d
 }
 
 int lots(lab::PgConnection& db, bool json) {
-  const auto r = db.exec("SELECT lot, bench, parts, fits, created_at FROM junco.lot_benches ORDER BY lot, bench");
+  const auto r = db.exec("SELECT lot, bench, parts, fitted, created_at FROM junco.lot_benches ORDER BY lot, bench");
   if (json) {
     std::printf("%s\n", rows_json(r).dump(2).c_str());
     return exit_ok;
   }
-  std::printf("%-20s %-16s %6s %6s  %s\n", "lot", "bench", "parts", "fits", "first seen");
+  std::printf("%-20s %-16s %6s %6s  %s\n", "lot", "bench", "parts", "fitted", "first seen");
   for (int i = 0; i < r.rows(); ++i)
     std::printf("%-20s %-16s %6s %6s  %s\n", std::string(r.text(i, 0)).c_str(), std::string(r.text(i, 1)).c_str(),
                 std::string(r.text(i, 2)).c_str(), std::string(r.text(i, 3)).c_str(), std::string(r.text(i, 4)).c_str());

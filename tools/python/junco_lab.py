@@ -35,7 +35,7 @@ def _rows(db, sql, params):
 
 def lots(db):
     """Every lot, once per bench that measured it."""
-    return _rows(db, "SELECT lot, bench, parts, fits, created_at FROM junco.lot_benches ORDER BY lot, bench", ())
+    return _rows(db, "SELECT lot, bench, parts, fitted, created_at FROM junco.lot_benches ORDER BY lot, bench", ())
 
 
 def part_fits(db, lot, bench=None):
