@@ -88,13 +88,19 @@ struct LabPublisher::Pg {
 LabPublisher::LabPublisher(const std::filesystem::path& sqlite_file, const LabConfig& lab, Log log)
     : lab_(lab), log_(std::move(log)), sqlite_(std::make_unique<Sqlite>(sqlite_file)), pg_(std::make_unique<Pg>()) {
   if (lab_.database.empty()) {
-    // A bench taken out of a lab keeps no outbox; joining again re-queues all.
-    sqlite_->exec("BEGIN IMMEDIATE");
-    sqlite_->exec("UPDATE lab_publishing SET enabled = 0 WHERE enabled = 1");
-    const bool was_on = sqlite3_changes(sqlite_->db) > 0;
-    sqlite_->exec("DELETE FROM lab_outbox");
-    sqlite_->exec("COMMIT");
-    if (was_on) log_("lab: no lab.database in the config: publishing off, outbox emptied");
+    // A bench taken out of a lab keeps no outbox; joining again re-queues
+    // all. Written only when it was on: a bench that never had a lab starts
+    // exactly as before.
+    sqlite3_stmt* st = sqlite_->prepare("SELECT enabled FROM lab_publishing");
+    const bool was_on = sqlite3_step(st) == SQLITE_ROW && sqlite3_column_int(st, 0) == 1;
+    sqlite3_finalize(st);
+    if (was_on) {
+      sqlite_->exec("BEGIN IMMEDIATE");
+      sqlite_->exec("UPDATE lab_publishing SET enabled = 0");
+      sqlite_->exec("DELETE FROM lab_outbox");
+      sqlite_->exec("COMMIT");
+      log_("lab: no lab.database in the config: publishing off, outbox emptied");
+    }
     sqlite_.reset();
     return;
   }
