@@ -56,10 +56,21 @@ long long PgResult::integer(int row, int col) const {
 }
 
 namespace {
+// libpq's messages span lines ("...failed: No such file\n\tIs the server
+// running...?"); ours are one line: line breaks and tabs become "; " / " ".
 std::string trimmed(const char* s) {
   std::string m = s ? s : "";
   while (!m.empty() && (m.back() == '\n' || m.back() == ' ')) m.pop_back();
-  return m;
+  std::string out;
+  for (std::size_t i = 0; i < m.size(); ++i) {
+    if (m[i] == '\n') {
+      while (i + 1 < m.size() && (m[i + 1] == '\t' || m[i + 1] == ' ')) ++i;
+      out += "; ";
+    } else {
+      out += m[i] == '\t' ? ' ' : m[i];
+    }
+  }
+  return out;
 }
 }  // namespace
 

@@ -16,6 +16,7 @@
 #include <catch2/catch.hpp>
 #include <sqlite3.h>
 
+#include <algorithm>
 #include <csignal>
 #include <set>
 #include <sstream>
@@ -251,6 +252,7 @@ TEST_CASE("two benches publish one lot label each into one lab; part_fits equals
   const auto no_server = test::run_junco("lab lots --db 'host=/nonexistent-dir user=tool'");
   CHECK(no_server.status == 1);
   CHECK(no_server.out.rfind("junco lab: lab database user=tool host=/nonexistent-dir: ", 0) == 0);
+  CHECK(std::count(no_server.out.begin(), no_server.out.end(), '\n') == 1);  // one line, though libpq says two
 }
 
 TEST_CASE("lab unreachable at start, stopped mid-job, restarted: everything arrives once", "[lab]") {
