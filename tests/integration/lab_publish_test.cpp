@@ -180,6 +180,16 @@ TEST_CASE("two benches publish one lot label each into one lab; part_fits equals
   CHECK(readings.integer(0, 0) == static_cast<long long>(sqlite_ids(a.dir() / "junco.db", "points").size() +
                                                          sqlite_ids(b.dir() / "junco.db", "points").size()));
 
+  {  // juncod --check-config names the lab, without secrets
+    FILE* p = ::popen((std::string(JUNCO_BIN_DIR) + "/juncod --check-config --config '" + (a.dir() / "bench.jsonc").string() + "'").c_str(), "r");
+    REQUIRE(p);
+    std::string out;
+    char buf[512];
+    while (std::fgets(buf, sizeof buf, p)) out += buf;
+    CHECK(::pclose(p) == 0);
+    CHECK(out.find("  lab        bench bench-a publishes to user=junco_admin dbname=postgres host=" + pg.socket_dir() + " port=5432\n") !=
+          std::string::npos);
+  }
   const Json s = lab_status(a);
   CHECK(s["enabled"] == true);
   CHECK(s["bench"] == "bench-a");
