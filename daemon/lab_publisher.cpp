@@ -120,6 +120,11 @@ LabPublisher::LabPublisher(const std::filesystem::path& sqlite_file, const LabCo
     sqlite3_exec(sqlite_->db, "ROLLBACK", nullptr, nullptr, nullptr);
     throw;
   }
+  {
+    sqlite3_stmt* st = sqlite_->prepare("SELECT store_id FROM lab_publishing");
+    if (sqlite3_step(st) == SQLITE_ROW) store_id_ = reinterpret_cast<const char*>(sqlite3_column_text(st, 0));
+    sqlite3_finalize(st);
+  }
   status_ = std::make_unique<Sqlite>(sqlite_file);
   log_("lab: bench \"" + lab_.bench + "\" publishes to " + lab::describe_conninfo(lab_.database));
 }
@@ -149,7 +154,13 @@ void LabPublisher::connect() {
   auto conn = std::make_unique<lab::PgConnection>(lab_.database, 3, "juncod");
   const int applied = lab::apply_lab_migrations(*conn);
   const int version = lab::lab_schema_version(*conn);
-  conn->exec("INSERT INTO junco.benches(bench) VALUES ($1) ON CONFLICT (bench) DO NOTHING", {lab_.bench});
+  conn->exec("INSERT INTO junco.benches(bench, store_id) VALUES ($1, $2) ON CONFLICT (bench) DO NOTHING", {lab_.bench, store_id_});
+  const lab::PgResult owner = conn->exec("SELECT store_id FROM junco.benches WHERE bench = $1", {lab_.bench});
+  if (owner.rows() != 1 || owner.text(0, 0) != store_id_)
+    throw lab::PgError("lab database: bench name \"" + lab_.bench + "\" is already used by another store (" +
+                           std::string(owner.rows() ? owner.text(0, 0) : "?") + ", this one is " + store_id_ +
+                           "); give this bench its own lab.bench",
+                       false);
   pg_->conn = std::move(conn);
   std::lock_guard lock(mutex_);
   connected_ = true;
@@ -308,6 +319,7 @@ Json LabPublisher::status() {
   std::lock_guard lock(mutex_);
   return Json{{"enabled", true},
               {"bench", lab_.bench},
+              {"store_id", store_id_},
               {"database", lab::describe_conninfo(lab_.database)},
               {"connected", connected_},
               {"lab_schema_version", lab_schema_version_},

@@ -58,6 +58,7 @@ class LabPublisher {
   struct Sqlite;
   struct Pg;
   LabConfig lab_;
+  std::string store_id_;  // lab_publishing.store_id: which store publishes as lab_.bench
   Log log_;
   std::unique_ptr<Sqlite> sqlite_;   // the publisher thread's read-write connection
   std::unique_ptr<Sqlite> status_;   // status() queries, under status_mutex_

@@ -5,11 +5,15 @@
 -- delivery, made exactly-once in effect by upserts keyed by (bench, id).
 -- The triggers add an entry only while lab_publishing.enabled = 1 (juncod with
 -- lab.database set); a bench without a lab database keeps no outbox.
+-- store_id names this store file in the lab: a bench name already used by
+-- another store (a bench rebuilt with a new, empty file, or a copied config)
+-- is refused instead of overwriting that store's rows, whose ids it reuses.
 CREATE TABLE lab_publishing (
-  one      INTEGER PRIMARY KEY CHECK (one = 1),
-  enabled  INTEGER NOT NULL DEFAULT 0
+  one       INTEGER PRIMARY KEY CHECK (one = 1),
+  enabled   INTEGER NOT NULL DEFAULT 0,
+  store_id  TEXT NOT NULL
 );
-INSERT INTO lab_publishing(one, enabled) VALUES (1, 0);
+INSERT INTO lab_publishing(one, enabled, store_id) VALUES (1, 0, lower(hex(randomblob(16))));
 
 CREATE TABLE lab_outbox (
   seq        INTEGER PRIMARY KEY AUTOINCREMENT,

@@ -7,8 +7,11 @@
 -- Foreign keys are deferred to COMMIT: a batch arrives in one transaction.
 -- (schema junco and junco.schema_migrations are created by lab/pg.cpp)
 
+-- store_id: the bench's SQLite store that publishes under this name (its
+-- lab_publishing.store_id); one store per bench name.
 CREATE TABLE junco.benches (
   bench         text PRIMARY KEY,
+  store_id      text NOT NULL,
   first_seen    timestamptz NOT NULL DEFAULT now(),
   last_publish  timestamptz NOT NULL DEFAULT now()
 );

@@ -166,7 +166,7 @@ int main(int argc, char** argv) {
     const long readings_per_part = lab_readings / lab_parts;
     const auto g0 = Clock::now();
     lab.exec("BEGIN");
-    lab.exec("INSERT INTO junco.benches(bench) SELECT 'gen-' || b FROM generate_series(1, 4) b");
+    lab.exec("INSERT INTO junco.benches(bench, store_id) SELECT 'gen-' || b, 'generated-' || b FROM generate_series(1, 4) b");
     // 100 parts per lot; lot names shared across benches (a reel split over benches).
     lab.exec("INSERT INTO junco.lots(bench, id, name, created_at) SELECT 'gen-' || b, l, 'GEN-' || l, now()"
              " FROM generate_series(1, 4) b, generate_series(1, " + std::to_string(parts_per_bench / 100) + ") l");

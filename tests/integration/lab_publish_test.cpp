@@ -203,6 +203,26 @@ TEST_CASE("two benches publish one lot label each into one lab; part_fits equals
   CHECK_THROWS_AS(reader.exec("SELECT count(*) FROM junco.readings"), lab::PgError);
   CHECK_THROWS_AS(reader.exec("DELETE FROM junco.part_fits"), lab::PgError);
 
+  // A third bench, a new store, under a name already taken: refused, and
+  // bench-a's rows stay bench-a's.
+  {
+    const long readings_a = db.exec("SELECT count(*) FROM junco.readings WHERE bench = 'bench-a'").integer(0, 0);
+    BenchDaemon c("lab-c", sim_args(), lab_options(pg, "bench-a"));
+    c.run_plan(plan("WREN-0915", 1, 20));
+    Json sc;
+    for (int i = 0; i < 200; ++i) {
+      sc = lab_status(c);
+      if (sc["last_error"].is_string()) break;
+      std::this_thread::sleep_for(std::chrono::milliseconds(20));
+    }
+    REQUIRE(sc["last_error"].is_string());
+    CHECK(sc["last_error"].get<std::string>().find("bench name \"bench-a\" is already used by another store") != std::string::npos);
+    CHECK(sc["published_rows"] == 0);
+    CHECK(sc["backlog_rows"].get<long>() > 20);
+    CHECK(db.exec("SELECT count(*) FROM junco.readings WHERE bench = 'bench-a'").integer(0, 0) == readings_a);
+    CHECK(db.exec("SELECT count(*) FROM junco.lots WHERE name = 'WREN-0915'").integer(0, 0) == 0);
+  }
+
   // junco lab, as the read-only user.
   const std::string db_opt = " --db '" + pg.conninfo("tool") + "'";
   const auto lots_out = test::run_junco("lab lots" + db_opt);
