@@ -91,3 +91,31 @@ TEST_CASE("outbox: off without a lab; joining queues the history; unreachable la
   CHECK(junco::test::count_rows(file, "SELECT count(*) FROM lab_outbox") == 0);
   CHECK(std::find(log.begin(), log.end(), "lab: no lab.database in the config: publishing off, outbox emptied") != log.end());
 }
+
+TEST_CASE("outbox: a lab refusing TCP connections at start is reported, not fatal") {
+  TempDir dir;
+  const fs::path file = dir.path / "junco.db";
+  Store store(file);
+  LabConfig lab;
+  lab.database = "host=127.0.0.1 port=1 user=bench1 dbname=lab connect_timeout=2";  // port 1: nothing listens (common practice, no source)
+  lab.bench = "bench-1";
+  std::vector<std::string> log;
+  LabPublisher p(file, lab, [&log](std::string_view line) { log.emplace_back(line); });
+  p.start();
+  store.ensure_lot("WREN-0912");
+  nlohmann::json s;
+  for (int i = 0; i < 300; ++i) {
+    s = p.status();
+    if (s["last_error"].is_string()) break;
+    std::this_thread::sleep_for(std::chrono::milliseconds(10));
+  }
+  REQUIRE(s["last_error"].is_string());
+  CHECK(s["last_error"].get<std::string>().find("Connection refused") != std::string::npos);
+  CHECK(s["last_error"].get<std::string>().find('\n') == std::string::npos);
+  CHECK(s["connected"] == false);
+  CHECK(s["backlog_rows"] == 1);
+  p.stop();
+  bool logged = false;
+  for (const auto& l : log) logged = logged || (l.find("Connection refused") != std::string::npos && l.find("will retry") != std::string::npos);
+  CHECK(logged);
+}
