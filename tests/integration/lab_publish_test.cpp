@@ -234,6 +234,10 @@ TEST_CASE("two benches publish one lot label each into one lab; part_fits equals
   const auto parts_json = test::run_junco("lab parts WREN-0912 --json" + db_opt);
   REQUIRE(parts_json.status == 0);
   CHECK(Json::parse(parts_json.out).size() == 7);
+  const auto parts_b = test::run_junco("lab parts WREN-0912 --bench bench-b --json" + db_opt);
+  REQUIRE(parts_b.status == 0);
+  CHECK(Json::parse(parts_b.out).size() == 3);
+  for (const auto& row : Json::parse(parts_b.out)) CHECK(row["bench"] == "bench-b");
   const auto stats_json = test::run_junco("lab stats WREN-0912 --json" + db_opt);
   REQUIRE(stats_json.status == 0);
   const Json stats = Json::parse(stats_json.out);
