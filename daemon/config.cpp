@@ -1,6 +1,7 @@
 #include "daemon/config.hpp"
 
 #include "fitting/json_limits.hpp"
+#include "lab/pg.hpp"  // conninfo_problem
 
 #include <cmath>
 #include <cstdlib>
@@ -174,6 +175,23 @@ JobLimits parse_limits(const Checker& c, const Json& obj) {
   return l;
 }
 
+// The lab database (docs/lab.md). A password written into the connection
+// string is refused: it would sit in a file many people read and in logs.
+LabConfig parse_lab(const Checker& c, const Json& obj) {
+  const std::string p = "/lab";
+  c.only_keys(obj, p, {"database", "bench", "batch_rows"});
+  LabConfig lab;
+  lab.database = c.string(obj, "database", p, "", true);
+  if (lab.database.empty()) c.fail(p + "/database", "must not be empty (a libpq connection string, e.g. \"service=junco-lab\")");
+  if (const std::string bad = lab::conninfo_problem(lab.database); !bad.empty()) c.fail(p + "/database", bad);
+  lab.bench = c.string(obj, "bench", p, "", true);
+  if (lab.bench.empty() || lab.bench.size() > 64 ||
+      lab.bench.find_first_not_of("ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789._-") != std::string::npos)
+    c.fail(p + "/bench", "must be 1..64 characters of A-Z a-z 0-9 . _ -, got \"" + lab.bench + "\"");
+  lab.batch_rows = c.integer(obj, "batch_rows", p, lab.batch_rows, 1, 20000);
+  return lab;
+}
+
 }  // namespace
 
 const char* to_string(CurrentFrom from) { return from == CurrentFrom::source ? "source" : "meter"; }
@@ -253,7 +271,7 @@ Config parse_config_impl(const std::string& text, const fs::path& file, std::vec
     c.fail("", "not valid JSON: " + what);
   }
   if (!doc.is_object()) c.fail("", std::string("must be an object, not ") + doc.type_name());
-  section(problems, [&] { c.only_keys(doc, "", {"bench", "fixture", "safety", "limits", "accuracy", "paths", "server"}); });
+  section(problems, [&] { c.only_keys(doc, "", {"bench", "fixture", "safety", "limits", "accuracy", "paths", "server", "lab"}); });
 
   Config cfg;
   cfg.file = file;
@@ -303,6 +321,10 @@ Config parse_config_impl(const std::string& text, const fs::path& file, std::vec
     cfg.server.idle_timeout_s = c.number(server, "idle_timeout_s", "/server", cfg.server.idle_timeout_s, false, 0, true);
     if (cfg.server.idle_timeout_s > 86400) c.fail("/server/idle_timeout_s", "must be at most 86400 (a day; 0 = never)");
   } });
+
+  section(problems, [&] {
+    if (doc.contains("lab")) cfg.lab = parse_lab(c, c.object(doc, "lab", "/lab"));
+  });
 
   cfg.paths = default_paths();
   section(problems, [&] { if (doc.contains("paths")) {

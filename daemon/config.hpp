@@ -85,6 +85,14 @@ struct ServerConfig {
   double idle_timeout_s = 600.0;
 };
 
+// The lab database this bench publishes to (daemon/lab_publisher.hpp,
+// docs/lab.md). database "" = no lab: the bench keeps its data to itself.
+struct LabConfig {
+  std::string database;  // libpq connection string; the password never here (~/.pgpass, PGPASSFILE, service file)
+  std::string bench;     // this bench's name in the lab, [A-Za-z0-9._-]{1,64}
+  int batch_rows = 2000; // outbox entries per lab transaction
+};
+
 struct Config {
   std::filesystem::path file;  // where it was loaded from ("" when built in code)
   std::map<std::string, InstrumentConfig> bench;  // by role
@@ -103,6 +111,7 @@ struct Config {
   double level_sigma_db() const { return level_db / 1.7320508075688772; }
   PathsConfig paths;
   ServerConfig server;
+  LabConfig lab;
   nlohmann::json raw;  // the parsed document (for bench.describe)
 
   const InstrumentConfig* instrument(const std::string& role) const {

@@ -3,6 +3,7 @@
 #include "daemon/bench.hpp"
 #include "daemon/event_bus.hpp"
 #include "daemon/executor.hpp"
+#include "daemon/lab_publisher.hpp"
 #include "daemon/part_analysis.hpp"
 #include "daemon/part_export.hpp"
 #include "daemon/jobs.hpp"
@@ -60,6 +61,7 @@ class CoreService final : public Service {
         // output on (members are built in declaration order).
         safe_start_(make_bench_safe_first(config_, open_bench_, log_)),
         store_(open_store(config_, log_)),
+        lab_(config_.paths.database, config_.lab, log_),
         queue_(store_, events_),
         executor_(config_, store_, queue_, events_, open_bench_, log_),
         started_(std::chrono::steady_clock::now()) {
@@ -70,6 +72,7 @@ class CoreService final : public Service {
       log_("recovered after restart: " + std::to_string(resumed) + " job(s) to resume, " + std::to_string(interrupted) + " interrupted");
     build_table();
     executor_.start();
+    lab_.start();
   }
 
   ~CoreService() override { shutdown(); }
@@ -91,6 +94,7 @@ class CoreService final : public Service {
   void shutdown() override {
     std::call_once(shutdown_once_, [this] {
       executor_.stop();
+      lab_.stop();
       // Only claim what is known: a bench that would not take the make-safe
       // commands (already logged by the executor) is not reported as off.
       log_(executor_.bench_known_safe() ? "shut down: outputs off"
@@ -134,7 +138,8 @@ class CoreService final : public Service {
             {"queue", queued},
             {"bench_open", executor_.bench_open()},
             {"database", config_.paths.database.string()},
-            {"schema_version", store_.schema_version()}};
+            {"schema_version", store_.schema_version()},
+            {"lab", lab_.status()}};
   }
 
   Json describe() {
@@ -444,6 +449,7 @@ class CoreService final : public Service {
   BenchOpener open_bench_;
   SafeStart safe_start_;  // moved into the executor once the store is open
   Store store_;
+  LabPublisher lab_;  // after store_: the store has migrated the outbox in
   JobQueue queue_;
   Executor executor_;
   std::chrono::steady_clock::time_point started_;

@@ -15,6 +15,7 @@
 #include "daemon/supervisor.hpp"
 
 #include <unistd.h>
+#include "lab/pg.hpp"  // describe_conninfo
 
 #include <boost/asio/executor_work_guard.hpp>
 #include <boost/asio/io_context.hpp>
@@ -155,6 +156,8 @@ void print_summary(const junco::daemon::Config& c) {
               c.safety.current_limit_a, c.safety.max_power_w, c.safety.max_reverse_v);
   std::printf("  database   %s\n  socket     %s%s%s\n", c.paths.database.c_str(), c.paths.socket.c_str(),
               c.paths.socket_group.empty() ? "" : " group ", c.paths.socket_group.c_str());
+  if (!c.lab.database.empty())  // docs/lab.md; never the password
+    std::printf("  lab        bench %s publishes to %s\n", c.lab.bench.c_str(), junco::lab::describe_conninfo(c.lab.database).c_str());
 }
 
 }  // namespace

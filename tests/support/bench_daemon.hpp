@@ -51,8 +51,30 @@ class BenchDaemon {
                 {"paths", {{"database", (dir_ / "junco.db").string()}, {"socket", socket()}}}};
     config.update(options.extra);
     std::ofstream(dir_ / "bench.jsonc") << "// test bench (tests/support/bench_daemon.hpp)\n" << config.dump(2);
+    launch();
+  }
+  ~BenchDaemon() {
+    client_.reset();
+    daemon_.reset();
+    std::filesystem::remove_all(dir_);
+  }
+  BenchDaemon(const BenchDaemon&) = delete;
+  BenchDaemon& operator=(const BenchDaemon&) = delete;
+
+  // Starts juncod again on the same config, database and sim, after the
+  // old one was stopped or killed (e.g. daemon().signal(SIGKILL)).
+  void restart() {
+    client_.reset();
+    daemon_.reset();
+    launch();
+  }
+
+ private:
+  void launch() {
     ChildOptions o;
-    o.stderr_path = (dir_ / "juncod.log").string();
+    // juncod.log, then juncod.1.log ... after restarts
+    o.stderr_path = (dir_ / (starts_ ? "juncod." + std::to_string(starts_) + ".log" : std::string("juncod.log"))).string();
+    ++starts_;
     daemon_ = std::make_unique<ChildProcess>(
         std::vector<std::string>{std::string(JUNCO_BIN_DIR) + "/juncod", "--config", (dir_ / "bench.jsonc").string()}, o);
     for (int i = 0; i < 400 && !client_; ++i) {
@@ -65,14 +87,8 @@ class BenchDaemon {
     }
     if (!client_) FAIL("juncod did not open its socket");
   }
-  ~BenchDaemon() {
-    client_.reset();
-    daemon_.reset();
-    std::filesystem::remove_all(dir_);
-  }
-  BenchDaemon(const BenchDaemon&) = delete;
-  BenchDaemon& operator=(const BenchDaemon&) = delete;
 
+ public:
   std::string socket() const { return (dir_ / "run" / "juncod.sock").string(); }
   const std::filesystem::path& dir() const { return dir_; }
   SimProcess& sim() { return sim_; }
@@ -133,6 +149,7 @@ class BenchDaemon {
   SimProcess sim_;
   std::unique_ptr<ChildProcess> daemon_;
   std::unique_ptr<SocketClient> client_;
+  int starts_ = 0;
 };
 
 }  // namespace junco::test

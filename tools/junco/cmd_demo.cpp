@@ -30,7 +30,7 @@ namespace {
 
 namespace fs = std::filesystem;
 
-const char* const usage = R"(usage: junco demo [--dir DIR] [--seed N] [--keep-running]
+const char* const usage = R"(usage: junco demo [--dir DIR] [--seed N] [--keep-running] [--lab CONNINFO]
 
 Runs junco end to end on the simulated bench, no hardware needed:
   1. starts junco-sim (a simulated supply, meter, signal generator, level
@@ -55,6 +55,10 @@ options:
   --seed N        seed of the simulated lot (default 912)
   --keep-running  leave juncod and junco-sim running at the end and print how
                   to talk to them and how to stop them
+  --lab CONNINFO  also publish to a lab database on PostgreSQL (a libpq
+                  connection string; docs/lab.md) as bench "demo-bench", and
+                  wait until the lab has everything; without it, no server is
+                  needed
 
 exit status: 0 the job ran and every part was fitted; 1 something failed.)";
 
@@ -182,11 +186,11 @@ void write_file(const fs::path& path, const std::string& text) {
   if (!out) throw std::runtime_error("cannot write " + path.string());
 }
 
-std::string config_text(const Json& ready, const fs::path& dir) {
+std::string config_text(const Json& ready, const fs::path& dir, const std::optional<std::string>& lab) {
   Json bench = Json::object();
   for (const char* role : {"source", "meter", "scanner", "siggen", "levelmeter"})
     bench[role] = {{"address", ready["endpoints"][role]}, {"dialect", ready["families"][role]}};
-  const Json config{
+  Json config{
       {"bench", bench},
       // junco-sim's default fixture: 100 Ω bias resistor, choke return.
       {"fixture", {{"bias_resistor_ohm", 100.0}, {"slots", 8}, {"current_from", "source"}}},
@@ -195,6 +199,7 @@ std::string config_text(const Json& ready, const fs::path& dir) {
       // readback has 0.2 µA rms of noise in 0.1 µA steps, the meter a few µV.
       {"accuracy", {{"v_rel", 1e-5}, {"v_abs_v", 5e-6}, {"i_rel", 1e-3}, {"i_abs_a", 3.5e-7}}},
       {"paths", {{"database", (dir / "junco.db").string()}, {"socket", (dir / "run" / "juncod.sock").string()}}}};
+  if (lab) config["lab"] = {{"database", *lab}, {"bench", "demo-bench"}};
   return "// junco demo bench: junco-sim's instruments on 127.0.0.1 (written by junco demo)\n" + config.dump(2) + "\n";
 }
 
@@ -453,11 +458,29 @@ void wait_for_socket(const std::string& path, Child& daemon, const fs::path& log
   throw std::runtime_error("juncod did not open its socket within 15 s; see " + log.string());
 }
 
+// With --lab: until the outbox is empty (at most 60 s), then where to look.
+void wait_for_lab(RpcClient& client, const std::string& lot) {
+  Json status;
+  for (int i = 0; i < 600; ++i) {
+    status = client.call("daemon.status")["lab"];
+    if (status.value("connected", false) && status.value("backlog_rows", 1L) == 0) break;
+    std::this_thread::sleep_for(std::chrono::milliseconds(100));
+  }
+  if (status.value("backlog_rows", 1L) != 0) {
+    std::printf("\nlab: %ld rows not yet published (%s); the bench keeps them and publishes when the lab is back\n",
+                status.value("backlog_rows", 0L), status.value("last_error", Json("?")).dump().c_str());
+    return;
+  }
+  std::printf("\nlab: everything published as bench demo-bench to %s\n  try:  junco lab stats %s --db CONNINFO\n",
+              status.value("database", "?").c_str(), lot.c_str());
+}
+
 int run(std::vector<std::string> args) {
   return guarded("demo", [&]() -> int {
     const auto dir_opt = take_option(args, "--dir");
     const auto seed = take_option(args, "--seed").value_or("912");
     const bool keep = take_flag(args, "--keep-running");
+    const auto lab = take_option(args, "--lab");
     if (!args.empty()) throw std::invalid_argument("unexpected argument '" + args.front() + "'");
     parse_id(seed, "--seed");
     const fs::path dir = fs::absolute(dir_opt ? fs::path(*dir_opt) : fs::path("junco-demo-" + timestamp()));
@@ -480,7 +503,7 @@ int run(std::vector<std::string> args) {
                 ready["endpoints"]["source"].get<std::string>().c_str(), ready["endpoints"]["meter"].get<std::string>().c_str(),
                 ready["endpoints"]["scanner"].get<std::string>().c_str());
 
-    write_file(dir / "bench.jsonc", config_text(ready, dir));
+    write_file(dir / "bench.jsonc", config_text(ready, dir, lab));
     write_file(dir / "plan.jsonc", plan_text);
     const std::string socket = (dir / "run" / "juncod.sock").string();
     Child daemon({daemon_path.string(), "--config", (dir / "bench.jsonc").string()}, dir / "juncod.log", 1);
@@ -507,6 +530,7 @@ int run(std::vector<std::string> args) {
       print_off_state(client, plan["lot"]);
       print_design_example(client, plan["lot"]);
       write_plots(socket, plan["lot"], dir, client);
+      if (lab) wait_for_lab(client, plan["lot"]);
     }
     if (keep && !g_interrupted) {
       daemon.release();

@@ -10,7 +10,9 @@ namespace {
 const char* const usage = R"(usage: junco status [--socket PATH] [--json]
 
 Asks juncod what it is doing: version, uptime, the running job, the queue,
-whether the bench is open, the database file.
+whether the bench is open, the database file, and when the bench publishes to
+a lab database: the lab, whether it is reachable, the rows not yet published
+(backlog) and how long the oldest has waited (lag).
 
 options:
   --socket PATH  juncod's socket (default: $JUNCO_SOCKET; as root
@@ -40,6 +42,13 @@ int run(std::vector<std::string> args) {
     std::printf("queued jobs: %s\n", queue.empty() ? "none" : queue.dump().c_str());
     std::printf("bench:       %s\n", s.value("bench_open", false) ? "open" : "not open");
     if (s.contains("database")) std::printf("database:    %s\n", s["database"].get<std::string>().c_str());
+    if (const Json lab = s.value("lab", Json()); lab.is_object() && lab.value("enabled", false)) {
+      std::printf("lab:         bench %s -> %s, %s; backlog %lld rows, lag %.1f s\n", lab.value("bench", "?").c_str(),
+                  lab.value("database", "?").c_str(), lab.value("connected", false) ? "connected" : "NOT connected",
+                  lab.value("backlog_rows", 0LL), lab.value("lag_s", 0.0));
+      if (lab.contains("last_error") && lab["last_error"].is_string())
+        std::printf("lab error:   %s\n", lab["last_error"].get<std::string>().c_str());
+    }
     return exit_ok;
   });
 }
