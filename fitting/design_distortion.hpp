@@ -15,7 +15,7 @@
 // at their DC operating-point voltage (u = 0), which is what a transient
 // simulator shows in the first periods after its DC operating point.
 // Junction capacitance is not modelled: this is the low-frequency (resistive)
-// nonlinearity of rj = n·Vt/I (REFERENCES.md §6: for PIN diodes well above
+// nonlinearity of rj = n·Vt/I (docs/references.md §6: for PIN diodes well above
 // 1/(2πτ) this overestimates the distortion).
 #pragma once
 

@@ -280,7 +280,7 @@ JointFitReport compare_dc_and_joint(std::span<const IvPoint> dc, std::span<const
   r.agreement += line;
   // A junction warmed by its own dissipation at the top of the sweep reads a
   // lower Vf there, which the DC fit takes as a smaller Rs; the AC readings
-  // see the dynamic resistance directly (REFERENCES.md §3, self-heating).
+  // see the dynamic resistance directly (docs/references.md §3, self-heating).
   if (r.dc_only.ok && ac_rs_higher)
     r.hint =
         "the AC readings alone see a larger Rs than the DC curve: typical of self-heating at the top of the DC sweep "

@@ -84,7 +84,7 @@ SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, co
                     const JointFitOptions& options);
 
 // n and Rs from the AC readings alone, by the dynamic-resistance method
-// (REFERENCES.md §3): each reading gives rd = Z·(1/G − 1), with G = Vout/Vin
+// (docs/references.md §3): each reading gives rd = Z·(1/G − 1), with G = Vout/Vin
 // and Z = RL ∥ Rr, and rd = Rs + n·Vt/I is a straight line in Vt/I; a
 // weighted linear least-squares fit gives Rs (intercept) and n (slope), with
 // σ(rd) = (Z/G)·σ_dB·ln10/20 and errors scaled by the reduced χ². The line

@@ -1,7 +1,7 @@
 // Series and shunt switch loss from an element impedance, the SPICE C–V law
 // for the off state, and the bias needed for a target loss.
 //
-// Relations (REFERENCES.md §6, from the ABCD matrix), with source Rg and load RL:
+// Relations (docs/references.md §6, from the ABCD matrix), with source Rg and load RL:
 //   series element Z:  loss = 20·log10|1 + Z/(Rg + RL)|      (= |1 + Z/2Z0| when matched)
 //   shunt element Z:   loss = 20·log10|1 + (Rg∥RL)/Z|      (= |1 + Z0/(2Z)| when matched)
 // Both are the load voltage relative to a direct source-to-load connection.

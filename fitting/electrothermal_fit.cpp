@@ -138,7 +138,7 @@ ElectroThermalFit fit_electrothermal(std::span<const IvPoint> dc, std::span<cons
   // Start: Is, n from the DC fit; Rs from the AC readings alone, which the
   // heating of the DC sweep does not pull; Rth from the gap between the two
   // Rs: apparent Rs ≈ Rs − Rth·V·|dVj/dT| at the top reading, with
-  // dVj/dT = (Vj − EG − XTI·Vt)/T at constant current (REFERENCES.md §2, §8).
+  // dVj/dT = (Vj − EG − XTI·Vt)/T at constant current (docs/references.md §2, §8).
   double x[4] = {std::log(start.is_a), start.n, start.rs_ohm, 0.0};
   JointFitOptions jo;
   jo.temp_k = ta;

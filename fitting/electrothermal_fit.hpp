@@ -4,7 +4,7 @@
 //
 // Why: a junction heated by its own dissipation reads a lower Vf at the top of
 // a DC sweep, which a DC-only fit turns into a smaller Rs with a tight error
-// (apparent Rs ≈ Rs − Rth·V·|dV/dT|, REFERENCES.md §8). From DC alone Rs and
+// (apparent Rs ≈ Rs − Rth·V·|dV/dT|, docs/references.md §8). From DC alone Rs and
 // Rth are collinear; the AC readings see the dynamic resistance
 // Rs + n·Vt(Tj)/(I + Is(Tj)) at each bias and break the tie.
 //
@@ -94,7 +94,7 @@ ElectroThermalFit fit_electrothermal(std::span<const IvPoint> dc, std::span<cons
 // fits electro-thermally when at least 2 remain, and otherwise says what the
 // DC-only Rs may hide: the size of the heating bias per 100 K/W of thermal
 // resistance at the top reading's power (apparent Rs ≈ Rs − Rth·V·|dVj/dT|,
-// dVj/dT = (Vj − EG − XTI·Vt)/T at constant current, REFERENCES.md §2, §8).
+// dVj/dT = (Vj − EG − XTI·Vt)/T at constant current, docs/references.md §2, §8).
 
 struct ElectroThermalRunOptions {
   ElectroThermalOptions fit;  // ambient_k = the run's temp_k; accuracy, ac_sigma_db from the bench config

@@ -11,7 +11,7 @@
 // while the diode isolates (A ≫ (z + Rs)²), unbounded as |G| nears
 // z/(z + Rs), where the reactance is lost in the resistances.
 //
-// Over the reverse biases C follows the SPICE depletion law (REFERENCES.md §2,
+// Over the reverse biases C follows the SPICE depletion law (docs/references.md §2,
 // ngspice dioload.c with V = −Vr): Cj(Vr) = CJO·(1 + Vr/VJ)^−M. The fit is
 // least squares in ln C, r = (ln C_k − ln CJO + M·ln(1 + Vr_k/VJ))/σ_lnC,k,
 // one residual per reading (several frequencies at one bias are several
@@ -49,7 +49,7 @@ struct JunctionCapOptions {
   double ac_sigma_db = 0.01;  // standard uncertainty of one ratio reading
   double floor_v = 100e-6;    // a level below this is left out ("below the level floor")
   double max_gain = 0.9;      // |G| above this is left out: too little isolation to resolve C (common practice, no source)
-  double vj_v_held = 1.0, m_held = 0.5;  // SPICE defaults (REFERENCES.md §2), used when the law cannot be fitted
+  double vj_v_held = 1.0, m_held = 0.5;  // SPICE defaults (docs/references.md §2), used when the law cannot be fitted
   // The fixture's own capacitance across the slot (measured with the slot
   // empty): in parallel with the part, so subtracted from each reading's C
   // before the law is fitted. A reading not above it is left out.

@@ -1,7 +1,7 @@
 // What a fitted part (or a lot's nominal) is, as exports need it, and the
 // SPICE diode model card made from it. Pure: strings in, string out.
 //
-// Card parameter names and units follow the SPICE level-1 diode (REFERENCES.md
+// Card parameter names and units follow the SPICE level-1 diode (docs/references.md
 // §2): IS [A], N, RS [Ω], CJO [F], VJ [V], M, EG [eV], XTI, TRS1 [1/K],
 // TRS2 [1/K²], TNOM [°C]. Parameters left at NaN are omitted so the
 // simulator's defaults apply. EG and XTI are always written (the values junco's

@@ -9,7 +9,7 @@
 //
 // Source: the Berkeley SPICE3 / ngspice diode (ngspice manual, "Diode model"
 // temperature effects; src/spicelib/devices/dio/diotemp.c: DIOtSatCur and the
-// series-conductance factor 1 + TRS1·dt + TRS2·dt²), REFERENCES.md §2.
+// series-conductance factor 1 + TRS1·dt + TRS2·dt²), docs/references.md §2.
 // EG and XTI default to SPICE's 1.11 eV and 3 (silicon pn junction). Note the
 // exponent: (T/TNOM − 1)·EG/(N·Vt(T)) = EG·q/(N·k)·(1/TNOM − 1/T), so taking
 // a part from T1 to T2 and then to T3 equals going from T1 to T3 (Is part).
@@ -54,7 +54,7 @@ double series_resistance_at_ohm(double rs_ohm, double tnom_k, double temp_k, con
 DiodeParams diode_at_temperature(const DiodeParams& p, double tnom_k, double temp_k, const TemperatureLaw& law);
 
 // VJ and CJO at temp_k of a depletion law given at tnom_k, the SPICE3 /
-// ngspice default (tlevc = 0, diotemp.c; REFERENCES.md §2, check values E4):
+// ngspice default (tlevc = 0, diotemp.c; docs/references.md §2, check values E4):
 //   pb(T)  = EG_Si(T) − EG_Si(300.15)·T/300.15 − 3·Vt·ln(T/300.15) (as the code
 //            writes it: −2·Vt·(1.5·ln(T/300.15) + q·(−EG_Si(T)/(2kT) + 1.1150877/(2k·300.15))))
 //   EG_Si(T) = 1.16 − 7.02e-4·T²/(T + 1108) eV

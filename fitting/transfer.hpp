@@ -18,7 +18,7 @@
 //   * transfer ratio Vout/Vout_thru, where Vout_thru = EMF·RL/(Rg + RL) is the
 //     load voltage with source and load joined directly. Insertion loss is
 //     −20·log10|transfer ratio|; with Rg = RL = Z0 and no shunts it is the
-//     textbook 20·log10|1 + Z/(2·Z0)| (REFERENCES.md §6).
+//     textbook 20·log10|1 + Z/(2·Z0)| (docs/references.md §6).
 #pragma once
 
 #include "fitting/diode.hpp"

@@ -13,7 +13,7 @@ int main(int argc, char** argv) {
   const int replicas = argc > 1 ? std::atoi(argv[1]) : 1000;
   const std::size_t count = argc > 2 ? static_cast<std::size_t>(std::atoi(argv[2])) : 40;
   const double temp_k = 300.0;
-  // REFERENCES.md E7 parameter set, swept 1 µA … 100 mA.
+  // docs/references.md E7 parameter set, swept 1 µA … 100 mA.
   const fitting::DiodeParams truth{1e-9, 1.8, 0.5};
   fitting::FitOptions opt;
   opt.temp_k = temp_k;

@@ -95,8 +95,8 @@ TEST_CASE("junco submit, watch, jobs, lots, parts, show against a running daemon
   CHECK(figures[0]["i_a"].get<double>() == Approx(1e-3));
   CHECK(figures[1]["i_a"].get<double>() == Approx(5e-3));
   CHECK(figures[2]["i_a"].get<double>() == Approx(10e-3));
-  // rd = N·Vt/I + RS (REFERENCES.md §3, dynamic resistance; I ≫ IS here).
-  const double vt = 1.380649e-23 * 300.15 / 1.602176634e-19;  // REFERENCES.md §1
+  // rd = N·Vt/I + RS (docs/references.md §3, dynamic resistance; I ≫ IS here).
+  const double vt = 1.380649e-23 * 300.15 / 1.602176634e-19;  // docs/references.md §1
   const double n = shown["fit"]["n"]["value"], rs = shown["fit"]["rs_ohm"]["value"];
   CHECK(figures[1]["rd_ohm"].get<double>() == Approx(n * vt / 5e-3 + rs).epsilon(1e-3));
   r = junco_cli(dir, {"show", "CL-1", "--socket", sock});

@@ -143,8 +143,8 @@ TEST_CASE("a job runs end to end: events, readings, fits, figures", "[e2e]") {
     const double is_a = fit["is_a"]["value"], n = fit["n"]["value"], rs = fit["rs_ohm"]["value"];
     const auto fig = c.request("part.figures", {{"part_id", id}, {"currents_a", {1e-3}}})["result"]["figures"][0];
     // Inverse of the Shockley equation with series resistance,
-    // V = I·RS + N·Vt·ln(1 + I/IS) (REFERENCES.md §2, Banwell & Jayakumar form);
-    // Vt = kT/q with the exact 2019 SI k and q (REFERENCES.md §1), T = 300.15 K.
+    // V = I·RS + N·Vt·ln(1 + I/IS) (docs/references.md §2, Banwell & Jayakumar form);
+    // Vt = kT/q with the exact 2019 SI k and q (docs/references.md §1), T = 300.15 K.
     const double vt = 1.380649e-23 * 300.15 / 1.602176634e-19;
     const double vf = 1e-3 * rs + n * vt * std::log1p(1e-3 / is_a);
     CHECK(fig["vf_v"].get<double>() == Approx(vf).epsilon(1e-6));

@@ -123,7 +123,7 @@ TEST_CASE("8 parts × 200 points × (DC + AC at 3 frequencies) run unattended to
   }
 }
 
-// REFERENCES.md §3 pitfall: "Self-heating at high current mimics a lower RS".
+// docs/references.md §3 pitfall: "Self-heating at high current mimics a lower RS".
 // With the simulator's default θ = 400 K/W the junction warms at high
 // current, Vd drops, and a fit that assumes one temperature reads that as
 // less series resistance: fitted RS below the true one, by more than the

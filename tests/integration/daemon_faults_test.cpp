@@ -12,7 +12,7 @@
 //    (junco-sim reads it) and juncod stops with a clear error.
 // Expected behaviour is the project's own (issue 10, docs/daemon-core.md);
 // SCPI error codes are SCPI-99's (-222 data out of range, -221 settings
-// conflict; REFERENCES.md §7 item 15).
+// conflict; docs/references.md §5).
 #include "tests/support/campaign.hpp"
 #include "tests/integration/drivers_test_support.hpp"
 #include "tests/support/db_rows.hpp"

@@ -41,7 +41,7 @@ PartModel demo_part(const std::string& label, double is_a) {
 }  // namespace
 
 TEST_CASE("junco design bias-r from a model document reproduces E8") {
-  // Source: REFERENCES.md E8 (427.533 ohm for 10 mA from 5 V).
+  // Source: docs/references.md E8 (427.533 ohm for 10 mA from 5 V).
   Dir d;
   std::ofstream(d.file("m.json")) << model_document_json(demo_part("DM-01", 1e-14));
   const auto r = run_junco("design bias-r --model " + d.file("m.json") + " --supply 5V --current 10mA");
@@ -132,12 +132,12 @@ TEST_CASE("junco plot renders SVGs with labelled axes, and a PNG") {
 
 TEST_CASE("junco fit --ac: joint AC+DC fit offline, agreeing and disagreeing") {
   // Readings generated from the Shockley equation with series resistance
-  // (REFERENCES.md §2) and the fixture divider 50/(50 + Rs + n·Vt/I)
-  // (REFERENCES.md §6, small-signal rd); "another Rs" feeds the AC readings
+  // (docs/references.md §2) and the fixture divider 50/(50 + Rs + n·Vt/I)
+  // (docs/references.md §6, small-signal rd); "another Rs" feeds the AC readings
   // a different Rs than the DC curve, as a hot DC sweep would.
   Dir d;
   const DiodeParams truth{2e-9, 1.8, 0.7};
-  const double vt = 0.025864;  // kT/q at 300.15 K (REFERENCES.md §1)
+  const double vt = 0.025864;  // kT/q at 300.15 K (docs/references.md §1)
   std::vector<IvPoint> iv;
   std::vector<AcPoint> ac_same, ac_other;
   for (int k = 0; k < 30; ++k) {

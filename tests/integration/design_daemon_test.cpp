@@ -107,7 +107,7 @@ TEST_CASE("part.design answers as the calculators do on the exported model", "[d
   CHECK(by_value_error({{"is_a", -2e-9}, {"n", 1.8}, {"rs_ohm", 0.7}}) == "part.is_a");
   CHECK(by_value_error({{"is_a", 2e-9}, {"n", 1.8}, {"rs_ohm", 0.7}, {"cj", 1e-12}}) == "part.cj");
   CHECK(by_value_error({{"is_a", 2e-9}, {"n", "1.8"}, {"rs_ohm", 0.7}}) == "part.n");
-  // The op answer by value against REFERENCES.md §2's explicit current with
+  // The op answer by value against docs/references.md §2's explicit current with
   // Boost.Math's W0: I = (N·Vt/R)·W0[(IS·R/(N·Vt))·exp((V + IS·R)/(N·Vt))] − IS, R = RBIAS + RS.
   {
     const Json op = b.result("design.run", {{"calculator", "op"}, {"part", good_part}, {"inputs", {{"supply_v", 5.0}, {"rbias_ohm", 390.0}}}});
@@ -170,7 +170,7 @@ TEST_CASE("part.transfer: without self-heating the AC readings agree with the DC
     const Json& t = truth[static_cast<std::size_t>(part - 1)];
     CHECK(j["joint"]["rs_ohm"]["value"].get<double>() == Approx(t["rs_ohm"].get<double>()).epsilon(0.05));
     CHECK(j["joint"]["n"]["value"].get<double>() == Approx(t["n"].get<double>()).epsilon(0.01));
-    // And so do the AC readings alone (rd = Rs + n·Vt/I, REFERENCES.md §3).
+    // And so do the AC readings alone (rd = Rs + n·Vt/I, docs/references.md §3).
     REQUIRE(j["ac_only"]["ok"] == true);
     CHECK(j["ac_only"]["rs_ohm"]["value"].get<double>() == Approx(t["rs_ohm"].get<double>()).epsilon(0.05));
     CHECK(j["ac_only"]["n"]["value"].get<double>() == Approx(t["n"].get<double>()).epsilon(0.01));

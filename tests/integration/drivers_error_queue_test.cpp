@@ -7,7 +7,7 @@
 // The SCPI behaviour relied on (IEEE 488.2 §10.3 *CLS clears the error/event
 // queue; SCPI-99 §21.8 SYST:ERR? returns the oldest entry, "0,..." when empty;
 // -113 "Undefined header" is a command error, -100 … -199) is from
-// REFERENCES.md §7 item 15.
+// docs/references.md §5.
 #include "drivers/errors.hpp"
 #include "tests/integration/drivers_test_support.hpp"
 

@@ -2,8 +2,8 @@
 // by juncod over the real bench protocol: the simulator's truth (its `lot?`,
 // and the thermal resistance set in its config) comes back. Sources: the
 // simulator's self-heating model (docs/sim.md: Tj → ambient + θ·P, IS(T) of
-// REFERENCES.md §2), the issue's target (isothermal Rs within 5 % with
-// heating at 400 K/W), and REFERENCES.md §8 for the DC-only bias.
+// docs/references.md §2), the issue's target (isothermal Rs within 5 % with
+// heating at 400 K/W), and docs/references.md §8 for the DC-only bias.
 #include "fitting/design_joint_fit.hpp"
 #include "fitting/electrothermal_fit.hpp"
 #include "tests/support/bench_daemon.hpp"
@@ -70,7 +70,7 @@ TEST_CASE("junco-sim at 400 K/W: the electro-thermal fit recovers the isothermal
     CHECK(std::abs(fit.rs_ohm.value - rs) < 3 * fit.rs_ohm.std_error);
     CHECK(std::abs(fit.rth_k_per_w.value - 400.0) < 3 * fit.rth_k_per_w.std_error);
     CHECK(fit.n.value == Approx(t["n"].get<double>()).epsilon(0.01));
-    // The DC-only Rs is biased low by the heating (REFERENCES.md §8).
+    // The DC-only Rs is biased low by the heating (docs/references.md §8).
     CHECK(fit.apparent_rs_ohm.value < rs - 0.2);
     // juncod stores the same isothermal fit as the part's fit: part.fit's
     // rs_ohm is the isothermal Rs, the DC-only one is kept by its own name.

@@ -121,7 +121,7 @@ TEST_CASE("same seed, same lot and same readings; another seed, another lot", "[
 
 TEST_CASE("a silicon signal diode drops 0.6–0.7 V at a few mA, in every slot", "[sim]") {
   // Rule of thumb (common practice, no source); and VF(10 mA) ≤ 1 V, the
-  // plausibility bound of REFERENCES.md E14.
+  // plausibility bound of docs/references.md E14.
   SimProcess sim({"--settle-ms", "1"});
   LineClient sw(sim.endpoint("scanner")), src(sim.endpoint("source")), dmm(sim.endpoint("meter"));
   REQUIRE(src.query("CURR 0.05;VOLT 0.9;OUTP ON;*OPC?") == std::optional<std::string>("1"));

@@ -1,5 +1,5 @@
 // IEEE 488.2 / SCPI conformance of junco-sim, seen from a raw socket and a
-// raw pseudo-terminal client (REFERENCES.md §7 item 15; rules from §5:
+// raw pseudo-terminal client (docs/references.md §5:
 // IEEE 488.2-1992 and SCPI-99 as quoted there).
 #include "tests/support/sim_process.hpp"
 
@@ -20,7 +20,7 @@ std::string q(LineClient& c, const std::string& line) {
 }  // namespace
 
 TEST_CASE("every instrument answers *IDN? with four fields within 72 characters", "[sim][scpi]") {
-  // Source: IEEE 488.2 §10.14 as quoted in REFERENCES.md §5.
+  // Source: IEEE 488.2 §10.14 as quoted in docs/references.md §5.
   SimProcess sim({"--serial", "meter"});
   for (const char* role : {"source", "meter", "scanner", "siggen", "levelmeter"}) {
     LineClient c(sim.endpoint(role));
@@ -36,7 +36,7 @@ TEST_CASE("every instrument answers *IDN? with four fields within 72 characters"
 }
 
 TEST_CASE("error queue: empty reply, -113, FIFO, overflow -350, *CLS clears, *RST does not", "[sim][scpi]") {
-  // Source: SCPI-99 error queue rules and IEEE 488.2 §11.4.3.4 (REFERENCES.md §5).
+  // Source: SCPI-99 error queue rules and IEEE 488.2 §11.4.3.4 (docs/references.md §5).
   SimProcess sim;
   LineClient c(sim.endpoint("source"));
   CHECK(q(c, "SYST:ERR?") == "0,\"No error\"");
@@ -65,7 +65,7 @@ TEST_CASE("error queue: empty reply, -113, FIFO, overflow -350, *CLS clears, *RS
 }
 
 TEST_CASE("*OPC? answers 1 and *ESR? reports CME, EXE, QYE bits then clears", "[sim][scpi]") {
-  // Source: IEEE 488.2 ESR bits as in REFERENCES.md §5 (CME 5, EXE 4, QYE 2).
+  // Source: IEEE 488.2 ESR bits as in docs/references.md §5 (CME 5, EXE 4, QYE 2).
   SimProcess sim;
   LineClient c(sim.endpoint("siggen"));
   CHECK(q(c, "*OPC?") == "1");
@@ -84,7 +84,7 @@ TEST_CASE("*OPC? answers 1 and *ESR? reports CME, EXE, QYE bits then clears", "[
 }
 
 TEST_CASE("keywords are case-insensitive in short and long form; ';' joins replies", "[sim][scpi]") {
-  // Source: SCPI-99 syntax rules as quoted in REFERENCES.md §5.
+  // Source: SCPI-99 syntax rules as quoted in docs/references.md §5.
   SimProcess sim;
   LineClient c(sim.endpoint("source"));
   c.send("volt 1.5");

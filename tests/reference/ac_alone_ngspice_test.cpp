@@ -2,7 +2,7 @@
 // made by a real ngspice small-signal (.ac) analysis of the fixture's series
 // switch, with the junction capacitance in the diode. The fit must recover
 // the netlist's N and RS when it is told Cj, and the plain dynamic-resistance
-// line (REFERENCES.md §3), which neglects Cj, must be visibly off at the
+// line (docs/references.md §3), which neglects Cj, must be visibly off at the
 // same frequency: the reason the refinement exists.
 #include "fitting/design_joint_fit.hpp"
 
@@ -25,7 +25,7 @@ const DiodeParams part{2e-9, 1.8, 0.7};  // an invented part
 constexpr double cjo_f = 2e-12;
 
 // One copy of source → Rg → diode → RL per bias current, each with the DC
-// that gives that current (REFERENCES.md §2 inverse: V = I·R + N·Vt·ln(1 +
+// that gives that current (docs/references.md §2 inverse: V = I·R + N·Vt·ln(1 +
 // I/IS)); ngspice linearises each at its operating point and returns
 // |v(k)| and |v(in)| at freq_hz. M is tiny so the depletion capacitance at
 // the forward bias stays CJO (ngspice dioload.c: CJO·(1 − V/VJ)^−M, within
@@ -120,7 +120,7 @@ TEST_CASE("AC-alone fit with Cj recovers N and RS from an ngspice .ac analysis a
 
 TEST_CASE("at 1 MHz Cj hardly matters and both fits agree with ngspice") {
   // Source: ngspice (Debian package), the same netlist at 1 MHz, where
-  // ω·Cj·rj < 0.01 for every reading (REFERENCES.md §3: the line is valid
+  // ω·Cj·rj < 0.01 for every reading (docs/references.md §3: the line is valid
   // while ω·Cj·rd ≪ 1).
   const auto readings = ngspice_readings(log_spaced(20e-6, 20e-3, 12), 1e6);
   JointFitOptions o;

@@ -1,4 +1,4 @@
-// Distortion of a series diode switch against E13 (REFERENCES.md) and
+// Distortion of a series diode switch against E13 (docs/references.md) and
 // against a real ngspice transient analysis with Fourier of the same circuit.
 #include "fitting/design_distortion.hpp"
 
@@ -78,7 +78,7 @@ std::pair<double, double> ngspice_hd(const DistortionInput& in) {
 }  // namespace
 
 TEST_CASE("E13: HD2 of a diode in series with 100 ohm at 10 mA, 0.1 V") {
-  // Source: REFERENCES.md E13 — formula −64.23 dBc, 64-point harmonic
+  // Source: docs/references.md E13 — formula −64.23 dBc, 64-point harmonic
   // balance of the exact Lambert-W loop −64.19 dBc.
   const auto r = solve_distortion(e13(10e-3, 0.1));
   CHECK(r.load.dbc[2] == Approx(-64.19).margin(0.05));
@@ -86,7 +86,7 @@ TEST_CASE("E13: HD2 of a diode in series with 100 ohm at 10 mA, 0.1 V") {
 }
 
 TEST_CASE("E13: HD2 at fixed signal current falls about 12 dB per bias doubling") {
-  // Source: REFERENCES.md E13 (Î = 1 mA: −52.18/−64.01/−75.94/−87.93 dBc at
+  // Source: docs/references.md E13 (Î = 1 mA: −52.18/−64.01/−75.94/−87.93 dBc at
   // 5/10/20/40 mA; these are formula values, good where Î/I is small).
   const double bias[] = {5e-3, 10e-3, 20e-3, 40e-3};
   const double hd2[] = {-52.18, -64.01, -75.94, -87.93};
@@ -104,7 +104,7 @@ TEST_CASE("E13: HD2 at fixed signal current falls about 12 dB per bias doubling"
 }
 
 TEST_CASE("E13: bare-junction limit, HD2 ≈ V/(4·N·Vt) and HD3 ≈ (V/(N·Vt))²/24") {
-  // Source: REFERENCES.md E13: at V̂ = 1 mV across the junction, 300.15 K,
+  // Source: docs/references.md E13: at V̂ = 1 mV across the junction, 300.15 K,
   // −40.30 and −84.11 dBc (series expansion of the exponential). A bare
   // junction is voltage-driven: make the loop resistance tiny against rj.
   auto in = e13(1e-6, 1e-3);

@@ -1,7 +1,7 @@
 // Round trip: readings from known parameters with noise → fit_forward →
 // exported .model card → ngspice DC sweep → compared with the readings.
 // Outside source: ngspice (Debian package) evaluating its own level-1 diode;
-// card names and TNOM-in-°C per ngspice dio.c / diosetup.c (REFERENCES.md §2).
+// card names and TNOM-in-°C per ngspice dio.c / diosetup.c (docs/references.md §2).
 #include "fitting/extract.hpp"
 #include "fitting/spice_card.hpp"
 
@@ -18,7 +18,7 @@
 using namespace junco::fitting;
 
 TEST_CASE("exported card reproduces the readings it was fitted from, in ngspice") {
-  // Known part (REFERENCES.md E7's parameters), 27 °C; readings at applied
+  // Known part (docs/references.md E7's parameters), 27 °C; readings at applied
   // voltages 0.40..0.95 V, 0.05 % relative noise on V and I (seed 20240611).
   const DiodeParams truth{1e-9, 1.8, 0.5};
   const double temp_k = 300.15, noise = 5e-4;

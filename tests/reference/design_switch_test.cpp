@@ -1,5 +1,5 @@
 // Switch loss, isolation and bias-resistor calculators against the outside
-// check values of REFERENCES.md (E8–E12, relations of §6).
+// check values of docs/references.md (E8–E12, relations of §6).
 #include "fitting/design_bias.hpp"
 #include "fitting/design_switch.hpp"
 #include "fitting/transfer.hpp"
@@ -19,7 +19,7 @@ double two_pi_f(double f) { return 2.0 * std::numbers::pi * f; }
 }  // namespace
 
 TEST_CASE("E9: PIN switch loss and isolation, series and shunt, 2/3/4 GHz") {
-  // Source: REFERENCES.md E9 (course solution, coursehero 6235364), recomputed
+  // Source: docs/references.md E9 (course solution, coursehero 6235364), recomputed
   // with the §6 relations: Cj 0.1 pF, Rf 1 Ω, Rr 4 Ω, Ls 0.3 nH, Z0 50 Ω.
   const double freqs[] = {2e9, 3e9, 4e9};
   const double series_il[] = {0.0925, 0.1000, 0.1106}, series_iso[] = {18.05, 14.57, 12.13};
@@ -37,7 +37,7 @@ TEST_CASE("E9: PIN switch loss and isolation, series and shunt, 2/3/4 GHz") {
 }
 
 TEST_CASE("E10: 6 GHz series, shunt and series-shunt SPST") {
-  // Source: REFERENCES.md E10 (askfilo student solution, recomputed [C]).
+  // Source: docs/references.md E10 (askfilo student solution, recomputed [C]).
   const Parasitics off{0.3e-9, 0.0};
   const double w = two_pi_f(6e9);
   const cplx z_on(1.0, w * 0.3e-9);
@@ -54,7 +54,7 @@ TEST_CASE("E10: 6 GHz series, shunt and series-shunt SPST") {
 }
 
 TEST_CASE("E11: signal diode in 50 ohm, loss against bias, series and shunt") {
-  // Source: REFERENCES.md E11 [C] (N = 1, RS = 1 Ω, 27 °C, rd = N·Vt/I).
+  // Source: docs/references.md E11 [C] (N = 1, RS = 1 Ω, 27 °C, rd = N·Vt/I).
   const DiodeParams d{1e-14, 1.0, 1.0};
   const double bias[] = {1e-3, 5e-3, 10e-3, 20e-3, 50e-3};
   const double il[] = {2.067, 0.520, 0.306, 0.197, 0.131};
@@ -71,7 +71,7 @@ TEST_CASE("E11: signal diode in 50 ohm, loss against bias, series and shunt") {
 }
 
 TEST_CASE("E11 inverted: bias for a target loss returns the table's bias") {
-  // Source: REFERENCES.md E11; the inverse must land on the tabulated bias
+  // Source: docs/references.md E11; the inverse must land on the tabulated bias
   // within the table's rounding (3 decimals of dB).
   const DiodeParams d{1e-14, 1.0, 1.0};
   auto i = bias_for_loss_a(SwitchKind::series, d, 0.306, 50, 50, 1e6, {}, t27_k);
@@ -87,7 +87,7 @@ TEST_CASE("E11 inverted: bias for a target loss returns the table's bias") {
 }
 
 TEST_CASE("E12: off-state isolation from Cj, on-state resistors") {
-  // Source: REFERENCES.md E12 [C].
+  // Source: docs/references.md E12 [C].
   const cplx z03 = off_impedance(0.3e-12, 1e9, {});
   CHECK(std::abs(z03) == Approx(530.52).margin(0.01));
   CHECK(series_loss_db(z03, 50, 50) == Approx(14.646).margin(6e-4));
@@ -98,7 +98,7 @@ TEST_CASE("E12: off-state isolation from Cj, on-state resistors") {
 }
 
 TEST_CASE("E5: junction capacitance law for the reverse-bias isolation option") {
-  // Source: REFERENCES.md E5 [C], ngspice dioload.c C–V law.
+  // Source: docs/references.md E5 [C], ngspice dioload.c C–V law.
   const JunctionCap c{1e-12, 1.0, 0.5, 0.5};
   CHECK(junction_capacitance_f(c, -20) == Approx(0.218218e-12).epsilon(1e-5));
   CHECK(junction_capacitance_f(c, -4) == Approx(0.447214e-12).epsilon(1e-5));
@@ -108,7 +108,7 @@ TEST_CASE("E5: junction capacitance law for the reverse-bias isolation option") 
 }
 
 TEST_CASE("E8: bias resistor for 10 mA from 5 V, and the operating point it gives back") {
-  // Source: REFERENCES.md E8 [C]: IS 1e-14, N 1, RS 1 Ω, 27 °C → 427.533 Ω.
+  // Source: docs/references.md E8 [C]: IS 1e-14, N 1, RS 1 Ω, 27 °C → 427.533 Ω.
   const DiodeParams d{1e-14, 1.0, 1.0};
   const auto r = bias_resistor_ohm(d, 5.0, 10e-3, 0.0, t27_k);
   REQUIRE(r);

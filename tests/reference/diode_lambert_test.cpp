@@ -9,14 +9,14 @@
 using namespace junco::fitting;
 
 TEST_CASE("Vt from exact CODATA 2018 constants", "[reference]") {
-  // REFERENCES.md §1 [C]: 25.85200 mV at 300 K, 25.86493 mV at 300.15 K.
+  // docs/references.md §1 [C]: 25.85200 mV at 300 K, 25.86493 mV at 300.15 K.
   CHECK(thermal_voltage_v(300.0) == Approx(25.85200e-3).epsilon(2e-7));
   CHECK(thermal_voltage_v(300.15) == Approx(25.86493e-3).epsilon(2e-7));
 }
 
 TEST_CASE("Lambert-W current reproduces the Boost.Math diode example", "[reference]") {
   // boostorg/math example/lambert_w_diode.cpp (Banwell & Jayakumar data),
-  // REFERENCES.md E1: IS = 25 fA, N = 1, Vt = 0.0257025 V, R = 249.3 Ω, 0.9 V → 1.0848517 mA.
+  // docs/references.md E1: IS = 25 fA, N = 1, Vt = 0.0257025 V, R = 249.3 Ω, 0.9 V → 1.0848517 mA.
   const double vt = 0.0257025;
   const double temp_k = vt / thermal_voltage_v(1.0);
   DiodeParams p{25e-15, 1.0, 249.3};
@@ -31,14 +31,14 @@ TEST_CASE("W0(e^x) agrees with Boost.Math and stays finite past overflow", "[ref
   for (double x = -30.0; x < 700.0; x += 7.3) {
     CHECK(lambert_w0_of_exp(x) == Approx(boost::math::lambert_w0(std::exp(x))).epsilon(1e-14));
   }
-  // REFERENCES.md §2 [C]: W0(1e10) = 20.028685413304951; and w + ln w = x beyond 709.
+  // docs/references.md §2 [C]: W0(1e10) = 20.028685413304951; and w + ln w = x beyond 709.
   CHECK(lambert_w0_of_exp(std::log(1e10)) == Approx(20.028685413304951).epsilon(1e-14));
   const double w = lambert_w0_of_exp(5000.0);
   CHECK(w + std::log(w) == Approx(5000.0).epsilon(1e-15));
 }
 
 TEST_CASE("Explicit shunt form matches the published check values", "[reference]") {
-  // REFERENCES.md §2 [C] (Ortiz-Conde et al. 2000 form): IS = 1e-14, N = 1,
+  // docs/references.md §2 [C] (Ortiz-Conde et al. 2000 form): IS = 1e-14, N = 1,
   // RS = 10 Ω, Rsh = 1 MΩ, 300.15 K.
   const DiodeParams p{1e-14, 1.0, 10.0, 1e6};
   CHECK(diode_current_a(p, 0.3, 300.15) == Approx(3.010864334e-7).epsilon(1e-8));
@@ -80,7 +80,7 @@ TEST_CASE("Below Is the current stays exact: V(I(V)) = V down to a huge resistan
 }
 
 TEST_CASE("I(V) matches Banwell–Jayakumar evaluated directly with Boost.Math", "[reference]") {
-  // Formula as in boostorg/math example/lambert_w_diode.cpp (REFERENCES.md §2):
+  // Formula as in boostorg/math example/lambert_w_diode.cpp (docs/references.md §2):
   // I = (nVt/R)·W0[(Is·R/nVt)·exp((V + Is·R)/nVt)] − Is, computed here with
   // boost::math::lambert_w0 itself, where the argument is representable.
   const double temp_k = 300.15;
@@ -111,7 +111,7 @@ TEST_CASE("With a shunt, V(I) solves the implicit equation to full precision", "
 }
 
 TEST_CASE("E2 default card and E7 set: explicit V(I)", "[reference]") {
-  // REFERENCES.md E2 [C] (IS = 1e-14, N = 1, 27 °C) and E7 [C] (IS = 1e-9, N = 1.8, RS = 0.5, 300 K).
+  // docs/references.md E2 [C] (IS = 1e-14, N = 1, 27 °C) and E7 [C] (IS = 1e-9, N = 1.8, RS = 0.5, 300 K).
   const DiodeParams def{1e-14, 1.0, 0.0};
   CHECK(diode_voltage_v(def, 1e-6, 300.15) == Approx(0.476450).epsilon(2e-6));
   CHECK(diode_voltage_v(def, 1e-3, 300.15) == Approx(0.655118).epsilon(2e-6));

@@ -1,7 +1,7 @@
 // ngspice (Debian's `ngspice -b`) as the reference simulator: it computes the
 // forward curve of a .model card, junco fits the curve, and the card's IS, N,
 // RS must come back. ngspice differs from junco in three known ways
-// (REFERENCES.md §1–2): CODATA-2014 k/q (3.4e-7 relative below ours), GMIN
+// (docs/references.md §1–2): CODATA-2014 k/q (3.4e-7 relative below ours), GMIN
 // = 1e-12 S across the junction (under 1e-6 of the current at our lowest
 // point), and TNOM = TEMP = 27 °C = 300.15 K. All are far inside the
 // tolerances below. If ngspice is missing or fails, the test fails.

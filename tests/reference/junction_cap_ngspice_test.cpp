@@ -25,7 +25,7 @@ namespace {
 constexpr double is_a = 3e-12, n_ideality = 1.9, rs_ohm = 1.3;
 constexpr double cjo_f = 2.4e-12, vj_v = 0.72, m_grading = 0.38;
 
-// ngspice dioload.c (REFERENCES.md §2), below FC·VJ: C = CJO·(1 − V/VJ)^−M
+// ngspice dioload.c (docs/references.md §2), below FC·VJ: C = CJO·(1 − V/VJ)^−M
 // with V = −Vr; TT = 0, so no diffusion capacitance.
 double netlist_law_f(double reverse_v) { return cjo_f * std::pow(1.0 + reverse_v / vj_v, -m_grading); }
 
@@ -83,7 +83,7 @@ std::vector<OffStatePoint> ngspice_readings(const std::vector<double>& reverse_v
 TEST_CASE("each off-state reading of an ngspice .ac analysis gives the netlist's Cj(Vr)") {
   // Source: ngspice (Debian package, ngspice-39) .ac analysis of the netlist
   // above; the expected C is the netlist's law (ngspice dioload.c,
-  // REFERENCES.md §2). Tolerance 1e-7: wrdata prints 9 significant digits
+  // docs/references.md §2). Tolerance 1e-7: wrdata prints 9 significant digits
   // (≤ 1e-8 in each ratio), d ln C / d ln|G| ≈ 1 at these isolations, and
   // the zero-bias junction conductance adds < 1e-8 (our bound, no source).
   const std::vector<double> biases{0.0, 0.5, 1.0, 2.0, 3.0, 5.0, 8.0};
@@ -130,9 +130,9 @@ TEST_CASE("two reverse biases only: VJ and M are held and CJO is what the held l
   // 3 V. With VJ, M held at vh, mh, each reading k alone says
   // CJO_k = C_k·(1 + Vr_k/vh)^mh; the fit's CJO is a weighted mean of the
   // ln CJO_k, so it lies between the smallest and largest of them, taken
-  // here from the netlist's law (ngspice dioload.c, REFERENCES.md §2) with
+  // here from the netlist's law (ngspice dioload.c, docs/references.md §2) with
   // the 1e-7 of the first case as slack. The defaults (1 V, 0.5) are
-  // ngspice's (REFERENCES.md §2).
+  // ngspice's (docs/references.md §2).
   const auto readings = ngspice_readings({1.0, 3.0});
   const JunctionCapOptions o;
   const JunctionCapFit fit = fit_junction_cap(readings, Fixture{}, rs_ohm, o);

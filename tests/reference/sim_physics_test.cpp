@@ -1,7 +1,7 @@
 // The simulated bench's physics against independent references:
 //  - DC operating point vs ngspice (a real `ngspice -b` run of the same
-//    circuit and SPICE diode model, REFERENCES.md §2 model equations);
-//  - small-signal transfer vs the series-element formula (REFERENCES.md §6,
+//    circuit and SPICE diode model, docs/references.md §2 model equations);
+//  - small-signal transfer vs the series-element formula (docs/references.md §6,
 //    rd = n·Vt/I + Rs, §1) including Cj from the SPICE C–V law (§2);
 //  - high-bias transfer vs the resistive divider RL/(Rg + RL + Rs + rd);
 //  - second harmonic vs an ngspice transient with `fourier` (§4 E13 context).
@@ -86,7 +86,7 @@ double harmonic(const std::vector<double>& w, int k) {
 
 TEST_CASE("DC operating point agrees with ngspice's .op for the same circuit and model", "[sim][ngspice]") {
   // Source: ngspice (Debian package) solving the SPICE level-1 diode; the
-  // constants differ from SI 2019 by 3.4e-7 relative (REFERENCES.md §1), so
+  // constants differ from SI 2019 by 3.4e-7 relative (docs/references.md §1), so
   // currents are compared to 1e-4 relative, voltages to 20 µV.
   FixtureConfig fx;  // Rb 100 Ω, inductor return (0 Ω at DC)
   PartParams part;
@@ -124,7 +124,7 @@ TEST_CASE("current limit: the supply regulates current and folds its voltage bac
 }
 
 TEST_CASE("small-signal AC transfer matches the series-element formula with rd = n·Vt/I + Rs and Cj", "[sim]") {
-  // Source: REFERENCES.md §6 (series element between Rg and RL:
+  // Source: docs/references.md §6 (series element between Rg and RL:
   // out/EMF = RL/(Rg + RL + Z)) with Z = Rs + (rd ∥ 1/(jωC)), rd = n·Vt/I
   // (§1), C = C–V law at the junction bias (§2). 1 mV EMF keeps it linear.
   FixtureConfig fx;
@@ -151,7 +151,7 @@ TEST_CASE("small-signal AC transfer matches the series-element formula with rd =
 }
 
 TEST_CASE("at high bias the transfer approaches the resistive divider RL/(Rg + RL + Rs + rd)", "[sim]") {
-  // Source: REFERENCES.md §6 series element with a purely resistive Z
+  // Source: docs/references.md §6 series element with a purely resistive Z
   // (Cj shorted by the small rd at 1 MHz); rd = n·Vt/I (§1).
   FixtureConfig fx;
   PartParams part;
@@ -203,8 +203,8 @@ TEST_CASE("second harmonic at 10 mA agrees with an ngspice transient and fourier
   CHECK(std::abs(20 * std::log10(hd2_sim / hd2_ng)) < 0.5);
 }
 
-TEST_CASE("IS(T) follows the ngspice temperature law (REFERENCES.md E3 values)", "[sim]") {
-  // Source: REFERENCES.md §4 E3 [C]: IS = 1e-14, N = 1, XTI = 3, EG = 1.11,
+TEST_CASE("IS(T) follows the ngspice temperature law (docs/references.md E3 values)", "[sim]") {
+  // Source: docs/references.md §4 E3 [C]: IS = 1e-14, N = 1, XTI = 3, EG = 1.11,
   // TNOM = 27 °C → IS(100 °C) = 8.5073276e-11 A, IS(0 °C) = 1.0836673e-16 A.
   PartParams p;
   p.is_a = 1e-14;
@@ -216,8 +216,8 @@ TEST_CASE("IS(T) follows the ngspice temperature law (REFERENCES.md E3 values)",
   CHECK(saturation_current_a(p, 273.15) == Approx(1.0836673e-16).epsilon(1e-6));
 }
 
-TEST_CASE("junction capacitance follows the SPICE C–V law (REFERENCES.md E5 values)", "[sim]") {
-  // Source: REFERENCES.md §4 E5 [C]: CJO 1 pF, VJ 1 V, M 0.5, FC 0.5.
+TEST_CASE("junction capacitance follows the SPICE C–V law (docs/references.md E5 values)", "[sim]") {
+  // Source: docs/references.md §4 E5 [C]: CJO 1 pF, VJ 1 V, M 0.5, FC 0.5.
   PartParams p;
   p.cj0_f = 1e-12;
   p.vj_v = 1;

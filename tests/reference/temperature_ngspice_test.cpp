@@ -1,6 +1,6 @@
 // The calculators' temperature law against ngspice: a supply, a resistor and
 // the exported card's diode, `.op` at -40, 27, 85 and 125 degC
-// (`.options temp=T tnom=27`, REFERENCES.md §8 "Temperature law"), against
+// (`.options temp=T tnom=27`, docs/references.md §8 "Temperature law"), against
 // junco's `op` calculator on the same part. Issue target: within 1 mV.
 // ngspice differs from junco only in CODATA-2014 k/q (3.4e-7 relative) and
 // GMIN = 1e-12 S across the junction (below 1e-9 of these currents), so the
@@ -72,7 +72,7 @@ double value_of(const Json& lines, const std::string& key) {
 TEST_CASE("op calculator equals ngspice .op from -40 to 125 degC", "[reference][ngspice]") {
   // Two parts: a 1N4148-like signal diode (card values from memory, typical
   // of vendor models) with the SPICE default EG/XTI, and a Schottky-like
-  // law (EG 0.69 eV, XTI 2: SPICE practice for Schottky, REFERENCES.md §2
+  // law (EG 0.69 eV, XTI 2: SPICE practice for Schottky, docs/references.md §2
   // table [M]) with TRS1 so RS moves too (invented values).
   const struct {
     const char* what;
@@ -109,7 +109,7 @@ TEST_CASE("op calculator equals ngspice .op from -40 to 125 degC", "[reference][
 TEST_CASE("isolation calculator's Cj equals ngspice's at -40, 27, 85, 125 degC", "[reference][ngspice]") {
   // ngspice `.op` of a reverse-biased diode prints its junction capacitance
   // (@d1[cd]) with VJ and CJO moved by its tlevc = 0 law (diotemp.c,
-  // REFERENCES.md §2, E4); the isolation calculator reports Cj at the same
+  // docs/references.md §2, E4); the isolation calculator reports Cj at the same
   // reverse bias and junction temperature. Card values invented (a small
   // switching diode: CJO 0.9 pF, VJ 0.65 V, M 0.42).
   DesignPart dp;

@@ -166,7 +166,7 @@ inline void note(DbReport& r, const std::string& what) {
 //  - the supply sits across Rb and the part (Kirchhoff's voltage law;
 //    junction supply_v = v + i·Rb exactly in the sim, within readback noise);
 //  - the Shockley equation with series resistance,
-//    v = n·Vt·ln(i/Is + 1) + i·Rs (REFERENCES.md §1), where the current is
+//    v = n·Vt·ln(i/Is + 1) + i·Rs (docs/references.md §1), where the current is
 //    large enough for the 0.2 µA readback noise not to dominate.
 // Current-limited points (flag 1) only need i ≈ the limit. Returns "" or why not.
 inline std::string implausible_dc(double supply_v, double v, double i_a, int flags, const Json& part, double rb_ohm,

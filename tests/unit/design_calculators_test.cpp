@@ -1,5 +1,5 @@
 // The calculator table behind `junco design` and part.design: its answers
-// against published check values (REFERENCES.md E8, E11, E12, E5), the
+// against published check values (docs/references.md E8, E11, E12, E5), the
 // inputs it echoes, and how it refuses bad input.
 #include "fitting/design_calculators.hpp"
 
@@ -40,7 +40,7 @@ std::string field_of(const std::string& calc, const DesignPart* part, const Json
 }  // namespace
 
 TEST_CASE("E8: bias resistor and the operating point it gives back") {
-  // Source: REFERENCES.md E8: 5 V, 10 mA → Vd = 0.724674 V, R = 427.533 Ω;
+  // Source: docs/references.md E8: 5 V, 10 mA → Vd = 0.724674 V, R = 427.533 Ω;
   // feeding R back through the Lambert-W form returns 10.0000 mA.
   const auto part = e8_part();
   const Json a = run_design("bias-r", &part, {{"supply_v", 5.0}, {"current_a", 0.01}});
@@ -58,7 +58,7 @@ TEST_CASE("E8: bias resistor and the operating point it gives back") {
 }
 
 TEST_CASE("E11: series insertion loss and shunt isolation over bias, defaults 50/50 ohm") {
-  // Source: REFERENCES.md E11 (N = 1, RS = 1 Ω, 27 °C, 50 Ω): series IL
+  // Source: docs/references.md E11 (N = 1, RS = 1 Ω, 27 °C, 50 Ω): series IL
   // 2.067 / 0.306 dB at 1 / 10 mA; the same diode as a shunt isolates
   // 5.71 / 18.03 dB. The calculator's default frequency (10 MHz) and zero
   // series inductance leave the resistive result unchanged.
@@ -78,14 +78,14 @@ TEST_CASE("E11: series insertion loss and shunt isolation over bias, defaults 50
 }
 
 TEST_CASE("E12 and E5: off-state isolation from the junction capacitance, with reverse bias") {
-  // Source: REFERENCES.md E12: Cj = 0.3 pF at 1 GHz → series isolation 14.646 dB,
+  // Source: docs/references.md E12: Cj = 0.3 pF at 1 GHz → series isolation 14.646 dB,
   // shunt insertion loss 0.00963 dB (the capacitance given as the part's override).
   const auto part = e8_part();
   const Json s = run_design("isolation", &part, {{"cj0_f", 0.3e-12}, {"freq_hz", 1e9}});
   CHECK(value_of(s["result"], "isolation_db") == Approx(14.646).margin(1e-3));
   const Json h = run_design("isolation", &part, {{"cj0_f", 0.3e-12}, {"freq_hz", 1e9}, {"switch", "shunt"}});
   CHECK(value_of(h["result"], "isolation_db") == Approx(0.00963).margin(1e-5));
-  // REFERENCES.md E5: CJO = 1 pF, VJ = 1 V, M = 0.5 → C(−4 V) = 0.447214 pF.
+  // docs/references.md E5: CJO = 1 pF, VJ = 1 V, M = 0.5 → C(−4 V) = 0.447214 pF.
   const Json r = run_design("isolation", &part, {{"cj0_f", 1e-12}, {"vj_v", 1.0}, {"m", 0.5}, {"reverse_v", 4.0}});
   CHECK(value_of(r["result"], "cj_f") == Approx(0.447214e-12).epsilon(1e-5));
   CHECK(r["part"]["cj0_f"] == 1e-12);
@@ -94,7 +94,7 @@ TEST_CASE("E12 and E5: off-state isolation from the junction capacitance, with r
 }
 
 TEST_CASE("the junction temperature moves IS by the SPICE law: Vf falls as T rises") {
-  // Source: REFERENCES.md E3 (SPICE IS(T) of §2, ngspice diotemp.c; IS = 1e-14 A,
+  // Source: docs/references.md E3 (SPICE IS(T) of §2, ngspice diotemp.c; IS = 1e-14 A,
   // N = 1, XTI = 3, EG = 1.11 eV, TNOM = 27 degC, RS = 0): V(1 mA) falls from
   // 0.655118 V at 27 degC to 0.523485 V at 100 degC; dV/dT at 27 degC = -1.774 mV/K.
   DesignPart part;
@@ -133,7 +133,7 @@ TEST_CASE("the junction temperature moves IS by the SPICE law: Vf falls as T ris
 }
 
 TEST_CASE("TRS1 moves RS linearly with the junction temperature") {
-  // Source: ngspice diotemp.c / REFERENCES.md §2: RS(T) = RS·(1 + TRS1·ΔT + TRS2·ΔT²).
+  // Source: ngspice diotemp.c / docs/references.md §2: RS(T) = RS·(1 + TRS1·ΔT + TRS2·ΔT²).
   const auto part = e8_part();  // RS = 1 ohm at 27 degC
   const Json a = run_design("op", &part, {{"supply_v", 5.0}, {"rbias_ohm", 430.0}, {"temp_k", 400.15}, {"trs1_per_k", 2e-3}});
   CHECK(a["junction"]["rs_ohm"].get<double>() == Approx(1.2).epsilon(1e-12));

@@ -39,10 +39,10 @@ Data make(const DiodeParams& p, double ac_rs_ohm, unsigned seed) {
 }  // namespace
 
 TEST_CASE("AC alone: the dynamic-resistance line rd = Rs + n·Vt/I gives back Rs and n") {
-  // REFERENCES.md §3, dynamic resistance: dV/dI = N·Vt/I + RS is a straight
+  // docs/references.md §3, dynamic resistance: dV/dI = N·Vt/I + RS is a straight
   // line against 1/I with slope N·Vt and intercept RS. Exact readings from the
   // fixture divider (RL = 50 Ω, I ≫ IS) must return the generating values;
-  // Vt = kT/q at 300.15 K (REFERENCES.md §1).
+  // Vt = kT/q at 300.15 K (docs/references.md §1).
   const double vt = 1.380649e-23 * 300.15 / 1.602176634e-19;
   std::vector<AcPoint> ac;
   for (int k = 0; k <= 10; ++k) {

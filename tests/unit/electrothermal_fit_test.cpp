@@ -3,7 +3,7 @@
 // junction: Tj = Ta + Rth·I·V found by bisection, V from the Shockley diode
 // with Is(T) written in the algebraic form
 //   Is(T) = IS·(T/TNOM)^(XTI/N)·exp(EG·q/(N·k)·(1/TNOM − 1/T))
-// (the SPICE law of REFERENCES.md §2 rearranged; ngspice diotemp.c), and the
+// (the SPICE law of docs/references.md §2 rearranged; ngspice diotemp.c), and the
 // AC readings from a std::complex divider of the fixture (RL, Rs + rj).
 #include "fitting/electrothermal_fit.hpp"
 
@@ -108,7 +108,7 @@ TEST_CASE("exact heated readings give back Is, n, Rs, Rth") {
   CHECK(heated_voltage_v(DiodeParams{t.is_a, t.n, t.rs_ohm}, 20e-3, t.ambient_k, t.rth_k_per_w,
                          TemperatureLaw{}, &tj) == Approx(v_at(t, 20e-3, tj_at(t, 20e-3))).epsilon(1e-12));
   CHECK(tj == Approx(tj_at(t, 20e-3)).epsilon(1e-12));
-  // The DC-only fit of the same readings: Rs far too low (REFERENCES.md §8:
+  // The DC-only fit of the same readings: Rs far too low (docs/references.md §8:
   // apparent Rs ≈ Rs − Rth·V·|dV/dT|, about −0.4 ohm at 400 K/W).
   CHECK(f.apparent_rs_ohm.value < t.rs_ohm - 0.2);
 }
@@ -177,9 +177,9 @@ TEST_CASE("fit_run_electrothermal: fits with AC readings, sizes the heating bias
   CHECK(j["apparent_rs_ohm"]["value"].get<double>() < t.rs_ohm - 0.2);
   CHECK(j["eg_ev"] == 1.11);
   // Without AC: DC only, with the bias per 100 K/W. Its size at this part's top
-  // reading (50 mA, ~0.9 V) from dVj/dT = (Vj − EG − XTI·Vt)/T (REFERENCES.md
+  // reading (50 mA, ~0.9 V) from dVj/dT = (Vj − EG − XTI·Vt)/T (docs/references.md
   // §2, E3) is about 0.1 ohm; the truth's own bias at 400 K/W (DC-only Rs −
-  // Rs) must be about 4× it (REFERENCES.md §8: Rs_app ≈ Rs − Rth·V·|dV/dT|).
+  // Rs) must be about 4× it (docs/references.md §8: Rs_app ≈ Rs − Rth·V·|dV/dT|).
   const auto dc_only = fit_run_electrothermal(r.dc, {}, fixture_50(), o);
   CHECK(dc_only.status == "no_ac");
   CHECK(dc_only.note.find("may include self-heating") != std::string::npos);

@@ -118,7 +118,7 @@ TEST_CASE("example curve: JSON fields recover the generator's parameters", "[cli
   CHECK(std::abs(rs - 0.62) < 5.0 * j.at("rs_ohm_se").get<double>());
   CHECK(j.at("parameter_names") == nlohmann::json({"is_a", "n", "rs_ohm"}));
   CHECK(j.at("correlation").size() == 3);
-  // rd(5 mA) = n·Vt/I + Rs at 300.15 K (REFERENCES.md §1: Vt = 25.86493 mV).
+  // rd(5 mA) = n·Vt/I + Rs at 300.15 K (docs/references.md §1: Vt = 25.86493 mV).
   CHECK(j.at("derived").at("rd_at_5ma_ohm").get<double>() == Approx(n * 25.86493e-3 / 5e-3 + rs).epsilon(1e-5));
   CHECK_FALSE(j.contains("rsh_ohm"));
 }

@@ -47,7 +47,7 @@ TEST_CASE("noisy curve: parameters within a few standard errors, errors sensible
   CHECK(r.reduced_chi2 == Approx(1.0).margin(0.6));
   REQUIRE(r.correlation.size() == 3);
   CHECK(r.correlation[0][0] == Approx(1.0));
-  CHECK(r.correlation[0][1] > 0.5);  // Is and n rise together (known strong correlation, REFERENCES.md §3)
+  CHECK(r.correlation[0][1] > 0.5);  // Is and n rise together (known strong correlation, docs/references.md §3)
   CHECK(r.correlation[0][1] == Approx(r.correlation[1][0]));
   CHECK(r.warnings.empty());
 }
@@ -172,7 +172,7 @@ TEST_CASE("derived figures and their propagated errors", "[fit]") {
 
 TEST_CASE("quick efficiency: RMS error within 1.5× the Cramér–Rao bound", "[fit][efficiency]") {
   // The full version (≥ 500 replicas, target 1.2×) is bench_fit_efficiency.
-  const DiodeParams truth{1e-9, 1.8, 0.5};  // REFERENCES.md E7 set
+  const DiodeParams truth{1e-9, 1.8, 0.5};  // docs/references.md E7 set
   const auto opt = options_at(300.0);
   const auto clean = fitbench::clean_curve(truth, opt.temp_k, 30, 1e-6, 0.1);
   const auto crb = fitbench::cramer_rao_sd(truth, clean, opt.accuracy, opt.temp_k);

@@ -11,7 +11,7 @@
 using namespace junco::fitting;
 
 TEST_CASE("IS(T) reproduces the E3 table") {
-  // Source: REFERENCES.md E3 (IS = 1e-14 A, N = 1, XTI = 3, EG = 1.11 eV,
+  // Source: docs/references.md E3 (IS = 1e-14 A, N = 1, XTI = 3, EG = 1.11 eV,
   // TNOM = 27 degC; the law of §2 from ngspice diotemp.c).
   const TemperatureLaw law;  // SPICE defaults EG 1.11, XTI 3
   const struct {
@@ -27,7 +27,7 @@ TEST_CASE("IS(T) reproduces the E3 table") {
 }
 
 TEST_CASE("the law composes: TNOM to T1 to T2 equals TNOM to T2") {
-  // From the form of the law (REFERENCES.md §2): the exponent is
+  // From the form of the law (docs/references.md §2): the exponent is
   // EG·q/(N·k)·(1/TNOM − 1/T) + XTI/N·ln(T/TNOM), additive over steps (derived, no other source).
   const TemperatureLaw law{0.69, 2.0, 0.0, 0.0};
   const double direct = saturation_current_at_a(3e-9, 1.7, 300.15, 398.15, law);
@@ -39,7 +39,7 @@ TEST_CASE("the law composes: TNOM to T1 to T2 equals TNOM to T2") {
 }
 
 TEST_CASE("a fit's forward voltage at another temperature, with its error") {
-  // dV/dT at constant current = (V − EG − XTI·N·Vt)/T (REFERENCES.md §2, E3:
+  // dV/dT at constant current = (V − EG − XTI·N·Vt)/T (docs/references.md §2, E3:
   // −1.774 mV/K for the default card at 1 mA, 27 degC, RS = 0).
   FitResult fit;
   fit.status = FitStatus::converged;
@@ -57,7 +57,7 @@ TEST_CASE("a fit's forward voltage at another temperature, with its error") {
 }
 
 TEST_CASE("the model document and the card carry the temperature law") {
-  // Card names as in ngspice's diode (dio.c: EG, XTI, TRS1, TNOM in degC; REFERENCES.md §2).
+  // Card names as in ngspice's diode (dio.c: EG, XTI, TRS1, TNOM in degC; docs/references.md §2).
   PartModel m;
   m.part_label = "WREN-0912-03";
   m.lot = "WREN-0912";
@@ -86,7 +86,7 @@ TEST_CASE("the model document and the card carry the temperature law") {
 }
 
 TEST_CASE("VJ and CJO at temperature reproduce E4") {
-  // Source: REFERENCES.md E4 (ngspice tlevc = 0, diotemp.c; VJ = 0.7 V, CJO = 1 pF,
+  // Source: docs/references.md E4 (ngspice tlevc = 0, diotemp.c; VJ = 0.7 V, CJO = 1 pF,
   // M = 0.5, TNOM = 27 degC): at 100 degC VJ = 0.556963 V, CJO = 1.116769 pF;
   // at −25 degC VJ = 0.797154 V, CJO = 0.920204 pF.
   const auto hot = depletion_at_temperature(1e-12, 0.7, 0.5, 300.15, 373.15);

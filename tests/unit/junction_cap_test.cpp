@@ -1,7 +1,7 @@
 // Junction capacitance from off-state readings (fitting/junction_cap.hpp) on
 // readings built in this file: the forward direction is the fixture divider
 // z/(z + Rs + 1/(jωC)) in std::complex, z = RL ∥ Rr, and C follows the SPICE
-// depletion law CJO·(1 + Vr/VJ)^−M (REFERENCES.md §2). Expected values are
+// depletion law CJO·(1 + Vr/VJ)^−M (docs/references.md §2). Expected values are
 // the generating ones, never outputs of the code under test.
 #include "fitting/junction_cap.hpp"
 

@@ -1,5 +1,5 @@
 // The simulator's pure SCPI pieces: header matching, number parsing, the
-// status model and reply garbling. Rules from REFERENCES.md §5 (SCPI-99
+// status model and reply garbling. Rules from docs/references.md §5 (SCPI-99
 // syntax, error queue) unless marked.
 #include "tools/sim/bench.hpp"
 #include "tools/sim/instrument.hpp"

@@ -10,7 +10,7 @@
 
 namespace junco::sim {
 
-// SPICE level-1 parameters (names as in REFERENCES.md §2), at tnom_k.
+// SPICE level-1 parameters (names as in docs/references.md §2), at tnom_k.
 struct PartParams {
   double is_a = 2.5e-9;  // saturation current
   double n = 1.85;       // ideality
@@ -25,13 +25,13 @@ struct PartParams {
   double tnom_k = 300.15;
 };
 
-// IS(T) = IS·(T/TNOM)^(XTI/N)·exp[(T/TNOM − 1)·EG/(N·Vt(T))] (REFERENCES.md §2).
+// IS(T) = IS·(T/TNOM)^(XTI/N)·exp[(T/TNOM − 1)·EG/(N·Vt(T))] (docs/references.md §2).
 double saturation_current_a(const PartParams& p, double temp_k);
 // DC diode parameters at temperature, with extra series resistance added.
 fitting::DiodeParams dc_params(const PartParams& p, double temp_k, double extra_series_ohm = 0.0);
 
 // Junction (depletion + diffusion) charge and capacitance at junction voltage
-// v; SPICE C–V law with the FC linearisation (REFERENCES.md §2).
+// v; SPICE C–V law with the FC linearisation (docs/references.md §2).
 double junction_charge_c(const PartParams& p, double v, double diode_current_a);
 double junction_capacitance_f(const PartParams& p, double v, double diode_conductance_s);
 
