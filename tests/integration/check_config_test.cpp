@@ -17,20 +17,8 @@ namespace fs = std::filesystem;
 
 namespace {
 
-struct Run {
-  int status;
-  std::string out;
-};
-
-Run check(const fs::path& config) {
-  const std::string cmd = std::string(JUNCO_BIN_DIR) + "/juncod --config '" + config.string() + "' --check-config 2>&1";
-  FILE* p = popen(cmd.c_str(), "r");
-  REQUIRE(p);
-  std::string out;
-  char buf[512];
-  while (std::fgets(buf, sizeof buf, p)) out += buf;
-  const int st = pclose(p);
-  return {WIFEXITED(st) ? WEXITSTATUS(st) : -1, out};
+junco::test::CliRun check(const fs::path& config) {
+  return junco::test::run_shell(std::string(JUNCO_BIN_DIR) + "/juncod --config '" + config.string() + "' --check-config");
 }
 
 Json good_config(const junco::test::ScratchDir& dir) {
@@ -54,7 +42,7 @@ fs::path write(const junco::test::ScratchDir& dir, const Json& config) {
 TEST_CASE("a good config passes and nothing is created", "[daemon][check-config]") {
   junco::test::ScratchDir dir("junco-check");
   fs::create_directory(dir.path / "data");
-  const Run r = check(write(dir, good_config(dir)));
+  const auto r = check(write(dir, good_config(dir)));
   INFO(r.out);
   CHECK(r.status == 0);
   CHECK(r.out.find("config OK") != std::string::npos);
@@ -73,7 +61,7 @@ TEST_CASE("every problem of a config is reported in one run", "[daemon][check-co
   c["safety"].erase("max_job_s");                                               // 6 missing
   c["server"] = {{"idle_timeout_s", -1}};                                       // 7 negative
   // 8: the data directory does not exist (never created silently)
-  const Run r = check(write(dir, c));
+  const auto r = check(write(dir, c));
   INFO(r.out);
   CHECK(r.status == 2);
   CHECK(r.out.find("/bench/source/address: bad instrument address 'tcp:127.0.0.1:99999': port must be 1..65535") != std::string::npos);
@@ -98,7 +86,7 @@ TEST_CASE("the socket's directory and path are checked as the server would", "[d
   fs::create_directory(dir.path / "open");
   ::chmod((dir.path / "open").c_str(), 0777);
   c["paths"]["socket"] = dir.file("open/juncod.sock");
-  Run r = check(write(dir, c));
+  auto r = check(write(dir, c));
   INFO(r.out);
   CHECK(r.status == 2);
   CHECK(r.out.find("has mode 0777, which lets every user in; make it 0750") != std::string::npos);
@@ -118,7 +106,7 @@ TEST_CASE("current read by the meter needs a meter dialect that reads current", 
   c["bench"]["meter"]["dialect"] = dir.file("volts-only.json");
   CHECK(check(write(dir, c)).status == 0);  // current from the source (the default): fine
   c["fixture"]["current_from"] = "meter";
-  const Run r = check(write(dir, c));
+  const auto r = check(write(dir, c));
   INFO(r.out);
   CHECK(r.status == 2);
   CHECK(r.out.find("has no measure_dc_current, but fixture.current_from is \"meter\"") != std::string::npos);
@@ -129,7 +117,7 @@ TEST_CASE("limits that look like a unit slip are warned about", "[daemon][check-
   fs::create_directory(dir.path / "data");
   Json c = good_config(dir);
   c["safety"]["current_limit_a"] = 50;  // meant 50 mA
-  const Run r = check(write(dir, c));
+  const auto r = check(write(dir, c));
   INFO(r.out);
   CHECK(r.status == 0);
   CHECK(r.out.find("warning:") != std::string::npos);

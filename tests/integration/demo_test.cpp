@@ -1,6 +1,7 @@
 // The README's first command ends in `junco demo`: run it for real (junco-sim
 // and juncod as child processes, a real socket, a real SQLite file) and check
 // what a user is promised: a fitted lot table, the spread, the database kept.
+#include "tests/support/cli_run.hpp"
 #include "tests/support/db_rows.hpp"
 
 #include <catch2/catch.hpp>
@@ -19,21 +20,8 @@ namespace fs = std::filesystem;
 
 namespace {
 
-struct Run {
-  int status;
-  std::string out;
-};
-
-Run run(const std::string& cmd) {
-  FILE* p = popen((cmd + " 2>&1").c_str(), "r");
-  REQUIRE(p);
-  std::string out;
-  char buf[1024];
-  while (std::fgets(buf, sizeof buf, p)) out += buf;
-  const int st = pclose(p);
-  return {WIFEXITED(st) ? WEXITSTATUS(st) : -1, out};
-}
-
+using Run = junco::test::CliRun;
+using junco::test::run_shell;
 using junco::test::count_rows;
 
 }  // namespace
@@ -41,7 +29,7 @@ using junco::test::count_rows;
 TEST_CASE("junco demo characterises the simulated lot end to end") {
   char tmpl[] = "/tmp/junco-demo-test-XXXXXX";
   const fs::path dir = fs::path(mkdtemp(tmpl)) / "run";
-  const Run r = run(std::string(JUNCO_BIN_DIR) + "/junco demo --dir " + dir.string());
+  const Run r = run_shell(std::string(JUNCO_BIN_DIR) + "/junco demo --dir " + dir.string());
   INFO(r.out);
   REQUIRE(r.status == 0);
 

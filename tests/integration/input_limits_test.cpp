@@ -33,16 +33,7 @@ namespace {
 std::string nested(std::size_t levels) { return std::string(levels, '[') + std::string(levels, ']'); }
 constexpr std::size_t kDeep = 100000;  // 10^5 levels, a 200 KB line
 
-// Runs a command line through the shell; exit status and stdout + stderr.
-test::CliRun run_shell(const std::string& cmd) {
-  FILE* p = popen((cmd + " 2>&1").c_str(), "r");
-  REQUIRE(p);
-  std::string out;
-  char buf[512];
-  while (std::fgets(buf, sizeof buf, p)) out += buf;
-  const int st = pclose(p);
-  return {WIFEXITED(st) ? WEXITSTATUS(st) : -1, out};
-}
+using test::run_shell;
 
 Json parse(const std::optional<std::string>& line) {
   REQUIRE(line);

@@ -20,17 +20,19 @@ struct CliRun {
   std::string out;  // stdout and stderr together
 };
 
-// `args` is appended to the junco path and run by the shell.
-inline CliRun run_junco(const std::string& args) {
-  const std::string cmd = std::string(JUNCO_BIN_DIR) + "/junco " + args + " 2>&1";
-  FILE* p = popen(cmd.c_str(), "r");
+// Runs a command line through the shell: exit status and stdout + stderr.
+inline CliRun run_shell(const std::string& cmd) {
+  FILE* p = popen((cmd + " 2>&1").c_str(), "r");
   REQUIRE(p);
   std::string out;
-  char buf[512];
+  char buf[1024];
   while (std::fgets(buf, sizeof buf, p)) out += buf;
   const int st = pclose(p);
   return {WIFEXITED(st) ? WEXITSTATUS(st) : -1, out};
 }
+
+// `args` is appended to the junco path and run by the shell.
+inline CliRun run_junco(const std::string& args) { return run_shell(std::string(JUNCO_BIN_DIR) + "/junco " + args); }
 
 inline std::string slurp(const std::filesystem::path& path) {
   std::ifstream f(path);
