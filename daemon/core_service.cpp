@@ -137,6 +137,7 @@ class CoreService final : public Service {
             {"running_job", running ? Json(*running) : Json(nullptr)},
             {"queue", queued},
             {"bench_open", executor_.bench_open()},
+            {"bench_problem", executor_.bench_problem().empty() ? Json(nullptr) : Json(executor_.bench_problem())},
             {"database", config_.paths.database.string()},
             {"schema_version", store_.schema_version()},
             {"lab", lab_.status()}};

@@ -504,7 +504,7 @@ void Executor::adopt_safe_start(SafeStart start) {
     // thread reopens and retries (a previous daemon may have left one on).
     unsafe_ = true;
     unsafe_errors_ = start.errors;
-    last_bench_problem_ = start.errors.empty() ? "" : "bench: " + start.errors;
+    set_bench_problem(start.errors.empty() ? "" : "bench: " + start.errors);
     return;
   }
   bench_ = std::move(start.bench);
@@ -550,7 +550,7 @@ bool Executor::ensure_bench() {
     bench_ = std::move(opened);
     bench_->log = log_;
     bench_open_ = true;
-    last_bench_problem_.clear();
+    set_bench_problem("");
     identify();
     // An error someone else left in a queue must not be blamed on our first
     // command; a failure here shows again at the next command, so only logged.
@@ -571,9 +571,19 @@ void Executor::drop_bench() {
   bench_open_ = false;
 }
 
-void Executor::log_bench_problem(const std::string& line) {
-  if (line == last_bench_problem_) return;
+void Executor::set_bench_problem(const std::string& line) {
+  std::lock_guard lock(problem_mutex_);
   last_bench_problem_ = line;
+}
+
+std::string Executor::bench_problem() const {
+  std::lock_guard lock(problem_mutex_);
+  return last_bench_problem_;
+}
+
+void Executor::log_bench_problem(const std::string& line) {
+  if (line == bench_problem()) return;
+  set_bench_problem(line);
   log_(line);
 }
 
@@ -594,7 +604,7 @@ void Executor::retry_make_safe() {
   const std::string errors = bench_->make_safe();
   if (errors.empty()) {
     note_safety(errors);
-    last_bench_problem_.clear();
+    set_bench_problem("");
     log_("bench: every output off, scanner open (make-safe retried)");
     return;
   }

@@ -68,6 +68,9 @@ class Executor {
   // Instruments as last identified (role → {manufacturer, model, ...}); for bench.describe.
   Json identities() const;
   bool bench_open() const { return bench_open_.load(); }
+  // Why the bench is not open or a job cannot start, in words ("" when
+  // nothing is wrong): the last problem the executor logged.
+  std::string bench_problem() const;
   // False from a make_safe() that failed for some instrument until a retry succeeds.
   bool bench_known_safe() const { return !unsafe_.load(); }
 
@@ -83,6 +86,7 @@ class Executor {
   void retry_make_safe();
   // Logs a bench problem once, not again while it stays the same.
   void log_bench_problem(const std::string& line);
+  void set_bench_problem(const std::string& line);
   void stop_job(Id id, const std::string& state, const std::optional<std::string>& message);
 
   const Config& config_;
@@ -95,7 +99,8 @@ class Executor {
   std::atomic<bool> bench_open_{false};
   std::atomic<bool> unsafe_{false};    // bench not known safe (written by the executor thread)
   std::string unsafe_errors_;          // the last make_safe() failures, executor thread only
-  std::string last_bench_problem_;     // executor thread only
+  std::string last_bench_problem_;     // guarded by problem_mutex_ (read by daemon.status)
+  mutable std::mutex problem_mutex_;
   bool reopen_before_job_ = false;     // after an instrument fault: reconnect before the next job
   mutable std::mutex ident_mutex_;
   Json identities_ = Json::object();

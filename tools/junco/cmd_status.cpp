@@ -41,6 +41,8 @@ int run(std::vector<std::string> args) {
     const Json queue = s.value("queue", Json::array());
     std::printf("queued jobs: %s\n", queue.empty() ? "none" : queue.dump().c_str());
     std::printf("bench:       %s\n", s.value("bench_open", false) ? "open" : "not open");
+    if (s.value("bench_problem", Json()).is_string())
+      std::printf("             %s\n%s", s["bench_problem"].get<std::string>().c_str(), kBenchHint);
     if (s.contains("database")) std::printf("database:    %s\n", s["database"].get<std::string>().c_str());
     if (const Json lab = s.value("lab", Json()); lab.is_object() && lab.value("enabled", false)) {
       std::printf("lab:         bench %s -> %s, %s; backlog %lld rows, lag %.1f s\n", lab.value("bench", "?").c_str(),

@@ -95,6 +95,7 @@ int run(std::vector<std::string> args) {
     if (stdout_is_tty() || watch)
       std::fprintf(stderr, "job %ld queued: %ld points%s\n", job, r.value("points_total", 0L),
                    watch ? "" : (" — follow it with: junco watch " + std::to_string(job)).c_str());
+    print_bench_wait(client);
     return watch ? watch_job(client, job) : exit_ok;
   });
 }

@@ -15,13 +15,15 @@ const char* const usage = R"(usage: junco watch JOB [--socket PATH]
 Follows job JOB until it ends. On a terminal: one live line with a bar,
 points done / total, the part being measured and the estimated time left.
 Otherwise (a pipe, a log file): plain lines, at most one per second, plus one
-per state change.
+per state change. While the job waits for the bench, says why ("waiting
+for bench: REASON"). A paused job waits for a person: watch says why it
+paused and how to resume it, and returns.
 
 options:
   --socket PATH  juncod's socket (see junco status --help)
 
-exit status: 0 the job is done; 1 it failed, was cancelled or interrupted
-(or the daemon went away).)";
+exit status: 0 the job is done; 1 it failed, was cancelled, interrupted or
+paused (or the daemon went away).)";
 
 const std::set<std::string> final_states{"done", "failed", "cancelled", "interrupted"};
 
@@ -109,7 +111,20 @@ int watch_job(RpcClient& client, long job_id) {
   Printer out(stdout_is_tty());
   out.progress(v, true);
   auto last_poll = std::chrono::steady_clock::now();
+  std::string waiting;  // the bench problem last shown while queued
   while (!final_states.count(v.state)) {
+    if (v.state == "paused") {
+      // A paused job waits for a person: say why and how to go on, and return.
+      out.line("job " + std::to_string(job_id) + " paused" + (v.error.empty() ? "" : ": " + v.error) +
+               "\n  resume it with: junco resume " + std::to_string(job_id));
+      return exit_failure;
+    }
+    if (v.state == "queued") {
+      const Json s = client.call("daemon.status", Json::object());
+      const std::string why = s.value("bench_problem", Json()).is_string() ? s["bench_problem"].get<std::string>() : "";
+      if (!why.empty() && why != waiting) out.line("waiting for bench: " + why + "\n" + std::string(kBenchHint).substr(0, std::string(kBenchHint).size() - 1));
+      waiting = why;
+    }
     const auto n = client.next_notification(std::chrono::seconds(2));
     // Events tell us almost everything; a periodic job.get covers the rest
     // (e.g. a job ended by another client while we were connecting).

@@ -279,4 +279,11 @@ long parse_id(const std::string& text, const std::string& what) {
 
 bool stdout_is_tty() { return ::isatty(STDOUT_FILENO) == 1; }
 
+void print_bench_wait(RpcClient& client) {
+  const Json s = client.call("daemon.status", Json::object());
+  if (s.value("bench_open", true) && !s.value("bench_problem", Json()).is_string()) return;
+  const std::string why = s.value("bench_problem", Json()).is_string() ? s["bench_problem"].get<std::string>() : "the bench is not open";
+  std::fprintf(stderr, "waiting for bench: %s\n%s", why.c_str(), kBenchHint);
+}
+
 }  // namespace junco::cli

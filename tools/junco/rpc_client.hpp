@@ -84,6 +84,15 @@ double parse_quantity(const std::string& text, const std::string& unit);
 std::vector<double> parse_quantity_list(const std::string& text, const std::string& unit);
 
 // Formats with an SI prefix and unit: 1.234e-3 → "1.234 mA".
+// What to do while the bench is not open, for every command that reports it.
+inline constexpr const char* kBenchHint =
+    "             (juncod retries every few seconds by itself; fix the instrument or its address,\n"
+    "             check the config with juncod --config FILE --check-config)\n";
+
+// "waiting for bench: REASON" and the hint, when the daemon says the bench
+// is not open; nothing otherwise.
+void print_bench_wait(RpcClient& client);
+
 std::string format_si(double value, const std::string& unit, int digits = 4);
 
 // Pads to `width` terminal columns (UTF-8: Ω and ± are two bytes, one column).

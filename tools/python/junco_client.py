@@ -398,7 +398,7 @@ class Client:
         """`daemon.status`: What the daemon is doing.
 
         Returns the result object: version, uptime_s, running_job, queue, bench_open, database,
-        schema_version, lab.
+        schema_version, lab, bench_problem.
         Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
         client's), ConnectionError when the connection is lost.
         """
