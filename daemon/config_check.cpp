@@ -1,5 +1,7 @@
 #include "daemon/config_check.hpp"
 
+#include "daemon/rpc_server.hpp"
+
 #include "drivers/address.hpp"
 #include "drivers/dialect.hpp"
 #include "drivers/errors.hpp"
@@ -49,8 +51,7 @@ void check_instruments(const Config& c, ConfigCheck& out) {
   }
 }
 
-// The same rules as the server applies at start (rpc_server.cpp
-// prepare_socket_dir), read-only.
+// The server's own rules (rpc_server.hpp socket_dir_problem), read-only.
 void check_socket(const Config& c, ConfigCheck& out) {
   const std::string path = c.paths.socket.string();
   if (path.size() >= sizeof(sockaddr_un{}.sun_path))
@@ -65,19 +66,7 @@ void check_socket(const Config& c, ConfigCheck& out) {
                              " does not let this user create it");
     return;
   }
-  if (!S_ISDIR(st.st_mode)) {
-    out.problems.push_back("socket: " + dir.string() + " exists and is not a directory");
-    return;
-  }
-  if (st.st_uid != ::geteuid())
-    out.problems.push_back("socket: directory " + dir.string() + " is owned by uid " + std::to_string(st.st_uid) +
-                           ", not by this user (uid " + std::to_string(::geteuid()) + ")");
-  if ((st.st_mode & S_IRWXO) != 0) {
-    std::ostringstream mode;
-    mode << std::oct << (st.st_mode & 07777);
-    out.problems.push_back("socket: directory " + dir.string() + " has mode 0" + mode.str() +
-                           ", which lets every user in; make it 0750 (chmod 0750 " + dir.string() + ")");
-  }
+  if (const std::string problem = socket_dir_problem(dir.string(), st); !problem.empty()) out.problems.push_back("socket: " + problem);
 }
 
 void check_database(const Config& c, ConfigCheck& out) {

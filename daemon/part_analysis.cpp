@@ -93,6 +93,24 @@ fitting::DesignPart design_part(const PartRow& part, const Json& fit) {
   return p;
 }
 
+// The joint fit above is isothermal. When it disagrees, the stored fit may
+// still explain both kinds of reading with the junction's heating
+// (detail.electrothermal): its isothermal Rs then agrees with the Rs the AC
+// readings give alone, within 3 combined standard errors (our bound, no
+// source), where the DC-only Rs does not.
+std::string transfer_verdict(const Json& joint, const Json& fit) {
+  if (joint.value("agree", false)) return "agree";
+  const Json et = fit.contains("detail") && fit["detail"].is_object() ? fit["detail"].value("electrothermal", Json()) : Json();
+  const Json ac = joint.contains("ac_only") ? joint["ac_only"].value("rs_ohm", Json()) : Json();
+  const auto number = [](const Json& j, const char* k) { return j.is_object() && j.value(k, Json()).is_number() ? j[k].get<double>() : kNaN; };
+  if (et.is_object() && et.value("status", "") == "fitted" && ac.is_object()) {
+    const double d = number(et["rs_ohm"], "value") - number(ac, "value");
+    const double se = std::hypot(number(et["rs_ohm"], "std_error"), number(ac, "std_error"));
+    if (std::fabs(d) <= 3 * se) return "consistent once heating is modelled";
+  }
+  return "DISAGREE";
+}
+
 Json transfer_report(const PartRow& part, const RunRow& run, const Json& fit, const std::vector<PointRow>& points,
                      const TransferOptions& options) {
   const fitting::FitResult r = fit_result_from_json(fit);
@@ -145,6 +163,7 @@ Json transfer_report(const PartRow& part, const RunRow& run, const Json& fit, co
   const auto dc = dc_fit_points(points);
   const auto rep = fitting::compare_dc_and_joint(dc, used, fx, jo);
   out["joint"] = fitting::joint_report_json(rep);
+  out["joint"]["verdict"] = transfer_verdict(out["joint"], fit);
   return out;
 }
 

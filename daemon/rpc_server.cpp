@@ -96,13 +96,18 @@ void prepare_socket_dir(const std::string& dir, int gid) {
       throw std::runtime_error("cannot set owner/mode of socket directory " + dir + ": " + errno_text(errno));
     return;
   }
-  if (!S_ISDIR(st.st_mode)) throw std::runtime_error("socket directory " + dir + " exists and is not a directory");
+  if (const std::string problem = socket_dir_problem(dir, st); !problem.empty()) throw std::runtime_error(problem);
+}
+
+std::string socket_dir_problem(const std::string& dir, const struct stat& st) {
+  if (!S_ISDIR(st.st_mode)) return "socket directory " + dir + " exists and is not a directory";
   if (st.st_uid != geteuid())
-    throw std::runtime_error("refusing socket directory " + dir + ": owned by uid " + std::to_string(st.st_uid) +
-                             ", not by this daemon's user (uid " + std::to_string(geteuid()) + ")");
+    return "refusing socket directory " + dir + ": owned by uid " + std::to_string(st.st_uid) + ", not by this daemon's user (uid " +
+           std::to_string(geteuid()) + ")";
   if ((st.st_mode & S_IRWXO) != 0)
-    throw std::runtime_error("refusing socket directory " + dir + ": mode " + octal_mode(st.st_mode) +
-                             " lets every user in; make it 0750 (chmod 0750 " + dir + ")");
+    return "refusing socket directory " + dir + ": mode " + octal_mode(st.st_mode) + " lets every user in; make it 0750 (chmod 0750 " +
+           dir + ")";
+  return "";
 }
 
 // One client connection. All members except the atomics and the event filter

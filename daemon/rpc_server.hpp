@@ -30,6 +30,8 @@
 //   spinning on the failing call.
 #pragma once
 
+#include <sys/stat.h>
+
 #include "daemon/rpc_framing.hpp"
 #include "daemon/service.hpp"
 
@@ -62,6 +64,9 @@ struct ServerOptions {
 // is a directory owned by this process's effective user and is not
 // accessible to other users. Throws std::runtime_error naming the problem.
 void prepare_socket_dir(const std::string& dir, int gid);
+// The rules above for an existing `dir` with its stat: "" or the problem
+// (also used, read-only, by --check-config).
+std::string socket_dir_problem(const std::string& dir, const struct stat& st);
 
 // Resolves a group name to a gid; throws std::runtime_error when unknown.
 int lookup_group(const std::string& name);

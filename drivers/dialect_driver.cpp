@@ -53,6 +53,7 @@ void DialectDriver::ensure_session() {
   } else if (needs_reconnect_) {
     session_->reconnect();
     needs_reconnect_ = false;
+    identity_.reset();  // whoever answers now is asked again
   }
 }
 
@@ -182,9 +183,13 @@ void DialectDriver::check_identity() {
                  "': wrong instrument or wrong dialect file");
 }
 
+// The identity asked at open serves until the link is remade, so the
+// daemon's start-up identification does not ask every instrument twice.
 Identity DialectDriver::identify() {
+  if (identity_) return *identity_;
   Identity id;
   with_retries("identify", [&] { id = session_->identify(); });
+  identity_ = id;
   return id;
 }
 

@@ -71,6 +71,7 @@ class DialectDriver final : public Source, public Meter, public Scanner, public 
   std::unique_ptr<ScpiSession> session_;
   bool needs_reconnect_ = false;
   double current_limit_a_ = std::numeric_limits<double>::quiet_NaN();  // as last programmed
+  std::optional<Identity> identity_;  // *IDN? of the current link (reset on reconnect)
   bool has_error_queue_ = false;  // some operation drains SYST:ERR?
 };
 

@@ -9,40 +9,49 @@
 
 namespace junco::lab {
 
-std::string describe_conninfo(const std::string& conninfo) {
-  char* err = nullptr;
-  PQconninfoOption* opts = PQconninfoParse(conninfo.c_str(), &err);
-  if (!opts) {
-    std::string why = err ? err : "out of memory";
+namespace {
+
+// libpq's own parse of a connection string: the options, or why it is not one.
+struct ParsedConninfo {
+  PQconninfoOption* options = nullptr;
+  std::string error;
+  explicit ParsedConninfo(const std::string& conninfo) {
+    char* err = nullptr;
+    options = PQconninfoParse(conninfo.c_str(), &err);
+    if (options) return;
+    error = err ? err : "out of memory";
     PQfreemem(err);
-    while (!why.empty() && why.back() == '\n') why.pop_back();
-    return "(bad connection string: " + why + ")";
+    while (!error.empty() && error.back() == '\n') error.pop_back();
   }
+  ~ParsedConninfo() {
+    if (options) PQconninfoFree(options);
+  }
+  ParsedConninfo(const ParsedConninfo&) = delete;
+  ParsedConninfo& operator=(const ParsedConninfo&) = delete;
+};
+
+}  // namespace
+
+std::string describe_conninfo(const std::string& conninfo) {
+  const ParsedConninfo parsed(conninfo);
+  if (!parsed.options) return "(bad connection string: " + parsed.error + ")";
   std::string out;
-  for (PQconninfoOption* o = opts; o->keyword; ++o) {
+  for (PQconninfoOption* o = parsed.options; o->keyword; ++o) {
     const std::string k = o->keyword;
     if (!o->val || !*o->val) continue;
     if (k == "host" || k == "hostaddr" || k == "port" || k == "dbname" || k == "user" || k == "service")
       out += (out.empty() ? "" : " ") + k + "=" + o->val;
   }
-  PQconninfoFree(opts);
   return out.empty() ? "(libpq defaults)" : out;
 }
 
 std::string conninfo_problem(const std::string& conninfo) {
-  char* err = nullptr;
-  PQconninfoOption* opts = PQconninfoParse(conninfo.c_str(), &err);
-  if (!opts) {
-    std::string why = err ? err : "out of memory";
-    PQfreemem(err);
-    while (!why.empty() && why.back() == '\n') why.pop_back();
-    return "not a libpq connection string: " + why;
-  }
-  bool password = false;
-  for (PQconninfoOption* o = opts; o->keyword; ++o)
-    if (std::string(o->keyword) == "password" && o->val && *o->val) password = true;
-  PQconninfoFree(opts);
-  return password ? "must not carry a password; use ~/.pgpass, PGPASSFILE or a service file" : "";
+  const ParsedConninfo parsed(conninfo);
+  if (!parsed.options) return "not a libpq connection string: " + parsed.error;
+  for (PQconninfoOption* o = parsed.options; o->keyword; ++o)
+    if (std::string(o->keyword) == "password" && o->val && *o->val)
+      return "must not carry a password; use ~/.pgpass, PGPASSFILE or a service file";
+  return "";
 }
 
 double PgResult::number(int row, int col) const {

@@ -251,19 +251,6 @@ std::string rth_text(const Json& fit) {
   return t;
 }
 
-// Whether the DC and AC readings tell one story once the junction's heating
-// is modelled: the isothermal Rs of the stored electro-thermal fit agrees
-// with the Rs the AC readings give alone (within 3 combined standard errors;
-// our bound, no source), where the DC-only Rs does not.
-bool consistent_with_heating(RpcClient& client, const Json& part_id, const Json& ac_only_rs) {
-  const Json fit = client.call("part.fit", Json{{"part_id", part_id}});
-  const Json et = fit["detail"].value("electrothermal", Json());
-  if (!et.is_object() || et.value("status", "") != "fitted" || !ac_only_rs.is_object()) return false;
-  const double d = num(et["rs_ohm"]["value"]) - num(ac_only_rs["value"]);
-  const double se = std::hypot(num(et["rs_ohm"]["std_error"]), num(ac_only_rs["std_error"]));
-  return std::fabs(d) <= 3 * se;
-}
-
 // The lot table and the lot spread, from the daemon's fits.
 bool print_lot(RpcClient& client, const std::string& lot) {
   const std::vector<double> at{1e-3, 10e-3, 5e-3};
@@ -345,9 +332,7 @@ void print_transfer(RpcClient& client, const std::string& lot) {
       std::snprintf(res, sizeof res, "%.3f dB", num(r["rms_residual_db"]));
       const auto rs = [&](const char* which) { return pm(num(j[which]["rs_ohm"]["value"]), num(j[which]["rs_ohm"]["std_error"]), "Ω"); };
       std::printf("%s\n", (pad_columns(label, 7) + pad_columns(res, 14) + pad_columns(rs("dc_only"), 21) + pad_columns(rs("ac_only"), 21) +
-                            (j["agree"].get<bool>()                      ? "agree"
-                             : consistent_with_heating(client, p["part_id"], j["ac_only"]["rs_ohm"]) ? "consistent once heating is modelled"
-                                                                             : "DISAGREE"))
+                            j.value("verdict", std::string("?")))
                                .c_str());
       if (j.contains("hint")) hint = j["hint"].get<std::string>();
     } catch (const RpcError& e) {

@@ -54,7 +54,10 @@ void print_joint_report(const Json& j) {
               (std::to_string(j["joint"]["dc_points"].get<long>()) + " DC + " + std::to_string(j["joint"]["ac_points"].get<long>()) + " AC").c_str());
   for (const char* which : {"dc_only", "ac_only", "joint"})
     if (j.contains(which) && !j[which]["ok"].get<bool>()) std::printf("  %s fit: %s\n", which, j[which]["message"].get<std::string>().c_str());
-  std::printf("\n  verdict: %s\n", j["agree"].get<bool>() ? "AC and DC agree within their uncertainties" : "AC and DC DISAGREE");
+  const std::string verdict = j.value("verdict", std::string(j["agree"].get<bool>() ? "agree" : "DISAGREE"));
+  std::printf("\n  verdict: %s\n", verdict == "agree"      ? "AC and DC agree within their uncertainties"
+                                     : verdict == "DISAGREE" ? "AC and DC DISAGREE"
+                                                             : ("AC and DC " + verdict + " (the stored fit's Rs agrees with the AC readings')").c_str());
   const std::string lines = j["agreement"].get<std::string>();
   std::size_t start = 0;
   while (start < lines.size()) {
