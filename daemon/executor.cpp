@@ -73,8 +73,11 @@ void apply_electrothermal(const Config& cfg, double temp_k, const Json& fixture,
   eo.fit.ambient_k = temp_k;
   eo.fit.accuracy = cfg.accuracy;
   eo.fit.ac_sigma_db = cfg.level_sigma_db();
-  const auto dc = dc_fit_points(points);
   const auto ac = ac_points(points);
+  // The model is the settled junction (Ta + Rth·I·V): with AC readings it
+  // takes the readings at a held bias only (pulsed ones are near ambient);
+  // without, its DC-only fit and note are about the stored fit's readings.
+  const auto dc = ac.empty() ? dc_fit_points(points) : held_dc_points(points);
   const fitting::ElectroThermalRun et = fitting::fit_run_electrothermal(dc, ac, ac_fixture(fixture), eo);
   out.more_detail["electrothermal"] = fitting::electrothermal_run_json(et, eo);
   if (et.status == "no_ac" || et.status == "failed") {
@@ -100,6 +103,47 @@ void apply_electrothermal(const Config& cfg, double temp_k, const Json& fixture,
   out.fit.reduced_chi2 = f.reduced_chi2;
 }
 
+// The heating plan options' readings (plan.heating; fitting/heating.hpp):
+// Rth and τ from the two dwells, the up/down hysteresis, and how much
+// heating the stored Rs may still hold. Stored as detail.heating.
+void apply_heating(const Config& cfg, double temp_k, const std::vector<PointRow>& points, RunFit& out) {
+  const HeatingReadings h = heating_readings(points);
+  if (h.pulsed == 0 && h.pairs.empty()) return;
+  fitting::HeatingOptions o;
+  o.ambient_k = temp_k;
+  o.accuracy = cfg.accuracy;
+  const fitting::DiodeParams params = out.fit.params();
+  Json j{{"pulsed_readings", h.pulsed}, {"pulse_dwell_s", std::isfinite(h.pulse_dwell_median_s) ? Json(h.pulse_dwell_median_s) : Json(nullptr)}};
+  std::optional<fitting::DwellThermal> dwell;
+  if (!h.dwells.empty()) {
+    dwell = fitting::dwell_thermal(h.dwells, params, o);
+    j["dwell"] = fitting::dwell_thermal_json(*dwell);
+    if (dwell->status != "measured") out.fit.warnings.push_back("two dwells: " + dwell->note);
+  }
+  if (!h.pairs.empty()) {
+    const fitting::Hysteresis hy = fitting::sweep_hysteresis(h.pairs, params, o);
+    j["hysteresis"] = fitting::hysteresis_json(hy);
+    if (hy.flagged) out.fit.warnings.push_back(hy.note);
+  }
+  // Without AC readings the stored Rs is the DC-only one: size what heating
+  // it still holds with the measured Rth (the per-100 K/W figure of the
+  // electro-thermal note × Rth/100), times the part of the settled rise a
+  // pulsed top reading sees, 1 − e^(−t0/τ), when the top was pulsed.
+  const Json& et = out.more_detail.value("electrothermal", Json::object());
+  const double per_100 = et.value("rs_bias_per_100_k_per_w_ohm", Json()).is_number() ? et["rs_bias_per_100_k_per_w_ohm"].get<double>() : NAN;
+  if (dwell && dwell->status == "measured" && et.value("status", "") == "no_ac" && std::isfinite(per_100)) {
+    const double fraction = h.pulsed > 0 && std::isfinite(h.pulse_dwell_median_s) ? 1.0 - std::exp(-h.pulse_dwell_median_s / dwell->tau_s.value) : 1.0;
+    const double bias = per_100 * dwell->rth_k_per_w.value / 100.0 * fraction;
+    j["rs_heating_ohm"] = bias;
+    char line[240];
+    std::snprintf(line, sizeof line,
+                  "with the measured Rth %.4g K/W (two dwells) the heating lowers the DC-only Rs by about %.2g ohm%s",
+                  dwell->rth_k_per_w.value, bias, h.pulsed > 0 ? " (pulsed top readings: that part of the settled rise they see)" : "");
+    out.fit.warnings.emplace_back(line);
+  }
+  out.more_detail["heating"] = j;
+}
+
 RunFit fit_run(const Config& cfg, double temp_k, const Json& fixture, const std::vector<PointRow>& points) {
   RunFit out;
   try {
@@ -119,6 +163,11 @@ RunFit fit_run(const Config& cfg, double temp_k, const Json& fixture, const std:
       apply_electrothermal(cfg, temp_k, fixture, points, out);
     } catch (const std::exception& e) {
       out.fit.warnings.push_back(std::string("electro-thermal fit not made: ") + e.what());
+    }
+    try {
+      apply_heating(cfg, temp_k, points, out);
+    } catch (const std::exception& e) {
+      out.fit.warnings.push_back(std::string("heating readings not analysed: ") + e.what());
     }
   }
   try {
@@ -197,6 +246,8 @@ class JobRun {
     });
     biased_index_ = reversed_index_ = -1;
     siggen_on_ = false;
+    source_on_ = true;
+    pulse_index_ = -1;
     vf_guess_v_ = kFirstVfGuessV;
     try {
       for (std::size_t seq = first; seq < steps_.size(); ++seq) step_at(seq);
@@ -211,7 +262,9 @@ class JobRun {
   void step_at(std::size_t seq) {
     const Step& step = steps_[seq];
     const bool reverse = step.kind == Step::Kind::reverse || step.kind == Step::Kind::reverse_ac;
-    if (step.kind == Step::Kind::dc || step.kind == Step::Kind::reverse) commit_pending();  // a new bias step begins
+    // A new bias step begins (a pulse's dwell readings belong to its step:
+    // no commit between them, it would shift their timing).
+    if ((step.kind == Step::Kind::dc && step.series != Series::dwell) || step.kind == Step::Kind::reverse) commit_pending();
     poll();
     if (stopped_high_ && !reverse) {
       ++skipped_;
@@ -221,6 +274,10 @@ class JobRun {
     p.run_id = run_id_;
     p.seq = static_cast<long>(seq);
     pending_.push_back(p);
+    // A pulse ends with its last reading: output off until the next one.
+    const bool pulse_goes_on = seq + 1 < steps_.size() && steps_[seq + 1].kind == Step::Kind::dc &&
+                               steps_[seq + 1].series == Series::dwell && steps_[seq + 1].dc_index == step.dc_index;
+    if (step.pulsed && !(pulse_goes_on && !(p.flags & kLimitFlags))) guarded([&] { end_pulse(); });
     if (p.flags & kLimitFlags) {
       stopped_high_ = true;
       guarded([&] { bench_.source->set_voltage_v(0.0); });
@@ -258,6 +315,7 @@ class JobRun {
         if (!retry)
           throw JobStop{JobStop::Why::fault, describe(e) + " (part " + part_label_ + ", after " + std::to_string(attempt) + " attempts)"};
         biased_index_ = reversed_index_ = -1;  // re-establish the bias on the next attempt
+        pulse_index_ = -1;                     // and a pulse from cold
         if (!queue_.sleep_for(std::chrono::milliseconds(50 * attempt))) poll();
       }
     }
@@ -269,6 +327,7 @@ class JobRun {
     p.set_value = step.set_value;
     const bool reverse = step.kind == Step::Kind::reverse || step.kind == Step::Kind::reverse_ac;
     p.set_unit = (!reverse && plan_.sweep.mode == SweepMode::current) ? "A" : "V";
+    p.series = to_string(step.series);
     const bool levels = step.kind == Step::Kind::ac || step.kind == Step::Kind::reverse_ac;
     if (!levels && siggen_on_) {  // DC readings are taken with the generator off
       bench_.siggen->set_output(false);
@@ -277,6 +336,8 @@ class JobRun {
     if (step.kind == Step::Kind::reverse) {
       reverse_bias(step);
       read_dc(p);
+    } else if (step.kind == Step::Kind::dc && step.series == Series::dwell) {
+      dwell_reading(step, p);
     } else if (step.kind == Step::Kind::dc) {
       bias(step, p);
     } else {
@@ -295,6 +356,7 @@ class JobRun {
   void reverse_bias(const Step& step) {
     biased_index_ = -1;
     set_supply(step.set_value);  // negative: reverse bias; magnitude checked against max_reverse_v
+    source_on();
     wait(plan_.sweep.settle_s);
     reversed_index_ = step.dc_index;
   }
@@ -319,26 +381,85 @@ class JobRun {
     p.supply_v = supply_v_;
   }
 
-  // Programs the forward bias of a dc step and reads it into p.
+  // Programs the forward bias of a dc step and reads it into p (in a pulse
+  // from cold for a pulsed step: the output stays on after the reading, for
+  // the pulse's dwell readings; step_at ends the pulse).
   void bias(const Step& step, PointRow& p) {
     if (plan_.sweep.mode == SweepMode::voltage) {
-      set_supply(step.set_value);
-      wait(plan_.sweep.settle_s);
+      apply_bias(step.set_value, step.pulsed);
       read_dc(p);
     } else {
-      target_current(step.set_value, p);
+      target_current(step.set_value, p, step.pulsed);
     }
-    biased_index_ = step.dc_index;
+    biased_index_ = step.pulsed ? -1 : step.dc_index;  // a pulse leaves no held bias for AC readings
     reversed_index_ = -1;
+    if (step.pulsed) pulse_index_ = step.dc_index;
   }
 
-  void target_current(double target_a, PointRow& p) {
+  // The supply at v and, after the wait, ready to read: held (settle_s) or
+  // as a pulse from cold (output off for off_s, on, on_s).
+  void apply_bias(double v, bool pulsed) {
+    if (!pulsed) {
+      set_supply(v);
+      source_on();
+      wait(plan_.sweep.settle_s);
+      pulse_index_ = -1;
+      return;
+    }
+    const HeatingSpec::Pulse& pulse = *plan_.heating.pulse;
+    end_pulse();
+    wait(pulse.off_s);
+    set_supply(v);
+    const auto before = Clock::now();
+    bench_.source->set_output(true);
+    source_on_ = true;
+    const auto after = Clock::now();
+    pulse_start_ = before + (after - before) / 2;  // the command's midpoint: when the part saw it, within half its time
+    pulse_index_ = -2;                             // a pulse without its step yet (bias() sets it)
+    wait_until_dwell(pulse.on_s);
+  }
+
+  // A dwell reading of the pulse of its step, at dwell_s after the output
+  // went on. Resumed or retried into it: a new pulse from cold first.
+  void dwell_reading(const Step& step, PointRow& p) {
+    if (pulse_index_ != step.dc_index) {
+      PointRow scratch;
+      Step first = step;
+      first.series = Series::up;
+      bias(first, scratch);
+    }
+    wait_until_dwell(step.dwell_s);
+    read_dc(p);
+  }
+
+  void wait_until_dwell(double dwell_s) {
+    const double elapsed = std::chrono::duration<double>(Clock::now() - pulse_start_).count();
+    wait(dwell_s - elapsed);
+  }
+
+  // The supply's output off between pulses (the safety order keeps the
+  // current limit and the scanner as they are; the next step turns it on).
+  void end_pulse() {
+    if (source_on_) {
+      bench_.source->set_output(false);
+      source_on_ = false;
+    }
+    pulse_index_ = -1;
+  }
+
+  void source_on() {
+    if (!source_on_) {
+      bench_.source->set_output(true);
+      source_on_ = true;
+    }
+  }
+
+  void target_current(double target_a, PointRow& p, bool pulsed) {
     const double r = cfg_.fixture.bias_resistor_ohm + cfg_.fixture.dc_return_ohm;
     double v_set = target_a * r + vf_guess_v_;
     double prev_v = NAN, prev_i = NAN;
     for (int k = 0; k < kTargetIterations; ++k) {
-      set_supply(v_set);
-      wait(plan_.sweep.settle_s);
+      apply_bias(v_set, pulsed);  // each correction of a pulsed step is a pulse from cold
       read_dc(p);
       if (p.flags & kLimitFlags) return;
       if (std::fabs(p.i_a - target_a) <= kTargetTolerance * target_a) break;
@@ -364,15 +485,22 @@ class JobRun {
     supply_v_ = v;
   }
 
+  // A reading in a pulse carries its dwell: output on → the voltage
+  // readings' midpoints (the voltage is what the dwells compare; the meter
+  // reads when the query arrives, within half its round trip of the midpoint).
   void read_dc(PointRow& p) {
-    double v_sum = 0, i_sum = 0;
+    double v_sum = 0, i_sum = 0, t_sum_s = 0;
     const int n = plan_.sweep.average;
     for (int k = 0; k < n; ++k) {
+      const auto before = Clock::now();
       v_sum += bench_.meter->measure_dc_voltage_v();
+      const auto after = Clock::now();
+      t_sum_s += std::chrono::duration<double>(before + (after - before) / 2 - pulse_start_).count();
       i_sum += cfg_.fixture.current_from == CurrentFrom::source ? bench_.source->measure_current_a() : bench_.meter->measure_dc_current_a();
     }
     p.v = v_sum / n;
     p.i_a = i_sum / n;
+    if (pulse_index_ != -1 && source_on_) p.dwell_s = t_sum_s / n;
     p.supply_v = supply_v_;
     if (bench_.source->in_current_limit()) p.flags |= flag_current_limit;
     if (std::fabs(p.v * p.i_a) > cfg_.safety.max_power_w) p.flags |= flag_power_limit;
@@ -459,6 +587,9 @@ class JobRun {
   std::string part_label_;
   Id part_id_ = 0, run_id_ = 0;
   bool stopped_high_ = false, siggen_on_ = false;
+  bool source_on_ = true;     // the supply's output as last programmed in this part
+  int pulse_index_ = -1;      // the forward step whose pulse is on (-2: being set up), -1 = none
+  Clock::time_point pulse_start_{};
   int biased_index_ = -1;    // the forward step the supply is at, -1 = none or unknown
   int reversed_index_ = -1;  // the reverse_v point the supply is at, -1 = none or unknown
   double siggen_amplitude_ = 0;  // as last programmed (valid while siggen_on_)

@@ -2,6 +2,7 @@
 
 #include "daemon/part_export.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 
@@ -16,16 +17,61 @@ Json number_or_null(double x) { return std::isfinite(x) ? Json(x) : Json(nullptr
 std::vector<fitting::IvPoint> dc_fit_points(const std::vector<PointRow>& points) {
   std::vector<fitting::IvPoint> out;
   for (const auto& p : points)
-    if (p.kind == "dc" && !(p.flags & kLimitFlags) && std::isfinite(p.v) && std::isfinite(p.i_a))
+    if (p.kind == "dc" && p.series == "up" && !(p.flags & kLimitFlags) && std::isfinite(p.v) && std::isfinite(p.i_a))
       out.push_back({p.v, p.i_a});
   return out;
+}
+
+std::vector<fitting::IvPoint> held_dc_points(const std::vector<PointRow>& points) {
+  std::vector<fitting::IvPoint> out;
+  for (const auto& p : points)
+    if (p.kind == "dc" && p.series == "up" && !std::isfinite(p.dwell_s) && !(p.flags & kLimitFlags) && std::isfinite(p.v) &&
+        std::isfinite(p.i_a))
+      out.push_back({p.v, p.i_a});
+  return out;
+}
+
+HeatingReadings heating_readings(const std::vector<PointRow>& points) {
+  HeatingReadings h;
+  const auto usable = [](const PointRow& p) { return !(p.flags & kLimitFlags) && std::isfinite(p.v) && std::isfinite(p.i_a); };
+  std::vector<double> pulse_dwells;
+  std::vector<const PointRow*> up, down;
+  for (std::size_t k = 0; k < points.size(); ++k) {
+    const PointRow& p = points[k];
+    if (p.kind != "dc" || !usable(p)) continue;
+    if (p.series == "down") down.push_back(&p);
+    if (p.series != "up") continue;
+    up.push_back(&p);
+    if (!std::isfinite(p.dwell_s)) continue;
+    ++h.pulsed;
+    pulse_dwells.push_back(p.dwell_s);
+    // The pulse's dwell readings follow it (same set value, consecutive seq).
+    if (k + 2 < points.size()) {
+      const PointRow& a = points[k + 1];
+      const PointRow& b = points[k + 2];
+      if (a.kind == "dc" && b.kind == "dc" && a.series == "dwell" && b.series == "dwell" && a.set_value == p.set_value &&
+          b.set_value == p.set_value && usable(a) && usable(b))
+        h.dwells.push_back({{p.dwell_s, p.v, p.i_a}, {a.dwell_s, a.v, a.i_a}, {b.dwell_s, b.v, b.i_a}});
+    }
+  }
+  if (!pulse_dwells.empty()) {
+    std::sort(pulse_dwells.begin(), pulse_dwells.end());
+    h.pulse_dwell_median_s = pulse_dwells[pulse_dwells.size() / 2];
+  }
+  for (const auto* d : down)
+    for (const auto* u : up)
+      if (u->set_value == d->set_value) {
+        h.pairs.push_back({u->set_value, {u->v, u->i_a}, {d->v, d->i_a}});
+        break;
+      }
+  return h;
 }
 
 std::vector<fitting::AcPoint> ac_points(const std::vector<PointRow>& points) {
   std::vector<fitting::AcPoint> ac;
   double bias_i_a = kNaN;  // the DC reading of the step the AC readings belong to
   for (const auto& p : points) {
-    if (p.kind == "dc") bias_i_a = p.i_a;
+    if (p.kind == "dc") bias_i_a = p.series == "up" && !std::isfinite(p.dwell_s) ? p.i_a : kNaN;  // AC only at a held bias
     else if (p.kind != "ac") bias_i_a = kNaN;
     else if (std::isfinite(bias_i_a) && std::isfinite(p.freq_hz) && std::isfinite(p.ac_in_v) && std::isfinite(p.ac_out_v))
       ac.push_back({bias_i_a, p.freq_hz, p.ac_in_v, p.ac_out_v, p.ac_unit == "vpp" ? 0.5 : std::sqrt(2.0)});

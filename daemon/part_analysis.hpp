@@ -6,6 +6,7 @@
 #include "daemon/store.hpp"
 #include "fitting/design_calculators.hpp"
 #include "fitting/design_joint_fit.hpp"
+#include "fitting/heating.hpp"
 #include "fitting/junction_cap.hpp"
 #include "fitting/lot_stats.hpp"
 #include "fitting/spice_card.hpp"
@@ -20,7 +21,23 @@ namespace junco::daemon {
 // current or power limit. AC: each AC reading with the current of the DC
 // reading of its bias step (the step's readings share one transaction) and
 // its level unit (peak_per_unit: √2 for vrms, ½ for vpp).
+// Only the sweep up (series "up"): a pulse's dwell readings and the sweep
+// down are the heating options' (heating_readings).
 std::vector<fitting::IvPoint> dc_fit_points(const std::vector<PointRow>& points);
+// The DC readings taken at a held bias (no pulse): the electro-thermal fit's,
+// whose model is the settled junction temperature Ta + Rth·I·V.
+std::vector<fitting::IvPoint> held_dc_points(const std::vector<PointRow>& points);
+
+// The readings of the heating plan options (plan.heating), grouped for
+// fitting/heating.hpp: pulsed steps with their two dwell readings, and the
+// sweep up paired with the sweep down by set value.
+struct HeatingReadings {
+  std::size_t pulsed = 0;                 // forward readings of the sweep up taken in a pulse
+  double pulse_dwell_median_s = kNaN;     // their output-on → reading time
+  std::vector<fitting::DwellStep> dwells;
+  std::vector<fitting::SweepPair> pairs;
+};
+HeatingReadings heating_readings(const std::vector<PointRow>& points);
 std::vector<fitting::AcPoint> ac_points(const std::vector<PointRow>& points);
 
 // Off-state readings: the levels read at each reverse bias (kind reverse_ac).

@@ -84,7 +84,7 @@ std::string export_csv(const Json& points) {
 std::string export_iv_csv(const std::vector<PointRow>& points) {
   std::vector<fitting::IvPoint> iv;
   for (const auto& p : points)
-    if (p.kind == "dc" && std::isfinite(p.v) && std::isfinite(p.i_a)) iv.push_back({p.v, p.i_a});
+    if (p.kind == "dc" && p.series == "up" && std::isfinite(p.v) && std::isfinite(p.i_a)) iv.push_back({p.v, p.i_a});
   return fitting::iv_readings_csv(iv);
 }
 

@@ -98,6 +98,10 @@ struct PointRow {
   double temp_k = kNaN;
   double t_s = 0.0;
   int flags = 0;
+  // dc only: "up" (the sweep the fit uses), "dwell" or "down" (plan.heating,
+  // schema 0006); dwell_s: output on → reading, for a reading in a pulse.
+  std::string series = "up";
+  double dwell_s = kNaN;
 };
 
 struct PartRow {

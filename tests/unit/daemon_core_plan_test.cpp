@@ -233,7 +233,7 @@ TEST_CASE("plan size limits: points per job and memory, refused by arithmetic be
   CHECK(std::chrono::steady_clock::now() - t0 < std::chrono::milliseconds(50));
 
   // One part of 100000 steps × 3 frequencies: 400000 points (under the
-  // points cap) but ~107 MiB to run, over the 64 MiB default.
+  // points cap) but ~113 MiB to run (40 B per step), over the 64 MiB default.
   Json one = plan();
   one["parts"] = Json::array({{{"slot", 1}, {"label", "QX-7-01"}}});
   one["sweep"]["count"] = 100000;
@@ -245,7 +245,7 @@ TEST_CASE("plan size limits: points per job and memory, refused by arithmetic be
     check_plan(q, c);
     FAIL("accepted");
   } catch (const RequestError& e) {
-    CHECK_THAT(std::string(e.what()), Catch::StartsWith("plan needs about 107 MiB to run (400000 steps per part), over limits.max_plan_memory_bytes = "));
+    CHECK_THAT(std::string(e.what()), Catch::StartsWith("plan needs about 113 MiB to run (400000 steps per part), over limits.max_plan_memory_bytes = "));
     CHECK(e.data()["limit"] == "max_plan_memory_bytes");
   }
   // The same plan passes when the bench's config allows it.
