@@ -188,10 +188,13 @@ class CoreService final : public Service {
     for (const auto& l : e.limits)
       limits.push_back({{"limit", l.limit}, {"limit_value", l.limit_value}, {"plan_value", l.plan_value}, {"unit", l.unit},
                         {"binds", l.binds}, {"note", l.note}});
-    return {{"points_per_part", e.points_per_part}, {"points_total", e.points_total}, {"parts", plan.parts.size()},
-            {"min_duration_s", e.min_duration_s}, {"duration_s", e.duration_s},
-            {"peak", {{"supply_v", e.peak_supply_v}, {"current_a", e.peak_current_a}, {"power_w", e.peak_power_w}, {"reverse_v", e.peak_reverse_v}}},
-            {"limits", limits}};
+    Json out{{"points_per_part", e.points_per_part}, {"points_total", e.points_total}, {"parts", plan.parts.size()},
+             {"min_duration_s", e.min_duration_s}, {"duration_s", e.duration_s},
+             {"peak", {{"supply_v", e.peak_supply_v}, {"current_a", e.peak_current_a}, {"power_w", e.peak_power_w}, {"reverse_v", e.peak_reverse_v}}},
+             {"limits", limits}};
+    if (plan.heating.pulse)
+      out["pulse"] = {{"steps_per_part", e.pulsed_steps_per_part}, {"from", e.pulse_from}, {"duty", e.pulse_duty}};
+    return out;
   }
 
   Json list_jobs(const Json& params) {

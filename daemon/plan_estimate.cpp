@@ -40,6 +40,12 @@ PlanEstimate estimate_plan(const Plan& p, const Config& c) {
   const double exchanges_per_part = count * exchanges_per_dc(p) + (count - pulsed) * n_ac * kExchangesPerAc + pulsed * per_pulse +
                                     dwell_reads + down + n_rev * (4 + n_off * kExchangesPerAc) + 8;
   e.duration_s = e.min_duration_s + parts * exchanges_per_part * kExchangeS;
+  if (p.heating.pulse) {
+    e.pulsed_steps_per_part = static_cast<long>(pulsed);
+    e.pulse_from = pulse_from(p);
+    const double on_s = std::max(p.heating.pulse->on_s, p.heating.dwell ? p.heating.dwell->long_s : 0.0);
+    e.pulse_duty = on_s + p.heating.pulse->off_s > 0 ? on_s / (on_s + p.heating.pulse->off_s) : 1.0;
+  }
 
   const double r_total = c.fixture.bias_resistor_ohm + c.fixture.dc_return_ohm;
   const double i_lim = compliance_a(p, c);

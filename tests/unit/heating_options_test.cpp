@@ -101,6 +101,8 @@ TEST_CASE("plan.heating: parsed, expanded and estimated") {
   const PlanEstimate e = estimate_plan(p, bench());
   CHECK(e.points_per_part == 42);
   CHECK(e.duration_s > min_duration_s(p));
+  CHECK(e.pulsed_steps_per_part == 5);
+  CHECK(e.pulse_duty == Approx(0.2 / (0.2 + 0.2)));  // on = the long dwell
   // Without heating options the plan expands as before (no AC: 16 steps).
   CHECK(expand_steps(parse_plan(current_plan())).size() == 16);
 }

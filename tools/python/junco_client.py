@@ -730,7 +730,7 @@ class Client:
             plan (Dict[str, Any], required): the plan (docs/daemon-core.md)
 
         Returns the result object: points_per_part, points_total, parts, min_duration_s, duration_s,
-        peak, limits.
+        peak, pulse, limits.
         Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
         client's), ConnectionError when the connection is lost.
         """
