@@ -141,6 +141,17 @@ void apply_heating(const Config& cfg, double temp_k, const std::vector<PointRow>
                   dwell->rth_k_per_w.value, bias, h.pulsed > 0 ? " (pulsed top readings: that part of the settled rise they see)" : "");
     out.fit.warnings.emplace_back(line);
   }
+  else if (h.pulsed > 0 && et.value("status", "") == "no_ac" && std::isfinite(h.pulse_dwell_median_s)) {
+    // The electro-thermal note sizes a settled rise at the top reading's
+    // power; a pulsed top reading sees only what the junction reached in its
+    // dwell, and τ is not known without heating.dwell.
+    char line[300];
+    std::snprintf(line, sizeof line,
+                  "the top %zu readings were pulsed (%.2g ms after output on): they carry only the part of that heating reached "
+                  "in %.2g ms, 1 - exp(-t/tau) of it for a thermal time constant tau (heating.dwell measures tau and Rth)",
+                  h.pulsed, h.pulse_dwell_median_s * 1e3, h.pulse_dwell_median_s * 1e3);
+    out.fit.warnings.emplace_back(line);
+  }
   out.more_detail["heating"] = j;
 }
 

@@ -82,10 +82,11 @@ TEST_CASE("two dwells per pulsed step give the simulator's Rth and thermal time 
 
 TEST_CASE("pulsed top decade: the DC-only Rs comes back near the truth where the held sweep's is biased low",
           "[heating][daemon]") {
-  // θ 400 K/W, τ 50 ms (junco-sim's default). The held sweep settles 250 ms
-  // (5 τ) per step: the junction at its steady temperature. The pulsed plan
-  // reads the top decade ~1 ms after the output goes on, 250 ms off between.
-  const auto config = thermal_config("pulse", 400, 0.050);
+  // θ 400 K/W, τ 100 ms. The held sweep settles 250 ms (2.5 τ, 92 % of the
+  // settled rise) per step. The pulsed plan reads the top decade ~1 ms after
+  // the output goes on (~1 % of the rise; 5 ms under load would still be
+  // 5 %, 0.02 ohm), 500 ms (5 τ) off before each pulse.
+  const auto config = thermal_config("pulse", 400, 0.100);
   BenchDaemon b("heat-pulse", {"--settle-ms", "0", "--config", config.string()});
   std::filesystem::remove_all(config.parent_path());
   const Json sweep{{"mode", "current"}, {"spacing", "log"}, {"start", 1e-5}, {"stop", 0.05}, {"count", 16}, {"settle_s", 0.25}};
@@ -94,7 +95,7 @@ TEST_CASE("pulsed top decade: the DC-only Rs comes back near the truth where the
   b.run_plan({{"lot", "WREN-0912"},
               {"parts", {{{"slot", 1}, {"label", "WP-01"}}, {{"slot", 2}, {"label", "WP-02"}}}},
               {"sweep", sweep},
-              {"heating", {{"pulse", {{"on_s", 0.001}, {"off_s", 0.25}}}}}});
+              {"heating", {{"pulse", {{"on_s", 0.001}, {"off_s", 0.5}}}}}});
   const Json truth = b.sim().control("lot?")["parts"];
   for (long part = 1; part <= 2; ++part) {
     const double rs = truth[static_cast<std::size_t>(part - 1)]["rs_ohm"];
@@ -102,8 +103,9 @@ TEST_CASE("pulsed top decade: the DC-only Rs comes back near the truth where the
     const Json pulsed = b.result("part.fit", {{"part_id", part + 2}});
     INFO("held " << held.dump().substr(0, 1500) << "\npulsed " << pulsed.dump().substr(0, 2500));
     const double rs_held = held["rs_ohm"]["value"], rs_pulsed = pulsed["rs_ohm"]["value"];
-    std::printf("pulsed top decade, slot %ld: Rs %.4f ohm (truth %.4f, %+.1f %%); held sweep %.4f (%+.1f %%)\n", part, rs_pulsed, rs,
-                (rs_pulsed / rs - 1) * 100, rs_held, (rs_held / rs - 1) * 100);
+    std::printf("pulsed top decade, slot %ld: Rs %.4f ohm (truth %.4f, %+.1f %%), pulsed readings at %.2f ms; held sweep %.4f (%+.1f %%)\n",
+                part, rs_pulsed, rs, (rs_pulsed / rs - 1) * 100, pulsed["detail"]["heating"]["pulse_dwell_s"].get<double>() * 1e3, rs_held,
+                (rs_held / rs - 1) * 100);
     CHECK(std::abs(rs_pulsed - rs) < 0.05 * rs);
     CHECK(rs_held < rs - 0.15);  // biased low by the heating (docs/references.md §8)
     CHECK(pulsed["detail"]["heating"]["pulsed_readings"].get<int>() >= 3);
@@ -111,16 +113,20 @@ TEST_CASE("pulsed top decade: the DC-only Rs comes back near the truth where the
     bool says_heating = false;
     for (const auto& w : held["warnings"]) says_heating = says_heating || w.get<std::string>().find("self-heating") != std::string::npos;
     CHECK(says_heating);
+    // ... and, for the pulsed readings, that they carry only part of it.
+    bool says_pulsed = false;
+    for (const auto& w : pulsed["warnings"]) says_pulsed = says_pulsed || w.get<std::string>().find("were pulsed") != std::string::npos;
+    CHECK(says_pulsed);
   }
   // Safety: the supply really went off before every pulse for the off time.
   // Each pulsed reading (and each correction of a current target) is a pulse.
   const Json switches = b.sim().control("outputs?")["source"]["switches"];
   const Json job_switches(std::vector<Json>(switches.begin() + static_cast<long>(before), switches.end()));
   int long_offs = 0;
-  for (double s : off_before_on_s(job_switches)) long_offs += s >= 0.25 * 0.98 ? 1 : 0;
+  for (double s : off_before_on_s(job_switches)) long_offs += s >= 0.5 * 0.98 ? 1 : 0;
   const int pulsed_readings = b.result("part.fit", {{"part_id", 3}})["detail"]["heating"]["pulsed_readings"].get<int>() +
                               b.result("part.fit", {{"part_id", 4}})["detail"]["heating"]["pulsed_readings"].get<int>();
-  std::printf("pulsed plan: %d output-on switches after >= 245 ms off, for %d pulsed readings\n", long_offs, pulsed_readings);
+  std::printf("pulsed plan: %d output-on switches after >= 490 ms off, for %d pulsed readings\n", long_offs, pulsed_readings);
   CHECK(long_offs >= pulsed_readings);
   CHECK(b.sim().control("outputs?")["source"]["output_on"] == false);
 }
