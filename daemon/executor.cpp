@@ -421,6 +421,9 @@ class JobRun {
     end_pulse();
     wait(pulse.off_s);
     set_supply(v);
+    // The safety order holds for every output on, a pulse's too: the
+    // current limit is programmed again since the output went off.
+    bench_.source->set_current_limit_a(compliance_a(plan_, cfg_));
     const auto before = Clock::now();
     bench_.source->set_output(true);
     source_on_ = true;
@@ -460,6 +463,7 @@ class JobRun {
 
   void source_on() {
     if (!source_on_) {
+      bench_.source->set_current_limit_a(compliance_a(plan_, cfg_));  // before output on, always
       bench_.source->set_output(true);
       source_on_ = true;
     }
