@@ -74,7 +74,7 @@ void define_options(CLI::App& app, Args& a) {
   junco::cli_args::shown_as(app.add_option("--restart-limit", a.restart_limit,
                                            "supervisor: give up (outputs off, exit 1) after more than N worker deaths\n"
                                            "within 10 minutes; a worker that never starts serving is retried 5 times")
-                                ->check(CLI::Range(0, 100000)),
+                                ->check(junco::cli_args::whole_number(0, 100000)),
                             "N");
   junco::cli_args::shown_as(app.add_option("--log-level", a.log_level,
                  "error (safety failures), warn (faults, retries, pauses), info (lifecycle)\n"
@@ -88,7 +88,7 @@ void define_options(CLI::App& app, Args& a) {
   app.add_flag("--foreground")->description("accepted for clarity: juncod never detaches; logs go to stderr");
   // Internal: the supervisor passes it to its worker, which writes one byte
   // there once it serves. Hidden from --help (empty group).
-  app.add_option("--worker-ready-fd", a.ready_fd, "")->group("")->check(CLI::Range(0, 1 << 20));
+  app.add_option("--worker-ready-fd", a.ready_fd, "")->group("")->check(junco::cli_args::whole_number(0, 1 << 20));
   app.footer(
       "Logs go to stderr: under systemd (JOURNAL_STREAM names stderr) each line starts\n"
       "with its journald priority <3> <4> <6> <7>; otherwise with an ISO 8601 UTC time\n"

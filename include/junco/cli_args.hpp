@@ -12,6 +12,7 @@
 
 #include <cstdio>
 #include <optional>
+#include <stdexcept>
 #include <string>
 
 namespace junco::cli_args {
@@ -36,6 +37,40 @@ inline CLI::Option* shown_as(CLI::Option* o, const std::string& metavar) {
   if (!d.empty() && d != "[]" && d != "-1") text += " [" + d + "]";
   if (o->get_required()) text += " (required)";
   return o->type_name(metavar)->option_text(text);
+}
+
+// Checks with messages a person reads ("--slots: wants a whole number
+// 1..256, not '0'"), in place of CLI11's generic range text.
+inline CLI::Validator whole_number(long long min, long long max) {
+  return CLI::Validator(
+      [min, max](std::string& v) -> std::string {
+        std::size_t pos = 0;
+        long long x = 0;
+        try {
+          x = std::stoll(v, &pos);
+        } catch (const std::exception&) {
+          pos = 0;
+        }
+        if (v.empty() || pos != v.size() || x < min || x > max)
+          return "wants a whole number " + std::to_string(min) + ".." + std::to_string(max) + ", not '" + v + "'";
+        return std::string();
+      },
+      "");
+}
+inline CLI::Validator non_negative_number() {
+  return CLI::Validator(
+      [](std::string& v) -> std::string {
+        std::size_t pos = 0;
+        double x = -1;
+        try {
+          x = std::stod(v, &pos);
+        } catch (const std::exception&) {
+          pos = 0;
+        }
+        if (v.empty() || pos != v.size() || !(x >= 0) || x > 1e300) return "wants a number >= 0, not '" + v + "'";
+        return std::string();
+      },
+      "");
 }
 
 // Parses; nullopt to go on, or the status to exit with: 0 after --help or

@@ -10,6 +10,7 @@
 
 #include <cstdio>
 #include <iostream>
+#include <limits>
 #include <stdexcept>
 #include <thread>
 
@@ -67,10 +68,12 @@ void define_options(CLI::App& app, Given& g) {
       "Logs go to stderr. Runs until SIGINT/SIGTERM or the control command quit.");
   using junco::cli_args::shown_as;
   shown_as(app.add_option("--config", g.config_file, "JSON file with the config keys below (the command line wins)"), "FILE");
-  shown_as(app.add_option("--seed", g.seed, "seed of the lot and of all noise"), "N");
-  shown_as(app.add_option("--slots", g.slots, "fixture slots, each holding one part")->check(CLI::Range(1, 256)), "N");
+  shown_as(app.add_option("--seed", g.seed, "seed of the lot and of all noise")
+               ->check(junco::cli_args::whole_number(0, std::numeric_limits<long long>::max())),
+           "N");
+  shown_as(app.add_option("--slots", g.slots, "fixture slots, each holding one part")->check(junco::cli_args::whole_number(1, 256)), "N");
   shown_as(app.add_option("--settle-ms", g.settle_ms, "time constant of every reading after a change (first order,\nwall clock; 0 = instant)")
-               ->check(CLI::NonNegativeNumber),
+               ->check(junco::cli_args::non_negative_number()),
            "MS");
   shown_as(app.add_option("--family", g.families, "command family of a role (repeatable; the first is the default):\n" + family_lines())
                ->check(checked([](const std::string& v) { SimConfig c; apply_family(c, v); })),
