@@ -4,6 +4,7 @@
 //  - a make-safe that fails (junco-sim's supply silent: it reads OUTP OFF and
 //    never answers, not even *IDN? at open) is logged at error
 //    and still appears with --log-level error, while info lines do not;
+//    so is OUTP OFF unanswered at shutdown (the supply silenced while idle);
 //  - with JOURNAL_STREAM naming stderr's device and inode, every line starts
 //    with its sd-daemon priority (<3> error, <4> warning, <6> info) and
 //    carries no timestamp; without it, an ISO 8601 UTC time with ms;
@@ -153,6 +154,38 @@ TEST_CASE("a make-safe that fails is logged at error and shows with --log-level 
     CHECK_THAT(log, Catch::Contains("outputs not known to be off"));
     for (const auto& l : lines_of(log)) CHECK_THAT(l, Catch::Contains(" juncod: error: "));
   }
+}
+
+TEST_CASE("a supply that stops answering before juncod stops: OUTP OFF fails, logged at error", "[logs]") {
+  // Healthy at start; the supply goes silent while juncod is idle, so the
+  // make-safe at shutdown sends OUTP OFF and gets no answer.
+  SimProcess sim({"--settle-ms", "0"});
+  Scratch s("logs-stop");
+  s.write_sim_config(sim);
+  ChildOptions o;
+  o.stderr_path = s.log().string();
+  o.stop_grace = 20s;
+  ChildProcess d(juncod(s, {"--no-supervisor", "--log-level", "error"}), o);
+  bool up = false;
+  for (int i = 0; i < 200 && !up; ++i) {
+    try {
+      SocketClient c(s.socket());
+      up = c.request("daemon.status")["result"].value("bench_open", false);
+    } catch (const std::exception&) {
+    }
+    if (!up) std::this_thread::sleep_for(50ms);
+  }
+  REQUIRE(up);
+  REQUIRE(read_text(s.log()).empty());  // a healthy start logs nothing at error
+  sim.control("fault source silent");
+  CHECK(d.stop() == 0);
+  const std::string log = read_text(s.log());
+  INFO(log);
+  CHECK_THAT(log, Catch::Contains("juncod: error: bench: could not make every instrument safe at shutdown: source output off"));
+  CHECK_THAT(log, Catch::Contains("juncod: error: shut down: outputs NOT known to be off"));
+  for (const auto& l : lines_of(log)) CHECK(std::regex_match(l, kStamped));
+  CHECK(log.find(": info: ") == std::string::npos);
+  CHECK(log.find(": warn: ") == std::string::npos);
 }
 
 TEST_CASE("under systemd (JOURNAL_STREAM names stderr) lines carry <3> <4> <6> and no timestamp", "[logs]") {
