@@ -54,8 +54,9 @@ class CoreService final : public Service {
  public:
   CoreService(const Config& config, ServiceOptions options)
       : config_(config),
-        log_(options.log ? std::move(options.log) : [](std::string_view line) { std::cerr << "juncod: " << line << std::endl; }),
-        open_bench_(options.open_bench ? std::move(options.open_bench) : BenchOpener(open_bench)),
+        log_(options.log ? std::move(options.log) : stderr_log("juncod", LogLevel::info, LogFormat::timestamped)),
+        open_bench_(options.open_bench ? std::move(options.open_bench)
+                                       : BenchOpener([this](const Config& c) { return open_bench(c, log_); })),
         // Outputs off before the store is opened: opening a huge database
         // takes seconds and a damaged one throws, and neither may hold an
         // output on (members are built in declaration order).
@@ -97,8 +98,8 @@ class CoreService final : public Service {
       lab_.stop();
       // Only claim what is known: a bench that would not take the make-safe
       // commands (already logged by the executor) is not reported as off.
-      log_(executor_.bench_known_safe() ? "shut down: outputs off"
-                                        : "shut down: outputs NOT known to be off (see the errors above); check the bench");
+      if (executor_.bench_known_safe()) log_.info("shut down: outputs off");
+      else log_.error("shut down: outputs NOT known to be off (see the errors above); check the bench");
     });
   }
 
@@ -442,7 +443,7 @@ class CoreService final : public Service {
     try {
       return Store(config.paths.database);
     } catch (const StoreError& e) {
-      log(std::string("store: cannot open, stopping (outputs were turned off first): ") + e.what());
+      log.error(std::string("store: cannot open, stopping (outputs were turned off first): ") + e.what());
       throw;
     }
   }

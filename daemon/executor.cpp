@@ -292,7 +292,7 @@ class JobRun {
     if (p.flags & kLimitFlags) {
       stopped_high_ = true;
       guarded([&] { bench_.source->set_voltage_v(0.0); });
-      log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " +
+      log_.warn("job " + std::to_string(job_id_) + " part " + part_label_ + ": " +
            ((p.flags & flag_current_limit) ? "supply in current limit" : "power above max_power_w") + " at step " +
            std::to_string(seq) + "; no further forward steps");
     }
@@ -321,7 +321,7 @@ class JobRun {
       } catch (const drivers::DriverError& e) {
         // A command error (-1xx) or a config error comes back the same every time.
         const bool retry = !e.permanent() && attempt < kPointAttempts;
-        log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " + describe(e) +
+        log_.warn("job " + std::to_string(job_id_) + " part " + part_label_ + ": " + describe(e) +
              (retry ? " (retrying, attempt " + std::to_string(attempt) + ")" : ""));
         if (!retry)
           throw JobStop{JobStop::Why::fault, describe(e) + " (part " + part_label_ + ", after " + std::to_string(attempt) + " attempts)"};
@@ -625,7 +625,7 @@ SafeStart make_bench_safe_first(const Config& config, const BenchOpener& open, c
     out.bench->log = log;
   } catch (const std::exception& e) {
     out.errors = std::string("cannot open: ") + e.what();
-    log("bench: " + out.errors + " (retrying every " + std::to_string(kMakeSafeRetry.count()) + " ms)");
+    log.error("bench: " + out.errors + " (outputs not known to be off; retrying every " + std::to_string(kMakeSafeRetry.count()) + " ms)");
     return out;
   }
   // Stale errors first, so none is reported against OUTP OFF; a failure to
@@ -634,12 +634,12 @@ SafeStart make_bench_safe_first(const Config& config, const BenchOpener& open, c
   out.errors = out.bench->make_safe();
   const std::string clear_then = out.bench->clear_errors("at bench open", Bench::Roles::others);
   if (!clear_first.empty() || !clear_then.empty())
-    log("bench: could not clear every error queue at open: " + clear_first + (clear_first.empty() || clear_then.empty() ? "" : "; ") + clear_then);
+    log.warn("bench: could not clear every error queue at open: " + clear_first + (clear_first.empty() || clear_then.empty() ? "" : "; ") + clear_then);
   std::string missing;
   for (const auto& m : out.bench->missing) missing += (missing.empty() ? "" : "; ") + m;
   if (!missing.empty()) out.errors = "cannot open: " + missing + (out.errors.empty() ? "" : "; also: " + out.errors);
-  if (out.errors.empty()) log("bench: every output off, scanner open");
-  else log("bench: could not make every instrument safe at start: " + out.errors + " (retrying every " +
+  if (out.errors.empty()) log.info("bench: every output off, scanner open");
+  else log.error("bench: could not make every instrument safe at start: " + out.errors + " (retrying every " +
            std::to_string(kMakeSafeRetry.count()) + " ms)");
   return out;
 }
@@ -670,7 +670,7 @@ void Executor::stop() {
   if (!bench_) return;
   const std::string errors = bench_->make_safe();
   note_safety(errors);
-  if (!errors.empty()) log_("bench: could not make every instrument safe at shutdown: " + errors);
+  if (!errors.empty()) log_.error("bench: could not make every instrument safe at shutdown: " + errors);
 }
 
 Json Executor::identities() const {
@@ -688,7 +688,8 @@ bool Executor::ensure_bench() {
       const std::string errors = opened->make_safe();
       std::string why;
       for (const auto& m : opened->missing) why += (why.empty() ? "" : "; ") + m;
-      log_bench_problem("bench: cannot open: " + why + (errors.empty() ? " (the others are safe)" : "; also: " + errors));
+      // The missing ones may still be on: a safety failure.
+      log_bench_problem(LogLevel::error, "bench: cannot open: " + why + (errors.empty() ? " (the others are safe)" : "; also: " + errors));
       unsafe_ = true;  // the missing ones may still be on: keep retrying
       unsafe_errors_ = why;
       return false;
@@ -701,10 +702,10 @@ bool Executor::ensure_bench() {
     // An error someone else left in a queue must not be blamed on our first
     // command; a failure here shows again at the next command, so only logged.
     if (const std::string errors = bench_->clear_errors("at bench open"); !errors.empty())
-      log_("bench: could not clear every error queue at open: " + errors);
+      log_.warn("bench: could not clear every error queue at open: " + errors);
     return true;
   } catch (const std::exception& e) {
-    log_bench_problem(std::string("bench: cannot open: ") + e.what());
+    log_bench_problem(LogLevel::warn, std::string("bench: cannot open: ") + e.what());
     bench_.reset();
     bench_open_ = false;
     return false;
@@ -727,10 +728,10 @@ std::string Executor::bench_problem() const {
   return last_bench_problem_;
 }
 
-void Executor::log_bench_problem(const std::string& line) {
+void Executor::log_bench_problem(LogLevel level, const std::string& line) {
   if (line == bench_problem()) return;
   set_bench_problem(line);
-  log_(line);
+  log_.write(level, line);
 }
 
 void Executor::note_safety(const std::string& errors) {
@@ -754,13 +755,13 @@ void Executor::retry_make_safe() {
     log_("bench: every output off, scanner open (make-safe retried)");
     return;
   }
-  if (errors != unsafe_errors_) log_("bench: still not safe, retrying every " + std::to_string(kMakeSafeRetry.count()) + " ms: " + errors);
+  if (errors != unsafe_errors_) log_.error("bench: still not safe, retrying every " + std::to_string(kMakeSafeRetry.count()) + " ms: " + errors);
   note_safety(errors);
 }
 
 void Executor::stop_job(Id id, const std::string& state, const std::optional<std::string>& message) {
   if (!queue_.set_stop_state(id, state, message))
-    log_("job " + std::to_string(id) + ": state " + state + " could not be saved, held in memory" + (message ? ": " + *message : ""));
+    log_.warn("job " + std::to_string(id) + ": state " + state + " could not be saved, held in memory" + (message ? ": " + *message : ""));
 }
 
 void Executor::identify() {
@@ -772,7 +773,7 @@ void Executor::identify() {
     try {
       id = inst->identify();
     } catch (const std::exception& e) {
-      log_(std::string("bench: ") + role + " *IDN? failed: " + e.what());
+      log_.warn(std::string("bench: ") + role + " *IDN? failed: " + e.what());
       return;
     }
     {
@@ -783,7 +784,7 @@ void Executor::identify() {
       const auto* ic = config_.instrument(role);
       store_.record_instrument(role, ic ? ic->address : "", id.manufacturer, id.model, id.serial, id.firmware);
     } catch (const std::exception& e) {
-      log_(std::string("bench: ") + role + " identified as " + id.manufacturer + " " + id.model +
+      log_.warn(std::string("bench: ") + role + " identified as " + id.manufacturer + " " + id.model +
            ", but storing its identity failed: storage: " + e.what());
     }
   };
@@ -808,7 +809,7 @@ void Executor::refit_runs_without_fit() {
            " was done without its fit; fitted now: " + describe_fit(f));
     }
   } catch (const std::exception& e) {
-    log_(std::string("recovering fits of done runs failed: ") + e.what());
+    log_.warn(std::string("recovering fits of done runs failed: ") + e.what());
   }
 }
 
@@ -835,7 +836,7 @@ void Executor::loop() {
     try {
       claimed = queue_.claim(*id);
     } catch (const StoreError& e) {
-      log_bench_problem("job " + std::to_string(*id) + ": cannot start: storage: " + e.what());
+      log_bench_problem(LogLevel::warn, "job " + std::to_string(*id) + ": cannot start: storage: " + e.what());
       queue_.sleep_for(std::chrono::seconds(2));
       continue;
     }
@@ -845,7 +846,7 @@ void Executor::loop() {
     } catch (const std::exception& e) {
       // A bug: never leave the bench live.
       if (bench_) note_safety(bench_->make_safe());
-      log_("job " + std::to_string(*id) + ": failed: " + e.what());
+      log_.error("job " + std::to_string(*id) + ": failed: " + e.what());
       stop_job(*id, "failed", e.what());
     }
     queue_.set_running(std::nullopt);
@@ -871,18 +872,22 @@ void Executor::run_job(Id id) {
     for (const auto& r : store_.runs_without_fit(id, false)) unfitted += (unfitted.empty() ? "" : ", ") + std::to_string(r.id);
     if (!unfitted.empty()) {
       const std::string msg = "runs " + unfitted + " have readings but no fit";
-      log_("job " + std::to_string(id) + ": failed: " + msg);
+      log_.warn("job " + std::to_string(id) + ": failed: " + msg);
       stop_job(id, "failed", msg);
       return;
     }
     // "" clears a message left from before (paused by request, restarted …).
     stop_job(id, "done", errors.empty() ? std::string() : "finished, but: " + errors);
-    log_("job " + std::to_string(id) + ": done");
+    if (errors.empty()) log_.info("job " + std::to_string(id) + ": done");
+    else log_.error("job " + std::to_string(id) + ": done, but the outputs are not known to be off: " + errors);
   } catch (const JobStop& stop) {
     const std::string errors = bench_->make_safe();
     note_safety(errors);
     const std::string msg = stop.message + (errors.empty() ? "" : "; " + errors);
-    log_("job " + std::to_string(id) + ": " + msg);
+    // A requested stop is lifecycle, a fault or timeout a warning, and a
+    // make-safe that failed on the way out a safety failure.
+    const bool asked = stop.why == JobStop::Why::pause || stop.why == JobStop::Why::cancel || stop.why == JobStop::Why::shutdown;
+    log_.write(!errors.empty() ? LogLevel::error : asked ? LogLevel::info : LogLevel::warn, "job " + std::to_string(id) + ": " + msg);
     switch (stop.why) {
       case JobStop::Why::pause: stop_job(id, "paused", msg); break;
       case JobStop::Why::fault:
@@ -906,7 +911,7 @@ void Executor::run_job(Id id) {
     const std::string errors = bench_->make_safe();
     note_safety(errors);
     const std::string msg = std::string("storage: ") + e.what() + (errors.empty() ? "" : "; " + errors);
-    log_("job " + std::to_string(id) + ": " + msg);
+    log_.write(errors.empty() ? LogLevel::warn : LogLevel::error, "job " + std::to_string(id) + ": " + msg);
     stop_job(id, "paused", msg);
   }
 }
