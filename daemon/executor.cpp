@@ -1,5 +1,7 @@
 #include "daemon/executor.hpp"
 
+#include "daemon/api_json.hpp"
+
 #include "daemon/part_analysis.hpp"
 
 #include "drivers/errors.hpp"
@@ -68,7 +70,7 @@ struct RunFit {
 // the DC-only Rs stays in detail.electrothermal.apparent_rs_ohm. Without AC
 // readings the fit keeps the DC-only values and warns how much heating they
 // may hide.
-void apply_electrothermal(const Config& cfg, double temp_k, const Json& fixture, const std::vector<PointRow>& points, RunFit& out) {
+void apply_electrothermal(const Config& cfg, double temp_k, const RunFixture& fixture, const std::vector<PointRow>& points, RunFit& out) {
   fitting::ElectroThermalRunOptions eo;
   eo.fit.ambient_k = temp_k;
   eo.fit.accuracy = cfg.accuracy;
@@ -155,7 +157,7 @@ void apply_heating(const Config& cfg, double temp_k, const std::vector<PointRow>
   out.more_detail["heating"] = j;
 }
 
-RunFit fit_run(const Config& cfg, double temp_k, const Json& fixture, const std::vector<PointRow>& points) {
+RunFit fit_run(const Config& cfg, double temp_k, const RunFixture& fixture, const std::vector<PointRow>& points) {
   RunFit out;
   try {
     fitting::FitOptions opt;
@@ -225,10 +227,8 @@ class JobRun {
   void run_part(const PartSpec& part) {
     const Id lot_id = store_.ensure_lot(plan_.lot);
     const Id part_id = store_.ensure_part(lot_id, part.label, part.slot);
-    const Json fixture{{"bias_resistor_ohm", cfg_.fixture.bias_resistor_ohm}, {"dc_return_ohm", cfg_.fixture.dc_return_ohm},
-                       {"source_ohm", cfg_.fixture.source_ohm}, {"load_ohm", cfg_.fixture.load_ohm},
-                       {"current_from", to_string(cfg_.fixture.current_from)}, {"stray_c_f", cfg_.fixture.stray_c_f}};
-    const RunRow run = store_.ensure_run(job_id_, part_id, part.slot, fixture, plan_.temp_k);
+    const RunFixture fixture = run_fixture(cfg_.fixture);
+    const RunRecord run = store_.ensure_run(job_id_, part_id, part.slot, fixture, plan_.temp_k);
     part_label_ = part.label;
     part_id_ = part_id;
     run_id_ = run.id;
@@ -580,7 +580,7 @@ class JobRun {
   // a kill leaves the run either done with its fit or not done, and a run
   // not done is fitted when the resumed job reaches it. A failed fit is
   // stored with its reason; a StoreError goes up (the job pauses).
-  void fit_and_finish(Id part_id, Id run_id, const Json& fixture) {
+  void fit_and_finish(Id part_id, Id run_id, const RunFixture& fixture) {
     const RunFit f = fit_run(cfg_, plan_.temp_k, fixture, store_.points(run_id));
     store_.finish_run_with_fit(part_id, run_id, f.fit, f.cap ? &*f.cap : nullptr, f.cap ? f.cap_readings : Json(), f.more_detail);
     log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " + describe_fit(f));
@@ -759,9 +759,9 @@ void Executor::retry_make_safe() {
   note_safety(errors);
 }
 
-void Executor::stop_job(Id id, const std::string& state, const std::optional<std::string>& message) {
+void Executor::stop_job(Id id, JobState state, const std::optional<std::string>& message) {
   if (!queue_.set_stop_state(id, state, message))
-    log_.warn("job " + std::to_string(id) + ": state " + state + " could not be saved, held in memory" + (message ? ": " + *message : ""));
+    log_.warn("job " + std::to_string(id) + ": state " + std::string(to_string(state)) + " could not be saved, held in memory" + (message ? ": " + *message : ""));
 }
 
 void Executor::identify() {
@@ -802,7 +802,7 @@ void Executor::refit_runs_without_fit() {
   try {
     for (const auto& run : store_.runs_without_fit(std::nullopt, true)) {
       const auto job = store_.job(run.job_id);
-      const double temp_k = std::isfinite(run.temp_k) ? run.temp_k : job ? job->plan.value("temp_k", 300.15) : 300.15;
+      const double temp_k = std::isfinite(run.temp_k) ? run.temp_k : job ? job->plan.temp_k : 300.15;
       const RunFit f = fit_run(config_, temp_k, run.fixture, store_.points(run.id));
       store_.finish_run_with_fit(run.part_id, run.id, f.fit, f.cap ? &*f.cap : nullptr, f.cap ? f.cap_readings : Json(), f.more_detail);
       log_("recovered: run " + std::to_string(run.id) + " of job " + std::to_string(run.job_id) +
@@ -847,7 +847,7 @@ void Executor::loop() {
       // A bug: never leave the bench live.
       if (bench_) note_safety(bench_->make_safe());
       log_.error("job " + std::to_string(*id) + ": failed: " + e.what());
-      stop_job(*id, "failed", e.what());
+      stop_job(*id, JobState::failed, e.what());
     }
     queue_.set_running(std::nullopt);
   }
@@ -855,7 +855,8 @@ void Executor::loop() {
 
 void Executor::run_job(Id id) {
   const auto row = store_.job(id);
-  const Plan plan = parse_plan(row->plan);
+  if (!row) throw NotFound("no job " + std::to_string(id), "job_id", id);
+  const Plan& plan = row->plan;
   log_("job " + std::to_string(id) + ": running (" + std::to_string(row->points_done) + " of " + std::to_string(row->points_total) +
        " points already committed)");
   JobRun run(config_, store_, queue_, events_, *bench_, log_, id, plan, row->points_done, row->points_total);
@@ -873,11 +874,11 @@ void Executor::run_job(Id id) {
     if (!unfitted.empty()) {
       const std::string msg = "runs " + unfitted + " have readings but no fit";
       log_.warn("job " + std::to_string(id) + ": failed: " + msg);
-      stop_job(id, "failed", msg);
+      stop_job(id, JobState::failed, msg);
       return;
     }
     // "" clears a message left from before (paused by request, restarted …).
-    stop_job(id, "done", errors.empty() ? std::string() : "finished, but: " + errors);
+    stop_job(id, JobState::done, errors.empty() ? std::string() : "finished, but: " + errors);
     if (errors.empty()) log_.info("job " + std::to_string(id) + ": done");
     else log_.error("job " + std::to_string(id) + ": done, but the outputs are not known to be off: " + errors);
   } catch (const JobStop& stop) {
@@ -889,18 +890,18 @@ void Executor::run_job(Id id) {
     const bool asked = stop.why == JobStop::Why::pause || stop.why == JobStop::Why::cancel || stop.why == JobStop::Why::shutdown;
     log_.write(!errors.empty() ? LogLevel::error : asked ? LogLevel::info : LogLevel::warn, "job " + std::to_string(id) + ": " + msg);
     switch (stop.why) {
-      case JobStop::Why::pause: stop_job(id, "paused", msg); break;
+      case JobStop::Why::pause: stop_job(id, JobState::paused, msg); break;
       case JobStop::Why::fault:
-        stop_job(id, "paused", msg);
+        stop_job(id, JobState::paused, msg);
         // The drivers reconnect by themselves; the bench is kept for the
         // make-safe retries and reopened before the next job.
         reopen_before_job_ = true;
         break;
-      case JobStop::Why::cancel: stop_job(id, "cancelled", msg); break;
-      case JobStop::Why::timeout: stop_job(id, "failed", msg); break;
+      case JobStop::Why::cancel: stop_job(id, JobState::cancelled, msg); break;
+      case JobStop::Why::timeout: stop_job(id, JobState::failed, msg); break;
       case JobStop::Why::shutdown:
         // As after a crash: resumable jobs go back to the queue on restart.
-        stop_job(id, plan.resume ? "queued" : "interrupted", msg);
+        stop_job(id, plan.resume ? JobState::queued : JobState::interrupted, msg);
         break;
     }
   } catch (const StoreError& e) {
@@ -912,7 +913,7 @@ void Executor::run_job(Id id) {
     note_safety(errors);
     const std::string msg = std::string("storage: ") + e.what() + (errors.empty() ? "" : "; " + errors);
     log_.write(errors.empty() ? LogLevel::warn : LogLevel::error, "job " + std::to_string(id) + ": " + msg);
-    stop_job(id, "paused", msg);
+    stop_job(id, JobState::paused, msg);
   }
 }
 

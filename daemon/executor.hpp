@@ -88,7 +88,7 @@ class Executor {
   // Logs a bench problem once, not again while it stays the same.
   void log_bench_problem(LogLevel level, const std::string& line);
   void set_bench_problem(const std::string& line);
-  void stop_job(Id id, const std::string& state, const std::optional<std::string>& message);
+  void stop_job(Id id, JobState state, const std::optional<std::string>& message);
 
   const Config& config_;
   Store& store_;

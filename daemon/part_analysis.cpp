@@ -87,12 +87,12 @@ std::vector<fitting::OffStatePoint> off_state_points(const std::vector<PointRow>
   return out;
 }
 
-std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<PointRow>& points, const Json& run_fixture,
+std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<PointRow>& points, const RunFixture& run_fixture,
                                                            double rs_ohm) {
   const auto off = off_state_points(points);
   if (off.empty()) return std::nullopt;
   fitting::JunctionCapOptions o;
-  if (run_fixture.is_object() && run_fixture.value("stray_c_f", Json()).is_number()) o.stray_c_f = run_fixture["stray_c_f"].get<double>();
+  if (std::isfinite(run_fixture.stray_c_f)) o.stray_c_f = run_fixture.stray_c_f;
   return fitting::fit_junction_cap(off, ac_fixture(run_fixture), std::isfinite(rs_ohm) && rs_ohm > 0 ? rs_ohm : 0.0, o);
 }
 
@@ -109,34 +109,38 @@ Json off_state_readings_report(const std::vector<fitting::OffStatePoint>& points
   return rows;
 }
 
-fitting::Fixture ac_fixture(const Json& f) {
-  const auto ohm = [&](const char* key, double fallback) {
-    return f.is_object() && f.contains(key) && f[key].is_number() ? f[key].get<double>() : fallback;
-  };
+fitting::Fixture ac_fixture(const RunFixture& f) {
+  const auto ohm = [](double v, double fallback) { return std::isfinite(v) ? v : fallback; };  // older rows: defaults
   fitting::Fixture fx;
-  fx.rg_ohm = ohm("source_ohm", 50.0);
-  fx.rl_ohm = ohm("load_ohm", 50.0);
-  const double ret = ohm("dc_return_ohm", 0.0);
+  fx.rg_ohm = ohm(f.source_ohm, 50.0);
+  fx.rl_ohm = ohm(f.load_ohm, 50.0);
+  const double ret = ohm(f.dc_return_ohm, 0.0);
   fx.dc_return_ohm = ret > 0 ? ret : fitting::no_shunt_ohm;
   fx.bias_feed_ohm = fitting::no_shunt_ohm;
   return fx;
 }
 
-fitting::DesignPart design_part(const PartRow& part, const Json& fit) {
-  const fitting::FitResult r = fit_result_from_json(fit);
+fitting::DesignPart design_part(const PartRow& part, const FitRecord& fit) {
+  const fitting::FitResult& r = fit.fit;
   fitting::DesignPart p;
-  p.label = part.label + " (lot " + part.lot + ", fit " + std::to_string(fit.value("fit_id", 0L)) + ")";
+  p.label = part.label + " (lot " + part.lot + ", fit " + std::to_string(fit.id) + ")";
   p.dc = r.params();
   if (std::isfinite(r.temp_k)) p.temp_k = r.temp_k;
-  const auto measured = [&](const char* key) {
-    return fit.contains(key) && fit[key].is_object() && fit[key]["value"].is_number() ? fit[key]["value"].get<double>() : kNaN;
-  };
-  if (const double cj0 = measured("cj0_f"); cj0 > 0) {
+  if (const double cj0 = fit.cj0_f.value; cj0 > 0) {
     p.cap.cj0_f = cj0;
-    if (const double vj = measured("vj_v"); vj > 0) p.cap.vj_v = vj;
-    if (const double m = measured("m"); m > 0) p.cap.m = m;
+    if (const double vj = fit.vj_v.value; vj > 0) p.cap.vj_v = vj;
+    if (const double m = fit.m.value; m > 0) p.cap.m = m;
   }
   return p;
+}
+
+fitting::LotPart lot_part(const PartRow& part, const FitRecord& fit) {
+  const fitting::FitResult& r = fit.fit;
+  fitting::LotPart lp{part.label, part.lot, r.params(), std::isfinite(r.temp_k) ? r.temp_k : 300.15};
+  lp.cj0_f = fit.cj0_f.value;
+  lp.vj_v = fit.vj_v.value;
+  lp.m = fit.m.value;
+  return lp;
 }
 
 // The joint fit above is isothermal. When it disagrees, the stored fit may
@@ -144,9 +148,9 @@ fitting::DesignPart design_part(const PartRow& part, const Json& fit) {
 // (detail.electrothermal): its isothermal Rs then agrees with the Rs the AC
 // readings give alone, within 3 combined standard errors (our bound, no
 // source), where the DC-only Rs does not.
-std::string transfer_verdict(const Json& joint, const Json& fit) {
+std::string transfer_verdict(const Json& joint, const FitRecord& fit) {
   if (joint.value("agree", false)) return "agree";
-  const Json et = fit.contains("detail") && fit["detail"].is_object() ? fit["detail"].value("electrothermal", Json()) : Json();
+  const Json& et = fit.electrothermal();
   const Json ac = joint.contains("ac_only") ? joint["ac_only"].value("rs_ohm", Json()) : Json();
   const auto number = [](const Json& j, const char* k) { return j.is_object() && j.value(k, Json()).is_number() ? j[k].get<double>() : kNaN; };
   if (et.is_object() && et.value("status", "") == "fitted" && ac.is_object()) {
@@ -157,9 +161,9 @@ std::string transfer_verdict(const Json& joint, const Json& fit) {
   return "DISAGREE";
 }
 
-Json transfer_report(const PartRow& part, const RunRow& run, const Json& fit, const std::vector<PointRow>& points,
+Json transfer_report(const PartRow& part, const RunRecord& run, const FitRecord& fit, const std::vector<PointRow>& points,
                      const TransferOptions& options) {
-  const fitting::FitResult r = fit_result_from_json(fit);
+  const fitting::FitResult& r = fit.fit;
   const double temp_k = std::isfinite(r.temp_k) ? r.temp_k : 300.15;
   const fitting::Fixture fx = ac_fixture(run.fixture);
   const fitting::AcPart ac_part{r.params(), options.cj_f};
@@ -186,7 +190,7 @@ Json transfer_report(const PartRow& part, const RunRow& run, const Json& fit, co
   }
   Json out{{"part_id", part.id},
            {"run_id", run.id},
-           {"fit_id", fit.value("fit_id", Json())},
+           {"fit_id", fit.id},
            {"temp_k", temp_k},
            {"fixture",
             {{"rl_ohm", fx.rl_ohm}, {"dc_return_ohm", number_or_null(fx.dc_return_ohm)}, {"rg_ohm", fx.rg_ohm}}},
@@ -236,32 +240,6 @@ Json lot_stats_report(const std::string& lot, const std::vector<fitting::LotPart
           {"nominal",
            {{"is_a", st.nominal.is_a}, {"n", st.nominal.n}, {"rs_ohm", st.nominal.rs_ohm}, {"cj0_f", number_or_null(st.nominal_cj0_f)},
             {"vj_v", number_or_null(st.nominal_vj_v)}, {"m", number_or_null(st.nominal_m)}}}};
-}
-
-fitting::PartModel lot_nominal_model(const std::string& lot, const std::vector<fitting::LotPart>& parts) {
-  fitting::LotStatsOptions options;
-  options.currents_a.clear();
-  const fitting::LotStats st = fitting::lot_statistics(parts, options).front();
-  fitting::PartModel m;
-  m.part_label = lot + "_NOM";
-  m.lot = lot;
-  m.temp_k = parts.front().temp_k;
-  m.params = st.nominal;
-  m.notes.push_back("lot nominal: median of " + std::to_string(parts.size()) + " fitted parts (IS in log)");
-  if (std::isfinite(st.nominal_cj0_f)) {
-    m.cj0_f = st.nominal_cj0_f;
-    m.vj_v = st.nominal_vj_v;
-    m.m = st.nominal_m;
-    std::size_t with_cap = 0;
-    for (const auto& p : parts) with_cap += std::isfinite(p.cj0_f) && p.cj0_f > 0;
-    m.notes.push_back("CJO, VJ, M: median of the " + std::to_string(with_cap) + " parts with off-state readings");
-  }
-  for (const auto& q : st.quantities) {
-    char line[160];
-    std::snprintf(line, sizeof line, "lot spread %s: std dev %.4g, range %.4g .. %.4g", q.name.c_str(), q.std_dev, q.min, q.max);
-    m.notes.push_back(line);
-  }
-  return m;
 }
 
 }  // namespace junco::daemon

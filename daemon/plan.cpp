@@ -11,11 +11,10 @@ namespace junco::daemon {
 
 namespace {
 
-[[noreturn]] void bad(const std::string& field, const std::string& problem) {
-  throw RequestError(RpcCode::invalid_params, field + ": " + problem, Json{{"field", field}});
-}
-[[noreturn]] void refuse(const std::string& message, const std::string& limit = "") {
-  throw RequestError(RpcCode::plan_refused, message, limit.empty() ? Json(nullptr) : Json{{"limit", limit}});
+[[noreturn]] void bad(const std::string& field, const std::string& problem) { throw BadInput(field, problem); }
+// limit: the bench's limit the plan breaks; field: the plan's value that breaks it.
+[[noreturn]] void refuse(const std::string& message, const std::string& limit = "", const std::string& field = "") {
+  throw PlanRefused(message, limit, field);
 }
 
 std::string num(double x) {
@@ -310,15 +309,16 @@ void check_plan(const Plan& p, const Config& c) {
     refuse(std::string("sweep start/stop must be ") + (s.mode == SweepMode::voltage ? ">= 0 V (reverse bias goes in reverse_v)" : "> 0 A"));
   if (s.spacing == Spacing::log && lo <= 0) refuse(std::string("log spacing needs start and stop > 0 ") + unit);
   const std::string hi_name = hi == s.stop ? "stop" : "start";
+  const std::string hi_field = "plan.sweep." + hi_name;
 
   const double i_lim = compliance_a(p, c);
   if (i_lim > lim.current_limit_a)
     refuse("sweep compliance_a " + num(i_lim) + " A exceeds safety limit current_limit_a = " + num(lim.current_limit_a) + " A",
-           "current_limit_a");
+           "current_limit_a", "plan.sweep.compliance_a");
   const double r_total = c.fixture.bias_resistor_ohm + c.fixture.dc_return_ohm;
   if (s.mode == SweepMode::voltage) {
     if (hi > lim.max_supply_v)
-      refuse("sweep " + hi_name + " " + num(hi) + " V exceeds safety limit max_supply_v = " + num(lim.max_supply_v) + " V", "max_supply_v");
+      refuse("sweep " + hi_name + " " + num(hi) + " V exceeds safety limit max_supply_v = " + num(lim.max_supply_v) + " V", "max_supply_v", hi_field);
     // The part's current is at most the compliance and at most V/R; its
     // voltage at most the supply and (assumed) vf_max_v.
     const double i_max = r_total > 0 ? std::min(i_lim, hi / r_total) : i_lim;
@@ -326,28 +326,28 @@ void check_plan(const Plan& p, const Config& c) {
     if (p_max > lim.max_power_w)
       refuse("sweep " + hi_name + " " + num(hi) + " V may put " + num(p_max) + " W in the part (vf_max_v " + num(p.vf_max_v) + " V × " +
                  num(i_max) + " A), exceeding safety limit max_power_w = " + num(lim.max_power_w) + " W",
-             "max_power_w");
+             "max_power_w", hi_field);
   } else {
     if (hi > lim.current_limit_a)
       refuse("sweep " + hi_name + " " + num(hi) + " A exceeds safety limit current_limit_a = " + num(lim.current_limit_a) + " A",
-             "current_limit_a");
+             "current_limit_a", hi_field);
     if (hi > i_lim) refuse("sweep " + hi_name + " " + num(hi) + " A exceeds the plan's compliance_a = " + num(i_lim) + " A");
     const double p_max = p.vf_max_v * hi;
     if (p_max > lim.max_power_w)
       refuse("sweep " + hi_name + " " + num(hi) + " A may put " + num(p_max) + " W in the part (vf_max_v " + num(p.vf_max_v) +
                  " V × " + num(hi) + " A), exceeding safety limit max_power_w = " + num(lim.max_power_w) + " W",
-             "max_power_w");
+             "max_power_w", hi_field);
     const double v_needed = hi * r_total;  // even with no drop across the part
     if (v_needed > lim.max_supply_v)
       refuse("sweep " + hi_name + " " + num(hi) + " A needs at least " + num(v_needed) + " V across " + num(r_total) +
                  " Ω, exceeding safety limit max_supply_v = " + num(lim.max_supply_v) + " V",
-             "max_supply_v");
+             "max_supply_v", hi_field);
   }
   for (double r : p.reverse_v) {
     if (r > lim.max_reverse_v)
-      refuse("reverse_v " + num(r) + " V exceeds safety limit max_reverse_v = " + num(lim.max_reverse_v) + " V", "max_reverse_v");
+      refuse("reverse_v " + num(r) + " V exceeds safety limit max_reverse_v = " + num(lim.max_reverse_v) + " V", "max_reverse_v", "plan.reverse_v");
     if (r > lim.max_supply_v)
-      refuse("reverse_v " + num(r) + " V exceeds safety limit max_supply_v = " + num(lim.max_supply_v) + " V", "max_supply_v");
+      refuse("reverse_v " + num(r) + " V exceeds safety limit max_supply_v = " + num(lim.max_supply_v) + " V", "max_supply_v", "plan.reverse_v");
   }
   if (p.ac) {
     if (!c.instrument("siggen") || !c.instrument("levelmeter")) refuse("plan.ac needs a siggen and a levelmeter in the bench config");

@@ -1,19 +1,23 @@
 // A job's plan: which parts, which sweep, and the checks it must pass before
-// it is queued. parse_plan() checks types and presence (RequestError
-// invalid_params naming the field, e.g. "plan.sweep.count"); check_plan()
-// checks ranges and every safety limit of the bench (RequestError
-// plan_refused naming the limit and the value). Format: docs/daemon-core.md.
+// it is queued. parse_plan() checks types and presence (BadInput naming the
+// field, e.g. "plan.sweep.count"); check_plan() checks ranges and every safety
+// limit of the bench (PlanRefused naming the limit and the plan's field).
+// Both are domain errors (daemon/errors.hpp). Format: docs/daemon-core.md.
 #pragma once
 
 #include "daemon/config.hpp"
-#include "daemon/service.hpp"
+#include "daemon/errors.hpp"
 #include "drivers/roles.hpp"
+
+#include <nlohmann/json.hpp>
 
 #include <optional>
 #include <string>
 #include <vector>
 
 namespace junco::daemon {
+
+using Json = nlohmann::json;
 
 enum class SweepMode { voltage, current };  // set value in V, or a target current in A
 enum class Spacing { linear, log };
@@ -103,8 +107,8 @@ struct Step {
   double dwell_s = 0;          // series dwell: time from output on to the reading
 };
 
-Plan parse_plan(const Json& plan);                  // throws RequestError(invalid_params)
-// Throws RequestError(plan_refused); checks the size limits (c.limits) by
+Plan parse_plan(const Json& plan);                  // throws BadInput
+// Throws PlanRefused; checks the size limits (c.limits) by
 // arithmetic, before anything is expanded.
 void check_plan(const Plan& plan, const Config& c);
 Json to_json(const Plan& plan);                     // normalized (round-trips through parse_plan)

@@ -448,7 +448,7 @@ TEST_CASE("cancel and shutdown stop a running job with outputs off") {
   CHECK(lab.slot == 0);
   { std::lock_guard l(lab.m); check_safety_order(lab.log); }
   Store s(dir.path / "junco.db");
-  CHECK(s.job(job)->state == "queued");  // resumable plan: back in the queue for the next start
+  CHECK(s.job(job)->state == JobState::queued);  // resumable plan: back in the queue for the next start
 }
 
 TEST_CASE("supply in current limit: the point is flagged, the sweep goes no higher, the fit leaves it out") {
@@ -523,8 +523,8 @@ TEST_CASE("a plan that forbids resuming is marked interrupted after a restart") 
     Store s(cfg.paths.database);
     Json p = plan(5, 0.0, 1);
     p["resume"] = false;
-    const Id id = s.insert_job(p, 5, 0, 0);
-    s.set_job_state(id, "running");  // as a dead daemon left it
+    const Id id = s.insert_job(parse_plan(p), 5, 0, 0);
+    s.set_job_state(id, JobState::running);  // as a dead daemon left it
   }
   FakeLab lab;
   auto svc = make_service(cfg, fake_options(lab));

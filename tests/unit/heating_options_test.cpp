@@ -41,7 +41,7 @@ Json current_plan() {
 std::string refusal(const Json& j) {
   try {
     check_plan(parse_plan(j), bench());
-  } catch (const RequestError& e) {
+  } catch (const DomainError& e) {
     return e.what();
   }
   return "(accepted)";
@@ -141,7 +141,7 @@ TEST_CASE("plan.heating: bad options are refused, naming the key") {
   try {
     parse_plan(with({{"pulse", {{"width_s", 1}}}}));
     FAIL("accepted");
-  } catch (const RequestError& e) {
+  } catch (const DomainError& e) {
     CHECK(std::string(e.what()) == "plan.heating.pulse.width_s: unknown field");
   }
 }
