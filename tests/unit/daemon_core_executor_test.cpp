@@ -1,3 +1,4 @@
+// ctest: RUN_SERIAL (bounds on a job's wall-clock duration)
 // The executor and the Service against in-process fake instruments: the
 // safety order (current limit before output on, outputs off at every end),
 // faults (retried, then paused), cancel, current limit, shutdown, and resume
