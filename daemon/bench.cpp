@@ -17,6 +17,9 @@ drivers::InstrumentSpec spec_of(const InstrumentConfig& ic) {
   s.dialect_path = ic.dialect_path.string();
   s.reply_timeout = std::chrono::milliseconds(ic.reply_timeout_ms);
   s.max_retries = ic.max_retries;
+  s.transport.connect_timeout = std::chrono::milliseconds(ic.connect_timeout_ms);
+  s.level_unit = ic.amplitude_unit;
+  s.impedance_ohm = ic.impedance_ohm;
   return s;
 }
 
@@ -96,14 +99,30 @@ std::string Bench::clear_errors(const std::string& when, Roles roles) noexcept {
 
 namespace {
 
+const char* in_words(drivers::ErrorKind kind) {
+  switch (kind) {
+    case drivers::ErrorKind::timeout: return "does not answer (no reply in time: off, wrong address or port, or not speaking SCPI on this link)";
+    case drivers::ErrorKind::disconnected: return "cannot be reached (connection refused or dropped: off, wrong address, or another program holds it)";
+    case drivers::ErrorKind::garbled: return "answers garbage (wrong terminator, baud rate or protocol)";
+    case drivers::ErrorKind::instrument: return "reports an error of its own";
+    case drivers::ErrorKind::overrange: return "answers out of range";
+    case drivers::ErrorKind::config: return "refused (wrong instrument for the dialect, or a bad address or dialect file)";
+  }
+  return "cannot be opened";
+}
+
 template <typename Role, typename Open>
-void open_role(const Config& config, const char* role, Open open, std::unique_ptr<Role>& slot, std::vector<std::string>& missing) {
+void open_role(const Config& config, const char* role, Open open, std::unique_ptr<Role>& slot, Bench& b) {
   const auto* ic = config.instrument(role);
   if (!ic) return;  // optional role not configured
   try {
     slot = open(spec_of(*ic));
+  } catch (const drivers::DriverError& e) {
+    b.missing.push_back(std::string(role) + ": " + e.what());
+    b.missing_why[role] = in_words(e.kind());
   } catch (const std::exception& e) {
-    missing.push_back(std::string(role) + ": " + e.what());
+    b.missing.push_back(std::string(role) + ": " + e.what());
+    b.missing_why[role] = "cannot be opened";
   }
 }
 
@@ -111,11 +130,11 @@ void open_role(const Config& config, const char* role, Open open, std::unique_pt
 
 std::unique_ptr<Bench> open_bench(const Config& config) {
   auto b = std::make_unique<Bench>();
-  open_role(config, "source", drivers::open_source, b->source, b->missing);
-  open_role(config, "meter", drivers::open_meter, b->meter, b->missing);
-  open_role(config, "scanner", drivers::open_scanner, b->scanner, b->missing);
-  open_role(config, "siggen", drivers::open_signal_gen, b->siggen, b->missing);
-  open_role(config, "levelmeter", drivers::open_level_meter, b->levelmeter, b->missing);
+  open_role(config, "source", drivers::open_source, b->source, *b);
+  open_role(config, "meter", drivers::open_meter, b->meter, *b);
+  open_role(config, "scanner", drivers::open_scanner, b->scanner, *b);
+  open_role(config, "siggen", drivers::open_signal_gen, b->siggen, *b);
+  open_role(config, "levelmeter", drivers::open_level_meter, b->levelmeter, *b);
   return b;
 }
 

@@ -108,6 +108,7 @@ class CoreService final : public Service {
   void build_table() {
     table_["daemon.status"] = [this](const Json&, const Caller&) { return status(); };
     table_["bench.describe"] = [this](const Json&, const Caller&) { return describe(); };
+    table_["bench.check"] = [this](const Json&, const Caller&) { return executor_.check_bench(); };
     table_["job.submit"] = [this](const Json& p, const Caller& c) { return submit(p, c); };
     table_["plan.check"] = [this](const Json& p, const Caller&) { return check_plan_dry(p); };
     table_["job.list"] = [this](const Json& p, const Caller&) { return list_jobs(p); };

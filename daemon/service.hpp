@@ -5,6 +5,7 @@
 // Methods (params and result are JSON objects; documented in schema/api/):
 //   daemon.status     {}                          → version, uptime, running job, queue
 //   bench.describe    {}                          → instruments (+ *IDN?), fixture, safety limits
+//   bench.check       {}                          → each instrument opened, identified, one safe reading; why not (`junco bench`)
 //   job.submit        {plan}                      → {job_id}; refused plans → RequestError(plan_refused)
 //   job.list          {state?}                    → {jobs:[...]}
 //   job.get           {job_id}                    → job

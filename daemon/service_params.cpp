@@ -5,7 +5,8 @@ namespace junco::daemon {
 
 const std::map<std::string, std::set<std::string>>& known_params() {
   static const std::map<std::string, std::set<std::string>> table{
-      {"daemon.status", {}},           {"bench.describe", {}},           {"job.submit", {"plan"}},
+      {"daemon.status", {}},           {"bench.describe", {}},           {"bench.check", {}},
+      {"job.submit", {"plan"}},
       {"plan.check", {"plan"}},
       {"job.list", {"state"}},         {"job.get", {"job_id"}},          {"job.cancel", {"job_id"}},
       {"job.pause", {"job_id"}},       {"job.resume", {"job_id"}},       {"lot.list", {}},

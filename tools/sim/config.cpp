@@ -16,8 +16,8 @@ const std::map<std::string, std::vector<std::string>>& known_families() {
       {"source", {"scpi-source", "psu-compact", "scpi99"}},
       {"meter", {"scpi-dmm", "dmm-prefixed", "scpi99"}},
       {"scanner", {"scpi-switch", "relay-bank", "scpi99"}},
-      {"siggen", {"scpi-gen", "gen-channel"}},
-      {"levelmeter", {"scpi-acv", "scope-meas"}}};
+      {"siggen", {"scpi-gen", "gen-channel", "gen-vpp"}},
+      {"levelmeter", {"scpi-acv", "scope-meas", "acv-dbm"}}};
   return f;
 }
 
@@ -280,8 +280,10 @@ Options:
                          source     scpi-source | psu-compact
                          meter      scpi-dmm | dmm-prefixed
                          scanner    scpi-switch | relay-bank
-                         siggen     scpi-gen | gen-channel
-                         levelmeter scpi-acv | scope-meas
+                         siggen     scpi-gen | gen-channel | gen-vpp
+                                    (gen-vpp: amplitude in Vpp only)
+                         levelmeter scpi-acv | scope-meas | acv-dbm
+                                    (acv-dbm: MEAS:POW:AC? in dBm into 50 ohm)
   --serial ROLE        put ROLE on a pseudo-terminal (serial:/dev/pts/N)
   --settle-ms MS       time constant of every reading after a change
                        (first order, wall clock; default 2, 0 = instant)
