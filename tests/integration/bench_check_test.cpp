@@ -27,6 +27,8 @@ Json check(test::BenchDaemon& b, double* took_s = nullptr) {
   if (took_s) *took_s = std::chrono::duration<double>(Clock::now() - t0).count();
   INFO(reply.dump().substr(0, 1500));
   REQUIRE(reply.contains("result"));
+  // Every answer, whatever the bench's state, is what schema/api/bench.check.json says.
+  CHECK(test::schema_problem(test::api_schema("bench.check")["result"], reply["result"]) == "");
   return reply["result"];
 }
 
