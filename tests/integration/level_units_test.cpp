@@ -8,6 +8,7 @@
 // the readings are stored as Vrms, the run records both instruments' units,
 // and the fits (the electro-thermal fit, which uses the AC readings) agree
 // with the native bench's within their standard errors.
+#include "tests/integration/drivers_test_support.hpp"
 #include "tests/support/bench_daemon.hpp"
 
 #include <catch2/catch.hpp>
@@ -118,4 +119,30 @@ TEST_CASE("a Vpp-only generator and a dBm-only meter fit as the native bench doe
                    << " combined SE apart)");
     }
   }
+}
+
+// The bench config may state an instrument's unit too (a generic dialect
+// that names the unit, {unit}, on a generator set to take Vpp): juncod's
+// driver then sends VOLT:UNIT VPP and the plan's Vrms converted, and a level
+// meter set to read Vrms reads Vrms even when Vpp is asked.
+TEST_CASE("the bench config's amplitude_unit overrides the dialect's", "[drivers][levels]") {
+  junco::test::SimProcess sim({"--settle-ms", "0", "--family", "levelmeter=scope-meas"});
+  junco::test::TrafficLog gen_log;
+  auto gen_spec = junco::test::sim_spec(sim, "siggen", &gen_log);
+  gen_spec.level_unit = junco::drivers::LevelUnit::vpp;
+  auto gen = junco::drivers::open_signal_gen(gen_spec);
+  CHECK(gen->amplitude_units() == "vpp");
+  gen->set_amplitude(0.01, junco::drivers::LevelUnit::vrms);
+  CHECK(gen_log.contains("VOLT:UNIT VPP"));
+  CHECK(gen_log.contains("VOLT 0.02828427125"));  // 2·√2 · 10 mVrms, 10 significant digits
+  CHECK(sim.control("state?")["siggen"]["emf_vpp"].get<double>() == Approx(0.02 * std::sqrt(2.0)).epsilon(1e-9));
+
+  auto level_spec = junco::test::sim_spec(sim, "levelmeter");
+  level_spec.level_unit = junco::drivers::LevelUnit::vrms;
+  auto level = junco::drivers::open_level_meter(level_spec);
+  CHECK(level->level_units() == "vrms");
+  CHECK(level->measure_level(1, junco::drivers::LevelUnit::vpp).unit == junco::drivers::LevelUnit::vrms);
+  // Without the override the scope reads what is asked.
+  auto plain = junco::drivers::open_level_meter(junco::test::sim_spec(sim, "levelmeter"));
+  CHECK(plain->measure_level(1, junco::drivers::LevelUnit::vpp).unit == junco::drivers::LevelUnit::vpp);
 }
