@@ -42,7 +42,7 @@ struct InstrumentConfig {
   // Siggen / levelmeter: the amplitude unit this instrument is set to take or
   // read (overrides its dialect's; drivers/levels.hpp), and the resistance
   // its dBm are stated into (0 = the dialect's).
-  std::optional<drivers::LevelUnit> amplitude_unit;
+  std::optional<drivers::LevelUnit> amplitude_unit{};
   double impedance_ohm = 0.0;
   // Not in the file: the bench check (`junco bench`) shortens it.
   int connect_timeout_ms = 2000;

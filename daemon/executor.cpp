@@ -681,26 +681,43 @@ Json identity_json(const drivers::Identity& id) {
           {"idn", id.manufacturer + "," + id.model + "," + id.serial + "," + id.firmware}};
 }
 
-// One reading of the bench check: a number with its unit, or the
-// instrument's text, or why it could not be taken.
-template <typename F>
-void reading(Json& out, const char* name, const char* unit, F&& take) {
-  Json r{{"name", name}};
-  try {
-    take(r);
-    if (unit) r["unit"] = unit;
-  } catch (const std::exception& e) {
-    r["error"] = e.what();
+// The readings of one instrument in the bench check. After a reading that
+// timed out the rest are not tried: an instrument that went mute after its
+// *IDN? costs one reply timeout, not one per reading.
+struct CheckReadings {
+  Json out = Json::array();
+  bool mute = false;
+
+  // One reading: a number with its unit, or the instrument's text, or why it
+  // could not be taken.
+  template <typename F>
+  void take(const char* name, const char* unit, F&& read) {
+    Json r{{"name", name}};
+    if (mute) {
+      r["error"] = "not tried: the instrument stopped answering";
+    } else {
+      try {
+        read(r);
+        if (unit) r["unit"] = unit;
+      } catch (const drivers::DriverError& e) {
+        r["error"] = e.what();
+        mute = e.kind() == drivers::ErrorKind::timeout;
+      } catch (const std::exception& e) {
+        r["error"] = e.what();
+      }
+    }
+    out.push_back(std::move(r));
   }
-  out.push_back(std::move(r));
-}
+};
 
 // What the check reads from each role: queries only, nothing that switches
 // or programs anything (the outputs stay as they are, normally off).
 Json role_readings(const std::string& role, Bench& b) {
-  Json out = Json::array();
+  CheckReadings readings;
+  Json& out = readings.out;
+  auto reading = [&](const char* name, const char* unit, auto&& read) { readings.take(name, unit, read); };
   auto state = [&](const char* name, drivers::Instrument& inst) {
-    reading(out, name, nullptr, [&](Json& r) {
+    reading(name, nullptr, [&](Json& r) {
       const auto text = inst.query_state();
       r["text"] = text ? Json(*text) : Json(nullptr);
       if (!text) r["note"] = "the dialect has no query_state";
@@ -708,17 +725,17 @@ Json role_readings(const std::string& role, Bench& b) {
   };
   if (role == "source" && b.source) {
     state("output state", *b.source);
-    reading(out, "voltage readback", "V", [&](Json& r) { r["value"] = b.source->measure_voltage_v(); });
-    reading(out, "current readback", "A", [&](Json& r) { r["value"] = b.source->measure_current_a(); });
+    reading("voltage readback", "V", [&](Json& r) { r["value"] = b.source->measure_voltage_v(); });
+    reading("current readback", "A", [&](Json& r) { r["value"] = b.source->measure_current_a(); });
   } else if (role == "meter" && b.meter) {
-    reading(out, "dc voltage", "V", [&](Json& r) { r["value"] = b.meter->measure_dc_voltage_v(); });
+    reading("dc voltage", "V", [&](Json& r) { r["value"] = b.meter->measure_dc_voltage_v(); });
   } else if (role == "scanner" && b.scanner) {
     state("channel state", *b.scanner);
   } else if (role == "siggen" && b.siggen) {
     state("output state", *b.siggen);
     out.push_back({{"name", "amplitude unit"}, {"text", b.siggen->amplitude_units()}});
   } else if (role == "levelmeter" && b.levelmeter) {
-    reading(out, "level channel 1", nullptr, [&](Json& r) {
+    reading("level channel 1", nullptr, [&](Json& r) {
       const drivers::Level l = b.levelmeter->measure_level(1, drivers::LevelUnit::vrms);
       r["value"] = l.value;
       r["unit"] = drivers::to_string(l.unit);
