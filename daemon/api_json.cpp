@@ -39,6 +39,7 @@ Json to_json(const RunFixture& f) {
   put("load_ohm", f.load_ohm);
   if (!f.current_from.empty()) out["current_from"] = f.current_from;
   put("stray_c_f", f.stray_c_f);
+  if (f.ac_units) out["ac_units"] = {{"plan", f.ac_units->plan}, {"siggen", f.ac_units->siggen}, {"levelmeter", f.ac_units->levelmeter}};
   return out;
 }
 

@@ -22,6 +22,9 @@ drivers::InstrumentSpec spec_of(const InstrumentConfig& ic, const Log& traffic) 
     s.traffic_log = [traffic, role = ic.role](std::string_view direction, std::string_view line) {
       traffic.debug("scpi " + role + " " + std::string(direction) + " " + std::string(line));
     };
+  s.transport.connect_timeout = std::chrono::milliseconds(ic.connect_timeout_ms);
+  s.level_unit = ic.amplitude_unit;
+  s.impedance_ohm = ic.impedance_ohm;
   return s;
 }
 
@@ -101,15 +104,30 @@ std::string Bench::clear_errors(const std::string& when, Roles roles) noexcept {
 
 namespace {
 
+const char* in_words(drivers::ErrorKind kind) {
+  switch (kind) {
+    case drivers::ErrorKind::timeout: return "does not answer (no reply in time: off, wrong address or port, or not speaking SCPI on this link)";
+    case drivers::ErrorKind::disconnected: return "cannot be reached (connection refused or dropped: off, wrong address, or another program holds it)";
+    case drivers::ErrorKind::garbled: return "answers garbage (wrong terminator, baud rate or protocol)";
+    case drivers::ErrorKind::instrument: return "reports an error of its own";
+    case drivers::ErrorKind::overrange: return "answers out of range";
+    case drivers::ErrorKind::config: return "refused (wrong instrument for the dialect, or a bad address or dialect file)";
+  }
+  return "cannot be opened";
+}
+
 template <typename Role, typename Open>
-void open_role(const Config& config, const Log& traffic, const char* role, Open open, std::unique_ptr<Role>& slot,
-               std::vector<std::string>& missing) {
+void open_role(const Config& config, const Log& traffic, const char* role, Open open, std::unique_ptr<Role>& slot, Bench& b) {
   const auto* ic = config.instrument(role);
   if (!ic) return;  // optional role not configured
   try {
     slot = open(spec_of(*ic, traffic));
+  } catch (const drivers::DriverError& e) {
+    b.missing.push_back(std::string(role) + ": " + e.what());
+    b.missing_why[role] = in_words(e.kind());
   } catch (const std::exception& e) {
-    missing.push_back(std::string(role) + ": " + e.what());
+    b.missing.push_back(std::string(role) + ": " + e.what());
+    b.missing_why[role] = "cannot be opened";
   }
 }
 
@@ -117,11 +135,11 @@ void open_role(const Config& config, const Log& traffic, const char* role, Open 
 
 std::unique_ptr<Bench> open_bench(const Config& config, const Log& traffic) {
   auto b = std::make_unique<Bench>();
-  open_role(config, traffic, "source", drivers::open_source, b->source, b->missing);
-  open_role(config, traffic, "meter", drivers::open_meter, b->meter, b->missing);
-  open_role(config, traffic, "scanner", drivers::open_scanner, b->scanner, b->missing);
-  open_role(config, traffic, "siggen", drivers::open_signal_gen, b->siggen, b->missing);
-  open_role(config, traffic, "levelmeter", drivers::open_level_meter, b->levelmeter, b->missing);
+  open_role(config, traffic, "source", drivers::open_source, b->source, *b);
+  open_role(config, traffic, "meter", drivers::open_meter, b->meter, *b);
+  open_role(config, traffic, "scanner", drivers::open_scanner, b->scanner, *b);
+  open_role(config, traffic, "siggen", drivers::open_signal_gen, b->siggen, *b);
+  open_role(config, traffic, "levelmeter", drivers::open_level_meter, b->levelmeter, *b);
   return b;
 }
 

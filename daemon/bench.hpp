@@ -8,6 +8,7 @@
 #include "drivers/roles.hpp"
 
 #include <functional>
+#include <map>
 #include <memory>
 #include <string>
 #include <string_view>
@@ -31,6 +32,10 @@ struct Bench {
   // Instruments of the config that could not be opened ("scanner: why");
   // a bench with any is incomplete: it can be made safe, never run a job.
   std::vector<std::string> missing;
+  // The same per role in a few words for people ("does not answer",
+  // "cannot be reached", "refused: wrong instrument or dialect"), from the
+  // driver's error kind; `junco bench` prints it before the details.
+  std::map<std::string, std::string> missing_why;
   // Where make_safe() and clear_errors() report retries and stale errors
   // (one line each); may be empty.
   Log log;  // daemon/log.hpp

@@ -1,6 +1,7 @@
 #include "daemon/config.hpp"
 
 #include "daemon/log.hpp"
+#include "drivers/levels.hpp"
 #include "fitting/json_limits.hpp"
 #include "lab/pg.hpp"  // conninfo_problem
 
@@ -94,7 +95,7 @@ fs::path resolve(const fs::path& p, const fs::path& dir) { return p.is_absolute(
 
 InstrumentConfig parse_instrument(const Checker& c, const Json& obj, const std::string& role, const std::string& pointer,
                                   const fs::path& dir) {
-  c.only_keys(obj, pointer, {"address", "dialect", "reply_timeout_ms", "max_retries"});
+  c.only_keys(obj, pointer, {"address", "dialect", "reply_timeout_ms", "max_retries", "amplitude_unit", "impedance_ohm"});
   InstrumentConfig ic;
   ic.role = role;
   ic.address = c.string(obj, "address", pointer, "", true);
@@ -105,6 +106,16 @@ InstrumentConfig parse_instrument(const Checker& c, const Json& obj, const std::
   ic.dialect_path = *found;
   ic.reply_timeout_ms = c.integer(obj, "reply_timeout_ms", pointer, 2000, 1, 600000);
   ic.max_retries = c.integer(obj, "max_retries", pointer, 2, 0, 20);
+  if (obj.contains("amplitude_unit")) {
+    if (role != "siggen" && role != "levelmeter") c.fail(pointer + "/amplitude_unit", "only siggen and levelmeter take an amplitude unit");
+    const std::string u = c.string(obj, "amplitude_unit", pointer, "", true);
+    ic.amplitude_unit = drivers::parse_level_unit(u);
+    if (!ic.amplitude_unit) c.fail(pointer + "/amplitude_unit", "unknown unit \"" + u + "\" (known: vpp, vrms, dbm)");
+  }
+  if (obj.contains("impedance_ohm")) {
+    if (role != "siggen" && role != "levelmeter") c.fail(pointer + "/impedance_ohm", "only siggen and levelmeter take impedance_ohm");
+    ic.impedance_ohm = c.number(obj, "impedance_ohm", pointer, 0.0, true, 0.0, false);
+  }
   return ic;
 }
 

@@ -5,6 +5,7 @@
 // File format: docs/daemon-core.md and tools/examples/bench.jsonc.
 #pragma once
 
+#include "drivers/roles.hpp"
 #include "fitting/extract.hpp"
 
 #include <nlohmann/json.hpp>
@@ -38,6 +39,13 @@ struct InstrumentConfig {
   std::filesystem::path dialect_path; // resolved, existing file
   int reply_timeout_ms = 2000;
   int max_retries = 2;                // driver-level retries per operation
+  // Siggen / levelmeter: the amplitude unit this instrument is set to take or
+  // read (overrides its dialect's; drivers/levels.hpp), and the resistance
+  // its dBm are stated into (0 = the dialect's).
+  std::optional<drivers::LevelUnit> amplitude_unit{};
+  double impedance_ohm = 0.0;
+  // Not in the file: the bench check (`junco bench`) shortens it.
+  int connect_timeout_ms = 2000;
 };
 
 // Where the diode's voltage and current are read.

@@ -130,6 +130,8 @@ class CoreService final : public Service {
             {"lab", lab_.status()}};
   }
 
+  Json check_bench(const Json&, const Caller&) { return executor_.check_bench(); }
+
   Json describe(const Json&, const Caller&) {
     Json instruments = Json::array();
     const Json ids = executor_.identities();

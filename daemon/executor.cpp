@@ -5,6 +5,7 @@
 #include "daemon/part_analysis.hpp"
 
 #include "drivers/errors.hpp"
+#include "drivers/levels.hpp"
 #include "fitting/electrothermal_fit.hpp"
 #include "fitting/extract.hpp"
 
@@ -227,7 +228,12 @@ class JobRun {
   void run_part(const PartSpec& part) {
     const Id lot_id = store_.ensure_lot(plan_.lot);
     const Id part_id = store_.ensure_part(lot_id, part.label, part.slot);
-    const RunFixture fixture = run_fixture(cfg_.fixture);
+    RunFixture fixture = run_fixture(cfg_.fixture);
+    // What the AC instruments take and read, kept with the run: the plan's
+    // amplitude was converted to the generator's unit, and the readings'
+    // ac_unit says what the meter measured.
+    if (plan_.ac && bench_.siggen && bench_.levelmeter)
+      fixture.ac_units = AcUnits{drivers::to_string(plan_.ac->unit), bench_.siggen->amplitude_units(), bench_.levelmeter->level_units()};
     const RunRecord run = store_.ensure_run(job_id_, part_id, part.slot, fixture, plan_.temp_k);
     part_label_ = part.label;
     part_id_ = part_id;
@@ -385,10 +391,17 @@ class JobRun {
       siggen_on_ = true;
     }
     wait(plan_.ac->settle_s);
-    p.ac_unit = plan_.ac->unit == drivers::LevelUnit::vrms ? "vrms" : "vpp";
     p.freq_hz = step.freq_hz;
-    p.ac_in_v = bench_.levelmeter->measure_level(1, plan_.ac->unit);
-    p.ac_out_v = bench_.levelmeter->measure_level(2, plan_.ac->unit);
+    // Stored in the unit the meter measured (a Vrms-only meter under a Vpp
+    // plan gives Vrms, labelled so; drivers/levels.hpp), never relabelled.
+    const drivers::Level in = bench_.levelmeter->measure_level(1, plan_.ac->unit);
+    const drivers::Level out = bench_.levelmeter->measure_level(2, plan_.ac->unit);
+    if (in.unit != out.unit)
+      throw drivers::DriverError(drivers::ErrorKind::config, std::string("levelmeter answered channel 1 in ") + drivers::to_string(in.unit) +
+                                                                 " and channel 2 in " + drivers::to_string(out.unit));
+    p.ac_unit = drivers::to_string(in.unit);
+    p.ac_in_v = in.value;
+    p.ac_out_v = out.value;
     p.supply_v = supply_v_;
   }
 
@@ -776,10 +789,7 @@ void Executor::identify() {
       log_.warn(std::string("bench: ") + role + " *IDN? failed: " + e.what());
       return;
     }
-    {
-      std::lock_guard lock(ident_mutex_);
-      identities_[role] = {{"manufacturer", id.manufacturer}, {"model", id.model}, {"serial", id.serial}, {"firmware", id.firmware}};
-    }
+    note_identity(role, id);
     try {
       const auto* ic = config_.instrument(role);
       store_.record_instrument(role, ic ? ic->address : "", id.manufacturer, id.model, id.serial, id.firmware);
@@ -793,6 +803,226 @@ void Executor::identify() {
   one("scanner", bench_->scanner.get());
   one("siggen", bench_->siggen.get());
   one("levelmeter", bench_->levelmeter.get());
+}
+
+void Executor::note_identity(const std::string& role, const drivers::Identity& id) {
+  {
+    std::lock_guard lock(ident_mutex_);
+    identities_[role] = {{"manufacturer", id.manufacturer}, {"model", id.model}, {"serial", id.serial}, {"firmware", id.firmware}};
+  }
+  const std::string idn = id.manufacturer + "," + id.model + "," + id.serial + "," + id.firmware;
+  if (logged_identity_[role] == idn) return;  // reopened, same instrument: said already
+  logged_identity_[role] = idn;
+  const auto* ic = config_.instrument(role);
+  log_("bench: " + role + " is " + idn + (ic ? " at " + ic->address + " (dialect " + ic->dialect_path.filename().string() + ")" : ""));
+}
+
+namespace {
+
+double seconds_since(Clock::time_point t0) { return std::chrono::duration<double>(Clock::now() - t0).count(); }
+
+Json identity_json(const drivers::Identity& id) {
+  return {{"manufacturer", id.manufacturer}, {"model", id.model}, {"serial", id.serial}, {"firmware", id.firmware},
+          {"idn", id.manufacturer + "," + id.model + "," + id.serial + "," + id.firmware}};
+}
+
+// The readings of one instrument in the bench check. After a reading that
+// timed out the rest are not tried: an instrument that went mute after its
+// *IDN? costs one reply timeout, not one per reading.
+struct CheckReadings {
+  Json out = Json::array();
+  bool mute = false;
+
+  // One reading: a number with its unit, or the instrument's text, or why it
+  // could not be taken.
+  template <typename F>
+  void take(const char* name, const char* unit, F&& read) {
+    Json r{{"name", name}};
+    if (mute) {
+      r["error"] = "not tried: the instrument stopped answering";
+    } else {
+      try {
+        read(r);
+        if (unit) r["unit"] = unit;
+      } catch (const drivers::DriverError& e) {
+        r["error"] = e.what();
+        mute = e.kind() == drivers::ErrorKind::timeout;
+      } catch (const std::exception& e) {
+        r["error"] = e.what();
+      }
+    }
+    out.push_back(std::move(r));
+  }
+};
+
+// What the check reads from each role: queries only, nothing that switches
+// or programs anything (the outputs stay as they are, normally off).
+Json role_readings(const std::string& role, Bench& b) {
+  CheckReadings readings;
+  Json& out = readings.out;
+  auto reading = [&](const char* name, const char* unit, auto&& read) { readings.take(name, unit, read); };
+  auto state = [&](const char* name, drivers::Instrument& inst) {
+    reading(name, nullptr, [&](Json& r) {
+      const auto text = inst.query_state();
+      r["text"] = text ? Json(*text) : Json(nullptr);
+      if (!text) r["note"] = "the dialect has no query_state";
+    });
+  };
+  if (role == "source" && b.source) {
+    state("output state", *b.source);
+    reading("voltage readback", "V", [&](Json& r) { r["value"] = b.source->measure_voltage_v(); });
+    reading("current readback", "A", [&](Json& r) { r["value"] = b.source->measure_current_a(); });
+  } else if (role == "meter" && b.meter) {
+    reading("dc voltage", "V", [&](Json& r) { r["value"] = b.meter->measure_dc_voltage_v(); });
+  } else if (role == "scanner" && b.scanner) {
+    state("channel state", *b.scanner);
+  } else if (role == "siggen" && b.siggen) {
+    state("output state", *b.siggen);
+    out.push_back({{"name", "amplitude unit"}, {"text", b.siggen->amplitude_units()}});
+  } else if (role == "levelmeter" && b.levelmeter) {
+    reading("level channel 1", nullptr, [&](Json& r) {
+      const drivers::Level l = b.levelmeter->measure_level(1, drivers::LevelUnit::vrms);
+      r["value"] = l.value;
+      r["unit"] = drivers::to_string(l.unit);
+    });
+    out.push_back({{"name", "reads"}, {"text", b.levelmeter->level_units()}});
+  }
+  return out;
+}
+
+}  // namespace
+
+Json Executor::known_bench(const char* why) const {
+  Json instruments = Json::array();
+  const Json ids = identities();
+  for (const auto& [role, ic] : config_.bench) {
+    Json id = ids.contains(role) ? ids[role] : Json(nullptr);
+    if (id.is_object())
+      id["idn"] = id.value("manufacturer", "") + "," + id.value("model", "") + "," + id.value("serial", "") + "," + id.value("firmware", "");
+    instruments.push_back({{"role", role}, {"address", ic.address}, {"dialect", ic.dialect_path.filename().string()},
+                           {"identity", id}, {"readings", Json::array()}, {"problem", nullptr}, {"elapsed_s", 0.0}});
+  }
+  const std::string problem = bench_problem();
+  return {{"checked", false}, {"note", why}, {"bench_open", bench_open()},
+          {"bench_problem", problem.empty() ? Json(nullptr) : Json(problem)}, {"instruments", instruments}};
+}
+
+Json Executor::check_bench() {
+  const auto t0 = Clock::now();
+  // Generous upper bound of one check: every instrument mute (connect +
+  // one reply), plus the bench's reopen afterwards with its own timeouts.
+  const auto per = kCheckConnectTimeout + 4 * kCheckReplyTimeout;
+  auto limit = per * static_cast<long>(config_.bench.size()) + std::chrono::seconds(2);
+  for (const auto& [role, ic] : config_.bench)
+    limit += std::chrono::milliseconds(static_cast<long>(ic.reply_timeout_ms) * (1 + ic.max_retries) + ic.connect_timeout_ms);
+  std::unique_lock lock(check_mutex_);
+  const long ticket = check_started_ + 1;  // a check not yet started serves every caller waiting for it
+  check_asked_ = std::max(check_asked_, ticket);
+  queue_.nudge();
+  while (check_done_ < ticket) {
+    if (check_started_ < ticket) {
+      if (const auto job = queue_.running()) {
+        Json out = known_bench("a job holds the bench: showing what is known, nothing was asked of the instruments");
+        out["held_by_job"] = *job;
+        return out;
+      }
+    }
+    if (Clock::now() - t0 > limit)
+      throw RequestError(RpcCode::unavailable, "bench check: no answer from the executor within " +
+                                                      std::to_string(std::chrono::duration_cast<std::chrono::seconds>(limit).count()) + " s");
+    check_cv_.wait_for(lock, std::chrono::milliseconds(100));
+    queue_.nudge();  // in case the executor was between waits when asked
+  }
+  Json out = check_result_;
+  out["held_by_job"] = nullptr;
+  return out;
+}
+
+void Executor::serve_check() {
+  long ticket;
+  {
+    std::lock_guard lock(check_mutex_);
+    if (check_asked_ <= check_done_) return;
+    ticket = check_started_ = check_asked_;
+  }
+  Json result;
+  try {
+    result = run_check();
+  } catch (const std::exception& e) {
+    result = known_bench("the check itself failed");
+    result["bench_problem"] = std::string("bench check failed: ") + e.what();
+  }
+  {
+    std::lock_guard lock(check_mutex_);
+    check_result_ = std::move(result);
+    check_done_ = ticket;
+  }
+  check_cv_.notify_all();
+}
+
+// Executor thread, no job running. Each instrument is opened on its own
+// (a one-instrument copy of the config, check timeouts, no retries) so one
+// mute instrument costs its own timeout only, and its time is measured.
+Json Executor::run_check() {
+  const auto t0 = Clock::now();
+  const bool was_open = bench_ != nullptr;
+  // Many instruments take one link at a time: close ours first. The idle
+  // bench was made safe after its last job; nothing is switched here.
+  bench_.reset();
+  bench_open_ = false;
+  Json instruments = Json::array();
+  for (const auto& [role, ic] : config_.bench) {
+    const auto ti = Clock::now();
+    Config one = config_;
+    InstrumentConfig quick = ic;
+    quick.reply_timeout_ms = std::min<int>(ic.reply_timeout_ms, static_cast<int>(kCheckReplyTimeout.count()));
+    quick.connect_timeout_ms = std::min<int>(ic.connect_timeout_ms, static_cast<int>(kCheckConnectTimeout.count()));
+    quick.max_retries = 0;
+    one.bench = {{role, quick}};
+    Json entry{{"role", role}, {"address", ic.address}, {"dialect", ic.dialect_path.filename().string()},
+               {"identity", nullptr}, {"readings", Json::array()}, {"problem", nullptr}};
+    try {
+      auto b = open_(one);
+      b->log = log_;
+      if (!b->missing.empty()) {
+        const std::string detail = b->missing.front().substr(role.size() + 2);  // "role: ..." from open_bench
+        const auto why = b->missing_why.find(role);
+        entry["problem"] = (why != b->missing_why.end() ? why->second + ": " : std::string()) + detail;
+      } else {
+        drivers::Instrument* inst = role == "source"    ? static_cast<drivers::Instrument*>(b->source.get())
+                                    : role == "meter"   ? static_cast<drivers::Instrument*>(b->meter.get())
+                                    : role == "scanner" ? static_cast<drivers::Instrument*>(b->scanner.get())
+                                    : role == "siggen"  ? static_cast<drivers::Instrument*>(b->siggen.get())
+                                                        : static_cast<drivers::Instrument*>(b->levelmeter.get());
+        if (inst) {
+          const drivers::Identity id = inst->identify();  // asked at open; not asked again
+          entry["identity"] = identity_json(id);
+          note_identity(role, id);
+          entry["readings"] = role_readings(role, *b);
+        }
+      }
+    } catch (const std::exception& e) {
+      entry["problem"] = std::string("cannot be opened: ") + e.what();
+    }
+    entry["elapsed_s"] = seconds_since(ti);
+    instruments.push_back(std::move(entry));
+  }
+  // Back to the bench jobs use, with the config's own timeouts, when every
+  // instrument answered; else it stays closed with the reason (opening it now
+  // would wait out the config's timeouts and retries on the mute one), and
+  // the next job or make-safe retry opens it as usual.
+  std::string failed;
+  for (const auto& inst : instruments)
+    if (inst["problem"].is_string()) failed += (failed.empty() ? "" : "; ") + inst["role"].get<std::string>() + ": " + inst["problem"].get<std::string>();
+  if (failed.empty()) ensure_bench();
+  else if (was_open) log_bench_problem(LogLevel::warn, "bench: cannot open: " + failed + " (found by the bench check; opened again at the next job or bench check)");
+  const std::string problem = bench_problem();
+  return {{"checked", true},
+          {"bench_open", bench_open()},
+          {"bench_problem", problem.empty() ? Json(nullptr) : Json(problem)},
+          {"instruments", instruments},
+          {"timeouts_ms", {{"connect", kCheckConnectTimeout.count()}, {"reply", kCheckReplyTimeout.count()}}},
+          {"elapsed_s", seconds_since(t0)}};
 }
 
 // Runs a previous juncod marked done without storing their fit (before run
@@ -819,8 +1049,9 @@ void Executor::loop() {
     // While the bench is not known safe, wake every kMakeSafeRetry to try again.
     const auto id = unsafe_ ? queue_.wait_next_for(kMakeSafeRetry) : queue_.wait_next();
     if (queue_.stopping()) break;
+    serve_check();  // asked for by bench.check (queue_.nudge()); before any job claims the bench
     if (!id) {
-      retry_make_safe();
+      if (unsafe_) retry_make_safe();
       continue;
     }
     if (reopen_before_job_) {

@@ -25,6 +25,9 @@
 #include "daemon/store.hpp"
 
 #include <atomic>
+#include <condition_variable>
+#include <map>
+#include <mutex>
 #include <chrono>
 #include <functional>
 #include <memory>
@@ -37,6 +40,12 @@ namespace junco::daemon {
 inline constexpr int kPointAttempts = 4;
 // Pause between make-safe attempts while the bench is not known safe.
 inline constexpr std::chrono::milliseconds kMakeSafeRetry{500};
+// The bench check (`junco bench`) opens each instrument with these, whatever
+// the config says, and no retries: a mute instrument costs at most about
+// connect + reply timeout, one that answers one reply per reading. Chosen to
+// keep each instrument under 2 s (docs/bring-up.md has the measured figures).
+inline constexpr std::chrono::milliseconds kCheckConnectTimeout{500};
+inline constexpr std::chrono::milliseconds kCheckReplyTimeout{700};
 
 using BenchOpener = std::function<std::unique_ptr<Bench>(const Config&)>;
 using LogFn = Log;  // daemon/log.hpp
@@ -68,6 +77,14 @@ class Executor {
 
   // Instruments as last identified (role → {manufacturer, model, ...}); for bench.describe.
   Json identities() const;
+  // bench.check (`junco bench`), from any thread: the executor thread closes
+  // the bench's links, opens each instrument on its own with the check
+  // timeouts, identifies it, takes one reading per role that changes
+  // nothing (supply output state and readback, the meter's DC voltage, the
+  // switch's state, the generator's output state, a level) and reopens the
+  // bench. While a job runs, answers at once from what is known, saying
+  // which job holds the bench. Several callers at once share one check.
+  Json check_bench();
   bool bench_open() const { return bench_open_.load(); }
   // Why the bench is not open or a job cannot start, in words ("" when
   // nothing is wrong): the last problem the executor logged.
@@ -81,6 +98,12 @@ class Executor {
   bool ensure_bench();
   void drop_bench();
   void identify();
+  // Records one identity (bench.describe, the store) and logs it when it is
+  // new or changed.
+  void note_identity(const std::string& role, const drivers::Identity& id);
+  void serve_check();
+  Json run_check();
+  Json known_bench(const char* why) const;
   void refit_runs_without_fit();
   // Records the outcome of a make_safe(): "" = safe, else not known safe.
   void note_safety(const std::string& errors);
@@ -105,6 +128,13 @@ class Executor {
   bool reopen_before_job_ = false;     // after an instrument fault: reconnect before the next job
   mutable std::mutex ident_mutex_;
   Json identities_ = Json::object();
+  std::map<std::string, std::string> logged_identity_;  // executor thread (and before start())
+  // bench.check requests: asked > done while one waits; started = the
+  // ticket being run. Guarded by check_mutex_.
+  std::mutex check_mutex_;
+  std::condition_variable check_cv_;
+  long check_asked_ = 0, check_started_ = 0, check_done_ = 0;
+  Json check_result_;
   std::thread thread_;
 };
 

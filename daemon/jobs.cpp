@@ -1,6 +1,7 @@
 #include "daemon/jobs.hpp"
 
 #include <algorithm>
+#include <utility>
 
 namespace junco::daemon {
 
@@ -102,7 +103,7 @@ std::pair<int, int> JobQueue::recover() {
 std::optional<Id> JobQueue::wait_next() {
   std::unique_lock lock(mutex_);
   for (;;) {
-    if (stop_) return std::nullopt;
+    if (stop_ || std::exchange(nudged_, false)) return std::nullopt;
     if (auto id = store_.next_queued_job()) return id;
     cv_.wait_for(lock, std::chrono::seconds(1));
   }
@@ -112,7 +113,7 @@ std::optional<Id> JobQueue::wait_next_for(std::chrono::duration<double> d) {
   std::unique_lock lock(mutex_);
   const auto until = std::chrono::steady_clock::now() + std::chrono::duration_cast<std::chrono::steady_clock::duration>(d);
   for (;;) {
-    if (stop_) return std::nullopt;
+    if (stop_ || std::exchange(nudged_, false)) return std::nullopt;
     if (auto id = store_.next_queued_job()) return id;
     if (std::chrono::steady_clock::now() >= until) return std::nullopt;
     cv_.wait_until(lock, std::min(until, std::chrono::steady_clock::now() + std::chrono::seconds(1)));
@@ -150,6 +151,14 @@ bool JobQueue::sleep_for(std::chrono::duration<double> d) {
   std::unique_lock lock(mutex_);
   const auto until = std::chrono::steady_clock::now() + std::chrono::duration_cast<std::chrono::steady_clock::duration>(d);
   return !cv_.wait_until(lock, until, [&] { return stop_ || control_ != Control::none; });
+}
+
+void JobQueue::nudge() {
+  {
+    std::lock_guard lock(mutex_);
+    nudged_ = true;
+  }
+  cv_.notify_all();
 }
 
 void JobQueue::stop() {

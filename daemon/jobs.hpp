@@ -47,6 +47,9 @@ class JobQueue {
   void set_running(std::optional<Id> id);
   std::optional<Id> running() const;
   Control control() const;  // request for the running job
+  // Makes a wait_next / wait_next_for in progress (or the next one) return
+  // nullopt once, so the executor serves a bench check (bench.check).
+  void nudge();
   // Sleeps up to `d`; returns early (false) when a request or stop arrives.
   bool sleep_for(std::chrono::duration<double> d);
   void stop();
@@ -73,6 +76,7 @@ class JobQueue {
   std::optional<Id> running_;
   Control control_ = Control::none;
   bool stop_ = false;
+  bool nudged_ = false;
 };
 
 }  // namespace junco::daemon

@@ -24,6 +24,7 @@
 #define JUNCO_SERVICE_METHODS(ROW)                                                                                          \
   ROW("daemon.status",  status,          "version, uptime, running job, queue, bench problem", ())                        \
   ROW("bench.describe", describe,        "instruments (+ *IDN?), fixture, safety limits, accuracy", ())                   \
+  ROW("bench.check",    check_bench,     "each instrument opened, identified, one safe reading; why not (junco bench)", ()) \
   ROW("job.submit",     submit,          "queues a plan → job_id; a refused plan is plan_refused", ("plan"))              \
   ROW("plan.check",     check_plan_dry,  "job.submit's checks and the plan's estimate; nothing queued", ("plan"))         \
   ROW("job.list",       list_jobs,       "jobs, optionally in one state", ("state"))                                      \

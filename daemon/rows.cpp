@@ -41,7 +41,7 @@ bool is_terminal(JobState s) {
 }
 
 RunFixture run_fixture(const FixtureConfig& f) {
-  return RunFixture{f.bias_resistor_ohm, f.dc_return_ohm, f.source_ohm, f.load_ohm, to_string(f.current_from), f.stray_c_f};
+  return RunFixture{f.bias_resistor_ohm, f.dc_return_ohm, f.source_ohm, f.load_ohm, to_string(f.current_from), f.stray_c_f, std::nullopt};
 }
 
 long FitRecord::cap_points_used() const {

@@ -63,6 +63,12 @@ struct InstrumentRow {
 
 // The fixture as it was when a run was measured (the bench config may change
 // later). NaN / "": not recorded (rows written by older versions).
+// The AC units of a run: the plan's amplitude unit, and what the generator
+// takes and the level meter reads (drivers/levels.hpp), as they were named.
+struct AcUnits {
+  std::string plan, siggen, levelmeter;
+};
+
 struct RunFixture {
   double bias_resistor_ohm = kNaN;
   double dc_return_ohm = kNaN;
@@ -70,6 +76,7 @@ struct RunFixture {
   double load_ohm = kNaN;
   std::string current_from;  // "source" or "meter"
   double stray_c_f = kNaN;
+  std::optional<AcUnits> ac_units;  // runs with AC readings (since the amplitude units)
 };
 
 // The fixture of the bench config, as a run records it.

@@ -218,6 +218,7 @@ std::string fixture_text(const RunFixture& f) {
   put("load_ohm", f.load_ohm);
   if (!f.current_from.empty()) j["current_from"] = f.current_from;
   put("stray_c_f", f.stray_c_f);
+  if (f.ac_units) j["ac_units"] = {{"plan", f.ac_units->plan}, {"siggen", f.ac_units->siggen}, {"levelmeter", f.ac_units->levelmeter}};
   return j.dump();
 }
 
@@ -234,6 +235,10 @@ RunFixture fixture_of(const std::string& text, const std::string& where) {
     f.load_ohm = get("load_ohm");
     f.stray_c_f = get("stray_c_f");
     if (j.contains("current_from")) f.current_from = j["current_from"].get<std::string>();
+    if (j.contains("ac_units")) {
+      const Json& u = j["ac_units"];
+      f.ac_units = AcUnits{u.at("plan").get<std::string>(), u.at("siggen").get<std::string>(), u.at("levelmeter").get<std::string>()};
+    }
   } catch (const std::exception& e) {
     throw StoreError(where + ": damaged (" + e.what() + ")");
   }

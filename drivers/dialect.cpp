@@ -1,6 +1,7 @@
 #include "drivers/dialect.hpp"
 
 #include "drivers/errors.hpp"
+#include "drivers/levels.hpp"
 #include "fitting/json_limits.hpp"  // header-only: no link dependency on junco_fitting
 
 #include <nlohmann/json.hpp>
@@ -22,7 +23,8 @@ using nlohmann::json;
 
 // What a role's operations look like: name, required, placeholders allowed
 // in its templates, and what its reply must be.
-enum class Returns { nothing, number, boolean };
+// text: the reply is kept as sent (query_state, shown by `junco bench`).
+enum class Returns { nothing, number, boolean, text };
 struct OperationRule {
   const char* name;
   bool required;
@@ -41,6 +43,7 @@ const std::vector<OperationRule>& rules_for(Role role) {
       // Without it, a reading counts as current-limited when the measured
       // current is within current_limit_tolerance of the programmed limit.
       {"in_current_limit", false, {}, Returns::boolean},
+      {"query_state", false, {}, Returns::text},  // e.g. OUTP? (bench check only)
   };
   static const std::vector<OperationRule> meter = {
       {"measure_dc_voltage", true, {}, Returns::number},
@@ -59,16 +62,20 @@ const std::vector<OperationRule>& rules_for(Role role) {
   static const std::vector<OperationRule> scanner = {
       {"connect_slot", true, {"slot"}, Returns::nothing},
       {"disconnect_all", true, {}, Returns::nothing},
+      {"query_state", false, {}, Returns::text},  // e.g. ROUT:CLOS:STAT? (bench check only)
   };
   static const std::vector<OperationRule> siggen = {
       {"set_frequency", true, {"hz"}, Returns::nothing},
       {"set_amplitude", true, {"v", "unit"}, Returns::nothing},
       {"output_on", true, {}, Returns::nothing},
       {"output_off", true, {}, Returns::nothing},
+      {"query_state", false, {}, Returns::text},  // e.g. OUTP? (bench check only)
   };
+  // At least one of the three (checked in parse_dialect).
   static const std::vector<OperationRule> levelmeter = {
-      {"measure_vrms", true, {"ch"}, Returns::number},
+      {"measure_vrms", false, {"ch"}, Returns::number},
       {"measure_vpp", false, {"ch"}, Returns::number},
+      {"measure_dbm", false, {"ch"}, Returns::number},  // needs impedance_ohm
   };
   switch (role) {
     case Role::source: return source;
@@ -231,7 +238,10 @@ Operation parse_operation(const Checker& c, const json& j, const std::string& po
     op.query = c.string_at(j, pointer, "query");
     check_template(c, op.query, pointer + "/query", rule.placeholders);
   }
-  if (rule.returns == Returns::nothing) {
+  if (rule.returns == Returns::text) {
+    if (op.query.empty()) c.fail(pointer + "/query", "missing (this operation reads a reply)");
+    if (j.contains("reply")) c.fail(pointer + "/reply", "the reply of this operation is shown as the instrument sends it; leave \"reply\" out");
+  } else if (rule.returns == Returns::nothing) {
     if (!op.query.empty()) c.fail(pointer + "/query", "this operation returns nothing; put commands in \"commands\"");
     if (j.contains("reply")) c.fail(pointer + "/reply", "this operation returns nothing");
     if (op.commands.empty()) c.fail(pointer + "/commands", "missing (at least one command required)");
@@ -251,9 +261,10 @@ Operation parse_operation(const Checker& c, const json& j, const std::string& po
   if (j.contains("unit_names")) {
     std::string p = pointer + "/unit_names";
     const json& u = c.member(j, pointer, "unit_names", json::value_t::object, "an object");
-    c.only_keys(u, p, {"vpp", "vrms"});
+    c.only_keys(u, p, {"vpp", "vrms", "dbm"});
     if (u.contains("vpp")) op.unit_vpp = c.string_at(u, p, "vpp");
     if (u.contains("vrms")) op.unit_vrms = c.string_at(u, p, "vrms");
+    if (u.contains("dbm")) op.unit_dbm = c.string_at(u, p, "dbm");
   }
   return op;
 }
@@ -306,7 +317,8 @@ Dialect parse_dialect(std::string_view text, const std::string& origin) {
   }
   c.typed(root, "", json::value_t::object, "an object");
   c.only_keys(root, "", {"dialect", "role", "description", "idn_match", "write_terminator", "read_terminator",
-                         "drain_errors", "reset", "current_limit_tolerance", "operations"});
+                         "drain_errors", "reset", "current_limit_tolerance", "amplitude_unit", "impedance_ohm",
+                         "operations"});
   Dialect d;
   d.path = origin;
   d.name = c.string_at(root, "", "dialect");
@@ -338,6 +350,20 @@ Dialect parse_dialect(std::string_view text, const std::string& origin) {
     if (!(d.current_limit_tolerance > 0.0 && d.current_limit_tolerance < 0.5))
       c.fail("/current_limit_tolerance", "must be between 0 and 0.5 (a fraction of the limit), got " + t.dump());
   }
+  if (root.contains("amplitude_unit")) {
+    if (d.role != Role::siggen) c.fail("/amplitude_unit", "only a siggen dialect takes it (a level meter's units are its measure_* operations)");
+    const std::string u = c.string_at(root, "", "amplitude_unit");
+    d.amplitude_unit = parse_level_unit(u);
+    if (!d.amplitude_unit) c.fail("/amplitude_unit", "unknown unit \"" + u + "\" (known: vpp, vrms, dbm)");
+  }
+  if (root.contains("impedance_ohm")) {
+    if (d.role != Role::siggen && d.role != Role::levelmeter) c.fail("/impedance_ohm", "only a siggen or levelmeter dialect takes it");
+    const json& r = c.member(root, "", "impedance_ohm", json::value_t::number_float, "a number");
+    d.impedance_ohm = r.get<double>();
+    if (!(d.impedance_ohm > 0.0 && d.impedance_ohm <= 1e7)) c.fail("/impedance_ohm", "must be > 0 and at most 1e7 ohm, got " + r.dump());
+  }
+  if (d.amplitude_unit == LevelUnit::dbm && d.impedance_ohm <= 0.0)
+    c.fail("/impedance_ohm", "missing (amplitude_unit dbm states power into a resistance: give it, e.g. 50)");
   const json& ops = c.member(root, "", "operations", json::value_t::object, "an object");
   const auto& rules = rules_for(d.role);
   std::set<std::string> known;
@@ -350,6 +376,12 @@ Dialect parse_dialect(std::string_view text, const std::string& origin) {
       continue;
     }
     d.operations.emplace(rule.name, parse_operation(c, ops.at(rule.name), pointer, rule, drain));
+  }
+  if (d.role == Role::levelmeter) {
+    if (!d.find("measure_vrms") && !d.find("measure_vpp") && !d.find("measure_dbm"))
+      c.fail("/operations/measure_vrms", "missing (a levelmeter needs measure_vrms, measure_vpp or measure_dbm)");
+    if (d.find("measure_dbm") && d.impedance_ohm <= 0.0)
+      c.fail("/impedance_ohm", "missing (measure_dbm reads power into a resistance: give it, e.g. 50)");
   }
   return d;
 }

@@ -5,6 +5,8 @@
 // DriverError(config) "FILE: /json/pointer: what is wrong".
 #pragma once
 
+#include "drivers/roles.hpp"
+
 #include <chrono>
 #include <map>
 #include <optional>
@@ -37,6 +39,7 @@ struct Operation {
   bool sync = false;                  // *OPC? after the commands
   std::string unit_vpp = "VPP";       // what {unit} becomes for Vpp
   std::string unit_vrms = "VRMS";     //   and for Vrms
+  std::string unit_dbm = "DBM";       //   and for dBm
 };
 
 struct Dialect {
@@ -52,6 +55,12 @@ struct Dialect {
   // Source without an in_current_limit query: a reading counts as limited
   // when |measured current| >= (1 − this) × the programmed limit.
   double current_limit_tolerance = 0.02;
+  // Siggen: the unit set_amplitude's {v} is in when the generator takes only
+  // one ("amplitude_unit"); unset: the plan's unit, named by {unit}.
+  std::optional<LevelUnit> amplitude_unit;
+  // Siggen with amplitude_unit dbm, levelmeter with measure_dbm: the
+  // resistance the instrument states its dBm into ("impedance_ohm").
+  double impedance_ohm = 0.0;
   std::map<std::string, Operation, std::less<>> operations;
 
   // nullptr when the dialect does not offer the (optional) operation.

@@ -83,6 +83,7 @@ void DialectDriver::with_retries(const char* operation, const std::function<void
 DialectDriver::Outcome DialectDriver::read_reply(const Operation& op, const std::string& query) {
   Outcome out;
   std::string reply = session_->query(query);
+  out.text = reply;
   const ReplySpec& spec = op.reply;
   auto fail = [&](ParseStatus status, const std::string& why) -> Outcome {
     throw DriverError(status == ParseStatus::overrange ? ErrorKind::overrange : ErrorKind::garbled,
@@ -268,21 +269,71 @@ void DialectDriver::set_frequency_hz(double hz) {
   run("set_frequency", {{"hz", format_number(hz)}});
 }
 
+LevelScale DialectDriver::amplitude_scale(LevelUnit asked) const {
+  LevelScale scale{asked, spec_.impedance_ohm > 0 ? spec_.impedance_ohm : dialect_.impedance_ohm};
+  if (spec_.level_unit) scale.unit = *spec_.level_unit;
+  else if (dialect_.amplitude_unit) scale.unit = *dialect_.amplitude_unit;
+  return scale;
+}
+
+std::string DialectDriver::amplitude_units() const {
+  if (!spec_.level_unit && !dialect_.amplitude_unit) return "as asked";
+  return describe(amplitude_scale(LevelUnit::vrms));
+}
+
+// The generator makes a sine, so converting the plan's unit to the one it
+// takes is exact (drivers/levels.hpp); the plan's value is checked first.
 void DialectDriver::set_amplitude(double value, LevelUnit unit) {
   require_finite(value, "amplitude");
   if (value < 0) config_error("amplitude must not be negative, got " + format_number(value));
+  const LevelScale to = amplitude_scale(unit);
+  if (to.unit == LevelUnit::dbm && !(to.impedance_ohm > 0))
+    config_error("amplitude in dBm needs impedance_ohm (in the dialect or the bench config)");
+  const double v = to.unit == unit ? value : sine_from_vrms(sine_to_vrms(value, {unit, 0.0}), to);
   const Operation* op = dialect_.find("set_amplitude");
-  std::string unit_text = !op ? "" : unit == LevelUnit::vpp ? op->unit_vpp : op->unit_vrms;
-  run("set_amplitude", {{"v", format_number(value)}, {"unit", unit_text}});
+  std::string unit_text = !op ? "" : to.unit == LevelUnit::vpp ? op->unit_vpp : to.unit == LevelUnit::vrms ? op->unit_vrms : op->unit_dbm;
+  run("set_amplitude", {{"v", format_number(v)}, {"unit", unit_text}});
 }
 
-double DialectDriver::measure_level(int channel, LevelUnit unit) {
+namespace {
+const char* measure_operation(LevelUnit unit) {
+  return unit == LevelUnit::vpp ? "measure_vpp" : unit == LevelUnit::vrms ? "measure_vrms" : "measure_dbm";
+}
+}  // namespace
+
+LevelUnit DialectDriver::level_unit_for(LevelUnit preferred) const {
+  if (spec_.level_unit) return *spec_.level_unit;
+  for (LevelUnit u : {preferred, LevelUnit::vrms, LevelUnit::dbm, LevelUnit::vpp})
+    if (dialect_.find(measure_operation(u))) return u;
+  return preferred;  // the dialect loader requires one of them: not reached
+}
+
+std::string DialectDriver::level_units() const {
+  if (spec_.level_unit) return describe(LevelScale{*spec_.level_unit, spec_.impedance_ohm > 0 ? spec_.impedance_ohm : dialect_.impedance_ohm});
+  std::string out;
+  for (LevelUnit u : {LevelUnit::vrms, LevelUnit::vpp, LevelUnit::dbm})
+    if (dialect_.find(measure_operation(u))) out += (out.empty() ? "" : ", ") + describe(LevelScale{u, dialect_.impedance_ohm});
+  return out;
+}
+
+// A reading in dBm is power: it becomes Vrms exactly. Vrms and Vpp are kept
+// as measured (the caller stores the unit), never converted into each other.
+Level DialectDriver::measure_level(int channel, LevelUnit preferred) {
   if (channel != 1 && channel != 2) config_error("level channel must be 1 or 2, got " + std::to_string(channel));
-  const char* operation = unit == LevelUnit::vpp ? "measure_vpp" : "measure_vrms";
+  const LevelUnit unit = level_unit_for(preferred);
+  const char* operation = measure_operation(unit);
   if (!dialect_.find(operation))
-    config_error("dialect " + dialect_.name + " (" + dialect_.path + ") offers no " +
-                 (unit == LevelUnit::vpp ? "Vpp" : "Vrms") + " measurement ('" + operation + "')");
-  return run(operation, {{"ch", std::to_string(channel)}}).number;
+    config_error("dialect " + dialect_.name + " (" + dialect_.path + ") offers no " + to_string(unit) + " measurement ('" + operation +
+                 "'), which the bench config asks for");
+  const double x = run(operation, {{"ch", std::to_string(channel)}}).number;
+  if (unit != LevelUnit::dbm) return Level{x, unit};
+  const double r = spec_.impedance_ohm > 0 ? spec_.impedance_ohm : dialect_.impedance_ohm;
+  return Level{dbm_to_vrms(x, r), LevelUnit::vrms};
+}
+
+std::optional<std::string> DialectDriver::query_state() {
+  if (!dialect_.find("query_state")) return std::nullopt;
+  return run("query_state").text;
 }
 
 }  // namespace junco::drivers

@@ -5,6 +5,7 @@
 
 #include "drivers/dialect.hpp"
 #include "drivers/factory.hpp"
+#include "drivers/levels.hpp"
 #include "drivers/scpi.hpp"
 
 #include <functional>
@@ -24,6 +25,7 @@ class DialectDriver final : public Source, public Meter, public Scanner, public 
   // *CLS and SYST:ERR? (ScpiSession::clear_error_queue), with retries; only
   // when the dialect drains errors in some operation (it has an error queue).
   std::vector<std::string> clear_errors() override;
+  std::optional<std::string> query_state() override;
 
   // Source
   void set_voltage_v(double volts) override;
@@ -44,8 +46,10 @@ class DialectDriver final : public Source, public Meter, public Scanner, public 
   // SignalGen
   void set_frequency_hz(double hz) override;
   void set_amplitude(double value, LevelUnit unit) override;
+  std::string amplitude_units() const override;
   // LevelMeter
-  double measure_level(int channel, LevelUnit unit) override;
+  Level measure_level(int channel, LevelUnit preferred) override;
+  std::string level_units() const override;
 
   const Dialect& dialect() const { return dialect_; }
 
@@ -53,6 +57,7 @@ class DialectDriver final : public Source, public Meter, public Scanner, public 
   struct Outcome {
     double number = 0.0;
     bool flag = false;
+    std::string text;  // the query's reply as sent
   };
   Outcome run(const char* operation, const Placeholders& values = {});
   Outcome run_once(const Operation& op, const Placeholders& values);
@@ -64,6 +69,12 @@ class DialectDriver final : public Source, public Meter, public Scanner, public 
   std::string label() const;
   void ensure_session();
   void check_identity();
+  // The unit set_amplitude programs for a plan asking `asked`: the config's
+  // or the dialect's fixed unit, else `asked`.
+  LevelScale amplitude_scale(LevelUnit asked) const;
+  // The level reading to take for `preferred`: the config's unit, else
+  // `preferred` when offered, else Vrms, dBm, Vpp in that order.
+  LevelUnit level_unit_for(LevelUnit preferred) const;
 
   InstrumentSpec spec_;
   Dialect dialect_;

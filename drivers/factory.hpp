@@ -9,6 +9,7 @@
 #include <chrono>
 #include <functional>
 #include <memory>
+#include <optional>
 #include <string>
 
 namespace junco::drivers {
@@ -20,6 +21,10 @@ struct InstrumentSpec {
   TransportOptions transport;
   std::chrono::milliseconds reply_timeout{2000};
   int max_retries = 2;  // transient failures retried (reconnecting) per operation
+  // Siggen / levelmeter: the amplitude unit the bench config states for this
+  // instrument (overrides the dialect's), and the resistance of its dBm.
+  std::optional<LevelUnit> level_unit;
+  double impedance_ohm = 0.0;  // 0: the dialect's
   // When set, every line sent and received is passed here (traffic log).
   std::function<void(std::string_view direction, std::string_view line)> traffic_log;
 };

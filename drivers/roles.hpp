@@ -4,6 +4,7 @@
 // verify (overload markers and unparsable replies are errors, not numbers).
 #pragma once
 
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -17,7 +18,16 @@ struct Identity {
   std::string firmware;
 };
 
-enum class LevelUnit { vpp, vrms };
+// AC amplitude units. Vpp and Vrms of a sine differ by 2·√2; dBm is the
+// power into a stated resistance (drivers/levels.hpp converts them).
+enum class LevelUnit { vpp, vrms, dbm };
+
+// An AC level as an instrument gave it: the unit says truly what was
+// measured (never converted through an assumed waveform).
+struct Level {
+  double value = 0.0;
+  LevelUnit unit = LevelUnit::vrms;
+};
 
 class Instrument {
  public:
@@ -30,6 +40,11 @@ class Instrument {
   // were there ("-222,\"Data out of range\""), oldest first. Instruments
   // without an error queue return nothing.
   virtual std::vector<std::string> clear_errors() { return {}; }
+  // For the bench check (`junco bench`): the instrument's answer to the
+  // state query its dialect offers ("query_state", e.g. OUTP? on a supply,
+  // ROUT:CLOS:STAT? on a switch), as sent; nullopt when it offers none.
+  // Changes nothing on the instrument.
+  virtual std::optional<std::string> query_state() { return std::nullopt; }
 };
 
 // Bias supply. The daemon programs the current limit before output on.
@@ -66,14 +81,26 @@ class Scanner : public virtual Instrument {
 class SignalGen : public virtual Instrument {
  public:
   virtual void set_frequency_hz(double hz) = 0;
+  // `value` in `unit` (vpp or vrms, as the plan states it); the driver
+  // converts to the unit the generator takes (it makes a sine, so the
+  // conversion is exact).
   virtual void set_amplitude(double value, LevelUnit unit) = 0;
   virtual void set_output(bool on) = 0;
+  // The unit the generator is programmed in, for the record: "vpp", "vrms",
+  // "dbm into 50 ohm", or "as asked" when the dialect names the unit.
+  virtual std::string amplitude_units() const { return "as asked"; }
 };
 
 // AC level on two channels (1 = fixture input, 2 = fixture output).
+// The reading comes back in `preferred` when the instrument measures it, else
+// in what it does measure (dBm becomes Vrms exactly); the caller stores the
+// unit it got, so a Vrms reading is never relabelled Vpp through an assumed
+// sine (a biased diode does not pass one).
 class LevelMeter : public virtual Instrument {
  public:
-  virtual double measure_level(int channel, LevelUnit unit) = 0;
+  virtual Level measure_level(int channel, LevelUnit preferred) = 0;
+  // What the meter reads, for the record: "vrms", "vpp, vrms", "dbm into 50 ohm".
+  virtual std::string level_units() const { return ""; }
 };
 
 }  // namespace junco::drivers

@@ -6,7 +6,9 @@
 
 #include <catch2/catch.hpp>
 
+#include <algorithm>
 #include <cmath>
+#include <csignal>
 #include <sqlite3.h>
 
 #include <cstdio>
@@ -29,8 +31,18 @@ using junco::test::count_rows;
 TEST_CASE("junco demo characterises the simulated lot end to end") {
   char tmpl[] = "/tmp/junco-demo-test-XXXXXX";
   const fs::path dir = fs::path(mkdtemp(tmpl)) / "run";
-  const Run r = run_shell(std::string(JUNCO_BIN_DIR) + "/junco demo --dir " + dir.string());
+  // --keep-running: the next steps it prints include the daemon's (README, "Next steps").
+  const Run r = run_shell(std::string(JUNCO_BIN_DIR) + "/junco demo --keep-running --dir " + dir.string());
   INFO(r.out);
+  // Whatever happens below, the released juncod and junco-sim do not outlive the test.
+  std::smatch pids;
+  REQUIRE(std::regex_search(r.out, pids, std::regex(R"(still running: juncod pid ([0-9]+), junco-sim pid ([0-9]+))")));
+  struct StopChildren {
+    pid_t daemon, sim;
+    ~StopChildren() {
+      for (pid_t p : {daemon, sim}) ::kill(p, SIGTERM);
+    }
+  } stop_children{std::stoi(pids[1].str()), std::stoi(pids[2].str())};
   REQUIRE(r.status == 0);
 
   // One table row per part: label, Is, n, Rs (each ± SE), Vf@1mA, Vf@10mA, rd@5mA.
@@ -89,6 +101,32 @@ TEST_CASE("junco demo characterises the simulated lot end to end") {
     CHECK(fs::exists(dir / plot));
     CHECK(r.out.find((dir / plot).string()) != std::string::npos);
   }
+
+  // The next steps: every "  $ " line, pasted into a shell with junco on the
+  // PATH as after an install, succeeds; the last one stops the daemon.
+  const auto steps_at = r.out.find("\nnext steps:");
+  REQUIRE(steps_at != std::string::npos);
+  std::vector<std::string> steps;
+  const std::regex step(R"(\n  \$ ([^\n]+))");
+  for (auto it = std::sregex_iterator(r.out.begin() + static_cast<long>(steps_at), r.out.end(), step); it != std::sregex_iterator(); ++it)
+    steps.push_back((*it)[1].str());
+  CHECK(steps.size() >= 10);
+  for (const char* want : {"junco fit ", "junco design loss --model ", "junco plot iv --readings ", "sqlite3 ", "junco show WR-01 --socket ",
+                           "junco lots WREN-0912 --socket ", "junco bench --socket ", "kill "}) {
+    INFO(want);
+    CHECK(std::any_of(steps.begin(), steps.end(), [&](const std::string& s) { return s.rfind(want, 0) == 0; }));
+  }
+  for (const auto& cmd : steps) {
+    const Run step_run = run_shell("PATH='" + std::string(JUNCO_BIN_DIR) + "':\"$PATH\"; " + cmd);
+    INFO("$ " << cmd << "\n" << step_run.out);
+    CHECK(step_run.status == 0);
+    // Each prints what it found, but the plot (its file is checked below) and the kill.
+    if (cmd.find(" --out ") == std::string::npos && cmd.rfind("kill ", 0) != 0) CHECK_FALSE(step_run.out.empty());
+  }
+  CHECK(fs::exists(dir / "WR-01-iv-offline.svg"));
+  // After the kill line, juncod has stopped (it turns the outputs off on SIGTERM).
+  for (int i = 0; i < 200 && ::kill(stop_children.daemon, 0) == 0; ++i) ::usleep(50000);
+  CHECK(::kill(stop_children.daemon, 0) != 0);
 
   const fs::path db = dir / "junco.db";
   REQUIRE(fs::exists(db));

@@ -79,6 +79,7 @@ expect "junco plot " $kinds
 expect "junco lots --export " spice json
 expect "junco show WR-03 --export " json spice csv iv-csv ac-csv off-csv
 expect "junco submit --" --watch --socket
+expect "junco bench --" --json --socket
 got=$(cd "$src/tools/examples" && complete_line "$bin/junco" submit pl)
 grep -qx plan.jsonc <<<"$got" || fail "completing 'junco submit pl' in tools/examples offers no plan.jsonc (got: $got)"
 

@@ -201,3 +201,21 @@ TEST_CASE("job limits: optional, with defaults, each checked") {
   CHECK(message_of(with(kGood, R"("paths": {)", R"("limits": {"max_plan_mb": 1}, "paths": {)")) ==
         "/etc/junco/bench.jsonc: /limits/max_plan_mb: unknown key");
 }
+
+TEST_CASE("an AC instrument's amplitude unit and dBm impedance come from the config, named when wrong") {
+  const std::string ac = with(kGood, R"("scanner": {)",
+                              R"("siggen": {"address": "tcp:127.0.0.1:5028", "dialect": "scpi-gen", "amplitude_unit": "dbm", "impedance_ohm": 50},
+    "levelmeter": {"address": "tcp:127.0.0.1:5029", "dialect": "scpi-acv", "amplitude_unit": "vrms"},
+    "scanner": {)");
+  const Config c = parse_config(ac, "/etc/junco/bench.jsonc");
+  REQUIRE(c.instrument("siggen")->amplitude_unit);
+  CHECK(*c.instrument("siggen")->amplitude_unit == junco::drivers::LevelUnit::dbm);
+  CHECK(c.instrument("siggen")->impedance_ohm == 50.0);
+  CHECK(*c.instrument("levelmeter")->amplitude_unit == junco::drivers::LevelUnit::vrms);
+  CHECK_FALSE(c.instrument("source")->amplitude_unit);  // default: the dialect's
+  CHECK(message_of(with(ac, R"("amplitude_unit": "dbm")", R"("amplitude_unit": "dBm")")) ==
+        "/etc/junco/bench.jsonc: /bench/siggen/amplitude_unit: unknown unit \"dBm\" (known: vpp, vrms, dbm)");
+  CHECK(message_of(with(ac, R"("impedance_ohm": 50)", R"("impedance_ohm": 0)")).rfind("/etc/junco/bench.jsonc: /bench/siggen/impedance_ohm: ", 0) == 0);
+  CHECK(message_of(with(kGood, R"("dialect": "scpi-source")", R"("dialect": "scpi-source", "amplitude_unit": "vpp")")) ==
+        "/etc/junco/bench.jsonc: /bench/source/amplitude_unit: only siggen and levelmeter take an amplitude unit");
+}

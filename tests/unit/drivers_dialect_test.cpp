@@ -120,7 +120,7 @@ TEST_CASE("broken dialects name file, key and what is wrong", "[drivers][dialect
        "broken.json: /operations/connect_slot/commands/0: unclosed placeholder in \"ROUT:CLOS (@{slot\""},
       {"unknown operation",
        replaced(good_scanner, R"("disconnect_all": { "commands": ["ROUT:OPEN:ALL"] })", R"("x": 1)"),
-       "broken.json: /operations/x: unknown key (known here: connect_slot, disconnect_all)"},
+       "broken.json: /operations/x: unknown key (known here: connect_slot, disconnect_all, query_state)"},
       {"missing required operation",
        replaced(good_scanner, R"(,
     "disconnect_all": { "commands": ["ROUT:OPEN:ALL"] })", ""),

@@ -46,8 +46,11 @@ Runs junco end to end on the simulated bench, no hardware needed:
      part's junction capacitance (CJO, VJ, M) from the off-state readings
      and its measured isolation; two design calculations on a stored part;
      and writes plots (I-V, AC transfer, off state, lot spread) into DIR;
-  4. stops both children (also on Ctrl-C) and leaves DIR with the database,
-     the config, the plan and both logs for inspection.
+  4. writes the first part's model document and readings (WR-01.json,
+     WR-01-iv.csv, WR-01-ac.csv), stops both children (also on Ctrl-C) and
+     leaves DIR with the database, the config, the plan and both logs;
+  5. ends with next steps: commands to paste that explore the lot on those
+     files (and, with --keep-running, on the still running daemon).
 Takes about a minute.
 
 options:
@@ -433,6 +436,70 @@ void write_plots(const std::string& socket, const std::string& lot, const fs::pa
   }
 }
 
+// The first part's fit and readings as files, so the next steps work once
+// juncod has stopped: the model document (junco design/plot --model), its
+// forward readings (junco fit) and AC readings (junco fit --ac).
+struct Exported {
+  std::string label;
+  bool ok = false;
+};
+Exported write_exports(RpcClient& client, const std::string& lot, const fs::path& dir) {
+  Exported e;
+  const Json parts = client.call("part.list", Json{{"lot", lot}}).value("parts", Json::array());
+  if (parts.empty()) return e;
+  e.label = parts[0].value("label", "part");
+  try {
+    for (const auto& [format, name] : std::vector<std::pair<std::string, std::string>>{
+             {"json", e.label + ".json"}, {"iv-csv", e.label + "-iv.csv"}, {"ac-csv", e.label + "-ac.csv"}})
+      write_file(dir / name, client.call("part.export", Json{{"part_id", parts[0]["part_id"]}, {"format", format}}).value("content", ""));
+    e.ok = true;
+  } catch (const std::exception& ex) {
+    std::printf("\nexporting %s for the next steps failed: %s\n", e.label.c_str(), ex.what());
+  }
+  return e;
+}
+
+// A path as the shell reads it: bare when it has only safe characters.
+std::string sh(const std::string& text) {
+  if (text.find_first_not_of("ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789/._-+=:,") == std::string::npos) return text;
+  std::string q = "'";
+  for (char c : text) q += c == '\'' ? std::string("'\\''") : std::string(1, c);
+  return q + "'";
+}
+
+// What a newcomer can paste next. Every "  $ " line is a command that works
+// right after the demo (tests/integration/demo_test.cpp runs each one).
+void print_next_steps(const fs::path& dir, const std::string& lot, const Exported& e, const std::optional<std::string>& socket,
+                      pid_t daemon_pid, pid_t sim_pid) {
+  const std::string d = dir.string();
+  std::printf("\nnext steps: paste any line after a $; they use what the demo left in %s\n", sh(d).c_str());
+  if (e.ok) {
+    const std::string iv = sh(d + "/" + e.label + "-iv.csv"), ac = sh(d + "/" + e.label + "-ac.csv"), model = sh(d + "/" + e.label + ".json");
+    std::printf("  # refit %s's forward readings offline (Is, n, Rs with standard errors), then with its AC readings\n", e.label.c_str());
+    std::printf("  $ junco fit %s\n", iv.c_str());
+    std::printf("  $ junco fit %s --ac %s\n", iv.c_str(), ac.c_str());
+    std::printf("  # a design calculator on %s's stored fit, and its I-V plot from the files\n", e.label.c_str());
+    std::printf("  $ junco design loss --model %s --current 5mA\n", model.c_str());
+    std::printf("  $ junco plot iv --readings %s --model %s --out %s\n", iv.c_str(), model.c_str(), sh(d + "/" + e.label + "-iv-offline.svg").c_str());
+  }
+  std::printf("  # every fit in the database\n");
+  std::printf("  $ sqlite3 %s 'SELECT p.label, f.status, f.is_a, f.n, f.rs_ohm FROM fits f JOIN parts p ON p.id = f.part_id'\n",
+              sh(d + "/junco.db").c_str());
+  if (!socket) {
+    std::printf("  # to explore with the daemon (junco show, lots, transfer, bench): run the demo with --keep-running\n");
+    return;
+  }
+  const std::string s = sh(*socket);
+  std::printf("  # juncod and junco-sim are still running: ask the daemon\n");
+  std::printf("  $ junco status --socket %s\n", s.c_str());
+  std::printf("  $ junco show %s --socket %s\n", e.label.c_str(), s.c_str());
+  std::printf("  $ junco lots %s --socket %s\n", lot.c_str(), s.c_str());
+  std::printf("  $ junco transfer %s --socket %s\n", e.label.c_str(), s.c_str());
+  std::printf("  $ junco bench --socket %s\n", s.c_str());
+  std::printf("  # and stop them (juncod turns the outputs off)\n");
+  std::printf("  $ kill %d %d\n", daemon_pid, sim_pid);
+}
+
 void wait_for_socket(const std::string& path, Child& daemon, const fs::path& log) {
   for (int i = 0; i < 300; ++i) {
     if (g_interrupted) throw std::runtime_error("interrupted");
@@ -527,18 +594,20 @@ int run(std::vector<std::string> args) {
       write_plots(socket, plan["lot"], dir, client);
       if (lab) wait_for_lab(client, plan["lot"]);
     }
-    if (keep && !g_interrupted) {
+    const Exported exported = g_interrupted ? Exported{} : write_exports(client, plan["lot"], dir);
+    const bool still_running = keep && !g_interrupted;
+    if (still_running) {
       daemon.release();
       sim.release();
-      std::printf("\nstill running: juncod pid %d, junco-sim pid %d\n  try:  junco status --socket %s\n  stop: kill %d %d\n",
-                  daemon.pid(), sim.pid(), socket.c_str(), daemon.pid(), sim.pid());
+      std::printf("\nstill running: juncod pid %d, junco-sim pid %d\n", daemon.pid(), sim.pid());
     } else {
       const int daemon_rc = daemon.stop();
       sim.stop();
       if (daemon_rc != 0) std::printf("juncod exited with status %d; see %s\n", daemon_rc, (dir / "juncod.log").c_str());
     }
-    std::printf("\ndatabase kept: %s\n  look inside: sqlite3 %s 'SELECT p.label, f.status, f.is_a, f.n, f.rs_ohm FROM fits f JOIN parts p ON p.id = f.part_id'\n",
-                (dir / "junco.db").c_str(), (dir / "junco.db").c_str());
+    std::printf("\ndatabase kept: %s\n", (dir / "junco.db").c_str());
+    if (!g_interrupted)
+      print_next_steps(dir, plan["lot"], exported, still_running ? std::optional<std::string>(socket) : std::nullopt, daemon.pid(), sim.pid());
     return g_interrupted ? exit_failure : status;
   });
 }

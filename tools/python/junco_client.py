@@ -414,6 +414,16 @@ class Client:
     # -- typed wrappers: one per method of schema/api ------------------------
 
     # ---- BEGIN GENERATED WRAPPERS (tools/python/gen_wrappers.py) ----
+    def bench_check(self, timeout_s: Optional[float] = None) -> Dict[str, Any]:
+        """`bench.check`: Checks every configured instrument, one at a time: opens it with short timeouts (connect 500 ms, reply 700 ms, no retries), reads its *IDN? and takes one reading that changes nothing; says in words why one does not open. No output is turned on. While a job runs nothing is asked of the instruments: the answer has checked false, held_by_job and what is known. Takes about 1 s per mute instrument at most (`junco bench`).
+
+        Returns the result object: checked, held_by_job, note, bench_open, bench_problem, elapsed_s,
+        timeouts_ms, instruments.
+        Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
+        client's), ConnectionError when the connection is lost.
+        """
+        return self._method('bench.check', timeout_s)
+
     def bench_describe(self, timeout_s: Optional[float] = None) -> Dict[str, Any]:
         """`bench.describe`: The bench: instruments, fixture, safety limits.
 

@@ -16,8 +16,8 @@ const std::map<std::string, std::vector<std::string>>& known_families() {
       {"source", {"scpi-source", "psu-compact", "scpi99"}},
       {"meter", {"scpi-dmm", "dmm-prefixed", "scpi99"}},
       {"scanner", {"scpi-switch", "relay-bank", "scpi99"}},
-      {"siggen", {"scpi-gen", "gen-channel"}},
-      {"levelmeter", {"scpi-acv", "scope-meas"}}};
+      {"siggen", {"scpi-gen", "gen-channel", "gen-vpp"}},
+      {"levelmeter", {"scpi-acv", "scope-meas", "acv-dbm"}}};
   return f;
 }
 

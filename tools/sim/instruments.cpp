@@ -298,6 +298,7 @@ class SigGenSim : public SimInstrument {
  public:
   SigGenSim(const std::string& family, Bench& bench, std::uint64_t seed)
       : SimInstrument("siggen", family, family == "gen-channel" ? "junco-sim,GEN-C2,SIM-G002,5.2"
+                                        : family == "gen-vpp"   ? "junco-sim,GEN-P1,SIM-G003,2.0"
                                                                 : "junco-sim,GEN-1,SIM-G001,1.0",
                       bench, seed) {
     const std::string p = family == "gen-channel" ? "SOURce1:" : "";
@@ -323,6 +324,16 @@ class SigGenSim : public SimInstrument {
       });
       add("OUTPut1", [this](const std::string& a) { return set_on(need_bool(a)); });
       add("OUTPut1?", [this](const std::string&) { return std::string(bench_.drive().on ? "1" : "0"); });
+    } else if (family == "gen-vpp") {
+      // A generator that takes its amplitude in Vpp only: no VOLT:UNIT (an
+      // undefined header, -113), VOLT is always peak to peak.
+      add("VOLTage", [this](const std::string& a) {
+        set_amplitude(need_number(a), "VPP");
+        return std::optional<std::string>{};
+      });
+      add("VOLTage?", [this](const std::string&) { return format_nr3(bench_.drive().emf_vpp, 6); });
+      add("OUTPut", [this](const std::string& a) { return set_on(need_bool(a)); });
+      add("OUTPut?", [this](const std::string&) { return std::string(bench_.drive().on ? "1" : "0"); });
     } else {
       add("VOLTage:UNIT", [this](const std::string& a) {
         const std::string u = upper(trim(a));
@@ -370,16 +381,27 @@ class SigGenSim : public SimInstrument {
 };
 
 // ------------------------------------------------------------ levelmeter
+// The resistance the acv-dbm family states its dBm into (docs/sim.md).
+constexpr double kDbmReferenceOhm = 50.0;
+
 class LevelMeterSim : public SimInstrument {
  public:
   LevelMeterSim(const std::string& family, Bench& bench, std::uint64_t seed)
       : SimInstrument("levelmeter", family, family == "scope-meas" ? "junco-sim,SCOPE-4,SIM-L002,1.1"
+                                            : family == "acv-dbm"    ? "junco-sim,LVL-D2,SIM-L003,1.0"
                                                                    : "junco-sim,ACV-2,SIM-L001,1.0",
                       bench, seed) {
     if (family == "scope-meas") {
       // Scope-grade: 0.03 % of reading plus 50 µV.
       add(":MEASure:VRMS?", [this](const std::string& a) { return level(chan_arg(a), false, 3e-4, 50e-6); });
       add(":MEASure:VPP?", [this](const std::string& a) { return level(chan_arg(a), true, 3e-4, 50e-6); });
+    } else if (family == "acv-dbm") {
+      // A level meter that reads power only, in dBm into its stated
+      // kDbmReferenceOhm: 10·log10(Vrms²/R / 1 mW) of the true-RMS level.
+      add("MEASure:POWer:AC?", [this](const std::string& a) {
+        const double vrms = std::stod(level(channel_list_single(a), false, 1e-4, 2e-6));
+        return format_nr3(10.0 * std::log10(vrms * vrms / kDbmReferenceOhm / 1e-3), 6);
+      });
     } else {
       // AC voltmeter: 0.01 % of reading plus 2 µV.
       add("MEASure:VOLTage:AC?", [this](const std::string& a) { return level(channel_list_single(a), false, 1e-4, 2e-6); });
