@@ -276,7 +276,9 @@ void harmonics(Run& r, const DistortionResult& d) {
   r.result("thd_db", "THD", d.load.thd_db(), "dB");
   r.result("min_current_a", "diode current, trough", d.min_current_a, "A");
   r.result("max_current_a", "diode current, crest", d.max_current_a, "A");
-  if (d.min_current_a <= 0) r.warn("the diode turns off in the trough (clipping); raise the bias");
+  if (d.min_junction_current_a <= 0) r.warn("the diode turns off in the trough (clipping); raise the bias");
+  else if (d.min_current_a < 0)
+    r.warn("the diode current reverses in the trough while stored charge keeps the junction on (not clipping)");
 }
 
 void distortion(Run& r) {

@@ -59,15 +59,17 @@ class ChargeSolver {
   struct Period {
     double v_end, dv_end;
   };
-  Period integrate(double v0, double u, std::vector<double>& i_a) const {
+  Period integrate(double v0, double u, std::vector<double>& i_a, double* min_id_a = nullptr) const {
     const auto n = static_cast<std::size_t>(in_.samples);
     i_a.resize(n);
     double v = v0;
     State s = state(v);
     double dq = s.c;  // d q_n / d v0
+    if (min_id_a) *min_id_a = s.i;
     for (std::size_t j = 0; j < n; ++j) {
       const double t = static_cast<double>(j) * h_;
       i_a[j] = (emf(t, u) - v) / r_ohm_;
+      if (min_id_a) *min_id_a = std::min(*min_id_a, s.i);
       // Stage 1 at t + γh: q(v1) = q_n + hγ·f(t1, v1).
       const double v1 = solve_stage(t + gamma * h_, s.q, u, v);
       const State s1 = state(v1);
@@ -154,6 +156,7 @@ DistortionResult solve_distortion(const DistortionInput& in) {
   std::vector<double> i_a;
   double u = 0.0;
   int periods = 0;
+  double min_id_a = 0.0;  // trough of the junction current Id(v)
   if (!in.charge.any() || !(in.freq_hz > 0)) {
     solve_currents(in, loop, u, i_a);
     if (!in.hold_dc_point) {
@@ -168,6 +171,7 @@ DistortionResult solve_distortion(const DistortionInput& in) {
         if (std::abs(err) <= 1e-12 * in.bias_i_a) break;
       }
     }
+    min_id_a = *std::min_element(i_a.begin(), i_a.end());  // no stored charge: Id is the terminal current
   } else {
     const ChargeSolver solver(in, loop);
     double v0 = solver.quasi_static_v0(u);
@@ -189,9 +193,12 @@ DistortionResult solve_distortion(const DistortionInput& in) {
         err = next;
       }
     }
+    solver.integrate(v0, u, i_a, &min_id_a);  // the converged period once more, for the junction's trough
+    ++periods;
   }
   DistortionResult r;
   r.block_offset_v = u;
+  r.min_junction_current_a = min_id_a;
   r.periods = periods;
   r.mean_current_a = mean(i_a);
   const auto [lo, hi] = std::minmax_element(i_a.begin(), i_a.end());

@@ -61,7 +61,10 @@ struct DistortionResult {
   HarmonicSummary load;          // harmonics of the load voltage
   double load_peak_v = 0.0;      // fundamental at the load
   double mean_current_a = 0.0;   // DC through the diode over a period
-  double min_current_a = 0.0;    // trough of the diode current
+  double min_current_a = 0.0;    // trough of the diode (terminal) current
+  double min_junction_current_a = 0.0;  // trough of Id(v): ≤ 0 means the junction turns off
+                                        // (the terminal current may go negative while stored
+                                        // charge keeps the junction on)
   double max_current_a = 0.0;
   double block_offset_v = 0.0;   // u above
   int periods = 0;               // periods integrated (0: the resistive solve)
