@@ -74,9 +74,12 @@ struct DistortionResult {
 DistortionResult solve_distortion(const DistortionInput& in);
 
 // Least bias current whose THD is at most target_thd (a ratio, e.g. 0.01 for
-// 1 %): THD falls with bias roughly as a power law, so a bracketed secant on
-// log THD against log I (Illinois) finds it in a few solves, to 1e-4 of I.
-// nullopt with *why when 1 A is not enough.
+// 1 %), read as the least bias above which every bias meets the target (with
+// stored charge THD need not fall monotonically at small biases): a scan down
+// from 1 A in steps of √10 brackets the crossing, then a secant on log THD
+// against log I (Illinois; THD falls roughly as a power law) pins it to 1e-4
+// of I. 1 µA when even that meets the target; nullopt with *why when 1 A is
+// not enough.
 std::optional<double> bias_for_thd_a(DistortionInput in, double target_thd, std::string* why = nullptr);
 
 }  // namespace junco::fitting
