@@ -90,6 +90,7 @@ fitting::DesignPart design_part(const PartRow& part, const Json& fit) {
     if (const double vj = measured("vj_v"); vj > 0) p.cap.vj_v = vj;
     if (const double m = measured("m"); m > 0) p.cap.m = m;
   }
+  if (const double tt = measured("tt_s"); tt >= 0) p.tt_s = tt;  // stored charge from multi-frequency AC readings
   return p;
 }
 

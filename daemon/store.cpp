@@ -684,6 +684,10 @@ std::optional<Json> Store::latest_fit(Id part_id) {
            {"cj0_f", est(21)},
            {"vj_v", est(23)},
            {"m", est(25)}};
+  // The transit time from the run's multi-frequency AC readings (daemon/executor.cpp
+  // apply_stored_charge), kept in detail.stored_charge.
+  const Json& charge = fit["detail"].is_object() ? fit["detail"].value("stored_charge", Json()) : Json();
+  fit["tt_s"] = charge.is_object() && charge.value("ok", false) ? charge["tt_s"] : Json{{"value", nullptr}, {"std_error", nullptr}};
   std::lock_guard lock(fit_cache_mutex_);
   if (generation == fit_generation_) fit_cache_.emplace(part_id, fit);  // no fit inserted meanwhile
   return fit;
