@@ -56,7 +56,9 @@ Json off_state_readings_report(const std::vector<fitting::OffStatePoint>& points
     const double c = k < fit.c_f.size() ? fit.c_f[k] : kNaN;
     rows.push_back({{"reverse_v", points[k].reverse_v},
                     {"freq_hz", points[k].freq_hz},
-                    {"isolation_db", number_or_null(fitting::off_state_isolation_db(points[k]))},
+                    {"fixture_ratio_db", number_or_null(fitting::off_state_fixture_ratio_db(points[k]))},
+                    // the same ratio under its former name, for readers of older reports (one release)
+                    {"isolation_db", number_or_null(fitting::off_state_fixture_ratio_db(points[k]))},
                     {"c_f", number_or_null(c)},
                     {"left_out", k < fit.left_out.size() ? fit.left_out[k] : std::string()}});
   }
