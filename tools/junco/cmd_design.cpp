@@ -189,6 +189,7 @@ void print_answer(const nlohmann::json& a) {
     if (p["cj0_f"].is_number())
       std::printf("  CJO=%s VJ=%.3g V M=%.3g", format_engineering(p["cj0_f"].get<double>(), "F").c_str(), p["vj_v"].get<double>(),
                   p["m"].get<double>());
+    if (p.value("tt_s", 0.0) > 0) std::printf("  TT=%s", format_engineering(p["tt_s"].get<double>(), "s").c_str());
     std::printf("  at %.2f degC\n", p["temp_k"].get<double>() - zero_celsius_k);
     // The calculators computed at the junction temperature (SPICE law from the part's).
     if (a.contains("junction") && a["junction"]["temp_k"].get<double>() != p["temp_k"].get<double>()) {
