@@ -96,7 +96,8 @@ Json to_json(const FitRecord& f) {
               {"created_at", f.created_at},
               {"cj0_f", to_json(f.cj0_f)},
               {"vj_v", to_json(f.vj_v)},
-              {"m", to_json(f.m)}};
+              {"m", to_json(f.m)},
+              {"tt_s", to_json(f.tt_s)}};
 }
 
 }  // namespace junco::daemon

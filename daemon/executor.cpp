@@ -6,6 +6,8 @@
 
 #include "drivers/errors.hpp"
 #include "drivers/levels.hpp"
+#include "fitting/ac_charge_fit.hpp"
+#include "fitting/design_joint_fit.hpp"
 #include "fitting/electrothermal_fit.hpp"
 #include "fitting/extract.hpp"
 
@@ -13,6 +15,7 @@
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <set>
 #include <sstream>
 #include <thread>
 
@@ -106,6 +109,30 @@ void apply_electrothermal(const Config& cfg, double temp_k, const RunFixture& fi
   out.fit.reduced_chi2 = f.reduced_chi2;
 }
 
+// With small-signal AC readings at two or more frequencies, the transit time
+// TT (fitting/ac_charge_fit.hpp) with the run's Cj(V) law when the off-state
+// readings gave one: detail.stored_charge, served by part.fit as tt_s.
+void apply_stored_charge(const Config& cfg, double temp_k, const RunFixture& fixture, const std::vector<PointRow>& points, RunFit& out) {
+  const auto all = ac_points(points);
+  const fitting::Fixture fx = ac_fixture(fixture);
+  const auto screened = fitting::screen_ac_readings(all, fx, fitting::AcScreen{});
+  std::vector<fitting::AcPoint> ac;
+  for (std::size_t k = 0; k < all.size(); ++k)
+    if (screened[k].empty()) ac.push_back(all[k]);
+  std::set<double> freqs;
+  for (const auto& p : ac) freqs.insert(p.freq_hz);
+  if (freqs.size() < 2) return;  // one frequency cannot tell TT·gd from rd: nothing to say
+  fitting::AcChargeFitOptions o;
+  o.temp_k = temp_k;
+  o.is_a = out.fit.is_a.value;
+  o.ac_sigma_db = cfg.level_sigma_db();
+  if (out.cap && out.cap->ok) o.cap = {out.cap->cj0_f.value, out.cap->vj_v.value, out.cap->m.value, 0.5};
+  else o.fit_cj = true;
+  const auto f = fitting::fit_ac_stored_charge(ac, fx, o);
+  out.more_detail["stored_charge"] = fitting::ac_charge_fit_json(f);
+  if (!f.ok) out.fit.warnings.push_back("stored charge not fitted: " + f.message);
+}
+
 // The heating plan options' readings (plan.heating; fitting/heating.hpp):
 // Rth and τ from the two dwells, the up/down hysteresis, and how much
 // heating the stored Rs may still hold. Stored as detail.heating.
@@ -190,6 +217,13 @@ RunFit fit_run(const Config& cfg, double temp_k, const RunFixture& fixture, cons
   } catch (const std::exception& e) {
     out.cap.reset();
     out.fit.warnings.push_back(std::string("junction capacitance not fitted: ") + e.what());
+  }
+  if (out.fit.usable()) {
+    try {
+      apply_stored_charge(cfg, temp_k, fixture, points, out);
+    } catch (const std::exception& e) {
+      out.fit.warnings.push_back(std::string("stored charge not fitted: ") + e.what());
+    }
   }
   return out;
 }

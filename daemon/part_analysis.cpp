@@ -102,7 +102,9 @@ Json off_state_readings_report(const std::vector<fitting::OffStatePoint>& points
     const double c = k < fit.c_f.size() ? fit.c_f[k] : kNaN;
     rows.push_back({{"reverse_v", points[k].reverse_v},
                     {"freq_hz", points[k].freq_hz},
-                    {"isolation_db", number_or_null(fitting::off_state_isolation_db(points[k]))},
+                    {"fixture_ratio_db", number_or_null(fitting::off_state_fixture_ratio_db(points[k]))},
+                    // the same ratio under its former name, for readers of older reports (one release)
+                    {"isolation_db", number_or_null(fitting::off_state_fixture_ratio_db(points[k]))},
                     {"c_f", number_or_null(c)},
                     {"left_out", k < fit.left_out.size() ? fit.left_out[k] : std::string()}});
   }
@@ -131,6 +133,7 @@ fitting::DesignPart design_part(const PartRow& part, const FitRecord& fit) {
     if (const double vj = fit.vj_v.value; vj > 0) p.cap.vj_v = vj;
     if (const double m = fit.m.value; m > 0) p.cap.m = m;
   }
+  if (const double tt = fit.tt_s.value; tt >= 0) p.tt_s = tt;  // stored charge from multi-frequency AC readings
   return p;
 }
 

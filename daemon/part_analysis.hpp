@@ -51,7 +51,7 @@ std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<Poi
                                                            double rs_ohm);
 
 // What each off-state reading gave, in the order of off_state_points:
-// [{reverse_v, freq_hz, isolation_db, c_f (null when left out), left_out}].
+// [{reverse_v, freq_hz, fixture_ratio_db (and its former name isolation_db), c_f (null when left out), left_out}].
 Json off_state_readings_report(const std::vector<fitting::OffStatePoint>& points, const fitting::JunctionCapFit& fit);
 
 // The small-signal fixture of a run, from the fixture stored with it:

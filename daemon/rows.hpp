@@ -122,6 +122,9 @@ struct FitRecord {
   // covariance, excluded, iterations.
   fitting::FitResult fit;
   fitting::Estimate cj0_f, vj_v, m;  // value NaN: no law
+  // The transit time from the run's multi-frequency AC readings
+  // (detail.stored_charge, when that fit succeeded); value NaN: none.
+  fitting::Estimate tt_s;
   // The stored detail document as written (parameter_names, correlation,
   // excluded, iterations, and the reports: junction_cap, electrothermal);
   // checked on read, served as is.

@@ -1,5 +1,7 @@
 #include "daemon/startup_gate.hpp"
 
+#include "daemon/service_params.hpp"
+
 #include "junco/version.hpp"
 
 namespace junco::daemon {
@@ -52,6 +54,8 @@ Json StartupGate::starting_status() const {
 
 Json StartupGate::call(std::string_view method, const Json& params, const Caller& caller) {
   if (Service* s = service_.load()) return s->call(method, params, caller);
+  // The same refusals as the service's (unknown method or param), while starting too.
+  check_call(method, params);
   if (method == "daemon.status") return starting_status();
   {
     std::unique_lock lock(mutex_);

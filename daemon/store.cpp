@@ -823,6 +823,12 @@ std::shared_ptr<const FitRecord> Store::latest_fit(Id part_id) {
     part = "detail";
     rec->detail = stored_json(st.text(19), where + ": detail");
     read_fit_detail(rec->detail, f);
+    part = "detail.stored_charge";
+    if (const Json& charge = rec->detail.value("stored_charge", Json()); charge.is_object() && charge.value("ok", false)) {
+      const Json& tt = charge.at("tt_s");
+      rec->tt_s = fitting::Estimate{tt.at("value").is_number() ? tt["value"].get<double>() : kNaN,
+                                    tt.at("std_error").is_number() ? tt["std_error"].get<double>() : kNaN};
+    }
     part = "covariance";
     f.covariance = st.is_null(27) ? covariance_from_correlation(f)
                                   : matrix_of(stored_json(st.text(27), where + ": covariance"), f.parameter_names.size(), "covariance");

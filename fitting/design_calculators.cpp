@@ -8,6 +8,7 @@
 #include <functional>
 #include <limits>
 #include <map>
+#include <numbers>
 
 namespace junco::fitting {
 
@@ -37,6 +38,12 @@ std::vector<DesignInputSpec> circuit_inputs(bool with_freq) {
     v.push_back(with_default("ls_h", "ls", "H", "series L", 0.0, InputRange::non_negative));
   }
   return v;
+}
+
+// The distortion calculators' own: the signal frequency (it matters with
+// stored charge) and the topology.
+std::vector<DesignInputSpec> distortion_inputs() {
+  return {with_default("freq_hz", "freq", "Hz", "frequency", 10e6, InputRange::positive), switch_input()};
 }
 
 std::vector<DesignInputSpec> join(std::vector<DesignInputSpec> a, const std::vector<DesignInputSpec>& b) {
@@ -75,6 +82,7 @@ class Run {
       if (has("cj0_f")) part_copy_.cap.cj0_f = number("cj0_f");
       if (has("vj_v")) part_copy_.cap.vj_v = number("vj_v");
       if (has("m")) part_copy_.cap.m = number("m");
+      if (has("tt_s")) part_copy_.tt_s = number("tt_s");
       if (has("eg_ev")) part_copy_.law.eg_ev = number("eg_ev");
       if (has("xti")) part_copy_.law.xti = number("xti");
       if (has("trs1_per_k")) part_copy_.law.trs1_per_k = number("trs1_per_k");
@@ -99,6 +107,7 @@ class Run {
         answer_["junction"]["cj0_f"] = part_copy_.cap.cj0_f;
         answer_["junction"]["vj_v"] = part_copy_.cap.vj_v;
       }
+      answer_["junction"]["tt_s"] = part_copy_.tt_s;
     }
   }
 
@@ -131,7 +140,7 @@ class Run {
   void assume_all() {
     for (const auto& s : calc_.inputs) assumed(s.key);
     if (!calc_.needs_part) return;
-    for (const char* key : {"temp_k", "eg_ev", "xti", "trs1_per_k"})
+    for (const char* key : {"temp_k", "eg_ev", "xti", "trs1_per_k", "tt_s"})
       if (has(key)) assumed(key);
   }
   void result(const std::string& key, const std::string& label, double value, const std::string& unit) {
@@ -214,18 +223,23 @@ Parasitics series_l(const Run& r) { return {r.number("ls_h"), 0.0}; }
 void loss(Run& r) {
   r.assume_all();
   const auto& p = r.part();
-  const double db = on_state_loss_db(r.kind(), p.dc, r.number("current_a"), r.number("rg_ohm"), r.number("rl_ohm"),
-                                     r.number("freq_hz"), series_l(r), p.temp_k);
+  const double db = on_state_loss_db(r.kind(), p.dc, p.charge(), r.number("current_a"), r.number("rg_ohm"),
+                                     r.number("rl_ohm"), r.number("freq_hz"), series_l(r), p.temp_k);
   if (r.kind() == SwitchKind::series) r.result("loss_db", "insertion loss (biased series switch)", db, "dB");
   else r.result("loss_db", "isolation (biased shunt switch)", db, "dB");
+  if (p.charge().any()) {
+    const double w = 2.0 * std::numbers::pi * r.number("freq_hz");
+    const auto y = junction_admittance_s(p.dc, p.charge(), r.number("current_a"), r.number("freq_hz"), p.temp_k);
+    r.result("junction_c_f", "junction C at the bias (Cj(V) + TT*gd)", y.imag() / w, "F");
+  }
 }
 
 void bias_for_loss(Run& r) {
   r.assume_all();
   const auto& p = r.part();
   std::string why;
-  const auto i = bias_for_loss_a(r.kind(), p.dc, r.number("target_db"), r.number("rg_ohm"), r.number("rl_ohm"),
-                                 r.number("freq_hz"), series_l(r), p.temp_k, &why);
+  const auto i = bias_for_loss_a(r.kind(), p.dc, p.charge(), r.number("target_db"), r.number("rg_ohm"),
+                                 r.number("rl_ohm"), r.number("freq_hz"), series_l(r), p.temp_k, &why);
   if (!i) return r.not_achievable(why);
   r.result("bias_current_a", "bias current", *i, "A");
   if (!r.has("supply_v")) return;
@@ -245,6 +259,9 @@ DistortionInput distortion_input(const Run& r) {
   DistortionInput in;
   in.part = r.part().dc;
   in.temp_k = r.part().temp_k;
+  in.charge = r.part().charge();
+  in.kind = r.kind();
+  in.freq_hz = r.number("freq_hz");
   in.source_peak_v = r.number("amplitude_v");
   in.rg_ohm = r.number("rg_ohm");
   in.rl_ohm = r.number("rl_ohm");
@@ -259,7 +276,9 @@ void harmonics(Run& r, const DistortionResult& d) {
   r.result("thd_db", "THD", d.load.thd_db(), "dB");
   r.result("min_current_a", "diode current, trough", d.min_current_a, "A");
   r.result("max_current_a", "diode current, crest", d.max_current_a, "A");
-  if (d.min_current_a <= 0) r.warn("the diode turns off in the trough (clipping); raise the bias");
+  if (d.min_junction_current_a <= 0) r.warn("the diode turns off in the trough (clipping); raise the bias");
+  else if (d.min_current_a < 0)
+    r.warn("the diode current reverses in the trough while stored charge keeps the junction on (not clipping)");
 }
 
 void distortion(Run& r) {
@@ -286,7 +305,8 @@ void isolation(Run& r) {
     throw DesignInputError("cj0_f", "isolation needs the junction capacitance: give cj0_f (--cj), or a model that has it");
   r.assume_all();
   const double cj = junction_capacitance_f(p.cap, -r.number("reverse_v"));
-  const auto z = off_impedance(cj, r.number("freq_hz"), {r.number("ls_h"), r.number("rr_ohm")});
+  const auto z = diode_off_impedance(p.dc, p.charge(), r.number("reverse_v"), r.number("freq_hz"),
+                                     {r.number("ls_h"), r.number("rr_ohm")}, p.temp_k);
   const double db = switch_loss_db(r.kind(), z, r.number("rg_ohm"), r.number("rl_ohm"));
   r.result("cj_f", "Cj at the reverse bias", cj, "F");
   if (r.kind() == SwitchKind::series) r.result("isolation_db", "isolation (unbiased series switch)", db, "dB");
@@ -314,6 +334,7 @@ const std::vector<DesignInputSpec>& design_part_inputs() {
       optional_input("cj0_f", "cj", "F", "zero-bias Cj", InputRange::positive),
       optional_input("vj_v", "vj", "V", "junction potential VJ", InputRange::positive),
       optional_input("m", "m", "", "grading coefficient M", InputRange::positive),
+      optional_input("tt_s", "tt", "s", "transit time TT", InputRange::non_negative),
       optional_input("temp_k", "temp", "K", "junction T", InputRange::positive),
       optional_input("eg_ev", "eg", "eV", "EG", InputRange::positive),
       optional_input("xti", "xti", "", "XTI", InputRange::any),
@@ -338,7 +359,7 @@ const std::vector<CalculatorRow>& calculator_rows() {
       {{"bias-r", "bias resistor for a target current: Rb = (Vs - Vd(I))/I - Rr", true,
        {required("supply_v", "supply", "V", "supply", R::positive), required("current_a", "current", "A", "target current", R::positive),
         with_default("rreturn_ohm", "rreturn", "Ohm", "DC return", 0.0, R::non_negative)}}, bias_r},
-      {{"loss", "biased-state loss at a bias current: insertion loss (series) or isolation (shunt)", true,
+      {{"loss", "biased-state loss at a bias current and frequency (RS, rd, Cj(V), TT): insertion loss (series) or isolation (shunt)", true,
        join({switch_input(), required("current_a", "current", "A", "bias current", R::positive)}, circuit_inputs(true))}, loss},
       {{"bias-for-loss", "bias current (and resistor, given a supply) for a target biased-state loss", true,
        join({switch_input(), required("target_db", "target", "dB", "target loss", R::positive),
@@ -349,14 +370,19 @@ const std::vector<CalculatorRow>& calculator_rows() {
         with_default("rl_ohm", "rl", "Ohm", "load RL", 50.0, R::positive),
         with_default("rreturn_ohm", "rreturn", "Ohm", "DC return", inf, R::positive, "choke (no AC shunt)"),
         with_default("floor_a", "floor", "A", "trough floor", 0.0, R::non_negative)}}, headroom},
-      {{"distortion", "HD2, HD3 and THD at a bias and amplitude (time-domain solve of the nonlinear circuit)", true,
-       join({required("current_a", "current", "A", "bias current", R::positive),
-             required("amplitude_v", "amplitude", "V", "EMF peak", R::positive)},
-            circuit_inputs(false))}, distortion},
-      {{"bias-for-thd", "least bias for a target THD at an amplitude", true,
-       join({required("target_pct", "target", "%", "target THD", R::positive), required("amplitude_v", "amplitude", "V", "EMF peak", R::positive)},
-            circuit_inputs(false))}, bias_for_thd},
-      {{"isolation", "off state from the junction capacitance Cj(V): isolation (series) or loss (shunt)", true,
+      {{"distortion",
+       "HD2, HD3 and THD at a bias, amplitude and frequency (periodic steady state of the circuit with the SPICE junction: "
+       "exponential diode, RS, Cj(V), TT)",
+       true,
+       join(join({required("current_a", "current", "A", "bias current", R::positive),
+                  required("amplitude_v", "amplitude", "V", "EMF peak", R::positive)},
+                 circuit_inputs(false)),
+            distortion_inputs())}, distortion},
+      {{"bias-for-thd", "least bias for a target THD at an amplitude and frequency", true,
+       join(join({required("target_pct", "target", "%", "target THD", R::positive), required("amplitude_v", "amplitude", "V", "EMF peak", R::positive)},
+                 circuit_inputs(false)),
+            distortion_inputs())}, bias_for_thd},
+      {{"isolation", "off state at a reverse bias and frequency (RS, Cj(V)): isolation (series) or insertion loss (shunt)", true,
        join({switch_input(), with_default("reverse_v", "reverse", "V", "reverse bias", 0.0, R::non_negative),
              with_default("rr_ohm", "rr", "Ohm", "off resistance", 0.0, R::non_negative)},
             circuit_inputs(true))}, isolation},
@@ -396,6 +422,7 @@ Json design_part_json(const DesignPart& p) {
   } else {
     j["cj0_f"] = nullptr;
   }
+  j["tt_s"] = p.tt_s;
   return j;
 }
 
@@ -404,7 +431,8 @@ DesignPart design_part_from_json(const Json& j) {
   static const std::map<std::string, InputRange> numbers{{"is_a", InputRange::positive},  {"n", InputRange::positive},
                                                          {"rs_ohm", InputRange::non_negative}, {"temp_k", InputRange::positive},
                                                          {"cj0_f", InputRange::non_negative}, {"vj_v", InputRange::positive},
-                                                         {"m", InputRange::positive}, {"eg_ev", InputRange::positive},
+                                                         {"m", InputRange::positive}, {"tt_s", InputRange::non_negative},
+                                                         {"eg_ev", InputRange::positive},
                                                          {"xti", InputRange::any}, {"trs1_per_k", InputRange::any},
                                                          {"trs2_per_k2", InputRange::any}};
   for (const auto& [key, value] : j.items()) {
@@ -415,7 +443,7 @@ DesignPart design_part_from_json(const Json& j) {
     const auto it = numbers.find(key);
     if (it == numbers.end())
       throw DesignInputError("part." + key, "part." + key +
-                                                ": not a part parameter (is_a, n, rs_ohm, temp_k, cj0_f, vj_v, m, eg_ev, xti, "
+                                                ": not a part parameter (is_a, n, rs_ohm, temp_k, cj0_f, vj_v, m, tt_s, eg_ev, xti, "
                                                 "trs1_per_k, trs2_per_k2, label)");
     if (key == "cj0_f" && value.is_null()) continue;
     const bool positive = it->second == InputRange::positive, any = it->second == InputRange::any;
@@ -435,6 +463,7 @@ DesignPart design_part_from_json(const Json& j) {
   if (j.contains("cj0_f") && j["cj0_f"].is_number()) p.cap.cj0_f = j["cj0_f"].get<double>();
   if (j.contains("vj_v")) p.cap.vj_v = j["vj_v"].get<double>();
   if (j.contains("m")) p.cap.m = j["m"].get<double>();
+  if (j.contains("tt_s")) p.tt_s = j["tt_s"].get<double>();
   if (j.contains("eg_ev")) p.law.eg_ev = j["eg_ev"].get<double>();
   if (j.contains("xti")) p.law.xti = j["xti"].get<double>();
   if (j.contains("trs1_per_k")) p.law.trs1_per_k = j["trs1_per_k"].get<double>();

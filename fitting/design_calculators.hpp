@@ -38,6 +38,8 @@ struct DesignPart {
   double temp_k = 300.15;  // temperature at which dc holds (TNOM)
   TemperatureLaw law;      // EG, XTI (SPICE defaults unless given), TRS1/TRS2
   JunctionCap cap;  // cj0_f = 0: unknown
+  double tt_s = 0.0;  // transit time TT (diffusion charge TT·Id); 0 = none or unknown
+  JunctionCharge charge() const { return {cap, tt_s}; }
 };
 
 enum class InputRange { any, positive, non_negative };
@@ -76,7 +78,7 @@ const std::vector<DesignCalculator>& design_calculators();
 const DesignCalculator* find_design_calculator(const std::string& name);
 
 // Inputs every part-based calculator also takes: they override the part's
-// junction capacitance law (cj0_f, vj_v, m) and temperature law (eg_ev, xti,
+// stored charge (cj0_f, vj_v, m, tt_s) and temperature law (eg_ev, xti,
 // trs1_per_k), and set the junction temperature (temp_k; default the part's).
 const std::vector<DesignInputSpec>& design_part_inputs();
 
@@ -94,7 +96,7 @@ nlohmann::json design_part_json(const DesignPart& part);
 
 // The inverse, for a part given by value (the socket's design.run): is_a > 0,
 // n > 0 and rs_ohm >= 0 required; label, temp_k > 0, cj0_f >= 0 (or null:
-// unknown), vj_v > 0, m > 0, eg_ev > 0, xti, trs1_per_k, trs2_per_k2
+// unknown), vj_v > 0, m > 0, tt_s >= 0, eg_ev > 0, xti, trs1_per_k, trs2_per_k2
 // optional (as the inputs' overrides). So an answer's "part" reads back
 // as the same part. Throws DesignInputError naming "part.KEY".
 DesignPart design_part_from_json(const nlohmann::json& part);

@@ -1,24 +1,38 @@
-// Large-signal distortion of a series diode switch, from a time-domain solve
-// of the nonlinear circuit over one signal period.
+// Large-signal distortion of a diode switch, series or shunt, from a
+// time-domain solve of the nonlinear circuit over one signal period.
 //
-//   EMF v̂·sin(ωt) ── Rg ── block ── diode ── block ── RL ── gnd
-//                                  ↑ I (bias)  ↓ I (return)
-//
-// The bias arrives and leaves through chokes (ideal current sources, so no
+//   series:  EMF v̂·sin(ωt) ── Rg ── block ── diode ── block ── RL ── gnd
+//   shunt:   EMF v̂·sin(ωt) ── Rg ── block ──┬── block ── RL ── gnd
+//                                          diode ── gnd
+// The bias I arrives and leaves through chokes (ideal current sources, so no
 // signal current is lost in the bias network) and the DC blocks are ideal
-// capacitors. Nothing in the loop stores energy at the signal frequency, so
-// each instant is an exact Lambert-W solve of
-//   v_eff(t) = i(t)·(Rg + RL) + Vd(i(t)),  v_eff = Vd(I) + I·(Rg+RL) + u + v̂·sin(ωt).
+// capacitors. The diode sees a Thévenin source: series Rth = Rg + RL and the
+// full EMF; shunt Rth = Rg ∥ RL and the EMF times RL/(Rg + RL). The load
+// voltage is i·RL (series) or the diode node's voltage (shunt), AC part.
+//
+// The diode is the SPICE level-1 junction (junction_charge.hpp): exponential
+// current, RS, depletion charge of Cj(V) and diffusion charge TT·Id. Loop:
+//   E(t) = Vd(I) + I·(Rth + RS) + u + a·sin(ωt),
+//   E(t) = v(t) + (Rth + RS)·i(t),   i = Id(v) + dq(v)/dt,
+// v the junction voltage. Without stored charge each instant is an exact
+// Lambert-W solve (the resistive, low-frequency nonlinearity of rj = n·Vt/I).
+// With it, the periodic steady state is found by shooting on v(0) (Newton,
+// with the period map's derivative carried along the steps), integrating the
+// charge with Alexander's 2-stage L-stable SDIRK (order 2; L-stable because
+// the junction's time constant can be far shorter than a step) at `samples`
+// steps per period; each stage is a safeguarded scalar Newton in v. The
+// harmonics come from a DFT of one period of the load voltage.
 // u is the charge the blocks take up: in steady state no DC flows through a
 // capacitor, so u makes the mean diode current equal the bias I (rectification
 // lowers the effective drive); hold_dc_point = true instead keeps the blocks
 // at their DC operating-point voltage (u = 0), which is what a transient
 // simulator shows in the first periods after its DC operating point.
-// Junction capacitance is not modelled: this is the low-frequency (resistive)
-// nonlinearity of rj = n·Vt/I (docs/references.md §6: for PIN diodes well above
-// 1/(2πτ) this overestimates the distortion).
+// Stored charge is what makes distortion fall with frequency: above
+// 1/(2π·TT) the diffusion charge carries the signal and the junction voltage
+// (the nonlinearity) hardly moves (docs/references.md §6).
 #pragma once
 
+#include "fitting/design_switch.hpp"
 #include "fitting/diode.hpp"
 #include "fitting/harmonics.hpp"
 
@@ -30,12 +44,15 @@ namespace junco::fitting {
 
 struct DistortionInput {
   DiodeParams part;
+  JunctionCharge charge;  // Cj(V) and TT; none: the resistive solve
+  SwitchKind kind = SwitchKind::series;
+  double freq_hz = 10e6;  // signal frequency (matters only with stored charge)
   double bias_i_a = 10e-3;
   double source_peak_v = 0.1;  // open-circuit EMF amplitude of the generator
   double rg_ohm = 50.0;
   double rl_ohm = 50.0;
   double temp_k = 300.15;
-  int samples = 256;       // per period
+  int samples = 256;       // per period (time steps of the charge solve)
   int harmonics = 9;       // highest harmonic reported
   bool hold_dc_point = false;
 };
@@ -44,16 +61,25 @@ struct DistortionResult {
   HarmonicSummary load;          // harmonics of the load voltage
   double load_peak_v = 0.0;      // fundamental at the load
   double mean_current_a = 0.0;   // DC through the diode over a period
-  double min_current_a = 0.0;    // trough of the diode current
+  double min_current_a = 0.0;    // trough of the diode (terminal) current
+  double min_junction_current_a = 0.0;  // trough of Id(v): ≤ 0 means the junction turns off
+                                        // (the terminal current may go negative while stored
+                                        // charge keeps the junction on)
   double max_current_a = 0.0;
   double block_offset_v = 0.0;   // u above
+  int periods = 0;               // periods integrated (0: the resistive solve)
   std::vector<double> load_v;    // one period of the load voltage (AC part)
 };
 
 DistortionResult solve_distortion(const DistortionInput& in);
 
 // Least bias current whose THD is at most target_thd (a ratio, e.g. 0.01 for
-// 1 %), by bisection on log(I). nullopt with *why when 1 A is not enough.
+// 1 %), read as the least bias above which every bias meets the target (with
+// stored charge THD need not fall monotonically at small biases): a scan down
+// from 1 A in steps of √10 brackets the crossing, then a secant on log THD
+// against log I (Illinois; THD falls roughly as a power law) pins it to 1e-4
+// of I. 1 µA when even that meets the target; nullopt with *why when 1 A is
+// not enough.
 std::optional<double> bias_for_thd_a(DistortionInput in, double target_thd, std::string* why = nullptr);
 
 }  // namespace junco::fitting

@@ -30,53 +30,53 @@ double series_shunt_loss_db(cplx zs, cplx zsh, double z0_ohm) {
   return -20.0 * std::log10(std::abs(s21));
 }
 
-double junction_capacitance_f(const JunctionCap& cap, double v) {
-  const double vj = std::min(cap.vj_v, 1.0 / cap.fc);  // ngspice limits VJ to 1/FC
-  if (v < cap.fc * vj) return cap.cj0_f * std::pow(1.0 - v / vj, -cap.m);
-  const double f2 = std::pow(1.0 - cap.fc, 1.0 + cap.m);
-  const double f3 = 1.0 - cap.fc * (1.0 + cap.m);
-  return cap.cj0_f / f2 * (f3 + cap.m * v / vj);
-}
-
 cplx off_impedance(double c_f, double freq_hz, const Parasitics& par) {
   const double w = 2.0 * std::numbers::pi * freq_hz;
   return cplx(par.r_reverse_ohm, w * par.ls_h - 1.0 / (w * c_f));
 }
 
-namespace {
-
-cplx on_impedance(const DiodeParams& p, double bias_i_a, double freq_hz, const Parasitics& par, double temp_k) {
+cplx diode_off_impedance(const DiodeParams& p, const JunctionCharge& charge, double reverse_v, double freq_hz,
+                         const Parasitics& par, double temp_k) {
   const double w = 2.0 * std::numbers::pi * freq_hz;
-  return cplx(p.rs_ohm + junction_resistance_ohm(p, bias_i_a, temp_k), w * par.ls_h);
+  const cplx zj = 1.0 / junction_admittance_at_voltage_s(p, charge, -reverse_v, freq_hz, temp_k);
+  return cplx(p.rs_ohm + par.r_reverse_ohm, w * par.ls_h) + zj;
 }
 
-}  // namespace
-
-double on_state_loss_db(SwitchKind kind, const DiodeParams& p, double bias_i_a, double rg_ohm, double rl_ohm,
-                        double freq_hz, const Parasitics& par, double temp_k) {
-  return switch_loss_db(kind, on_impedance(p, bias_i_a, freq_hz, par, temp_k), rg_ohm, rl_ohm);
+double on_state_loss_db(SwitchKind kind, const DiodeParams& p, const JunctionCharge& charge, double bias_i_a,
+                        double rg_ohm, double rl_ohm, double freq_hz, const Parasitics& par, double temp_k) {
+  const double w = 2.0 * std::numbers::pi * freq_hz;
+  const cplx z = diode_small_signal_impedance(p, charge, bias_i_a, freq_hz, temp_k) + cplx(0.0, w * par.ls_h);
+  return switch_loss_db(kind, z, rg_ohm, rl_ohm);
 }
 
-std::optional<double> bias_for_loss_a(SwitchKind kind, const DiodeParams& p, double target_db, double rg_ohm,
-                                      double rl_ohm, double freq_hz, const Parasitics& par, double temp_k,
-                                      std::string* why) {
-  // Series loss falls and shunt isolation rises monotonically with bias, so
-  // bisect on log(I) between a leakage-level and an unreasonably high bias.
-  const auto loss = [&](double i) { return on_state_loss_db(kind, p, i, rg_ohm, rl_ohm, freq_hz, par, temp_k); };
-  double lo = 1e-9, hi = 10.0;
-  const double at_hi = loss(hi), at_lo = loss(lo);
+std::optional<double> bias_for_loss_a(SwitchKind kind, const DiodeParams& p, const JunctionCharge& charge,
+                                      double target_db, double rg_ohm, double rl_ohm, double freq_hz,
+                                      const Parasitics& par, double temp_k, std::string* why) {
+  const auto loss = [&](double i) { return on_state_loss_db(kind, p, charge, i, rg_ohm, rl_ohm, freq_hz, par, temp_k); };
   const bool series = kind == SwitchKind::series;
-  if (series ? target_db <= at_hi : target_db >= at_hi) {
+  const auto meets = [&](double db) { return series ? db <= target_db : db >= target_db; };
+  // Scan log(I) from a leakage-level to an unreasonably high bias in steps of
+  // 10^(1/8) for the first bias that meets the target; without capacitance the
+  // loss is monotonic and this is the same answer as bisection over the range.
+  constexpr double lo_a = 1e-9, hi_a = 10.0, step = 1.333521432163324;  // 10^(1/8)
+  if (meets(loss(lo_a))) return lo_a;
+  double lo = lo_a, hi = 0.0;
+  for (double i = lo_a * step; i <= hi_a * 1.0000001; i *= step) {
+    if (meets(loss(i))) {
+      hi = i;
+      break;
+    }
+    lo = i;
+  }
+  if (!(hi > 0.0)) {
     if (why)
       *why = std::string("target ") + (series ? "insertion loss" : "isolation") +
-             " cannot be reached: even 10 A gives " + std::to_string(at_hi) + " dB (limited by Rs and Ls)";
+             " cannot be reached: even 10 A gives " + std::to_string(loss(hi_a)) + " dB (limited by Rs, Ls and the capacitances)";
     return std::nullopt;
   }
-  if (series ? target_db >= at_lo : target_db <= at_lo) return lo;
   for (int k = 0; k < 200 && hi / lo > 1.0 + 1e-12; ++k) {
     const double mid = std::sqrt(lo * hi);
-    const bool mid_meets = series ? loss(mid) <= target_db : loss(mid) >= target_db;
-    (mid_meets ? hi : lo) = mid;
+    (meets(loss(mid)) ? hi : lo) = mid;
   }
   return hi;
 }

@@ -188,7 +188,7 @@ double off_state_capacitance_f(const OffStatePoint& p, const Fixture& fixture, d
   return 1.0 / (2.0 * std::numbers::pi * p.freq_hz * std::sqrt(d.a_ohm2 - d.r_ohm2));
 }
 
-double off_state_isolation_db(const OffStatePoint& p) { return -20.0 * std::log10(p.vout / p.vin); }
+double off_state_fixture_ratio_db(const OffStatePoint& p) { return -20.0 * std::log10(p.vout / p.vin); }
 
 double off_state_sigma_ln_c(const OffStatePoint& p, const Fixture& fixture, double rs_ohm, double sigma_db) {
   const Divider d = divider(p, fixture, rs_ohm);

@@ -73,8 +73,12 @@ struct JunctionCapFit {
 // also when |G| >= z/(z + Rs), which no series capacitance can give).
 double off_state_capacitance_f(const OffStatePoint& p, const Fixture& fixture, double rs_ohm);
 
-// Off-state isolation the reading shows: −20·log10(vout/vin) (dB, positive = isolation).
-double off_state_isolation_db(const OffStatePoint& p);
+// The fixture ratio of an off-state reading: −20·log10(vout/vin) (dB). It is
+// the level meter's ratio in the fixture, not the switch's isolation (that
+// has one definition, design_switch.hpp: a matched Z0 system).
+double off_state_fixture_ratio_db(const OffStatePoint& p);
+// The former name of the same ratio, kept while callers move.
+inline double off_state_isolation_db(const OffStatePoint& p) { return off_state_fixture_ratio_db(p); }
 
 // Standard uncertainty of ln C from one reading with ratio uncertainty
 // sigma_db (see above); NaN where C is NaN.

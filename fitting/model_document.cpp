@@ -64,6 +64,7 @@ std::string model_document_json(const PartModel& p) {
   if (std::isfinite(p.cj0_f)) model["cj0_f"] = estimate(p.cj0_f, nan);
   if (std::isfinite(p.vj_v)) model["vj_v"] = estimate(p.vj_v, nan);
   if (std::isfinite(p.m)) model["m"] = estimate(p.m, nan);
+  if (std::isfinite(p.tt_s)) model["tt_s"] = estimate(p.tt_s, p.tt_se_s);
   Json doc{{"format", model_document_format},
            {"version", model_document_version},
            {"part", part},
@@ -103,6 +104,8 @@ std::optional<PartModel> parse_model_document(const std::string& text, std::stri
     read_estimate(model, "cj0_f", false, p.cj0_f, nullptr);
     read_estimate(model, "vj_v", false, p.vj_v, nullptr);
     read_estimate(model, "m", false, p.m, nullptr);
+    read_estimate(model, "tt_s", false, p.tt_s, &p.tt_se_s);
+    if (std::isfinite(p.tt_s) && !(p.tt_s >= 0.0)) throw Bad("model.tt_s.value must not be negative (seconds)");
     if (!(p.params.is_a > 0.0)) throw Bad("model.is_a.value must be positive");
     if (!(p.params.n > 0.0)) throw Bad("model.n.value must be positive");
     if (!(p.params.rs_ohm >= 0.0)) throw Bad("model.rs_ohm.value must not be negative");

@@ -7,7 +7,7 @@
 //    "part":{"label":"K7-014","lot":"LOT-2291","run_id":"run-12"},
 //    "temperature_k":300.15,
 //    "model":{"is_a":{"value":2.1e-9,"std_error":1e-11},"n":{...},"rs_ohm":{...},
-//             "rsh_ohm":{...}?,"cj0_f":{...}?,"vj_v":{...}?,"m":{...}?},
+//             "rsh_ohm":{...}?,"cj0_f":{...}?,"vj_v":{...}?,"m":{...}?,"tt_s":{...}?},
 //    "temperature_law":{"eg_ev":1.11,"xti":3,"trs1_per_k":0,"trs2_per_k2":0},
 //    "fit":{"rms_residual":0.8,"points_used":40}?}
 //

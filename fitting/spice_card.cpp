@@ -51,6 +51,7 @@ std::string spice_model_card(const PartModel& part, const std::string& name) {
   s += "* RS = " + with_error(part.params.rs_ohm, part.rs_se_ohm, "ohm") + "\n";
   if (std::isfinite(part.params.rsh_ohm))
     s += "* the fit's shunt RSH = " + num(part.params.rsh_ohm) + " ohm has no D-model parameter; add a resistor\n";
+  if (std::isfinite(part.tt_s)) s += "* TT = " + with_error(part.tt_s, part.tt_se_s, "s") + " (stored charge: diffusion capacitance TT*gd)\n";
   if (std::isfinite(part.rms_residual))
     s += "* fit rms residual " + num(part.rms_residual) + " over " + std::to_string(part.points_used) + " points\n";
   s += ".model " + model + " D(IS=" + num(part.params.is_a) + " N=" + num(part.params.n) +
@@ -58,6 +59,7 @@ std::string spice_model_card(const PartModel& part, const std::string& name) {
   if (std::isfinite(part.cj0_f)) s += " CJO=" + num(part.cj0_f);
   if (std::isfinite(part.vj_v)) s += " VJ=" + num(part.vj_v);
   if (std::isfinite(part.m)) s += " M=" + num(part.m);
+  if (std::isfinite(part.tt_s)) s += " TT=" + num(part.tt_s);
   std::snprintf(line, sizeof line, " EG=%.6g XTI=%.6g", part.law.eg_ev, part.law.xti);
   s += line;
   if (part.law.trs1_per_k != 0.0) s += " TRS1=" + num(part.law.trs1_per_k);

@@ -2,7 +2,7 @@
 // SPICE diode model card made from it. Pure: strings in, string out.
 //
 // Card parameter names and units follow the SPICE level-1 diode (docs/references.md
-// §2): IS [A], N, RS [Ω], CJO [F], VJ [V], M, EG [eV], XTI, TRS1 [1/K],
+// §2): IS [A], N, RS [Ω], CJO [F], VJ [V], M, TT [s], EG [eV], XTI, TRS1 [1/K],
 // TRS2 [1/K²], TNOM [°C]. Parameters left at NaN are omitted so the
 // simulator's defaults apply. EG and XTI are always written (the values junco's
 // own calculators use away from TNOM, temperature.hpp), TRS1/TRS2 when not 0,
@@ -31,6 +31,8 @@ struct PartModel {
   double cj0_f = std::numeric_limits<double>::quiet_NaN();  // optional C–V law
   double vj_v = std::numeric_limits<double>::quiet_NaN();
   double m = std::numeric_limits<double>::quiet_NaN();
+  double tt_s = std::numeric_limits<double>::quiet_NaN();     // transit time TT (stored charge), optional
+  double tt_se_s = std::numeric_limits<double>::quiet_NaN();  // its standard error, when fitted
   double rms_residual = std::numeric_limits<double>::quiet_NaN();  // of the fit, as the fit reports it
   std::size_t points_used = 0;
   std::vector<std::string> notes;  // extra comment lines for the card (e.g. what a lot nominal is made of)

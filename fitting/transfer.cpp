@@ -22,12 +22,11 @@ double junction_resistance_ohm(const DiodeParams& p, double bias_i_a, double tem
 }
 
 cplx diode_on_impedance(const AcPart& part, double bias_i_a, double freq_hz, double temp_k) {
-  cplx zj = junction_resistance_ohm(part.dc, bias_i_a, temp_k);
-  if (part.cj_f > 0.0 && freq_hz > 0.0) {
-    const cplx yc(0.0, 2.0 * std::numbers::pi * freq_hz * part.cj_f);
-    zj = 1.0 / (1.0 / zj + yc);
-  }
-  return part.dc.rs_ohm + zj;
+  const double gd = 1.0 / junction_resistance_ohm(part.dc, bias_i_a, temp_k);
+  double c = part.cj_f + part.tt_s * gd;
+  if (part.cap.cj0_f > 0.0) c += junction_capacitance_f(part.cap, junction_voltage_at_current_v(part.dc, bias_i_a, temp_k));
+  if (!(c > 0.0) || !(freq_hz > 0.0)) return part.dc.rs_ohm + 1.0 / gd;
+  return part.dc.rs_ohm + 1.0 / cplx(gd, 2.0 * std::numbers::pi * freq_hz * c);
 }
 
 double cathode_load_ohm(const Fixture& fx) {

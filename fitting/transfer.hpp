@@ -11,7 +11,14 @@
 // DC-return resistor Rr a shunt at the cathode node (infinite = absent; a
 // choke is an infinite shunt). The diode is Rs + rj, where rj = n·Vt/(I + Is)
 // is the junction's small-signal resistance at bias current I, with the
-// junction capacitance Cj (when known) in parallel with rj only.
+// junction's stored charge (when known) in parallel with rj only: a constant
+// Cj or the law Cj(V) at the bias, plus the diffusion capacitance TT·gd
+// (junction_charge.hpp), so the junction is 1/(gd + jω(Cj + TT·gd)).
+//
+// Naming: the ratio the level meter measures, Vout/Vin (ch2/ch1), is the
+// "fixture gain" (in dB, the fixture ratio); it is not a loss. Insertion loss
+// and isolation have one definition (design_switch.hpp, docs/design.md).
+
 //
 // Two ratios are offered:
 //   * fixture gain   Vout/Vin (ch2 over ch1): what the level meter measures;
@@ -22,6 +29,7 @@
 #pragma once
 
 #include "fitting/diode.hpp"
+#include "fitting/junction_charge.hpp"
 
 #include <complex>
 #include <limits>
@@ -42,8 +50,13 @@ struct Fixture {
 // The part as the AC model needs it: DC parameters plus an optional
 // zero-bias junction capacitance (0 = unknown/ignored).
 struct AcPart {
+  // A constructor (not an aggregate) so the common {dc, cj_f} stays complete.
+  AcPart(DiodeParams dc_ = {}, double cj_f_ = 0.0, double tt_s_ = 0.0, JunctionCap cap_ = {})
+      : dc(dc_), cj_f(cj_f_), tt_s(tt_s_), cap(cap_) {}
   DiodeParams dc;
-  double cj_f = 0.0;  // junction capacitance at the bias point (parallel to rj)
+  double cj_f = 0.0;  // constant junction capacitance (parallel to rj); adds to the law's
+  double tt_s = 0.0;  // transit time: diffusion capacitance TT·gd (parallel to rj)
+  JunctionCap cap;    // depletion law Cj(V) at the bias point; cap.cj0_f = 0: none
 };
 
 // Junction small-signal resistance n·Vt/(I + Is) (without Rs).
@@ -62,14 +75,15 @@ std::complex<double> transfer_ratio(const Fixture& fx, std::complex<double> z_di
 
 inline double to_db(std::complex<double> ratio) { return 20.0 * std::log10(std::abs(ratio)); }
 
-// 20·log10|Vout/Vin| of the fixture for a diode Rs + (rj ∥ Cj) in series with
-// the cathode's load z_load = RL ∥ Rr, omega_cj = ω·Cj (0: no Cj). The same
-// value as to_db(fixture_gain(...)), written out in real arithmetic so the
-// fits can differentiate it with Ceres's dual numbers.
-template <typename T>
-T fixture_gain_db_of(const T& rj, const T& rs, double omega_cj, double z_load) {
+// 20·log10|Vout/Vin| of the fixture for a diode Rs + (rj ∥ Cj ∥ TT·gd) in
+// series with the cathode's load z_load = RL ∥ Rr, omega_cj = ω·Cj (0: no
+// Cj), omega_tt = ω·TT (0: no stored charge; TT·gd·rj = TT). The same value
+// as to_db(fixture_gain(...)), written out in real arithmetic so the fits can
+// differentiate it with Ceres's dual numbers.
+template <typename T, typename U = double>
+T fixture_gain_db_of(const T& rj, const T& rs, double omega_cj, double z_load, const U& omega_tt = U(0.0)) {
   using std::log10;
-  const T a = omega_cj * rj;  // ω·Cj·rj
+  const T a = omega_cj * rj + omega_tt;  // ω·(Cj·rj + TT)
   const T re = rs + rj / (1.0 + a * a) + z_load;
   const T im = -a * rj / (1.0 + a * a);
   return 10.0 * log10((z_load * z_load) / (re * re + im * im));

@@ -60,29 +60,29 @@ TEST_CASE("E11: signal diode in 50 ohm, loss against bias, series and shunt") {
   const double il[] = {2.067, 0.520, 0.306, 0.197, 0.131};
   const double iso[] = {5.71, 14.07, 18.03, 21.51, 24.85};
   for (int k = 0; k < 5; ++k) {
-    CHECK(on_state_loss_db(SwitchKind::series, d, bias[k], 50, 50, 1e6, {}, t27_k) == Approx(il[k]).margin(6e-4));
-    CHECK(on_state_loss_db(SwitchKind::shunt, d, bias[k], 50, 50, 1e6, {}, t27_k) == Approx(iso[k]).margin(6e-3));
+    CHECK(on_state_loss_db(SwitchKind::series, d, {}, bias[k], 50, 50, 1e6, {}, t27_k) == Approx(il[k]).margin(6e-4));
+    CHECK(on_state_loss_db(SwitchKind::shunt, d, {}, bias[k], 50, 50, 1e6, {}, t27_k) == Approx(iso[k]).margin(6e-3));
     // The fixture model with no shunts is the same series switch.
     const AcPart part{d, 0.0};
     CHECK(insertion_loss_db(Fixture{}, part, bias[k], 1e6, t27_k) == Approx(il[k]).margin(6e-4));
   }
   const DiodeParams n2{1e-14, 2.0, 1.0};
-  CHECK(on_state_loss_db(SwitchKind::series, n2, 10e-3, 50, 50, 1e6, {}, t27_k) == Approx(0.520).margin(6e-4));
+  CHECK(on_state_loss_db(SwitchKind::series, n2, {}, 10e-3, 50, 50, 1e6, {}, t27_k) == Approx(0.520).margin(6e-4));
 }
 
 TEST_CASE("E11 inverted: bias for a target loss returns the table's bias") {
   // Source: docs/references.md E11; the inverse must land on the tabulated bias
   // within the table's rounding (3 decimals of dB).
   const DiodeParams d{1e-14, 1.0, 1.0};
-  auto i = bias_for_loss_a(SwitchKind::series, d, 0.306, 50, 50, 1e6, {}, t27_k);
+  auto i = bias_for_loss_a(SwitchKind::series, d, {}, 0.306, 50, 50, 1e6, {}, t27_k);
   REQUIRE(i);
   CHECK(*i == Approx(10e-3).epsilon(5e-3));
-  i = bias_for_loss_a(SwitchKind::shunt, d, 18.03, 50, 50, 1e6, {}, t27_k);
+  i = bias_for_loss_a(SwitchKind::shunt, d, {}, 18.03, 50, 50, 1e6, {}, t27_k);
   REQUIRE(i);
   CHECK(*i == Approx(10e-3).epsilon(5e-3));
   std::string why;
   // Rs = 1 Ω alone costs 0.0864 dB (E12), so 0.05 dB is out of reach.
-  CHECK_FALSE(bias_for_loss_a(SwitchKind::series, d, 0.05, 50, 50, 1e6, {}, t27_k, &why));
+  CHECK_FALSE(bias_for_loss_a(SwitchKind::series, d, {}, 0.05, 50, 50, 1e6, {}, t27_k, &why));
   CHECK(why.find("cannot be reached") != std::string::npos);
 }
 

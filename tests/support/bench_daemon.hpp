@@ -86,6 +86,17 @@ class BenchDaemon {
       }
     }
     if (!client_) FAIL("juncod did not open its socket");
+    // The socket listens before the bench is safe and the store open
+    // (daemon/startup_gate.hpp): wait until juncod is fully up, so a test's
+    // first call meets the service and not the start (a mute instrument
+    // makes the start take its timeouts).
+    for (int i = 0; i < 2400; ++i) {
+      const Json st = client_->request("daemon.status", Json::object());
+      if (st.contains("result") && st["result"].value("schema_version", 0) > 0) return;
+      if (!daemon_->running()) FAIL("juncod exited at start; see " + o.stderr_path);
+      std::this_thread::sleep_for(std::chrono::milliseconds(50));
+    }
+    FAIL("juncod did not finish starting in 120 s; see " + o.stderr_path);
   }
 
  public:

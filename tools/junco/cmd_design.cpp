@@ -30,6 +30,7 @@ const char* const part_help =
     "  --is A --n N --rs OHM   explicit parameters, e.g. --is 2.5n --n 1.8 --rs 0.6\n"
     "and, for any of them:\n"
     "  --cj F --vj V --m M     junction capacitance law (overrides the part's)\n"
+    "  --tt S              transit time TT: diffusion charge TT*Id (overrides the part's)\n"
     "  --temp DEGC         junction temperature (default: the fit's, else 27 degC); IS and RS\n"
     "                      follow the SPICE law from the fit's temperature (TNOM):\n"
     "                      IS(T) = IS*(T/TNOM)^(XTI/N)*exp((T/TNOM-1)*EG/(N*Vt(T))),\n"
@@ -78,7 +79,7 @@ std::string usage() {
        "  junco design bias-r --part WR-03 --supply 5 --current 10mA\n"
        "  junco design loss --is 1e-14 --n 1 --rs 1 --current 10mA --switch series\n"
        "  junco design isolation --model wr03.json --cj 0.3pF --freq 1GHz --reverse 5V\n"
-       "  junco design distortion --part WR-03 --current 10mA --amplitude 0.1V --json\n"
+       "  junco design distortion --part WR-03 --current 10mA --amplitude 0.1V --freq 100MHz --tt 5ns --json\n"
        "exit: 0 ok, 1 not achievable, over a power limit or daemon error, 2 bad input\n";
   return u;
 }
@@ -157,6 +158,7 @@ DesignPart local_part(const Request& r) {
     if (std::isfinite(m->cj0_f)) p.cap.cj0_f = m->cj0_f;
     if (std::isfinite(m->vj_v)) p.cap.vj_v = m->vj_v;
     if (std::isfinite(m->m)) p.cap.m = m->m;
+    if (std::isfinite(m->tt_s)) p.tt_s = m->tt_s;
     return p;
   }
   for (const char* key : {"is", "n", "rs"})
@@ -187,6 +189,7 @@ void print_answer(const nlohmann::json& a) {
     if (p["cj0_f"].is_number())
       std::printf("  CJO=%s VJ=%.3g V M=%.3g", format_engineering(p["cj0_f"].get<double>(), "F").c_str(), p["vj_v"].get<double>(),
                   p["m"].get<double>());
+    if (p.value("tt_s", 0.0) > 0) std::printf("  TT=%s", format_engineering(p["tt_s"].get<double>(), "s").c_str());
     std::printf("  at %.2f degC\n", p["temp_k"].get<double>() - zero_celsius_k);
     // The calculators computed at the junction temperature (SPICE law from the part's).
     if (a.contains("junction") && a["junction"]["temp_k"].get<double>() != p["temp_k"].get<double>()) {

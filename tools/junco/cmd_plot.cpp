@@ -255,7 +255,8 @@ int plot_off(Source& src) {
     if (!cap.is_object()) throw std::runtime_error("part " + std::to_string(src.part_id) + " has no off-state readings (plan.ac.off_state)");
     for (const auto& r : cap.value("readings", Json::array()))
       rows.push_back({r["reverse_v"], r["freq_hz"], r["c_f"].is_number() ? r["c_f"].get<double>() : std::nan(""),
-                      r["isolation_db"].is_number() ? r["isolation_db"].get<double>() : std::nan(""), r.value("left_out", "").empty()});
+                      r.contains("fixture_ratio_db") && r["fixture_ratio_db"].is_number() ? r["fixture_ratio_db"].get<double>()
+                      : r.value("isolation_db", Json()).is_number() ? r["isolation_db"].get<double>() : std::nan(""), r.value("left_out", "").empty()});
   } else {
     const auto t = src.readings("off-csv");
     if (t.off.empty() && (!t.iv.empty() || !t.ac.empty()))

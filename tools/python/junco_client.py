@@ -460,9 +460,9 @@ class Client:
             (headroom); unknown keys are refused (data.field = part.KEY)
             inputs (Dict[str, Any], optional): the calculator's inputs in SI units, keys as in
             docs/design.md (supply_v, rbias_ohm, current_a, switch, ...); optional part overrides cj0_f,
-            vj_v, m, eg_ev, xti, trs1_per_k and the junction temperature temp_k (IS and RS follow the
-            SPICE law from the part's temp_k). Unknown keys are refused (invalid params, data.field =
-            inputs.KEY)
+            vj_v, m, tt_s, eg_ev, xti, trs1_per_k and the junction temperature temp_k (IS and RS follow
+            the SPICE law from the part's temp_k). Unknown keys are refused (invalid params, data.field
+            = inputs.KEY)
 
         Returns the result object: calculator, part, assumed, result, achievable, reason, warnings,
         failures, junction.
@@ -638,9 +638,9 @@ class Client:
             bias-for-thd, isolation, power
             inputs (Dict[str, Any], optional): the calculator's inputs in SI units, keys as in
             docs/design.md (supply_v, rbias_ohm, current_a, switch, ...); optional part overrides cj0_f,
-            vj_v, m, eg_ev, xti, trs1_per_k and the junction temperature temp_k (IS and RS follow the
-            SPICE law from the part's temp_k). Unknown keys are refused (invalid params, data.field =
-            inputs.KEY)
+            vj_v, m, tt_s, eg_ev, xti, trs1_per_k and the junction temperature temp_k (IS and RS follow
+            the SPICE law from the part's temp_k). Unknown keys are refused (invalid params, data.field
+            = inputs.KEY)
 
         Returns the result object: calculator, part, assumed, result, achievable, reason, warnings,
         failures, part_id, fit_id, junction.
@@ -692,7 +692,8 @@ class Client:
             part_id (int, required): the part's id (part.list)
 
         Returns the result object: fit_id, part_id, run_id, model, status, message, is_a, n, rs_ohm,
-        rsh_ohm, temp_k, cost, rms_residual, points_used, warnings, detail, created_at, cj0_f, vj_v, m.
+        rsh_ohm, temp_k, cost, rms_residual, points_used, warnings, detail, created_at, cj0_f, vj_v, m,
+        tt_s.
         Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
         client's), ConnectionError when the connection is lost.
         """
