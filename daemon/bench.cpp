@@ -63,6 +63,12 @@ std::string Bench::make_safe() noexcept {
   return errors;
 }
 
+std::string Bench::park_chamber(double idle_k) noexcept {
+  std::string errors;
+  if (chamber) attempt(errors, log, "chamber to its idle set point", [&] { chamber->set_temperature_k(idle_k); });
+  return errors;
+}
+
 std::string Bench::clear_errors(const std::string& when, Roles roles) noexcept {
   std::string errors;
   auto one = [&](const char* role, drivers::Instrument* inst) {
@@ -90,6 +96,7 @@ std::string Bench::clear_errors(const std::string& when, Roles roles) noexcept {
   if (roles != Roles::make_safe) {
     one("meter", meter.get());
     one("levelmeter", levelmeter.get());
+    one("chamber", chamber.get());
   }
   return errors;
 }
@@ -116,6 +123,7 @@ std::unique_ptr<Bench> open_bench(const Config& config) {
   open_role(config, "scanner", drivers::open_scanner, b->scanner, b->missing);
   open_role(config, "siggen", drivers::open_signal_gen, b->siggen, b->missing);
   open_role(config, "levelmeter", drivers::open_level_meter, b->levelmeter, b->missing);
+  open_role(config, "chamber", drivers::open_chamber, b->chamber, b->missing);
   return b;
 }
 

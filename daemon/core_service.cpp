@@ -189,6 +189,7 @@ class CoreService final : public Service {
       limits.push_back({{"limit", l.limit}, {"limit_value", l.limit_value}, {"plan_value", l.plan_value}, {"unit", l.unit},
                         {"binds", l.binds}, {"note", l.note}});
     return {{"points_per_part", e.points_per_part}, {"points_total", e.points_total}, {"parts", plan.parts.size()},
+            {"temperatures", e.temperatures}, {"soak_s", e.soak_s},
             {"min_duration_s", e.min_duration_s}, {"duration_s", e.duration_s},
             {"peak", {{"supply_v", e.peak_supply_v}, {"current_a", e.peak_current_a}, {"power_w", e.peak_power_w}, {"reverse_v", e.peak_reverse_v}}},
             {"limits", limits}};
@@ -242,7 +243,15 @@ class CoreService final : public Service {
     const auto fit = store_.latest_fit(part.id);
     if (!fit || !fit_result_from_json(*fit).usable())
       throw RequestError(RpcCode::not_found, "part " + std::to_string(part.id) + " has no usable fit " + purpose, Json{{"part_id", part.id}});
-    return *fit;
+    return with_temperature_law(*fit, part.id);
+  }
+
+  // part.fit's sibling field: the part's latest temperature law (EG, XTI,
+  // TRS1 from a multi-temperature job), null when it has none.
+  Json with_temperature_law(Json fit, Id part_id) {
+    const auto law = store_.latest_temperature_fit(part_id);
+    fit["temperature_law"] = law ? *law : Json(nullptr);
+    return fit;
   }
 
   static std::vector<double> positive_list(const Json& params, const char* key) {
@@ -392,7 +401,7 @@ class CoreService final : public Service {
     part_or_throw(part_id);
     auto fit = store_.latest_fit(part_id);
     if (!fit) throw RequestError(RpcCode::not_found, "part " + std::to_string(part_id) + " has no fit yet", Json{{"part_id", part_id}});
-    return *fit;
+    return with_temperature_law(*fit, part_id);
   }
 
   Json figures(const Json& params) {

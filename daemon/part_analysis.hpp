@@ -3,6 +3,8 @@
 // against the model, with the joint AC+DC fit (part.transfer).
 #pragma once
 
+#include "fitting/temperature.hpp"
+
 #include "daemon/store.hpp"
 #include "fitting/design_calculators.hpp"
 #include "fitting/design_joint_fit.hpp"
@@ -71,5 +73,13 @@ Json lot_stats_report(const std::string& lot, const std::vector<fitting::LotPart
 // The lot's nominal part (median of each parameter) as the exporters take it;
 // the card's comment says how many parts it stands for and their spread.
 fitting::PartModel lot_nominal_model(const std::string& lot, const std::vector<fitting::LotPart>& parts);
+
+// The temperature law (EG, XTI, TRS1) of a part from a job's runs at
+// several chamber temperatures (Store::fits_of_job_part): each usable run's
+// fit at its ambient (mean of the chamber readbacks around its readings,
+// known to half their difference or the readback's 0.01 K, whichever is
+// larger) into fitting::fit_temperature_law; its JSON
+// (fitting::temperature_fit_json) with "runs": the run ids used.
+Json temperature_law_of_runs(const Json& run_fits, const fitting::TemperatureLaw& held);
 
 }  // namespace junco::daemon

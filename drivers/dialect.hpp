@@ -15,7 +15,7 @@
 
 namespace junco::drivers {
 
-enum class Role { source, meter, scanner, siggen, levelmeter };
+enum class Role { source, meter, scanner, siggen, levelmeter, chamber };
 const char* to_string(Role role);
 
 struct ReplySpec {
@@ -52,6 +52,9 @@ struct Dialect {
   // Source without an in_current_limit query: a reading counts as limited
   // when |measured current| >= (1 − this) × the programmed limit.
   double current_limit_tolerance = 0.02;
+  // Chamber only: the unit of {t} in set_temperature and of the
+  // measure_temperature reply: "C" (degrees Celsius, default) or "K".
+  bool temperature_in_kelvin = false;
   std::map<std::string, Operation, std::less<>> operations;
 
   // nullptr when the dialect does not offer the (optional) operation.
