@@ -327,7 +327,8 @@ Config parse_config_impl(const std::string& text, const fs::path& file, std::vec
   section(problems, [&] {
     if (!cfg.bench.count("chamber") || !doc.contains("safety") || !doc["safety"].is_object()) return;
     for (const char* key : {"chamber_min_k", "chamber_max_k", "max_soak_s"})
-      if (!doc["safety"].contains(key)) c.fail(std::string("/safety/") + key, "missing (required with a chamber in /bench)");
+      if (!doc["safety"].contains(key))
+        section(problems, [&] { c.fail(std::string("/safety/") + key, "missing (required with a chamber in /bench)"); });
   });
   section(problems, [&] {
     if (doc.contains("limits")) cfg.limits = parse_limits(c, c.object(doc, "limits", "/limits"));

@@ -18,6 +18,7 @@
 #include <cmath>
 #include <filesystem>
 #include <fstream>
+#include <set>
 #include <thread>
 
 using junco::test::BenchDaemon;
@@ -85,10 +86,13 @@ TEST_CASE("a 3-temperature run recovers the simulator's EG, logs the ambient per
   const std::string cfg = sim_config("chamber-sim", {{"chamber", {{"tau_s", 1.0}, {"drift_k", 0.03}, {"drift_period_s", 120}}},
                                                      {"thermal", {{"theta_k_per_w", 400}, {"tau_s", 0.005}}},
                                                      {"nominal", {{"trs1_per_k", 0.004}}}});
-  BenchDaemon b("chamber", {"--settle-ms", "0", "--config", cfg}, chamber_bench(60));
+  BenchDaemonOptions options = chamber_bench(60);
+  options.extra = {{"accuracy", {{"level_db", 0.005}}}};
+  BenchDaemon b("chamber", {"--settle-ms", "0", "--config", cfg}, options);
   const Json plan{{"lot", "WREN-0912"},
                   {"parts", {{{"slot", 1}, {"label", "KS-01"}}, {{"slot", 2}, {"label", "KS-02"}}}},
-                  {"sweep", {{"mode", "current"}, {"spacing", "log"}, {"start", 1e-6}, {"stop", 0.02}, {"count", 25}, {"settle_s", 0.03}}},
+                  {"sweep", {{"mode", "current"}, {"spacing", "log"}, {"start", 1e-6}, {"stop", 0.05}, {"count", 30}, {"settle_s", 0.03}}},
+                  {"ac", {{"freqs_hz", {1e6}}, {"amplitude", 0.005}, {"unit", "vrms"}, {"settle_s", 0}}},
                   {"temps_k", {253.15, 300.15, 358.15}},
                   {"soak", {{"tolerance_k", 0.1}, {"hold_s", 1.0}}}};
 
@@ -100,7 +104,7 @@ TEST_CASE("a 3-temperature run recovers the simulator's EG, logs the ambient per
   CHECK(dry["temperatures"] == 3);
   CHECK(dry["soak_s"].get<double>() == Approx(ramps_k / 2.0 * 60.0 + 3 * 1.0));
   CHECK(dry["duration_s"].get<double>() > dry["soak_s"].get<double>());
-  CHECK(dry["points_total"] == 3 * 2 * 25);
+  CHECK(dry["points_total"] == 3 * 2 * 30 * 2);
 
   const long job = b.run_plan(plan, std::chrono::seconds(180));
   const Json truth = b.sim().control("lot?")["parts"];
@@ -145,7 +149,12 @@ TEST_CASE("a 3-temperature run recovers the simulator's EG, logs the ambient per
     CHECK(card.find(eg_text) != std::string::npos);
     CHECK(card.find("TNOM=") != std::string::npos);
     CHECK(card.find("from 3 temperatures") != std::string::npos);
-    if (law["trs1_per_k"]["resolved"].get<bool>()) CHECK(card.find("TRS1=") != std::string::npos);
+    // With AC readings the runs' Rs is the isothermal one (electro-thermal
+    // fit), so TRS1 is resolved: the simulator's, within 3 standard errors.
+    const Json& trs = law["trs1_per_k"];
+    CHECK(trs["resolved"].get<bool>());
+    CHECK(std::fabs(trs["value"].get<double>() - t["trs1_per_k"].get<double>()) < 3 * trs["std_error"].get<double>());
+    if (trs["resolved"].get<bool>()) CHECK(card.find("TRS1=") != std::string::npos);
   }
 }
 
