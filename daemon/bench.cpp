@@ -10,20 +10,25 @@ namespace junco::daemon {
 
 namespace {
 
-drivers::InstrumentSpec spec_of(const InstrumentConfig& ic) {
+drivers::InstrumentSpec spec_of(const InstrumentConfig& ic, const Log& traffic) {
   drivers::InstrumentSpec s;
   s.name = ic.role;
   s.address = ic.address;
   s.dialect_path = ic.dialect_path.string();
   s.reply_timeout = std::chrono::milliseconds(ic.reply_timeout_ms);
   s.max_retries = ic.max_retries;
+  // Only when someone reads it: the hook costs a string per line.
+  if (traffic.enabled(LogLevel::debug))
+    s.traffic_log = [traffic, role = ic.role](std::string_view direction, std::string_view line) {
+      traffic.debug("scpi " + role + " " + std::string(direction) + " " + std::string(line));
+    };
   return s;
 }
 
 // One make-safe step, retried while the instrument reports an error of its
 // own (see kMakeSafeAttempts); the final failure is appended to `errors`.
 template <typename F>
-void attempt(std::string& errors, const std::function<void(std::string_view)>& log, const char* what, F&& f) noexcept {
+void attempt(std::string& errors, const Log& log, const char* what, F&& f) noexcept {
   auto fail = [&](const std::string& why) {
     if (!errors.empty()) errors += "; ";
     errors += std::string(what) + ": " + why;
@@ -31,13 +36,13 @@ void attempt(std::string& errors, const std::function<void(std::string_view)>& l
   for (int n = 1;; ++n) {
     try {
       f();
-      if (n > 1 && log) log(std::string("bench: make-safe step '") + what + "' succeeded on attempt " + std::to_string(n));
+      if (n > 1) log.info(std::string("bench: make-safe step '") + what + "' succeeded on attempt " + std::to_string(n));
       return;
     } catch (const drivers::DriverError& e) {
       const bool again = !e.transient() && !e.permanent() && n < kMakeSafeAttempts;
       if (!again) return fail(e.what() + (n > 1 ? " (after " + std::to_string(n) + " attempts)" : std::string()));
       try {
-        if (log) log(std::string("bench: make-safe step '") + what + "' failed (" + e.what() + "); retrying, attempt " + std::to_string(n + 1) +
+        log.warn(std::string("bench: make-safe step '") + what + "' failed (" + e.what() + "); retrying, attempt " + std::to_string(n + 1) +
                      " of " + std::to_string(kMakeSafeAttempts));
       } catch (...) {
       }
@@ -75,11 +80,11 @@ std::string Bench::clear_errors(const std::string& when, Roles roles) noexcept {
     if (!inst) return;
     try {
       const auto found = inst->clear_errors();
-      if (found.empty() || !log) return;
-      std::string line = "warn: bench: " + std::string(role) + " had " + std::to_string(found.size()) + " stale error" +
+      if (found.empty() || !log.enabled(LogLevel::warn)) return;
+      std::string line = "bench: " + std::string(role) + " had " + std::to_string(found.size()) + " stale error" +
                          (found.size() == 1 ? "" : "s") + " in its queue " + when + ", cleared:";
       for (const auto& f : found) line += " " + f;
-      log(line);
+      log.warn(line);
     } catch (const std::exception& e) {
       if (!errors.empty()) errors += "; ";
       errors += std::string(role) + " clearing its error queue: " + e.what();
@@ -104,11 +109,12 @@ std::string Bench::clear_errors(const std::string& when, Roles roles) noexcept {
 namespace {
 
 template <typename Role, typename Open>
-void open_role(const Config& config, const char* role, Open open, std::unique_ptr<Role>& slot, std::vector<std::string>& missing) {
+void open_role(const Config& config, const Log& traffic, const char* role, Open open, std::unique_ptr<Role>& slot,
+               std::vector<std::string>& missing) {
   const auto* ic = config.instrument(role);
   if (!ic) return;  // optional role not configured
   try {
-    slot = open(spec_of(*ic));
+    slot = open(spec_of(*ic, traffic));
   } catch (const std::exception& e) {
     missing.push_back(std::string(role) + ": " + e.what());
   }
@@ -116,14 +122,14 @@ void open_role(const Config& config, const char* role, Open open, std::unique_pt
 
 }  // namespace
 
-std::unique_ptr<Bench> open_bench(const Config& config) {
+std::unique_ptr<Bench> open_bench(const Config& config, const Log& traffic) {
   auto b = std::make_unique<Bench>();
-  open_role(config, "source", drivers::open_source, b->source, b->missing);
-  open_role(config, "meter", drivers::open_meter, b->meter, b->missing);
-  open_role(config, "scanner", drivers::open_scanner, b->scanner, b->missing);
-  open_role(config, "siggen", drivers::open_signal_gen, b->siggen, b->missing);
-  open_role(config, "levelmeter", drivers::open_level_meter, b->levelmeter, b->missing);
-  open_role(config, "chamber", drivers::open_chamber, b->chamber, b->missing);
+  open_role(config, traffic, "source", drivers::open_source, b->source, b->missing);
+  open_role(config, traffic, "meter", drivers::open_meter, b->meter, b->missing);
+  open_role(config, traffic, "scanner", drivers::open_scanner, b->scanner, b->missing);
+  open_role(config, traffic, "siggen", drivers::open_signal_gen, b->siggen, b->missing);
+  open_role(config, traffic, "levelmeter", drivers::open_level_meter, b->levelmeter, b->missing);
+  open_role(config, traffic, "chamber", drivers::open_chamber, b->chamber, b->missing);
   return b;
 }
 

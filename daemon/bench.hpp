@@ -4,6 +4,7 @@
 #pragma once
 
 #include "daemon/config.hpp"
+#include "daemon/log.hpp"
 #include "drivers/roles.hpp"
 
 #include <functional>
@@ -33,7 +34,7 @@ struct Bench {
   std::vector<std::string> missing;
   // Where make_safe() and clear_errors() report retries and stale errors
   // (one line each); may be empty.
-  std::function<void(std::string_view)> log;
+  Log log;  // daemon/log.hpp
 
   // Supply output off, generator output off, scanner open — in that order
   // (never switch relays with current flowing). Every step is attempted even
@@ -62,7 +63,8 @@ struct Bench {
 // Opens every instrument of config.bench through drivers/factory.hpp, each
 // on its own: one that does not answer is listed in Bench::missing and the
 // others stay usable, so a supply left on by a killed daemon can be turned
-// off even while, say, the scanner is mute.
-std::unique_ptr<Bench> open_bench(const Config& config);
+// off even while, say, the scanner is mute. With `traffic` enabled at debug,
+// every line to and from each instrument is logged there ("scpi ROLE > LINE").
+std::unique_ptr<Bench> open_bench(const Config& config, const Log& traffic = Log());
 
 }  // namespace junco::daemon

@@ -1,5 +1,6 @@
 #include "daemon/config.hpp"
 
+#include "daemon/log.hpp"
 #include "fitting/json_limits.hpp"
 #include "lab/pg.hpp"  // conninfo_problem
 
@@ -344,7 +345,10 @@ Config parse_config_impl(const std::string& text, const fs::path& file, std::vec
 
   section(problems, [&] { if (doc.contains("server")) {
     const Json& server = c.object(doc, "server", "/server");
-    c.only_keys(server, "/server", {"idle_timeout_s"});
+    c.only_keys(server, "/server", {"idle_timeout_s", "log_level"});
+    cfg.server.log_level = c.string(server, "log_level", "/server", "", false);
+    if (!cfg.server.log_level.empty() && !parse_log_level(cfg.server.log_level))
+      c.fail("/server/log_level", std::string("must be ") + kLogLevelWords + ", got \"" + cfg.server.log_level + "\"");
     cfg.server.idle_timeout_s = c.number(server, "idle_timeout_s", "/server", cfg.server.idle_timeout_s, false, 0, true);
     if (cfg.server.idle_timeout_s > 86400) c.fail("/server/idle_timeout_s", "must be at most 86400 (a day; 0 = never)");
   } });

@@ -93,6 +93,9 @@ struct ServerConfig {
   // A client that sends nothing this long, without a subscription or replies
   // pending, is closed; 0 = never.
   double idle_timeout_s = 600.0;
+  // server.log_level: error | warn | info | debug (daemon/log.hpp); "" =
+  // not set (info). juncod --log-level overrides it.
+  std::string log_level;
 };
 
 // The lab database this bench publishes to (daemon/lab_publisher.hpp,

@@ -1,17 +1,21 @@
 #include "daemon/core_service.hpp"
 
+#include "daemon/api_json.hpp"
 #include "daemon/bench.hpp"
+#include "daemon/error_codes.hpp"
 #include "daemon/event_bus.hpp"
 #include "daemon/executor.hpp"
 #include "daemon/lab_publisher.hpp"
 #include "daemon/part_analysis.hpp"
 #include "daemon/part_export.hpp"
 #include "daemon/jobs.hpp"
+#include "daemon/methods.hpp"
 #include "daemon/plan.hpp"
 #include "daemon/plan_estimate.hpp"
 #include "daemon/service_params.hpp"
 #include "daemon/store.hpp"
 #include "fitting/derived.hpp"
+#include "fitting/lot_nominal.hpp"
 #include "fitting/model_document.hpp"
 #include "fitting/spice_card.hpp"
 #include "junco/version.hpp"
@@ -19,7 +23,7 @@
 #include <chrono>
 #include <iostream>
 #include <map>
-#include <set>
+#include <memory>
 
 namespace junco::daemon {
 
@@ -48,14 +52,13 @@ std::optional<std::string> opt_string_param(const Json& params, const char* key)
   return v.get<std::string>();
 }
 
-const std::set<std::string> kStates{"queued", "running", "paused", "done", "failed", "cancelled", "interrupted"};
-
 class CoreService final : public Service {
  public:
   CoreService(const Config& config, ServiceOptions options)
       : config_(config),
-        log_(options.log ? std::move(options.log) : [](std::string_view line) { std::cerr << "juncod: " << line << std::endl; }),
-        open_bench_(options.open_bench ? std::move(options.open_bench) : BenchOpener(open_bench)),
+        log_(options.log ? std::move(options.log) : stderr_log("juncod", LogLevel::info, LogFormat::timestamped)),
+        open_bench_(options.open_bench ? std::move(options.open_bench)
+                                       : BenchOpener([this](const Config& c) { return open_bench(c, log_); })),
         // Outputs off before the store is opened: opening a huge database
         // takes seconds and a damaged one throws, and neither may hold an
         // output on (members are built in declaration order).
@@ -70,7 +73,6 @@ class CoreService final : public Service {
     const auto [resumed, interrupted] = queue_.recover();
     if (resumed || interrupted)
       log_("recovered after restart: " + std::to_string(resumed) + " job(s) to resume, " + std::to_string(interrupted) + " interrupted");
-    build_table();
     executor_.start();
     lab_.start();
   }
@@ -78,14 +80,14 @@ class CoreService final : public Service {
   ~CoreService() override { shutdown(); }
 
   Json call(std::string_view method, const Json& params, const Caller& caller) override {
-    auto it = table_.find(std::string(method));
-    if (it == table_.end()) throw RequestError(RpcCode::method_not_found, "unknown method \"" + std::string(method) + "\"");
-    check_call(it->first, params);
+    const auto it = handlers().find(method);
+    if (it == handlers().end()) throw RequestError(RpcCode::method_not_found, "unknown method \"" + std::string(method) + "\"");
+    check_call(method, params);
     const Json p = params.is_null() ? Json::object() : params;
     try {
-      return it->second(p, caller);
-    } catch (const StoreError& e) {
-      throw RequestError(RpcCode::storage_error, std::string("store: ") + e.what());
+      return (this->*(it->second))(p, caller);
+    } catch (const DomainError& e) {
+      throw to_request_error(e);  // the one mapping to JSON-RPC codes (daemon/error_codes.hpp)
     }
   }
 
@@ -97,40 +99,25 @@ class CoreService final : public Service {
       lab_.stop();
       // Only claim what is known: a bench that would not take the make-safe
       // commands (already logged by the executor) is not reported as off.
-      log_(executor_.bench_known_safe() ? "shut down: outputs off"
-                                        : "shut down: outputs NOT known to be off (see the errors above); check the bench");
+      if (executor_.bench_known_safe()) log_.info("shut down: outputs off");
+      else log_.error("shut down: outputs NOT known to be off (see the errors above); check the bench");
     });
   }
 
  private:
-  using Handler = std::function<Json(const Json&, const Caller&)>;
+  using Handler = Json (CoreService::*)(const Json&, const Caller&);
 
-  void build_table() {
-    table_["daemon.status"] = [this](const Json&, const Caller&) { return status(); };
-    table_["bench.describe"] = [this](const Json&, const Caller&) { return describe(); };
-    table_["job.submit"] = [this](const Json& p, const Caller& c) { return submit(p, c); };
-    table_["plan.check"] = [this](const Json& p, const Caller&) { return check_plan_dry(p); };
-    table_["job.list"] = [this](const Json& p, const Caller&) { return list_jobs(p); };
-    table_["job.get"] = [this](const Json& p, const Caller&) { return get_job(id_param(p, "job_id")); };
-    table_["job.cancel"] = [this](const Json& p, const Caller&) { return to_json(queue_.cancel(id_param(p, "job_id"))); };
-    table_["job.pause"] = [this](const Json& p, const Caller&) { return to_json(queue_.pause(id_param(p, "job_id"))); };
-    table_["job.resume"] = [this](const Json& p, const Caller&) { return to_json(queue_.resume(id_param(p, "job_id"))); };
-    table_["lot.list"] = [this](const Json&, const Caller&) { return Json{{"lots", store_.lots()}}; };
-    table_["part.list"] = [this](const Json& p, const Caller&) { return Json{{"parts", store_.parts(opt_string_param(p, "lot"))}}; };
-    table_["part.readings"] = [this](const Json& p, const Caller&) { return readings(p); };
-    table_["part.fit"] = [this](const Json& p, const Caller&) { return fit_of(id_param(p, "part_id")); };
-    table_["part.figures"] = [this](const Json& p, const Caller&) { return figures(p); };
-    table_["part.export"] = [this](const Json& p, const Caller&) { return export_part(p); };
-    table_["part.design"] = [this](const Json& p, const Caller&) { return design(p); };
-    table_["design.run"] = [this](const Json& p, const Caller&) { return design_by_value(p); };
-    table_["part.transfer"] = [this](const Json& p, const Caller&) { return transfer(p); };
-    table_["lot.stats"] = [this](const Json& p, const Caller&) { return lot_stats(p); };
-    table_["lot.export"] = [this](const Json& p, const Caller&) { return lot_export(p); };
+  // The dispatch table: one entry per row of daemon/methods.hpp.
+  static const std::map<std::string_view, Handler>& handlers() {
+#define JUNCO_BIND(name, handler, summary, params) {name, &CoreService::handler},
+    static const std::map<std::string_view, Handler> table{JUNCO_SERVICE_METHODS(JUNCO_BIND)};
+#undef JUNCO_BIND
+    return table;
   }
 
-  Json status() {
+  Json status(const Json&, const Caller&) {
     Json queued = Json::array();
-    for (const auto& j : store_.jobs(std::string("queued"))) queued.push_back(j.id);
+    for (const auto& j : store_.jobs(JobState::queued)) queued.push_back(j.id);
     const auto running = queue_.running();
     return {{"version", junco::version},
             {"uptime_s", std::chrono::duration<double>(std::chrono::steady_clock::now() - started_).count()},
@@ -143,7 +130,7 @@ class CoreService final : public Service {
             {"lab", lab_.status()}};
   }
 
-  Json describe() {
+  Json describe(const Json&, const Caller&) {
     Json instruments = Json::array();
     const Json ids = executor_.identities();
     for (const auto& [role, ic] : config_.bench)
@@ -152,7 +139,7 @@ class CoreService final : public Service {
     const auto& f = config_.fixture;
     const auto& s = config_.safety;
     return {{"instruments", instruments},
-            {"seen", store_.instruments()},
+            {"seen", to_json(store_.instruments())},
             {"fixture",
              {{"bias_resistor_ohm", f.bias_resistor_ohm}, {"dc_return_ohm", f.dc_return_ohm}, {"source_ohm", f.source_ohm},
               {"load_ohm", f.load_ohm}, {"slots", f.slots}, {"current_from", to_string(f.current_from)}, {"stray_c_f", f.stray_c_f}}},
@@ -179,7 +166,7 @@ class CoreService final : public Service {
   }
 
   // job.submit's checks, and what the plan would do; nothing is queued.
-  Json check_plan_dry(const Json& params) {
+  Json check_plan_dry(const Json& params, const Caller&) {
     if (!params.contains("plan")) throw RequestError(RpcCode::invalid_params, "plan: missing (required)", Json{{"field", "plan"}});
     const Plan plan = parse_plan(params.at("plan"));
     check_plan(plan, config_);
@@ -188,70 +175,76 @@ class CoreService final : public Service {
     for (const auto& l : e.limits)
       limits.push_back({{"limit", l.limit}, {"limit_value", l.limit_value}, {"plan_value", l.plan_value}, {"unit", l.unit},
                         {"binds", l.binds}, {"note", l.note}});
-    return {{"points_per_part", e.points_per_part}, {"points_total", e.points_total}, {"parts", plan.parts.size()},
-            {"temperatures", e.temperatures}, {"soak_s", e.soak_s},
-            {"min_duration_s", e.min_duration_s}, {"duration_s", e.duration_s},
-            {"peak", {{"supply_v", e.peak_supply_v}, {"current_a", e.peak_current_a}, {"power_w", e.peak_power_w}, {"reverse_v", e.peak_reverse_v}}},
-            {"limits", limits}};
-  }
-
-  Json list_jobs(const Json& params) {
-    const auto state = opt_string_param(params, "state");
-    if (state && !kStates.count(*state)) throw RequestError(RpcCode::invalid_params, "state: unknown job state \"" + *state + "\"", Json{{"field", "state"}});
-    Json jobs = Json::array();
-    for (const auto& j : store_.jobs(state)) jobs.push_back(to_json(j));
-    return {{"jobs", jobs}};
-  }
-
-  Json get_job(Id id) {
-    auto j = store_.job(id);
-    if (!j) throw RequestError(RpcCode::not_found, "no job " + std::to_string(id), Json{{"job_id", id}});
-    Json out = to_json(*j);
-    Json runs = Json::array();
-    for (const auto& r : store_.runs_of_job(id)) runs.push_back(to_json(r));
-    out["runs"] = runs;
+    Json out{{"points_per_part", e.points_per_part}, {"points_total", e.points_total}, {"parts", plan.parts.size()},
+             {"temperatures", e.temperatures}, {"soak_s", e.soak_s},
+             {"min_duration_s", e.min_duration_s}, {"duration_s", e.duration_s},
+             {"peak", {{"supply_v", e.peak_supply_v}, {"current_a", e.peak_current_a}, {"power_w", e.peak_power_w}, {"reverse_v", e.peak_reverse_v}}},
+             {"limits", limits}};
+    if (plan.heating.pulse)
+      out["pulse"] = {{"steps_per_part", e.pulsed_steps_per_part}, {"from", e.pulse_from}, {"duty", e.pulse_duty}};
     return out;
   }
 
+  Json list_jobs(const Json& params, const Caller&) {
+    const auto name = opt_string_param(params, "state");
+    std::optional<JobState> state;
+    if (name && !(state = job_state_from_string(*name)))
+      throw BadInput("state", "unknown job state \"" + *name + "\" (one of: " + job_state_names() + ")");
+    return {{"jobs", to_json(store_.jobs(state))}};
+  }
+
+  Json get_job(const Json& params, const Caller&) {
+    const Id id = id_param(params, "job_id");
+    auto j = store_.job(id);
+    if (!j) throw NotFound("no job " + std::to_string(id), "job_id", id);
+    Json out = to_json(*j);
+    out["runs"] = to_json(store_.runs_of_job(id));
+    return out;
+  }
+
+  Json cancel_job(const Json& params, const Caller&) { return to_json(queue_.cancel(id_param(params, "job_id"))); }
+  Json pause_job(const Json& params, const Caller&) { return to_json(queue_.pause(id_param(params, "job_id"))); }
+  Json resume_job(const Json& params, const Caller&) { return to_json(queue_.resume(id_param(params, "job_id"))); }
+  Json list_lots(const Json&, const Caller&) { return {{"lots", to_json(store_.lots())}}; }
+  Json list_parts(const Json& params, const Caller&) { return {{"parts", to_json(store_.parts(opt_string_param(params, "lot")))}}; }
+
   PartRow part_or_throw(Id part_id) {
     auto p = store_.part(part_id);
-    if (!p) throw RequestError(RpcCode::not_found, "no part " + std::to_string(part_id), Json{{"part_id", part_id}});
+    if (!p) throw NotFound("no part " + std::to_string(part_id), "part_id", part_id);
     return *p;
   }
 
   // The run asked for, else the part's latest; nullopt when it has none.
-  std::optional<RunRow> run_of(const PartRow& part, const Json& params) {
+  std::optional<RunRecord> run_of(const PartRow& part, const Json& params) {
     const auto run_id = opt_id_param(params, "run_id");
-    std::optional<RunRow> run;
-    for (const auto& r : store_.runs_of_part(part.id))
-      if (!run_id || r.id == *run_id) run = r;  // latest unless asked
-    if (run_id && !run)
-      throw RequestError(RpcCode::not_found, "no run " + std::to_string(*run_id) + " for part " + std::to_string(part.id), Json{{"run_id", *run_id}});
+    std::optional<RunRecord> run;
+    for (auto& r : store_.runs_of_part(part.id))
+      if (!run_id || r.id == *run_id) run = std::move(r);  // latest unless asked
+    if (run_id && !run) throw NotFound("no run " + std::to_string(*run_id) + " for part " + std::to_string(part.id), "run_id", *run_id);
     return run;
   }
 
-  Json readings(const Json& params) {
+  Json readings(const Json& params, const Caller&) {
     const PartRow part = part_or_throw(id_param(params, "part_id"));
     const auto run = run_of(part, params);
-    Json points = Json::array();
-    if (run)
-      for (const auto& pt : store_.points(run->id)) points.push_back(to_json(pt));
+    const Json points = run ? to_json(store_.points(run->id)) : Json::array();
     return {{"part", to_json(part)}, {"run", run ? to_json(*run) : Json(nullptr)}, {"points", points}};
   }
 
-  Json usable_fit(const PartRow& part, const char* purpose) {
-    const auto fit = store_.latest_fit(part.id);
-    if (!fit || !fit_result_from_json(*fit).usable())
-      throw RequestError(RpcCode::not_found, "part " + std::to_string(part.id) + " has no usable fit " + purpose, Json{{"part_id", part.id}});
-    return with_temperature_law(*fit, part.id);
+  std::shared_ptr<const FitRecord> usable_fit(const PartRow& part, const char* purpose) {
+    auto fit = store_.latest_fit(part.id);
+    if (!fit || !fit->fit.usable()) throw NotFound("part " + std::to_string(part.id) + " has no usable fit " + purpose, "part_id", part.id);
+    return with_temperature_law(std::move(fit), part.id);
   }
 
   // part.fit's sibling field: the part's latest temperature law (EG, XTI,
   // TRS1 from a multi-temperature job), null when it has none.
-  Json with_temperature_law(Json fit, Id part_id) {
+  std::shared_ptr<const FitRecord> with_temperature_law(std::shared_ptr<const FitRecord> fit, Id part_id) {
     const auto law = store_.latest_temperature_fit(part_id);
-    fit["temperature_law"] = law ? *law : Json(nullptr);
-    return fit;
+    if (!law) return fit;
+    auto out = std::make_shared<FitRecord>(*fit);
+    out->temperature_law = *law;
+    return out;
   }
 
   static std::vector<double> positive_list(const Json& params, const char* key) {
@@ -277,20 +270,20 @@ class CoreService final : public Service {
   }
 
   // A design calculator on the latest usable fit (fitting/design_calculators.hpp).
-  Json design(const Json& params) {
+  Json design(const Json& params, const Caller&) {
     const PartRow part = part_or_throw(id_param(params, "part_id"));
     const std::string calculator = calculator_param(params);
-    const Json fit = usable_fit(part, "to design with");
-    const fitting::DesignPart dp = design_part(part, fit);
+    const auto fit = usable_fit(part, "to design with");
+    const fitting::DesignPart dp = design_part(part, *fit);
     Json answer = run_calculator(calculator, &dp, params);
     answer["part_id"] = part.id;
-    answer["fit_id"] = fit.value("fit_id", Json());
+    answer["fit_id"] = fit->id;
     return answer;
   }
 
   // A design calculator on a part given by value (an answer's "part" reads
   // back as the same part); no store access.
-  Json design_by_value(const Json& params) {
+  Json design_by_value(const Json& params, const Caller&) {
     const std::string calculator = calculator_param(params);
     std::optional<fitting::DesignPart> dp;
     if (params.contains("part")) {
@@ -327,33 +320,23 @@ class CoreService final : public Service {
   std::vector<fitting::LotPart> lot_parts(const Json& params, Json& left_out) {
     const auto lot = opt_string_param(params, "lot");
     if (!lot) throw RequestError(RpcCode::invalid_params, "lot: missing (required)", Json{{"field", "lot"}});
-    const Json parts = store_.parts(*lot);
-    if (parts.empty()) throw RequestError(RpcCode::not_found, "no lot \"" + *lot + "\"", Json{{"lot", *lot}});
+    const auto parts = store_.parts(*lot);
+    if (parts.empty()) throw NotFound("no lot \"" + *lot + "\"", "lot", *lot);
     std::vector<fitting::LotPart> out;
     left_out = Json::array();
     for (const auto& p : parts) {
-      const std::string label = p.value("label", "");
-      const auto fit = store_.latest_fit(p.value("part_id", Id{0}));
-      const fitting::FitResult r = fit ? fit_result_from_json(*fit) : fitting::FitResult{};
-      if (!fit || !r.usable()) {
-        left_out.push_back({{"label", label}, {"reason", fit ? "fit " + fit->value("status", std::string("?")) : std::string("no fit yet")}});
+      const auto fit = store_.latest_fit(p.part.id);
+      if (!fit || !fit->fit.usable()) {
+        left_out.push_back({{"label", p.part.label}, {"reason", fit ? std::string("fit ") + fitting::to_string(fit->fit.status) : std::string("no fit yet")}});
         continue;
       }
-      fitting::LotPart lp{label, *lot, r.params(), std::isfinite(r.temp_k) ? r.temp_k : 300.15};
-      const auto law = [&](const char* key) {
-        const Json& e = fit->value(key, Json());
-        return e.is_object() && e.value("value", Json()).is_number() ? e["value"].get<double>() : kNaN;
-      };
-      lp.cj0_f = law("cj0_f");
-      lp.vj_v = law("vj_v");
-      lp.m = law("m");
-      out.push_back(std::move(lp));
+      out.push_back(lot_part(p.part, *fit));
     }
-    if (out.empty()) throw RequestError(RpcCode::not_found, "lot \"" + *lot + "\" has no part with a usable fit", Json{{"lot", *lot}});
+    if (out.empty()) throw NotFound("lot \"" + *lot + "\" has no part with a usable fit", "lot", *lot);
     return out;
   }
 
-  Json lot_stats(const Json& params) {
+  Json lot_stats(const Json& params, const Caller&) {
     fitting::LotStatsOptions o;
     if (params.contains("currents_a")) o.currents_a = positive_list(params, "currents_a");
     o.match_current_a = opt_number_param(params, "match_current_a", o.match_current_a, false);
@@ -369,21 +352,21 @@ class CoreService final : public Service {
     return lot_stats_report(params["lot"].get<std::string>(), parts, left_out, o);
   }
 
-  Json lot_export(const Json& params) {
+  Json lot_export(const Json& params, const Caller&) {
     const auto format = opt_string_param(params, "format");
     if (!format || (*format != "spice" && *format != "json"))
       throw RequestError(RpcCode::invalid_params, "format: must be \"spice\" or \"json\"", Json{{"field", "format"}});
     Json left_out;
     const auto parts = lot_parts(params, left_out);
     const std::string lot = params["lot"].get<std::string>();
-    const fitting::PartModel m = lot_nominal_model(lot, parts);
+    const fitting::PartModel m = fitting::lot_nominal_model(lot, parts);
     const std::string content = *format == "spice" ? fitting::spice_model_card(m, fitting::spice_model_name("D_" + lot + "_NOM"))
                                                    : fitting::model_document_json(m);
     return {{"format", *format}, {"content", content}, {"parts", parts.size()}, {"left_out", left_out}};
   }
 
   // The AC readings of a run against the model of the latest fit, and the joint AC+DC fit.
-  Json transfer(const Json& params) {
+  Json transfer(const Json& params, const Caller&) {
     const PartRow part = part_or_throw(id_param(params, "part_id"));
     TransferOptions o;
     o.accuracy = config_.accuracy;
@@ -392,25 +375,30 @@ class CoreService final : public Service {
     o.max_signal_ratio = opt_number_param(params, "max_signal_ratio", o.max_signal_ratio, false);
     o.ac_floor_v = opt_number_param(params, "ac_floor_v", o.ac_floor_v, true);
     const auto run = run_of(part, params);
-    if (!run) throw RequestError(RpcCode::not_found, "part " + std::to_string(part.id) + " has no run", Json{{"part_id", part.id}});
-    const Json fit = usable_fit(part, "to model the transfer with");
-    return transfer_report(part, *run, fit, store_.points(run->id), o);
+    if (!run) throw NotFound("part " + std::to_string(part.id) + " has no run", "part_id", part.id);
+    const auto fit = usable_fit(part, "to model the transfer with");
+    return transfer_report(part, *run, *fit, store_.points(run->id), o);
   }
 
-  Json fit_of(Id part_id) {
+  std::shared_ptr<const FitRecord> latest_fit(Id part_id) {
     part_or_throw(part_id);
     auto fit = store_.latest_fit(part_id);
-    if (!fit) throw RequestError(RpcCode::not_found, "part " + std::to_string(part_id) + " has no fit yet", Json{{"part_id", part_id}});
-    return with_temperature_law(*fit, part_id);
+    if (!fit) throw NotFound("part " + std::to_string(part_id) + " has no fit yet", "part_id", part_id);
+    return with_temperature_law(std::move(fit), part_id);
   }
 
-  Json figures(const Json& params) {
+  Json fit_of(const Json& params, const Caller&) { return to_json(*latest_fit(id_param(params, "part_id"))); }
+
+  // Each figure with its standard error from the stored fit's covariance
+  // (fitting/derived.hpp, delta method).
+  Json figures(const Json& params, const Caller&) {
     const Id part_id = id_param(params, "part_id");
     std::vector<double> currents{1e-4, 1e-3, 1e-2};
     if (params.contains("currents_a")) currents = positive_list(params, "currents_a");
-    const Json fit = fit_of(part_id);
-    const fitting::FitResult r = fit_result_from_json(fit);
-    if (!r.usable()) throw RequestError(RpcCode::not_found, "part " + std::to_string(part_id) + " has no usable fit (" + fit.value("status", "") + ")");
+    const auto fit = latest_fit(part_id);
+    const fitting::FitResult& r = fit->fit;
+    if (!r.usable())
+      throw NotFound("part " + std::to_string(part_id) + " has no usable fit (" + fitting::to_string(r.status) + ")", "part_id", part_id);
     Json rows = Json::array();
     for (double i : currents) {
       const auto vf = fitting::forward_voltage_v(r, i);
@@ -418,18 +406,21 @@ class CoreService final : public Service {
       auto num = [](double x) { return std::isfinite(x) ? Json(x) : Json(nullptr); };
       rows.push_back({{"i_a", i}, {"vf_v", num(vf.value)}, {"vf_v_se", num(vf.std_error)}, {"rd_ohm", num(rd.value)}, {"rd_ohm_se", num(rd.std_error)}});
     }
-    return {{"part_id", part_id}, {"fit_id", fit["fit_id"]}, {"temp_k", fit["temp_k"]}, {"figures", rows}};
+    return {{"part_id", part_id}, {"fit_id", fit->id}, {"temp_k", std::isfinite(r.temp_k) ? Json(r.temp_k) : Json(nullptr)}, {"figures", rows}};
   }
 
-  Json export_part(const Json& params) {
+  Json export_part(const Json& params, const Caller&) {
     const PartRow part = part_or_throw(id_param(params, "part_id"));
     const auto format = opt_string_param(params, "format");
     if (!format) throw RequestError(RpcCode::invalid_params, "format: missing (required)", Json{{"field", "format"}});
     if (*format == "json" || *format == "spice") {
-      const Json fit = usable_fit(part, "to export as a model");
-      return {{"format", *format}, {"content", *format == "json" ? export_model_json(part, fit) : export_spice(part, fit)}};
+      const auto fit = usable_fit(part, "to export as a model");
+      return {{"format", *format}, {"content", *format == "json" ? export_model_json(part, *fit) : export_spice(part, *fit)}};
     }
-    if (*format == "csv") return {{"format", "csv"}, {"content", export_csv(readings(Json{{"part_id", part.id}})["points"])}};
+    if (*format == "csv") {
+      const auto runs = store_.runs_of_part(part.id);
+      return {{"format", "csv"}, {"content", export_csv(runs.empty() ? std::vector<PointRow>{} : store_.points(runs.back().id))}};
+    }
     if (*format == "iv-csv" || *format == "ac-csv" || *format == "off-csv") {
       const auto runs = store_.runs_of_part(part.id);
       const auto points = runs.empty() ? std::vector<PointRow>{} : store_.points(runs.back().id);  // latest run
@@ -448,7 +439,7 @@ class CoreService final : public Service {
     try {
       return Store(config.paths.database);
     } catch (const StoreError& e) {
-      log(std::string("store: cannot open, stopping (outputs were turned off first): ") + e.what());
+      log.error(std::string("store: cannot open, stopping (outputs were turned off first): ") + e.what());
       throw;
     }
   }
@@ -463,7 +454,6 @@ class CoreService final : public Service {
   JobQueue queue_;
   Executor executor_;
   std::chrono::steady_clock::time_point started_;
-  std::map<std::string, Handler> table_;
   std::once_flag shutdown_once_;
 };
 

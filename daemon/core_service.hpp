@@ -4,6 +4,7 @@
 #pragma once
 
 #include "daemon/config.hpp"
+#include "daemon/log.hpp"
 #include "daemon/service.hpp"
 
 #include <functional>
@@ -18,9 +19,8 @@ struct ServiceOptions {
   // Opens the instruments. Default: from config.bench through drivers/factory.hpp.
   // Tests pass in-process fakes here.
   std::function<std::unique_ptr<Bench>(const Config&)> open_bench;
-  // One line per message (no trailing newline). Default: stderr. A line
-  // that starts with "warn: " is a warning (juncod logs it at level warn).
-  std::function<void(std::string_view)> log;
+  // Default: stderr at info and above (daemon/log.hpp).
+  Log log;
 };
 
 // Turns every output off first (before the database is opened, so a damaged

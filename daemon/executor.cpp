@@ -1,5 +1,7 @@
 #include "daemon/executor.hpp"
 
+#include "daemon/api_json.hpp"
+
 #include "daemon/part_analysis.hpp"
 
 #include "drivers/errors.hpp"
@@ -73,13 +75,16 @@ struct RunFit {
 // the DC-only Rs stays in detail.electrothermal.apparent_rs_ohm. Without AC
 // readings the fit keeps the DC-only values and warns how much heating they
 // may hide.
-void apply_electrothermal(const Config& cfg, double temp_k, const Json& fixture, const std::vector<PointRow>& points, RunFit& out) {
+void apply_electrothermal(const Config& cfg, double temp_k, const RunFixture& fixture, const std::vector<PointRow>& points, RunFit& out) {
   fitting::ElectroThermalRunOptions eo;
   eo.fit.ambient_k = temp_k;
   eo.fit.accuracy = cfg.accuracy;
   eo.fit.ac_sigma_db = cfg.level_sigma_db();
-  const auto dc = dc_fit_points(points);
   const auto ac = ac_points(points);
+  // The model is the settled junction (Ta + Rth·I·V): with AC readings it
+  // takes the readings at a held bias only (pulsed ones are near ambient);
+  // without, its DC-only fit and note are about the stored fit's readings.
+  const auto dc = ac.empty() ? dc_fit_points(points) : held_dc_points(points);
   const fitting::ElectroThermalRun et = fitting::fit_run_electrothermal(dc, ac, ac_fixture(fixture), eo);
   out.more_detail["electrothermal"] = fitting::electrothermal_run_json(et, eo);
   if (et.status == "no_ac" || et.status == "failed") {
@@ -105,7 +110,59 @@ void apply_electrothermal(const Config& cfg, double temp_k, const Json& fixture,
   out.fit.reduced_chi2 = f.reduced_chi2;
 }
 
-RunFit fit_run(const Config& cfg, double temp_k, const Json& fixture, const std::vector<PointRow>& points) {
+// The heating plan options' readings (plan.heating; fitting/heating.hpp):
+// Rth and τ from the two dwells, the up/down hysteresis, and how much
+// heating the stored Rs may still hold. Stored as detail.heating.
+void apply_heating(const Config& cfg, double temp_k, const std::vector<PointRow>& points, RunFit& out) {
+  const HeatingReadings h = heating_readings(points);
+  if (h.pulsed == 0 && h.pairs.empty()) return;
+  fitting::HeatingOptions o;
+  o.ambient_k = temp_k;
+  o.accuracy = cfg.accuracy;
+  const fitting::DiodeParams params = out.fit.params();
+  Json j{{"pulsed_readings", h.pulsed}, {"pulse_dwell_s", std::isfinite(h.pulse_dwell_median_s) ? Json(h.pulse_dwell_median_s) : Json(nullptr)}};
+  std::optional<fitting::DwellThermal> dwell;
+  if (!h.dwells.empty()) {
+    dwell = fitting::dwell_thermal(h.dwells, params, o);
+    j["dwell"] = fitting::dwell_thermal_json(*dwell);
+    if (dwell->status != "measured") out.fit.warnings.push_back("two dwells: " + dwell->note);
+  }
+  if (!h.pairs.empty()) {
+    const fitting::Hysteresis hy = fitting::sweep_hysteresis(h.pairs, params, o);
+    j["hysteresis"] = fitting::hysteresis_json(hy);
+    if (hy.flagged) out.fit.warnings.push_back(hy.note);
+  }
+  // Without AC readings the stored Rs is the DC-only one: size what heating
+  // it still holds with the measured Rth (the per-100 K/W figure of the
+  // electro-thermal note × Rth/100), times the part of the settled rise a
+  // pulsed top reading sees, 1 − e^(−t0/τ), when the top was pulsed.
+  const Json& et = out.more_detail.value("electrothermal", Json::object());
+  const double per_100 = et.value("rs_bias_per_100_k_per_w_ohm", Json()).is_number() ? et["rs_bias_per_100_k_per_w_ohm"].get<double>() : NAN;
+  if (dwell && dwell->status == "measured" && et.value("status", "") == "no_ac" && std::isfinite(per_100)) {
+    const double fraction = h.pulsed > 0 && std::isfinite(h.pulse_dwell_median_s) ? 1.0 - std::exp(-h.pulse_dwell_median_s / dwell->tau_s.value) : 1.0;
+    const double bias = per_100 * dwell->rth_k_per_w.value / 100.0 * fraction;
+    j["rs_heating_ohm"] = bias;
+    char line[240];
+    std::snprintf(line, sizeof line,
+                  "with the measured Rth %.4g K/W (two dwells) the heating lowers the DC-only Rs by about %.2g ohm%s",
+                  dwell->rth_k_per_w.value, bias, h.pulsed > 0 ? " (pulsed top readings: that part of the settled rise they see)" : "");
+    out.fit.warnings.emplace_back(line);
+  }
+  else if (h.pulsed > 0 && et.value("status", "") == "no_ac" && std::isfinite(h.pulse_dwell_median_s)) {
+    // The electro-thermal note sizes a settled rise at the top reading's
+    // power; a pulsed top reading sees only what the junction reached in its
+    // dwell, and τ is not known without heating.dwell.
+    char line[300];
+    std::snprintf(line, sizeof line,
+                  "the top %zu readings were pulsed (%.2g ms after output on): they carry only the part of that heating reached "
+                  "in %.2g ms, 1 - exp(-t/tau) of it for a thermal time constant tau (heating.dwell measures tau and Rth)",
+                  h.pulsed, h.pulse_dwell_median_s * 1e3, h.pulse_dwell_median_s * 1e3);
+    out.fit.warnings.emplace_back(line);
+  }
+  out.more_detail["heating"] = j;
+}
+
+RunFit fit_run(const Config& cfg, double temp_k, const RunFixture& fixture, const std::vector<PointRow>& points) {
   RunFit out;
   try {
     fitting::FitOptions opt;
@@ -124,6 +181,11 @@ RunFit fit_run(const Config& cfg, double temp_k, const Json& fixture, const std:
       apply_electrothermal(cfg, temp_k, fixture, points, out);
     } catch (const std::exception& e) {
       out.fit.warnings.push_back(std::string("electro-thermal fit not made: ") + e.what());
+    }
+    try {
+      apply_heating(cfg, temp_k, points, out);
+    } catch (const std::exception& e) {
+      out.fit.warnings.push_back(std::string("heating readings not analysed: ") + e.what());
     }
   }
   try {
@@ -180,12 +242,6 @@ class JobRun {
   }
 
  private:
-  Json fixture_json() const {
-    return Json{{"bias_resistor_ohm", cfg_.fixture.bias_resistor_ohm}, {"dc_return_ohm", cfg_.fixture.dc_return_ohm},
-                {"source_ohm", cfg_.fixture.source_ohm}, {"load_ohm", cfg_.fixture.load_ohm},
-                {"current_from", to_string(cfg_.fixture.current_from)}, {"stray_c_f", cfg_.fixture.stray_c_f}};
-  }
-
   bool temperature_done(int temp_index) {
     const auto runs = store_.runs_of_job(job_id_);
     int done = 0;
@@ -197,9 +253,9 @@ class JobRun {
   void run_part(const PartSpec& part, int temp_index, double setpoint_k) {
     const Id lot_id = store_.ensure_lot(plan_.lot);
     const Id part_id = store_.ensure_part(lot_id, part.label, part.slot);
-    const Json fixture = fixture_json();
+    const RunFixture fixture = run_fixture(cfg_.fixture);
     const bool chamber = std::isfinite(setpoint_k);
-    const RunRow run = store_.ensure_run(job_id_, part_id, part.slot, fixture, chamber ? setpoint_k : plan_.temp_k, temp_index, setpoint_k);
+    const RunRecord run = store_.ensure_run(job_id_, part_id, part.slot, fixture, chamber ? setpoint_k : plan_.temp_k, temp_index, setpoint_k);
     part_label_ = part.label;
     part_id_ = part_id;
     run_id_ = run.id;
@@ -310,6 +366,8 @@ class JobRun {
     });
     biased_index_ = reversed_index_ = -1;
     siggen_on_ = false;
+    source_on_ = true;
+    pulse_index_ = -1;
     vf_guess_v_ = kFirstVfGuessV;
     try {
       for (std::size_t seq = first; seq < steps_.size(); ++seq) step_at(seq);
@@ -324,7 +382,9 @@ class JobRun {
   void step_at(std::size_t seq) {
     const Step& step = steps_[seq];
     const bool reverse = step.kind == Step::Kind::reverse || step.kind == Step::Kind::reverse_ac;
-    if (step.kind == Step::Kind::dc || step.kind == Step::Kind::reverse) commit_pending();  // a new bias step begins
+    // A new bias step begins (a pulse's dwell readings belong to its step:
+    // no commit between them, it would shift their timing).
+    if ((step.kind == Step::Kind::dc && step.series != Series::dwell) || step.kind == Step::Kind::reverse) commit_pending();
     poll();
     if (stopped_high_ && !reverse) {
       ++skipped_;
@@ -334,10 +394,14 @@ class JobRun {
     p.run_id = run_id_;
     p.seq = static_cast<long>(seq);
     pending_.push_back(p);
+    // A pulse ends with its last reading: output off until the next one.
+    const bool pulse_goes_on = seq + 1 < steps_.size() && steps_[seq + 1].kind == Step::Kind::dc &&
+                               steps_[seq + 1].series == Series::dwell && steps_[seq + 1].dc_index == step.dc_index;
+    if (step.pulsed && !(pulse_goes_on && !(p.flags & kLimitFlags))) guarded([&] { end_pulse(); });
     if (p.flags & kLimitFlags) {
       stopped_high_ = true;
       guarded([&] { bench_.source->set_voltage_v(0.0); });
-      log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " +
+      log_.warn("job " + std::to_string(job_id_) + " part " + part_label_ + ": " +
            ((p.flags & flag_current_limit) ? "supply in current limit" : "power above max_power_w") + " at step " +
            std::to_string(seq) + "; no further forward steps");
     }
@@ -366,11 +430,12 @@ class JobRun {
       } catch (const drivers::DriverError& e) {
         // A command error (-1xx) or a config error comes back the same every time.
         const bool retry = !e.permanent() && attempt < kPointAttempts;
-        log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " + describe(e) +
+        log_.warn("job " + std::to_string(job_id_) + " part " + part_label_ + ": " + describe(e) +
              (retry ? " (retrying, attempt " + std::to_string(attempt) + ")" : ""));
         if (!retry)
           throw JobStop{JobStop::Why::fault, describe(e) + " (part " + part_label_ + ", after " + std::to_string(attempt) + " attempts)"};
         biased_index_ = reversed_index_ = -1;  // re-establish the bias on the next attempt
+        pulse_index_ = -1;                     // and a pulse from cold
         if (!queue_.sleep_for(std::chrono::milliseconds(50 * attempt))) poll();
       }
     }
@@ -382,6 +447,7 @@ class JobRun {
     p.set_value = step.set_value;
     const bool reverse = step.kind == Step::Kind::reverse || step.kind == Step::Kind::reverse_ac;
     p.set_unit = (!reverse && plan_.sweep.mode == SweepMode::current) ? "A" : "V";
+    p.series = to_string(step.series);
     const bool levels = step.kind == Step::Kind::ac || step.kind == Step::Kind::reverse_ac;
     if (!levels && siggen_on_) {  // DC readings are taken with the generator off
       bench_.siggen->set_output(false);
@@ -390,6 +456,8 @@ class JobRun {
     if (step.kind == Step::Kind::reverse) {
       reverse_bias(step);
       read_dc(p);
+    } else if (step.kind == Step::Kind::dc && step.series == Series::dwell) {
+      dwell_reading(step, p);
     } else if (step.kind == Step::Kind::dc) {
       bias(step, p);
     } else {
@@ -408,6 +476,7 @@ class JobRun {
   void reverse_bias(const Step& step) {
     biased_index_ = -1;
     set_supply(step.set_value);  // negative: reverse bias; magnitude checked against max_reverse_v
+    source_on();
     wait(plan_.sweep.settle_s);
     reversed_index_ = step.dc_index;
   }
@@ -432,26 +501,89 @@ class JobRun {
     p.supply_v = supply_v_;
   }
 
-  // Programs the forward bias of a dc step and reads it into p.
+  // Programs the forward bias of a dc step and reads it into p (in a pulse
+  // from cold for a pulsed step: the output stays on after the reading, for
+  // the pulse's dwell readings; step_at ends the pulse).
   void bias(const Step& step, PointRow& p) {
     if (plan_.sweep.mode == SweepMode::voltage) {
-      set_supply(step.set_value);
-      wait(plan_.sweep.settle_s);
+      apply_bias(step.set_value, step.pulsed);
       read_dc(p);
     } else {
-      target_current(step.set_value, p);
+      target_current(step.set_value, p, step.pulsed);
     }
-    biased_index_ = step.dc_index;
+    biased_index_ = step.pulsed ? -1 : step.dc_index;  // a pulse leaves no held bias for AC readings
     reversed_index_ = -1;
+    if (step.pulsed) pulse_index_ = step.dc_index;
   }
 
-  void target_current(double target_a, PointRow& p) {
+  // The supply at v and, after the wait, ready to read: held (settle_s) or
+  // as a pulse from cold (output off for off_s, on, on_s).
+  void apply_bias(double v, bool pulsed) {
+    if (!pulsed) {
+      set_supply(v);
+      source_on();
+      wait(plan_.sweep.settle_s);
+      pulse_index_ = -1;
+      return;
+    }
+    const HeatingSpec::Pulse& pulse = *plan_.heating.pulse;
+    end_pulse();
+    wait(pulse.off_s);
+    set_supply(v);
+    // The safety order holds for every output on, a pulse's too: the
+    // current limit is programmed again since the output went off.
+    bench_.source->set_current_limit_a(compliance_a(plan_, cfg_));
+    const auto before = Clock::now();
+    bench_.source->set_output(true);
+    source_on_ = true;
+    const auto after = Clock::now();
+    pulse_start_ = before + (after - before) / 2;  // the command's midpoint: when the part saw it, within half its time
+    pulse_index_ = -2;                             // a pulse without its step yet (bias() sets it)
+    wait_until_dwell(pulse.on_s);
+  }
+
+  // A dwell reading of the pulse of its step, at dwell_s after the output
+  // went on. Resumed or retried into it: a new pulse from cold first.
+  void dwell_reading(const Step& step, PointRow& p) {
+    if (pulse_index_ != step.dc_index) {
+      PointRow scratch;
+      Step first = step;
+      first.series = Series::up;
+      bias(first, scratch);
+    }
+    wait_until_dwell(step.dwell_s);
+    read_dc(p);
+  }
+
+  void wait_until_dwell(double dwell_s) {
+    const double elapsed = std::chrono::duration<double>(Clock::now() - pulse_start_).count();
+    wait(dwell_s - elapsed);
+  }
+
+  // The supply's output off between pulses (the safety order keeps the
+  // current limit and the scanner as they are; the next step turns it on).
+  void end_pulse() {
+    if (source_on_) {
+      bench_.source->set_output(false);
+      source_on_ = false;
+    }
+    pulse_index_ = -1;
+  }
+
+  void source_on() {
+    if (!source_on_) {
+      bench_.source->set_current_limit_a(compliance_a(plan_, cfg_));  // before output on, always
+      bench_.source->set_output(true);
+      source_on_ = true;
+    }
+  }
+
+  void target_current(double target_a, PointRow& p, bool pulsed) {
     const double r = cfg_.fixture.bias_resistor_ohm + cfg_.fixture.dc_return_ohm;
     double v_set = target_a * r + vf_guess_v_;
     double prev_v = NAN, prev_i = NAN;
     for (int k = 0; k < kTargetIterations; ++k) {
-      set_supply(v_set);
-      wait(plan_.sweep.settle_s);
+      apply_bias(v_set, pulsed);  // each correction of a pulsed step is a pulse from cold
       read_dc(p);
       if (p.flags & kLimitFlags) return;
       if (std::fabs(p.i_a - target_a) <= kTargetTolerance * target_a) break;
@@ -477,15 +609,22 @@ class JobRun {
     supply_v_ = v;
   }
 
+  // A reading in a pulse carries its dwell: output on → the voltage
+  // readings' midpoints (the voltage is what the dwells compare; the meter
+  // reads when the query arrives, within half its round trip of the midpoint).
   void read_dc(PointRow& p) {
-    double v_sum = 0, i_sum = 0;
+    double v_sum = 0, i_sum = 0, t_sum_s = 0;
     const int n = plan_.sweep.average;
     for (int k = 0; k < n; ++k) {
+      const auto before = Clock::now();
       v_sum += bench_.meter->measure_dc_voltage_v();
+      const auto after = Clock::now();
+      t_sum_s += std::chrono::duration<double>(before + (after - before) / 2 - pulse_start_).count();
       i_sum += cfg_.fixture.current_from == CurrentFrom::source ? bench_.source->measure_current_a() : bench_.meter->measure_dc_current_a();
     }
     p.v = v_sum / n;
     p.i_a = i_sum / n;
+    if (pulse_index_ != -1 && source_on_) p.dwell_s = t_sum_s / n;
     p.supply_v = supply_v_;
     if (bench_.source->in_current_limit()) p.flags |= flag_current_limit;
     if (std::fabs(p.v * p.i_a) > cfg_.safety.max_power_w) p.flags |= flag_power_limit;
@@ -550,7 +689,7 @@ class JobRun {
   // a kill leaves the run either done with its fit or not done, and a run
   // not done is fitted when the resumed job reaches it. A failed fit is
   // stored with its reason; a StoreError goes up (the job pauses).
-  void fit_and_finish(Id part_id, Id run_id, const Json& fixture, double temp_k) {
+  void fit_and_finish(Id part_id, Id run_id, const RunFixture& fixture, double temp_k) {
     const RunFit f = fit_run(cfg_, temp_k, fixture, store_.points(run_id));
     store_.finish_run_with_fit(part_id, run_id, f.fit, f.cap ? &*f.cap : nullptr, f.cap ? f.cap_readings : Json(), f.more_detail);
     log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " + describe_fit(f));
@@ -572,6 +711,9 @@ class JobRun {
   std::string part_label_;
   Id part_id_ = 0, run_id_ = 0;
   bool stopped_high_ = false, siggen_on_ = false;
+  bool source_on_ = true;     // the supply's output as last programmed in this part
+  int pulse_index_ = -1;      // the forward step whose pulse is on (-2: being set up), -1 = none
+  Clock::time_point pulse_start_{};
   int biased_index_ = -1;    // the forward step the supply is at, -1 = none or unknown
   int reversed_index_ = -1;  // the reverse_v point the supply is at, -1 = none or unknown
   double siggen_amplitude_ = 0;  // as last programmed (valid while siggen_on_)
@@ -592,7 +734,7 @@ SafeStart make_bench_safe_first(const Config& config, const BenchOpener& open, c
     out.bench->log = log;
   } catch (const std::exception& e) {
     out.errors = std::string("cannot open: ") + e.what();
-    log("bench: " + out.errors + " (retrying every " + std::to_string(kMakeSafeRetry.count()) + " ms)");
+    log.error("bench: " + out.errors + " (outputs not known to be off; retrying every " + std::to_string(kMakeSafeRetry.count()) + " ms)");
     return out;
   }
   // Stale errors first, so none is reported against OUTP OFF; a failure to
@@ -604,12 +746,12 @@ SafeStart make_bench_safe_first(const Config& config, const BenchOpener& open, c
     out.errors += (out.errors.empty() ? "" : "; ") + parked;
   const std::string clear_then = out.bench->clear_errors("at bench open", Bench::Roles::others);
   if (!clear_first.empty() || !clear_then.empty())
-    log("bench: could not clear every error queue at open: " + clear_first + (clear_first.empty() || clear_then.empty() ? "" : "; ") + clear_then);
+    log.warn("bench: could not clear every error queue at open: " + clear_first + (clear_first.empty() || clear_then.empty() ? "" : "; ") + clear_then);
   std::string missing;
   for (const auto& m : out.bench->missing) missing += (missing.empty() ? "" : "; ") + m;
   if (!missing.empty()) out.errors = "cannot open: " + missing + (out.errors.empty() ? "" : "; also: " + out.errors);
-  if (out.errors.empty()) log("bench: every output off, scanner open");
-  else log("bench: could not make every instrument safe at start: " + out.errors + " (retrying every " +
+  if (out.errors.empty()) log.info("bench: every output off, scanner open");
+  else log.error("bench: could not make every instrument safe at start: " + out.errors + " (retrying every " +
            std::to_string(kMakeSafeRetry.count()) + " ms)");
   return out;
 }
@@ -640,7 +782,7 @@ void Executor::stop() {
   if (!bench_) return;
   const std::string errors = make_safe_and_park();
   note_safety(errors);
-  if (!errors.empty()) log_("bench: could not make every instrument safe at shutdown: " + errors);
+  if (!errors.empty()) log_.error("bench: could not make every instrument safe at shutdown: " + errors);
 }
 
 Json Executor::identities() const {
@@ -658,7 +800,8 @@ bool Executor::ensure_bench() {
       const std::string errors = opened->make_safe();
       std::string why;
       for (const auto& m : opened->missing) why += (why.empty() ? "" : "; ") + m;
-      log_bench_problem("bench: cannot open: " + why + (errors.empty() ? " (the others are safe)" : "; also: " + errors));
+      // The missing ones may still be on: a safety failure.
+      log_bench_problem(LogLevel::error, "bench: cannot open: " + why + (errors.empty() ? " (the others are safe)" : "; also: " + errors));
       unsafe_ = true;  // the missing ones may still be on: keep retrying
       unsafe_errors_ = why;
       return false;
@@ -671,10 +814,10 @@ bool Executor::ensure_bench() {
     // An error someone else left in a queue must not be blamed on our first
     // command; a failure here shows again at the next command, so only logged.
     if (const std::string errors = bench_->clear_errors("at bench open"); !errors.empty())
-      log_("bench: could not clear every error queue at open: " + errors);
+      log_.warn("bench: could not clear every error queue at open: " + errors);
     return true;
   } catch (const std::exception& e) {
-    log_bench_problem(std::string("bench: cannot open: ") + e.what());
+    log_bench_problem(LogLevel::warn, std::string("bench: cannot open: ") + e.what());
     bench_.reset();
     bench_open_ = false;
     return false;
@@ -697,10 +840,10 @@ std::string Executor::bench_problem() const {
   return last_bench_problem_;
 }
 
-void Executor::log_bench_problem(const std::string& line) {
+void Executor::log_bench_problem(LogLevel level, const std::string& line) {
   if (line == bench_problem()) return;
   set_bench_problem(line);
-  log_(line);
+  log_.write(level, line);
 }
 
 void Executor::note_safety(const std::string& errors) {
@@ -731,13 +874,13 @@ void Executor::retry_make_safe() {
     log_("bench: every output off, scanner open (make-safe retried)");
     return;
   }
-  if (errors != unsafe_errors_) log_("bench: still not safe, retrying every " + std::to_string(kMakeSafeRetry.count()) + " ms: " + errors);
+  if (errors != unsafe_errors_) log_.error("bench: still not safe, retrying every " + std::to_string(kMakeSafeRetry.count()) + " ms: " + errors);
   note_safety(errors);
 }
 
-void Executor::stop_job(Id id, const std::string& state, const std::optional<std::string>& message) {
+void Executor::stop_job(Id id, JobState state, const std::optional<std::string>& message) {
   if (!queue_.set_stop_state(id, state, message))
-    log_("job " + std::to_string(id) + ": state " + state + " could not be saved, held in memory" + (message ? ": " + *message : ""));
+    log_.warn("job " + std::to_string(id) + ": state " + std::string(to_string(state)) + " could not be saved, held in memory" + (message ? ": " + *message : ""));
 }
 
 void Executor::identify() {
@@ -749,7 +892,7 @@ void Executor::identify() {
     try {
       id = inst->identify();
     } catch (const std::exception& e) {
-      log_(std::string("bench: ") + role + " *IDN? failed: " + e.what());
+      log_.warn(std::string("bench: ") + role + " *IDN? failed: " + e.what());
       return;
     }
     {
@@ -760,7 +903,7 @@ void Executor::identify() {
       const auto* ic = config_.instrument(role);
       store_.record_instrument(role, ic ? ic->address : "", id.manufacturer, id.model, id.serial, id.firmware);
     } catch (const std::exception& e) {
-      log_(std::string("bench: ") + role + " identified as " + id.manufacturer + " " + id.model +
+      log_.warn(std::string("bench: ") + role + " identified as " + id.manufacturer + " " + id.model +
            ", but storing its identity failed: storage: " + e.what());
     }
   };
@@ -779,14 +922,14 @@ void Executor::refit_runs_without_fit() {
   try {
     for (const auto& run : store_.runs_without_fit(std::nullopt, true)) {
       const auto job = store_.job(run.job_id);
-      const double temp_k = std::isfinite(run.temp_k) ? run.temp_k : job ? job->plan.value("temp_k", 300.15) : 300.15;
+      const double temp_k = std::isfinite(run.temp_k) ? run.temp_k : job ? job->plan.temp_k : 300.15;
       const RunFit f = fit_run(config_, temp_k, run.fixture, store_.points(run.id));
       store_.finish_run_with_fit(run.part_id, run.id, f.fit, f.cap ? &*f.cap : nullptr, f.cap ? f.cap_readings : Json(), f.more_detail);
       log_("recovered: run " + std::to_string(run.id) + " of job " + std::to_string(run.job_id) +
            " was done without its fit; fitted now: " + describe_fit(f));
     }
   } catch (const std::exception& e) {
-    log_(std::string("recovering fits of done runs failed: ") + e.what());
+    log_.warn(std::string("recovering fits of done runs failed: ") + e.what());
   }
 }
 
@@ -813,7 +956,7 @@ void Executor::loop() {
     try {
       claimed = queue_.claim(*id);
     } catch (const StoreError& e) {
-      log_bench_problem("job " + std::to_string(*id) + ": cannot start: storage: " + e.what());
+      log_bench_problem(LogLevel::warn, "job " + std::to_string(*id) + ": cannot start: storage: " + e.what());
       queue_.sleep_for(std::chrono::seconds(2));
       continue;
     }
@@ -823,8 +966,8 @@ void Executor::loop() {
     } catch (const std::exception& e) {
       // A bug: never leave the bench live.
       if (bench_) note_safety(make_safe_and_park());
-      log_("job " + std::to_string(*id) + ": failed: " + e.what());
-      stop_job(*id, "failed", e.what());
+      log_.error("job " + std::to_string(*id) + ": failed: " + e.what());
+      stop_job(*id, JobState::failed, e.what());
     }
     queue_.set_running(std::nullopt);
   }
@@ -832,7 +975,8 @@ void Executor::loop() {
 
 void Executor::run_job(Id id) {
   const auto row = store_.job(id);
-  const Plan plan = parse_plan(row->plan);
+  if (!row) throw NotFound("no job " + std::to_string(id), "job_id", id);
+  const Plan& plan = row->plan;
   log_("job " + std::to_string(id) + ": running (" + std::to_string(row->points_done) + " of " + std::to_string(row->points_total) +
        " points already committed)");
   JobRun run(config_, store_, queue_, events_, *bench_, log_, id, plan, row->points_done, row->points_total);
@@ -849,31 +993,35 @@ void Executor::run_job(Id id) {
     for (const auto& r : store_.runs_without_fit(id, false)) unfitted += (unfitted.empty() ? "" : ", ") + std::to_string(r.id);
     if (!unfitted.empty()) {
       const std::string msg = "runs " + unfitted + " have readings but no fit";
-      log_("job " + std::to_string(id) + ": failed: " + msg);
-      stop_job(id, "failed", msg);
+      log_.warn("job " + std::to_string(id) + ": failed: " + msg);
+      stop_job(id, JobState::failed, msg);
       return;
     }
     // "" clears a message left from before (paused by request, restarted …).
-    stop_job(id, "done", errors.empty() ? std::string() : "finished, but: " + errors);
-    log_("job " + std::to_string(id) + ": done");
+    stop_job(id, JobState::done, errors.empty() ? std::string() : "finished, but: " + errors);
+    if (errors.empty()) log_.info("job " + std::to_string(id) + ": done");
+    else log_.error("job " + std::to_string(id) + ": done, but the outputs are not known to be off: " + errors);
   } catch (const JobStop& stop) {
     const std::string errors = make_safe_and_park();
     note_safety(errors);
     const std::string msg = stop.message + (errors.empty() ? "" : "; " + errors);
-    log_("job " + std::to_string(id) + ": " + msg);
+    // A requested stop is lifecycle, a fault or timeout a warning, and a
+    // make-safe that failed on the way out a safety failure.
+    const bool asked = stop.why == JobStop::Why::pause || stop.why == JobStop::Why::cancel || stop.why == JobStop::Why::shutdown;
+    log_.write(!errors.empty() ? LogLevel::error : asked ? LogLevel::info : LogLevel::warn, "job " + std::to_string(id) + ": " + msg);
     switch (stop.why) {
-      case JobStop::Why::pause: stop_job(id, "paused", msg); break;
+      case JobStop::Why::pause: stop_job(id, JobState::paused, msg); break;
       case JobStop::Why::fault:
-        stop_job(id, "paused", msg);
+        stop_job(id, JobState::paused, msg);
         // The drivers reconnect by themselves; the bench is kept for the
         // make-safe retries and reopened before the next job.
         reopen_before_job_ = true;
         break;
-      case JobStop::Why::cancel: stop_job(id, "cancelled", msg); break;
-      case JobStop::Why::timeout: stop_job(id, "failed", msg); break;
+      case JobStop::Why::cancel: stop_job(id, JobState::cancelled, msg); break;
+      case JobStop::Why::timeout: stop_job(id, JobState::failed, msg); break;
       case JobStop::Why::shutdown:
         // As after a crash: resumable jobs go back to the queue on restart.
-        stop_job(id, plan.resume ? "queued" : "interrupted", msg);
+        stop_job(id, plan.resume ? JobState::queued : JobState::interrupted, msg);
         break;
     }
   } catch (const StoreError& e) {
@@ -884,8 +1032,8 @@ void Executor::run_job(Id id) {
     const std::string errors = make_safe_and_park();
     note_safety(errors);
     const std::string msg = std::string("storage: ") + e.what() + (errors.empty() ? "" : "; " + errors);
-    log_("job " + std::to_string(id) + ": " + msg);
-    stop_job(id, "paused", msg);
+    log_.write(errors.empty() ? LogLevel::warn : LogLevel::error, "job " + std::to_string(id) + ": " + msg);
+    stop_job(id, JobState::paused, msg);
   }
 }
 

@@ -21,6 +21,7 @@
 #include "daemon/bench.hpp"
 #include "daemon/config.hpp"
 #include "daemon/jobs.hpp"
+#include "daemon/log.hpp"
 #include "daemon/store.hpp"
 
 #include <atomic>
@@ -38,7 +39,7 @@ inline constexpr int kPointAttempts = 4;
 inline constexpr std::chrono::milliseconds kMakeSafeRetry{500};
 
 using BenchOpener = std::function<std::unique_ptr<Bench>(const Config&)>;
-using LogFn = std::function<void(std::string_view)>;
+using LogFn = Log;  // daemon/log.hpp
 
 // The first thing juncod does, before the database is opened (a damaged or
 // huge database must never hold an output on): open the bench and turn every
@@ -88,9 +89,9 @@ class Executor {
   // set point (Bench::park_chamber); the failures of both, "" when none.
   std::string make_safe_and_park();
   // Logs a bench problem once, not again while it stays the same.
-  void log_bench_problem(const std::string& line);
+  void log_bench_problem(LogLevel level, const std::string& line);
   void set_bench_problem(const std::string& line);
-  void stop_job(Id id, const std::string& state, const std::optional<std::string>& message);
+  void stop_job(Id id, JobState state, const std::optional<std::string>& message);
 
   const Config& config_;
   Store& store_;

@@ -7,30 +7,30 @@ namespace junco::daemon {
 JobQueue::JobQueue(Store& store, EventBus& events) : store_(store), events_(events) {}
 
 Id JobQueue::submit(const Plan& plan, long points_total, const Caller& caller) {
-  const Id id = store_.insert_job(to_json(plan), points_total, caller.uid, caller.pid);
-  publish_state(id, "queued", std::nullopt);
+  const Id id = store_.insert_job(plan, points_total, caller.uid, caller.pid);
+  publish_state(id, JobState::queued, std::nullopt);
   wake();
   return id;
 }
 
-JobRow JobQueue::require(Id id) {
+JobRecord JobQueue::require(Id id) {
   auto j = store_.job(id);
-  if (!j) throw RequestError(RpcCode::not_found, "no job " + std::to_string(id), Json{{"job_id", id}});
+  if (!j) throw NotFound("no job " + std::to_string(id), "job_id", id);
   return *j;
 }
 
 // Publishes the state just written (not re-read: another thread may already
 // have moved the job on, and each event must describe its own transition).
-void JobQueue::publish_state(Id id, const std::string& state, const std::optional<std::string>& error) {
-  events_.publish({"job.state", {{"job_id", id}, {"state", state}, {"error", error ? Json(*error) : Json(nullptr)}}});
+void JobQueue::publish_state(Id id, JobState state, const std::optional<std::string>& error) {
+  events_.publish({"job.state", {{"job_id", id}, {"state", to_string(state)}, {"error", error ? Json(*error) : Json(nullptr)}}});
 }
 
-void JobQueue::set_state(Id id, const std::string& state, const std::optional<std::string>& error) {
+void JobQueue::set_state(Id id, JobState state, const std::optional<std::string>& error) {
   store_.set_job_state(id, state, error);
   publish_state(id, state, error);
 }
 
-bool JobQueue::set_stop_state(Id id, const std::string& state, const std::optional<std::string>& error) {
+bool JobQueue::set_stop_state(Id id, JobState state, const std::optional<std::string>& error) {
   try {
     set_state(id, state, error);
     return true;
@@ -42,43 +42,43 @@ bool JobQueue::set_stop_state(Id id, const std::string& state, const std::option
   }
 }
 
-JobRow JobQueue::cancel(Id id) {
+JobRecord JobQueue::cancel(Id id) {
   std::unique_lock lock(mutex_);
-  JobRow j = require(id);
-  if (running_ == id && j.state == "running") {
+  JobRecord j = require(id);
+  if (running_ == id && j.state == JobState::running) {
     control_ = Control::cancel;
     lock.unlock();
     cv_.notify_all();
     return j;  // the executor reports "cancelled" once the bench is safe
   }
-  if (j.state != "queued" && j.state != "paused")
-    throw RequestError(RpcCode::wrong_state, "job " + std::to_string(id) + " is " + j.state + "; only queued, running or paused jobs can be cancelled");
-  set_state(id, "cancelled");
+  if (j.state != JobState::queued && j.state != JobState::paused)
+    throw WrongState("job " + std::to_string(id) + " is " + to_string(j.state) + "; only queued, running or paused jobs can be cancelled", "job_id", id);
+  set_state(id, JobState::cancelled);
   return require(id);
 }
 
-JobRow JobQueue::pause(Id id) {
+JobRecord JobQueue::pause(Id id) {
   std::unique_lock lock(mutex_);
-  JobRow j = require(id);
-  if (running_ == id && j.state == "running") {
+  JobRecord j = require(id);
+  if (running_ == id && j.state == JobState::running) {
     control_ = Control::pause;
     lock.unlock();
     cv_.notify_all();
     return j;
   }
-  if (j.state != "queued")
-    throw RequestError(RpcCode::wrong_state, "job " + std::to_string(id) + " is " + j.state + "; only queued or running jobs can be paused");
-  set_state(id, "paused", "paused by request");
+  if (j.state != JobState::queued)
+    throw WrongState("job " + std::to_string(id) + " is " + to_string(j.state) + "; only queued or running jobs can be paused", "job_id", id);
+  set_state(id, JobState::paused, "paused by request");
   return require(id);
 }
 
-JobRow JobQueue::resume(Id id) {
+JobRecord JobQueue::resume(Id id) {
   std::unique_lock lock(mutex_);
-  JobRow j = require(id);
-  if (j.state != "paused")
-    throw RequestError(RpcCode::wrong_state, "job " + std::to_string(id) + " is " + j.state + "; only paused jobs can be resumed");
+  JobRecord j = require(id);
+  if (j.state != JobState::paused)
+    throw WrongState("job " + std::to_string(id) + " is " + to_string(j.state) + "; only paused jobs can be resumed", "job_id", id);
   // Back in the queue at its original place (FIFO by id); the error is kept until it runs.
-  set_state(id, "queued");
+  set_state(id, JobState::queued);
   lock.unlock();
   wake();
   return require(id);
@@ -86,13 +86,13 @@ JobRow JobQueue::resume(Id id) {
 
 std::pair<int, int> JobQueue::recover() {
   int resumed = 0, interrupted = 0;
-  for (const auto& j : store_.jobs(std::string("running"))) {
-    const bool may_resume = j.plan.value("resume", true);
+  for (const auto& j : store_.jobs(JobState::running)) {
+    const bool may_resume = j.plan.resume;
     if (may_resume) {
-      set_state(j.id, "queued", "daemon restarted; resuming after the last committed reading");
+      set_state(j.id, JobState::queued, "daemon restarted; resuming after the last committed reading");
       ++resumed;
     } else {
-      set_state(j.id, "interrupted", "daemon stopped while the job ran and the plan forbids resuming");
+      set_state(j.id, JobState::interrupted, "daemon stopped while the job ran and the plan forbids resuming");
       ++interrupted;
     }
   }
@@ -122,11 +122,11 @@ std::optional<Id> JobQueue::wait_next_for(std::chrono::duration<double> d) {
 bool JobQueue::claim(Id id) {
   {
     std::lock_guard lock(mutex_);
-    if (!store_.transition_job(id, "queued", "running")) return false;
+    if (!store_.transition_job(id, JobState::queued, JobState::running)) return false;
     running_ = id;
     control_ = Control::none;
   }
-  publish_state(id, "running", std::nullopt);
+  publish_state(id, JobState::running, std::nullopt);
   return true;
 }
 

@@ -4,9 +4,9 @@
 // between readings (and during settle waits), so the executor alone touches
 // the bench.
 //
-// States: queued → running → done | failed | cancelled; running → paused
-// (fault or request) → queued by resume; interrupted when the daemon died and
-// the plan forbids resuming. Thread-safe.
+// States (JobState, daemon/rows.hpp): queued → running → done | failed |
+// cancelled; running → paused (fault or request) → queued by resume;
+// interrupted when the daemon died and the plan forbids resuming. Thread-safe.
 #pragma once
 
 #include "daemon/plan.hpp"
@@ -29,9 +29,9 @@ class JobQueue {
 
   // Persists a validated plan as a queued job.
   Id submit(const Plan& plan, long points_total, const Caller& caller);
-  JobRow cancel(Id id);  // throws not_found / wrong_state
-  JobRow pause(Id id);
-  JobRow resume(Id id);
+  JobRecord cancel(Id id);  // throws NotFound / WrongState (daemon/errors.hpp)
+  JobRecord pause(Id id);
+  JobRecord resume(Id id);
 
   // After a restart: jobs left running become queued (plan allows resume) or
   // interrupted. Returns how many of each, for the log.
@@ -53,17 +53,17 @@ class JobQueue {
   bool stopping() const;
 
   // State change persisted and published as job.state.
-  void set_state(Id id, const std::string& state, const std::optional<std::string>& error = std::nullopt);
+  void set_state(Id id, JobState state, const std::optional<std::string>& error = std::nullopt);
   // For the executor's stop states (paused, failed, done, ...): persisted like
   // set_state; when the store cannot write it (read-only, disk full), the
   // state and the error, with the storage error appended, are held in memory
   // by the store (job.get / job.list serve them with "persisted": false) and
   // published. Returns false then. Never throws StoreError.
-  bool set_stop_state(Id id, const std::string& state, const std::optional<std::string>& error);
+  bool set_stop_state(Id id, JobState state, const std::optional<std::string>& error);
 
  private:
-  JobRow require(Id id);
-  void publish_state(Id id, const std::string& state, const std::optional<std::string>& error);
+  JobRecord require(Id id);
+  void publish_state(Id id, JobState state, const std::optional<std::string>& error);
   void wake();
 
   Store& store_;

@@ -197,7 +197,7 @@ void LabPublisher::run() {
         last_error_ = e.what();
       }
       if (logged_error != e.what()) {
-        log_(std::string("lab: ") + e.what() + "; will retry, the outbox keeps every row");
+        log_.warn(std::string("lab: ") + e.what() + "; will retry, the outbox keeps every row");
         logged_error = e.what();
       }
       if (pg_->conn) {

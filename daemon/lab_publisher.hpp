@@ -14,6 +14,7 @@
 #pragma once
 
 #include "daemon/config.hpp"
+#include "daemon/log.hpp"
 
 #include <nlohmann/json.hpp>
 
@@ -32,7 +33,7 @@ namespace junco::daemon {
 
 class LabPublisher {
  public:
-  using Log = std::function<void(std::string_view)>;
+  using Log = daemon::Log;
   // With lab.database empty: turns the outbox off (and empties it) and does
   // nothing else. Otherwise turns it on; the first time, the store's existing
   // rows are queued too, so a bench joining a lab publishes its history.

@@ -4,6 +4,7 @@
 
 #include "daemon/part_export.hpp"
 
+#include <algorithm>
 #include <cmath>
 #include <cstdio>
 
@@ -18,16 +19,61 @@ Json number_or_null(double x) { return std::isfinite(x) ? Json(x) : Json(nullptr
 std::vector<fitting::IvPoint> dc_fit_points(const std::vector<PointRow>& points) {
   std::vector<fitting::IvPoint> out;
   for (const auto& p : points)
-    if (p.kind == "dc" && !(p.flags & kLimitFlags) && std::isfinite(p.v) && std::isfinite(p.i_a))
+    if (p.kind == "dc" && p.series == "up" && !(p.flags & kLimitFlags) && std::isfinite(p.v) && std::isfinite(p.i_a))
       out.push_back({p.v, p.i_a});
   return out;
+}
+
+std::vector<fitting::IvPoint> held_dc_points(const std::vector<PointRow>& points) {
+  std::vector<fitting::IvPoint> out;
+  for (const auto& p : points)
+    if (p.kind == "dc" && p.series == "up" && !std::isfinite(p.dwell_s) && !(p.flags & kLimitFlags) && std::isfinite(p.v) &&
+        std::isfinite(p.i_a))
+      out.push_back({p.v, p.i_a});
+  return out;
+}
+
+HeatingReadings heating_readings(const std::vector<PointRow>& points) {
+  HeatingReadings h;
+  const auto usable = [](const PointRow& p) { return !(p.flags & kLimitFlags) && std::isfinite(p.v) && std::isfinite(p.i_a); };
+  std::vector<double> pulse_dwells;
+  std::vector<const PointRow*> up, down;
+  for (std::size_t k = 0; k < points.size(); ++k) {
+    const PointRow& p = points[k];
+    if (p.kind != "dc" || !usable(p)) continue;
+    if (p.series == "down") down.push_back(&p);
+    if (p.series != "up") continue;
+    up.push_back(&p);
+    if (!std::isfinite(p.dwell_s)) continue;
+    ++h.pulsed;
+    pulse_dwells.push_back(p.dwell_s);
+    // The pulse's dwell readings follow it (same set value, consecutive seq).
+    if (k + 2 < points.size()) {
+      const PointRow& a = points[k + 1];
+      const PointRow& b = points[k + 2];
+      if (a.kind == "dc" && b.kind == "dc" && a.series == "dwell" && b.series == "dwell" && a.set_value == p.set_value &&
+          b.set_value == p.set_value && usable(a) && usable(b))
+        h.dwells.push_back({{p.dwell_s, p.v, p.i_a}, {a.dwell_s, a.v, a.i_a}, {b.dwell_s, b.v, b.i_a}});
+    }
+  }
+  if (!pulse_dwells.empty()) {
+    std::sort(pulse_dwells.begin(), pulse_dwells.end());
+    h.pulse_dwell_median_s = pulse_dwells[pulse_dwells.size() / 2];
+  }
+  for (const auto* d : down)
+    for (const auto* u : up)
+      if (u->set_value == d->set_value) {
+        h.pairs.push_back({u->set_value, {u->v, u->i_a}, {d->v, d->i_a}});
+        break;
+      }
+  return h;
 }
 
 std::vector<fitting::AcPoint> ac_points(const std::vector<PointRow>& points) {
   std::vector<fitting::AcPoint> ac;
   double bias_i_a = kNaN;  // the DC reading of the step the AC readings belong to
   for (const auto& p : points) {
-    if (p.kind == "dc") bias_i_a = p.i_a;
+    if (p.kind == "dc") bias_i_a = p.series == "up" && !std::isfinite(p.dwell_s) ? p.i_a : kNaN;  // AC only at a held bias
     else if (p.kind != "ac") bias_i_a = kNaN;
     else if (std::isfinite(bias_i_a) && std::isfinite(p.freq_hz) && std::isfinite(p.ac_in_v) && std::isfinite(p.ac_out_v))
       ac.push_back({bias_i_a, p.freq_hz, p.ac_in_v, p.ac_out_v, p.ac_unit == "vpp" ? 0.5 : std::sqrt(2.0)});
@@ -43,12 +89,12 @@ std::vector<fitting::OffStatePoint> off_state_points(const std::vector<PointRow>
   return out;
 }
 
-std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<PointRow>& points, const Json& run_fixture,
+std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<PointRow>& points, const RunFixture& run_fixture,
                                                            double rs_ohm) {
   const auto off = off_state_points(points);
   if (off.empty()) return std::nullopt;
   fitting::JunctionCapOptions o;
-  if (run_fixture.is_object() && run_fixture.value("stray_c_f", Json()).is_number()) o.stray_c_f = run_fixture["stray_c_f"].get<double>();
+  if (std::isfinite(run_fixture.stray_c_f)) o.stray_c_f = run_fixture.stray_c_f;
   return fitting::fit_junction_cap(off, ac_fixture(run_fixture), std::isfinite(rs_ohm) && rs_ohm > 0 ? rs_ohm : 0.0, o);
 }
 
@@ -65,34 +111,38 @@ Json off_state_readings_report(const std::vector<fitting::OffStatePoint>& points
   return rows;
 }
 
-fitting::Fixture ac_fixture(const Json& f) {
-  const auto ohm = [&](const char* key, double fallback) {
-    return f.is_object() && f.contains(key) && f[key].is_number() ? f[key].get<double>() : fallback;
-  };
+fitting::Fixture ac_fixture(const RunFixture& f) {
+  const auto ohm = [](double v, double fallback) { return std::isfinite(v) ? v : fallback; };  // older rows: defaults
   fitting::Fixture fx;
-  fx.rg_ohm = ohm("source_ohm", 50.0);
-  fx.rl_ohm = ohm("load_ohm", 50.0);
-  const double ret = ohm("dc_return_ohm", 0.0);
+  fx.rg_ohm = ohm(f.source_ohm, 50.0);
+  fx.rl_ohm = ohm(f.load_ohm, 50.0);
+  const double ret = ohm(f.dc_return_ohm, 0.0);
   fx.dc_return_ohm = ret > 0 ? ret : fitting::no_shunt_ohm;
   fx.bias_feed_ohm = fitting::no_shunt_ohm;
   return fx;
 }
 
-fitting::DesignPart design_part(const PartRow& part, const Json& fit) {
-  const fitting::FitResult r = fit_result_from_json(fit);
+fitting::DesignPart design_part(const PartRow& part, const FitRecord& fit) {
+  const fitting::FitResult& r = fit.fit;
   fitting::DesignPart p;
-  p.label = part.label + " (lot " + part.lot + ", fit " + std::to_string(fit.value("fit_id", 0L)) + ")";
+  p.label = part.label + " (lot " + part.lot + ", fit " + std::to_string(fit.id) + ")";
   p.dc = r.params();
   if (std::isfinite(r.temp_k)) p.temp_k = r.temp_k;
-  const auto measured = [&](const char* key) {
-    return fit.contains(key) && fit[key].is_object() && fit[key]["value"].is_number() ? fit[key]["value"].get<double>() : kNaN;
-  };
-  if (const double cj0 = measured("cj0_f"); cj0 > 0) {
+  if (const double cj0 = fit.cj0_f.value; cj0 > 0) {
     p.cap.cj0_f = cj0;
-    if (const double vj = measured("vj_v"); vj > 0) p.cap.vj_v = vj;
-    if (const double m = measured("m"); m > 0) p.cap.m = m;
+    if (const double vj = fit.vj_v.value; vj > 0) p.cap.vj_v = vj;
+    if (const double m = fit.m.value; m > 0) p.cap.m = m;
   }
   return p;
+}
+
+fitting::LotPart lot_part(const PartRow& part, const FitRecord& fit) {
+  const fitting::FitResult& r = fit.fit;
+  fitting::LotPart lp{part.label, part.lot, r.params(), std::isfinite(r.temp_k) ? r.temp_k : 300.15};
+  lp.cj0_f = fit.cj0_f.value;
+  lp.vj_v = fit.vj_v.value;
+  lp.m = fit.m.value;
+  return lp;
 }
 
 // The joint fit above is isothermal. When it disagrees, the stored fit may
@@ -100,9 +150,9 @@ fitting::DesignPart design_part(const PartRow& part, const Json& fit) {
 // (detail.electrothermal): its isothermal Rs then agrees with the Rs the AC
 // readings give alone, within 3 combined standard errors (our bound, no
 // source), where the DC-only Rs does not.
-std::string transfer_verdict(const Json& joint, const Json& fit) {
+std::string transfer_verdict(const Json& joint, const FitRecord& fit) {
   if (joint.value("agree", false)) return "agree";
-  const Json et = fit.contains("detail") && fit["detail"].is_object() ? fit["detail"].value("electrothermal", Json()) : Json();
+  const Json& et = fit.electrothermal();
   const Json ac = joint.contains("ac_only") ? joint["ac_only"].value("rs_ohm", Json()) : Json();
   const auto number = [](const Json& j, const char* k) { return j.is_object() && j.value(k, Json()).is_number() ? j[k].get<double>() : kNaN; };
   if (et.is_object() && et.value("status", "") == "fitted" && ac.is_object()) {
@@ -113,9 +163,9 @@ std::string transfer_verdict(const Json& joint, const Json& fit) {
   return "DISAGREE";
 }
 
-Json transfer_report(const PartRow& part, const RunRow& run, const Json& fit, const std::vector<PointRow>& points,
+Json transfer_report(const PartRow& part, const RunRecord& run, const FitRecord& fit, const std::vector<PointRow>& points,
                      const TransferOptions& options) {
-  const fitting::FitResult r = fit_result_from_json(fit);
+  const fitting::FitResult& r = fit.fit;
   const double temp_k = std::isfinite(r.temp_k) ? r.temp_k : 300.15;
   const fitting::Fixture fx = ac_fixture(run.fixture);
   const fitting::AcPart ac_part{r.params(), options.cj_f};
@@ -142,7 +192,7 @@ Json transfer_report(const PartRow& part, const RunRow& run, const Json& fit, co
   }
   Json out{{"part_id", part.id},
            {"run_id", run.id},
-           {"fit_id", fit.value("fit_id", Json())},
+           {"fit_id", fit.id},
            {"temp_k", temp_k},
            {"fixture",
             {{"rl_ohm", fx.rl_ohm}, {"dc_return_ohm", number_or_null(fx.dc_return_ohm)}, {"rg_ohm", fx.rg_ohm}}},
@@ -192,32 +242,6 @@ Json lot_stats_report(const std::string& lot, const std::vector<fitting::LotPart
           {"nominal",
            {{"is_a", st.nominal.is_a}, {"n", st.nominal.n}, {"rs_ohm", st.nominal.rs_ohm}, {"cj0_f", number_or_null(st.nominal_cj0_f)},
             {"vj_v", number_or_null(st.nominal_vj_v)}, {"m", number_or_null(st.nominal_m)}}}};
-}
-
-fitting::PartModel lot_nominal_model(const std::string& lot, const std::vector<fitting::LotPart>& parts) {
-  fitting::LotStatsOptions options;
-  options.currents_a.clear();
-  const fitting::LotStats st = fitting::lot_statistics(parts, options).front();
-  fitting::PartModel m;
-  m.part_label = lot + "_NOM";
-  m.lot = lot;
-  m.temp_k = parts.front().temp_k;
-  m.params = st.nominal;
-  m.notes.push_back("lot nominal: median of " + std::to_string(parts.size()) + " fitted parts (IS in log)");
-  if (std::isfinite(st.nominal_cj0_f)) {
-    m.cj0_f = st.nominal_cj0_f;
-    m.vj_v = st.nominal_vj_v;
-    m.m = st.nominal_m;
-    std::size_t with_cap = 0;
-    for (const auto& p : parts) with_cap += std::isfinite(p.cj0_f) && p.cj0_f > 0;
-    m.notes.push_back("CJO, VJ, M: median of the " + std::to_string(with_cap) + " parts with off-state readings");
-  }
-  for (const auto& q : st.quantities) {
-    char line[160];
-    std::snprintf(line, sizeof line, "lot spread %s: std dev %.4g, range %.4g .. %.4g", q.name.c_str(), q.std_dev, q.min, q.max);
-    m.notes.push_back(line);
-  }
-  return m;
 }
 
 Json temperature_law_of_runs(const Json& run_fits, const fitting::TemperatureLaw& held) {

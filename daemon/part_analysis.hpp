@@ -5,9 +5,10 @@
 
 #include "fitting/temperature.hpp"
 
-#include "daemon/store.hpp"
+#include "daemon/rows.hpp"
 #include "fitting/design_calculators.hpp"
 #include "fitting/design_joint_fit.hpp"
+#include "fitting/heating.hpp"
 #include "fitting/junction_cap.hpp"
 #include "fitting/lot_stats.hpp"
 #include "fitting/spice_card.hpp"
@@ -22,7 +23,23 @@ namespace junco::daemon {
 // current or power limit. AC: each AC reading with the current of the DC
 // reading of its bias step (the step's readings share one transaction) and
 // its level unit (peak_per_unit: √2 for vrms, ½ for vpp).
+// Only the sweep up (series "up"): a pulse's dwell readings and the sweep
+// down are the heating options' (heating_readings).
 std::vector<fitting::IvPoint> dc_fit_points(const std::vector<PointRow>& points);
+// The DC readings taken at a held bias (no pulse): the electro-thermal fit's,
+// whose model is the settled junction temperature Ta + Rth·I·V.
+std::vector<fitting::IvPoint> held_dc_points(const std::vector<PointRow>& points);
+
+// The readings of the heating plan options (plan.heating), grouped for
+// fitting/heating.hpp: pulsed steps with their two dwell readings, and the
+// sweep up paired with the sweep down by set value.
+struct HeatingReadings {
+  std::size_t pulsed = 0;                 // forward readings of the sweep up taken in a pulse
+  double pulse_dwell_median_s = kNaN;     // their output-on → reading time
+  std::vector<fitting::DwellStep> dwells;
+  std::vector<fitting::SweepPair> pairs;
+};
+HeatingReadings heating_readings(const std::vector<PointRow>& points);
 std::vector<fitting::AcPoint> ac_points(const std::vector<PointRow>& points);
 
 // Off-state readings: the levels read at each reverse bias (kind reverse_ac).
@@ -32,21 +49,24 @@ std::vector<fitting::OffStatePoint> off_state_points(const std::vector<PointRow>
 // part's Rs from its forward fit (0 when that is not usable) and the
 // fixture's stray capacitance as stored with the run (subtracted); nullopt
 // when the run has no off-state readings.
-std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<PointRow>& points, const Json& run_fixture,
+std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<PointRow>& points, const RunFixture& run_fixture,
                                                            double rs_ohm);
 
 // What each off-state reading gave, in the order of off_state_points:
 // [{reverse_v, freq_hz, isolation_db, c_f (null when left out), left_out}].
 Json off_state_readings_report(const std::vector<fitting::OffStatePoint>& points, const fitting::JunctionCapFit& fit);
 
-// The small-signal fixture of a run, from the fixture JSON stored with it:
+// The small-signal fixture of a run, from the fixture stored with it:
 // Vout/Vin sees the load and the DC return (0 Ω = a choke, open at AC). The
 // bias feed and the source do not enter the ratio (ch1 is the anode node).
-fitting::Fixture ac_fixture(const Json& run_fixture);
+fitting::Fixture ac_fixture(const RunFixture& run_fixture);
 
 // The latest fit as the calculators take it ("WR-03 (lot WREN-0912, fit 7)"),
 // with its measured capacitance law when the fit has one.
-fitting::DesignPart design_part(const PartRow& part, const Json& fit);
+fitting::DesignPart design_part(const PartRow& part, const FitRecord& fit);
+
+// The fit as lot statistics take it (its capacitance law when it has one).
+fitting::LotPart lot_part(const PartRow& part, const FitRecord& fit);
 
 struct TransferOptions {
   fitting::AccuracyModel accuracy;  // of the DC readings (the bench config's)
@@ -61,7 +81,7 @@ struct TransferOptions {
 // part.transfer's result: per-point measured/model/residual (and whether the
 // point is used, or why not), the RMS over the used points, and
 // the DC-only and joint fits with the agreement verdict (null without AC readings).
-Json transfer_report(const PartRow& part, const RunRow& run, const Json& fit, const std::vector<PointRow>& points,
+Json transfer_report(const PartRow& part, const RunRecord& run, const FitRecord& fit, const std::vector<PointRow>& points,
                      const TransferOptions& options);
 
 // lot.stats's result: the statistics of the lot's fitted parts (mean, std
@@ -69,10 +89,6 @@ Json transfer_report(const PartRow& part, const RunRow& run, const Json& fit, co
 // nominal), and the parts left out for want of a usable fit.
 Json lot_stats_report(const std::string& lot, const std::vector<fitting::LotPart>& parts, const Json& left_out,
                       const fitting::LotStatsOptions& options);
-
-// The lot's nominal part (median of each parameter) as the exporters take it;
-// the card's comment says how many parts it stands for and their spread.
-fitting::PartModel lot_nominal_model(const std::string& lot, const std::vector<fitting::LotPart>& parts);
 
 // The temperature law (EG, XTI, TRS1) of a part from a job's runs at
 // several chamber temperatures (Store::fits_of_job_part): each usable run's

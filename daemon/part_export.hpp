@@ -1,4 +1,4 @@
-// part.export formats and the stored fit as a fitting::FitResult again.
+// part.export formats of a stored part.
 // json:   the model document of the latest usable fit (fitting/model_document.hpp,
 //         format junco.part-model v1), read by junco design --model, export, plot.
 // spice:  a `.model` card from the same fit (fitting/spice_card.hpp).
@@ -8,7 +8,7 @@
 //         the current of the DC reading at the same step.
 #pragma once
 
-#include "daemon/store.hpp"
+#include "daemon/rows.hpp"
 #include "fitting/extract.hpp"
 #include "fitting/spice_card.hpp"
 
@@ -18,19 +18,16 @@
 
 namespace junco::daemon {
 
-// The fit (latest_fit JSON) as the shared exporters take it. The SPICE model
-// name is lot-qualified (D_<lot>_<label>) so cards of two lots never clash.
-fitting::PartModel part_model(const PartRow& part, const Json& fit);
+// The stored fit as the shared exporters take it. The SPICE model name is
+// lot-qualified (D_<lot>_<label>) so cards of two lots never clash.
+fitting::PartModel part_model(const PartRow& part, const FitRecord& fit);
 std::string spice_name(const PartRow& part);
 
-std::string export_model_json(const PartRow& part, const Json& fit);
-std::string export_spice(const PartRow& part, const Json& fit);
-std::string export_csv(const Json& points);
+std::string export_model_json(const PartRow& part, const FitRecord& fit);
+std::string export_spice(const PartRow& part, const FitRecord& fit);
+std::string export_csv(const std::vector<PointRow>& points);
 std::string export_iv_csv(const std::vector<PointRow>& points);
 std::string export_ac_csv(const std::vector<PointRow>& points);
 std::string export_off_csv(const std::vector<PointRow>& points);  // reverse_v,freq_hz,vin,vout
-
-// Rebuilds what the figures need (values, standard errors, correlation).
-fitting::FitResult fit_result_from_json(const Json& fit);
 
 }  // namespace junco::daemon

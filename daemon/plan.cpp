@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdio>
+#include <limits>
 #include <set>
 #include <sstream>
 
@@ -10,11 +11,10 @@ namespace junco::daemon {
 
 namespace {
 
-[[noreturn]] void bad(const std::string& field, const std::string& problem) {
-  throw RequestError(RpcCode::invalid_params, field + ": " + problem, Json{{"field", field}});
-}
-[[noreturn]] void refuse(const std::string& message, const std::string& limit = "") {
-  throw RequestError(RpcCode::plan_refused, message, limit.empty() ? Json(nullptr) : Json{{"limit", limit}});
+[[noreturn]] void bad(const std::string& field, const std::string& problem) { throw BadInput(field, problem); }
+// limit: the bench's limit the plan breaks; field: the plan's value that breaks it.
+[[noreturn]] void refuse(const std::string& message, const std::string& limit = "", const std::string& field = "") {
+  throw PlanRefused(message, limit, field);
 }
 
 std::string num(double x) {
@@ -108,7 +108,69 @@ AcSpec parse_ac(const Json& a) {
   return out;
 }
 
+HeatingSpec parse_heating(const Json& h) {
+  const std::string f = "plan.heating";
+  only_keys(h, f, {"pulse", "dwell", "down_sweep"});
+  HeatingSpec out;
+  if (h.contains("pulse") && !h["pulse"].is_null()) {
+    const std::string g = f + ".pulse";
+    only_keys(h["pulse"], g, {"from", "on_s", "off_s"});
+    HeatingSpec::Pulse p;
+    if (h["pulse"].contains("from")) p.from = number(h["pulse"]["from"], g + ".from");
+    if (h["pulse"].contains("on_s")) p.on_s = number(h["pulse"]["on_s"], g + ".on_s");
+    if (h["pulse"].contains("off_s")) p.off_s = number(h["pulse"]["off_s"], g + ".off_s");
+    out.pulse = p;
+  }
+  if (h.contains("dwell") && !h["dwell"].is_null()) {
+    const std::string g = f + ".dwell";
+    only_keys(h["dwell"], g, {"short_s", "long_s"});
+    out.dwell = HeatingSpec::Dwell{number(need(h["dwell"], "short_s", g), g + ".short_s"), number(need(h["dwell"], "long_s", g), g + ".long_s")};
+  }
+  if (h.contains("down_sweep")) {
+    if (!h["down_sweep"].is_boolean()) bad(f + ".down_sweep", std::string("must be a boolean, not ") + h["down_sweep"].type_name());
+    out.down_sweep = h["down_sweep"].get<bool>();
+  }
+  return out;
+}
+
+// The k-th set value of the sweep (as sweep_values computes it, without the
+// vector: the counts below run before a plan's size is checked).
+double step_value(const SweepSpec& s, int k) {
+  if (s.count == 1 || k == 0) return s.start;
+  if (k == s.count - 1) return s.stop;
+  const double lo = std::min(s.start, s.stop), hi = std::max(s.start, s.stop);
+  const double f = static_cast<double>(k) / (s.count - 1);
+  const double x = s.spacing == Spacing::linear ? s.start + f * (s.stop - s.start)
+                                                : std::exp(std::log(s.start) + f * (std::log(s.stop) - std::log(s.start)));
+  return std::clamp(x, lo, hi);
+}
+
+bool is_pulsed(const Plan& p, double value) { return p.heating.pulse && value >= pulse_from(p); }
+
 }  // namespace
+
+const char* to_string(Series series) {
+  switch (series) {
+    case Series::up: return "up";
+    case Series::dwell: return "dwell";
+    case Series::down: return "down";
+  }
+  return "?";
+}
+
+double pulse_from(const Plan& p) {
+  if (!p.heating.pulse) return std::numeric_limits<double>::infinity();
+  if (p.heating.pulse->from > 0) return p.heating.pulse->from;
+  return std::max(p.sweep.start, p.sweep.stop) / 10.0;  // the top decade
+}
+
+double pulsed_steps(const Plan& p) {
+  if (!p.heating.pulse || p.sweep.count < 1) return 0;
+  const int n = std::min(p.sweep.count, 1000001);  // beyond it the plan is refused anyway
+  double pulsed = 0;
+  for (int k = 0; k < n; ++k) pulsed += is_pulsed(p, step_value(p.sweep, k)) ? 1.0 : 0.0;
+  return pulsed;
+}
 
 const char* to_string(Step::Kind kind) {
   switch (kind) {
@@ -121,7 +183,7 @@ const char* to_string(Step::Kind kind) {
 }
 
 Plan parse_plan(const Json& j) {
-  only_keys(j, "plan", {"lot", "parts", "sweep", "ac", "reverse_v", "resume", "temp_k", "vf_max_v", "temps_k", "soak"});
+  only_keys(j, "plan", {"lot", "parts", "sweep", "ac", "reverse_v", "heating", "resume", "temp_k", "vf_max_v", "temps_k", "soak"});
   Plan p;
   p.lot = text(need(j, "lot", "plan"), "plan.lot");
   const Json& parts = need(j, "parts", "plan");
@@ -138,6 +200,7 @@ Plan parse_plan(const Json& j) {
     if (!r.is_array()) bad("plan.reverse_v", std::string("must be an array, not ") + r.type_name());
     for (std::size_t i = 0; i < r.size(); ++i) p.reverse_v.push_back(std::fabs(number(r[i], "plan.reverse_v[" + std::to_string(i) + "]")));
   }
+  if (j.contains("heating") && !j["heating"].is_null()) p.heating = parse_heating(j["heating"]);
   if (j.contains("resume")) {
     if (!j["resume"].is_boolean()) bad("plan.resume", std::string("must be a boolean, not ") + j["resume"].type_name());
     p.resume = j["resume"].get<bool>();
@@ -164,7 +227,11 @@ Plan parse_plan(const Json& j) {
 double steps_per_part(const Plan& p) {
   const double n_ac = p.ac ? static_cast<double>(p.ac->freqs_hz.size()) : 0.0;
   const double n_off = p.ac && p.ac->off_state ? static_cast<double>(p.ac->off_state->freqs_hz.size()) : 0.0;
-  return static_cast<double>(p.sweep.count) * (1.0 + n_ac) + static_cast<double>(p.reverse_v.size()) * (1.0 + n_off);
+  const double count = static_cast<double>(p.sweep.count), pulsed = pulsed_steps(p);
+  // No AC readings at a pulsed step (they need the bias held); two dwell
+  // readings there instead when asked; the sweep down repeats every step.
+  const double forward = count + (count - pulsed) * n_ac + (p.heating.dwell ? 2.0 * pulsed : 0.0) + (p.heating.down_sweep ? count : 0.0);
+  return forward + static_cast<double>(p.reverse_v.size()) * (1.0 + n_off);
 }
 
 int temperature_count(const Plan& p) { return p.temps_k.empty() ? 1 : static_cast<int>(p.temps_k.size()); }
@@ -217,6 +284,31 @@ void check_plan_size(const Plan& p, const JobLimits& lim) {
 
 }  // namespace
 
+namespace {
+
+void check_heating(const Plan& p) {
+  const HeatingSpec& h = p.heating;
+  if (h.pulse) {
+    const auto& u = *h.pulse;
+    if (u.from < 0) refuse("heating.pulse.from " + num(u.from) + " must be > 0 (or 0 for the top decade)");
+    if (u.from == 0 && p.sweep.mode == SweepMode::voltage)
+      refuse("heating.pulse.from must be given (in V) for a sweep by voltage: the top decade of current is not known before the sweep");
+    if (u.on_s < 0 || u.on_s > 10) refuse("heating.pulse.on_s " + num(u.on_s) + " s must be in 0..10");
+    if (u.off_s < 0 || u.off_s > 3600) refuse("heating.pulse.off_s " + num(u.off_s) + " s must be in 0..3600");
+    if (pulsed_steps(p) < 1)
+      refuse("heating.pulse.from " + num(pulse_from(p)) + " is above every step of the sweep: no step would be pulsed");
+  }
+  if (h.dwell) {
+    const auto& d = *h.dwell;
+    if (!h.pulse) refuse("heating.dwell needs heating.pulse: each dwell pair is read in one pulse from cold");
+    if (!(d.short_s > h.pulse->on_s && d.short_s < d.long_s && d.long_s <= 60))
+      refuse("heating.dwell short_s " + num(d.short_s) + " s and long_s " + num(d.long_s) +
+             " s must satisfy pulse.on_s < short_s < long_s <= 60 s (the pulse's first reading is the cold reference)");
+  }
+}
+
+}  // namespace
+
 double compliance_a(const Plan& plan, const Config& c) {
   return plan.sweep.compliance_a > 0 ? plan.sweep.compliance_a : c.safety.current_limit_a;
 }
@@ -263,15 +355,16 @@ void check_plan(const Plan& p, const Config& c) {
     refuse(std::string("sweep start/stop must be ") + (s.mode == SweepMode::voltage ? ">= 0 V (reverse bias goes in reverse_v)" : "> 0 A"));
   if (s.spacing == Spacing::log && lo <= 0) refuse(std::string("log spacing needs start and stop > 0 ") + unit);
   const std::string hi_name = hi == s.stop ? "stop" : "start";
+  const std::string hi_field = "plan.sweep." + hi_name;
 
   const double i_lim = compliance_a(p, c);
   if (i_lim > lim.current_limit_a)
     refuse("sweep compliance_a " + num(i_lim) + " A exceeds safety limit current_limit_a = " + num(lim.current_limit_a) + " A",
-           "current_limit_a");
+           "current_limit_a", "plan.sweep.compliance_a");
   const double r_total = c.fixture.bias_resistor_ohm + c.fixture.dc_return_ohm;
   if (s.mode == SweepMode::voltage) {
     if (hi > lim.max_supply_v)
-      refuse("sweep " + hi_name + " " + num(hi) + " V exceeds safety limit max_supply_v = " + num(lim.max_supply_v) + " V", "max_supply_v");
+      refuse("sweep " + hi_name + " " + num(hi) + " V exceeds safety limit max_supply_v = " + num(lim.max_supply_v) + " V", "max_supply_v", hi_field);
     // The part's current is at most the compliance and at most V/R; its
     // voltage at most the supply and (assumed) vf_max_v.
     const double i_max = r_total > 0 ? std::min(i_lim, hi / r_total) : i_lim;
@@ -279,28 +372,28 @@ void check_plan(const Plan& p, const Config& c) {
     if (p_max > lim.max_power_w)
       refuse("sweep " + hi_name + " " + num(hi) + " V may put " + num(p_max) + " W in the part (vf_max_v " + num(p.vf_max_v) + " V × " +
                  num(i_max) + " A), exceeding safety limit max_power_w = " + num(lim.max_power_w) + " W",
-             "max_power_w");
+             "max_power_w", hi_field);
   } else {
     if (hi > lim.current_limit_a)
       refuse("sweep " + hi_name + " " + num(hi) + " A exceeds safety limit current_limit_a = " + num(lim.current_limit_a) + " A",
-             "current_limit_a");
+             "current_limit_a", hi_field);
     if (hi > i_lim) refuse("sweep " + hi_name + " " + num(hi) + " A exceeds the plan's compliance_a = " + num(i_lim) + " A");
     const double p_max = p.vf_max_v * hi;
     if (p_max > lim.max_power_w)
       refuse("sweep " + hi_name + " " + num(hi) + " A may put " + num(p_max) + " W in the part (vf_max_v " + num(p.vf_max_v) +
                  " V × " + num(hi) + " A), exceeding safety limit max_power_w = " + num(lim.max_power_w) + " W",
-             "max_power_w");
+             "max_power_w", hi_field);
     const double v_needed = hi * r_total;  // even with no drop across the part
     if (v_needed > lim.max_supply_v)
       refuse("sweep " + hi_name + " " + num(hi) + " A needs at least " + num(v_needed) + " V across " + num(r_total) +
                  " Ω, exceeding safety limit max_supply_v = " + num(lim.max_supply_v) + " V",
-             "max_supply_v");
+             "max_supply_v", hi_field);
   }
   for (double r : p.reverse_v) {
     if (r > lim.max_reverse_v)
-      refuse("reverse_v " + num(r) + " V exceeds safety limit max_reverse_v = " + num(lim.max_reverse_v) + " V", "max_reverse_v");
+      refuse("reverse_v " + num(r) + " V exceeds safety limit max_reverse_v = " + num(lim.max_reverse_v) + " V", "max_reverse_v", "plan.reverse_v");
     if (r > lim.max_supply_v)
-      refuse("reverse_v " + num(r) + " V exceeds safety limit max_supply_v = " + num(lim.max_supply_v) + " V", "max_supply_v");
+      refuse("reverse_v " + num(r) + " V exceeds safety limit max_supply_v = " + num(lim.max_supply_v) + " V", "max_supply_v", "plan.reverse_v");
   }
   if (p.ac) {
     if (!c.instrument("siggen") || !c.instrument("levelmeter")) refuse("plan.ac needs a siggen and a levelmeter in the bench config");
@@ -327,6 +420,7 @@ void check_plan(const Plan& p, const Config& c) {
                " V + 0.1 V: the junction would conduct on the signal peaks of the off-state readings");
     }
   }
+  check_heating(p);
   const double t = min_duration_s(p);
   if (t > lim.max_job_s)
     refuse("estimated duration " + num(t) + " s exceeds safety limit max_job_s = " + num(lim.max_job_s) + " s", "max_job_s");
@@ -352,11 +446,19 @@ std::vector<double> sweep_values(const SweepSpec& s) {
 std::vector<Step> expand_steps(const Plan& plan) {
   std::vector<Step> steps;
   const auto values = sweep_values(plan.sweep);
-  for (int k = 0; k < static_cast<int>(values.size()); ++k) {
-    steps.push_back({Step::Kind::dc, k, values[k], 0});
-    if (plan.ac)
+  const int n = static_cast<int>(values.size());
+  for (int k = 0; k < n; ++k) {
+    const bool pulsed = is_pulsed(plan, values[k]);
+    steps.push_back({Step::Kind::dc, k, values[k], 0, Series::up, pulsed, 0});
+    if (pulsed && plan.heating.dwell) {
+      steps.push_back({Step::Kind::dc, k, values[k], 0, Series::dwell, true, plan.heating.dwell->short_s});
+      steps.push_back({Step::Kind::dc, k, values[k], 0, Series::dwell, true, plan.heating.dwell->long_s});
+    }
+    if (plan.ac && !pulsed)
       for (double f : plan.ac->freqs_hz) steps.push_back({Step::Kind::ac, k, values[k], f});
   }
+  if (plan.heating.down_sweep)
+    for (int k = n - 1; k >= 0; --k) steps.push_back({Step::Kind::dc, k, values[k], 0, Series::down, is_pulsed(plan, values[k]), 0});
   for (std::size_t k = 0; k < plan.reverse_v.size(); ++k) {
     const int index = static_cast<int>(k);
     steps.push_back({Step::Kind::reverse, index, -plan.reverse_v[k], 0});
@@ -369,8 +471,14 @@ std::vector<Step> expand_steps(const Plan& plan) {
 double min_duration_s(const Plan& p) {
   const double n_ac = p.ac ? static_cast<double>(p.ac->freqs_hz.size()) : 0.0;
   const double n_off = p.ac && p.ac->off_state ? static_cast<double>(p.ac->off_state->freqs_hz.size()) : 0.0;
-  const double per_part = p.sweep.count * (p.sweep.settle_s + n_ac * (p.ac ? p.ac->settle_s : 0.0)) +
-                          static_cast<double>(p.reverse_v.size()) * (p.sweep.settle_s + n_off * (p.ac ? p.ac->settle_s : 0.0));
+  const double count = p.sweep.count, pulsed = pulsed_steps(p), ac_s = p.ac ? p.ac->settle_s : 0.0;
+  // A pulsed step waits off_s, then on_s (or long_s with the dwells) in
+  // place of settle_s, and takes no AC readings.
+  const double pulse_s =
+      p.heating.pulse ? p.heating.pulse->off_s + std::max(p.heating.pulse->on_s, p.heating.dwell ? p.heating.dwell->long_s : 0.0) : 0.0;
+  const double down_s = p.heating.down_sweep ? (count - pulsed) * p.sweep.settle_s + pulsed * (p.heating.pulse ? p.heating.pulse->off_s + p.heating.pulse->on_s : 0.0) : 0.0;
+  const double per_part = (count - pulsed) * (p.sweep.settle_s + n_ac * ac_s) + pulsed * pulse_s + down_s +
+                          static_cast<double>(p.reverse_v.size()) * (p.sweep.settle_s + n_off * ac_s);
   const double hold_s = p.temps_k.empty() ? 0.0 : p.soak.hold_s * static_cast<double>(p.temps_k.size());
   return per_part * static_cast<double>(p.parts.size()) * static_cast<double>(temperature_count(p)) + hold_s;
 }
@@ -403,6 +511,12 @@ Json to_json(const Plan& p) {
                {"amplitude", p.ac->amplitude},
                {"unit", p.ac->unit == drivers::LevelUnit::vrms ? "vrms" : "vpp"},
                {"settle_s", p.ac->settle_s}};
+  if (p.heating.pulse || p.heating.dwell || p.heating.down_sweep) {
+    Json h{{"down_sweep", p.heating.down_sweep}};
+    if (p.heating.pulse) h["pulse"] = {{"from", p.heating.pulse->from}, {"on_s", p.heating.pulse->on_s}, {"off_s", p.heating.pulse->off_s}};
+    if (p.heating.dwell) h["dwell"] = {{"short_s", p.heating.dwell->short_s}, {"long_s", p.heating.dwell->long_s}};
+    j["heating"] = h;
+  }
   if (p.ac && p.ac->off_state) j["ac"]["off_state"] = {{"freqs_hz", p.ac->off_state->freqs_hz}, {"amplitude", p.ac->off_state->amplitude}};
   return j;
 }

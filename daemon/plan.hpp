@@ -1,19 +1,23 @@
 // A job's plan: which parts, which sweep, and the checks it must pass before
-// it is queued. parse_plan() checks types and presence (RequestError
-// invalid_params naming the field, e.g. "plan.sweep.count"); check_plan()
-// checks ranges and every safety limit of the bench (RequestError
-// plan_refused naming the limit and the value). Format: docs/daemon-core.md.
+// it is queued. parse_plan() checks types and presence (BadInput naming the
+// field, e.g. "plan.sweep.count"); check_plan() checks ranges and every safety
+// limit of the bench (PlanRefused naming the limit and the plan's field).
+// Both are domain errors (daemon/errors.hpp). Format: docs/daemon-core.md.
 #pragma once
 
 #include "daemon/config.hpp"
-#include "daemon/service.hpp"
+#include "daemon/errors.hpp"
 #include "drivers/roles.hpp"
+
+#include <nlohmann/json.hpp>
 
 #include <optional>
 #include <string>
 #include <vector>
 
 namespace junco::daemon {
+
+using Json = nlohmann::json;
 
 enum class SweepMode { voltage, current };  // set value in V, or a target current in A
 enum class Spacing { linear, log };
@@ -58,12 +62,36 @@ struct SoakSpec {
   double hold_s = 60.0;
 };
 
+// Plan options that limit or measure the junction's self-heating
+// (docs/daemon-core.md, "Heating"). All optional; none changes the steps
+// below `pulse.from`.
+struct HeatingSpec {
+  // Pulsed readings: every forward step at or above `from` (in the sweep's
+  // unit) is one pulse from cold: output off for off_s, on, read after on_s,
+  // off again. Keeps the junction near ambient where the power is highest.
+  struct Pulse {
+    double from = 0.0;    // set value (V or A by sweep mode); 0 = the top decade (highest set value / 10, current mode only)
+    double on_s = 0.001;  // output on before the reading
+    double off_s = 0.1;   // output off before each pulse (cooling)
+  };
+  // Two dwells per pulsed step: the same pulse also read at short_s and at
+  // long_s after the output went on, giving Rth and the thermal time constant.
+  struct Dwell {
+    double short_s = 0.0;
+    double long_s = 0.0;
+  };
+  std::optional<Pulse> pulse;
+  std::optional<Dwell> dwell;  // needs pulse
+  bool down_sweep = false;     // after the sweep up, the same steps down (hysteresis)
+};
+
 struct Plan {
   std::string lot;
   std::vector<PartSpec> parts;
   SweepSpec sweep;
   std::optional<AcSpec> ac;
   std::vector<double> reverse_v;  // magnitudes of reverse-bias points (V)
+  HeatingSpec heating;
   bool resume = true;             // may continue after a daemon restart
   double temp_k = 300.15;         // ambient, used by the fit (without temps_k)
   // Chamber set points, measured in this order (every part at each): empty =
@@ -78,15 +106,23 @@ struct Plan {
 };
 
 // One measurement of the expansion; a point's seq is its index here.
+// Forward DC readings belong to one of three series (points.series): the
+// sweep up (the one the fit uses), the extra dwell readings of a pulse, and
+// the sweep down (compared with the sweep up for hysteresis).
+enum class Series : unsigned char { up, dwell, down };
+
 struct Step {
   enum class Kind { dc, ac, reverse, reverse_ac } kind = Kind::dc;
   int dc_index = 0;      // which forward step (dc and ac), or which reverse_v point (reverse, reverse_ac)
   double set_value = 0;  // V or A for dc/ac (by mode); −|V| for reverse and reverse_ac
   double freq_hz = 0;    // ac and reverse_ac
+  Series series = Series::up;  // dc only
+  bool pulsed = false;         // dc only: read in a pulse from cold (heating.pulse)
+  double dwell_s = 0;          // series dwell: time from output on to the reading
 };
 
-Plan parse_plan(const Json& plan);                  // throws RequestError(invalid_params)
-// Throws RequestError(plan_refused); checks the size limits (c.limits) by
+Plan parse_plan(const Json& plan);                  // throws BadInput
+// Throws PlanRefused; checks the size limits (c.limits) by
 // arithmetic, before anything is expanded.
 void check_plan(const Plan& plan, const Config& c);
 Json to_json(const Plan& plan);                     // normalized (round-trips through parse_plan)
@@ -116,5 +152,11 @@ std::vector<Step> expand_steps(const Plan& plan);  // per part; same for every p
 double min_duration_s(const Plan& plan);
 double compliance_a(const Plan& plan, const Config& c);
 const char* to_string(Step::Kind kind);
+const char* to_string(Series series);
+// heating.pulse.from as it applies: the plan's value, or the top decade.
+double pulse_from(const Plan& plan);
+// Forward steps read in a pulse, and the readings a part takes in the heating
+// options (pulses' dwell readings + the sweep down).
+double pulsed_steps(const Plan& plan);
 
 }  // namespace junco::daemon

@@ -27,14 +27,28 @@ PlanEstimate estimate_plan(const Plan& p, const Config& c) {
   const double n_off = p.ac && p.ac->off_state ? static_cast<double>(p.ac->off_state->freqs_hz.size()) : 0.0;
   const double n_rev = static_cast<double>(p.reverse_v.size());
   const double parts = static_cast<double>(p.parts.size());
-  e.points_per_part = static_cast<long>(s.count * (1 + n_ac) + n_rev * (1 + n_off));
+  e.points_per_part = static_cast<long>(steps_per_part(p));
   e.temperatures = temperature_count(p);
   e.points_total = e.points_per_part * static_cast<long>(p.parts.size()) * e.temperatures;
   e.min_duration_s = min_duration_s(p);
   e.soak_s = soak_s(p, c, true);
-  const double exchanges_per_part = s.count * (exchanges_per_dc(p) + n_ac * kExchangesPerAc) + n_rev * (4 + n_off * kExchangesPerAc) + 8;
+  // Heating options: a pulse adds output off and on (twice per correction of
+  // a current-targeted step), a dwell reading reads V and I again, the sweep
+  // down repeats the forward steps without their AC readings.
+  const double pulsed = pulsed_steps(p), count = s.count;
+  const double per_pulse = s.mode == SweepMode::current ? 2.0 * 2.0 : 2.0;
+  const double dwell_reads = p.heating.dwell ? pulsed * 2.0 * (2.0 * s.average + 1) : 0.0;
+  const double down = p.heating.down_sweep ? count * exchanges_per_dc(p) + pulsed * per_pulse : 0.0;
+  const double exchanges_per_part = count * exchanges_per_dc(p) + (count - pulsed) * n_ac * kExchangesPerAc + pulsed * per_pulse +
+                                    dwell_reads + down + n_rev * (4 + n_off * kExchangesPerAc) + 8;
   // The soak's ramps on top of min_duration_s, which holds the hold times already.
   e.duration_s = e.min_duration_s + (e.soak_s - soak_s(p, c, false)) + parts * e.temperatures * exchanges_per_part * kExchangeS;
+  if (p.heating.pulse) {
+    e.pulsed_steps_per_part = static_cast<long>(pulsed);
+    e.pulse_from = pulse_from(p);
+    const double on_s = std::max(p.heating.pulse->on_s, p.heating.dwell ? p.heating.dwell->long_s : 0.0);
+    e.pulse_duty = on_s + p.heating.pulse->off_s > 0 ? on_s / (on_s + p.heating.pulse->off_s) : 1.0;
+  }
 
   const double r_total = c.fixture.bias_resistor_ohm + c.fixture.dc_return_ohm;
   const double i_lim = compliance_a(p, c);

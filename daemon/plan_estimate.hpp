@@ -37,6 +37,11 @@ struct PlanEstimate {
   double peak_current_a = 0;   // highest current the part can carry (the compliance bounds it)
   double peak_power_w = 0;     // bound on the power in the part (vf_max_v × current)
   double peak_reverse_v = 0;
+  // plan.heating.pulse: pulsed forward steps per part, from which set value,
+  // and the pulse duty (time on / (on + off), on = the longest dwell).
+  long pulsed_steps_per_part = 0;
+  double pulse_from = 0;
+  double pulse_duty = 0;
   std::vector<LimitUse> limits;
 };
 

@@ -1,6 +1,8 @@
 // JSON-RPC 2.0 line framing and request validation (see rpc_framing.hpp).
 #include "daemon/rpc_framing.hpp"
 
+#include "daemon/error_codes.hpp"
+
 #include "fitting/json_limits.hpp"
 
 #include <functional>
@@ -187,6 +189,9 @@ Json answer(Service& service, const Request& req, const Caller& caller, const Lo
     return make_result(req.id, service.call(req.method, req.params, caller));
   } catch (const RequestError& e) {
     return make_error(req.id, e.code(), e.what(), e.data());
+  } catch (const DomainError& e) {  // a Service that did not map it itself
+    const RequestError r = to_request_error(e);
+    return make_error(req.id, r.code(), r.what(), r.data());
   } catch (const nlohmann::json::exception& e) {
     // A params member of the wrong type or missing reached the Service's
     // json accessors: the caller's mistake, not a daemon failure.

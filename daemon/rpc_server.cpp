@@ -1,6 +1,8 @@
 // JSON-RPC server on a Unix domain socket (see rpc_server.hpp).
 #include "daemon/rpc_server.hpp"
 
+#include "daemon/service_params.hpp"
+
 #include <boost/asio/bind_executor.hpp>
 #include <boost/asio/dispatch.hpp>
 #include <boost/asio/local/stream_protocol.hpp>
@@ -63,15 +65,6 @@ std::size_t auto_max_connections() {
 const std::set<std::string>& known_event_kinds() {
   static const std::set<std::string> kinds{"job.state", "job.progress", "point.added"};
   return kinds;
-}
-
-// Same rule as the Service's methods: params not in the schema are refused.
-void only_params(const char* method, const Json& params, std::initializer_list<const char*> allowed) {
-  for (const auto& [key, value] : params.items()) {
-    (void)value;
-    if (std::find_if(allowed.begin(), allowed.end(), [&key = key](const char* a) { return key == a; }) == allowed.end())
-      throw RequestError(RpcCode::invalid_params, key + ": unknown param for " + method, Json{{"field", key}});
-  }
 }
 
 }  // namespace
@@ -161,9 +154,7 @@ class RpcServer::Impl : public std::enable_shared_from_this<RpcServer::Impl> {
     if (options_.max_connections == 0) options_.max_connections = auto_max_connections();
   }
 
-  void log(std::string_view level, const std::string& message) const {
-    if (options_.log) options_.log(level, message);
-  }
+  void log(LogLevel level, const std::string& message) const { options_.log.write(level, message); }
 
   void start() {
     const auto& path = options_.socket_path;
@@ -182,7 +173,7 @@ class RpcServer::Impl : public std::enable_shared_from_this<RpcServer::Impl> {
       throw std::runtime_error("cannot give socket " + path + " to group " + options_.group + ": " + errno_text(errno));
     acceptor_.listen(asio::socket_base::max_listen_connections);
     bound_ = true;
-    log("info", "listening on " + path + " (at most " + std::to_string(options_.max_connections) + " clients)");
+    log(LogLevel::info, "listening on " + path + " (at most " + std::to_string(options_.max_connections) + " clients)");
     accept();
   }
 
@@ -227,7 +218,7 @@ class RpcServer::Impl : public std::enable_shared_from_this<RpcServer::Impl> {
     probe.connect(stream::endpoint(path), ec);
     if (!ec) throw std::runtime_error("another juncod is already listening on " + path);
     ::unlink(path.c_str());
-    log("info", "removed stale socket " + path);
+    log(LogLevel::info, "removed stale socket " + path);
   }
 
   void accept() {
@@ -236,7 +227,7 @@ class RpcServer::Impl : public std::enable_shared_from_this<RpcServer::Impl> {
       if (ec == asio::error::no_descriptors || ec.value() == ENFILE || ec == asio::error::no_buffer_space ||
           ec == asio::error::no_memory) {
         // Retrying at once would fail at once: wait for descriptors to free up.
-        if (!self->starved_) self->log("warn", "accept failed: " + ec.message() + "; retrying every " +
+        if (!self->starved_) self->log(LogLevel::warn, "accept failed: " + ec.message() + "; retrying every " +
                                                    std::to_string(self->options_.accept_retry_ms) + " ms");
         self->starved_ = true;
         self->retry_timer_.expires_after(std::chrono::milliseconds(self->options_.accept_retry_ms));
@@ -245,9 +236,9 @@ class RpcServer::Impl : public std::enable_shared_from_this<RpcServer::Impl> {
         });
         return;
       }
-      if (self->starved_) self->log("info", "accepting clients again");
+      if (self->starved_) self->log(LogLevel::info, "accepting clients again");
       self->starved_ = false;
-      if (ec) self->log("warn", "accept failed: " + ec.message());
+      if (ec) self->log(LogLevel::warn, "accept failed: " + ec.message());
       else self->admit(std::move(s));
       self->accept();
     });
@@ -285,7 +276,7 @@ class RpcServer::Impl : public std::enable_shared_from_this<RpcServer::Impl> {
     const auto n = ++refused_;
     // 1st, 10th, 100th, ...: the log shows the pressure without flooding.
     if (n == 1 || n == 10 || n == 100 || n % 1000 == 0)
-      log("warn", "refused client #" + std::to_string(n) + ": " + std::to_string(options_.max_connections) + " clients connected");
+      log(LogLevel::warn, "refused client #" + std::to_string(n) + ": " + std::to_string(options_.max_connections) + " clients connected");
   }
 
   asio::io_context& io_;
@@ -317,7 +308,7 @@ Connection::~Connection() {
 }
 
 void Connection::start() {
-  server_.log("debug", "client connected: " + peer_);
+  server_.log(LogLevel::debug, "client connected: " + peer_);
   asio::dispatch(strand_, [self = shared_from_this()] {
     self->arm_idle_timer();
     self->read_more();
@@ -341,7 +332,7 @@ void Connection::arm_idle_timer() {
       self->arm_idle_timer();  // waiting for events, or still being answered
       return;
     }
-    self->server_.log("info", "client " + self->peer_ + " closed: sent nothing for " + std::to_string(ms / 1000.0).substr(0, 5) + " s");
+    self->server_.log(LogLevel::info, "client " + self->peer_ + " closed: sent nothing for " + std::to_string(ms / 1000.0).substr(0, 5) + " s");
     self->close("idle");
   }));
 }
@@ -356,7 +347,7 @@ void Connection::close(std::string_view why) {
     self->socket_.shutdown(stream::socket::shutdown_both, ignored);
     self->socket_.close(ignored);
     self->server_.forget(self.get());
-    self->server_.log("debug", "client " + self->peer_ + " closed: " + reason);
+    self->server_.log(LogLevel::debug, "client " + self->peer_ + " closed: " + reason);
   });
 }
 
@@ -408,16 +399,16 @@ Json Connection::dispatch(const rpc::Request& req) {
   const rpc::LocalMethod local = [this](const rpc::Request& r) -> std::optional<Json> {
     if (r.method == "events.subscribe") return subscribe(r.params);
     if (r.method == "events.unsubscribe") {
-      only_params("events.unsubscribe", r.params, {});
+      check_call("events.unsubscribe", r.params);  // the params of its row in daemon/methods.hpp
       return unsubscribe();
     }
     return std::nullopt;
   };
-  return rpc::answer(server_.service(), req, caller_, local, [this](const std::string& what) { server_.log("error", what); });
+  return rpc::answer(server_.service(), req, caller_, local, [this](const std::string& what) { server_.log(LogLevel::error, what); });
 }
 
 Json Connection::subscribe(const Json& params) {
-  only_params("events.subscribe", params, {"kinds"});
+  check_call("events.subscribe", params);
   std::set<std::string> kinds;
   if (const auto it = params.find("kinds"); it != params.end()) {
     if (!it->is_array()) throw RequestError(RpcCode::invalid_params, "invalid params: \"kinds\" must be an array of strings");
@@ -462,7 +453,7 @@ void Connection::on_event(const Event& event) {
   if (queued_.fetch_add(1) >= server_.options().max_queued_messages) {
     queued_.fetch_sub(1);
     if (!dropping_.exchange(true)) {
-      server_.log("warn", "dropping subscriber " + peer_ + ": " + std::to_string(server_.options().max_queued_messages) +
+      server_.log(LogLevel::warn, "dropping subscriber " + peer_ + ": " + std::to_string(server_.options().max_queued_messages) +
                               " messages queued and not read");
       close("slow subscriber");
     }

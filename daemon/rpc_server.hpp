@@ -32,6 +32,7 @@
 
 #include <sys/stat.h>
 
+#include "daemon/log.hpp"
 #include "daemon/rpc_framing.hpp"
 #include "daemon/service.hpp"
 
@@ -45,9 +46,6 @@
 
 namespace junco::daemon {
 
-// level: "error", "warn", "info" or "debug".
-using LogFn = std::function<void(std::string_view level, std::string_view message)>;
-
 struct ServerOptions {
   std::string socket_path;  // e.g. /run/junco/juncod.sock
   std::string group;        // socket file's group (chown); empty keeps the daemon's group
@@ -57,7 +55,7 @@ struct ServerOptions {
   std::size_t max_connections = 0;
   unsigned accept_retry_ms = 100;
   unsigned idle_timeout_ms = 600000;  // 10 min
-  LogFn log;  // may be empty
+  Log log;  // daemon/log.hpp; default: discards
 };
 
 // Makes sure `dir` exists (created with mode 0750, group `gid` when gid >= 0),

@@ -2,24 +2,8 @@
 // Service::call. The JSON-RPC server (framing, sessions, subscriptions) lives
 // on one side of it; config, store, job queue and executor on the other.
 //
-// Methods (params and result are JSON objects; documented in schema/api/):
-//   daemon.status     {}                          → version, uptime, running job, queue
-//   bench.describe    {}                          → instruments (+ *IDN?), fixture, safety limits
-//   job.submit        {plan}                      → {job_id}; refused plans → RequestError(plan_refused)
-//   job.list          {state?}                    → {jobs:[...]}
-//   job.get           {job_id}                    → job
-//   job.cancel | job.pause | job.resume {job_id}  → job
-//   lot.list          {}                          → {lots:[...]}
-//   part.list         {lot?}                      → {parts:[...]}
-//   part.readings     {part_id, run_id?}          → {points:[...]}
-//   part.fit          {part_id}                   → latest fit
-//   part.figures      {part_id, currents_a?:[..]} → Vf and rd at those currents
-//   part.export       {part_id, format}           → {format, content}
-//   part.design       {part_id, calculator, inputs} → a design calculator's answer on the latest fit
-//   design.run        {calculator, part?, inputs} → the same, on a part given by value
-//   part.transfer     {part_id, run_id?, ac_sigma_db?, cj_f?, ...} → AC readings vs model, joint AC+DC fit
-//   lot.stats         {lot, currents_a?, match_current_a?, ...} → spread, outliers, matched sets, nominal
-//   lot.export        {lot, format}               → the lot nominal as a SPICE card or model document
+// Methods: one row each in daemon/methods.hpp (name, handler, params), their
+// params and results in schema/api/NAME.json, described in docs/api.md.
 // Events (published on the EventBus, sent as JSON-RPC notifications by the
 // server to subscribed clients): job.state, job.progress, point.added.
 #pragma once
@@ -88,7 +72,8 @@ class EventBus {
 class Service {
  public:
   virtual ~Service() = default;
-  // Throws RequestError for anything the caller got wrong or that failed;
+  // Throws RequestError for anything the caller got wrong or that failed (the
+  // domain's errors, daemon/errors.hpp, mapped by daemon/error_codes.hpp);
   // any other exception is a bug and maps to internal_error.
   virtual Json call(std::string_view method, const Json& params, const Caller& caller) = 0;
   virtual EventBus& events() = 0;

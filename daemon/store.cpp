@@ -2,6 +2,7 @@
 
 #include "daemon/migrations.hpp"
 #include "fitting/extract.hpp"
+#include "fitting/json_limits.hpp"
 #include "fitting/junction_cap.hpp"
 
 #include <sqlite3.h>
@@ -166,6 +167,85 @@ constexpr const char* kNow = "strftime('%Y-%m-%dT%H:%M:%fZ','now')";
 
 Json nullable(double v) { return std::isfinite(v) ? Json(v) : Json(nullptr); }
 
+// A JSON column as stored; one that does not parse is damage, named by `where`.
+Json stored_json(const std::string& text, const std::string& where) {
+  try {
+    return parse_json_limited(text, where);
+  } catch (const std::exception& e) {
+    throw StoreError(where + ": damaged (" + e.what() + ")");
+  }
+}
+
+double number_or_nan(const Json& j) {
+  if (j.is_null()) return kNaN;
+  if (!j.is_number()) throw std::invalid_argument(std::string("a number or null, not ") + j.type_name());
+  return j.get<double>();
+}
+
+// A square matrix of numbers (null = not determined, NaN); [] when the fit
+// determined none (too few readings, a failed fit).
+std::vector<std::vector<double>> matrix_of(const Json& j, std::size_t dim, const char* what) {
+  if (j.is_array() && j.empty()) return {};
+  if (!j.is_array() || j.size() != dim) throw std::invalid_argument(std::string(what) + ": not a " + std::to_string(dim) + "×" + std::to_string(dim) + " matrix");
+  std::vector<std::vector<double>> out;
+  for (const auto& row : j) {
+    if (!row.is_array() || row.size() != dim) throw std::invalid_argument(std::string(what) + ": a row is not " + std::to_string(dim) + " long");
+    std::vector<double> r;
+    for (const auto& c : row) r.push_back(number_or_nan(c));
+    out.push_back(std::move(r));
+  }
+  return out;
+}
+
+Json matrix_json(const std::vector<std::vector<double>>& m) {
+  Json out = Json::array();
+  for (const auto& row : m) {
+    Json r = Json::array();
+    for (double c : row) r.push_back(nullable(c));
+    out.push_back(std::move(r));
+  }
+  return out;
+}
+
+std::string fixture_text(const RunFixture& f) {
+  Json j = Json::object();
+  const auto put = [&](const char* key, double v) {
+    if (std::isfinite(v)) j[key] = v;
+  };
+  put("bias_resistor_ohm", f.bias_resistor_ohm);
+  put("dc_return_ohm", f.dc_return_ohm);
+  put("source_ohm", f.source_ohm);
+  put("load_ohm", f.load_ohm);
+  if (!f.current_from.empty()) j["current_from"] = f.current_from;
+  put("stray_c_f", f.stray_c_f);
+  return j.dump();
+}
+
+// Keys this version does not know (a newer juncod's) are left out.
+RunFixture fixture_of(const std::string& text, const std::string& where) {
+  const Json j = stored_json(text, where);
+  RunFixture f;
+  try {
+    if (!j.is_object()) throw std::invalid_argument(std::string("an object, not ") + j.type_name());
+    const auto get = [&](const char* key) { return j.contains(key) ? number_or_nan(j[key]) : kNaN; };
+    f.bias_resistor_ohm = get("bias_resistor_ohm");
+    f.dc_return_ohm = get("dc_return_ohm");
+    f.source_ohm = get("source_ohm");
+    f.load_ohm = get("load_ohm");
+    f.stray_c_f = get("stray_c_f");
+    if (j.contains("current_from")) f.current_from = j["current_from"].get<std::string>();
+  } catch (const std::exception& e) {
+    throw StoreError(where + ": damaged (" + e.what() + ")");
+  }
+  return f;
+}
+
+JobState state_of(const std::string& text, const std::string& where) {
+  const auto s = job_state_from_string(text);
+  if (!s) throw StoreError(where + ": damaged (state \"" + text + "\" is not a job state)");
+  return *s;
+}
+
 // Commits on scope exit only if commit() was called; otherwise rolls back.
 class Transaction {
  public:
@@ -219,10 +299,6 @@ void check_integrity(sqlite3* db) {
 }
 
 }  // namespace
-
-bool is_terminal_state(const std::string& s) {
-  return s == "done" || s == "failed" || s == "cancelled" || s == "interrupted";
-}
 
 Store::Store(const fs::path& file) : file_(file) {
   std::error_code ec;
@@ -310,27 +386,23 @@ std::optional<PartRow> Store::part(Id part_id) {
   return PartRow{st.i64(0), st.i64(1), st.text(2), st.text(3), static_cast<int>(st.i64(4))};
 }
 
-Json Store::lots() {
+std::vector<LotRow> Store::lots() {
   auto r = reader();
   auto st = r("SELECT l.id, l.name, l.created_at, (SELECT COUNT(*) FROM parts p WHERE p.lot_id = l.id) FROM lots l ORDER BY l.id");
-  Json out = Json::array();
-  while (st.step()) out.push_back({{"lot_id", st.i64(0)}, {"name", st.text(1)}, {"created_at", st.text(2)}, {"parts", st.i64(3)}});
+  std::vector<LotRow> out;
+  while (st.step()) out.push_back(LotRow{st.i64(0), st.text(1), st.text(2), static_cast<long>(st.i64(3))});
   return out;
 }
 
-Json Store::parts(const std::optional<std::string>& lot) {
+std::vector<PartListRow> Store::parts(const std::optional<std::string>& lot) {
   auto r = reader();
   auto st = r(
       "SELECT p.id, p.lot_id, l.name, p.label, COALESCE(p.slot, 0),"
       " (SELECT MAX(f.id) FROM fits f WHERE f.part_id = p.id)"
       " FROM parts p JOIN lots l ON l.id = p.lot_id WHERE (?1 IS NULL OR l.name = ?1) ORDER BY p.id");
   st.bind_opt(1, lot);
-  Json out = Json::array();
-  while (st.step()) {
-    Json j = to_json(PartRow{st.i64(0), st.i64(1), st.text(2), st.text(3), static_cast<int>(st.i64(4))});
-    j["has_fit"] = !st.is_null(5);
-    out.push_back(std::move(j));
-  }
+  std::vector<PartListRow> out;
+  while (st.step()) out.push_back(PartListRow{PartRow{st.i64(0), st.i64(1), st.text(2), st.text(3), static_cast<int>(st.i64(4))}, !st.is_null(5)});
   return out;
 }
 
@@ -348,13 +420,11 @@ void Store::record_instrument(const std::string& role, const std::string& addres
       .run();
 }
 
-Json Store::instruments() {
+std::vector<InstrumentRow> Store::instruments() {
   auto r = reader();
   auto st = r("SELECT role, address, manufacturer, model, serial, firmware, first_seen, last_seen FROM instruments ORDER BY last_seen DESC, id");
-  Json out = Json::array();
-  while (st.step())
-    out.push_back({{"role", st.text(0)}, {"address", st.text(1)}, {"manufacturer", st.text(2)}, {"model", st.text(3)},
-                   {"serial", st.text(4)}, {"firmware", st.text(5)}, {"first_seen", st.text(6)}, {"last_seen", st.text(7)}});
+  std::vector<InstrumentRow> out;
+  while (st.step()) out.push_back(InstrumentRow{st.text(0), st.text(1), st.text(2), st.text(3), st.text(4), st.text(5), st.text(6), st.text(7)});
   return out;
 }
 
@@ -365,40 +435,52 @@ constexpr const char* kJobColumns =
     "SELECT id, plan, state, points_done, points_total, COALESCE(error, ''), COALESCE(submitted_uid, -1),"
     " COALESCE(submitted_pid, -1), submitted_at, COALESCE(started_at, ''), COALESCE(finished_at, ''), updated_at FROM jobs ";
 
+// The stored plan is parsed as a submitted one is (parse_plan): a plan this
+// version cannot read is damage, named with the job.
 template <typename S>
-JobRow job_row(const S& st) {
-  return JobRow{st.i64(0), Json::parse(st.text(1)), st.text(2), static_cast<long>(st.i64(3)), static_cast<long>(st.i64(4)),
-                st.text(5), static_cast<int>(st.i64(6)), static_cast<int>(st.i64(7)), st.text(8), st.text(9), st.text(10), st.text(11),
-                true};
+JobRecord job_row(const S& st) {
+  const Id id = st.i64(0);
+  const std::string where = "job " + std::to_string(id);
+  Plan plan;
+  try {
+    plan = parse_plan(stored_json(st.text(1), where + ": plan"));
+  } catch (const StoreError&) {
+    throw;
+  } catch (const std::exception& e) {
+    throw StoreError(where + ": stored plan damaged (" + e.what() + ")");
+  }
+  return JobRecord{id, std::move(plan), state_of(st.text(2), where), static_cast<long>(st.i64(3)), static_cast<long>(st.i64(4)),
+                   st.text(5), static_cast<int>(st.i64(6)), static_cast<int>(st.i64(7)), st.text(8), st.text(9), st.text(10), st.text(11),
+                   true};
 }
 }  // namespace
 
-Id Store::insert_job(const Json& plan, long points_total, int uid, int pid) {
+Id Store::insert_job(const Plan& plan, long points_total, int uid, int pid) {
   std::lock_guard lock(write_mutex_);
   Stmt(*writer_, std::string("INSERT INTO jobs(plan, state, points_total, submitted_uid, submitted_pid, submitted_at, updated_at)"
                              " VALUES (?, 'queued', ?, ?, ?, ") +
                      kNow + ", " + kNow + ")")
-      .bind(1, plan.dump()).bind(2, points_total).bind(3, uid).bind(4, pid)
+      .bind(1, to_json(plan).dump()).bind(2, points_total).bind(3, uid).bind(4, pid)
       .run();
   return sqlite3_last_insert_rowid(writer_->db);
 }
 
-std::optional<JobRow> Store::job(Id id) {
+std::optional<JobRecord> Store::job(Id id) {
   auto r = reader();
   auto st = r(std::string(kJobColumns) + "WHERE id = ?");
   st.bind(1, id);
   if (!st.step()) return std::nullopt;
-  JobRow row = job_row(st);
+  JobRecord row = job_row(st);
   apply_held(row);
   return row;
 }
 
-void Store::hold_job_state(Id id, const std::string& state, const std::string& error) {
+void Store::hold_job_state(Id id, JobState state, const std::string& error) {
   std::lock_guard lock(held_mutex_);
   held_states_[id] = {state, error};
 }
 
-void Store::apply_held(JobRow& row) {
+void Store::apply_held(JobRecord& row) {
   std::lock_guard lock(held_mutex_);
   const auto it = held_states_.find(row.id);
   if (it == held_states_.end()) return;
@@ -415,7 +497,7 @@ double Store::seconds_since_first_start(Id id) {
   return std::max(0.0, st.real(0));
 }
 
-std::vector<JobRow> Store::jobs(const std::optional<std::string>& state) {
+std::vector<JobRecord> Store::jobs(const std::optional<JobState>& state) {
   auto r = reader();
   bool any_held = false;
   {
@@ -424,10 +506,10 @@ std::vector<JobRow> Store::jobs(const std::optional<std::string>& state) {
   }
   // With held states the file's state is not the one served: filter after.
   auto st = r(std::string(kJobColumns) + "WHERE (?1 IS NULL OR state = ?1) ORDER BY id");
-  st.bind_opt(1, any_held ? std::nullopt : state);
-  std::vector<JobRow> out;
+  st.bind_opt(1, any_held || !state ? std::nullopt : std::optional<std::string>(to_string(*state)));
+  std::vector<JobRecord> out;
   while (st.step()) {
-    JobRow row = job_row(st);
+    JobRecord row = job_row(st);
     if (any_held) {
       apply_held(row);
       if (state && row.state != *state) continue;
@@ -438,14 +520,14 @@ std::vector<JobRow> Store::jobs(const std::optional<std::string>& state) {
 }
 
 // One UPDATE, so "only if still in `from`" is atomic without a read first.
-bool Store::set_job_state_if(Id id, const std::optional<std::string>& from, const std::string& state,
-                             const std::optional<std::string>& error) {
+bool Store::set_job_state_if(Id id, const std::optional<JobState>& from, JobState state, const std::optional<std::string>& error) {
   std::lock_guard lock(write_mutex_);
   Stmt(*writer_, std::string("UPDATE jobs SET state = ?2, error = CASE WHEN ?3 THEN NULLIF(?4, '') ELSE error END, updated_at = ") + kNow +
                      ", started_at = CASE WHEN ?2 = 'running' AND started_at IS NULL THEN " + kNow +
                      " ELSE started_at END, finished_at = CASE WHEN ?2 IN ('done','failed','cancelled','interrupted') THEN " + kNow +
                      " ELSE finished_at END WHERE id = ?1 AND (?5 IS NULL OR state = ?5)")
-      .bind(1, id).bind(2, state).bind(3, error ? 1 : 0).bind_opt(4, error).bind_opt(5, from)
+      .bind(1, id).bind(2, to_string(state)).bind(3, error ? 1 : 0).bind_opt(4, error)
+      .bind_opt(5, from ? std::optional<std::string>(to_string(*from)) : std::nullopt)
       .run();
   const bool changed = sqlite3_changes(writer_->db) > 0;
   if (changed) {
@@ -455,11 +537,11 @@ bool Store::set_job_state_if(Id id, const std::optional<std::string>& from, cons
   return changed;
 }
 
-void Store::set_job_state(Id id, const std::string& state, const std::optional<std::string>& error) {
+void Store::set_job_state(Id id, JobState state, const std::optional<std::string>& error) {
   set_job_state_if(id, std::nullopt, state, error);
 }
 
-bool Store::transition_job(Id id, const std::string& from, const std::string& to, const std::optional<std::string>& error) {
+bool Store::transition_job(Id id, JobState from, JobState to, const std::optional<std::string>& error) {
   return set_job_state_if(id, from, to, error);
 }
 
@@ -478,18 +560,24 @@ constexpr const char* kRunColumns =
     "ambient_end_k FROM runs ";
 
 template <typename S>
-RunRow run_row(const S& st) {
-  return RunRow{st.i64(0),  st.i64(1),  st.i64(2),  static_cast<int>(st.i64(3)),  Json::parse(st.text(4)), st.real(5), st.text(6),
-                st.text(7), st.text(8), static_cast<int>(st.i64(9)), st.real(10), st.real(11), st.real(12)};
+RunRecord run_row(const S& st) {
+  const Id id = st.i64(0);
+  RunRecord r{id,         st.i64(1),  st.i64(2),  static_cast<int>(st.i64(3)), fixture_of(st.text(4), "run " + std::to_string(id) + ": fixture"),
+              st.real(5), st.text(6), st.text(7), st.text(8)};
+  r.temp_index = static_cast<int>(st.i64(9));
+  r.setpoint_k = st.real(10);
+  r.ambient_k = st.real(11);
+  r.ambient_end_k = st.real(12);
+  return r;
 }
 }  // namespace
 
-RunRow Store::ensure_run(Id job_id, Id part_id, int slot, const Json& fixture, double temp_k, int temp_index, double setpoint_k) {
+RunRecord Store::ensure_run(Id job_id, Id part_id, int slot, const RunFixture& fixture, double temp_k, int temp_index, double setpoint_k) {
   std::lock_guard lock(write_mutex_);
   Stmt(*writer_, std::string("INSERT INTO runs(job_id, part_id, slot, fixture, temp_k, state, started_at, temp_index, setpoint_k) "
                              "VALUES (?, ?, ?, ?, ?, 'running', ") +
                      kNow + ", ?, ?) ON CONFLICT(job_id, part_id, temp_index) DO NOTHING")
-      .bind(1, job_id).bind(2, part_id).bind(3, slot).bind(4, fixture.dump()).bind(5, temp_k).bind(6, temp_index).bind(7, setpoint_k)
+      .bind(1, job_id).bind(2, part_id).bind(3, slot).bind(4, fixture_text(fixture)).bind(5, temp_k).bind(6, temp_index).bind(7, setpoint_k)
       .run();
   Stmt st(*writer_, std::string(kRunColumns) + "WHERE job_id = ? AND part_id = ? AND temp_index = ?");
   st.bind(1, job_id).bind(2, part_id).bind(3, temp_index);
@@ -559,20 +647,20 @@ std::optional<Json> Store::latest_temperature_fit(Id part_id) {
   return j;
 }
 
-std::vector<RunRow> Store::runs_of_part(Id part_id) {
+std::vector<RunRecord> Store::runs_of_part(Id part_id) {
   auto r = reader();
   auto st = r(std::string(kRunColumns) + "WHERE part_id = ? ORDER BY id");
   st.bind(1, part_id);
-  std::vector<RunRow> out;
+  std::vector<RunRecord> out;
   while (st.step()) out.push_back(run_row(st));
   return out;
 }
 
-std::vector<RunRow> Store::runs_of_job(Id job_id) {
+std::vector<RunRecord> Store::runs_of_job(Id job_id) {
   auto r = reader();
   auto st = r(std::string(kRunColumns) + "WHERE job_id = ? ORDER BY id");
   st.bind(1, job_id);
-  std::vector<RunRow> out;
+  std::vector<RunRecord> out;
   while (st.step()) out.push_back(run_row(st));
   return out;
 }
@@ -605,12 +693,14 @@ void Store::insert_points(Id job_id, const std::vector<PointRow>& points) {
   Transaction tx(writer_->db);
   for (const auto& p : points)
     Stmt(*writer_,
-         "INSERT INTO points(run_id, seq, kind, set_value, set_unit, supply_v, v, i_a, ac_in_v, ac_out_v, ac_unit, freq_hz, temp_k, t_s, flags)"
-         " VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)")
+         "INSERT INTO points(run_id, seq, kind, set_value, set_unit, supply_v, v, i_a, ac_in_v, ac_out_v, ac_unit, freq_hz, temp_k, t_s, flags,"
+         " series, dwell_s) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)")
         .bind(1, p.run_id).bind(2, p.seq).bind(3, p.kind).bind(4, p.set_value).bind(5, p.set_unit).bind(6, p.supply_v)
         .bind(7, p.v).bind(8, p.i_a).bind(9, p.ac_in_v).bind(10, p.ac_out_v)
         .bind_opt(11, p.ac_unit.empty() ? std::nullopt : std::optional<std::string>(p.ac_unit))
         .bind(12, p.freq_hz).bind(13, p.temp_k).bind(14, p.t_s).bind(15, p.flags)
+        .bind_opt(16, p.kind == "dc" ? std::optional<std::string>(p.series) : std::nullopt)
+        .bind(17, p.dwell_s)
         .run();
   Stmt(*writer_, std::string("UPDATE jobs SET points_done = points_done + ?2, updated_at = ") + kNow + " WHERE id = ?1")
       .bind(1, job_id)
@@ -622,13 +712,14 @@ void Store::insert_points(Id job_id, const std::vector<PointRow>& points) {
 std::vector<PointRow> Store::points(Id run_id) {
   auto r = reader();
   auto st = r(
-      "SELECT run_id, seq, kind, set_value, set_unit, supply_v, v, i_a, ac_in_v, ac_out_v, COALESCE(ac_unit, ''), freq_hz, temp_k, t_s, flags"
-      " FROM points WHERE run_id = ? ORDER BY seq");
+      "SELECT run_id, seq, kind, set_value, set_unit, supply_v, v, i_a, ac_in_v, ac_out_v, COALESCE(ac_unit, ''), freq_hz, temp_k, t_s, flags,"
+      " COALESCE(series, 'up'), dwell_s FROM points WHERE run_id = ? ORDER BY seq");
   st.bind(1, run_id);
   std::vector<PointRow> out;
   while (st.step())
     out.push_back(PointRow{st.i64(0), static_cast<long>(st.i64(1)), st.text(2), st.real(3), st.text(4), st.real(5), st.real(6), st.real(7),
-                           st.real(8), st.real(9), st.text(10), st.real(11), st.real(12), st.real(13), static_cast<int>(st.i64(14))});
+                           st.real(8), st.real(9), st.text(10), st.real(11), st.real(12), st.real(13), static_cast<int>(st.i64(14)),
+                           st.text(15), st.real(16)});
   return out;
 }
 
@@ -639,11 +730,7 @@ Id Store::insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, c
   Json excluded = Json::array();
   for (const auto& e : fit.excluded) excluded.push_back({{"index", e.index}, {"reason", e.reason}});
   Json detail = {{"parameter_names", fit.parameter_names}, {"correlation", Json::array()}, {"excluded", excluded}, {"iterations", fit.iterations}};
-  for (const auto& row : fit.correlation) {
-    Json r = Json::array();
-    for (double c : row) r.push_back(nullable(c));
-    detail["correlation"].push_back(r);
-  }
+  detail["correlation"] = matrix_json(fit.correlation);
   if (more_detail.is_object()) detail.update(more_detail);
   // The law's columns only when its fit succeeded; the report (with the
   // reason when it did not) goes into detail either way.
@@ -658,8 +745,8 @@ Id Store::insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, c
     }
   }
   Stmt(*writer_, std::string("INSERT INTO fits(part_id, run_id, model, status, message, is_a, is_a_se, n, n_se, rs_ohm, rs_ohm_se, rsh_ohm, rsh_ohm_se,"
-                               " temp_k, cost, rms_residual, points_used, warnings, detail, cj0_f, cj0_f_se, vj_v, vj_v_se, m, m_se, created_at)"
-                               " VALUES (?, ?, 'forward', ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ") +
+                               " temp_k, cost, rms_residual, points_used, warnings, detail, cj0_f, cj0_f_se, vj_v, vj_v_se, m, m_se, covariance, created_at)"
+                               " VALUES (?, ?, 'forward', ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ") +
                        kNow + ")")
         .bind(1, part_id).bind(2, run_id).bind(3, fitting::to_string(fit.status)).bind(4, fit.message)
         .bind(5, fit.is_a.value).bind(6, fit.is_a.std_error).bind(7, fit.n.value).bind(8, fit.n.std_error)
@@ -667,6 +754,7 @@ Id Store::insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, c
         .bind(13, fit.temp_k).bind(14, fit.cost).bind(15, fit.rms_residual).bind(16, fit.points_used)
         .bind(17, Json(fit.warnings).dump()).bind(18, detail.dump())
         .bind(19, cj0.value).bind(20, cj0.std_error).bind(21, vj.value).bind(22, vj.std_error).bind(23, m.value).bind(24, m.std_error)
+        .bind(25, matrix_json(fit.covariance).dump())
         .run();
   return sqlite3_last_insert_rowid(writer_->db);
 }
@@ -702,19 +790,61 @@ Id Store::finish_run_with_fit(Id part_id, Id run_id, const fitting::FitResult& f
   return id;
 }
 
-std::vector<RunRow> Store::runs_without_fit(std::optional<Id> job_id, bool done_only) {
+std::vector<RunRecord> Store::runs_without_fit(std::optional<Id> job_id, bool done_only) {
   auto r = reader();
   auto st = r(std::string(kRunColumns) +
               "WHERE (?1 IS NULL OR job_id = ?1) AND NOT EXISTS (SELECT 1 FROM fits WHERE fits.run_id = runs.id)"
               " AND (CASE WHEN ?2 THEN state = 'done' ELSE EXISTS (SELECT 1 FROM points WHERE points.run_id = runs.id) END) ORDER BY id");
   if (job_id) st.bind(1, *job_id);
   st.bind(2, done_only ? 1 : 0);
-  std::vector<RunRow> out;
+  std::vector<RunRecord> out;
   while (st.step()) out.push_back(run_row(st));
   return out;
 }
 
-std::optional<Json> Store::latest_fit(Id part_id) {
+namespace {
+
+fitting::FitStatus fit_status_of(const std::string& text) {
+  for (auto st : {fitting::FitStatus::converged, fitting::FitStatus::no_convergence, fitting::FitStatus::failed,
+                  fitting::FitStatus::insufficient})
+    if (text == fitting::to_string(st)) return st;
+  throw std::invalid_argument("status \"" + text + "\" is not a fit status");
+}
+
+// The parts of the stored detail the fit itself needs, into r; the rest
+// (reports) stays in the document. Throws on a wrong shape.
+void read_fit_detail(const Json& detail, fitting::FitResult& r) {
+  if (!detail.is_object()) throw std::invalid_argument(std::string("detail: an object, not ") + detail.type_name());
+  if (detail.contains("parameter_names")) r.parameter_names = detail["parameter_names"].get<std::vector<std::string>>();
+  for (const auto& name : r.parameter_names)
+    if (name != "is_a" && name != "n" && name != "rs_ohm" && name != "rsh_ohm") throw std::invalid_argument("detail.parameter_names: unknown \"" + name + "\"");
+  if (detail.contains("correlation")) r.correlation = matrix_of(detail["correlation"], r.parameter_names.size(), "detail.correlation");
+  if (detail.contains("excluded"))
+    for (const auto& e : detail["excluded"]) r.excluded.push_back({e.at("index").get<std::size_t>(), e.at("reason").get<std::string>()});
+  if (detail.contains("iterations")) r.iterations = detail["iterations"].get<int>();
+}
+
+// Rows written before migration 0007 have no covariance column value. The
+// stored correlation and standard errors determine it: cov(a, b) = r(a, b)·
+// u(a)·u(b) (the definition of the correlation coefficient, GUM C.3.6), and
+// the stored correlation is that of the stored parameters (the fit's change
+// of variables ln Is → Is has a positive derivative, so correlations carry
+// over; fitting/extract.cpp fill_uncertainties).
+std::vector<std::vector<double>> covariance_from_correlation(const fitting::FitResult& r) {
+  const auto se = [&](const std::string& name) {
+    return name == "is_a" ? r.is_a.std_error : name == "n" ? r.n.std_error : name == "rs_ohm" ? r.rs_ohm.std_error : r.rsh_ohm.std_error;
+  };
+  const std::size_t dim = r.parameter_names.size();
+  if (r.correlation.size() != dim) return {};
+  std::vector<std::vector<double>> cov(dim, std::vector<double>(dim, kNaN));
+  for (std::size_t a = 0; a < dim; ++a)
+    for (std::size_t b = 0; b < dim; ++b) cov[a][b] = r.correlation[a][b] * se(r.parameter_names[a]) * se(r.parameter_names[b]);
+  return cov;
+}
+
+}  // namespace
+
+std::shared_ptr<const FitRecord> Store::latest_fit(Id part_id) {
   std::uint64_t generation = 0;
   {
     std::lock_guard lock(fit_cache_mutex_);
@@ -724,72 +854,51 @@ std::optional<Json> Store::latest_fit(Id part_id) {
   auto r = reader();
   auto st = r(
       "SELECT id, part_id, run_id, model, status, COALESCE(message, ''), is_a, is_a_se, n, n_se, rs_ohm, rs_ohm_se, rsh_ohm, rsh_ohm_se,"
-      " temp_k, cost, rms_residual, points_used, warnings, COALESCE(detail, '{}'), created_at, cj0_f, cj0_f_se, vj_v, vj_v_se, m, m_se"
-      " FROM fits WHERE part_id = ? ORDER BY id DESC LIMIT 1");
+      " temp_k, cost, rms_residual, points_used, warnings, COALESCE(detail, '{}'), created_at, cj0_f, cj0_f_se, vj_v, vj_v_se, m, m_se,"
+      " covariance FROM fits WHERE part_id = ? ORDER BY id DESC LIMIT 1");
   st.bind(1, part_id);
-  if (!st.step()) return std::nullopt;
-  auto est = [&](int c) { return Json{{"value", nullable(st.real(c))}, {"std_error", nullable(st.real(c + 1))}}; };
-  Json fit{{"fit_id", st.i64(0)},
-           {"part_id", st.i64(1)},
-           {"run_id", st.is_null(2) ? Json(nullptr) : Json(st.i64(2))},
-           {"model", st.text(3)},
-           {"status", st.text(4)},
-           {"message", st.text(5)},
-           {"is_a", est(6)},
-           {"n", est(8)},
-           {"rs_ohm", est(10)},
-           {"rsh_ohm", est(12)},
-           {"temp_k", nullable(st.real(14))},
-           {"cost", nullable(st.real(15))},
-           {"rms_residual", nullable(st.real(16))},
-           {"points_used", st.i64(17)},
-           {"warnings", Json::parse(st.text(18))},
-           {"detail", Json::parse(st.text(19))},
-           {"created_at", st.text(20)},
-           {"cj0_f", est(21)},
-           {"vj_v", est(23)},
-           {"m", est(25)}};
+  if (!st.step()) return nullptr;
+  auto rec = std::make_shared<FitRecord>();
+  rec->id = st.i64(0);
+  rec->part_id = st.i64(1);
+  if (!st.is_null(2)) rec->run_id = st.i64(2);
+  rec->model = st.text(3);
+  rec->created_at = st.text(20);
+  const std::string where = "fit " + std::to_string(rec->id) + " of part " + std::to_string(part_id);
+  fitting::FitResult& f = rec->fit;
+  const auto est = [&](int c) { return fitting::Estimate{st.real(c), st.real(c + 1)}; };
+  f.message = st.text(5);
+  f.is_a = est(6);
+  f.n = est(8);
+  f.rs_ohm = est(10);
+  f.rsh_ohm = est(12);
+  f.temp_k = st.real(14);
+  f.cost = st.real(15);
+  f.rms_residual = st.real(16);
+  f.points_used = static_cast<std::size_t>(st.i64(17));
+  rec->cj0_f = est(21);
+  rec->vj_v = est(23);
+  rec->m = est(25);
+  const char* part = "status";
+  try {
+    f.status = fit_status_of(st.text(4));
+    part = "warnings";
+    f.warnings = stored_json(st.text(18), where + ": warnings").get<std::vector<std::string>>();
+    part = "detail";
+    rec->detail = stored_json(st.text(19), where + ": detail");
+    read_fit_detail(rec->detail, f);
+    part = "covariance";
+    f.covariance = st.is_null(27) ? covariance_from_correlation(f)
+                                  : matrix_of(stored_json(st.text(27), where + ": covariance"), f.parameter_names.size(), "covariance");
+  } catch (const StoreError&) {
+    throw;
+  } catch (const std::exception& e) {
+    throw StoreError(where + ": " + part + " damaged (" + e.what() + ")");
+  }
+  std::shared_ptr<const FitRecord> out = std::move(rec);
   std::lock_guard lock(fit_cache_mutex_);
-  if (generation == fit_generation_) fit_cache_.emplace(part_id, fit);  // no fit inserted meanwhile
-  return fit;
-}
-
-// ---- JSON views ------------------------------------------------------------
-
-Json to_json(const JobRow& j) {
-  auto opt = [](const std::string& s) { return s.empty() ? Json(nullptr) : Json(s); };
-  Json out{{"job_id", j.id},
-           {"state", j.state},
-           {"plan", j.plan},
-           {"points_done", j.points_done},
-           {"points_total", j.points_total},
-           {"error", opt(j.error)},
-           {"submitted_by", {{"uid", j.submitted_uid}, {"pid", j.submitted_pid}}},
-           {"submitted_at", j.submitted_at},
-           {"started_at", opt(j.started_at)},
-           {"finished_at", opt(j.finished_at)},
-           {"updated_at", j.updated_at}};
-  if (!j.persisted) out["persisted"] = false;  // held in memory: the store could not write it
+  if (generation == fit_generation_) fit_cache_.emplace(part_id, out);  // no fit inserted meanwhile
   return out;
-}
-
-Json to_json(const RunRow& r) {
-  return Json{{"run_id", r.id}, {"job_id", r.job_id}, {"part_id", r.part_id}, {"slot", r.slot}, {"fixture", r.fixture},
-              {"temp_k", nullable(r.temp_k)}, {"state", r.state}, {"started_at", r.started_at},
-              {"finished_at", r.finished_at.empty() ? Json(nullptr) : Json(r.finished_at)}, {"temp_index", r.temp_index},
-              {"setpoint_k", nullable(r.setpoint_k)}, {"ambient_k", nullable(r.ambient_k)}, {"ambient_end_k", nullable(r.ambient_end_k)}};
-}
-
-Json to_json(const PointRow& p) {
-  return Json{{"run_id", p.run_id}, {"seq", p.seq}, {"kind", p.kind}, {"set_value", p.set_value}, {"set_unit", p.set_unit},
-              {"supply_v", nullable(p.supply_v)}, {"v", nullable(p.v)}, {"i_a", nullable(p.i_a)},
-              {"ac_in_v", nullable(p.ac_in_v)}, {"ac_out_v", nullable(p.ac_out_v)},
-              {"ac_unit", p.ac_unit.empty() ? Json(nullptr) : Json(p.ac_unit)}, {"freq_hz", nullable(p.freq_hz)},
-              {"temp_k", nullable(p.temp_k)}, {"t_s", p.t_s}, {"flags", p.flags}};
-}
-
-Json to_json(const PartRow& p) {
-  return Json{{"part_id", p.id}, {"lot_id", p.lot_id}, {"lot", p.lot}, {"label", p.label}, {"slot", p.slot}};
 }
 
 }  // namespace junco::daemon

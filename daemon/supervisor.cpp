@@ -19,7 +19,7 @@
 
 namespace junco::daemon {
 
-std::string make_bench_safe_alone(const Config& config, int attempts, std::chrono::milliseconds gap) {
+std::string make_bench_safe_alone(const Config& config, int attempts, std::chrono::milliseconds gap, const Log& log) {
   std::string errors;
   for (int k = 0; k < std::max(1, attempts); ++k) {
     if (k > 0) std::this_thread::sleep_for(gap);
@@ -27,7 +27,8 @@ std::string make_bench_safe_alone(const Config& config, int attempts, std::chron
       // Opening is lazy (a dialect and a spec; the connection is made by the
       // first command), so the supply gets its OUTP OFF first even when a
       // later instrument does not answer.
-      const auto bench = open_bench(config);
+      const auto bench = open_bench(config, log);
+      bench->log = log;
       errors = bench->make_safe();
       if (const std::string parked = bench->park_chamber(config.safety.chamber_idle_k); !parked.empty())
         errors += (errors.empty() ? "" : "; ") + parked;
@@ -84,8 +85,11 @@ class Supervisor {
     sfd_ = ::signalfd(-1, &set, SFD_CLOEXEC | SFD_NONBLOCK);
     if (sfd_ < 0) return fail("signalfd");
 
-    log("info", "make-safe at start, before any database is opened");
-    safe_now("at start");
+    // No make-safe here: the worker's first act on the bench is exactly that,
+    // before it opens the database (make_bench_safe_first), and it listens
+    // on its socket first, so clients see why a mute bench takes long. A
+    // worker that dies before that is followed by safe_now() below.
+    log(LogLevel::info, "starting the worker; it makes the bench safe at start, before it opens the database");
 
     for (;;) {
       const auto now = Clock::now();
@@ -107,7 +111,7 @@ class Supervisor {
         if (auto code = handle_signals()) return finish(*code);
       }
       if (worker_ > 0 && stopping_ && Clock::now() >= kill_at_ && !killed_) {
-        log("warn", "worker pid " + std::to_string(worker_) + " did not stop within " +
+        log(LogLevel::warn, "worker pid " + std::to_string(worker_) + " did not stop within " +
                         std::to_string(o_.stop_timeout.count()) + " s: SIGKILL");
         ::kill(worker_, SIGKILL);
         killed_ = true;
@@ -116,12 +120,12 @@ class Supervisor {
   }
 
  private:
-  void log(std::string_view level, const std::string& message) const {
-    if (o_.log) o_.log(level, "supervisor: " + message);
+  void log(LogLevel level, const std::string& message) const {
+    if (o_.log.enabled(level)) o_.log.write(level, "supervisor: " + message);
   }
 
   int fail(const char* what) {
-    log("error", std::string(what) + ": " + std::strerror(errno));
+    log(LogLevel::error, std::string(what) + ": " + std::strerror(errno));
     return finish(1);
   }
 
@@ -142,18 +146,18 @@ class Supervisor {
   // Make-safe now; logs how long it took, measured from `since` when given.
   void safe_now(const std::string& when, std::optional<Clock::time_point> since = std::nullopt) {
     const auto t0 = since.value_or(Clock::now());
-    const std::string errors = make_bench_safe_alone(config_, 3);
+    const std::string errors = make_bench_safe_alone(config_, 3, std::chrono::milliseconds(200), o_.log);
     const double ms = std::chrono::duration<double, std::milli>(Clock::now() - t0).count();
     char took[48];
     std::snprintf(took, sizeof took, "%.0f ms", ms);
-    if (errors.empty()) log("info", "make-safe " + when + ": every output off, scanner open (" + took + ")");
-    else log("error", "make-safe " + when + " failed (" + took + "): " + errors + "; check the bench");
+    if (errors.empty()) log(LogLevel::info, "make-safe " + when + ": every output off, scanner open (" + took + ")");
+    else log(LogLevel::error, "make-safe " + when + " failed (" + took + "): " + errors + "; check the bench");
   }
 
   bool spawn() {
     int ready[2];
     if (::pipe2(ready, O_CLOEXEC) != 0) {
-      log("error", std::string("pipe: ") + std::strerror(errno));
+      log(LogLevel::error, std::string("pipe: ") + std::strerror(errno));
       return false;
     }
     // Everything the child needs is built before fork: after it only
@@ -181,7 +185,7 @@ class Supervisor {
     ::close(ready[1]);
     if (pid < 0) {
       ::close(ready[0]);
-      log("error", std::string("fork: ") + std::strerror(errno));
+      log(LogLevel::error, std::string("fork: ") + std::strerror(errno));
       return false;
     }
     // Never block on it: a read after the worker's death must return at once.
@@ -191,7 +195,7 @@ class Supervisor {
     serving_ = false;
     killed_ = false;
     started_ = Clock::now();
-    log("info", "worker pid " + std::to_string(pid) + " started");
+    log(LogLevel::info, "worker pid " + std::to_string(pid) + " started");
     return true;
   }
 
@@ -200,7 +204,7 @@ class Supervisor {
     const ssize_t n = ::read(ready_fd_, &c, 1);
     if (n == 1 && c == 'R') {
       serving_ = true;
-      log("info", "worker pid " + std::to_string(worker_) + " serving");
+      log(LogLevel::info, "worker pid " + std::to_string(worker_) + " serving");
     }
     if (n < 0 && errno == EAGAIN) return;  // nothing yet
     if (n <= 0 || serving_) {
@@ -221,10 +225,10 @@ class Supervisor {
       if (stopping_) continue;
       stopping_ = true;
       if (worker_ < 0) {
-        log("info", signal_name(sig) + ": stopping (no worker running; outputs are off)");
+        log(LogLevel::info, signal_name(sig) + ": stopping (no worker running; outputs are off)");
         return 0;
       }
-      log("info", signal_name(sig) + ": stopping worker pid " + std::to_string(worker_) + " (it turns the outputs off)");
+      log(LogLevel::info, signal_name(sig) + ": stopping worker pid " + std::to_string(worker_) + " (it turns the outputs off)");
       ::kill(worker_, SIGTERM);
       kill_at_ = Clock::now() + o_.stop_timeout;
     }
@@ -248,21 +252,21 @@ class Supervisor {
       const bool clean = WIFEXITED(status) && WEXITSTATUS(status) == 0;
       if (stopping_) {
         if (clean) {
-          log("info", what + ": stopped");
+          log(LogLevel::info, what + ": stopped");
           return 0;
         }
-        log("warn", what + " while stopping");
+        log(LogLevel::warn, what + " while stopping");
         safe_now("after the worker's death", died);
         return 0;
       }
       if (clean) {
         // Someone stopped the worker itself (SIGTERM to its pid): it made the
         // bench safe on the way out; nothing to restart.
-        log("info", what + " by itself; supervisor exits too");
+        log(LogLevel::info, what + " by itself; supervisor exits too");
         return 0;
       }
       const double lived_s = std::chrono::duration<double>(died - started_).count();
-      log("error", what + " after " + seconds_text(lived_s) + (serving_ ? "" : ", before it served"));
+      log(LogLevel::warn, what + " after " + seconds_text(lived_s) + (serving_ ? "" : ", before it served"));
       safe_now("after the worker's death", died);
       return schedule_restart(died);
     }
@@ -273,13 +277,13 @@ class Supervisor {
     if (!serving_) {
       ++start_failures_;
       if (start_failures_ >= o_.start_failure_limit) {
-        log("error", "giving up: the worker failed to start " + std::to_string(start_failures_) +
+        log(LogLevel::error, "giving up: the worker failed to start " + std::to_string(start_failures_) +
                          " times in a row (its error is logged above); outputs are off; fix the cause and start juncod again");
         return 1;
       }
       auto delay = o_.start_backoff * (1LL << std::min(start_failures_ - 1, 20));
       if (delay > o_.start_backoff_max) delay = o_.start_backoff_max;
-      log("info", "restarting in " + seconds_text(std::chrono::duration<double>(delay).count()) + " (start failure " +
+      log(LogLevel::warn, "restarting in " + seconds_text(std::chrono::duration<double>(delay).count()) + " (start failure " +
                       std::to_string(start_failures_) + " of " + std::to_string(o_.start_failure_limit) + ")");
       restart_at_ = died + delay;
       return std::nullopt;
@@ -288,12 +292,12 @@ class Supervisor {
     crashes_.push_back(died);
     while (!crashes_.empty() && died - crashes_.front() > o_.crash_window) crashes_.pop_front();
     if (static_cast<int>(crashes_.size()) > o_.crash_limit) {
-      log("error", "giving up: " + std::to_string(crashes_.size()) + " worker deaths within " +
+      log(LogLevel::error, "giving up: " + std::to_string(crashes_.size()) + " worker deaths within " +
                        std::to_string(o_.crash_window.count()) + " s (limit " + std::to_string(o_.crash_limit) +
                        ", --restart-limit); outputs are off; see the errors above");
       return 1;
     }
-    log("info", "restarting in " + seconds_text(std::chrono::duration<double>(o_.restart_delay).count()) + " (" +
+    log(LogLevel::warn, "restarting in " + seconds_text(std::chrono::duration<double>(o_.restart_delay).count()) + " (" +
                     std::to_string(crashes_.size()) + " death(s) in the last " + std::to_string(o_.crash_window.count()) + " s)");
     restart_at_ = died + o_.restart_delay;
     return std::nullopt;

@@ -19,6 +19,7 @@
 #pragma once
 
 #include "daemon/config.hpp"
+#include "daemon/log.hpp"
 
 #include <chrono>
 #include <functional>
@@ -28,16 +29,14 @@
 
 namespace junco::daemon {
 
-// level ("error", "warn", "info"), message; one line each.
-using SupervisorLog = std::function<void(std::string_view level, std::string_view message)>;
-
 // Opens the instruments of config.bench (daemon/bench.hpp open_bench), makes
 // them safe (Bench::make_safe: supply output off and 0 V, generator off,
 // scanner open), closes them. Tries `attempts` times, `gap` apart, while any
 // step fails. Never opens or creates the database. Returns "" when every
-// configured instrument took the commands, else what failed.
+// configured instrument took the commands, else what failed. `log` gets the
+// retries (warn) and the SCPI traffic (debug).
 std::string make_bench_safe_alone(const Config& config, int attempts = 1,
-                                  std::chrono::milliseconds gap = std::chrono::milliseconds(200));
+                                  std::chrono::milliseconds gap = std::chrono::milliseconds(200), const Log& log = Log());
 
 struct SupervisorOptions {
   // The worker's command line (argv[0] first, without --worker-ready-fd);
@@ -59,12 +58,14 @@ struct SupervisorOptions {
   std::chrono::milliseconds restart_delay{200};
   // SIGTERM to the worker on stop; SIGKILL (then make-safe) after this.
   std::chrono::seconds stop_timeout{30};
-  SupervisorLog log;
+  Log log;  // daemon/log.hpp
 };
 
 // Runs until SIGTERM, SIGINT or SIGHUP (the worker is stopped cleanly: exit
 // 0), a worker that exits 0 by itself (exit 0), or a limit above (exit 1,
-// outputs off). Makes the bench safe before the first worker starts.
+// outputs off). The first worker makes the bench safe at start itself
+// (after it listens, before it opens the database); the supervisor does it
+// after every death.
 // Call from a single-threaded process (it forks).
 int run_supervisor(const Config& config, const SupervisorOptions& options);
 

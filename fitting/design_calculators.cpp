@@ -307,14 +307,6 @@ void power(Run& r) {
   for (const auto& f : c.failures) r.fail(f);
 }
 
-const std::map<std::string, std::function<void(Run&)>>& bodies() {
-  static const std::map<std::string, std::function<void(Run&)>> table{
-      {"op", op},           {"bias-r", bias_r},         {"loss", loss},   {"bias-for-loss", bias_for_loss},
-      {"headroom", headroom}, {"distortion", distortion}, {"bias-for-thd", bias_for_thd},
-      {"isolation", isolation}, {"power", power}};
-  return table;
-}
-
 }  // namespace
 
 const std::vector<DesignInputSpec>& design_part_inputs() {
@@ -329,44 +321,63 @@ const std::vector<DesignInputSpec>& design_part_inputs() {
   return v;
 }
 
-const std::vector<DesignCalculator>& design_calculators() {
+namespace {
+
+// The calculators: one row each, its description and its body.
+struct CalculatorRow {
+  DesignCalculator calculator;
+  void (*body)(Run&);
+};
+
+const std::vector<CalculatorRow>& calculator_rows() {
   using R = InputRange;
-  static const std::vector<DesignCalculator> table{
-      {"op", "operating point: supply and bias resistor -> bias current and diode voltage (exact, Lambert W)", true,
+  static const std::vector<CalculatorRow> table{
+      {{"op", "operating point: supply and bias resistor -> bias current and diode voltage (exact, Lambert W)", true,
        {required("supply_v", "supply", "V", "supply", R::positive), required("rbias_ohm", "rbias", "Ohm", "bias resistor", R::non_negative),
-        with_default("rreturn_ohm", "rreturn", "Ohm", "DC return", 0.0, R::non_negative)}},
-      {"bias-r", "bias resistor for a target current: Rb = (Vs - Vd(I))/I - Rr", true,
+        with_default("rreturn_ohm", "rreturn", "Ohm", "DC return", 0.0, R::non_negative)}}, op},
+      {{"bias-r", "bias resistor for a target current: Rb = (Vs - Vd(I))/I - Rr", true,
        {required("supply_v", "supply", "V", "supply", R::positive), required("current_a", "current", "A", "target current", R::positive),
-        with_default("rreturn_ohm", "rreturn", "Ohm", "DC return", 0.0, R::non_negative)}},
-      {"loss", "biased-state loss at a bias current: insertion loss (series) or isolation (shunt)", true,
-       join({switch_input(), required("current_a", "current", "A", "bias current", R::positive)}, circuit_inputs(true))},
-      {"bias-for-loss", "bias current (and resistor, given a supply) for a target biased-state loss", true,
+        with_default("rreturn_ohm", "rreturn", "Ohm", "DC return", 0.0, R::non_negative)}}, bias_r},
+      {{"loss", "biased-state loss at a bias current: insertion loss (series) or isolation (shunt)", true,
+       join({switch_input(), required("current_a", "current", "A", "bias current", R::positive)}, circuit_inputs(true))}, loss},
+      {{"bias-for-loss", "bias current (and resistor, given a supply) for a target biased-state loss", true,
        join({switch_input(), required("target_db", "target", "dB", "target loss", R::positive),
              optional_input("supply_v", "supply", "V", "supply", R::positive)},
-            circuit_inputs(true))},
-      {"headroom", "least bias that keeps a series switch conducting over the signal swing", false,
+            circuit_inputs(true))}, bias_for_loss},
+      {{"headroom", "least bias that keeps a series switch conducting over the signal swing", false,
        {required("amplitude_v", "amplitude", "V", "load peak", R::positive),
         with_default("rl_ohm", "rl", "Ohm", "load RL", 50.0, R::positive),
         with_default("rreturn_ohm", "rreturn", "Ohm", "DC return", inf, R::positive, "choke (no AC shunt)"),
-        with_default("floor_a", "floor", "A", "trough floor", 0.0, R::non_negative)}},
-      {"distortion", "HD2, HD3 and THD at a bias and amplitude (time-domain solve of the nonlinear circuit)", true,
+        with_default("floor_a", "floor", "A", "trough floor", 0.0, R::non_negative)}}, headroom},
+      {{"distortion", "HD2, HD3 and THD at a bias and amplitude (time-domain solve of the nonlinear circuit)", true,
        join({required("current_a", "current", "A", "bias current", R::positive),
              required("amplitude_v", "amplitude", "V", "EMF peak", R::positive)},
-            circuit_inputs(false))},
-      {"bias-for-thd", "least bias for a target THD at an amplitude", true,
+            circuit_inputs(false))}, distortion},
+      {{"bias-for-thd", "least bias for a target THD at an amplitude", true,
        join({required("target_pct", "target", "%", "target THD", R::positive), required("amplitude_v", "amplitude", "V", "EMF peak", R::positive)},
-            circuit_inputs(false))},
-      {"isolation", "off state from the junction capacitance Cj(V): isolation (series) or loss (shunt)", true,
+            circuit_inputs(false))}, bias_for_thd},
+      {{"isolation", "off state from the junction capacitance Cj(V): isolation (series) or loss (shunt)", true,
        join({switch_input(), with_default("reverse_v", "reverse", "V", "reverse bias", 0.0, R::non_negative),
              with_default("rr_ohm", "rr", "Ohm", "off resistance", 0.0, R::non_negative)},
-            circuit_inputs(true))},
-      {"power", "dissipation in the part and the bias resistor, against limits (warn at 80 %, fail above)", true,
+            circuit_inputs(true))}, isolation},
+      {{"power", "dissipation in the part and the bias resistor, against limits (warn at 80 %, fail above)", true,
        {required("supply_v", "supply", "V", "supply", R::positive), required("rbias_ohm", "rbias", "Ohm", "bias resistor", R::non_negative),
         with_default("signal_peak_a", "signal-peak", "A", "signal peak", 0.0, R::non_negative),
         optional_input("max_diode_w", "max-diode", "W", "diode limit", R::positive),
-        optional_input("max_resistor_w", "max-resistor", "W", "resistor limit", R::positive)}},
+        optional_input("max_resistor_w", "max-resistor", "W", "resistor limit", R::positive)}}, power},
   };
   return table;
+}
+
+}  // namespace
+
+const std::vector<DesignCalculator>& design_calculators() {
+  static const std::vector<DesignCalculator> calculators = [] {
+    std::vector<DesignCalculator> out;
+    for (const auto& row : calculator_rows()) out.push_back(row.calculator);
+    return out;
+  }();
+  return calculators;
 }
 
 const DesignCalculator* find_design_calculator(const std::string& name) {
@@ -439,7 +450,8 @@ Json run_design(const std::string& calculator, const DesignPart* part, const Jso
     throw DesignInputError("calculator", "unknown calculator '" + calculator + "' (one of: " + names + ")");
   }
   Run run(*calc, part, inputs);
-  bodies().at(calc->name)(run);
+  for (const auto& row : calculator_rows())
+    if (row.calculator.name == calc->name) row.body(run);
   return run.take();
 }
 

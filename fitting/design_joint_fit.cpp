@@ -123,9 +123,16 @@ void initial_estimate(std::span<const IvPoint> dc, double vt, double x[3]) {
 SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, const Fixture& fixture,
                     const JointFitOptions& o) {
   SimpleFit f;
+  // The stored fit's screening and σ (extract.hpp): points above its noise
+  // floor, each weighted by residual_sigma_v (effective variance, accuracy
+  // figures read as rectangular limits, σ = limit/√3), so a χ² here means the
+  // same as part.fit's for the same readings (docs/fitting.md, "One σ").
+  FitOptions screen;
+  screen.accuracy = o.accuracy;
+  const double floor_a = effective_noise_floor_a(screen);
   std::vector<IvPoint> fwd;
   for (const auto& p : dc)
-    if (p.i_a > 5.0 * o.accuracy.i_abs_a && std::isfinite(p.v)) fwd.push_back(p);
+    if (p.i_a >= floor_a && p.v > 0.0 && std::isfinite(p.v)) fwd.push_back(p);
   if (fwd.size() < 4) {
     f.message = "need at least 4 forward points above the noise floor";
     return f;
@@ -133,13 +140,20 @@ SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, co
   const double vt = thermal_voltage_v(o.temp_k);
   double x[3];
   initial_estimate(fwd, vt, x);
+  // σ from the start, then once more from the solution (dV/dI depends on
+  // the parameters), as fit_forward re-weights.
+  std::vector<double> inv_sigma(fwd.size());
+  const auto weigh = [&](const double* at) {
+    const DiodeParams p{std::exp(at[0]), at[1], at[2]};
+    for (std::size_t k = 0; k < fwd.size(); ++k) inv_sigma[k] = 1.0 / (o.dc_sigma_scale * residual_sigma_v(p, fwd[k], o.accuracy, o.temp_k));
+  };
+  weigh(x);
   ceres::Problem problem;
-  for (const auto& p : fwd) {
-    const double sv = o.accuracy.v_rel * std::abs(p.v) + o.accuracy.v_abs_v;
-    const double si = 1.5 * vt * (o.accuracy.i_rel + o.accuracy.i_abs_a / p.i_a);
-    problem.AddResidualBlock(new ceres::AutoDiffCostFunction<DcCost, 1, 3>(
-                                 new DcCost{p.v, p.i_a, vt, 1.0 / (o.dc_sigma_scale * std::hypot(sv, si))}),
-                             nullptr, x);
+  std::vector<DcCost*> dc_costs;
+  for (std::size_t k = 0; k < fwd.size(); ++k) {
+    auto* cost = new DcCost{fwd[k].v, fwd[k].i_a, vt, inv_sigma[k]};
+    dc_costs.push_back(cost);
+    problem.AddResidualBlock(new ceres::AutoDiffCostFunction<DcCost, 1, 3>(cost), nullptr, x);
   }
   const double z_load = cathode_load_ohm(fixture);
   for (const auto& p : ac) {
@@ -159,6 +173,11 @@ SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, co
   const ceres::Solver::Options so = solver_options(o.max_iterations);
   ceres::Solver::Summary summary;
   ceres::Solve(so, &problem, &summary);
+  if (summary.termination_type == ceres::CONVERGENCE) {
+    weigh(x);
+    for (std::size_t k = 0; k < fwd.size(); ++k) dc_costs[k]->inv_sigma = inv_sigma[k];
+    ceres::Solve(so, &problem, &summary);
+  }
   f.cost = summary.final_cost;
   f.is_a.value = std::exp(x[0]);
   f.n.value = x[1];

@@ -24,8 +24,8 @@ namespace junco::fuzz {
 namespace {
 
 using daemon::Json;
-using daemon::RequestError;
-using daemon::RpcCode;
+using daemon::DomainError;
+using daemon::ErrorKind;
 
 const daemon::Config& bench() {
   static const daemon::Config config = fuzz_bench_config();
@@ -77,7 +77,7 @@ void check_round_trip(const daemon::Plan& p, const daemon::Config& c) {
   try {
     again = daemon::parse_plan(j);
     daemon::check_plan(again, c);
-  } catch (const RequestError& e) {
+  } catch (const DomainError& e) {
     throw InvariantBroken(std::string("to_json of an accepted plan is refused: ") + e.what() + " in " + j.dump());
   }
   require(daemon::to_json(again) == j, "to_json → parse_plan → to_json changed the plan: " + j.dump());
@@ -100,14 +100,14 @@ void plan(std::string_view data) {
   daemon::Plan p;
   try {
     p = daemon::parse_plan(j);
-  } catch (const RequestError& e) {
-    require(e.code() == RpcCode::invalid_params, std::string("parse_plan refused with a code other than invalid_params: ") + e.what());
+  } catch (const DomainError& e) {
+    require(e.kind() == ErrorKind::bad_input, std::string("parse_plan refused with an error other than bad input: ") + e.what());
     return;
   }
   try {
     daemon::check_plan(p, c);
-  } catch (const RequestError& e) {
-    require(e.code() == RpcCode::plan_refused, std::string("check_plan refused with a code other than plan_refused: ") + e.what());
+  } catch (const DomainError& e) {
+    require(e.kind() == ErrorKind::plan_refused, std::string("check_plan refused with an error other than plan refused: ") + e.what());
     return;
   }
   check_steps(p, c);

@@ -9,8 +9,8 @@
 //    max_batch_size; accepted params nest at most max_params_depth levels;
 //  - every line goes through the server's own dispatch (rpc::respond +
 //    rpc::answer, as daemon/rpc_server.cpp) to rpc_service() — the real
-//    CoreService in the normal build (tests/fuzz/rpc_service.hpp says what
-//    the libFuzzer build links). No request is an internal error; every
+//    CoreService on a temporary SQLite store, in the libFuzzer build and the
+//    normal one (tests/fuzz/rpc_service.hpp). No request is an internal error; every
 //    request with an id gets exactly one reply with that id and either a
 //    result or an error; notifications are never answered; the reply
 //    serialises with to_line to exactly one line that parses back as JSON.

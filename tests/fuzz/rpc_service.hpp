@@ -1,17 +1,10 @@
-// The Service behind the rpc_request fuzz entry.
-//
-// Normal build (gcc, unit.fuzz_regressions_test): rpc_service_real.cpp — the
-// real CoreService (daemon/core_service.hpp make_service) over a temporary
-// SQLite database, with a bench opener that opens nothing, so every request
-// goes through the daemon's real method table, params checks, plan checks and
-// store, and a submitted job waits for a bench that never comes.
-//
-// libFuzzer build (clang, no Ceres/SQLite/Boost — docs/fuzzing.md): the real
-// CoreService needs the store (SQLite) and the fits (Ceres), so
-// rpc_service_front.cpp links the front half only: the daemon's own
-// check_call (daemon/service_params.hpp: method table and params) and, for
-// job.submit, parse_plan + check_plan with the limits; past those checks it
-// answers `unavailable`.
+// The Service behind the rpc_request fuzz entry, in both builds (the libFuzzer
+// one and the normal one, where unit.fuzz_regressions_test replays the corpus):
+// rpc_service_real.cpp — the real CoreService (daemon/core_service.hpp
+// make_service) over a temporary SQLite database, with a bench opener that
+// opens nothing, so every request goes through the daemon's real method table,
+// params checks, plan checks and store, and a submitted job waits for a bench
+// that never comes.
 #pragma once
 
 #include "daemon/config.hpp"
@@ -20,8 +13,6 @@
 namespace junco::fuzz {
 
 daemon::Service& rpc_service();
-// True when rpc_service() is the real CoreService.
-bool rpc_service_is_real();
 
 // A bench like tools/examples/bench.jsonc, built in code (invented values):
 // 8 slots, 100 Ω + 10 Ω, limits 10 V / 0.1 A / 0.25 W / 5 V reverse / 86400 s,

@@ -1,4 +1,4 @@
-// rpc_service() in the normal build: the real CoreService (see rpc_service.hpp).
+// rpc_service(): the real CoreService (see rpc_service.hpp).
 #include "tests/fuzz/rpc_service.hpp"
 
 #include "daemon/bench.hpp"
@@ -49,7 +49,5 @@ daemon::Service& rpc_service() {
   static RealService real;
   return *real.service;
 }
-
-bool rpc_service_is_real() { return true; }
 
 }  // namespace junco::fuzz

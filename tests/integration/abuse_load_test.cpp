@@ -1,3 +1,4 @@
+// ctest: RUN_SERIAL (many clients and a job at once: load and latency figures)
 // A short run of the mixed-query load (tests/bench/load_mixed.hpp): 16
 // clients for a few seconds while a job runs on a real juncod + junco-sim.
 // Correctness only (every reply a result, the job's readings the same as the

@@ -1,3 +1,4 @@
+// ctest: RUN_SERIAL (RSS bounds on the daemon under abuse)
 // The socket API under abuse, against a real juncod with a real junco-sim
 // bench: malformed bursts, 1 MiB lines, deep nesting, requests dropped
 // mid-way, half-closed clients, connection churn, clients that read nothing,

@@ -1,3 +1,4 @@
+// ctest: RUN_SERIAL (bounds on publish time and on when the server closes a silent client)
 // The JSON-RPC server on a real Unix socket, in front of a fake Service:
 // permissions, peer credentials, bad input, concurrency, subscriptions.
 // Error codes are those of the JSON-RPC 2.0 specification, section 5.1.

@@ -1,3 +1,4 @@
+// ctest: RUN_SERIAL (deadline bounds on timeouts and reconnects)
 // Every fault mode of junco-sim's control endpoint against the real driver
 // stack: the driver reports a typed DriverError with a clear message within
 // its deadline, reconnects where it can, and never returns a garbled reply

@@ -1,3 +1,4 @@
+// ctest: RUN_SERIAL (time and RSS bounds on oversized input)
 // Depth, size and plan limits on every JSON input, checked on real processes
 // (issue 10): juncod on its real Unix socket with a real junco-sim bench,
 // the junco CLI as a program, juncod --check-config and junco-sim --config

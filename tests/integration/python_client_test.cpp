@@ -4,12 +4,21 @@
 // threads, id-null errors and notifications work (tests/python/exercise_client.py);
 // its wrappers cover schema/api and its version is CMake's (tests/python/check_wrappers.py).
 // Runs /usr/bin/python3 (Debian's: python3-pip, python3-venv from tools/setup).
+#include "daemon/rpc_framing.hpp"  // default_socket_path: junco's rule
 #include "tests/support/bench_daemon.hpp"
+
+#include <grp.h>
+#include <sched.h>
+#include <sys/mount.h>
+#include <sys/socket.h>
+#include <sys/un.h>
+#include <sys/wait.h>
 
 #include <catch2/catch.hpp>
 
 #include <algorithm>
 #include <cstdio>
+#include <cstring>
 #include <fstream>
 #include <sstream>
 
@@ -191,4 +200,118 @@ TEST_CASE("the junco_client package installs offline into a venv and works again
   CHECK(refused.status == 0);
   CHECK_THAT(refused.out, Catch::Contains("ok busy:"));
   CHECK(busy.stop() == 0);
+}
+
+namespace {
+
+// Leaves a Unix socket file at `path` (bound, then closed: stat sees a socket).
+bool make_socket_file(const std::string& path) {
+  const int fd = ::socket(AF_UNIX, SOCK_STREAM, 0);
+  sockaddr_un a{};
+  a.sun_family = AF_UNIX;
+  std::strncpy(a.sun_path, path.c_str(), sizeof a.sun_path - 1);
+  const bool ok = fd >= 0 && ::bind(fd, reinterpret_cast<sockaddr*>(&a), sizeof a) == 0;
+  if (fd >= 0) ::close(fd);
+  return ok;
+}
+
+}  // namespace
+
+TEST_CASE("junco_client finds the default socket by junco's rule, in the same order", "[python]") {
+  // The reference is the function junco itself calls (daemon/rpc_framing.hpp
+  // default_socket_path), run beside the Python one under the same user and
+  // environment. The service's /run/junco/juncod.sock must exist for one
+  // case, so a child process gets a private mount namespace with its own
+  // /run (nothing outside sees it) and then drops to user nobody: as root
+  // the rule is always the service socket.
+  if (::access("/usr/bin/python3", X_OK) != 0) FAIL("/usr/bin/python3 is required (tools/setup installs it)");
+  if (::geteuid() != 0) {
+    WARN("not run: needs root for a private mount namespace and to act as user nobody");
+    return;
+  }
+  const fs::path dir = test::scratch_dir("pysock");
+  fs::permissions(dir, fs::perms::owner_all | fs::perms::group_read | fs::perms::group_exec | fs::perms::others_read | fs::perms::others_exec);
+  for (const char* d : {"run-own/junco", "run-empty", "state-own/junco", "home"}) fs::create_directories(dir / d);
+  REQUIRE(make_socket_file((dir / "run-own/junco/juncod.sock").string()));
+  REQUIRE(make_socket_file((dir / "state-own/junco/juncod.sock").string()));
+
+  // name, JUNCO_SOCKET, XDG_RUNTIME_DIR, XDG_STATE_HOME (empty: unset); HOME is dir/home.
+  struct Case {
+    const char* name;
+    std::string junco_socket, runtime, state;
+    bool as_root;
+    bool service_socket = true;  // false: /run/junco/juncod.sock removed before this case
+  };
+  const std::string d = dir.string();
+  const std::vector<Case> cases{
+      {"root", "", d + "/run-own", "", true},
+      {"JUNCO_SOCKET wins", "/elsewhere/j.sock", d + "/run-own", "", false},
+      {"own socket under XDG_RUNTIME_DIR", "", d + "/run-own", d + "/state-own", false},
+      {"no own socket: the service's", "", d + "/run-empty", d + "/state-own", false},
+      {"XDG_STATE_HOME when XDG_RUNTIME_DIR is unset", "", "", d + "/state-own", false},
+      {"nothing there: the user's own path", "", "", "", false, false},
+  };
+  int out[2];
+  REQUIRE(::pipe(out) == 0);
+  const pid_t pid = ::fork();
+  REQUIRE(pid >= 0);
+  if (pid == 0) {
+    // Child: one line per case, "name\tc++\tpython". Exit 3 when the namespace cannot be made.
+    ::close(out[0]);
+    if (::unshare(CLONE_NEWNS) != 0 || ::mount(nullptr, "/", nullptr, MS_REC | MS_PRIVATE, nullptr) != 0 ||
+        ::mount("tmpfs", "/run", "tmpfs", 0, "mode=0755") != 0 || ::mkdir("/run/junco", 0755) != 0 ||
+        ::chown("/run/junco", 65534, 65534) != 0 || !make_socket_file("/run/junco/juncod.sock"))
+      ::_exit(3);
+    std::string lines;
+    for (const auto& c : cases) {
+      if (!c.as_root && ::geteuid() == 0) {
+        if (::setgroups(0, nullptr) != 0 || ::setresgid(65534, 65534, 65534) != 0 || ::setresuid(65534, 65534, 65534) != 0) ::_exit(4);
+      }
+      if (!c.service_socket) ::unlink("/run/junco/juncod.sock");  // nobody owns /run/junco here
+      auto put = [](const char* k, const std::string& v) {
+        if (v.empty()) ::unsetenv(k);
+        else ::setenv(k, v.c_str(), 1);
+      };
+      put("JUNCO_SOCKET", c.junco_socket);
+      put("XDG_RUNTIME_DIR", c.runtime);
+      put("XDG_STATE_HOME", c.state);
+      put("HOME", d + "/home");
+      const std::string cpp = daemon::rpc::default_socket_path();
+      const Run py = run("PYTHONPATH=" + quote(kSource + "/tools/python") +
+                         " /usr/bin/python3 -c 'import junco_client; print(junco_client.default_socket_path())'");
+      std::string p = py.out;
+      while (!p.empty() && p.back() == '\n') p.pop_back();
+      lines += std::string(c.name) + "\t" + cpp + "\t" + p + "\n";
+    }
+    (void)!::write(out[1], lines.data(), lines.size());
+    ::_exit(0);
+  }
+  ::close(out[1]);
+  std::string text;
+  char buf[4096];
+  for (ssize_t n; (n = ::read(out[0], buf, sizeof buf)) > 0;) text.append(buf, static_cast<std::size_t>(n));
+  ::close(out[0]);
+  int status = 0;
+  ::waitpid(pid, &status, 0);
+  fs::remove_all(dir);
+  REQUIRE(WIFEXITED(status));
+  REQUIRE(WEXITSTATUS(status) == 0);
+  std::map<std::string, std::pair<std::string, std::string>> got;
+  std::stringstream in(text);
+  for (std::string line; std::getline(in, line);) {
+    const auto t1 = line.find('\t'), t2 = line.find('\t', t1 + 1);
+    got[line.substr(0, t1)] = {line.substr(t1 + 1, t2 - t1 - 1), line.substr(t2 + 1)};
+  }
+  REQUIRE(got.size() == cases.size());
+  for (const auto& [name, pair] : got) {
+    INFO(name);
+    CHECK(pair.second == pair.first);
+  }
+  // What each case means, so the comparison above cannot pass on a shared mistake.
+  CHECK(got["root"].first == "/run/junco/juncod.sock");
+  CHECK(got["JUNCO_SOCKET wins"].first == "/elsewhere/j.sock");
+  CHECK(got["own socket under XDG_RUNTIME_DIR"].first == d + "/run-own/junco/juncod.sock");
+  CHECK(got["no own socket: the service's"].first == "/run/junco/juncod.sock");
+  CHECK(got["XDG_STATE_HOME when XDG_RUNTIME_DIR is unset"].first == d + "/state-own/junco/juncod.sock");
+  CHECK(got["nothing there: the user's own path"].first == d + "/home/.local/state/junco/juncod.sock");
 }

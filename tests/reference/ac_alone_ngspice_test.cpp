@@ -6,6 +6,8 @@
 // same frequency: the reason the refinement exists.
 #include "fitting/design_joint_fit.hpp"
 
+#include "tests/support/ngspice.hpp"
+
 #include <catch2/catch.hpp>
 
 #include <unistd.h>
@@ -32,12 +34,11 @@ constexpr double cjo_f = 2e-12;
 // 5e-4 at V = 0.75 V with VJ = 2 V, the largest VJ ngspice accepts; below
 // FC·VJ = 1 V at every bias here); TT = 0, so there is no diffusion capacitance.
 std::vector<AcPoint> ngspice_readings(const std::vector<double>& bias_a, double freq_hz) {
-  char dir[] = "/tmp/junco-acfit-XXXXXX";
-  REQUIRE(mkdtemp(dir));
-  const std::string cir = std::string(dir) + "/ac.cir", out = std::string(dir) + "/ac.txt", log = std::string(dir) + "/ac.log";
+  const junco::test::Ngspice ng("acfit");
+  const std::string out = ng.path("ac.txt");
   const double vt = thermal_voltage_v(t27_k);
+  std::ostringstream f;
   {
-    std::ofstream f(cir);
     f.precision(15);
     f << "fixture series switch, small signal\n";
     std::string vectors;
@@ -56,13 +57,12 @@ std::vector<AcPoint> ngspice_readings(const std::vector<double>& bias_a, double 
       << ".control\nac lin 1 " << freq_hz << " " << freq_hz << "\nset wr_singlescale\nwrdata " << out << vectors
       << "\n.endc\n.end\n";
   }
-  const std::string cmd = "ngspice -b " + cir + " > " + log + " 2>&1";
-  const int status = std::system(cmd.c_str());
-  INFO("ngspice status " << status);  // -b exits 1 without .print lines; the parsed data are the check
-  std::ifstream f(out);
+  const auto run = ng.run(f.str(), "ac");
+  INFO("ngspice exit " << run.exit_code << ", output:\n" << run.out);  // -b exits 1 without .print lines; the parsed data are the check
+  std::ifstream data(out);
   std::string line;
   std::vector<AcPoint> points;
-  while (std::getline(f, line)) {
+  while (std::getline(data, line)) {
     std::istringstream row(line);
     double freq;
     if (!(row >> freq)) continue;
@@ -76,8 +76,6 @@ std::vector<AcPoint> ngspice_readings(const std::vector<double>& bias_a, double 
     REQUIRE(row);
   }
   REQUIRE(points.size() == bias_a.size());
-  for (const auto& name : {out, cir, log}) std::remove(name.c_str());
-  rmdir(dir);
   return points;
 }
 

@@ -2,6 +2,8 @@
 // against a real ngspice transient analysis with Fourier of the same circuit.
 #include "fitting/design_distortion.hpp"
 
+#include "tests/support/ngspice.hpp"
+
 #include <catch2/catch.hpp>
 
 #include <cmath>
@@ -34,11 +36,8 @@ DistortionInput e13(double bias_a, double vhat_v) {
 // harmonics 2 and 3 of v(RL) from its `fourier` command.
 std::pair<double, double> ngspice_hd(const DistortionInput& in) {
   const double v_dc = diode_voltage_v(in.part, in.bias_i_a, in.temp_k) + in.bias_i_a * (in.rg_ohm + in.rl_ohm);
-  char dir[] = "/tmp/junco-design-XXXXXX";
-  REQUIRE(mkdtemp(dir));
-  const std::string cir = std::string(dir) + "/hd.cir", out = std::string(dir) + "/hd.out";
+  std::ostringstream f;
   {
-    std::ofstream f(cir);
     f.precision(12);
     f << "series switch distortion\n"
       << "V1 src 0 DC " << v_dc << " SIN(" << v_dc << " " << in.source_peak_v << " 1k)\n"
@@ -47,16 +46,15 @@ std::pair<double, double> ngspice_hd(const DistortionInput& in) {
       << ".options reltol=1e-7 abstol=1e-15 vntol=1e-10 temp=27 tnom=27\n"
       << ".control\nset fourgridsize=1024\ntran 0.25u 3m 1m 0.25u\nfourier 1k v(k)\n.endc\n.end\n";
   }
-  const std::string cmd = "ngspice -b " + cir + " > " + out + " 2>&1";
   // ngspice -b exits 1 after a .control run with no .print lines, so the
   // exit status says nothing; the parsed table below is the check.
-  const int status = std::system(cmd.c_str());
-  INFO("ngspice status " << status);
-  std::ifstream f(out);
+  const auto run = junco::test::run_ngspice(f.str());
+  INFO("ngspice exit " << run.exit_code);
+  std::istringstream printed(run.out);
   std::string line;
   double hd2 = NAN, hd3 = NAN;
   bool in_table = false;
-  while (std::getline(f, line)) {
+  while (std::getline(printed, line)) {
     if (line.find("Fourier analysis for v(k)") != std::string::npos) in_table = true;
     if (!in_table) continue;
     std::istringstream row(line);
@@ -69,9 +67,6 @@ std::pair<double, double> ngspice_hd(const DistortionInput& in) {
   }
   REQUIRE(std::isfinite(hd2));
   REQUIRE(std::isfinite(hd3));
-  std::remove(out.c_str());
-  std::remove(cir.c_str());
-  rmdir(dir);
   return {hd2, hd3};
 }
 

@@ -7,6 +7,8 @@
 // tolerances below. If ngspice is missing or fails, the test fails.
 #include "fitting/extract.hpp"
 
+#include "tests/support/ngspice.hpp"
+
 #include <catch2/catch.hpp>
 
 #include <unistd.h>
@@ -34,9 +36,6 @@ struct Card {
 
 // One current source and one diode per point, a single operating-point run.
 std::vector<IvPoint> ngspice_curve(const Card& c, int count) {
-  const fs::path dir = fs::temp_directory_path() / ("junco_ngspice_" + std::to_string(::getpid()));
-  fs::create_directories(dir);
-  const fs::path cir = dir / "curve.cir", out = dir / "curve.out";
   std::vector<double> currents;
   std::ostringstream net;
   net << "* junco fit reference: " << c.label << "\n";
@@ -50,12 +49,12 @@ std::vector<IvPoint> ngspice_curve(const Card& c, int count) {
       << ".options reltol=1e-9 abstol=1e-18 vntol=1e-12\n.control\nset numdgt=12\nop\n";
   for (int k = 0; k < count; ++k) net << "print v(n" << k << ")\n";
   net << "quit 0\n.endc\n.end\n";  // quit: otherwise batch mode reports "no simulations run" and exits 1
-  std::ofstream(cir) << net.str();
-  const std::string cmd = "ngspice -b " + cir.string() + " >" + out.string() + " 2>&1";
-  REQUIRE(std::system(cmd.c_str()) == 0);
+  const auto run = junco::test::run_ngspice(net.str());
+  INFO(run.out);
+  REQUIRE(run.exit_code == 0);
 
   std::map<int, double> volts;
-  std::ifstream in(out);
+  std::istringstream in(run.out);
   std::string line;
   while (std::getline(in, line)) {
     int node = -1;
@@ -65,7 +64,6 @@ std::vector<IvPoint> ngspice_curve(const Card& c, int count) {
   REQUIRE(volts.size() == static_cast<std::size_t>(count));
   std::vector<IvPoint> pts;
   for (int k = 0; k < count; ++k) pts.push_back({volts.at(k), currents[static_cast<std::size_t>(k)]});
-  fs::remove_all(dir);
   return pts;
 }
 

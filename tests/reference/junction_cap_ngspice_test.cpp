@@ -5,6 +5,8 @@
 // CJO, VJ and M; with two biases only, the held law must say so.
 #include "fitting/junction_cap.hpp"
 
+#include "tests/support/ngspice.hpp"
+
 #include <catch2/catch.hpp>
 
 #include <unistd.h>
@@ -33,11 +35,10 @@ double netlist_law_f(double reverse_v) { return cjo_f * std::pow(1.0 + reverse_v
 // −Vr so the anode sits below the grounded cathode; |v(k)| and |v(in)| at
 // 10 MHz and 100 MHz (ac dec 1 gives exactly those two points).
 std::vector<OffStatePoint> ngspice_readings(const std::vector<double>& reverse_v) {
-  char dir[] = "/tmp/junco-cjfit-XXXXXX";
-  REQUIRE(mkdtemp(dir));
-  const std::string cir = std::string(dir) + "/cj.cir", out = std::string(dir) + "/cj.txt", log = std::string(dir) + "/cj.log";
+  const junco::test::Ngspice ng("cjfit");
+  const std::string out = ng.path("cj.txt");
+  std::ostringstream f;
   {
-    std::ofstream f(cir);
     f.precision(15);
     f << "fixture series switch, off state, small signal\n";
     std::string vectors;
@@ -53,13 +54,12 @@ std::vector<OffStatePoint> ngspice_readings(const std::vector<double>& reverse_v
       << ".options reltol=1e-9 abstol=1e-18 vntol=1e-12 temp=27 tnom=27\n"
       << ".control\nac dec 1 10e6 100e6\nset wr_singlescale\nwrdata " << out << vectors << "\n.endc\n.end\n";
   }
-  const std::string cmd = "ngspice -b " + cir + " > " + log + " 2>&1";
-  const int status = std::system(cmd.c_str());
-  INFO("ngspice status " << status);  // -b exits 1 without .print lines; the parsed data are the check
-  std::ifstream f(out);
+  const auto run = ng.run(f.str(), "cj");
+  INFO("ngspice exit " << run.exit_code << ", output:\n" << run.out);  // -b exits 1 without .print lines; the parsed data are the check
+  std::ifstream data(out);
   std::string line;
   std::vector<OffStatePoint> points;
-  while (std::getline(f, line)) {
+  while (std::getline(data, line)) {
     std::istringstream row(line);
     double freq;
     if (!(row >> freq)) continue;
@@ -73,8 +73,6 @@ std::vector<OffStatePoint> ngspice_readings(const std::vector<double>& reverse_v
     REQUIRE(row);
   }
   REQUIRE(points.size() == 2 * reverse_v.size());
-  for (const auto& name : {out, cir, log}) std::remove(name.c_str());
-  rmdir(dir);
   return points;
 }
 

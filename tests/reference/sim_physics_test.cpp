@@ -8,6 +8,8 @@
 #include "tools/sim/fixture.hpp"
 #include "tools/sim/part.hpp"
 
+#include "tests/support/ngspice.hpp"
+
 #include <catch2/catch.hpp>
 
 #include <cmath>
@@ -35,22 +37,10 @@ std::string model_card(const PartParams& p) {
   return o.str();
 }
 
-// Runs ngspice in batch mode on `netlist`, returns its combined output.
-std::string run_ngspice(const std::string& netlist) {
-  const auto dir = std::filesystem::temp_directory_path() / ("junco_sim_ng_" + std::to_string(::getpid()));
-  std::filesystem::create_directories(dir);
-  const auto cir = dir / "check.cir", out = dir / "check.out";
-  std::ofstream(cir) << netlist;
-  const std::string cmd = "ngspice -b " + cir.string() + " > " + out.string() + " 2>&1";
-  // ngspice -b exits 1 after a .control block even on success, so the
-  // output is judged by its content; 127 means it is not installed.
-  const int rc = std::system(cmd.c_str());
-  REQUIRE(WEXITSTATUS(rc) != 127);
-  std::stringstream ss;
-  ss << std::ifstream(out).rdbuf();
-  std::filesystem::remove_all(dir);
-  return ss.str();
-}
+// ngspice in batch mode on `netlist` (tests/support/ngspice.hpp): its
+// combined output. It exits 1 after a .control block even on success, so the
+// output is judged by its content; a missing ngspice throws.
+std::string run_ngspice(const std::string& netlist) { return junco::test::run_ngspice(netlist).out; }
 
 double printed(const std::string& output, const std::string& name) {
   const std::regex re("^" + std::regex_replace(name, std::regex(R"([()])"), R"(\$&)") + R"( = ([-+0-9.eE]+))",

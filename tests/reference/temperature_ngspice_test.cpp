@@ -8,6 +8,8 @@
 #include "fitting/design_calculators.hpp"
 #include "fitting/spice_card.hpp"
 
+#include "tests/support/ngspice.hpp"
+
 #include <catch2/catch.hpp>
 
 #include <unistd.h>
@@ -34,27 +36,23 @@ struct Op {
 // ngspice .op of `supply -- rbias -- diode -- gnd` at temp_c: the diode
 // voltage and the current.
 Op ngspice_op(const std::string& card, double supply_v, double rbias_ohm, double temp_c) {
-  const fs::path dir = fs::temp_directory_path() / ("junco_ngspice_temp_" + std::to_string(::getpid()));
-  fs::create_directories(dir);
-  const fs::path cir = dir / "op.cir", out = dir / "op.out";
   std::ostringstream net;
   net.precision(12);
   net << "* junco temperature law reference\n"
       << card << "V1 s 0 DC " << supply_v << "\nR1 s a " << rbias_ohm << "\nD1 a 0 " << spice_model_name("WREN-0912-07") << "\n"
       << ".options temp=" << temp_c << " tnom=27 reltol=1e-9 abstol=1e-18 vntol=1e-12\n"
       << ".control\nset numdgt=12\nop\nprint v(a)\nprint i(v1)\nquit 0\n.endc\n.end\n";
-  std::ofstream(cir) << net.str();
-  const std::string cmd = "ngspice -b " + cir.string() + " >" + out.string() + " 2>&1";
-  REQUIRE(std::system(cmd.c_str()) == 0);
+  const auto run = junco::test::run_ngspice(net.str());
+  INFO(run.out);
+  REQUIRE(run.exit_code == 0);
   Op op{NAN, NAN};
-  std::ifstream in(out);
+  std::istringstream in(run.out);
   std::string line;
   while (std::getline(in, line)) {
     double x = 0;
     if (std::sscanf(line.c_str(), "v(a) = %lf", &x) == 1) op.vd_v = x;
     if (std::sscanf(line.c_str(), "i(v1) = %lf", &x) == 1) op.i_a = -x;  // ngspice: current into the + node
   }
-  fs::remove_all(dir);
   REQUIRE(std::isfinite(op.vd_v));
   REQUIRE(std::isfinite(op.i_a));
   return op;
@@ -128,19 +126,17 @@ TEST_CASE("isolation calculator's Cj equals ngspice's at -40, 27, 85, 125 degC",
   for (const double reverse_v : {0.0, 2.0, 10.0}) {
     for (const double temp_c : {-40.0, 27.0, 85.0, 125.0}) {
       INFO(reverse_v << " V reverse, " << temp_c << " degC");
-      const fs::path dir = fs::temp_directory_path() / ("junco_ngspice_cj_" + std::to_string(::getpid()));
-      fs::create_directories(dir);
       std::ostringstream net;
       net.precision(12);
       net << "* junco Cj(T) reference\n" << card << "V1 k 0 DC " << reverse_v << "\nD1 0 k " << spice_model_name("WREN-0912-07") << "\n"
           << ".options temp=" << temp_c << " tnom=27\n.control\nset numdgt=12\nop\nprint @d1[cd]\nquit 0\n.endc\n.end\n";
-      std::ofstream(dir / "cj.cir") << net.str();
-      REQUIRE(std::system(("ngspice -b " + (dir / "cj.cir").string() + " >" + (dir / "cj.out").string() + " 2>&1").c_str()) == 0);
+      const auto run = junco::test::run_ngspice(net.str());
+      INFO(run.out);
+      REQUIRE(run.exit_code == 0);
       double cd = NAN;
-      std::ifstream in(dir / "cj.out");
+      std::istringstream in(run.out);
       std::string line;
       while (std::getline(in, line)) std::sscanf(line.c_str(), "@d1[cd] = %lf", &cd);
-      fs::remove_all(dir);
       REQUIRE(std::isfinite(cd));
       const Json a = run_design("isolation", &dp, {{"reverse_v", reverse_v}, {"temp_k", kelvin_from_celsius(temp_c)}, {"freq_hz", 1e9}});
       // At 0 V the junction's diffusion part (TT = 0 here) and GMIN do not

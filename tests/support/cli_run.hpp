@@ -2,9 +2,10 @@
 // cleans up after itself. Shared by the CLI integration tests.
 #pragma once
 
+#include "tests/support/process.hpp"
+
 #include <catch2/catch.hpp>
 
-#include <cstdio>
 #include <cstdlib>
 #include <filesystem>
 #include <fstream>
@@ -20,15 +21,11 @@ struct CliRun {
   std::string out;  // stdout and stderr together
 };
 
-// Runs a command line through the shell: exit status and stdout + stderr.
+// Runs a command line through the shell: exit status and stdout + stderr
+// (tests/support/process.hpp run_shell_command).
 inline CliRun run_shell(const std::string& cmd) {
-  FILE* p = popen((cmd + " 2>&1").c_str(), "r");
-  REQUIRE(p);
-  std::string out;
-  char buf[1024];
-  while (std::fgets(buf, sizeof buf, p)) out += buf;
-  const int st = pclose(p);
-  return {WIFEXITED(st) ? WEXITSTATUS(st) : -1, out};
+  const ProgramRun r = run_shell_command(cmd);
+  return {r.signalled ? -1 : r.exit_code, r.out};
 }
 
 // `args` is appended to the junco path and run by the shell.

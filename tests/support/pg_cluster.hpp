@@ -42,7 +42,12 @@ class PgCluster {
     start();
   }
   ~PgCluster() {
-    if (running_) std::system((as_ + "'" + bin_ + "/pg_ctl' -D '" + data() + "' -m immediate -w stop >/dev/null 2>&1").c_str());
+    if (running_) {
+      try {
+        run_shell_command(as_ + "'" + bin_ + "/pg_ctl' -D '" + data() + "' -m immediate -w stop");
+      } catch (const std::exception&) {  // a destructor: the cluster's directory goes anyway
+      }
+    }
     std::error_code ec;
     std::filesystem::remove_all(dir_, ec);
   }
@@ -68,14 +73,9 @@ class PgCluster {
   }
   // Runs SQL with psql as the superuser; returns its unaligned output.
   std::string psql(const std::string& sql) const {
-    const std::string cmd = "'" + bin_ + "/psql' -X -q -A -t -v ON_ERROR_STOP=1 '" + conninfo() + "' -c \"" + sql + "\" 2>&1";
-    std::string out;
-    FILE* p = ::popen(cmd.c_str(), "r");
-    if (!p) throw std::runtime_error("popen psql");
-    char buf[4096];
-    std::size_t n;
-    while ((n = std::fread(buf, 1, sizeof buf, p)) > 0) out.append(buf, n);
-    if (::pclose(p) != 0) throw std::runtime_error("psql failed: " + out);
+    const ProgramRun r = run_program({bin_ + "/psql", "-X", "-q", "-A", "-t", "-v", "ON_ERROR_STOP=1", conninfo(), "-c", sql});
+    if (r.exit_code != 0) throw std::runtime_error("psql failed: " + r.out);
+    std::string out = r.out;
     while (!out.empty() && out.back() == '\n') out.pop_back();
     return out;
   }
@@ -84,7 +84,8 @@ class PgCluster {
  private:
   std::string data() const { return (dir_ / "data").string(); }
   static void sh(const std::string& cmd) {
-    if (std::system(cmd.c_str()) != 0) throw std::runtime_error("PgCluster: failed: " + cmd);
+    const ProgramRun r = run_shell_command(cmd);
+    if (r.exit_code != 0) throw std::runtime_error("PgCluster: failed: " + cmd + "\n" + r.out);
   }
   static std::string find_bin() {
     if (const char* env = std::getenv("JUNCO_PG_BIN"); env && *env) return env;

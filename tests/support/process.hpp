@@ -1,15 +1,24 @@
-// A child process for tests: started with fork + execve from an argv (no
-// shell), its stdout read line by line with a deadline, stopped on destruction
+// Starting programs from tests: the one process helper (tests/support/).
+//
+// ChildProcess: a child started with fork + execve from an argv (no shell),
+// its stdout read line by line with a deadline, stopped on destruction
 // with SIGTERM, then SIGKILL if it has not exited within the grace period, and
 // always reaped (no zombies). The child is also SIGKILLed by the kernel if the
 // test dies without running destructors (a crash, a sanitizer report, an
 // uncaught signal): an orphaned daemon or simulator would otherwise keep
 // ctest's output pipe open and the test would hang until ctest's timeout.
 // (PR_SET_PDEATHSIG follows the spawning thread: create children on a thread
-// that outlives them, e.g. the test's own.) Header-only; Linux only.
+// that outlives them, e.g. the test's own.) A bare program name ("ngspice")
+// is looked up in PATH before the fork.
+//
+// run_program / run_shell: run to completion and collect stdout + stderr
+// (ChildProcess underneath), for programs that answer and exit.
+// Header-only; Linux only.
 //
 //   junco::test::ChildProcess p({"/path/junco-sim", "--seed", "1"});
 //   auto line = p.read_line(std::chrono::seconds(5));   // nullopt on timeout/EOF
+//   auto r = junco::test::run_program({"ngspice", "-b", "x.cir"});  // r.exit_code, r.out
+//   auto s = junco::test::run_shell_command("junco fit a.csv | head -3");
 #pragma once
 
 #include <poll.h>
@@ -20,8 +29,10 @@
 #include <unistd.h>
 #include <fcntl.h>
 
+#include <algorithm>
 #include <cerrno>
 #include <chrono>
+#include <cstdlib>
 #include <cstring>
 #include <optional>
 #include <stdexcept>
@@ -50,13 +61,34 @@ inline constexpr bool kAddressSanitizer = false;
 
 struct ChildOptions {
   std::string stderr_path;  // empty: the child's stderr is the test's stderr
+  bool stderr_to_stdout = false;  // the child's stderr joins its stdout (stderr_path then unused)
   std::chrono::milliseconds stop_grace{3000};  // SIGTERM → SIGKILL delay
 };
+
+// argv[0] as execve needs it: a name without '/' is looked up in PATH (in the
+// parent: the child may only make async-signal-safe calls). Throws if absent.
+inline std::string resolve_program(const std::string& name) {
+  if (name.find('/') != std::string::npos) return name;
+  const char* path = std::getenv("PATH");
+  std::string dirs = path ? path : "/usr/local/bin:/usr/bin:/bin";
+  std::size_t start = 0;
+  for (;;) {
+    const std::size_t end = dirs.find(':', start);
+    std::string dir = dirs.substr(start, end == std::string::npos ? std::string::npos : end - start);
+    if (dir.empty()) dir = ".";
+    const std::string candidate = dir + "/" + name;
+    if (::access(candidate.c_str(), X_OK) == 0) return candidate;
+    if (end == std::string::npos) break;
+    start = end + 1;
+  }
+  throw std::runtime_error("exec " + name + ": not found in PATH (" + dirs + "); tools/setup installs what the tests run");
+}
 
 class ChildProcess {
  public:
   explicit ChildProcess(std::vector<std::string> argv, ChildOptions options = {}) : options_(std::move(options)) {
     if (argv.empty()) throw std::invalid_argument("ChildProcess: empty argv");
+    argv[0] = resolve_program(argv[0]);
     int fds[2];
     if (::pipe2(fds, O_CLOEXEC) != 0) throw std::runtime_error(std::string("pipe: ") + std::strerror(errno));
     int exec_status[2];  // the child writes errno here if execve fails; closed by a successful exec
@@ -84,7 +116,9 @@ class ChildProcess {
       const int in = ::open("/dev/null", O_RDONLY);
       if (in < 0 || ::dup2(in, STDIN_FILENO) < 0) fail(errno);
       if (in != STDIN_FILENO) ::close(in);
-      if (stderr_path) {
+      if (options_.stderr_to_stdout) {
+        if (::dup2(fds[1], STDERR_FILENO) < 0) fail(errno);
+      } else if (stderr_path) {
         const int err = ::open(stderr_path, O_WRONLY | O_CREAT | O_TRUNC, 0644);
         if (err < 0 || ::dup2(err, STDERR_FILENO) < 0) fail(errno);
         if (err != STDERR_FILENO) ::close(err);
@@ -150,6 +184,35 @@ class ChildProcess {
     }
   }
 
+  // Everything the child still writes until it closes stdout (normally: until
+  // it exits); nullopt when the deadline passes first.
+  std::optional<std::string> read_all(std::chrono::milliseconds deadline) {
+    const auto until = std::chrono::steady_clock::now() + deadline;
+    while (out_fd_ >= 0) {
+      const auto left = std::chrono::duration_cast<std::chrono::milliseconds>(until - std::chrono::steady_clock::now());
+      if (left.count() <= 0) return std::nullopt;
+      pollfd p{out_fd_, POLLIN, 0};
+      const int r = ::poll(&p, 1, static_cast<int>(left.count()));
+      if (r < 0 && errno == EINTR) continue;
+      if (r <= 0) return std::nullopt;
+      char chunk[4096];
+      const ssize_t n = ::read(out_fd_, chunk, sizeof chunk);
+      if (n < 0 && errno == EINTR) continue;
+      if (n <= 0) {
+        ::close(out_fd_);
+        out_fd_ = -1;
+        break;
+      }
+      buffer_.append(chunk, static_cast<size_t>(n));
+    }
+    std::string all;
+    all.swap(buffer_);
+    return all;
+  }
+
+  // True when the child ended by a signal (after wait/stop/running saw it end).
+  bool signalled() const { return signalled_; }
+
   // True while the child has not exited (reaps it if it has).
   bool running() {
     if (exited_) return false;
@@ -189,6 +252,7 @@ class ChildProcess {
  private:
   void record(int status) {
     exited_ = true;
+    signalled_ = WIFSIGNALED(status);
     exit_code_ = WIFEXITED(status) ? WEXITSTATUS(status) : 128 + WTERMSIG(status);
   }
 
@@ -197,7 +261,40 @@ class ChildProcess {
   int out_fd_ = -1;
   std::string buffer_;
   bool exited_ = false;
+  bool signalled_ = false;
   int exit_code_ = -1;
 };
+
+struct ProgramRun {
+  int exit_code = -1;      // 128 + signal when killed
+  bool signalled = false;  // ended by a signal
+  std::string out;         // stdout and stderr together, in the order written
+};
+
+// Runs argv to completion (stdin /dev/null) and collects its output. Throws
+// when it cannot start or runs longer than `timeout` (it is killed first).
+inline ProgramRun run_program(std::vector<std::string> argv,
+                              std::chrono::milliseconds timeout = std::chrono::minutes(5)) {
+  const std::string what = argv.empty() ? std::string() : argv.back();
+  ChildOptions options;
+  options.stderr_to_stdout = true;
+  ChildProcess child(std::move(argv), options);
+  const auto started = std::chrono::steady_clock::now();
+  auto out = child.read_all(timeout);
+  const auto left = timeout - std::chrono::duration_cast<std::chrono::milliseconds>(std::chrono::steady_clock::now() - started);
+  std::optional<int> code;
+  if (out) code = child.wait(std::max(left, std::chrono::milliseconds(1)));
+  if (!out || !code) {
+    child.stop();
+    throw std::runtime_error("run_program: still running after " + std::to_string(timeout.count()) + " ms, killed: " + what);
+  }
+  return {*code, child.signalled(), std::move(*out)};
+}
+
+// Runs a command line with /bin/sh -c (for pipes and redirections).
+inline ProgramRun run_shell_command(const std::string& command,
+                                    std::chrono::milliseconds timeout = std::chrono::minutes(5)) {
+  return run_program({"/bin/sh", "-c", command}, timeout);
+}
 
 }  // namespace junco::test

@@ -4,11 +4,8 @@ add_library(junco_serial_pty_shim MODULE ${CMAKE_CURRENT_LIST_DIR}/serial_pty_sh
 target_link_libraries(junco_serial_pty_shim PRIVATE ${CMAKE_DL_LIBS} junco_warnings)
 set_target_properties(junco_serial_pty_shim PROPERTIES
   LIBRARY_OUTPUT_DIRECTORY ${CMAKE_BINARY_DIR}/tests/support)
-# The test target is defined after this file is included: add the build
-# dependency once the directory has been processed.
-function(junco_serial_shim_dependency)
-  if(TARGET integration_drivers_serial_test)
-    add_dependencies(integration_drivers_serial_test junco_serial_pty_shim)
-  endif()
-endfunction()
-cmake_language(DEFER CALL junco_serial_shim_dependency)
+# tests/CMakeLists.txt includes this file after it has made the test programs
+# and named the one that holds each test file.
+if(JUNCO_TEST_BINARY_OF_integration_drivers_serial_test)
+  add_dependencies(${JUNCO_TEST_BINARY_OF_integration_drivers_serial_test} junco_serial_pty_shim)
+endif()

@@ -1,3 +1,4 @@
+// ctest: RUN_SERIAL (bounds on a job's wall-clock duration)
 // The executor and the Service against in-process fake instruments: the
 // safety order (current limit before output on, outputs off at every end),
 // faults (retried, then paused), cancel, current limit, shutdown, and resume
@@ -320,6 +321,48 @@ TEST_CASE("a job runs to done in the safe order, readings stored and each part f
   CHECK(states == std::vector<std::string>{"queued", "running", "done"});
 }
 
+TEST_CASE("heating.pulse: each pulsed reading is taken in its own pulse, the output off between, in the safe order") {
+  TempDir dir;
+  FakeLab lab;
+  auto svc = make_service(config_in(dir.path), fake_options(lab));
+  Json p = plan(12, 0.0, 1);
+  // Voltage steps 0.5..8 V; from 6 V on: pulsed, 20 ms off, read at once, dwells 5 and 15 ms.
+  p["heating"] = {{"pulse", {{"from", 6.0}, {"on_s", 0.0}, {"off_s", 0.02}}}, {"dwell", {{"short_s", 0.005}, {"long_s", 0.015}}},
+                  {"down_sweep", true}};
+  const Id job = svc->call("job.submit", {{"plan", p}}, kCaller)["job_id"];
+  const Json j = wait_for_state(*svc, job, {"done", "failed", "paused"});
+  REQUIRE(j["state"] == "done");
+  std::vector<std::string> log;
+  {
+    std::lock_guard l(lab.m);
+    log = lab.log;
+  }
+  check_safety_order(log);  // current limit before every output on, pulses included
+  // Steps ≥ 6 V of 0.5 + k·7.5/11 (6.64, 7.32, 8 V): k = 9..11, three pulsed up and three down.
+  const Json r = svc->call("part.readings", {{"part_id", 1}}, kCaller);
+  int pulsed = 0, dwell = 0, down = 0;
+  for (const auto& q : r["points"]) {
+    if (q["series"] == "dwell") ++dwell;
+    if (q["series"] == "down") ++down;
+    if (q["series"] == "up" && q["dwell_s"].is_number()) ++pulsed;
+    // Never a reading of an output that is off (the fake reads 0 V then).
+    CHECK(q["v"].get<double>() > 0.1);
+    if (q["series"] == "dwell") CHECK(q["dwell_s"].get<double>() >= 0.005);
+  }
+  CHECK(pulsed == 3);
+  CHECK(dwell == 6);
+  CHECK(down == 12);
+  // One output on per pulse (3 up + 3 down) after an off, plus the part's
+  // first, the return to held steps going down and nothing else.
+  const auto ons = std::count(log.begin(), log.end(), "source.on");
+  CHECK(ons == 1 + 3 + 1 + 3);
+  const Json f = svc->call("part.fit", {{"part_id", 1}}, kCaller);
+  CHECK(f["detail"]["heating"]["pulsed_readings"] == 3);
+  CHECK(f["detail"]["heating"]["hysteresis"]["pairs"] == 12);
+  CHECK(f["detail"]["heating"]["hysteresis"]["flagged"] == false);  // the fake does not heat
+  CHECK(f["detail"]["heating"]["dwell"]["status"] == "not_determined");
+}
+
 TEST_CASE("params are validated: wrong types, unknown ids and wrong states") {
   TempDir dir;
   FakeLab lab;
@@ -406,7 +449,7 @@ TEST_CASE("cancel and shutdown stop a running job with outputs off") {
   CHECK(lab.slot == 0);
   { std::lock_guard l(lab.m); check_safety_order(lab.log); }
   Store s(dir.path / "junco.db");
-  CHECK(s.job(job)->state == "queued");  // resumable plan: back in the queue for the next start
+  CHECK(s.job(job)->state == JobState::queued);  // resumable plan: back in the queue for the next start
 }
 
 TEST_CASE("supply in current limit: the point is flagged, the sweep goes no higher, the fit leaves it out") {
@@ -481,8 +524,8 @@ TEST_CASE("a plan that forbids resuming is marked interrupted after a restart") 
     Store s(cfg.paths.database);
     Json p = plan(5, 0.0, 1);
     p["resume"] = false;
-    const Id id = s.insert_job(p, 5, 0, 0);
-    s.set_job_state(id, "running");  // as a dead daemon left it
+    const Id id = s.insert_job(parse_plan(p), 5, 0, 0);
+    s.set_job_state(id, JobState::running);  // as a dead daemon left it
   }
   FakeLab lab;
   auto svc = make_service(cfg, fake_options(lab));

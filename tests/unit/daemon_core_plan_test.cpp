@@ -1,5 +1,6 @@
 // Plan validation: types and presence (invalid_params naming the field), then
 // ranges and each safety limit (plan_refused naming the limit and the value).
+#include "daemon/error_codes.hpp"
 #include "daemon/plan.hpp"
 
 #include <catch2/catch.hpp>
@@ -24,11 +25,14 @@ Json plan() {
     "sweep": {"mode": "voltage", "spacing": "linear", "start": 0.0, "stop": 5.0, "count": 11, "settle_s": 0.01}})");
 }
 
+// The plan code throws domain errors; the code a client sees is the one
+// mapping's (daemon/error_codes.hpp).
 std::pair<RpcCode, std::string> outcome(const Json& j, const Config& c = bench()) {
   try {
     check_plan(parse_plan(j), c);
-  } catch (const RequestError& e) {
-    return {e.code(), e.what()};
+  } catch (const DomainError& e) {
+    const RequestError r = to_request_error(e);
+    return {r.code(), r.what()};
   }
   return {RpcCode::internal_error, "(accepted)"};
 }
@@ -90,6 +94,25 @@ TEST_CASE("each safety limit refuses a plan that would exceed it, naming limit a
   Json j = plan();
   j["sweep"]["stop"] = 12;
   CHECK(outcome(j) == std::pair{RpcCode::plan_refused, std::string("sweep stop 12 V exceeds safety limit max_supply_v = 10 V")});
+  // The refusal names the bench's limit and the plan's field, for the client's data object.
+  try {
+    check_plan(parse_plan(j), bench());
+    FAIL("accepted");
+  } catch (const PlanRefused& e) {
+    CHECK(e.limit() == "max_supply_v");
+    CHECK(e.field() == "plan.sweep.stop");
+    CHECK(to_request_error(e).data() == Json{{"field", "plan.sweep.stop"}, {"limit", "max_supply_v"}});
+  }
+  // A wrong type is bad input naming the field, never a refusal.
+  j = plan();
+  j["sweep"]["count"] = "eleven";
+  try {
+    parse_plan(j);
+    FAIL("accepted");
+  } catch (const DomainError& e) {
+    CHECK(e.kind() == ErrorKind::bad_input);
+    CHECK(to_request_error(e).data() == Json{{"field", "plan.sweep.count"}});
+  }
 
   // Power: at 10 V through 100 Ω the part could carry 0.1 A (compliance), × vf_max 1.5 V = 0.15 W: fine at 0.25 W ...
   j = plan();
@@ -224,16 +247,16 @@ TEST_CASE("plan size limits: points per job and memory, refused by arithmetic be
   try {
     check_plan(p, c);
     FAIL("accepted");
-  } catch (const RequestError& e) {
-    CHECK(e.code() == RpcCode::plan_refused);
+  } catch (const PlanRefused& e) {
+    CHECK(to_request_error(e).code() == RpcCode::plan_refused);
     CHECK(std::string(e.what()) == "plan takes 1600800000 readings (200100000 per part × 8 parts), over limits.max_points_per_job = 1000000");
-    CHECK(e.data()["limit"] == "max_points_per_job");
+    CHECK(to_request_error(e).data()["limit"] == "max_points_per_job");
   }
   // Arithmetic only: far below what expanding 200 million steps would take.
   CHECK(std::chrono::steady_clock::now() - t0 < std::chrono::milliseconds(50));
 
   // One part of 100000 steps × 3 frequencies: 400000 points (under the
-  // points cap) but ~107 MiB to run, over the 64 MiB default.
+  // points cap) but ~113 MiB to run (40 B per step), over the 64 MiB default.
   Json one = plan();
   one["parts"] = Json::array({{{"slot", 1}, {"label", "QX-7-01"}}});
   one["sweep"]["count"] = 100000;
@@ -244,9 +267,9 @@ TEST_CASE("plan size limits: points per job and memory, refused by arithmetic be
   try {
     check_plan(q, c);
     FAIL("accepted");
-  } catch (const RequestError& e) {
-    CHECK_THAT(std::string(e.what()), Catch::StartsWith("plan needs about 107 MiB to run (400000 steps per part), over limits.max_plan_memory_bytes = "));
-    CHECK(e.data()["limit"] == "max_plan_memory_bytes");
+  } catch (const PlanRefused& e) {
+    CHECK_THAT(std::string(e.what()), Catch::StartsWith("plan needs about 113 MiB to run (400000 steps per part), over limits.max_plan_memory_bytes = "));
+    CHECK(e.limit() == "max_plan_memory_bytes");
   }
   // The same plan passes when the bench's config allows it.
   c.limits.max_plan_memory_bytes = 256.0 * 1024 * 1024;

@@ -1,8 +1,10 @@
 // The store: migrations on a fresh file and on re-open, durable pragmas, one
 // reading per (run, seq), and readings committed by a process that is then
 // SIGKILLed are all there when the file is opened again.
+#include "daemon/api_json.hpp"
 #include "daemon/migrations.hpp"
 #include "daemon/store.hpp"
+#include "fitting/diode.hpp"
 #include "fitting/extract.hpp"
 
 #include "tests/support/db_rows.hpp"
@@ -14,6 +16,7 @@
 #include <sys/wait.h>
 #include <unistd.h>
 
+#include <cmath>
 #include <cstdio>
 #include <filesystem>
 #include <string>
@@ -35,7 +38,11 @@ struct TempDir {
 
 using junco::test::count_rows;
 
-Json plan_json() { return Json{{"lot", "QX-7"}, {"parts", Json::array()}, {"resume", true}}; }
+Plan plan_json() {
+  Plan p;
+  p.lot = "QX-7";
+  return p;
+}
 
 }  // namespace
 
@@ -121,9 +128,11 @@ TEST_CASE("a schema-1 store upgrades to off-state readings keeping every row and
   CHECK(count_rows(db, "SELECT COUNT(*) FROM points WHERE id IN (7, 8, 9)") == 3);
   const auto fit = s.latest_fit(1);
   REQUIRE(fit);
-  CHECK((*fit)["fit_id"] == 5);
-  CHECK((*fit)["n"]["value"] == 1.85);
-  CHECK((*fit)["cj0_f"]["value"].is_null());  // no off-state readings, no capacitance law
+  CHECK(fit->id == 5);
+  CHECK(fit->fit.n.value == 1.85);
+  CHECK(std::isnan(fit->cj0_f.value));  // no off-state readings, no capacitance law
+  CHECK(to_json(*fit)["cj0_f"]["value"].is_null());
+  CHECK(fit->fit.covariance.empty());  // schema 1 kept no correlation: nothing to rebuild it from
   PointRow off;
   off.run_id = 1;
   off.seq = 3;
@@ -145,8 +154,8 @@ TEST_CASE("a reading is stored once per (run, seq) and counted in its job") {
   CHECK(s.ensure_lot("QX-7") == lot);
   const Id part = s.ensure_part(lot, "QX-7-01", 1);
   const Id job = s.insert_job(plan_json(), 3, 1000, 42);
-  const RunRow run = s.ensure_run(job, part, 1, Json::object(), 300.15);
-  CHECK(s.ensure_run(job, part, 1, Json::object(), 300.15).id == run.id);
+  const RunRecord run = s.ensure_run(job, part, 1, RunFixture{}, 300.15);
+  CHECK(s.ensure_run(job, part, 1, RunFixture{}, 300.15).id == run.id);
   PointRow p;
   p.run_id = run.id;
   p.seq = 0;
@@ -168,14 +177,14 @@ TEST_CASE("job state transitions stamp their times") {
   TempDir dir;
   Store s(dir.path / "junco.db");
   const Id job = s.insert_job(plan_json(), 1, 1000, 42);
-  CHECK(s.job(job)->state == "queued");
-  CHECK(s.transition_job(job, "queued", "running"));
-  CHECK_FALSE(s.transition_job(job, "queued", "running"));
+  CHECK(s.job(job)->state == JobState::queued);
+  CHECK(s.transition_job(job, JobState::queued, JobState::running));
+  CHECK_FALSE(s.transition_job(job, JobState::queued, JobState::running));
   CHECK(!s.job(job)->started_at.empty());
   CHECK(s.job(job)->finished_at.empty());
-  s.set_job_state(job, "paused", std::string("meter: timeout"));
+  s.set_job_state(job, JobState::paused, std::string("meter: timeout"));
   CHECK(s.job(job)->error == "meter: timeout");
-  s.set_job_state(job, "done");
+  s.set_job_state(job, JobState::done);
   CHECK(s.job(job)->error == "meter: timeout");  // unchanged when not given
   CHECK(!s.job(job)->finished_at.empty());
 }
@@ -188,7 +197,7 @@ TEST_CASE("readings committed by a process killed with SIGKILL survive") {
     Store s(db);
     const Id part = s.ensure_part(s.ensure_lot("QX-7"), "QX-7-01", 1);
     job_id = s.insert_job(plan_json(), 100000, 0, 0);
-    run_id = s.ensure_run(job_id, part, 1, Json::object(), 300.15).id;
+    run_id = s.ensure_run(job_id, part, 1, RunFixture{}, 300.15).id;
   }
   int fds[2];
   REQUIRE(::pipe(fds) == 0);
@@ -236,7 +245,7 @@ TEST_CASE("a damaged page is refused at open: PRAGMA quick_check, the file named
     Store s(db);
     const Id job = s.insert_job(plan_json(), 400, 1000, 42);
     const Id part = s.ensure_part(s.ensure_lot("QX-7"), "QX-7-01", 1);
-    const RunRow run = s.ensure_run(job, part, 1, Json::object(), 300.15);
+    const RunRecord run = s.ensure_run(job, part, 1, RunFixture{}, 300.15);
     std::vector<PointRow> step;
     for (long k = 0; k < 400; ++k) {
       PointRow p;
@@ -290,12 +299,12 @@ TEST_CASE("a job state the store could not write is held in memory and served un
   Store s(dir.path / "junco.db");
   const Id a = s.insert_job(plan_json(), 10, 1000, 42);
   const Id b = s.insert_job(plan_json(), 10, 1000, 43);
-  s.set_job_state(a, "running");
-  s.set_job_state(b, "running");
-  s.hold_job_state(a, "paused", "storage: attempt to write a readonly database");
+  s.set_job_state(a, JobState::running);
+  s.set_job_state(b, JobState::running);
+  s.hold_job_state(a, JobState::paused, "storage: attempt to write a readonly database");
   const auto held = s.job(a);
   REQUIRE(held);
-  CHECK(held->state == "paused");
+  CHECK(held->state == JobState::paused);
   CHECK(held->error == "storage: attempt to write a readonly database");
   CHECK_FALSE(held->persisted);
   const Json j = to_json(*held);
@@ -304,16 +313,16 @@ TEST_CASE("a job state the store could not write is held in memory and served un
   CHECK_FALSE(to_json(*s.job(b)).contains("persisted"));
   // The file still has the old state; the lists serve the held one.
   CHECK(count_rows(dir.path / "junco.db", "SELECT COUNT(*) FROM jobs WHERE state = 'running'") == 2);
-  const auto running = s.jobs(std::string("running"));
+  const auto running = s.jobs(JobState::running);
   REQUIRE(running.size() == 1);
   CHECK(running[0].id == b);
-  const auto paused = s.jobs(std::string("paused"));
+  const auto paused = s.jobs(JobState::paused);
   REQUIRE(paused.size() == 1);
   CHECK(paused[0].id == a);
   CHECK(s.jobs(std::nullopt).size() == 2);
   // A state written for that job replaces the held one.
-  s.set_job_state(a, "queued");
-  CHECK(s.job(a)->state == "queued");
+  s.set_job_state(a, JobState::queued);
+  CHECK(s.job(a)->state == JobState::queued);
   CHECK(s.job(a)->persisted);
 }
 
@@ -323,7 +332,7 @@ TEST_CASE("a run's end and its fit are one transaction: both or neither") {
   Store s(file);
   const Id part = s.ensure_part(s.ensure_lot("QX-7"), "QX-7-01", 1);
   const Id job = s.insert_job(plan_json(), 2, 1000, 42);
-  const RunRow run = s.ensure_run(job, part, 1, Json::object(), 300.15);
+  const RunRecord run = s.ensure_run(job, part, 1, RunFixture{}, 300.15);
   PointRow p;
   p.run_id = run.id;
   p.v = 0.61;
@@ -346,7 +355,7 @@ TEST_CASE("a run's end and its fit are one transaction: both or neither") {
     CHECK_THROWS_AS(s.finish_run_with_fit(part, run.id, fit), StoreError);
     CHECK(count_rows(file, "SELECT COUNT(*) FROM fits") == 0);
     CHECK(s.runs_of_job(job)[0].state == "running");
-    CHECK_FALSE(s.latest_fit(part).has_value());
+    CHECK_FALSE(s.latest_fit(part));
     REQUIRE(sqlite3_exec(db, "DROP TRIGGER refuse_run_end", nullptr, nullptr, nullptr) == SQLITE_OK);
     sqlite3_close(db);
   }
@@ -354,16 +363,16 @@ TEST_CASE("a run's end and its fit are one transaction: both or neither") {
   CHECK(s.runs_of_job(job)[0].state == "done");
   CHECK_FALSE(s.runs_of_job(job)[0].finished_at.empty());
   const auto stored = s.latest_fit(part);
-  REQUIRE(stored.has_value());
-  CHECK((*stored)["fit_id"] == fit_id);
-  CHECK((*stored)["status"] == "insufficient");
-  CHECK((*stored)["message"] == "2 usable points, 3 needed");
+  REQUIRE(stored);
+  CHECK(stored->id == fit_id);
+  CHECK(stored->fit.status == junco::fitting::FitStatus::insufficient);
+  CHECK(stored->fit.message == "2 usable points, 3 needed");
   CHECK(s.runs_without_fit(job, false).empty());
   CHECK(s.runs_without_fit(std::nullopt, true).empty());
 
   // A database written before: run done, fit missing. Found for recovery.
   const Id part2 = s.ensure_part(s.ensure_lot("QX-7"), "QX-7-02", 2);
-  const RunRow run2 = s.ensure_run(job, part2, 2, Json::object(), 300.15);
+  const RunRecord run2 = s.ensure_run(job, part2, 2, RunFixture{}, 300.15);
   s.finish_run(run2.id, "done");
   const auto orphans = s.runs_without_fit(std::nullopt, true);
   REQUIRE(orphans.size() == 1);
@@ -374,11 +383,174 @@ TEST_CASE("a job state set with an empty error clears the old message") {
   TempDir dir;
   Store s(dir.path / "junco.db");
   const Id job = s.insert_job(plan_json(), 1, 1000, 42);
-  s.set_job_state(job, "paused", "paused by request");
+  s.set_job_state(job, JobState::paused, "paused by request");
   CHECK(s.job(job)->error == "paused by request");
-  s.set_job_state(job, "queued");  // nullopt: kept
+  s.set_job_state(job, JobState::queued);  // nullopt: kept
   CHECK(s.job(job)->error == "paused by request");
-  s.set_job_state(job, "done", std::string());
+  s.set_job_state(job, JobState::done, std::string());
   CHECK(s.job(job)->error.empty());
   CHECK(to_json(*s.job(job))["error"].is_null());
+}
+
+TEST_CASE("a stored fit keeps its covariance; older rows rebuild it; damage is a StoreError naming the fit") {
+  TempDir dir;
+  const fs::path file = dir.path / "junco.db";
+  Store s(file);
+  const Id part = s.ensure_part(s.ensure_lot("WREN-0912"), "WR-01", 1);
+  const Id job = s.insert_job(plan_json(), 1, 1000, 42);
+  const RunRecord run = s.ensure_run(job, part, 1, RunFixture{}, 300.15);
+  // Readings from the Shockley law with series resistance (invented part
+  // values) with a small deterministic wiggle, so the fit has a residual and
+  // a covariance.
+  const junco::fitting::DiodeParams truth{2e-9, 1.8, 0.9};
+  std::vector<junco::fitting::IvPoint> iv;
+  for (int k = 0; k < 16; ++k) {
+    const double i = 1e-5 * std::pow(10.0, k * 3.0 / 15);
+    iv.push_back({junco::fitting::diode_voltage_v(truth, i, 300.15) * (1 + 2e-4 * ((k % 3) - 1)), i});
+  }
+  const auto fit = junco::fitting::fit_forward(iv);
+  REQUIRE(fit.usable());
+  REQUIRE(fit.covariance.size() == 3);
+  s.finish_run_with_fit(part, run.id, fit);
+
+  const auto stored = s.latest_fit(part);
+  REQUIRE(stored);
+  for (int a = 0; a < 3; ++a)
+    for (int b = 0; b < 3; ++b) CHECK(stored->fit.covariance[a][b] == fit.covariance[a][b]);  // stored as written (JSON doubles round-trip)
+
+  // A row as written before migration 0007: no covariance. It is rebuilt
+  // from the stored correlation and standard errors, cov = r·u·u (GUM C.3.6).
+  REQUIRE(count_rows(file, "SELECT COUNT(*) FROM fits WHERE covariance IS NOT NULL") == 1);
+  {
+    sqlite3* db = nullptr;
+    REQUIRE(sqlite3_open(file.c_str(), &db) == SQLITE_OK);
+    REQUIRE(sqlite3_exec(db, "UPDATE fits SET covariance = NULL", nullptr, nullptr, nullptr) == SQLITE_OK);
+    sqlite3_close(db);
+  }
+  Store again(file);  // a fresh cache
+  const auto old_row = again.latest_fit(part);
+  REQUIRE(old_row);
+  REQUIRE(old_row->fit.covariance.size() == 3);
+  for (int a = 0; a < 3; ++a)
+    for (int b = 0; b < 3; ++b) CHECK(old_row->fit.covariance[a][b] == Approx(fit.covariance[a][b]).epsilon(1e-12));
+
+  // Damage: a cut detail, a correlation of the wrong size, an unknown status.
+  for (const char* damage : {"UPDATE fits SET detail = '{\"parameter_names\": [\"is_a\"'",
+                             "UPDATE fits SET detail = '{\"parameter_names\": [\"is_a\", \"n\", \"rs_ohm\"], \"correlation\": [[1]]}'",
+                             "UPDATE fits SET status = 'splendid'"}) {
+    INFO(damage);
+    sqlite3* db = nullptr;
+    REQUIRE(sqlite3_open(file.c_str(), &db) == SQLITE_OK);
+    REQUIRE(sqlite3_exec(db, damage, nullptr, nullptr, nullptr) == SQLITE_OK);
+    sqlite3_close(db);
+    Store fresh(file);
+    try {
+      fresh.latest_fit(part);
+      FAIL("damage not noticed");
+    } catch (const StoreError& e) {
+      CHECK(std::string(e.what()).rfind("fit 1 of part " + std::to_string(part) + ": ", 0) == 0);
+    }
+  }
+}
+
+TEST_CASE("a stored plan and fixture read back typed; a damaged plan is a StoreError naming the job") {
+  TempDir dir;
+  const fs::path file = dir.path / "junco.db";
+  Store s(file);
+  Plan plan = plan_json();
+  plan.parts = {{1, "WR-01"}};
+  plan.temp_k = 310.0;
+  const Id job = s.insert_job(plan, 1, 1000, 42);
+  const auto back = s.job(job);
+  REQUIRE(back);
+  CHECK(back->plan.temp_k == 310.0);
+  CHECK(to_json(back->plan) == to_json(plan));  // the wire's job.plan is unchanged by the round trip
+  const Id part = s.ensure_part(s.ensure_lot("WREN-0912"), "WR-01", 1);
+  FixtureConfig fc;
+  fc.bias_resistor_ohm = 100;
+  fc.stray_c_f = 0.2e-12;
+  const RunRecord run = s.ensure_run(job, part, 1, run_fixture(fc), 300.15);
+  CHECK(s.runs_of_job(job)[0].fixture.stray_c_f == 0.2e-12);
+  CHECK(to_json(run.fixture) == Json{{"bias_resistor_ohm", 100.0}, {"dc_return_ohm", 0.0}, {"source_ohm", 50.0}, {"load_ohm", 50.0},
+                                     {"current_from", "source"}, {"stray_c_f", 0.2e-12}});
+  {
+    sqlite3* db = nullptr;
+    REQUIRE(sqlite3_open(file.c_str(), &db) == SQLITE_OK);
+    REQUIRE(sqlite3_exec(db, "UPDATE jobs SET plan = '{\"lot\": 7}'", nullptr, nullptr, nullptr) == SQLITE_OK);
+    sqlite3_close(db);
+  }
+  try {
+    s.job(job);
+    FAIL("damage not noticed");
+  } catch (const StoreError& e) {
+    CHECK(std::string(e.what()).rfind("job " + std::to_string(job) + ": stored plan damaged (plan.lot: ", 0) == 0);
+  }
+}
+
+// Migration order across the merge of the chamber (0004) with the heating
+// readings (0006) and fit covariance (0007): a file that already has 0006 and
+// 0007 but not 0004 (written by a juncod without the chamber) gets 0004 on
+// open, its runs rebuilt with every row, id and reading kept; a fresh file
+// gets all of them in version order. Common practice, no source.
+TEST_CASE("a store with 0006 and 0007 but without 0004 gets 0004 on open, keeping its rows; a fresh one gets all in order") {
+  TempDir dir;
+  const fs::path db = dir.path / "no-chamber.db";
+  {
+    sqlite3* h = nullptr;
+    REQUIRE(sqlite3_open(db.c_str(), &h) == SQLITE_OK);
+    std::vector<Migration> without_chamber;
+    for (const auto& m : embedded_migrations())
+      if (m.version != 4) without_chamber.push_back(m);
+    REQUIRE(without_chamber.size() + 1 == embedded_migrations().size());
+    REQUIRE(apply_migrations(h, without_chamber) == static_cast<int>(without_chamber.size()));
+    const char* rows =
+        "INSERT INTO lots VALUES (1, 'QX-7', '2026-01-01T00:00:00Z');"
+        "INSERT INTO parts VALUES (1, 1, 'QX-7-01', 1, '2026-01-01T00:00:00Z');"
+        "INSERT INTO jobs (id, plan, state, points_total, submitted_at, updated_at) VALUES (1, '{\"lot\":\"QX-7\"}', 'done', 3, 'x', 'x');"
+        "INSERT INTO runs VALUES (4, 1, 1, 1, '{}', 300.15, 'done', 'x', 'x');"
+        "INSERT INTO points (id, run_id, seq, kind, set_value, set_unit, v, i_a, t_s, flags, series, dwell_s)"
+        " VALUES (7, 4, 0, 'dc', 0.01, 'A', 0.69, 0.0101, 1.0, 0, 'dwell', 0.03);"
+        "INSERT INTO fits (id, part_id, run_id, model, status, is_a, n, rs_ohm, points_used, warnings, created_at, covariance)"
+        " VALUES (5, 1, 4, 'forward', 'converged', 2.5e-9, 1.85, 0.7, 1, '[]', 'x', NULL);";
+    char* err = nullptr;
+    const int rc = sqlite3_exec(h, rows, nullptr, nullptr, &err);
+    INFO((err ? err : ""));
+    REQUIRE(rc == SQLITE_OK);
+    // Without 0004 a second run of the same (job, part) is refused.
+    CHECK(sqlite3_exec(h, "INSERT INTO runs VALUES (5, 1, 1, 1, '{}', 300.15, 'done', 'x', 'x')", nullptr, nullptr, nullptr) ==
+          SQLITE_CONSTRAINT);
+    sqlite3_close(h);
+  }
+  {
+    Store s(db);
+    CHECK(count_rows(db, "SELECT COUNT(*) FROM schema_migrations") == static_cast<int>(embedded_migrations().size()));
+    CHECK(count_rows(db, "SELECT COUNT(*) FROM schema_migrations WHERE version = 4") == 1);
+    const auto runs = s.runs_of_job(1);
+    REQUIRE(runs.size() == 1);
+    CHECK(runs[0].id == 4);
+    CHECK(runs[0].temp_index == 0);
+    CHECK(std::isnan(runs[0].setpoint_k));
+    const auto points = s.points(4);
+    REQUIRE(points.size() == 1);
+    CHECK(points[0].series == "dwell");
+    CHECK(points[0].dwell_s == 0.03);
+    const auto fit = s.latest_fit(1);
+    REQUIRE(fit);
+    CHECK(fit->id == 5);
+    // The chamber's second temperature of the same (job, part) is a run of its own now.
+    const RunRecord hot = s.ensure_run(1, 1, 1, RunFixture{}, 358.15, 1, 358.15);
+    CHECK(hot.id != 4);
+    CHECK(hot.temp_index == 1);
+    CHECK(hot.setpoint_k == 358.15);
+    CHECK(s.runs_of_job(1).size() == 2);
+  }
+  const fs::path fresh = dir.path / "fresh.db";
+  Store s(fresh);
+  CHECK(s.schema_version() == embedded_migrations().back().version);
+  CHECK(count_rows(fresh, "SELECT COUNT(*) FROM schema_migrations") == static_cast<int>(embedded_migrations().size()));
+  // 0004's table, 0006's and 0007's columns are all there.
+  CHECK(count_rows(fresh, "SELECT COUNT(*) FROM temperature_fits") == 0);
+  CHECK(count_rows(fresh, "SELECT COUNT(*) FROM points WHERE series IS NOT NULL OR dwell_s IS NOT NULL") == 0);
+  CHECK(count_rows(fresh, "SELECT COUNT(*) FROM fits WHERE covariance IS NOT NULL") == 0);
+  CHECK(count_rows(fresh, "SELECT COUNT(*) FROM runs WHERE temp_index IS NOT NULL") == 0);
 }

@@ -1,6 +1,7 @@
 // junco export: offline exports from JSON model documents. One document
 // gives that part; several give the lot's nominal (median of each parameter;
 // see fitting/lot_stats.hpp) — and `stats` prints the lot statistics.
+#include "fitting/lot_nominal.hpp"
 #include "fitting/lot_stats.hpp"
 #include "fitting/model_document.hpp"
 #include "fitting/spice_card.hpp"
@@ -23,7 +24,8 @@ const char* const help =
     "FORMAT: spice  a .model NAME D(IS=.. N=.. RS=.. [CJO VJ M] TNOM=degC) card with a comment\n"
     "               header (part, lot, run, temperature, standard errors)\n"
     "        json   the model document again (normalised; schema/model/part-model.schema.json)\n"
-    "One MODEL gives that part. Several give the lot nominal: median IS (in log), N, RS.\n"
+    "One MODEL gives that part. Several give the lot nominal: median IS (in log), N, RS, and CJO, VJ, M\n"
+    "of the parts that have them.\n"
     "stats prints per lot mean, std dev, range, median, MAD of IS, N, RS, and Vf, rd at 1 mA and\n"
     "10 mA; outliers by modified z-score > 3.5 on median/MAD; matched sets by Vf.\n"
     "Without --out the result goes to stdout. Exit 0 ok, 2 bad input.\n";
@@ -86,7 +88,7 @@ int run(const std::vector<std::string>& args) {
     return exit_usage;
   }
   std::vector<LotPart> lot_parts;
-  for (const auto& p : parts) lot_parts.push_back({p.part_label, p.lot, p.params, p.temp_k});
+  for (const auto& p : parts) lot_parts.push_back(lot_part_from_model(p));
   std::string result;
   if (format == "stats") {
     for (const auto& s : lot_statistics(lot_parts, lot_opt)) {
@@ -113,13 +115,13 @@ int run(const std::vector<std::string>& args) {
   } else {
     PartModel chosen = parts.front();
     if (parts.size() > 1) {
-      const auto stats = lot_statistics(lot_parts, lot_opt);
-      chosen = PartModel{};
-      chosen.lot = stats.front().lot;
-      chosen.part_label = chosen.lot + "_NOM";
-      chosen.temp_k = parts.front().temp_k;
-      chosen.params = stats.front().nominal;
-      if (stats.size() > 1) std::fprintf(stderr, "junco export: warning: documents from several lots; nominal of all\n");
+      // The same nominal as juncod's lot.export (fitting/lot_nominal.hpp).
+      chosen = lot_nominal_model(parts.front().lot, lot_parts);
+      for (const auto& p : parts)
+        if (p.lot != parts.front().lot) {
+          std::fprintf(stderr, "junco export: warning: documents from several lots; nominal of all, named after %s\n", parts.front().lot.c_str());
+          break;
+        }
     }
     result = format == "spice" ? spice_model_card(chosen, name) : model_document_json(chosen);
   }

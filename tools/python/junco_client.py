@@ -34,13 +34,14 @@ import math
 import os
 import select
 import socket
+import stat
 import threading
 import time
 from typing import Any, Dict, Iterator, List, Optional
 
 __version__ = "0.1.0"  # kept equal to CMakeLists.txt project(VERSION) by tests/python/check_wrappers.py
 
-__all__ = ["Client", "RpcError", "default_socket_path", "__version__",
+__all__ = ["Client", "RpcError", "default_socket_path", "SERVICE_SOCKET", "__version__",
            "PARSE_ERROR", "INVALID_REQUEST", "METHOD_NOT_FOUND", "INVALID_PARAMS", "INTERNAL_ERROR",
            "NOT_FOUND", "PLAN_REFUSED", "WRONG_STATE", "STORAGE_ERROR", "UNAVAILABLE"]
 
@@ -73,17 +74,45 @@ class RpcError(Exception):
         self.id_null = id_null
 
 
+SERVICE_SOCKET = "/run/junco/juncod.sock"  # juncod as a system service (juncod.service)
+
+
 def default_socket_path():
-    """The same rule as junco and juncod (daemon/rpc_framing.hpp)."""
+    """The socket junco would use with no --socket (daemon/rpc_framing.hpp,
+    default_socket_path; the same order): $JUNCO_SOCKET; else, as root, the
+    service's /run/junco/juncod.sock; else the user's own daemon's socket,
+    $XDG_RUNTIME_DIR/junco/juncod.sock or
+    ${XDG_STATE_HOME:-$HOME/.local/state}/junco/juncod.sock, when one is
+    there; else the service's socket when it exists (or cannot be looked at:
+    connecting then says why); else the user's path, for the error message."""
     env = os.environ.get("JUNCO_SOCKET")
     if env:
         return env
     if os.geteuid() == 0:
-        return "/run/junco/juncod.sock"
+        return SERVICE_SOCKET
     if os.environ.get("XDG_RUNTIME_DIR"):
-        return os.path.join(os.environ["XDG_RUNTIME_DIR"], "junco", "juncod.sock")
-    state = os.environ.get("XDG_STATE_HOME") or os.path.join(os.environ.get("HOME", "/tmp"), ".local", "state")
-    return os.path.join(state, "junco", "juncod.sock")
+        own = os.path.join(os.environ["XDG_RUNTIME_DIR"], "junco", "juncod.sock")
+    elif os.environ.get("XDG_STATE_HOME"):
+        own = os.path.join(os.environ["XDG_STATE_HOME"], "junco", "juncod.sock")
+    else:
+        own = os.path.join(os.environ.get("HOME", "/tmp"), ".local", "state", "junco", "juncod.sock")
+    if _is_socket(own):
+        return own
+    try:
+        if stat.S_ISSOCK(os.stat(SERVICE_SOCKET).st_mode):
+            return SERVICE_SOCKET
+    except PermissionError:
+        return SERVICE_SOCKET  # a non-member of the service's group: connect() explains
+    except OSError:
+        pass
+    return own
+
+
+def _is_socket(path):
+    try:
+        return stat.S_ISSOCK(os.stat(path).st_mode)
+    except OSError:
+        return False
 
 
 def _error_of(msg):
@@ -731,7 +760,7 @@ class Client:
             plan (Dict[str, Any], required): the plan (docs/daemon-core.md)
 
         Returns the result object: points_per_part, temperatures, soak_s, points_total, parts,
-        min_duration_s, duration_s, peak, limits.
+        min_duration_s, duration_s, peak, pulse, limits.
         Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
         client's), ConnectionError when the connection is lost.
         """

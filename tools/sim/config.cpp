@@ -22,14 +22,14 @@ const std::map<std::string, std::vector<std::string>>& known_families() {
   return f;
 }
 
-namespace {
-
-using nlohmann::json;
-
 void check_role(const std::string& role) {
   if (std::find(all_roles.begin(), all_roles.end(), role) == all_roles.end())
     throw std::invalid_argument("unknown role '" + role + "' (source, meter, scanner, siggen, levelmeter, chamber)");
 }
+
+namespace {
+
+using nlohmann::json;
 
 double positive(const json& j, const std::string& key) {
   const double v = j.get<double>();
@@ -199,116 +199,27 @@ FaultSpec parse_fault_spec(const std::string& text) {
   return f;
 }
 
-ParsedArgs parse_args(int argc, const char* const* argv) {
-  ParsedArgs out;
-  SimConfig& cfg = out.config;
-  std::vector<std::string> args(argv + 1, argv + argc);
-  // The config file first, so the command line overrides it.
-  for (size_t i = 0; i + 1 < args.size(); ++i) {
-    if (args[i] == "--config") {
-      std::string text;
-      try {
-        text = junco::read_json_file(args[i + 1]);
-      } catch (const std::exception& e) {
-        throw std::invalid_argument(std::string("--config: ") + e.what());
-      }
-      apply_config_json(cfg, text);
-    }
-  }
-  auto value = [&](size_t& i) -> const std::string& {
-    if (i + 1 >= args.size()) throw std::invalid_argument(args[i] + " needs a value");
-    return args[++i];
-  };
-  auto number = [&](size_t& i) {
-    const std::string& opt = args[i];
-    const std::string& v = value(i);
-    try {
-      size_t pos = 0;
-      const double d = std::stod(v, &pos);
-      if (pos != v.size()) throw std::invalid_argument("");
-      return d;
-    } catch (const std::exception&) {
-      throw std::invalid_argument(opt + ": not a number: '" + v + "'");
-    }
-  };
-  for (size_t i = 0; i < args.size(); ++i) {
-    const std::string& a = args[i];
-    if (a == "--help" || a == "-h") out.help = true;
-    else if (a == "--config") value(i);
-    else if (a == "--seed") {
-      const double s = number(i);
-      if (s < 0) throw std::invalid_argument("--seed must be >= 0");
-      cfg.seed = static_cast<std::uint64_t>(s);
-    } else if (a == "--slots") {
-      const double s = number(i);
-      if (s < 1 || s > 256) throw std::invalid_argument("--slots must be 1..256");
-      cfg.slots = static_cast<int>(s);
-    } else if (a == "--settle-ms") {
-      const double ms = number(i);
-      if (ms < 0) throw std::invalid_argument("--settle-ms must be >= 0");
-      cfg.settle_s = ms / 1000.0;
-    } else if (a == "--family") {
-      const std::string& v = value(i);
-      const auto eq = v.find('=');
-      if (eq == std::string::npos) throw std::invalid_argument("--family wants ROLE=NAME, got '" + v + "'");
-      const std::string role = v.substr(0, eq), fam = v.substr(eq + 1);
-      check_role(role);
-      const auto& allowed = known_families().at(role);
-      if (std::find(allowed.begin(), allowed.end(), fam) == allowed.end())
-        throw std::invalid_argument("--family: '" + fam + "' is not a " + role + " family");
-      cfg.families[role] = fam;
-    } else if (a == "--serial") {
-      const std::string& role = value(i);
-      check_role(role);
-      cfg.serial_roles.insert(role);
-    } else if (a == "--fault") {
-      cfg.faults.push_back(parse_fault_spec(value(i)));
-    } else {
-      throw std::invalid_argument("unknown option '" + a + "' (try --help)");
-    }
-  }
+void apply_family(SimConfig& cfg, const std::string& role_eq_name) {
+  const auto eq = role_eq_name.find('=');
+  if (eq == std::string::npos) throw std::invalid_argument("--family wants ROLE=NAME, got '" + role_eq_name + "'");
+  const std::string role = role_eq_name.substr(0, eq), fam = role_eq_name.substr(eq + 1);
+  check_role(role);
+  const auto& allowed = known_families().at(role);
+  if (std::find(allowed.begin(), allowed.end(), fam) == allowed.end())
+    throw std::invalid_argument("--family: '" + fam + "' is not a " + role + " family");
+  cfg.families[role] = fam;
+}
+
+void check_families(const SimConfig& cfg) {
   for (const auto& [role, fam] : cfg.families) {
     const auto& allowed = known_families().at(role);
     if (std::find(allowed.begin(), allowed.end(), fam) == allowed.end())
       throw std::invalid_argument("family '" + fam + "' is not a " + role + " family");
   }
-  return out;
 }
 
-std::string help_text() {
-  return R"(junco-sim — a simulated diode-characterisation bench
-
-Usage:
-  junco-sim [--config FILE] [--seed N] [--slots N] [--family ROLE=NAME]...
-            [--serial ROLE]... [--settle-ms MS] [--fault ROLE:MODE[:ARG]]...
-
-Six instruments (roles source, meter, scanner, siggen, levelmeter, chamber), each on
-its own TCP port on 127.0.0.1 (ephemeral) or, with --serial ROLE, on a raw
-pseudo-terminal. When ready it prints ONE JSON line on stdout:
-  {"ready":true,"endpoints":{"source":"tcp:127.0.0.1:PORT",...,
-   "control":"tcp:127.0.0.1:PORT"},"families":{"source":"scpi-source",...}}
-Logs go to stderr. Runs until SIGINT/SIGTERM or the control command quit.
-
-Options:
-  --config FILE        JSON file with the keys below (command line wins)
-  --seed N             seed of the lot and of all noise (default 1)
-  --slots N            fixture slots, each holding one part (default 8)
-  --family ROLE=NAME   command family per role (defaults first):
-                         source     scpi-source | psu-compact
-                         meter      scpi-dmm | dmm-prefixed
-                         scanner    scpi-switch | relay-bank
-                         siggen     scpi-gen | gen-channel
-                         levelmeter scpi-acv | scope-meas
-                         chamber    scpi-chamber
-  --serial ROLE        put ROLE on a pseudo-terminal (serial:/dev/pts/N)
-  --settle-ms MS       time constant of every reading after a change
-                       (first order, wall clock; default 2, 0 = instant)
-  --fault ROLE:MODE[:ARG]  inject a fault at start (modes as below;
-                       error takes CODE:TEXT, e.g. source:error:-310:System error)
-  --version            print the version and exit
-  --help               this text
-
-Config keys (JSON object; SI units; defaults in brackets):
+std::string help_reference() {
+  return R"(Config keys (JSON object; SI units; defaults in brackets):
   seed [1], slots [8], settle_s [0.002], ambient_k [300.15] (also TNOM),
   error_queue_depth [16]
   thermal.theta_k_per_w [400]   junction-to-ambient thermal resistance

@@ -1,6 +1,6 @@
 // junco-sim configuration: built-in defaults, the JSON config file
-// (--config) and the command line. The full list with units is in
-// help_text() (printed by --help) and docs/sim.md.
+// (--config) and the command line (tools/sim/main.cpp). The full list with
+// units is in help_reference() (printed by --help) and docs/sim.md.
 #pragma once
 
 #include "tools/sim/fixture.hpp"
@@ -76,14 +76,15 @@ const std::map<std::string, std::vector<std::string>>& known_families();
 // naming the key on a bad value or unknown key.
 void apply_config_json(SimConfig& cfg, const std::string& json_text);
 
-struct ParsedArgs {
-  SimConfig config;
-  bool help = false;
-};
-// Throws std::invalid_argument with a one-line message on bad input.
-ParsedArgs parse_args(int argc, const char* const* argv);
+// Command-line pieces (the options themselves are defined in main.cpp with
+// CLI11); each throws std::invalid_argument with a one-line message.
+void check_role(const std::string& role);  // one of all_roles
+void apply_family(SimConfig& cfg, const std::string& role_eq_name);  // --family ROLE=NAME
+void check_families(const SimConfig& cfg);  // after the config file and --family
 FaultSpec parse_fault_spec(const std::string& text);  // ROLE:MODE[:ARG]
 
-std::string help_text();
+// The config keys, the physics and the control endpoint: the reference
+// part of --help, printed after the generated option list.
+std::string help_reference();
 
 }  // namespace junco::sim
