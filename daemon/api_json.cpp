@@ -46,7 +46,8 @@ Json to_json(const RunFixture& f) {
 Json to_json(const RunRecord& r) {
   return Json{{"run_id", r.id}, {"job_id", r.job_id}, {"part_id", r.part_id}, {"slot", r.slot}, {"fixture", to_json(r.fixture)},
               {"temp_k", nullable(r.temp_k)}, {"state", r.state}, {"started_at", r.started_at},
-              {"finished_at", text_or_null(r.finished_at)}};
+              {"finished_at", text_or_null(r.finished_at)}, {"temp_index", r.temp_index},
+              {"setpoint_k", nullable(r.setpoint_k)}, {"ambient_k", nullable(r.ambient_k)}, {"ambient_end_k", nullable(r.ambient_end_k)}};
 }
 
 Json to_json(const PointRow& p) {
@@ -97,7 +98,8 @@ Json to_json(const FitRecord& f) {
               {"cj0_f", to_json(f.cj0_f)},
               {"vj_v", to_json(f.vj_v)},
               {"m", to_json(f.m)},
-              {"tt_s", to_json(f.tt_s)}};
+              {"tt_s", to_json(f.tt_s)},
+              {"temperature_law", f.temperature_law}};
 }
 
 }  // namespace junco::daemon

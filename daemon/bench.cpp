@@ -71,6 +71,12 @@ std::string Bench::make_safe() noexcept {
   return errors;
 }
 
+std::string Bench::park_chamber(double idle_k) noexcept {
+  std::string errors;
+  if (chamber) attempt(errors, log, "chamber to its idle set point", [&] { chamber->set_temperature_k(idle_k); });
+  return errors;
+}
+
 std::string Bench::clear_errors(const std::string& when, Roles roles) noexcept {
   std::string errors;
   auto one = [&](const char* role, drivers::Instrument* inst) {
@@ -98,6 +104,7 @@ std::string Bench::clear_errors(const std::string& when, Roles roles) noexcept {
   if (roles != Roles::make_safe) {
     one("meter", meter.get());
     one("levelmeter", levelmeter.get());
+    one("chamber", chamber.get());
   }
   return errors;
 }
@@ -140,6 +147,7 @@ std::unique_ptr<Bench> open_bench(const Config& config, const Log& traffic) {
   open_role(config, traffic, "scanner", drivers::open_scanner, b->scanner, *b);
   open_role(config, traffic, "siggen", drivers::open_signal_gen, b->siggen, *b);
   open_role(config, traffic, "levelmeter", drivers::open_level_meter, b->levelmeter, *b);
+  open_role(config, traffic, "chamber", drivers::open_chamber, b->chamber, *b);
   return b;
 }
 

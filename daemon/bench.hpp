@@ -29,6 +29,7 @@ struct Bench {
   std::unique_ptr<drivers::Scanner> scanner;
   std::unique_ptr<drivers::SignalGen> siggen;         // may be null
   std::unique_ptr<drivers::LevelMeter> levelmeter;    // may be null
+  std::unique_ptr<drivers::Chamber> chamber;          // may be null
   // Instruments of the config that could not be opened ("scanner: why");
   // a bench with any is incomplete: it can be made safe, never run a job.
   std::vector<std::string> missing;
@@ -45,6 +46,14 @@ struct Bench {
   // when an earlier one fails, each up to kMakeSafeAttempts times (retries
   // logged); returns "" or the failures joined by "; ".
   std::string make_safe() noexcept;
+  // The chamber's safe state: its set point back to safety.chamber_idle_k
+  // (a controlled return toward room temperature; never switched off, which
+  // would leave a cold chamber to warm uncontrolled and wet the parts).
+  // Called whenever no job runs: at a job's end however it ends (done,
+  // cancelled, paused, failed, shutdown), when juncod stops, and by the
+  // supervisor after a worker died. Not part of make_safe(), which runs
+  // between parts in the middle of a soaked temperature. "" or the failure.
+  std::string park_chamber(double idle_k) noexcept;
   // Empties every instrument's error queue (Instrument::clear_errors) so an
   // error someone else left there is not blamed on our next command. What
   // was found is logged as a warning naming `when`; returns the failures

@@ -88,7 +88,7 @@ class Checker {
   std::string file_;
 };
 
-const char* const kRoles[] = {"source", "meter", "scanner", "siggen", "levelmeter"};
+const char* const kRoles[] = {"source", "meter", "scanner", "siggen", "levelmeter", "chamber"};
 const char* const kRequiredRoles[] = {"source", "meter", "scanner"};
 
 fs::path resolve(const fs::path& p, const fs::path& dir) { return p.is_absolute() ? p : (dir / p).lexically_normal(); }
@@ -155,7 +155,8 @@ fitting::AccuracyModel parse_accuracy(const Checker& c, const Json& obj) {
 
 SafetyLimits parse_safety(const Checker& c, const Json& obj) {
   const std::string p = "/safety";
-  c.only_keys(obj, p, {"max_supply_v", "current_limit_a", "max_power_w", "max_reverse_v", "max_job_s"});
+  c.only_keys(obj, p, {"max_supply_v", "current_limit_a", "max_power_w", "max_reverse_v", "max_job_s", "chamber_min_k", "chamber_max_k",
+                       "max_soak_s", "chamber_idle_k", "chamber_max_rate_k_per_min"});
   // Every limit is required: a bench without stated limits is not safe to run.
   SafetyLimits s;
   s.max_supply_v = c.number(obj, "max_supply_v", p, 0, true, 0, false);
@@ -163,6 +164,24 @@ SafetyLimits parse_safety(const Checker& c, const Json& obj) {
   s.max_power_w = c.number(obj, "max_power_w", p, 0, true, 0, false);
   s.max_reverse_v = c.number(obj, "max_reverse_v", p, 0, true, 0, true);
   s.max_job_s = c.number(obj, "max_job_s", p, 0, true, 0, false);
+  // Chamber limits: required only with a chamber (checked with the bench, parse_config_impl).
+  s.chamber_min_k = c.number(obj, "chamber_min_k", p, 0, false, 0, false);
+  s.chamber_max_k = c.number(obj, "chamber_max_k", p, 0, false, 0, false);
+  s.max_soak_s = c.number(obj, "max_soak_s", p, 0, false, 0, false);
+  s.chamber_idle_k = c.number(obj, "chamber_idle_k", p, s.chamber_idle_k, false, 0, false);
+  s.chamber_max_rate_k_per_min = c.number(obj, "chamber_max_rate_k_per_min", p, 0, false, 0, true);
+  if (obj.contains("chamber_min_k") && obj.contains("chamber_max_k") && !(s.chamber_min_k < s.chamber_max_k)) {
+    std::ostringstream os;
+    os << "must be above chamber_min_k = " << s.chamber_min_k << " K, got " << s.chamber_max_k << " K";
+    c.fail(p + "/chamber_max_k", os.str());
+  }
+  if (obj.contains("chamber_min_k") && obj.contains("chamber_max_k") &&
+      (s.chamber_idle_k < s.chamber_min_k || s.chamber_idle_k > s.chamber_max_k)) {
+    std::ostringstream os;
+    os << "must be within chamber_min_k..chamber_max_k = " << s.chamber_min_k << ".." << s.chamber_max_k << " K, got "
+       << s.chamber_idle_k << " K";
+    c.fail(p + "/chamber_idle_k", os.str());
+  }
   if (s.max_reverse_v > s.max_supply_v) {
     std::ostringstream os;
     os << "must not exceed max_supply_v = " << s.max_supply_v << " V, got " << s.max_reverse_v << " V";
@@ -298,7 +317,7 @@ Config parse_config_impl(const std::string& text, const fs::path& file, std::vec
         const std::string p = "/bench/" + role;
         bool known = false;
         for (const char* r : kRoles) known = known || role == r;
-        if (!known) c.fail(p, "unknown role (expected source, meter, scanner, siggen or levelmeter)");
+        if (!known) c.fail(p, "unknown role (expected source, meter, scanner, siggen, levelmeter or chamber)");
         if (!obj.is_object()) c.fail(p, std::string("must be an object, not ") + obj.type_name());
         cfg.bench[role] = parse_instrument(c, obj, role, p, dir);
       });
@@ -314,6 +333,14 @@ Config parse_config_impl(const std::string& text, const fs::path& file, std::vec
   section(problems, [&] {
     if (!doc.contains("safety")) c.fail("/safety", "missing (required)");
     cfg.safety = parse_safety(c, c.object(doc, "safety", "/safety"));
+  });
+  // A chamber needs its limits: a bench that can heat or cool parts without
+  // stated bounds is not safe to run.
+  section(problems, [&] {
+    if (!cfg.bench.count("chamber") || !doc.contains("safety") || !doc["safety"].is_object()) return;
+    for (const char* key : {"chamber_min_k", "chamber_max_k", "max_soak_s"})
+      if (!doc["safety"].contains(key))
+        section(problems, [&] { c.fail(std::string("/safety/") + key, "missing (required with a chamber in /bench)"); });
   });
   section(problems, [&] {
     if (doc.contains("limits")) cfg.limits = parse_limits(c, c.object(doc, "limits", "/limits"));

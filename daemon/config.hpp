@@ -32,7 +32,7 @@ class ConfigError : public std::runtime_error {
 };
 
 // One instrument of the bench. Roles: source, meter, scanner, siggen,
-// levelmeter (source, meter and scanner are required).
+// levelmeter, chamber (source, meter and scanner are required).
 struct InstrumentConfig {
   std::string role;
   std::string address;                // drivers/transport.hpp syntax
@@ -68,6 +68,16 @@ struct SafetyLimits {
   double max_power_w = 0.25;      // dissipation allowed in the part
   double max_reverse_v = 5.0;     // highest reverse bias on the part
   double max_job_s = 86400.0;     // a job running longer is stopped (outputs off, failed)
+  // The temperature chamber (bench.chamber; required there, ignored without
+  // one): set points allowed, the longest wait for one soak, the chamber's
+  // set point whenever no job runs (make-safe), and an optional ramp-rate
+  // limit programmed before every set point (0 = none; the dialect must
+  // then offer set_rate). docs/daemon-core.md, "Temperature chamber".
+  double chamber_min_k = 0.0;
+  double chamber_max_k = 0.0;
+  double max_soak_s = 0.0;
+  double chamber_idle_k = 298.15;
+  double chamber_max_rate_k_per_min = 0.0;
 };
 
 // Resource limits on what one job may ask of the daemon (docs/daemon-core.md).

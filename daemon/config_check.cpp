@@ -25,6 +25,7 @@ drivers::Role role_of(const std::string& role) {
   if (role == "meter") return drivers::Role::meter;
   if (role == "scanner") return drivers::Role::scanner;
   if (role == "siggen") return drivers::Role::siggen;
+  if (role == "chamber") return drivers::Role::chamber;
   return drivers::Role::levelmeter;
 }
 
@@ -45,6 +46,9 @@ void check_instruments(const Config& c, ConfigCheck& out) {
       if (role == "meter" && c.fixture.current_from == CurrentFrom::meter && !d.find("measure_dc_current"))
         out.problems.push_back(where + "/dialect: " + ic.dialect_path.string() +
                                " has no measure_dc_current, but fixture.current_from is \"meter\"");
+      if (role == "chamber" && c.safety.chamber_max_rate_k_per_min > 0 && !d.find("set_rate"))
+        out.problems.push_back(where + "/dialect: " + ic.dialect_path.string() +
+                               " has no set_rate, but safety.chamber_max_rate_k_per_min is set (the limit could not be programmed)");
     } catch (const drivers::DriverError& e) {
       out.problems.push_back(where + "/dialect: " + e.what());
     }
@@ -101,6 +105,17 @@ void check_limits(const Config& c, ConfigCheck& out) {
   if (s.max_power_w > 5.0) out.warnings.push_back(file + ": /safety/max_power_w: " + std::to_string(s.max_power_w) + " W is more than a small diode survives; the unit is watts");
   if (s.max_supply_v > 60.0) out.warnings.push_back(file + ": /safety/max_supply_v: above 60 V the fixture is no longer extra-low voltage; follow your lab's rules for hazardous voltages");
   if (s.max_job_s < 60.0) out.warnings.push_back(file + ": /safety/max_job_s: " + std::to_string(s.max_job_s) + " s stops almost any job; the unit is seconds");
+  if (c.bench.count("chamber")) {
+    // Kelvin typed as Celsius gives set points near 0 K; a chamber past
+    // −100…+200 °C is beyond what small-signal parts are rated for (common
+    // practice, no source).
+    if (s.chamber_min_k > 0 && s.chamber_min_k < 173.15)
+      out.warnings.push_back(file + ": /safety/chamber_min_k: " + std::to_string(s.chamber_min_k) + " K is below −100 °C; the unit is kelvin (253.15 = −20 °C)");
+    if (s.chamber_max_k > 473.15)
+      out.warnings.push_back(file + ": /safety/chamber_max_k: " + std::to_string(s.chamber_max_k) + " K is above +200 °C; the unit is kelvin (358.15 = 85 °C)");
+    if (s.max_soak_s > 0 && s.max_soak_s < 60)
+      out.warnings.push_back(file + ": /safety/max_soak_s: " + std::to_string(s.max_soak_s) + " s is short for a chamber to settle; the unit is seconds");
+  }
   if (s.current_limit_a * s.max_supply_v < s.max_power_w)
     out.warnings.push_back(file + ": /safety/max_power_w: never reached (current_limit_a × max_supply_v is lower)");
 }

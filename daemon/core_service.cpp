@@ -178,6 +178,7 @@ class CoreService final : public Service {
       limits.push_back({{"limit", l.limit}, {"limit_value", l.limit_value}, {"plan_value", l.plan_value}, {"unit", l.unit},
                         {"binds", l.binds}, {"note", l.note}});
     Json out{{"points_per_part", e.points_per_part}, {"points_total", e.points_total}, {"parts", plan.parts.size()},
+             {"temperatures", e.temperatures}, {"soak_s", e.soak_s},
              {"min_duration_s", e.min_duration_s}, {"duration_s", e.duration_s},
              {"peak", {{"supply_v", e.peak_supply_v}, {"current_a", e.peak_current_a}, {"power_w", e.peak_power_w}, {"reverse_v", e.peak_reverse_v}}},
              {"limits", limits}};
@@ -235,7 +236,17 @@ class CoreService final : public Service {
   std::shared_ptr<const FitRecord> usable_fit(const PartRow& part, const char* purpose) {
     auto fit = store_.latest_fit(part.id);
     if (!fit || !fit->fit.usable()) throw NotFound("part " + std::to_string(part.id) + " has no usable fit " + purpose, "part_id", part.id);
-    return fit;
+    return with_temperature_law(std::move(fit), part.id);
+  }
+
+  // part.fit's sibling field: the part's latest temperature law (EG, XTI,
+  // TRS1 from a multi-temperature job), null when it has none.
+  std::shared_ptr<const FitRecord> with_temperature_law(std::shared_ptr<const FitRecord> fit, Id part_id) {
+    const auto law = store_.latest_temperature_fit(part_id);
+    if (!law) return fit;
+    auto out = std::make_shared<FitRecord>(*fit);
+    out->temperature_law = *law;
+    return out;
   }
 
   static std::vector<double> positive_list(const Json& params, const char* key) {
@@ -375,7 +386,7 @@ class CoreService final : public Service {
     part_or_throw(part_id);
     auto fit = store_.latest_fit(part_id);
     if (!fit) throw NotFound("part " + std::to_string(part_id) + " has no fit yet", "part_id", part_id);
-    return fit;
+    return with_temperature_law(std::move(fit), part_id);
   }
 
   Json fit_of(const Json& params, const Caller&) { return to_json(*latest_fit(id_param(params, "part_id"))); }

@@ -11,8 +11,11 @@
 #include "fitting/electrothermal_fit.hpp"
 #include "fitting/extract.hpp"
 
+#include <algorithm>
 #include <chrono>
 #include <cmath>
+#include <limits>
+#include <optional>
 #include <cstdio>
 #include <cstdlib>
 #include <set>
@@ -24,6 +27,8 @@ namespace junco::daemon {
 namespace {
 
 using Clock = std::chrono::steady_clock;
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 // Current-targeted steps: corrections of the supply voltage per step, and
 // the tolerance that ends them (common practice, no source).
@@ -254,12 +259,33 @@ class JobRun {
         deadline_(started_ + std::chrono::duration_cast<Clock::duration>(
                                  std::chrono::duration<double>(c.safety.max_job_s - s.seconds_since_first_start(id)))) {}
 
+  // Without a chamber: every part once, at the plan's temp_k. With
+  // plan.temps_k: for each set point in order, soak, then every part; a
+  // temperature whose runs are all done (before a restart) is not soaked
+  // again. After the last one, each part's temperature law.
   void run_all_parts() {
-    for (const auto& part : plan_.parts) run_part(part);
+    if (plan_.temps_k.empty()) {
+      for (const auto& part : plan_.parts) run_part(part, 0, kNaN);
+      return;
+    }
+    for (std::size_t k = 0; k < plan_.temps_k.size(); ++k) {
+      if (temperature_done(static_cast<int>(k))) continue;
+      soak(plan_.temps_k[k]);
+      for (const auto& part : plan_.parts) run_part(part, static_cast<int>(k), plan_.temps_k[k]);
+    }
+    fit_temperature_laws();
   }
 
  private:
-  void run_part(const PartSpec& part) {
+  bool temperature_done(int temp_index) {
+    const auto runs = store_.runs_of_job(job_id_);
+    int done = 0;
+    for (const auto& r : runs) done += r.temp_index == temp_index && r.state == "done";
+    return done >= static_cast<int>(plan_.parts.size());
+  }
+
+  // temp_index / setpoint_k: which of plan.temps_k (NaN set point: no chamber).
+  void run_part(const PartSpec& part, int temp_index, double setpoint_k) {
     const Id lot_id = store_.ensure_lot(plan_.lot);
     const Id part_id = store_.ensure_part(lot_id, part.label, part.slot);
     RunFixture fixture = run_fixture(cfg_.fixture);
@@ -268,7 +294,8 @@ class JobRun {
     // ac_unit says what the meter measured.
     if (plan_.ac && bench_.siggen && bench_.levelmeter)
       fixture.ac_units = AcUnits{drivers::to_string(plan_.ac->unit), bench_.siggen->amplitude_units(), bench_.levelmeter->level_units()};
-    const RunRecord run = store_.ensure_run(job_id_, part_id, part.slot, fixture, plan_.temp_k);
+    const bool chamber = std::isfinite(setpoint_k);
+    const RunRecord run = store_.ensure_run(job_id_, part_id, part.slot, fixture, chamber ? setpoint_k : plan_.temp_k, temp_index, setpoint_k);
     part_label_ = part.label;
     part_id_ = part_id;
     run_id_ = run.id;
@@ -276,15 +303,97 @@ class JobRun {
       // A run marked done by an older juncod may lack its fit (it was stored
       // after the run's end, in a separate transaction): fit it now.
       for (const auto& orphan : store_.runs_without_fit(job_id_, true))
-        if (orphan.id == run.id) fit_and_finish(part_id, run.id, fixture);
+        if (orphan.id == run.id) fit_and_finish(part_id, run.id, fixture, std::isfinite(run.temp_k) ? run.temp_k : plan_.temp_k);
       return;
     }
     const auto last = store_.last_seq(run.id);
     const std::size_t first = last ? static_cast<std::size_t>(*last + 1) : 0;
     stopped_high_ = store_.run_has_flag(run.id, kLimitFlags);
+    // With a chamber the run's ambient is what the chamber reads around the
+    // part's readings (their mean is the fit's temperature), logged with the run.
+    double temp_k = plan_.temp_k;
+    const double before_k = chamber ? read_chamber_k() : kNaN;
     if (first < steps_.size()) measure(part.slot, first);
+    if (chamber) {
+      const double after_k = read_chamber_k();
+      temp_k = 0.5 * (before_k + after_k);
+      store_.set_run_ambient(run.id, before_k, after_k, temp_k);
+      char line[200];
+      std::snprintf(line, sizeof line, ": ambient %.3f K before, %.3f K after its readings (set point %.2f K)", before_k, after_k, setpoint_k);
+      log_("job " + std::to_string(job_id_) + " part " + part_label_ + line);
+    }
     fault_point("before_run_end", log_);
-    fit_and_finish(part_id, run.id, fixture);
+    fit_and_finish(part_id, run.id, fixture, temp_k);
+  }
+
+  double read_chamber_k() {
+    double t = kNaN;
+    guarded([&] { t = bench_.chamber->measure_temperature_k(); });
+    return t;
+  }
+
+  // The chamber to set_k, then wait until its readback has stayed within
+  // plan.soak.tolerance_k for plan.soak.hold_s without a break. Polled every
+  // hold_s/10 (50 ms…1 s); pause, cancel, shutdown and max_job_s act as
+  // anywhere else; a chamber not settled within safety.max_soak_s is a
+  // fault (the job pauses, the chamber goes to its idle set point).
+  void soak(double set_k) {
+    part_label_ = "(chamber soak)";
+    const auto& lim = cfg_.safety;
+    if (lim.chamber_max_rate_k_per_min > 0) guarded([&] { bench_.chamber->set_rate_k_per_min(lim.chamber_max_rate_k_per_min); });
+    guarded([&] { bench_.chamber->set_temperature_k(set_k); });
+    const double tol = plan_.soak.tolerance_k, hold = plan_.soak.hold_s;
+    char line[200];
+    std::snprintf(line, sizeof line, ": chamber to %.2f K (%.2f °C); soaking until within ±%g K for %g s", set_k, set_k - 273.15, tol, hold);
+    log_("job " + std::to_string(job_id_) + line);
+    const auto start = Clock::now();
+    const auto give_up = start + std::chrono::duration_cast<Clock::duration>(std::chrono::duration<double>(lim.max_soak_s));
+    const double poll_s = std::clamp(hold / 10.0, 0.05, 1.0);
+    std::optional<Clock::time_point> inside_since;
+    for (;;) {
+      poll();
+      const double t = read_chamber_k();
+      const auto now = Clock::now();
+      if (std::fabs(t - set_k) <= tol) {
+        if (!inside_since) inside_since = now;
+        if (std::chrono::duration<double>(now - *inside_since).count() >= hold) {
+          std::snprintf(line, sizeof line, ": chamber soaked at %.3f K (set point %.2f K) after %.1f s", t, set_k,
+                        std::chrono::duration<double>(now - start).count());
+          log_("job " + std::to_string(job_id_) + line);
+          return;
+        }
+      } else {
+        inside_since.reset();
+      }
+      if (now > give_up) {
+        std::ostringstream os;
+        os << "chamber did not settle at " << set_k << " K ± " << tol << " K for " << hold << " s within safety limit max_soak_s = " << lim.max_soak_s
+           << " s (last readback " << t << " K)";
+        throw JobStop{JobStop::Why::fault, os.str()};
+      }
+      wait(poll_s);
+    }
+  }
+
+  // Each part's EG, XTI (TRS1) from this job's runs at every temperature
+  // (fitting/temperature_fit.hpp), stored with the part; logged, never fatal.
+  void fit_temperature_laws() {
+    for (const auto& part : plan_.parts) {
+      const Id part_id = store_.ensure_part(store_.ensure_lot(plan_.lot), part.label, part.slot);
+      const Json law = temperature_law_of_runs(store_.fits_of_job_part(job_id_, part_id), fitting::TemperatureLaw{});
+      store_.insert_temperature_fit(part_id, job_id_, law);
+      std::string line = "job " + std::to_string(job_id_) + " part " + part.label + ": temperature law " + law.value("status", "");
+      if (law.value("status", "") == "ok") {
+        char buf[200];
+        std::snprintf(buf, sizeof buf, ": EG %.4f ± %.4f eV, XTI %.3g%s, from %zu temperatures", law["eg_ev"]["value"].get<double>(),
+                      law["eg_ev"]["std_error"].get<double>(), law["xti"]["value"].get<double>(),
+                      law["xti"]["held"].get<bool>() ? " (held)" : "", law["temperatures"].size());
+        line += buf;
+      } else {
+        line += " (" + law.value("message", std::string()) + ")";
+      }
+      log_(line);
+    }
   }
 
   void measure(int slot, std::size_t first) {
@@ -627,8 +736,8 @@ class JobRun {
   // a kill leaves the run either done with its fit or not done, and a run
   // not done is fitted when the resumed job reaches it. A failed fit is
   // stored with its reason; a StoreError goes up (the job pauses).
-  void fit_and_finish(Id part_id, Id run_id, const RunFixture& fixture) {
-    const RunFit f = fit_run(cfg_, plan_.temp_k, fixture, store_.points(run_id));
+  void fit_and_finish(Id part_id, Id run_id, const RunFixture& fixture, double temp_k) {
+    const RunFit f = fit_run(cfg_, temp_k, fixture, store_.points(run_id));
     store_.finish_run_with_fit(part_id, run_id, f.fit, f.cap ? &*f.cap : nullptr, f.cap ? f.cap_readings : Json(), f.more_detail);
     log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " + describe_fit(f));
   }
@@ -679,6 +788,9 @@ SafeStart make_bench_safe_first(const Config& config, const BenchOpener& open, c
   // clear is not fatal here (make_safe() reports the instrument's state).
   const std::string clear_first = out.bench->clear_errors("at bench open", Bench::Roles::make_safe);
   out.errors = out.bench->make_safe();
+  // No job runs yet: the chamber goes to its idle set point (bench.hpp park_chamber).
+  if (const std::string parked = out.bench->park_chamber(config.safety.chamber_idle_k); !parked.empty())
+    out.errors += (out.errors.empty() ? "" : "; ") + parked;
   const std::string clear_then = out.bench->clear_errors("at bench open", Bench::Roles::others);
   if (!clear_first.empty() || !clear_then.empty())
     log.warn("bench: could not clear every error queue at open: " + clear_first + (clear_first.empty() || clear_then.empty() ? "" : "; ") + clear_then);
@@ -715,7 +827,7 @@ void Executor::stop() {
   queue_.stop();
   if (thread_.joinable()) thread_.join();
   if (!bench_) return;
-  const std::string errors = bench_->make_safe();
+  const std::string errors = make_safe_and_park();
   note_safety(errors);
   if (!errors.empty()) log_.error("bench: could not make every instrument safe at shutdown: " + errors);
 }
@@ -793,6 +905,13 @@ void Executor::note_safety(const std::string& errors) {
 
 // One make-safe attempt while no job runs (the bench is not known safe):
 // every instrument is tried (Bench::make_safe), the outcome logged once per change.
+std::string Executor::make_safe_and_park() {
+  std::string errors = bench_->make_safe();
+  if (const std::string parked = bench_->park_chamber(config_.safety.chamber_idle_k); !parked.empty())
+    errors += (errors.empty() ? "" : "; ") + parked;
+  return errors;
+}
+
 void Executor::retry_make_safe() {
   if (!ensure_bench()) return;  // "cannot open" logged once by ensure_bench
   const std::string errors = bench_->make_safe();
@@ -837,6 +956,7 @@ void Executor::identify() {
   one("scanner", bench_->scanner.get());
   one("siggen", bench_->siggen.get());
   one("levelmeter", bench_->levelmeter.get());
+  one("chamber", bench_->chamber.get());
 }
 
 void Executor::note_identity(const std::string& role, const drivers::Identity& id) {
@@ -920,6 +1040,8 @@ Json role_readings(const std::string& role, Bench& b) {
       r["unit"] = drivers::to_string(l.unit);
     });
     out.push_back({{"name", "reads"}, {"text", b.levelmeter->level_units()}});
+  } else if (role == "chamber" && b.chamber) {
+    reading("temperature readback", "K", [&](Json& r) { r["value"] = b.chamber->measure_temperature_k(); });
   }
   return out;
 }
@@ -1027,6 +1149,7 @@ Json Executor::run_check() {
                                     : role == "meter"   ? static_cast<drivers::Instrument*>(b->meter.get())
                                     : role == "scanner" ? static_cast<drivers::Instrument*>(b->scanner.get())
                                     : role == "siggen"  ? static_cast<drivers::Instrument*>(b->siggen.get())
+                                    : role == "chamber" ? static_cast<drivers::Instrument*>(b->chamber.get())
                                                         : static_cast<drivers::Instrument*>(b->levelmeter.get());
         if (inst) {
           const drivers::Identity id = inst->identify();  // asked at open; not asked again
@@ -1110,7 +1233,7 @@ void Executor::loop() {
       run_job(*id);
     } catch (const std::exception& e) {
       // A bug: never leave the bench live.
-      if (bench_) note_safety(bench_->make_safe());
+      if (bench_) note_safety(make_safe_and_park());
       log_.error("job " + std::to_string(*id) + ": failed: " + e.what());
       stop_job(*id, JobState::failed, e.what());
     }
@@ -1130,7 +1253,7 @@ void Executor::run_job(Id id) {
     if (const std::string errors = bench_->clear_errors("before job " + std::to_string(id)); !errors.empty())
       throw JobStop{JobStop::Why::fault, "clearing the instruments' error queues: " + errors};
     run.run_all_parts();
-    const std::string errors = bench_->make_safe();
+    const std::string errors = make_safe_and_park();
     note_safety(errors);
     // Done means every part has its fit (a failed one with its reason); by
     // construction it has, checked here so a lapse can never pass as done.
@@ -1147,7 +1270,7 @@ void Executor::run_job(Id id) {
     if (errors.empty()) log_.info("job " + std::to_string(id) + ": done");
     else log_.error("job " + std::to_string(id) + ": done, but the outputs are not known to be off: " + errors);
   } catch (const JobStop& stop) {
-    const std::string errors = bench_->make_safe();
+    const std::string errors = make_safe_and_park();
     note_safety(errors);
     const std::string msg = stop.message + (errors.empty() ? "" : "; " + errors);
     // A requested stop is lifecycle, a fault or timeout a warning, and a
@@ -1174,7 +1297,7 @@ void Executor::run_job(Id id) {
     // so the job stops here with the outputs off. Paused, not failed: once
     // the storage is fixed it can be resumed (after a restart the file's
     // "running" is recovered as usual).
-    const std::string errors = bench_->make_safe();
+    const std::string errors = make_safe_and_park();
     note_safety(errors);
     const std::string msg = std::string("storage: ") + e.what() + (errors.empty() ? "" : "; " + errors);
     log_.write(errors.empty() ? LogLevel::warn : LogLevel::error, "job " + std::to_string(id) + ": " + msg);

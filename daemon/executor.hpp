@@ -108,6 +108,9 @@ class Executor {
   // Records the outcome of a make_safe(): "" = safe, else not known safe.
   void note_safety(const std::string& errors);
   void retry_make_safe();
+  // make_safe() and, since no job runs after it, the chamber to its idle
+  // set point (Bench::park_chamber); the failures of both, "" when none.
+  std::string make_safe_and_park();
   // Logs a bench problem once, not again while it stays the same.
   void log_bench_problem(LogLevel level, const std::string& line);
   void set_bench_problem(const std::string& line);

@@ -59,6 +59,16 @@ int apply_migrations(sqlite3* db, const std::vector<Migration>& migrations) {
     previous = m.version;
     // IMMEDIATE, and the check inside it: a second process opening the same
     // fresh file waits for the first, then sees the migration recorded.
+    // PRAGMA foreign_keys is a no-op inside a transaction: set it before.
+    const bool fk_off = m.sql.substr(0, kForeignKeysOff.size()) == kForeignKeysOff;
+    struct RestoreForeignKeys {
+      sqlite3* db;
+      bool active;
+      ~RestoreForeignKeys() {
+        if (active) sqlite3_exec(db, "PRAGMA foreign_keys=ON", nullptr, nullptr, nullptr);
+      }
+    } restore{db, fk_off};
+    if (fk_off) exec(db, "PRAGMA foreign_keys=OFF", "migration " + std::string(m.name));
     exec(db, "BEGIN IMMEDIATE", "migration " + std::string(m.name));
     try {
       if (recorded(db, m.version)) {
@@ -66,6 +76,13 @@ int apply_migrations(sqlite3* db, const std::vector<Migration>& migrations) {
         continue;
       }
       exec(db, std::string(m.sql), "migration " + std::string(m.name));
+      if (fk_off) {
+        sqlite3_stmt* check = nullptr;
+        sqlite3_prepare_v2(db, "PRAGMA foreign_key_check", -1, &check, nullptr);
+        const bool dangling = check && sqlite3_step(check) == SQLITE_ROW;
+        sqlite3_finalize(check);
+        if (dangling) throw StoreError("migration " + std::string(m.name) + ": leaves rows whose foreign key points nowhere");
+      }
       sqlite3_stmt* st = nullptr;
       sqlite3_prepare_v2(db,
                          "INSERT INTO schema_migrations(version, name, applied_at)"

@@ -1,6 +1,10 @@
 // Schema migrations: schema/migrations/NNNN_name.sql, embedded at build time,
 // applied in order, each in its own transaction, and recorded in
 // schema_migrations(version, name, applied_at). Re-applying is a no-op.
+// A migration whose first line is kForeignKeysOff rebuilds a table other
+// tables refer to (SQLite's documented way to change a constraint: new
+// table, copy, drop, rename); it runs with foreign-key enforcement off, and
+// PRAGMA foreign_key_check must find nothing before it commits.
 #pragma once
 
 #include <sqlite3.h>
@@ -9,6 +13,8 @@
 #include <vector>
 
 namespace junco::daemon {
+
+inline constexpr std::string_view kForeignKeysOff = "-- junco: foreign_keys off";
 
 struct Migration {
   int version = 0;

@@ -1,5 +1,7 @@
 #include "daemon/part_analysis.hpp"
 
+#include "fitting/temperature_fit.hpp"
+
 #include "daemon/part_export.hpp"
 
 #include <algorithm>
@@ -243,6 +245,37 @@ Json lot_stats_report(const std::string& lot, const std::vector<fitting::LotPart
           {"nominal",
            {{"is_a", st.nominal.is_a}, {"n", st.nominal.n}, {"rs_ohm", st.nominal.rs_ohm}, {"cj0_f", number_or_null(st.nominal_cj0_f)},
             {"vj_v", number_or_null(st.nominal_vj_v)}, {"m", number_or_null(st.nominal_m)}}}};
+}
+
+Json temperature_law_of_runs(const Json& run_fits, const fitting::TemperatureLaw& held) {
+  std::vector<fitting::TemperaturePoint> points;
+  Json runs = Json::array();
+  auto est = [](const Json& e) {
+    fitting::Estimate out;
+    if (e.is_object() && e["value"].is_number()) out.value = e["value"].get<double>();
+    if (e.is_object() && e["std_error"].is_number()) out.std_error = e["std_error"].get<double>();
+    return out;
+  };
+  for (const auto& r : run_fits) {
+    if (r.value("status", "") != "converged" || !r["temp_k"].is_number()) continue;
+    fitting::TemperaturePoint p;
+    p.temp_k = r["temp_k"].get<double>();
+    // 0.01 K: the chamber readback's resolution (common practice, no source).
+    p.temp_se_k = 0.01;
+    if (r["ambient_k"].is_number() && r["ambient_end_k"].is_number())
+      p.temp_se_k = std::max(0.01, std::fabs(r["ambient_end_k"].get<double>() - r["ambient_k"].get<double>()) / 2.0);
+    p.is_a = est(r["is_a"]);
+    p.n = est(r["n"]);
+    p.rs_ohm = est(r["rs_ohm"]);
+    p.corr_is_n = r.value("corr_is_n", 0.0);
+    points.push_back(p);
+    runs.push_back(r["run_id"]);
+  }
+  fitting::TemperatureFitOptions o;
+  o.held = held;
+  Json j = fitting::temperature_fit_json(fitting::fit_temperature_law(points, o));
+  j["runs"] = runs;
+  return j;
 }
 
 }  // namespace junco::daemon

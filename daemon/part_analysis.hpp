@@ -3,6 +3,8 @@
 // against the model, with the joint AC+DC fit (part.transfer).
 #pragma once
 
+#include "fitting/temperature.hpp"
+
 #include "daemon/rows.hpp"
 #include "fitting/design_calculators.hpp"
 #include "fitting/design_joint_fit.hpp"
@@ -87,5 +89,13 @@ Json transfer_report(const PartRow& part, const RunRecord& run, const FitRecord&
 // nominal), and the parts left out for want of a usable fit.
 Json lot_stats_report(const std::string& lot, const std::vector<fitting::LotPart>& parts, const Json& left_out,
                       const fitting::LotStatsOptions& options);
+
+// The temperature law (EG, XTI, TRS1) of a part from a job's runs at
+// several chamber temperatures (Store::fits_of_job_part): each usable run's
+// fit at its ambient (mean of the chamber readbacks around its readings,
+// known to half their difference or the readback's 0.01 K, whichever is
+// larger) into fitting::fit_temperature_law; its JSON
+// (fitting::temperature_fit_json) with "runs": the run ids used.
+Json temperature_law_of_runs(const Json& run_fits, const fitting::TemperatureLaw& held);
 
 }  // namespace junco::daemon

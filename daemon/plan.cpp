@@ -183,7 +183,7 @@ const char* to_string(Step::Kind kind) {
 }
 
 Plan parse_plan(const Json& j) {
-  only_keys(j, "plan", {"lot", "parts", "sweep", "ac", "reverse_v", "heating", "resume", "temp_k", "vf_max_v"});
+  only_keys(j, "plan", {"lot", "parts", "sweep", "ac", "reverse_v", "heating", "resume", "temp_k", "vf_max_v", "temps_k", "soak"});
   Plan p;
   p.lot = text(need(j, "lot", "plan"), "plan.lot");
   const Json& parts = need(j, "parts", "plan");
@@ -205,7 +205,21 @@ Plan parse_plan(const Json& j) {
     if (!j["resume"].is_boolean()) bad("plan.resume", std::string("must be a boolean, not ") + j["resume"].type_name());
     p.resume = j["resume"].get<bool>();
   }
-  if (j.contains("temp_k")) p.temp_k = number(j["temp_k"], "plan.temp_k");
+  if (j.contains("temp_k")) {
+    p.temp_k = number(j["temp_k"], "plan.temp_k");
+    p.temp_k_given = true;
+  }
+  if (j.contains("temps_k")) {
+    const Json& t = j["temps_k"];
+    if (!t.is_array()) bad("plan.temps_k", std::string("must be an array of kelvin, not ") + t.type_name());
+    for (std::size_t i = 0; i < t.size(); ++i) p.temps_k.push_back(number(t[i], "plan.temps_k[" + std::to_string(i) + "]"));
+  }
+  if (j.contains("soak")) {
+    const Json& s = j["soak"];
+    only_keys(s, "plan.soak", {"tolerance_k", "hold_s"});
+    if (s.contains("tolerance_k")) p.soak.tolerance_k = number(s["tolerance_k"], "plan.soak.tolerance_k");
+    if (s.contains("hold_s")) p.soak.hold_s = number(s["hold_s"], "plan.soak.hold_s");
+  }
   if (j.contains("vf_max_v")) p.vf_max_v = number(j["vf_max_v"], "plan.vf_max_v");
   return p;
 }
@@ -220,7 +234,24 @@ double steps_per_part(const Plan& p) {
   return forward + static_cast<double>(p.reverse_v.size()) * (1.0 + n_off);
 }
 
-double points_per_job(const Plan& p) { return steps_per_part(p) * static_cast<double>(p.parts.size()); }
+int temperature_count(const Plan& p) { return p.temps_k.empty() ? 1 : static_cast<int>(p.temps_k.size()); }
+
+double points_per_job(const Plan& p) {
+  return steps_per_part(p) * static_cast<double>(p.parts.size()) * static_cast<double>(temperature_count(p));
+}
+
+double soak_s(const Plan& p, const Config& c, bool with_ramps) {
+  if (p.temps_k.empty()) return 0.0;
+  double total = p.soak.hold_s * static_cast<double>(p.temps_k.size());
+  if (!with_ramps) return total;
+  const double rate = c.safety.chamber_max_rate_k_per_min > 0 ? c.safety.chamber_max_rate_k_per_min : kAssumedChamberRateKPerMin;
+  double from = c.safety.chamber_idle_k;
+  for (double t : p.temps_k) {
+    total += std::fabs(t - from) / rate * 60.0;
+    from = t;
+  }
+  return total;
+}
 
 double plan_memory_bytes(const Plan& p) { return steps_per_part(p) * (static_cast<double>(sizeof(Step)) + kReadingBytes); }
 
@@ -241,7 +272,8 @@ void check_plan_size(const Plan& p, const JobLimits& lim) {
   const double points = points_per_job(p);
   if (points > static_cast<double>(lim.max_points_per_job))
     refuse("plan takes " + count_text(points) + " readings (" + count_text(steps_per_part(p)) + " per part × " + std::to_string(p.parts.size()) +
-               " parts), over limits.max_points_per_job = " + std::to_string(lim.max_points_per_job),
+               " parts" + (p.temps_k.empty() ? std::string() : " × " + std::to_string(p.temps_k.size()) + " temperatures") +
+               "), over limits.max_points_per_job = " + std::to_string(lim.max_points_per_job),
            "max_points_per_job");
   const double bytes = plan_memory_bytes(p);
   if (bytes > lim.max_plan_memory_bytes)
@@ -302,6 +334,20 @@ void check_plan(const Plan& p, const Config& c) {
   if (s.average < 1 || s.average > 1000) refuse("sweep average " + std::to_string(s.average) + " must be in 1..1000");
   if (s.compliance_a < 0) refuse("sweep compliance_a " + num(s.compliance_a) + " A must be > 0");
   if (p.temp_k < 1 || p.temp_k > 700) refuse("temp_k " + num(p.temp_k) + " K must be in 1..700");
+  if (!p.temps_k.empty()) {
+    if (!c.instrument("chamber")) refuse("plan.temps_k needs a chamber in the bench config (bench.chamber)");
+    if (p.temp_k_given) refuse("plan.temp_k cannot be given with temps_k: each run's ambient is the chamber's readback");
+    if (p.temps_k.size() > 50) refuse("plan.temps_k lists " + std::to_string(p.temps_k.size()) + " temperatures, at most 50");
+    for (double t : p.temps_k)
+      if (t < lim.chamber_min_k || t > lim.chamber_max_k)
+        refuse("plan.temps_k " + num(t) + " K is outside safety limits chamber_min_k..chamber_max_k = " + num(lim.chamber_min_k) + ".." +
+                   num(lim.chamber_max_k) + " K",
+               t < lim.chamber_min_k ? "chamber_min_k" : "chamber_max_k");
+    if (!(p.soak.tolerance_k > 0 && p.soak.tolerance_k <= 20)) refuse("plan.soak.tolerance_k " + num(p.soak.tolerance_k) + " K must be in (0, 20]");
+    if (!(p.soak.hold_s >= 0 && p.soak.hold_s < lim.max_soak_s))
+      refuse("plan.soak.hold_s " + num(p.soak.hold_s) + " s must be in 0..safety limit max_soak_s = " + num(lim.max_soak_s) + " s (exclusive)",
+             "max_soak_s");
+  }
   if (p.vf_max_v <= 0 || p.vf_max_v > lim.max_supply_v) refuse("vf_max_v " + num(p.vf_max_v) + " V must be in (0, max_supply_v]");
   const char* unit = s.mode == SweepMode::voltage ? "V" : "A";
   const double lo = std::min(s.start, s.stop), hi = std::max(s.start, s.stop);
@@ -433,7 +479,8 @@ double min_duration_s(const Plan& p) {
   const double down_s = p.heating.down_sweep ? (count - pulsed) * p.sweep.settle_s + pulsed * (p.heating.pulse ? p.heating.pulse->off_s + p.heating.pulse->on_s : 0.0) : 0.0;
   const double per_part = (count - pulsed) * (p.sweep.settle_s + n_ac * ac_s) + pulsed * pulse_s + down_s +
                           static_cast<double>(p.reverse_v.size()) * (p.sweep.settle_s + n_off * ac_s);
-  return per_part * static_cast<double>(p.parts.size());
+  const double hold_s = p.temps_k.empty() ? 0.0 : p.soak.hold_s * static_cast<double>(p.temps_k.size());
+  return per_part * static_cast<double>(p.parts.size()) * static_cast<double>(temperature_count(p)) + hold_s;
 }
 
 Json to_json(const Plan& p) {
@@ -451,8 +498,13 @@ Json to_json(const Plan& p) {
            {"average", p.sweep.average}}},
          {"reverse_v", p.reverse_v},
          {"resume", p.resume},
-         {"temp_k", p.temp_k},
          {"vf_max_v", p.vf_max_v}};
+  if (p.temps_k.empty()) {
+    j["temp_k"] = p.temp_k;
+  } else {
+    j["temps_k"] = p.temps_k;
+    j["soak"] = {{"tolerance_k", p.soak.tolerance_k}, {"hold_s", p.soak.hold_s}};
+  }
   if (p.sweep.compliance_a > 0) j["sweep"]["compliance_a"] = p.sweep.compliance_a;
   if (p.ac)
     j["ac"] = {{"freqs_hz", p.ac->freqs_hz},

@@ -54,6 +54,14 @@ struct AcSpec {
   std::optional<OffState> off_state;
 };
 
+// How the chamber soaks at each of a plan's temperatures: the readback must
+// stay within tolerance_k of the set point for hold_s without a break
+// (safety.max_soak_s bounds the whole wait).
+struct SoakSpec {
+  double tolerance_k = 0.5;
+  double hold_s = 60.0;
+};
+
 // Plan options that limit or measure the junction's self-heating
 // (docs/daemon-core.md, "Heating"). All optional; none changes the steps
 // below `pulse.from`.
@@ -85,7 +93,13 @@ struct Plan {
   std::vector<double> reverse_v;  // magnitudes of reverse-bias points (V)
   HeatingSpec heating;
   bool resume = true;             // may continue after a daemon restart
-  double temp_k = 300.15;         // ambient, used by the fit
+  double temp_k = 300.15;         // ambient, used by the fit (without temps_k)
+  // Chamber set points, measured in this order (every part at each): empty =
+  // no chamber, temp_k is the ambient. With them, each run's ambient is the
+  // chamber's readback, and temp_k is not allowed.
+  std::vector<double> temps_k;
+  SoakSpec soak;
+  bool temp_k_given = false;      // parse_plan saw temp_k (refused with temps_k)
   // Highest forward voltage assumed when bounding the power in the part
   // (conservative for silicon signal and PIN diodes; common practice, no source).
   double vf_max_v = 1.5;
@@ -116,6 +130,15 @@ Json to_json(const Plan& plan);                     // normalized (round-trips t
 // Steps per part and readings per job, counted without expanding (as
 // doubles: a refused plan may be far beyond any integer type's use).
 double steps_per_part(const Plan& plan);
+// Measured temperatures: temps_k.size(), or 1 without a chamber.
+int temperature_count(const Plan& plan);
+// Ramp-rate assumed for a soak estimate when the bench states no limit:
+// 2 K/min, a bench chamber's usual rate (common practice, no source).
+inline constexpr double kAssumedChamberRateKPerMin = 2.0;
+// Time the soaks take: hold_s per temperature (at least), plus the ramps
+// from chamber_idle_k through the set points at the bench's rate limit or
+// kAssumedChamberRateKPerMin (with_ramps).
+double soak_s(const Plan& plan, const Config& c, bool with_ramps);
 double points_per_job(const Plan& plan);
 // Estimate of the memory the daemon needs to run the plan: the expanded steps
 // (sizeof(Step) each) and, at each part's fit, every reading of the part read
@@ -125,7 +148,7 @@ double plan_memory_bytes(const Plan& plan);
 
 std::vector<double> sweep_values(const SweepSpec& s);
 std::vector<Step> expand_steps(const Plan& plan);  // per part; same for every part
-// Lower bound of the time the job takes (settle times only).
+// Lower bound of the time the job takes (settle times, and the soaks' hold times).
 double min_duration_s(const Plan& plan);
 double compliance_a(const Plan& plan, const Config& c);
 const char* to_string(Step::Kind kind);

@@ -28,8 +28,10 @@ PlanEstimate estimate_plan(const Plan& p, const Config& c) {
   const double n_rev = static_cast<double>(p.reverse_v.size());
   const double parts = static_cast<double>(p.parts.size());
   e.points_per_part = static_cast<long>(steps_per_part(p));
-  e.points_total = e.points_per_part * static_cast<long>(p.parts.size());
+  e.temperatures = temperature_count(p);
+  e.points_total = e.points_per_part * static_cast<long>(p.parts.size()) * e.temperatures;
   e.min_duration_s = min_duration_s(p);
+  e.soak_s = soak_s(p, c, true);
   // Heating options: a pulse adds output off and on (twice per correction of
   // a current-targeted step), a dwell reading reads V and I again, the sweep
   // down repeats the forward steps without their AC readings.
@@ -39,7 +41,8 @@ PlanEstimate estimate_plan(const Plan& p, const Config& c) {
   const double down = p.heating.down_sweep ? count * exchanges_per_dc(p) + pulsed * per_pulse : 0.0;
   const double exchanges_per_part = count * exchanges_per_dc(p) + (count - pulsed) * n_ac * kExchangesPerAc + pulsed * per_pulse +
                                     dwell_reads + down + n_rev * (4 + n_off * kExchangesPerAc) + 8;
-  e.duration_s = e.min_duration_s + parts * exchanges_per_part * kExchangeS;
+  // The soak's ramps on top of min_duration_s, which holds the hold times already.
+  e.duration_s = e.min_duration_s + (e.soak_s - soak_s(p, c, false)) + parts * e.temperatures * exchanges_per_part * kExchangeS;
   if (p.heating.pulse) {
     e.pulsed_steps_per_part = static_cast<long>(pulsed);
     e.pulse_from = pulse_from(p);
@@ -77,6 +80,14 @@ PlanEstimate estimate_plan(const Plan& p, const Config& c) {
   if (!p.reverse_v.empty())
     e.limits.push_back({"max_reverse_v", lim.max_reverse_v, e.peak_reverse_v, "V", e.peak_reverse_v >= lim.max_reverse_v * 0.999,
                         "the highest reverse bias"});
+  if (!p.temps_k.empty()) {
+    const double lo = *std::min_element(p.temps_k.begin(), p.temps_k.end());
+    const double hi_t = *std::max_element(p.temps_k.begin(), p.temps_k.end());
+    e.limits.push_back({"chamber_min_k", lim.chamber_min_k, lo, "K", lo <= lim.chamber_min_k * 1.0001, "the coldest set point"});
+    e.limits.push_back({"chamber_max_k", lim.chamber_max_k, hi_t, "K", hi_t >= lim.chamber_max_k * 0.9999, "the hottest set point"});
+    e.limits.push_back({"max_soak_s", lim.max_soak_s, p.soak.hold_s, "s", false,
+                        "each soak waits for hold_s inside the tolerance and fails the job's part after max_soak_s"});
+  }
   e.limits.push_back({"max_job_s", lim.max_job_s, e.duration_s, "s", e.duration_s >= lim.max_job_s,
                       e.duration_s >= lim.max_job_s ? "the job will likely be stopped by the limit before its end" : "the whole job, estimated"});
   return e;

@@ -27,10 +27,12 @@ struct LimitUse {
 };
 
 struct PlanEstimate {
-  long points_per_part = 0;
+  long points_per_part = 0;     // per part and temperature
   long points_total = 0;
-  double min_duration_s = 0;   // settle times only
-  double duration_s = 0;       // with kExchangeS per instrument exchange
+  int temperatures = 1;        // chamber set points (1 without a chamber)
+  double soak_s = 0;           // the soaks: ramps (at the bench's rate limit or kAssumedChamberRateKPerMin) + hold times
+  double min_duration_s = 0;   // settle times and hold times only
+  double duration_s = 0;       // with kExchangeS per instrument exchange and the soaks
   double peak_supply_v = 0;    // highest supply voltage programmed
   double peak_current_a = 0;   // highest current the part can carry (the compliance bounds it)
   double peak_power_w = 0;     // bound on the power in the part (vf_max_v × current)

@@ -91,6 +91,12 @@ struct RunRecord {
   double temp_k = kNaN;
   std::string state;  // running, done, stopped
   std::string started_at, finished_at;
+  // With a chamber (plan.temps_k): which temperature, its set point, and the
+  // chamber's readback before and after the part's readings (NaN without).
+  int temp_index = 0;
+  double setpoint_k = kNaN;
+  double ambient_k = kNaN;
+  double ambient_end_k = kNaN;
 };
 
 struct JobRecord {
@@ -129,6 +135,10 @@ struct FitRecord {
   // excluded, iterations, and the reports: junction_cap, electrothermal);
   // checked on read, served as is.
   Json detail = Json::object();
+  // The part's latest temperature law (Store::latest_temperature_fit, from a
+  // multi-temperature job: EG, XTI, TRS1), null when it has none. Not a
+  // column of fits: the service adds it for part.fit and the exports.
+  Json temperature_law = nullptr;
 
   // Points used by the capacitance law (detail.junction_cap.points_used), 0 without one.
   long cap_points_used() const;

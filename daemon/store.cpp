@@ -561,26 +561,95 @@ std::optional<Id> Store::next_queued_job() {
 
 namespace {
 constexpr const char* kRunColumns =
-    "SELECT id, job_id, part_id, slot, fixture, temp_k, state, started_at, COALESCE(finished_at, '') FROM runs ";
+    "SELECT id, job_id, part_id, slot, fixture, temp_k, state, started_at, COALESCE(finished_at, ''), temp_index, setpoint_k, ambient_k, "
+    "ambient_end_k FROM runs ";
 
 template <typename S>
 RunRecord run_row(const S& st) {
   const Id id = st.i64(0);
-  return RunRecord{id,         st.i64(1),  st.i64(2),  static_cast<int>(st.i64(3)), fixture_of(st.text(4), "run " + std::to_string(id) + ": fixture"),
-                   st.real(5), st.text(6), st.text(7), st.text(8)};
+  RunRecord r{id,         st.i64(1),  st.i64(2),  static_cast<int>(st.i64(3)), fixture_of(st.text(4), "run " + std::to_string(id) + ": fixture"),
+              st.real(5), st.text(6), st.text(7), st.text(8)};
+  r.temp_index = static_cast<int>(st.i64(9));
+  r.setpoint_k = st.real(10);
+  r.ambient_k = st.real(11);
+  r.ambient_end_k = st.real(12);
+  return r;
 }
 }  // namespace
 
-RunRecord Store::ensure_run(Id job_id, Id part_id, int slot, const RunFixture& fixture, double temp_k) {
+RunRecord Store::ensure_run(Id job_id, Id part_id, int slot, const RunFixture& fixture, double temp_k, int temp_index, double setpoint_k) {
   std::lock_guard lock(write_mutex_);
-  Stmt(*writer_, std::string("INSERT INTO runs(job_id, part_id, slot, fixture, temp_k, state, started_at) VALUES (?, ?, ?, ?, ?, 'running', ") +
-                     kNow + ") ON CONFLICT(job_id, part_id) DO NOTHING")
-      .bind(1, job_id).bind(2, part_id).bind(3, slot).bind(4, fixture_text(fixture)).bind(5, temp_k)
+  Stmt(*writer_, std::string("INSERT INTO runs(job_id, part_id, slot, fixture, temp_k, state, started_at, temp_index, setpoint_k) "
+                             "VALUES (?, ?, ?, ?, ?, 'running', ") +
+                     kNow + ", ?, ?) ON CONFLICT(job_id, part_id, temp_index) DO NOTHING")
+      .bind(1, job_id).bind(2, part_id).bind(3, slot).bind(4, fixture_text(fixture)).bind(5, temp_k).bind(6, temp_index).bind(7, setpoint_k)
       .run();
-  Stmt st(*writer_, std::string(kRunColumns) + "WHERE job_id = ? AND part_id = ?");
-  st.bind(1, job_id).bind(2, part_id);
+  Stmt st(*writer_, std::string(kRunColumns) + "WHERE job_id = ? AND part_id = ? AND temp_index = ?");
+  st.bind(1, job_id).bind(2, part_id).bind(3, temp_index);
   st.step();
   return run_row(st);
+}
+
+void Store::set_run_ambient(Id run_id, double ambient_k, double ambient_end_k, double temp_k) {
+  std::lock_guard lock(write_mutex_);
+  Stmt(*writer_, "UPDATE runs SET ambient_k = ?, ambient_end_k = ?, temp_k = ? WHERE id = ?")
+      .bind(1, ambient_k).bind(2, ambient_end_k).bind(3, temp_k).bind(4, run_id)
+      .run();
+}
+
+Id Store::insert_temperature_fit(Id part_id, Id job_id, const Json& fit) {
+  std::lock_guard lock(write_mutex_);
+  auto value = [&](const char* name, const char* what) {
+    const Json& p = fit.contains(name) ? fit[name] : Json();
+    return p.is_object() && p.contains(what) && p[what].is_number() ? p[what].get<double>() : kNaN;
+  };
+  Stmt(*writer_, std::string("INSERT INTO temperature_fits(part_id, job_id, status, message, eg_ev, eg_ev_se, xti, xti_se, trs1_per_k, "
+                             "trs1_per_k_se, tnom_k, detail, created_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ") + kNow + ")")
+      .bind(1, part_id).bind(2, job_id).bind(3, fit.value("status", std::string("failed")))
+      .bind_opt(4, fit.value("message", std::string()).empty() ? std::nullopt : std::optional<std::string>(fit.value("message", std::string())))
+      .bind(5, value("eg_ev", "value")).bind(6, value("eg_ev", "std_error"))
+      .bind(7, value("xti", "value")).bind(8, value("xti", "std_error"))
+      .bind(9, value("trs1_per_k", "value")).bind(10, value("trs1_per_k", "std_error"))
+      .bind(11, fit.value("tnom_k", kNaN)).bind(12, fit.dump())
+      .run();
+  return sqlite3_last_insert_rowid(writer_->db);
+}
+
+Json Store::fits_of_job_part(Id job_id, Id part_id) {
+  auto r = reader();
+  auto st = r(
+      "SELECT r.id, r.temp_index, r.temp_k, r.ambient_k, r.ambient_end_k, f.status, f.is_a, f.is_a_se, f.n, f.n_se, f.rs_ohm, f.rs_ohm_se,"
+      " COALESCE(f.detail, '{}') FROM runs r JOIN fits f ON f.run_id = r.id"
+      " WHERE r.job_id = ? AND r.part_id = ? AND f.id = (SELECT MAX(id) FROM fits WHERE run_id = r.id) ORDER BY r.temp_index");
+  st.bind(1, job_id).bind(2, part_id);
+  Json out = Json::array();
+  while (st.step()) {
+    auto est = [&](int c) { return Json{{"value", nullable(st.real(c))}, {"std_error", nullable(st.real(c + 1))}}; };
+    const Json detail = Json::parse(st.text(12));
+    double corr = 0.0;
+    if (detail.contains("parameter_names") && detail.contains("correlation") && detail["correlation"].size() >= 2) {
+      const auto& names = detail["parameter_names"];
+      if (names.size() >= 2 && names[0] == "is_a" && names[1] == "n" && detail["correlation"][0].size() >= 2 &&
+          detail["correlation"][0][1].is_number())
+        corr = detail["correlation"][0][1].get<double>();
+    }
+    out.push_back({{"run_id", st.i64(0)}, {"temp_index", st.i64(1)}, {"temp_k", nullable(st.real(2))}, {"ambient_k", nullable(st.real(3))},
+                   {"ambient_end_k", nullable(st.real(4))}, {"status", st.text(5)}, {"is_a", est(6)}, {"n", est(8)}, {"rs_ohm", est(10)},
+                   {"corr_is_n", corr}});
+  }
+  return out;
+}
+
+std::optional<Json> Store::latest_temperature_fit(Id part_id) {
+  auto r = reader();
+  auto st = r("SELECT id, job_id, detail, created_at FROM temperature_fits WHERE part_id = ? ORDER BY id DESC LIMIT 1");
+  st.bind(1, part_id);
+  if (!st.step()) return std::nullopt;
+  Json j = Json::parse(st.text(2));
+  j["temperature_fit_id"] = st.i64(0);
+  j["job_id"] = st.i64(1);
+  j["created_at"] = st.text(3);
+  return j;
 }
 
 std::vector<RunRecord> Store::runs_of_part(Id part_id) {

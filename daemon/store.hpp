@@ -88,7 +88,11 @@ class Store {
   void hold_job_state(Id id, JobState state, const std::string& error);
 
   // Returns the run of (job, part), creating it when absent.
-  RunRecord ensure_run(Id job_id, Id part_id, int slot, const RunFixture& fixture, double temp_k);
+  // One run per (job, part, temp_index); returns the existing one after a restart.
+  RunRecord ensure_run(Id job_id, Id part_id, int slot, const RunFixture& fixture, double temp_k, int temp_index = 0,
+                       double setpoint_k = kNaN);
+  // The chamber's readbacks around a run's readings and the ambient its fit uses.
+  void set_run_ambient(Id run_id, double ambient_k, double ambient_end_k, double temp_k);
   std::vector<RunRecord> runs_of_part(Id part_id);
   std::vector<RunRecord> runs_of_job(Id job_id);
   void finish_run(Id run_id, const std::string& state);
@@ -122,6 +126,15 @@ class Store {
   // migration 0007 have none stored: it is rebuilt from the stored
   // correlation and standard errors, which determine it). null: no fit.
   std::shared_ptr<const FitRecord> latest_fit(Id part_id);
+  // The temperature law fitted from a job's runs of a part at several
+  // temperatures (fitting/temperature_fit.hpp): `fit` is its JSON
+  // (temperature_fit_json); the part's latest, or nullopt.
+  Id insert_temperature_fit(Id part_id, Id job_id, const Json& fit);
+  // The forward fit of each of a job's runs of a part, in temperature order:
+  // [{"run_id", "temp_index", "temp_k", "ambient_k", "ambient_end_k", "status",
+  //   "is_a", "n", "rs_ohm" ({"value","std_error"}), "corr_is_n"}].
+  Json fits_of_job_part(Id job_id, Id part_id);
+  std::optional<Json> latest_temperature_fit(Id part_id);
 
  private:
   class Stmt;

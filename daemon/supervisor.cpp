@@ -30,6 +30,8 @@ std::string make_bench_safe_alone(const Config& config, int attempts, std::chron
       const auto bench = open_bench(config, log);
       bench->log = log;
       errors = bench->make_safe();
+      if (const std::string parked = bench->park_chamber(config.safety.chamber_idle_k); !parked.empty())
+        errors += (errors.empty() ? "" : "; ") + parked;
       for (const auto& m : bench->missing) errors += (errors.empty() ? "" : "; ") + m;
     } catch (const std::exception& e) {
       errors = std::string("cannot open the bench: ") + e.what();

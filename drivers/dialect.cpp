@@ -77,12 +77,19 @@ const std::vector<OperationRule>& rules_for(Role role) {
       {"measure_vpp", false, {"ch"}, Returns::number},
       {"measure_dbm", false, {"ch"}, Returns::number},  // needs impedance_ohm
   };
+  static const std::vector<OperationRule> chamber = {
+      {"set_temperature", true, {"t"}, Returns::nothing},      // {t} in temperature_unit
+      {"measure_temperature", true, {}, Returns::number},      // the air (or plate) sensor
+      // Ramp-rate limit in K/min; needed when safety.chamber_max_rate_k_per_min is set.
+      {"set_rate", false, {"k_per_min"}, Returns::nothing},
+  };
   switch (role) {
     case Role::source: return source;
     case Role::meter: return meter;
     case Role::scanner: return scanner;
     case Role::siggen: return siggen;
     case Role::levelmeter: return levelmeter;
+    case Role::chamber: return chamber;
   }
   return source;
 }
@@ -275,7 +282,8 @@ Role parse_role(const Checker& c, const std::string& text) {
   if (text == "scanner") return Role::scanner;
   if (text == "siggen") return Role::siggen;
   if (text == "levelmeter") return Role::levelmeter;
-  c.fail("/role", "unknown role \"" + text + "\" (known: source, meter, scanner, siggen, levelmeter)");
+  if (text == "chamber") return Role::chamber;
+  c.fail("/role", "unknown role \"" + text + "\" (known: source, meter, scanner, siggen, levelmeter, chamber)");
 }
 
 std::string parse_terminator(const Checker& c, const json& root, const char* key) {
@@ -294,6 +302,7 @@ const char* to_string(Role role) {
     case Role::scanner: return "scanner";
     case Role::siggen: return "siggen";
     case Role::levelmeter: return "levelmeter";
+    case Role::chamber: return "chamber";
   }
   return "unknown";
 }
@@ -317,7 +326,7 @@ Dialect parse_dialect(std::string_view text, const std::string& origin) {
   }
   c.typed(root, "", json::value_t::object, "an object");
   c.only_keys(root, "", {"dialect", "role", "description", "idn_match", "write_terminator", "read_terminator",
-                         "drain_errors", "reset", "current_limit_tolerance", "amplitude_unit", "impedance_ohm",
+                         "drain_errors", "reset", "current_limit_tolerance", "amplitude_unit", "impedance_ohm", "temperature_unit",
                          "operations"});
   Dialect d;
   d.path = origin;
@@ -364,6 +373,12 @@ Dialect parse_dialect(std::string_view text, const std::string& origin) {
   }
   if (d.amplitude_unit == LevelUnit::dbm && d.impedance_ohm <= 0.0)
     c.fail("/impedance_ohm", "missing (amplitude_unit dbm states power into a resistance: give it, e.g. 50)");
+  if (root.contains("temperature_unit")) {
+    if (d.role != Role::chamber) c.fail("/temperature_unit", "only a chamber dialect takes it");
+    const std::string unit = c.string_at(root, "", "temperature_unit");
+    if (unit != "C" && unit != "K") c.fail("/temperature_unit", "must be \"C\" or \"K\", got \"" + unit + "\"");
+    d.temperature_in_kelvin = unit == "K";
+  }
   const json& ops = c.member(root, "", "operations", json::value_t::object, "an object");
   const auto& rules = rules_for(d.role);
   std::set<std::string> known;

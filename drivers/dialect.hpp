@@ -17,7 +17,7 @@
 
 namespace junco::drivers {
 
-enum class Role { source, meter, scanner, siggen, levelmeter };
+enum class Role { source, meter, scanner, siggen, levelmeter, chamber };
 const char* to_string(Role role);
 
 struct ReplySpec {
@@ -61,6 +61,9 @@ struct Dialect {
   // Siggen with amplitude_unit dbm, levelmeter with measure_dbm: the
   // resistance the instrument states its dBm into ("impedance_ohm").
   double impedance_ohm = 0.0;
+  // Chamber only: the unit of {t} in set_temperature and of the
+  // measure_temperature reply: "C" (degrees Celsius, default) or "K".
+  bool temperature_in_kelvin = false;
   std::map<std::string, Operation, std::less<>> operations;
 
   // nullptr when the dialect does not offer the (optional) operation.

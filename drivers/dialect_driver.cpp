@@ -336,4 +336,27 @@ std::optional<std::string> DialectDriver::query_state() {
   return run("query_state").text;
 }
 
+namespace {
+constexpr double kZeroCelsiusK = 273.15;
+}  // namespace
+
+void DialectDriver::set_temperature_k(double kelvin) {
+  require_finite(kelvin, "temperature");
+  if (kelvin <= 0) config_error("temperature must be above 0 K, got " + format_number(kelvin) + " K");
+  const double t = dialect_.temperature_in_kelvin ? kelvin : kelvin - kZeroCelsiusK;
+  // Two decimals: a chamber set point finer than 0.01 K means nothing.
+  run("set_temperature", {{"t", format_number(std::round(t * 100.0) / 100.0)}});
+}
+
+double DialectDriver::measure_temperature_k() {
+  const double t = run("measure_temperature").number;
+  return dialect_.temperature_in_kelvin ? t : t + kZeroCelsiusK;
+}
+
+void DialectDriver::set_rate_k_per_min(double k_per_min) {
+  require_finite(k_per_min, "ramp rate");
+  if (k_per_min <= 0) config_error("ramp rate must be positive, got " + format_number(k_per_min) + " K/min");
+  run("set_rate", {{"k_per_min", format_number(k_per_min)}});
+}
+
 }  // namespace junco::drivers

@@ -14,7 +14,7 @@
 
 namespace junco::drivers {
 
-class DialectDriver final : public Source, public Meter, public Scanner, public SignalGen, public LevelMeter {
+class DialectDriver final : public Source, public Meter, public Scanner, public SignalGen, public LevelMeter, public Chamber {
  public:
   // Opens the transport (with retries), asks *IDN? and, when the dialect has
   // an idn_match, checks the answer against it. Throws DriverError.
@@ -50,6 +50,11 @@ class DialectDriver final : public Source, public Meter, public Scanner, public 
   // LevelMeter
   Level measure_level(int channel, LevelUnit preferred) override;
   std::string level_units() const override;
+  // Chamber
+  void set_temperature_k(double kelvin) override;
+  double measure_temperature_k() override;
+  bool has_rate_limit() const override { return dialect_.find("set_rate") != nullptr; }
+  void set_rate_k_per_min(double k_per_min) override;
 
   const Dialect& dialect() const { return dialect_; }
 

@@ -103,4 +103,17 @@ class LevelMeter : public virtual Instrument {
   virtual std::string level_units() const { return ""; }
 };
 
+// A temperature chamber or thermal plate around the fixture. Temperatures
+// are in kelvin here; the dialect says what the instrument speaks
+// (temperature_unit). Soaking (wait until stable) is the daemon's, not the
+// driver's: the driver only sets and reads.
+class Chamber : public virtual Instrument {
+ public:
+  virtual void set_temperature_k(double kelvin) = 0;
+  virtual double measure_temperature_k() = 0;
+  // Ramp-rate limit, when the dialect offers set_rate (has_rate_limit()).
+  virtual bool has_rate_limit() const = 0;
+  virtual void set_rate_k_per_min(double k_per_min) = 0;
+};
+
 }  // namespace junco::drivers

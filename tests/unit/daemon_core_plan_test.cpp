@@ -278,3 +278,41 @@ TEST_CASE("plan size limits: points per job and memory, refused by arithmetic be
   c.limits.max_points_per_job = 399999;
   CHECK_THROWS_WITH(check_plan(q, c), Catch::StartsWith("plan takes 400000 readings"));
 }
+
+TEST_CASE("temps_k: every part at every set point, soaks counted, chamber limits enforced", "[plan][chamber]") {
+  Config c = bench();
+  Json j = plan();
+  j["temps_k"] = {253.15, 298.15, 358.15};
+  j["soak"] = {{"tolerance_k", 0.2}, {"hold_s", 30}};
+  // No chamber in the bench: refused by name.
+  CHECK(outcome(j, c) == std::pair{RpcCode::plan_refused, std::string("plan.temps_k needs a chamber in the bench config (bench.chamber)")});
+  c.bench["chamber"] = InstrumentConfig{"chamber", "tcp:127.0.0.1:1", "/dev/null", 2000, 2};
+  c.safety.chamber_min_k = 233.15;
+  c.safety.chamber_max_k = 398.15;
+  c.safety.max_soak_s = 1800;
+  const Plan p = parse_plan(j);
+  REQUIRE_NOTHROW(check_plan(p, c));
+  CHECK(temperature_count(p) == 3);
+  CHECK(points_per_job(p) == 11.0 * 2 * 3);
+  // The hold times count in the lower bound; the ramps (45 + 45 + 60 K from
+  // the idle 298.15 K at the assumed 2 K/min) only in the estimate.
+  CHECK(min_duration_s(p) == Approx(3 * 2 * 11 * 0.01 + 3 * 30));
+  CHECK(soak_s(p, c, false) == Approx(90));
+  CHECK(soak_s(p, c, true) == Approx(90 + (45.0 + 45.0 + 60.0) / 2.0 * 60.0));
+  c.safety.chamber_max_rate_k_per_min = 5;
+  CHECK(soak_s(p, c, true) == Approx(90 + (45.0 + 45.0 + 60.0) / 5.0 * 60.0));
+  CHECK(to_json(parse_plan(to_json(p))) == to_json(p));
+  CHECK_FALSE(to_json(p).contains("temp_k"));
+
+  j["temps_k"] = {253.15, 400.0};
+  CHECK(outcome(j, c).second == "plan.temps_k 400 K is outside safety limits chamber_min_k..chamber_max_k = 233.15..398.15 K");
+  j["temps_k"] = {"cold"};
+  CHECK(outcome(j, c) == std::pair{RpcCode::invalid_params, std::string("plan.temps_k[0]: must be a number, not string")});
+  j["temps_k"] = {253.15};
+  j["soak"]["hold_s"] = 1800;
+  CHECK(outcome(j, c).second == "plan.soak.hold_s 1800 s must be in 0..safety limit max_soak_s = 1800 s (exclusive)");
+  j["soak"] = {{"tolerance_k", 0}};
+  CHECK(outcome(j, c).second == "plan.soak.tolerance_k 0 K must be in (0, 20]");
+  j["soak"] = {{"settle", 1}};
+  CHECK(outcome(j, c) == std::pair{RpcCode::invalid_params, std::string("plan.soak.settle: unknown field")});
+}

@@ -486,3 +486,71 @@ TEST_CASE("a stored plan and fixture read back typed; a damaged plan is a StoreE
     CHECK(std::string(e.what()).rfind("job " + std::to_string(job) + ": stored plan damaged (plan.lot: ", 0) == 0);
   }
 }
+
+// Migration order across the merge of the chamber (0004) with the heating
+// readings (0006) and fit covariance (0007): a file that already has 0006 and
+// 0007 but not 0004 (written by a juncod without the chamber) gets 0004 on
+// open, its runs rebuilt with every row, id and reading kept; a fresh file
+// gets all of them in version order. Common practice, no source.
+TEST_CASE("a store with 0006 and 0007 but without 0004 gets 0004 on open, keeping its rows; a fresh one gets all in order") {
+  TempDir dir;
+  const fs::path db = dir.path / "no-chamber.db";
+  {
+    sqlite3* h = nullptr;
+    REQUIRE(sqlite3_open(db.c_str(), &h) == SQLITE_OK);
+    std::vector<Migration> without_chamber;
+    for (const auto& m : embedded_migrations())
+      if (m.version != 4) without_chamber.push_back(m);
+    REQUIRE(without_chamber.size() + 1 == embedded_migrations().size());
+    REQUIRE(apply_migrations(h, without_chamber) == static_cast<int>(without_chamber.size()));
+    const char* rows =
+        "INSERT INTO lots VALUES (1, 'QX-7', '2026-01-01T00:00:00Z');"
+        "INSERT INTO parts VALUES (1, 1, 'QX-7-01', 1, '2026-01-01T00:00:00Z');"
+        "INSERT INTO jobs (id, plan, state, points_total, submitted_at, updated_at) VALUES (1, '{\"lot\":\"QX-7\"}', 'done', 3, 'x', 'x');"
+        "INSERT INTO runs VALUES (4, 1, 1, 1, '{}', 300.15, 'done', 'x', 'x');"
+        "INSERT INTO points (id, run_id, seq, kind, set_value, set_unit, v, i_a, t_s, flags, series, dwell_s)"
+        " VALUES (7, 4, 0, 'dc', 0.01, 'A', 0.69, 0.0101, 1.0, 0, 'dwell', 0.03);"
+        "INSERT INTO fits (id, part_id, run_id, model, status, is_a, n, rs_ohm, points_used, warnings, created_at, covariance)"
+        " VALUES (5, 1, 4, 'forward', 'converged', 2.5e-9, 1.85, 0.7, 1, '[]', 'x', NULL);";
+    char* err = nullptr;
+    const int rc = sqlite3_exec(h, rows, nullptr, nullptr, &err);
+    INFO((err ? err : ""));
+    REQUIRE(rc == SQLITE_OK);
+    // Without 0004 a second run of the same (job, part) is refused.
+    CHECK(sqlite3_exec(h, "INSERT INTO runs VALUES (5, 1, 1, 1, '{}', 300.15, 'done', 'x', 'x')", nullptr, nullptr, nullptr) ==
+          SQLITE_CONSTRAINT);
+    sqlite3_close(h);
+  }
+  {
+    Store s(db);
+    CHECK(count_rows(db, "SELECT COUNT(*) FROM schema_migrations") == static_cast<int>(embedded_migrations().size()));
+    CHECK(count_rows(db, "SELECT COUNT(*) FROM schema_migrations WHERE version = 4") == 1);
+    const auto runs = s.runs_of_job(1);
+    REQUIRE(runs.size() == 1);
+    CHECK(runs[0].id == 4);
+    CHECK(runs[0].temp_index == 0);
+    CHECK(std::isnan(runs[0].setpoint_k));
+    const auto points = s.points(4);
+    REQUIRE(points.size() == 1);
+    CHECK(points[0].series == "dwell");
+    CHECK(points[0].dwell_s == 0.03);
+    const auto fit = s.latest_fit(1);
+    REQUIRE(fit);
+    CHECK(fit->id == 5);
+    // The chamber's second temperature of the same (job, part) is a run of its own now.
+    const RunRecord hot = s.ensure_run(1, 1, 1, RunFixture{}, 358.15, 1, 358.15);
+    CHECK(hot.id != 4);
+    CHECK(hot.temp_index == 1);
+    CHECK(hot.setpoint_k == 358.15);
+    CHECK(s.runs_of_job(1).size() == 2);
+  }
+  const fs::path fresh = dir.path / "fresh.db";
+  Store s(fresh);
+  CHECK(s.schema_version() == embedded_migrations().back().version);
+  CHECK(count_rows(fresh, "SELECT COUNT(*) FROM schema_migrations") == static_cast<int>(embedded_migrations().size()));
+  // 0004's table, 0006's and 0007's columns are all there.
+  CHECK(count_rows(fresh, "SELECT COUNT(*) FROM temperature_fits") == 0);
+  CHECK(count_rows(fresh, "SELECT COUNT(*) FROM points WHERE series IS NOT NULL OR dwell_s IS NOT NULL") == 0);
+  CHECK(count_rows(fresh, "SELECT COUNT(*) FROM fits WHERE covariance IS NOT NULL") == 0);
+  CHECK(count_rows(fresh, "SELECT COUNT(*) FROM runs WHERE temp_index IS NOT NULL") == 0);
+}

@@ -51,7 +51,7 @@ TEST_CASE("every shipped dialect loads, one file per family", "[drivers][dialect
       {"scpi-source", Role::source}, {"psu-compact", Role::source},   {"scpi-dmm", Role::meter},
       {"dmm-prefixed", Role::meter}, {"scpi-switch", Role::scanner},  {"relay-bank", Role::scanner},
       {"scpi-gen", Role::siggen},    {"gen-channel", Role::siggen},   {"scpi-acv", Role::levelmeter},
-      {"scope-meas", Role::levelmeter}, {"template-source", Role::source}};
+      {"scope-meas", Role::levelmeter}, {"scpi-chamber", Role::chamber}, {"template-source", Role::source}};
   std::set<std::string> seen;
   for (const auto& entry : std::filesystem::directory_iterator(dialect_dir)) {
     if (entry.path().extension() != ".json") continue;
@@ -63,6 +63,33 @@ TEST_CASE("every shipped dialect loads, one file per family", "[drivers][dialect
     seen.insert(d.name);
   }
   CHECK(seen.size() == expected.size());
+}
+
+TEST_CASE("a chamber dialect: temperature unit, {t}, optional ramp rate", "[drivers][dialect][chamber]") {
+  const Dialect d = load_dialect(dialect_dir + "scpi-chamber.json");
+  CHECK(d.role == Role::chamber);
+  CHECK_FALSE(d.temperature_in_kelvin);  // docs/command-sets.md: the generic chamber speaks degrees Celsius
+  REQUIRE(d.find("set_temperature"));
+  CHECK(d.find("set_temperature")->commands.at(0) == "TEMP:SETP {t}");
+  CHECK(d.find("set_rate"));
+  const std::string kelvin = R"({"dialect":"k","role":"chamber","temperature_unit":"K","operations":{
+      "set_temperature":{"commands":["SP {t}"]},"measure_temperature":{"query":"PV?","reply":{"type":"number"}}}})";
+  const Dialect k = parse_dialect(kelvin, "k.json");
+  CHECK(k.temperature_in_kelvin);
+  CHECK_FALSE(k.find("set_rate"));
+  auto refused = [](const std::string& text) {
+    try {
+      (void)parse_dialect(text, "x.json");
+    } catch (const junco::drivers::DriverError& e) {
+      return std::string(e.what());
+    }
+    return std::string("accepted");
+  };
+  CHECK(refused(replaced(kelvin, "\"K\"", "\"F\"")) == "x.json: /temperature_unit: must be \"C\" or \"K\", got \"F\"");
+  CHECK(refused(replaced(kelvin, "SP {t}", "SP {v}")).find("unknown placeholder {v} (allowed here: {t})") != std::string::npos);
+  CHECK(refused(replaced(kelvin, R"("measure_temperature")", R"("measure_x")")).find("/operations/measure_x: unknown key") != std::string::npos);
+  const std::string source_with_unit = R"({"dialect":"s","role":"source","temperature_unit":"C","operations":{}})";
+  CHECK(refused(source_with_unit) == "x.json: /temperature_unit: only a chamber dialect takes it");
 }
 
 TEST_CASE("shipped dialects carry the command-sets.md commands", "[drivers][dialect]") {

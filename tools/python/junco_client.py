@@ -686,14 +686,14 @@ class Client:
         return self._method('part.figures', timeout_s, part_id=part_id, currents_a=currents_a)
 
     def part_fit(self, *, part_id: int, timeout_s: Optional[float] = None) -> Dict[str, Any]:
-        """`part.fit`: The part's latest fit. No fit yet: -32001.
+        """`part.fit`: The part's latest fit, with its latest temperature law (temperature_law: EG, XTI, TRS1 fitted from a multi-temperature job; null without one). No fit yet: -32001.
 
         Params:
             part_id (int, required): the part's id (part.list)
 
         Returns the result object: fit_id, part_id, run_id, model, status, message, is_a, n, rs_ohm,
         rsh_ohm, temp_k, cost, rms_residual, points_used, warnings, detail, created_at, cj0_f, vj_v, m,
-        tt_s.
+        tt_s, temperature_law.
         Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
         client's), ConnectionError when the connection is lost.
         """
@@ -769,8 +769,8 @@ class Client:
         Params:
             plan (Dict[str, Any], required): the plan (docs/daemon-core.md)
 
-        Returns the result object: points_per_part, points_total, parts, min_duration_s, duration_s,
-        peak, pulse, limits.
+        Returns the result object: points_per_part, temperatures, soak_s, points_total, parts,
+        min_duration_s, duration_s, peak, pulse, limits.
         Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
         client's), ConnectionError when the connection is lost.
         """

@@ -110,6 +110,10 @@ std::string SimApp::control_line(const std::string& line) {
       std::lock_guard lock(bench_.mutex());
       return bench_.lot_json().dump();
     }
+    if (word == "chamber?") {
+      std::lock_guard lock(bench_.mutex());
+      return bench_.chamber_json(Clock::now()).dump();
+    }
     if (word == "outputs?") {
       std::lock_guard lock(bench_.mutex());
       return bench_.outputs_json().dump();
@@ -129,7 +133,7 @@ std::string SimApp::control_line(const std::string& line) {
       on_quit();
       return json{{"ok", true}}.dump();
     }
-    throw std::invalid_argument("unknown control command '" + word + "' (state?, lot?, outputs?, fault, quit)");
+    throw std::invalid_argument("unknown control command '" + word + "' (state?, lot?, chamber?, outputs?, fault, quit)");
   } catch (const std::invalid_argument& e) {
     return json{{"ok", false}, {"error", e.what()}}.dump();
   }

@@ -7,7 +7,9 @@
 
 namespace junco::sim {
 
-Bench::Bench(SimConfig config) : config_(std::move(config)) {
+Bench::Bench(SimConfig config)
+    : config_(std::move(config)), chamber_setpoint_k_(config_.ambient_k), chamber_ramp_k_(config_.ambient_k),
+      chamber_air_k_(config_.ambient_k), ambient_k_(config_.ambient_k) {
   lot_ = draw_lot(config_.nominal, config_.spread, config_.slots, config_.seed);
   for (const auto& o : config_.outliers) {
     if (o.slot < 1 || o.slot > config_.slots) continue;
@@ -30,7 +32,47 @@ const PartParams* Bench::connected_part() const {
 }
 
 double Bench::junction_temp_k() const {
-  return slot_ >= 1 ? temp_k_[static_cast<size_t>(slot_ - 1)] : config_.ambient_k;
+  return slot_ >= 1 ? temp_k_[static_cast<size_t>(slot_ - 1)] : ambient_k_;
+}
+
+void Bench::set_chamber_setpoint_k(double k) {
+  advance(Clock::now());
+  chamber_setpoint_k_ = k;
+  if (chamber_rate_k_per_min_ <= 0) chamber_ramp_k_ = k;
+}
+
+void Bench::set_chamber_rate_k_per_min(double rate) {
+  advance(Clock::now());
+  chamber_rate_k_per_min_ = rate;
+  if (rate <= 0) chamber_ramp_k_ = chamber_setpoint_k_;
+}
+
+double Bench::chamber_air_k(Clock::time_point now) {
+  advance(now);
+  return ambient_k_;
+}
+
+nlohmann::json Bench::chamber_json(Clock::time_point now) {
+  advance(now);
+  return {{"setpoint_k", chamber_setpoint_k_}, {"ramp_target_k", chamber_ramp_k_}, {"air_k", ambient_k_},
+          {"air_without_drift_k", chamber_air_k_}, {"rate_k_per_min", chamber_rate_k_per_min_},
+          {"tau_s", config_.chamber.tau_s}, {"drift_k", config_.chamber.drift_k}, {"drift_period_s", config_.chamber.drift_period_s}};
+}
+
+// The ramp target moves toward the set point at the programmed rate (at
+// once without one); the air follows the target first order with the
+// chamber's τ (exact for a target that stands still within dt, and dt is
+// the time between two instrument commands); the drift is a slow sine of
+// wall-clock time. With the defaults (set point = ambient_k, no drift) the
+// ambient stays exactly ambient_k, so replies stay byte-identical.
+void Bench::advance_chamber(double dt) {
+  const double step = chamber_rate_k_per_min_ > 0 ? chamber_rate_k_per_min_ / 60.0 * dt : INFINITY;
+  const double gap = chamber_setpoint_k_ - chamber_ramp_k_;
+  chamber_ramp_k_ = std::abs(gap) <= step ? chamber_setpoint_k_ : chamber_ramp_k_ + std::copysign(step, gap);
+  chamber_air_k_ = chamber_ramp_k_ + (chamber_air_k_ - chamber_ramp_k_) * std::exp(-dt / config_.chamber.tau_s);
+  const auto& c = config_.chamber;
+  const double t = std::chrono::duration<double>(last_ - started_).count();
+  ambient_k_ = chamber_air_k_ + (c.drift_k > 0 ? c.drift_k * std::sin(2.0 * M_PI * t / c.drift_period_s) : 0.0);
 }
 
 namespace {
@@ -96,9 +138,10 @@ void Bench::advance(Clock::time_point now) {
   const double dt = std::chrono::duration<double>(now - last_).count();
   if (dt <= 0) return;
   last_ = now;
+  advance_chamber(dt);
   // Junction temperatures: the connected part heats toward ambient + θ·P,
   // the others cool toward ambient; first order with the thermal τ.
-  const double tau = config_.thermal_tau_s, amb = config_.ambient_k, theta = config_.theta_k_per_w;
+  const double tau = config_.thermal_tau_s, amb = ambient_k_, theta = config_.theta_k_per_w;
   for (size_t i = 0; i < temp_k_.size(); ++i) {
     double& t = temp_k_[i];
     if (static_cast<int>(i) + 1 != slot_ || !connected_part() || theta == 0.0) {
@@ -149,6 +192,7 @@ nlohmann::json Bench::state_json(Clock::time_point now) {
                  {"current_limit_a", bias_.current_limit_a},
                  {"in_current_limit", target.dc.current_limited}};
   j["scanner"] = {{"slot", slot_}};
+  j["chamber"] = {{"setpoint_k", chamber_setpoint_k_}, {"air_k", ambient_k_}};
   j["siggen"] = {{"output_on", drive_.on}, {"freq_hz", drive_.freq_hz}, {"emf_vpp", drive_.emf_vpp}};
   j["diode"] = {{"v", target.dc.v_part_v}, {"i_a", target.dc.i_a}, {"temp_k", junction_temp_k()},
                 {"connected", connected_part() != nullptr}};
@@ -185,11 +229,14 @@ nlohmann::json Bench::lot_json() const {
       p["tt_s"] = s.part.tt_s;
       p["eg_ev"] = s.part.eg_ev;
       p["xti"] = s.part.xti;
+      p["trs1_per_k"] = s.part.trs1_per_k;
+      p["trs2_per_k2"] = s.part.trs2_per_k2;
       p["tnom_k"] = s.part.tnom_k;
+      p["rth_k_per_w"] = config_.theta_k_per_w;  // the fixture's, the same for every slot
     }
     parts.push_back(p);
   }
-  return {{"parts", parts}, {"seed", config_.seed}};
+  return {{"parts", parts}, {"seed", config_.seed}, {"rth_k_per_w", config_.theta_k_per_w}, {"thermal_tau_s", config_.thermal_tau_s}};
 }
 
 }  // namespace junco::sim

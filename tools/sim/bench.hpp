@@ -54,6 +54,15 @@ class Bench {
   // killed the daemon (control command `outputs?`, docs/sim.md).
   nlohmann::json outputs_json() const;
 
+  // The chamber (docs/sim.md, "Chamber"): set point and ramp rate as
+  // programmed, the air as it is (true) and as the chamber's sensor reads it.
+  void set_chamber_setpoint_k(double k);
+  double chamber_setpoint_k() const { return chamber_setpoint_k_; }
+  void set_chamber_rate_k_per_min(double rate);  // 0 = no limit
+  double chamber_rate_k_per_min() const { return chamber_rate_k_per_min_; }
+  double chamber_air_k(Clock::time_point now);   // true air temperature = the parts' ambient
+  nlohmann::json chamber_json(Clock::time_point now);
+
   // For tests and the control endpoint: the part in the selected slot, if any.
   const PartParams* connected_part() const;
   double junction_temp_k() const;
@@ -66,6 +75,7 @@ class Bench {
   void advance(Clock::time_point now);
   Target compute_target();
   double power_w_at(double temp_k) const;
+  void advance_chamber(double dt);
 
   // One output switch (on or off) and when it happened.
   struct Switch {
@@ -80,6 +90,11 @@ class Bench {
   std::deque<Switch> source_switches_, siggen_switches_;
   std::vector<Slot> lot_;
   std::vector<double> temp_k_;  // per slot (index slot-1)
+  // Chamber: set point, the ramp's present target, the air without drift,
+  // and the ambient the parts see (air + drift). All start at ambient_k.
+  double chamber_setpoint_k_, chamber_ramp_k_, chamber_air_k_, ambient_k_;
+  double chamber_rate_k_per_min_ = 0.0;
+  Clock::time_point started_ = Clock::now();
   BiasSetting bias_;
   int slot_ = 0;
   AcDrive drive_{false, 0.1, 1e6};  // power-up: off, 0.1 Vpp EMF, 1 MHz

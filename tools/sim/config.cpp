@@ -17,13 +17,14 @@ const std::map<std::string, std::vector<std::string>>& known_families() {
       {"meter", {"scpi-dmm", "dmm-prefixed", "scpi99"}},
       {"scanner", {"scpi-switch", "relay-bank", "scpi99"}},
       {"siggen", {"scpi-gen", "gen-channel", "gen-vpp"}},
-      {"levelmeter", {"scpi-acv", "scope-meas", "acv-dbm"}}};
+      {"levelmeter", {"scpi-acv", "scope-meas", "acv-dbm"}},
+      {"chamber", {"scpi-chamber"}}};
   return f;
 }
 
 void check_role(const std::string& role) {
   if (std::find(all_roles.begin(), all_roles.end(), role) == all_roles.end())
-    throw std::invalid_argument("unknown role '" + role + "' (source, meter, scanner, siggen, levelmeter)");
+    throw std::invalid_argument("unknown role '" + role + "' (source, meter, scanner, siggen, levelmeter, chamber)");
 }
 
 namespace {
@@ -62,6 +63,8 @@ void apply_part(PartParams& p, const json& j, const std::string& where) {
     else if (k == "tt_s") p.tt_s = non_negative(v, key);
     else if (k == "eg_ev") p.eg_ev = positive(v, key);
     else if (k == "xti") p.xti = v.get<double>();
+    else if (k == "trs1_per_k") p.trs1_per_k = v.get<double>();
+    else if (k == "trs2_per_k2") p.trs2_per_k2 = v.get<double>();
     else return false;
     return true;
   });
@@ -92,6 +95,20 @@ void apply_config_json(SimConfig& cfg, const std::string& json_text) {
           else return false;
           return true;
         });
+      } else if (k == "chamber") {
+        each_key(v, k, [&](const std::string& t, const json& tv) {
+          const std::string key = "chamber." + t;
+          auto& ch = cfg.chamber;
+          if (t == "tau_s") ch.tau_s = positive(tv, key);
+          else if (t == "drift_k") ch.drift_k = non_negative(tv, key);
+          else if (t == "drift_period_s") ch.drift_period_s = positive(tv, key);
+          else if (t == "min_c") ch.min_c = tv.get<double>();
+          else if (t == "max_c") ch.max_c = tv.get<double>();
+          else if (t == "readback_noise_k") ch.readback_noise_k = non_negative(tv, key);
+          else return false;
+          return true;
+        });
+        if (!(cfg.chamber.min_c < cfg.chamber.max_c)) throw std::invalid_argument("config: chamber.min_c must be below chamber.max_c");
       } else if (k == "fixture") {
         each_key(v, k, [&](const std::string& f, const json& fv) {
           const std::string key = "fixture." + f;
@@ -207,6 +224,11 @@ std::string help_reference() {
   error_queue_depth [16]
   thermal.theta_k_per_w [400]   junction-to-ambient thermal resistance
   thermal.tau_s [0.05]          junction thermal time constant
+  chamber.tau_s [60]            chamber air time constant toward its set point
+  chamber.drift_k [0]           slow sinusoidal drift of the air (amplitude, K)
+  chamber.drift_period_s [600]  period of that drift
+  chamber.{min_c [-70], max_c [180]}  set points the chamber accepts
+  chamber.readback_noise_k [0.005]    readback noise (resolution 0.01 C)
   fixture.rb_ohm [100]          bias resistor
   fixture.bias_choke [true]     choke in series with Rb (Rb open at AC)
   fixture.return ["inductor"]   DC return: "inductor" (0 ohm DC, open AC)
@@ -215,7 +237,8 @@ std::string help_reference() {
   fixture.rl_ohm [50]           load
   fixture.steps_per_period [256] time steps of the AC solve
   nominal.{is_a [2.5e-9], n [1.85], rs_ohm [0.7], cj0_f [2e-12], vj_v [0.65],
-           m [0.4], fc [0.5], tt_s [0], eg_ev [1.11], xti [3]}
+           m [0.4], fc [0.5], tt_s [0], eg_ev [1.11], xti [3],
+           trs1_per_k [0], trs2_per_k2 [0]}
   spread.{is_ln_sigma [0.25], n_sigma [0.02], rs_rel_sigma [0.08],
           cj0_rel_sigma [0.08]}
   outliers [[]]                 e.g. [{"slot":3,"rs_ohm":4.0}] (is_a, n, rs_ohm, cj0_f)
@@ -228,12 +251,18 @@ Physics: bias supply -> Rb -> anode; cathode -> DC return; generator EMF
 cathode -> DC block -> RL. Level channel 1 = generator terminal voltage
 after Rg (fixture input), channel 2 = voltage across RL. DC point exact
 (Lambert W); AC levels from a periodic time-domain solve with the SPICE
-C-V law; self-heating raises the junction temperature (IS(T) law).
+C-V law; self-heating raises the junction temperature (IS(T), RS(T):
+the SPICE law of fitting/temperature.hpp). The chamber's air (set point at
+power-up: ambient_k) is the ambient of every part.
 
 Control endpoint (one line in, one JSON line out):
   state?                        instrument settings and the part's true
                                 operating point {"v","i_a","temp_k"}
-  lot?                          true parameters of each slot's part
+  lot?                          true parameters of each slot's part, with
+                                EG, XTI, TRS1, TRS2, TNOM and the thermal
+                                resistance theta_k_per_w
+  chamber?                      the chamber's true air temperature, set
+                                point, ramp rate and drift
   outputs?                      every on/off switch of the supply and the
                                 generator, t_ns on CLOCK_MONOTONIC, with
                                 now_ns and the present state

@@ -15,7 +15,7 @@
 
 namespace junco::sim {
 
-inline const std::vector<std::string> all_roles{"source", "meter", "scanner", "siggen", "levelmeter"};
+inline const std::vector<std::string> all_roles{"source", "meter", "scanner", "siggen", "levelmeter", "chamber"};
 
 struct FaultSpec {
   std::string role;
@@ -33,6 +33,17 @@ struct SourceLimits {
   double i_limit_min_a = 1e-4, i_limit_max_a = 0.5;
 };
 
+// The temperature chamber around the fixture: its air follows the set point
+// first order (after an optional ramp-rate limit) and drifts slowly; the
+// parts' ambient is the chamber air (docs/sim.md, "Chamber").
+struct ChamberConfig {
+  double tau_s = 60.0;            // air time constant toward the (ramped) set point
+  double drift_k = 0.0;           // amplitude of a slow sinusoidal drift of the air
+  double drift_period_s = 600.0;  //   and its period
+  double min_c = -70.0, max_c = 180.0;  // set points accepted (else -222)
+  double readback_noise_k = 0.005;      // σ of the readback (resolution 0.01 °C)
+};
+
 struct SimConfig {
   std::uint64_t seed = 1;
   int slots = 8;
@@ -41,6 +52,7 @@ struct SimConfig {
   double theta_k_per_w = 400.0;  // junction-to-ambient thermal resistance
   double thermal_tau_s = 0.05;   // junction thermal time constant
   int error_queue_depth = 16;
+  ChamberConfig chamber;
   FixtureConfig fixture;
   PartParams nominal;
   LotSpread spread;
@@ -51,7 +63,8 @@ struct SimConfig {
                                               {"meter", "scpi-dmm"},
                                               {"scanner", "scpi-switch"},
                                               {"siggen", "scpi-gen"},
-                                              {"levelmeter", "scpi-acv"}};
+                                              {"levelmeter", "scpi-acv"},
+                                              {"chamber", "scpi-chamber"}};
   std::set<std::string> serial_roles;
   std::vector<FaultSpec> faults;
 };

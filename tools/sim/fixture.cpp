@@ -267,6 +267,14 @@ AcResult solve_ac(const FixtureConfig& fx, const PartParams* part, const BiasSet
   res.dc = solve_dc(fx, part, bias, temp_k);
   if (!drive.on || drive.emf_vpp <= 0.0 || drive.freq_hz <= 0.0) return res;
 
+  // The junction at its temperature: RS(T) (TRS1, TRS2) in the period solve
+  // as in the DC point; IS(T) is taken inside the solver from the same law.
+  PartParams hot;
+  if (part) {
+    hot = *part;
+    hot.rs_ohm = series_resistance_ohm(*part, temp_k);
+    part = &hot;
+  }
   PeriodSolver solver(fx, part, bias, res.dc.current_limited, temp_k, drive);
   // Start from the DC point: block voltages and choke currents as at DC.
   const double vk_dc = fx.return_kind == ReturnKind::resistor ? res.dc.i_a * fx.return_ohm : 0.0;

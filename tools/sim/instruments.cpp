@@ -432,6 +432,46 @@ class LevelMeterSim : public SimInstrument {
   }
 };
 
+// ---------------------------------------------------------------- chamber
+// A temperature chamber in degrees Celsius, as chamber controllers show it:
+// set point, ramp-rate limit (K/min, 0 = none) and the air sensor's reading
+// (0.01 °C resolution, small noise). *RST leaves the set point alone: a
+// reset must not swing a chamber full of parts.
+class ChamberSim : public SimInstrument {
+ public:
+  ChamberSim(const std::string& family, Bench& bench, std::uint64_t seed)
+      : SimInstrument("chamber", family, "junco-sim,CHB-40,SIM-C001,1.0", bench, seed) {
+    auto set_c = [this](const std::string& a) {
+      const double c = need_number(a);
+      check_range(c, bench_.config().chamber.min_c, bench_.config().chamber.max_c);
+      bench_.set_chamber_setpoint_k(c + kZeroCelsiusK);
+      return std::optional<std::string>{};
+    };
+    auto set_rate = [this](const std::string& a) {
+      const double r = need_number(a);
+      check_range(r, 0.0, 100.0);
+      bench_.set_chamber_rate_k_per_min(r);
+      return std::optional<std::string>{};
+    };
+    auto read_c = [this](const std::string&) {
+      const double k = bench_.chamber_air_k(Clock::now()) + bench_.config().chamber.readback_noise_k * gaussian();
+      return format_nr2(quantise(k - kZeroCelsiusK, 0.01), 2);
+    };
+    add("TEMPerature:SETPoint", set_c);
+    add("TEMPerature:SETPoint?", [this](const std::string&) { return format_nr2(bench_.chamber_setpoint_k() - kZeroCelsiusK, 2); });
+    add("TEMPerature:RATE", set_rate);
+    add("TEMPerature:RATE?", [this](const std::string&) { return format_nr2(bench_.chamber_rate_k_per_min(), 2); });
+    add("MEASure:TEMPerature?", read_c);
+    add("TEMPerature?", read_c);
+  }
+
+ protected:
+  void reset_settings() override {}
+
+ private:
+  static constexpr double kZeroCelsiusK = 273.15;
+};
+
 }  // namespace
 
 std::unique_ptr<SimInstrument> make_instrument(const std::string& role, const std::string& family, Bench& bench,
@@ -442,6 +482,7 @@ std::unique_ptr<SimInstrument> make_instrument(const std::string& role, const st
   else if (role == "scanner") inst = std::make_unique<ScannerSim>(family, bench, seed);
   else if (role == "siggen") inst = std::make_unique<SigGenSim>(family, bench, seed);
   else if (role == "levelmeter") inst = std::make_unique<LevelMeterSim>(family, bench, seed);
+  else if (role == "chamber") inst = std::make_unique<ChamberSim>(family, bench, seed);
   else throw std::invalid_argument("unknown role " + role);
   return inst;
 }

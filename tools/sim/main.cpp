@@ -59,10 +59,10 @@ struct Given {
 
 void define_options(CLI::App& app, Given& g) {
   app.description(
-      "junco-sim: a simulated diode-characterisation bench. Five instruments (roles\n"
-      "source, meter, scanner, siggen, levelmeter), each on its own TCP port on\n"
-      "127.0.0.1 (ephemeral) or, with --serial ROLE, on a raw pseudo-terminal. When\n"
-      "ready it prints ONE JSON line on stdout:\n"
+      "junco-sim: a simulated diode-characterisation bench. Six instruments (roles\n"
+      "source, meter, scanner, siggen, levelmeter, chamber), each on its own TCP\n"
+      "port on 127.0.0.1 (ephemeral) or, with --serial ROLE, on a raw pseudo-terminal.\n"
+      "When ready it prints ONE JSON line on stdout:\n"
       "  {\"ready\":true,\"endpoints\":{\"source\":\"tcp:127.0.0.1:PORT\",...,\n"
       "   \"control\":\"tcp:127.0.0.1:PORT\"},\"families\":{\"source\":\"scpi-source\",...}}\n"
       "Logs go to stderr. Runs until SIGINT/SIGTERM or the control command quit.");

@@ -7,16 +7,18 @@
 namespace junco::sim {
 
 double saturation_current_a(const PartParams& p, double temp_k) {
-  const double ratio = temp_k / p.tnom_k;
-  const double vt = fitting::thermal_voltage_v(temp_k);
-  return p.is_a * std::pow(ratio, p.xti / p.n) * std::exp((ratio - 1.0) * p.eg_ev / (p.n * vt));
+  return fitting::saturation_current_at_a(p.is_a, p.n, p.tnom_k, temp_k, p.law());
+}
+
+double series_resistance_ohm(const PartParams& p, double temp_k) {
+  return fitting::series_resistance_at_ohm(p.rs_ohm, p.tnom_k, temp_k, p.law());
 }
 
 fitting::DiodeParams dc_params(const PartParams& p, double temp_k, double extra_series_ohm) {
   fitting::DiodeParams d;
   d.is_a = saturation_current_a(p, temp_k);
   d.n = p.n;
-  d.rs_ohm = p.rs_ohm + extra_series_ohm;
+  d.rs_ohm = series_resistance_ohm(p, temp_k) + extra_series_ohm;
   return d;
 }
 

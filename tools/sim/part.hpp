@@ -3,6 +3,7 @@
 #pragma once
 
 #include "fitting/diode.hpp"
+#include "fitting/temperature.hpp"
 
 #include <cstdint>
 #include <string>
@@ -22,12 +23,19 @@ struct PartParams {
   double tt_s = 0.0;     // transit time (diffusion capacitance TT·gd); 0 = none
   double eg_ev = 1.11;   // band gap for IS(T)
   double xti = 3.0;      // IS temperature exponent
+  double trs1_per_k = 0.0;   // TRS1: RS(T) = RS·(1 + TRS1·ΔT + TRS2·ΔT²)
+  double trs2_per_k2 = 0.0;  // TRS2
   double tnom_k = 300.15;
+
+  // The part's temperature coefficients in the one home of the SPICE law.
+  fitting::TemperatureLaw law() const { return {eg_ev, xti, trs1_per_k, trs2_per_k2}; }
 };
 
-// IS(T) = IS·(T/TNOM)^(XTI/N)·exp[(T/TNOM − 1)·EG/(N·Vt(T))] (docs/references.md §2).
+// IS(T) and RS(T) by fitting/temperature.hpp (the SPICE law, docs/references.md §2);
+// the simulator has no copy of its own.
 double saturation_current_a(const PartParams& p, double temp_k);
-// DC diode parameters at temperature, with extra series resistance added.
+double series_resistance_ohm(const PartParams& p, double temp_k);
+// DC diode parameters at temperature (IS(T), RS(T)), with extra series resistance added.
 fitting::DiodeParams dc_params(const PartParams& p, double temp_k, double extra_series_ohm = 0.0);
 
 // Junction (depletion + diffusion) charge and capacitance at junction voltage
