@@ -71,7 +71,7 @@ TEST_CASE("bad input: exit 2 and one exact line on stderr", "[cli]") {
       {"/nonexistent/curve.csv", "junco fit: cannot open '/nonexistent/curve.csv'\n"},
       {"", "junco fit: missing input file (usage: junco fit FILE.csv [options])\n"},
       {no_v, "junco fit: " + no_v +
-                 ": no voltage column (header: 'a', 'i'); name it v, v_v, voltage or choose one with --v-col\n"},
+                 ": no voltage column (header: 'a', 'i'); name it v, u, voltage (a unit may follow: v_mv) or choose one with --v-col\n"},
       {not_num, "junco fit: " + not_num + ": line 4, column 2 (i): '1e-3;' is not a number\n"},
       {few, "junco fit: " + few +
                 ": need at least 4 forward readings at distinct currents above the noise floor, have 3 (excluded: 1 "
