@@ -79,6 +79,7 @@ std::optional<double> fail(std::string* why, std::string text) {
 
 std::string example(std::string_view unit) {
   if (unit.empty()) return "e.g. 4.7k, 10meg, 1e-3";
+  if (unit == "C") return "e.g. 27, -40";  // degrees Celsius take no prefix in practice
   return "e.g. 10m" + std::string(unit) + ", 4.7u" + std::string(unit) + ", 1e-3";
 }
 

@@ -98,6 +98,12 @@ std::optional<int> parse_command_line(CLI::App& app, const std::string& command,
   } catch (const CLI::CallForHelp&) {
     std::printf("%s", app.help().c_str());
     return exit_ok;
+  } catch (const CLI::ExtrasError& e) {  // CLI11: "The following argument(s) was/were not expected: X Y"
+    const std::string what = e.what();
+    const std::string extras = what.substr(what.find(": ") == std::string::npos ? 0 : what.find(": ") + 2);
+    std::fprintf(stderr, "junco %s: unknown option or extra argument '%s' (see junco %s --help)\n", command.c_str(), extras.c_str(),
+                 command.c_str());
+    return exit_usage;
   } catch (const CLI::ParseError& e) {
     std::fprintf(stderr, "junco %s: %s (see junco %s --help)\n", command.c_str(), e.what(), command.c_str());
     return exit_usage;
