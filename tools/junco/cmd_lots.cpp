@@ -2,6 +2,10 @@
 // statistics (lot.stats) or its nominal part as a model (lot.export).
 #include "tools/junco/command.hpp"
 #include "tools/junco/rpc_client.hpp"
+#include "tools/junco/run_history.hpp"
+
+#include <map>
+#include <set>
 
 #include <cmath>
 #include <cstdio>
@@ -100,6 +104,49 @@ void print_stats(const Json& r) {
               num(nom["n"]), format_si(num(nom["rs_ohm"]), "Ω").c_str(), law.c_str(), r["lot"].get<std::string>().c_str());
 }
 
+// Which run each part's latest fit (what lot.stats uses) came from, grouped
+// by job: [{job_id, started_at, parts: [labels]}], and the parts measured in
+// other jobs too. A re-measured lot is never shown as one run silently.
+Json runs_used(RpcClient& client, const std::string& lot) {
+  const auto runs = all_runs(client);
+  std::map<long, Json> by_job;
+  std::set<long> all_jobs;
+  for (const auto& p : client.call("part.list", Json{{"lot", lot}}).value("parts", Json::array())) {
+    const long part = p.value("part_id", 0L);
+    for (const auto& r : runs_of_part(runs, part)) all_jobs.insert(r.job_id);
+    if (!p.value("has_fit", false)) continue;
+    const Json fit = client.call("part.fit", Json{{"part_id", part}});
+    const long run = fit.value("run_id", Json(0)).is_number() ? fit["run_id"].get<long>() : 0;
+    for (const auto& r : runs_of_part(runs, part))
+      if (r.run_id == run) {
+        Json& g = by_job[r.job_id];
+        if (g.is_null()) g = Json{{"job_id", r.job_id}, {"started_at", r.started_at}, {"parts", Json::array()}};
+        g["parts"].push_back(p.value("label", ""));
+      }
+  }
+  Json out{{"fits_from_jobs", Json::array()}, {"jobs_measuring_lot", Json(std::vector<long>(all_jobs.begin(), all_jobs.end()))}};
+  for (auto& [job, g] : by_job) out["fits_from_jobs"].push_back(g);
+  return out;
+}
+
+void print_runs_used(const Json& used) {
+  const Json& groups = used["fits_from_jobs"];
+  const Json& jobs = used["jobs_measuring_lot"];
+  if (jobs.size() <= 1 && groups.size() <= 1) {
+    if (groups.size() == 1)
+      std::printf("  fits from job %ld (%s)\n", groups[0]["job_id"].get<long>(), groups[0]["started_at"].get<std::string>().c_str());
+    return;
+  }
+  std::printf("  the lot was measured by %zu jobs; each part's latest fit is used:\n", jobs.size());
+  for (const auto& g : groups) {
+    std::string labels;
+    for (const auto& l : g["parts"]) labels += " " + l.get<std::string>();
+    std::printf("    job %ld (%s): %zu part(s):%s\n", g["job_id"].get<long>(), g["started_at"].get<std::string>().c_str(), g["parts"].size(),
+                labels.c_str());
+  }
+  if (groups.size() > 1) std::printf("  note: these statistics mix runs of different jobs\n");
+}
+
 int list_lots(RpcClient& client, bool json) {
   const Json r = client.call("lot.list");
   if (json) {
@@ -111,10 +158,20 @@ int list_lots(RpcClient& client, bool json) {
     std::printf("no lots yet (submit a plan: junco submit PLAN.jsonc)\n");
     return exit_ok;
   }
-  std::printf("%6s  %-24s  %6s  %s\n", "lot", "name", "parts", "created");
-  for (const auto& l : lots)
-    std::printf("%6ld  %-24s  %6ld  %s\n", l.value("lot_id", 0L), l.value("name", "").c_str(), l.value("parts", 0L),
-                l.value("created_at", "").c_str());
+  // Which jobs measured each lot: a lot measured twice says so here.
+  std::map<long, std::string> lot_of_part;
+  for (const auto& p : client.call("part.list").value("parts", Json::array())) lot_of_part[p.value("part_id", 0L)] = p.value("lot", "");
+  std::map<std::string, std::set<long>> jobs_of_lot;
+  for (const auto& run : all_runs(client)) jobs_of_lot[lot_of_part[run.part_id]].insert(run.job_id);
+  std::printf("%6s  %-24s  %6s  %-20s  %s\n", "lot", "name", "parts", "created", "measured by");
+  for (const auto& l : lots) {
+    std::string jobs;
+    for (long j : jobs_of_lot[l.value("name", "")]) jobs += (jobs.empty() ? "job " : ", ") + std::to_string(j);
+    const auto count = jobs_of_lot[l.value("name", "")].size();
+    if (count > 1) jobs = "jobs" + jobs.substr(3) + " (re-measured)";
+    std::printf("%6ld  %-24s  %6ld  %-20s  %s\n", l.value("lot_id", 0L), l.value("name", "").c_str(), l.value("parts", 0L),
+                l.value("created_at", "").c_str(), jobs.empty() ? "-" : jobs.c_str());
+  }
   return exit_ok;
 }
 
@@ -153,9 +210,13 @@ int run(std::vector<std::string> args) {
       params["set_size"] = std::stol(*set_size);
     }
     RpcClient client(socket);
-    const Json r = client.call("lot.stats", params);
+    Json r = client.call("lot.stats", params);
+    r["runs_used"] = runs_used(client, args[0]);
     if (json) std::printf("%s\n", r.dump(2).c_str());
-    else print_stats(r);
+    else {
+      print_stats(r);
+      print_runs_used(r["runs_used"]);
+    }
     return exit_ok;
   });
 }
