@@ -65,6 +65,16 @@ CLI::Option* add_si_list_option(CLI::App& app, const std::string& names, std::ve
   return (*holder)->type_name(unit.empty() ? "LIST" : unit + ",...");
 }
 
+CLI::Validator positive_id() {
+  return CLI::Validator(
+      [](std::string& text) -> std::string {
+        const bool digits = !text.empty() && text.size() < 16 && text.find_first_not_of("0123456789") == std::string::npos;
+        if (digits && std::stoll(text) > 0) return {};
+        return "must be a positive integer id, not '" + text + "'";
+      },
+      "");
+}
+
 CLI::Option* add_socket_option(CLI::App& app, std::string& target) {
   return app.add_option("--socket", target, "juncod's socket (default: $JUNCO_SOCKET, else the daemon's; see junco status --help)")
       ->type_name("PATH");

@@ -21,6 +21,9 @@ CLI::Option* add_si_option(CLI::App& app, const std::string& names, std::optiona
 CLI::Option* add_si_list_option(CLI::App& app, const std::string& names, std::vector<double>& target, const std::string& unit,
                                 const std::string& help, const std::string& shown_default = "");
 
+// A job, part or run id: a positive integer ("12"); the error names the text.
+CLI::Validator positive_id();
+
 // --socket PATH, as every daemon-facing command takes it; empty: $JUNCO_SOCKET
 // or the daemon's default (socket_path()).
 CLI::Option* add_socket_option(CLI::App& app, std::string& target);

@@ -42,10 +42,10 @@ void define(CLI::App& app) {
   Options& o = g_opt;
   app.description(description);
   app.footer(footer);
-  app.add_option("PART", o.part, "part id or label")->required();
+  app.add_option("PART", o.part, "part id or label")->required()->type_name("");
   add_si_list_option(app, "--at", o.currents_a, "A", "comma-separated forward currents; units optional: 1mA, 10e-3, 5 mA, 100uA",
                      "1mA,10mA");
-  app.add_option("--run", o.run_id, "the run to show (default: the run of the latest fit)")->type_name("RUN")->check(CLI::PositiveNumber.description(""));
+  app.add_option("--run", o.run_id, "the run to show (default: the run of the latest fit)")->type_name("RUN")->check(positive_id());
   app.add_option("--lot", o.lot, "the lot of a PART given by label")->type_name("NAME");
   add_socket_option(app, o.socket);
   app.add_flag("--json", o.json, "print {\"part\", \"run\", \"other_runs\", \"fit\", \"figures\"} as JSON");
