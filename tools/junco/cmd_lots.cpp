@@ -42,7 +42,7 @@ struct Options {
   std::string lot, socket, export_format, out_path;
   std::vector<double> currents_a;
   std::optional<double> match_current_a, match_tolerance_v;
-  int set_size = 0;
+  std::string set_size;  // checked in run(): the message names the text
   bool json = false;
 };
 Options g_opt;  // bound by define(); one command per process
@@ -200,7 +200,7 @@ int run() {
   return guarded("lots", [&] {
     const std::string socket = socket_path(o.socket);
     if (!o.out_path.empty() && o.export_format.empty()) throw std::invalid_argument("--out goes with --export FORMAT");
-    const bool stats_options = !o.currents_a.empty() || o.match_current_a || o.match_tolerance_v || o.set_size;
+    const bool stats_options = !o.currents_a.empty() || o.match_current_a || o.match_tolerance_v || !o.set_size.empty();
     if (o.lot.empty()) {
       if (stats_options || !o.export_format.empty()) throw std::invalid_argument("these options need a LOT");
       RpcClient client(socket);
@@ -219,7 +219,11 @@ int run() {
     if (!o.currents_a.empty()) params["currents_a"] = o.currents_a;
     if (o.match_current_a) params["match_current_a"] = *o.match_current_a;
     if (o.match_tolerance_v) params["match_tolerance_v"] = *o.match_tolerance_v;
-    if (o.set_size) params["set_size"] = o.set_size;  // the daemon checks the range (2..64) and says so
+    if (!o.set_size.empty()) {  // the daemon checks the range (2..64) and says so
+      if (o.set_size.find_first_not_of("0123456789") != std::string::npos || o.set_size.size() > 6)
+        throw std::invalid_argument("--set-size must be a whole number of parts (2..64), not '" + o.set_size + "'");
+      params["set_size"] = std::stol(o.set_size);
+    }
     RpcClient client(socket);
     Json r = client.call("lot.stats", params);
     r["runs_used"] = runs_used(client, o.lot);
