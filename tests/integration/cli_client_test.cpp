@@ -131,12 +131,14 @@ TEST_CASE("junco submit, watch, jobs, lots, parts, show against a running daemon
   CHECK(r.status == 2);
   CHECK_FALSE(r.err.empty());
 
-  // The readings CSV keeps milliseconds: 10 readings of one part taken in well
-  // under a minute must not share time stamps (they did at 9 digits, 1 s).
+  // The readings CSV keeps milliseconds: written to 9 digits (whole seconds of
+  // Unix time) the 10 readings of a part shared one or two times. With no
+  // settle time two readings may still fall in one millisecond, so the check
+  // is: more distinct times than whole seconds give.
   r = junco_cli(dir, {"show", "CL-2", "--export", "csv", "--socket", sock});
   REQUIRE(r.status == 0);
   REQUIRE(r.lines.size() >= 11);
-  std::set<std::string> times;
+  std::set<std::string> times, seconds;
   for (std::size_t k = 1; k < r.lines.size(); ++k) {
     std::vector<std::string> cells;
     std::stringstream row(r.lines[k]);
@@ -146,8 +148,10 @@ TEST_CASE("junco submit, watch, jobs, lots, parts, show against a running daemon
     CHECK(t.size() > 4);
     CHECK(t[t.size() - 4] == '.');  // three decimals: milliseconds
     times.insert(t);
+    seconds.insert(t.substr(0, t.size() - 4));
   }
-  CHECK(times.size() == r.lines.size() - 1);
+  CHECK(times.size() > seconds.size());
+  CHECK(times.size() >= 5);
 
   // Re-measure CL-1 alone (job 2, after the refused plan): show and lots say
   // which run they show and that the other exists; nothing mixes silently.
