@@ -10,6 +10,7 @@
 #include <cmath>
 #include <cstdio>
 #include <sstream>
+#include <string_view>
 
 namespace junco::daemon {
 
@@ -86,7 +87,19 @@ std::string export_csv(const std::vector<PointRow>& rows) {
   os << "\n";
   for (const auto& row : rows) {
     const Json p = to_json(row);
-    for (std::size_t k = 0; k < std::size(cols); ++k) os << (k ? "," : "") << csv_field(p.value(cols[k], Json()));
+    for (std::size_t k = 0; k < std::size(cols); ++k) {
+      const Json v = p.value(cols[k], Json());
+      os << (k ? "," : "");
+      // t_s is Unix time (1.7e9 s): nine significant digits would round it to
+      // whole seconds and give many readings one time; keep milliseconds.
+      if (std::string_view(cols[k]) == "t_s" && v.is_number()) {
+        char buf[32];
+        std::snprintf(buf, sizeof buf, "%.3f", v.get<double>());
+        os << buf;
+      } else {
+        os << csv_field(v);
+      }
+    }
     os << "\n";
   }
   return os.str();

@@ -1,9 +1,6 @@
-// Numbers with engineering suffixes, as typed on the command line:
-// "10mA", "1k", "2.2pF", "100MHz", "4u7" is not accepted (write 4.7u).
-// The multiplier letter comes first (f p n u µ m k M G T), then an optional
-// unit that must match the one the caller expects ("A", "Ohm", "F", "Hz",
-// "V", "W", "dB", "s", "H"). "m" is milli and "M" mega, as in SPICE-free
-// engineering notation; "meg" is accepted for mega too.
+// Engineering values for the design calculators: forwarders to the one units
+// module, units/si_text.hpp, which holds the grammar ("10mA", "2.2pF",
+// "100MHz", "10meg", "4.7u"; m = milli, M = mega). New code includes that.
 #pragma once
 
 #include <optional>
@@ -16,8 +13,8 @@ namespace junco::fitting {
 // Returns nullopt and fills *why with a one-line reason on bad input.
 std::optional<double> parse_engineering(std::string_view text, std::string_view unit, std::string* why = nullptr);
 
-// Formats a value with an engineering prefix and the unit, 4 significant
-// digits: 0.0123 A -> "12.30 mA".
+// Formats a value with an engineering prefix and the unit, `digits`
+// significant digits: 0.0123 A -> "12.3 mA" (units::format_si).
 std::string format_engineering(double value, std::string_view unit, int digits = 4);
 
 }  // namespace junco::fitting

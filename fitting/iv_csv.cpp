@@ -1,5 +1,7 @@
 #include "fitting/iv_csv.hpp"
 
+#include "units/si_text.hpp"
+
 #include <algorithm>
 #include <cctype>
 #include <charconv>
@@ -35,8 +37,10 @@ std::vector<std::string_view> split(std::string_view line, char sep) {
 }
 
 struct Header {
-  std::string name;  // lower case, without the unit
+  std::string name;  // lower case, without the bracketed unit: "v", "v_mv", "current"
   std::string unit;  // as written inside the brackets, may be empty
+  std::string base;  // name without a unit suffix: "v_mv" -> "v" (name when there is none)
+  std::string suffix;  // that suffix: "mv"; empty when none
 };
 
 Header parse_header_cell(std::string_view cell) {
@@ -49,20 +53,26 @@ Header parse_header_cell(std::string_view cell) {
     cell = trim(cell.substr(0, open));
   }
   h.name = lower(cell);
+  h.base = h.name;
+  // "v_mv", "i_ua", "voltage_v": a unit after the last '_' when it is one of
+  // volts or amps (units::unit_scale decides); otherwise the name stands.
+  if (const std::size_t us = h.name.rfind('_'); us != std::string::npos && us > 0) {
+    const std::string suffix = h.name.substr(us + 1);
+    if (units::unit_scale(suffix, "V") || units::unit_scale(suffix, "A")) {
+      h.base = h.name.substr(0, us);
+      h.suffix = suffix;
+    }
+  }
   return h;
 }
 
-// Scale from the bracketed unit to SI; nullopt when it is not a unit of this quantity.
-std::optional<double> unit_scale(const std::string& unit, char base) {
-  if (unit.empty()) return 1.0;
-  const std::string b(1, base);
-  const std::string u = unit;
-  if (u == b) return 1.0;
-  if (u == "m" + b) return 1e-3;
-  if (u == "u" + b || u == "\xC2\xB5" + b || u == "\xCE\xBC" + b) return 1e-6;  // u, µ (micro sign), μ (mu)
-  if (u == "n" + b) return 1e-9;
-  if (u == "p" + b) return 1e-12;
-  return std::nullopt;
+// Scale to SI of a column of `unit` ("V" or "A"): from the bracketed unit
+// ("v [mV]") or the name's suffix ("v_mv"; a name is read in lower case, so
+// its m is milli). nullopt when the unit written is not one of that quantity.
+std::optional<double> column_scale(const Header& h, const char* unit) {
+  if (!h.unit.empty()) return units::unit_scale(h.unit, unit);
+  if (!h.suffix.empty()) return units::unit_scale(h.suffix, unit);
+  return 1.0;
 }
 
 bool all_digits(const std::string& s) {
@@ -89,7 +99,9 @@ std::string pick_column(const std::vector<Header>& header, const std::string& ch
   const std::vector<std::string> wanted = choice.empty() ? aliases : std::vector<std::string>{lower(choice)};
   std::optional<std::size_t> found;
   for (std::size_t k = 0; k < header.size(); ++k) {
-    if (std::find(wanted.begin(), wanted.end(), header[k].name) == wanted.end()) continue;
+    const bool named = std::find(wanted.begin(), wanted.end(), header[k].name) != wanted.end();
+    const bool by_base = choice.empty() && std::find(wanted.begin(), wanted.end(), header[k].base) != wanted.end();
+    if (!named && !by_base) continue;
     if (found)
       return std::string("two ") + what + " columns ('" + header[*found].name + "' and '" + header[k].name +
              "'); pick one with " + flag;
@@ -99,8 +111,9 @@ std::string pick_column(const std::vector<Header>& header, const std::string& ch
     if (!choice.empty()) return std::string(flag) + " " + choice + ": no such column (header: " + quoted_list(header) + ")";
     std::string names;
     for (const auto& a : aliases) names += (names.empty() ? "" : ", ") + a;
+    const std::string unit_example = aliases.front() + (std::string(what) == "voltage" ? "_mv" : "_ma");
     return std::string("no ") + what + " column (header: " + quoted_list(header) + "); name it " + names +
-           " or choose one with " + flag;
+           " (a unit may follow: " + unit_example + ") or choose one with " + flag;
   }
   index = *found;
   return {};
@@ -131,19 +144,24 @@ IvCsv parse_iv_csv(std::string_view text, const IvCsvOptions& options) {
       continue;
     }
     if (header.empty()) {
-      sep = line.find(',') != std::string_view::npos ? ',' : line.find(';') != std::string_view::npos ? ';'
-                                                         : line.find('\t') != std::string_view::npos ? '\t' : ',';
+      sep = line.find(';') != std::string_view::npos ? ';' : line.find('\t') != std::string_view::npos ? '\t' : ',';
+      if (!options.decimal_comma && line.find(',') != std::string_view::npos) sep = ',';
+      if (options.decimal_comma && sep == ',' && line.find(',') != std::string_view::npos)
+        return out.error = "line " + std::to_string(line_no) +
+                           ": with decimal commas the columns must be separated by ';' or tab, and the header has ','",
+               out;
       for (auto cell : split(line, sep)) header.push_back(parse_header_cell(cell));
-      out.error = pick_column(header, options.v_col, {"v", "v_v", "voltage"}, "voltage", "--v-col", v_index);
+      out.error = pick_column(header, options.v_col, {"v", "u", "voltage"}, "voltage", "--v-col", v_index);
       if (out.error.empty())
-        out.error = pick_column(header, options.i_col, {"i", "i_a", "current"}, "current", "--i-col", i_index);
+        out.error = pick_column(header, options.i_col, {"i", "current"}, "current", "--i-col", i_index);
       if (out.error.empty() && v_index == i_index) out.error = "the voltage and current columns are the same column";
       if (!out.error.empty()) return out;
-      const auto vs = unit_scale(header[v_index].unit, 'V');
-      const auto is = unit_scale(header[i_index].unit, 'A');
-      if (!vs) return out.error = "column " + std::to_string(v_index + 1) + ": unit '" + header[v_index].unit +
+      const auto vs = column_scale(header[v_index], "V");
+      const auto is = column_scale(header[i_index], "A");
+      const auto unit_of = [](const Header& h) { return h.unit.empty() ? h.suffix : h.unit; };
+      if (!vs) return out.error = "column " + std::to_string(v_index + 1) + ": unit '" + unit_of(header[v_index]) +
                                   "' is not a voltage unit (V, mV, uV)", out;
-      if (!is) return out.error = "column " + std::to_string(i_index + 1) + ": unit '" + header[i_index].unit +
+      if (!is) return out.error = "column " + std::to_string(i_index + 1) + ": unit '" + unit_of(header[i_index]) +
                                   "' is not a current unit (A, mA, uA, nA, pA)", out;
       v_scale = *vs;
       i_scale = *is;
@@ -160,8 +178,14 @@ IvCsv parse_iv_csv(std::string_view text, const IvCsvOptions& options) {
     const std::size_t col[2] = {v_index, i_index};
     for (int q = 0; q < 2; ++q) {
       const std::string_view cell = cells[col[q]];
-      const char* first = cell.data();
-      const char* last = cell.data() + cell.size();
+      std::string with_point;  // "0,4286" read as 0.4286 when decimal commas were asked for
+      if (options.decimal_comma && cell.find(',') != std::string_view::npos) {
+        with_point = std::string(cell);
+        std::replace(with_point.begin(), with_point.end(), ',', '.');
+      }
+      const std::string_view digits = with_point.empty() ? cell : std::string_view(with_point);
+      const char* first = digits.data();
+      const char* last = digits.data() + digits.size();
       // from_chars does not take a leading '+'; skip one, but only before a digit or '.',
       // so "+-5" stays an error rather than reading as -5.
       if (last - first >= 2 && *first == '+' && first[1] != '-' && first[1] != '+') ++first;
@@ -169,7 +193,11 @@ IvCsv parse_iv_csv(std::string_view text, const IvCsvOptions& options) {
       const std::string where = "line " + std::to_string(line_no) + ", column " + std::to_string(col[q] + 1) + " (" +
                                 header[col[q]].name + "): ";
       if (cell.empty()) return out.error = where + "empty value", out;
-      if (ec != std::errc() || ptr != last) return out.error = where + "'" + std::string(cell) + "' is not a number", out;
+      if (ec != std::errc() || ptr != last) {
+        const bool comma = !options.decimal_comma && sep != ',' && cell.find(',') != std::string_view::npos;
+        return out.error = where + "'" + std::string(cell) + "' is not a number" +
+                           (comma ? " (decimal comma? junco fit --decimal-comma reads them)" : ""), out;
+      }
       if (!std::isfinite(value[q])) return out.error = where + "'" + std::string(cell) + "' is not a finite number", out;
     }
     out.points.push_back({value[0] * v_scale, value[1] * i_scale});

@@ -6,10 +6,14 @@
 //   v_v,i_a,temp_c          <- header: first non-comment line, names the columns
 //   0.4286,1.0e-5,27        <- one reading per line
 // Separator: ',' (or ';' or tab, detected from the header). Names are matched
-// case-insensitively; a unit in brackets after a name, "v [mV]" or
-// "current (uA)", is honoured (V, mV, uV/µV; A, mA, uA/µA, nA, pA). Voltage
-// columns are found by the names v, v_v, voltage; current by i, i_a, current —
-// or chosen by name or 1-based position.
+// case-insensitively. The unit of a column is read with the one units module
+// (units/si_text.hpp) from brackets after the name, "v [mV]", "current (uA)",
+// or from a suffix after '_', "v_mv", "i_ua", "v_v", "i_a" (in a name the
+// prefix is read in lower case: "mv" is millivolts). No unit: V and A.
+// Voltage columns are found by the names v, u, voltage; current by i, current
+// (each with or without a unit suffix) — or chosen by name or 1-based position.
+// Decimal commas ("0,4286") are read when asked (decimal_comma); the
+// separator must then be ';' or tab.
 #pragma once
 
 #include "fitting/extract.hpp"
@@ -23,6 +27,7 @@ namespace junco::fitting {
 struct IvCsvOptions {
   std::string v_col;  // empty: find by name; digits: 1-based position; else a header name
   std::string i_col;
+  bool decimal_comma = false;  // "0,4286" is 0.4286; columns separated by ';' or tab
 };
 
 struct IvCsv {

@@ -7,6 +7,8 @@
 
 #include <cmath>
 #include <fstream>
+#include <set>
+#include <sstream>
 
 using namespace junco;
 namespace fs = std::filesystem;
@@ -48,7 +50,7 @@ TEST_CASE("junco explains an unreachable daemon and bad values", "[cli]") {
                         Catch::Contains("is it running?") && Catch::Contains("juncod --config"));
   r = junco_cli(dir, {"show", "3", "--at", "5 parsecs", "--socket", sock});
   CHECK(r.status == 2);
-  CHECK_THAT(r.err, Catch::Contains("'5 parsecs' is not a value in A"));
+  CHECK_THAT(r.err, Catch::Contains("--at: '5 parsecs': unknown suffix 'parsecs'"));
   r = junco_cli(dir, {"cancel", "twelve", "--socket", sock});
   CHECK(r.status == 2);
   r = junco_cli(dir, {"watch", "--help"});
@@ -128,5 +130,60 @@ TEST_CASE("junco submit, watch, jobs, lots, parts, show against a running daemon
   r = junco_cli(dir, {"submit", (dir / "hot.jsonc").string(), "--socket", sock});
   CHECK(r.status == 2);
   CHECK_FALSE(r.err.empty());
+
+  // The readings CSV keeps milliseconds: written to 9 digits (whole seconds of
+  // Unix time) the 10 readings of a part shared one or two times. With no
+  // settle time two readings may still fall in one millisecond, so the check
+  // is: more distinct times than whole seconds give.
+  r = junco_cli(dir, {"show", "CL-2", "--export", "csv", "--socket", sock});
+  REQUIRE(r.status == 0);
+  REQUIRE(r.lines.size() >= 11);
+  std::set<std::string> times, seconds;
+  for (std::size_t k = 1; k < r.lines.size(); ++k) {
+    std::vector<std::string> cells;
+    std::stringstream row(r.lines[k]);
+    for (std::string c; std::getline(row, c, ',');) cells.push_back(c);
+    REQUIRE(cells.size() >= 14);
+    const std::string& t = cells[13];  // t_s
+    CHECK(t.size() > 4);
+    CHECK(t[t.size() - 4] == '.');  // three decimals: milliseconds
+    times.insert(t);
+    seconds.insert(t.substr(0, t.size() - 4));
+  }
+  CHECK(times.size() > seconds.size());
+  CHECK(times.size() >= 5);
+
+  // Re-measure CL-1 alone (job 2, after the refused plan): show and lots say
+  // which run they show and that the other exists; nothing mixes silently.
+  std::ofstream(dir / "again.jsonc") << R"({ "lot": "CLI-LOT", "parts": [{"slot": 1, "label": "CL-1"}],
+    "sweep": {"mode": "current", "spacing": "log", "start": 1e-6, "stop": 0.02, "count": 10, "settle_s": 0} })";
+  r = junco_cli(dir, {"submit", (dir / "again.jsonc").string(), "--watch", "--socket", sock});
+  REQUIRE(r.status == 0);
+  const std::string job2 = r.lines.front();
+  r = junco_cli(dir, {"show", "CL-1", "--socket", sock});
+  REQUIRE(r.status == 0);
+  CHECK_THAT(r.all(), Catch::StartsWith("part CL-1 (id 1), lot CLI-LOT\n  run 3 (job " + job2 + ", "));
+  CHECK_THAT(r.all(), Catch::Contains("also measured in run 1 (job 1, ") && Catch::Contains("shown: the latest fit, from run 3 only"));
+  r = junco_cli(dir, {"show", "CL-1", "--run", "3", "--json", "--socket", sock});
+  REQUIRE(r.status == 0);
+  const auto again = daemon::Json::parse(r.all());
+  CHECK(again["run"]["run_id"] == 3);
+  CHECK(again["fit"]["run_id"] == 3);
+  REQUIRE(again["other_runs"].size() == 1);
+  CHECK(again["other_runs"][0]["run_id"] == 1);
+  r = junco_cli(dir, {"show", "CL-1", "--run", "1", "--socket", sock});
+  CHECK(r.status == 1);
+  CHECK_THAT(r.err, Catch::Contains("run 1 (job 1, ") && Catch::Contains("has no fit that juncod serves; its latest fit is from run 3"));
+  r = junco_cli(dir, {"show", "CL-1", "--run", "99", "--socket", sock});
+  CHECK(r.status == 1);
+  CHECK_THAT(r.err, Catch::Contains("has no run 99 (its runs: 1, 3)"));
+  r = junco_cli(dir, {"show", "CL-2", "--socket", sock});
+  CHECK_THAT(r.all(), !Catch::Contains("also measured"));
+  r = junco_cli(dir, {"lots", "--socket", sock});
+  CHECK_THAT(r.all(), Catch::Contains("jobs 1, " + job2 + " (re-measured)"));
+  r = junco_cli(dir, {"lots", "CLI-LOT", "--socket", sock});
+  REQUIRE(r.status == 0);
+  CHECK_THAT(r.all(), Catch::Contains("the lot was measured by 2 jobs") && Catch::Contains("job 1 (") &&
+                          Catch::Contains("note: these statistics mix runs of different jobs"));
   CHECK(b.daemon().stop() == 0);
 }

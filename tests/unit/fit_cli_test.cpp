@@ -71,18 +71,20 @@ TEST_CASE("bad input: exit 2 and one exact line on stderr", "[cli]") {
       {"/nonexistent/curve.csv", "junco fit: cannot open '/nonexistent/curve.csv'\n"},
       {"", "junco fit: missing input file (usage: junco fit FILE.csv [options])\n"},
       {no_v, "junco fit: " + no_v +
-                 ": no voltage column (header: 'a', 'i'); name it v, v_v, voltage or choose one with --v-col\n"},
+                 ": no voltage column (header: 'a', 'i'); name it v, u, voltage (a unit may follow: v_mv) or choose one with --v-col\n"},
       {not_num, "junco fit: " + not_num + ": line 4, column 2 (i): '1e-3;' is not a number\n"},
       {few, "junco fit: " + few +
                 ": need at least 4 forward readings at distinct currents above the noise floor, have 3 (excluded: 1 "
                 "reverse bias or zero (forward fit needs v > 0 and i > 0))\n"},
       {reverse, "junco fit: " + reverse + ": no forward readings: all 3 points are reverse bias or zero\n"},
       {empty, "junco fit: " + empty + ": no data rows after the header\n"},
-      {example + " --robust tukey", "junco fit: --robust: 'tukey' is not huber or cauchy\n"},
-      {example + " --temp-c warm", "junco fit: --temp-c: 'warm' is not a number\n"},
+      {example + " --robust tukey", "junco fit: --robust: tukey not in {huber,cauchy} (see junco fit --help)\n"},
+      {example + " --temp-c warm", "junco fit: --temp-c: 'warm' is not a number (e.g. 27, -40) (see junco fit --help)\n"},
       {example + " --accuracy-v 0.1", "junco fit: --accuracy-v: expected REL,ABS (e.g. 0.05%,100e-6), got '0.1'\n"},
-      {example + " --frobnicate", "junco fit: unknown option '--frobnicate' (see junco fit --help)\n"},
-      {example + " --v-col", "junco fit: --v-col needs a value\n"},
+      {example + " --frobnicate", "junco fit: unknown option or extra argument '--frobnicate' (see junco fit --help)\n"},
+      {example + " " + example, "junco fit: unknown option or extra argument '" + example + "' (see junco fit --help)\n"},
+      {example + " --v-col", "junco fit: --v-col: 1 required NAME|N missing (see junco fit --help)\n"},
+      {example + " --rl 50x", "junco fit: --rl: '50x': unknown suffix 'x' (expected a prefix and the unit ohm, e.g. 10mohm, 4.7uohm, 1e-3) (see junco fit --help)\n"},
       {example + " --v-col 9", "junco fit: " + example + ": --v-col 9: the header has 2 columns\n"},
   };
   for (const auto& c : cases) {
@@ -142,4 +144,61 @@ TEST_CASE("glitched example: robust loss brings n back to the generator's value"
   const double n_plain = plain.at("n"), n_robust = robust.at("n");
   CHECK(std::abs(n_robust - 1.91) < 0.3 * std::abs(n_plain - 1.91));
   CHECK(std::abs(n_robust - 1.91) < 4.0 * robust.at("n_se").get<double>());
+}
+
+// The units of the columns (issue: mV/mA read as V/A fitted "converged" with
+// n = 4 at its bound, exit 0). The readings are the example curve scaled by
+// 1000, so read as mV/mA they must give the example's generator parameters
+// (file header: Is = 2.4e-9 A, n = 1.87, Rs = 0.62 ohm; tests/bench/fit_make_example.py).
+TEST_CASE("millivolt and milliamp columns: named, they fit; unnamed, junco refuses", "[cli]") {
+  std::ifstream in(example);
+  std::string line, body;
+  int row = 0;
+  while (std::getline(in, line)) {
+    if (line.empty() || line[0] == '#' || row++ == 0) continue;  // comments, then the header
+    const auto comma = line.find(',');
+    char text[96];
+    std::snprintf(text, sizeof text, "%.6f,%.6e\n", std::stod(line.substr(0, comma)) * 1e3, std::stod(line.substr(comma + 1)) * 1e3);
+    body += text;
+  }
+  const std::string named = write_csv("mv_ma.csv", "v_mv,i_ma\n" + body);
+  const Run good = junco_fit(named + " --json");
+  REQUIRE(good.status == 0);
+  const auto j = nlohmann::json::parse(good.out);
+  CHECK(j.at("status") == "converged");
+  CHECK(std::abs(j.at("n").get<double>() - 1.87) < 5.0 * j.at("n_se").get<double>());
+  CHECK(std::abs(j.at("rs_ohm").get<double>() - 0.62) < 5.0 * j.at("rs_ohm_se").get<double>());
+
+  const std::string unnamed = write_csv("unnamed.csv", "v_v,i_a\n" + body);
+  const Run bad = junco_fit(unnamed);
+  CHECK(bad.status == 1);
+  CHECK(bad.out.find("NOT FITTED") != std::string::npos);
+  CHECK(bad.err.find("no valid fit: n = 4 is at its bound") != std::string::npos);
+  CHECK(bad.err.find("name them v_mv,i_ma") != std::string::npos);
+  const Run bad_json = junco_fit(unnamed + " --json");
+  CHECK(bad_json.status == 1);
+  CHECK(nlohmann::json::parse(bad_json.out).at("status") == "at_bound");
+  // No model document from a fit at a bound.
+  const std::string model = (scratch() / "at_bound.json").string();
+  CHECK(junco_fit(unnamed + " --model-out " + model).status == 1);
+  CHECK_FALSE(fs::exists(model));
+}
+
+TEST_CASE("decimal commas when asked, with a hint when not", "[cli]") {
+  std::ifstream in(example);
+  std::string line, body;
+  int row = 0;
+  while (std::getline(in, line)) {
+    if (line.empty() || line[0] == '#' || row++ == 0) continue;
+    for (char& c : line) c = c == ',' ? ';' : c == '.' ? ',' : c;
+    body += line + "\n";
+  }
+  const std::string file = write_csv("komma.csv", "U;I\n" + body);
+  const Run asked = junco_fit(file + " --decimal-comma --json");
+  REQUIRE(asked.status == 0);
+  const Run plain = junco_fit(example + " --json");
+  CHECK(nlohmann::json::parse(asked.out).at("n").get<double>() == Approx(nlohmann::json::parse(plain.out).at("n").get<double>()).epsilon(1e-9));
+  const Run not_asked = junco_fit(file);
+  CHECK(not_asked.status == 2);
+  CHECK(not_asked.err.find("(decimal comma? junco fit --decimal-comma reads them)") != std::string::npos);
 }

@@ -68,8 +68,8 @@ TEST_CASE("bad files give one exact line each", "[csv]") {
   const Case cases[] = {
       {"", "", "no header line (expected column names such as v_v,i_a)"},
       {"# only comments\n", "", "no header line (expected column names such as v_v,i_a)"},
-      {"a,b\n1,2\n", "", "no voltage column (header: 'a', 'b'); name it v, v_v, voltage or choose one with --v-col"},
-      {"v,b\n1,2\n", "", "no current column (header: 'v', 'b'); name it i, i_a, current or choose one with --i-col"},
+      {"a,b\n1,2\n", "", "no voltage column (header: 'a', 'b'); name it v, u, voltage (a unit may follow: v_mv) or choose one with --v-col"},
+      {"v,b\n1,2\n", "", "no current column (header: 'v', 'b'); name it i, current (a unit may follow: i_ma) or choose one with --i-col"},
       {"v,voltage,i\n1,1,2\n", "", "two voltage columns ('v' and 'voltage'); pick one with --v-col"},
       {"v,i\n0.6,abc\n", "", "line 2, column 2 (i): 'abc' is not a number"},
       {"v,i\n0.5,1e-4\n0.6x,1e-3\n", "", "line 3, column 1 (v): '0.6x' is not a number"},
@@ -92,5 +92,51 @@ TEST_CASE("bad files give one exact line each", "[csv]") {
     const auto r = parse_iv_csv(c.text, o);
     CHECK(r.error == c.error);
     CHECK(r.error.find('\n') == std::string::npos);
+  }
+}
+
+// Unit-marked headers and decimal commas (issue: mV/mA columns were read as V/A).
+// Expected values: the SI prefixes m = 1e-3, u = 1e-6 (BIPM SI Brochure, 9th ed., table 7).
+TEST_CASE("unit suffixes in column names and decimal commas", "[csv]") {
+  struct Case {
+    const char* text;
+    bool decimal_comma;
+    double v, i;
+  };
+  const Case cases[] = {
+      {"v_mv,i_ma\n600,1\n", false, 0.6, 1e-3},
+      {"V_mV,I_mA\n600,1\n", false, 0.6, 1e-3},
+      {"v_v,i_ua\n0.6,1000\n", false, 0.6, 1e-3},
+      {"voltage_mv,current_na\n600,1e6\n", false, 0.6, 1e-3},
+      {"U,I\n0.6,1e-3\n", false, 0.6, 1e-3},
+      {"U;I\n0,6;0,001\n", true, 0.6, 1e-3},
+      {"u_mv\ti_ma\n600,5\t1,0\n", true, 0.6005, 1e-3},
+      {"t_s;v_mv;i_ma\n0,5;600;1\n", true, 0.6, 1e-3},
+  };
+  for (const auto& c : cases) {
+    INFO(c.text);
+    IvCsvOptions o;
+    o.decimal_comma = c.decimal_comma;
+    const auto r = parse_iv_csv(c.text, o);
+    REQUIRE(r.error.empty());
+    REQUIRE(r.points.size() == 1);
+    CHECK(r.points[0].v == Approx(c.v).epsilon(1e-12));
+    CHECK(r.points[0].i_a == Approx(c.i).epsilon(1e-12));
+  }
+  struct Bad {
+    const char* text;
+    bool decimal_comma;
+    const char* error;
+  };
+  const Bad bad[] = {
+      {"v_mv,i_mv\n600,1\n", false, "column 2: unit 'mv' is not a current unit (A, mA, uA, nA, pA)"},
+      {"U;I\n0,6;0,001\n", false, "line 2, column 1 (u): '0,6' is not a number (decimal comma? junco fit --decimal-comma reads them)"},
+      {"U,I\n0,6,0,001\n", true, "line 1: with decimal commas the columns must be separated by ';' or tab, and the header has ','"},
+  };
+  for (const auto& b : bad) {
+    INFO(b.text);
+    IvCsvOptions o;
+    o.decimal_comma = b.decimal_comma;
+    CHECK(parse_iv_csv(b.text, o).error == b.error);
   }
 }

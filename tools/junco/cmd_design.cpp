@@ -31,7 +31,7 @@ const char* const part_help =
     "and, for any of them:\n"
     "  --cj F --vj V --m M     junction capacitance law (overrides the part's)\n"
     "  --tt S              transit time TT: diffusion charge TT*Id (overrides the part's)\n"
-    "  --temp DEGC         junction temperature (default: the fit's, else 27 degC); IS and RS\n"
+    "  --temp-c DEGC       junction temperature (default: the fit's, else 27 degC); IS and RS\n"
     "                      follow the SPICE law from the fit's temperature (TNOM):\n"
     "                      IS(T) = IS*(T/TNOM)^(XTI/N)*exp((T/TNOM-1)*EG/(N*Vt(T))),\n"
     "                      RS(T) = RS*(1 + TRS1*(T-TNOM))\n"
@@ -125,7 +125,7 @@ Request parse_request(const DesignCalculator& c, std::vector<std::string> args) 
     else if (option == "lot") r.lot = value;
     else if (option == "model") r.model = value;
     else if (option == "is" || option == "n" || option == "rs") r.explicit_part[option] = value;
-    else if (option == "temp" && c.needs_part) r.inputs["temp_k"] = kelvin_from_celsius(parse_value(option, value, "C"));
+    else if (option == "temp-c" && c.needs_part) r.inputs["temp_k"] = kelvin_from_celsius(parse_value(option, value, "C"));
     else if (const auto* s = spec_by_option(c, option)) {
       if (s->choices.empty()) r.inputs[s->key] = parse_value(option, value, s->unit);
       else r.inputs[s->key] = value;
@@ -272,7 +272,8 @@ int run(const std::vector<std::string>& args) {
 }
 
 const bool registered = register_command(
-    {"design", "design calculators using a fitted part (bias, loss, distortion, isolation, power)", usage(), run, true});
+    {"design", "design calculators using a fitted part (bias, loss, distortion, isolation, power)", usage(), run, true, {}, {},
+     {{"--temp", "--temp-c"}}});  // one name for temperature in °C across commands (docs/names.md)
 
 }  // namespace
 }  // namespace junco::cli

@@ -5,7 +5,9 @@
 #include "fitting/lot_stats.hpp"
 #include "fitting/model_document.hpp"
 #include "fitting/spice_card.hpp"
+#include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
+#include "units/si_text.hpp"
 
 #include <cstdio>
 #include <fstream>
@@ -18,17 +20,43 @@ namespace {
 
 using namespace junco::fitting;
 
-const char* const help =
-    "usage: junco export FORMAT MODEL.json... [--name NAME] [--out FILE]\n"
-    "       junco export stats MODEL.json... [--match-current A] [--match-tol V] [--set-size N]\n\n"
+const char* const description =
+    "Offline exports from JSON model documents (junco fit --model-out, junco show PART --export json).\n\n"
     "FORMAT: spice  a .model NAME D(IS=.. N=.. RS=.. [CJO VJ M] TNOM=degC) card with a comment\n"
     "               header (part, lot, run, temperature, standard errors)\n"
     "        json   the model document again (normalised; schema/model/part-model.schema.json)\n"
+    "        stats  per lot mean, std dev, range, median, MAD of IS, N, RS, and Vf, rd at 1 mA and\n"
+    "               10 mA; outliers by modified z-score > 3.5 on median/MAD; matched sets by Vf\n"
     "One MODEL gives that part. Several give the lot nominal: median IS (in log), N, RS, and CJO, VJ, M\n"
     "of the parts that have them.\n"
-    "stats prints per lot mean, std dev, range, median, MAD of IS, N, RS, and Vf, rd at 1 mA and\n"
-    "10 mA; outliers by modified z-score > 3.5 on median/MAD; matched sets by Vf.\n"
-    "Without --out the result goes to stdout. Exit 0 ok, 2 bad input.\n";
+    "Without --out the result goes to stdout.\n";
+
+const char* const footer =
+    "exit status: 0 ok; 1 cannot write the output; 2 bad command line or input.\n"
+    "examples:\n"
+    "  junco export spice wr03.json --name WR03 --out wr03.lib\n"
+    "  junco export stats wr*.json --match-current 1mA --match-tol 2mV\n";
+
+struct Options {
+  std::string format, name, out_path;
+  std::vector<std::string> files;
+  LotStatsOptions lot;
+  int set_size = 2;
+};
+Options g_opt;  // bound by define(); one command per process
+
+void define(CLI::App& app) {
+  Options& o = g_opt;
+  app.description(description);
+  app.footer(footer);
+  app.add_option("FORMAT", o.format, "spice, json or stats")->required()->check(CLI::IsMember({"spice", "json", "stats"}).description(""));
+  app.add_option("MODEL", o.files, "model documents (JSON)")->type_name("FILE...");
+  app.add_option("--name", o.name, "the .model name (spice; default from the part label)");
+  app.add_option("--out", o.out_path, "write to FILE instead of standard output")->type_name("FILE");
+  add_si_option(app, "--match-current", o.lot.match_current_a, "A", "stats: current at which Vf is matched", "10mA");
+  add_si_option(app, "--match-tol", o.lot.match_tolerance_v, "V", "stats: Vf tolerance of a matched set", "2mV");
+  app.add_option("--set-size", o.set_size, "stats: parts per matched set (2..64; default 2)")->check(CLI::Range(2, 64).description(""))->type_name("N");
+}
 
 bool read_file(const std::string& path, std::string& out) {
   std::ifstream f(path);
@@ -39,38 +67,19 @@ bool read_file(const std::string& path, std::string& out) {
   return true;
 }
 
-int run(const std::vector<std::string>& args) {
-  if (args.empty()) {
-    std::fprintf(stderr, "junco export: give a format (spice, json, stats); see junco export --help\n");
+int run() {
+  Options& opt = g_opt;
+  const std::string& format = opt.format;
+  std::string& name = opt.name;
+  const std::string& out_path = opt.out_path;
+  LotStatsOptions& lot_opt = opt.lot;
+  lot_opt.set_size = static_cast<std::size_t>(opt.set_size);
+  if (!(lot_opt.match_current_a > 0) || !(lot_opt.match_tolerance_v > 0)) {
+    std::fprintf(stderr, "junco export: --match-current and --match-tol must be > 0\n");
     return exit_usage;
   }
-  const std::string format = args[0];
-  if (format != "spice" && format != "json" && format != "stats") {
-    std::fprintf(stderr, "junco export: unknown format '%s' (spice, json or stats)\n", format.c_str());
-    return exit_usage;
-  }
-  std::string name, out_path;
-  LotStatsOptions lot_opt;
   std::vector<PartModel> parts;
-  for (std::size_t k = 1; k < args.size(); ++k) {
-    const std::string& a = args[k];
-    if (a.rfind("--", 0) == 0) {
-      if (k + 1 >= args.size()) {
-        std::fprintf(stderr, "junco export: %s needs a value\n", a.c_str());
-        return exit_usage;
-      }
-      const std::string v = args[++k];
-      if (a == "--name") name = v;
-      else if (a == "--out") out_path = v;
-      else if (a == "--match-current") lot_opt.match_current_a = std::stod(v);
-      else if (a == "--match-tol") lot_opt.match_tolerance_v = std::stod(v);
-      else if (a == "--set-size") lot_opt.set_size = static_cast<std::size_t>(std::stoul(v));
-      else {
-        std::fprintf(stderr, "junco export: unknown option %s\n", a.c_str());
-        return exit_usage;
-      }
-      continue;
-    }
+  for (const auto& a : opt.files) {
     std::string text, why;
     if (!read_file(a, text)) {
       std::fprintf(stderr, "junco export: cannot read '%s'\n", a.c_str());
@@ -104,7 +113,8 @@ int run(const std::vector<std::string>& args) {
         for (const auto& o : q.outliers) result += " " + o;
         result += "\n";
       }
-      result += "  matched sets (Vf within " + std::to_string(lot_opt.match_tolerance_v) + " V):";
+      result += "  matched sets (Vf at " + junco::units::format_si(lot_opt.match_current_a, "A") + " within " +
+                junco::units::format_si(lot_opt.match_tolerance_v, "V") + "):";
       if (s.matched.empty()) result += " none";
       for (const auto& m : s.matched) {
         result += "\n   ";
@@ -138,7 +148,16 @@ int run(const std::vector<std::string>& args) {
   return exit_ok;
 }
 
-const bool registered = register_command({"export", "SPICE card, JSON model or lot statistics from model documents", help, run});
+Command export_command() {
+  Command c;
+  c.name = "export";
+  c.summary = "SPICE card, JSON model or lot statistics from model documents";
+  c.define = define;
+  c.run_parsed = run;
+  return c;
+}
+
+const bool registered = register_command(export_command());
 
 }  // namespace
 }  // namespace junco::cli

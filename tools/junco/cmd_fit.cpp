@@ -2,11 +2,13 @@
 #include "fitting/derived.hpp"
 #include "fitting/design_joint_fit.hpp"
 #include "fitting/design_readings_csv.hpp"
-#include "fitting/design_units.hpp"
 #include "fitting/extract.hpp"
+#include "fitting/fit_solve.hpp"  // the solver bounds a fit must not end at
 #include "fitting/iv_csv.hpp"
 #include "fitting/model_document.hpp"
+#include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
+#include "units/si_text.hpp"
 #include "tools/junco/joint_report.hpp"
 
 #include <nlohmann/json.hpp>
@@ -27,15 +29,15 @@ namespace {
 
 namespace jf = junco::fitting;
 
-const char* const fit_usage = R"(usage: junco fit FILE.csv [options]
-
-Fits the diode model  I = Is·(exp((V − I·Rs)/(n·Vt)) − 1)  (+ shunt) to a measured
+const char* const fit_description = R"(Fits the diode model  I = Is·(exp((V − I·Rs)/(n·Vt)) − 1)  (+ shunt) to a measured
 forward curve and prints Is, n, Rs with standard errors, and derived figures.
 
 The CSV file: '#' lines are comments; the first other line is a header naming the
-columns; then one reading per line. Voltage is found by the names v, v_v, voltage;
-current by i, i_a, current (any case; a unit in brackets is honoured: V, mV, uV;
-A, mA, uA, nA, pA). Other columns are ignored. Example:
+columns; then one reading per line. Voltage is found by the names v, u, voltage;
+current by i, current (any case). The unit follows the name after '_' (v_v, v_mv,
+i_a, i_ma, i_ua) or in brackets ('v [mV]', 'i (uA)'); none means V and A. Other
+columns are ignored. Separator ',' or ';' or tab; with --decimal-comma, 0,4286 reads
+as 0.4286 (then ';' or tab only). Example:
 
   # part K24B-017, lot KESTREL-24B, 27 °C
   v_v,i_a
@@ -47,39 +49,24 @@ A, mA, uA, nA, pA). Other columns are ignored. Example:
 
 Points with v ≤ 0 or i ≤ 0 (reverse bias) and points below the noise floor are
 excluded and listed, never dropped silently. At least 4 usable points are needed.
+A fit that ends with a parameter at its bound (n at 0.5 or 4, Is at 1.8e-35 A or
+0.14 A) is not a fit: junco says what is wrong (often the units of the columns)
+and exits 1.
 
-options:
-  --v-col NAME|N       voltage column by header name or 1-based position
-  --i-col NAME|N       current column by header name or 1-based position
-  --temp-c T           junction temperature in °C (default 27)
-  --shunt              also fit a shunt resistance Rsh across the junction
-  --robust huber|cauchy  robust loss, limits the pull of outlier readings
-  --robust-scale K     where the robust loss starts, in standard uncertainties (default 3)
-  --accuracy-v REL,ABS voltmeter accuracy ±(REL·|V| + ABS volts); REL may end in %
-                       (default 0.05%,100e-6)
-  --accuracy-i REL,ABS ammeter accuracy ±(REL·|I| + ABS amps) (default 0.2%,1e-9)
-  --noise-floor A      exclude currents below A amps (default 10 × the current offset)
-  --json               machine-readable output (see docs/fitting.md)
-  --model-out FILE     also write the fitted part as a JSON model document, which
-                       `junco design --model`, `junco export` and `junco plot` read
-  --label L, --lot L   the part's label and lot in that document (default: file name)
+Joint AC+DC fit (--ac): the AC readings pin Rs and n through rd = Rs + n·Vt/I, the
+DC curve pins Is; says whether the two agree within their uncertainties. AC
+readings below 100 uV or with a signal current above 0.1 x the bias are left out.
+Values take SI prefixes and units: 50, 4.7k, 0.3pF, 10meg.
+)";
 
-joint AC+DC fit (the AC readings pin Rs and n through rd = Rs + n·Vt/I, the DC
-curve pins Is; says whether the two agree within their uncertainties):
-  --ac AC.csv          fixture-gain readings, header bias_i_a,freq_hz,vin,vout
-                       (junco show PART --export ac-csv writes one)
-  --ac-unit vrms|vpp   the unit of vin and vout (default vrms)
-  --rl OHM             fixture load (default 50)
-  --rreturn OHM        DC-return resistor at the cathode (default: a choke, open at AC)
-  --ac-sigma DB        uncertainty of one AC reading (default 0.01)
-  --cj F               junction capacitance in the AC model and the AC-alone fit
-                       (default: none)
-  AC readings below 100 uV or with a signal current above 0.1 x the bias are left out.
-
-exit status: 0 fitted; 1 the fit failed; 2 bad command line or bad input file.
-Examples: junco fit tools/examples/kestrel24b_k24b017.csv --robust huber
-          junco fit curve.csv --model-out part.json && junco plot iv --readings curve.csv --model part.json --out iv.svg
-          junco fit iv.csv --ac ac.csv --rl 50)";
+const char* const fit_footer = R"(exit status: 0 fitted; 1 the fit failed or ended at a parameter bound; 2 bad command
+line or bad input file.
+examples:
+  junco fit tools/examples/kestrel24b_k24b017.csv --robust huber
+  junco fit curve_mv_ma.csv          (header v_mv,i_ma: millivolts and milliamps)
+  junco fit messung.csv --decimal-comma --temp-c 25
+  junco fit curve.csv --model-out part.json && junco plot iv --readings curve.csv --model part.json --out iv.svg
+  junco fit iv.csv --ac ac.csv --rl 50)";
 
 struct Args {
   std::string file;
@@ -91,22 +78,23 @@ struct Args {
   std::string ac_file;  // empty: no joint fit
   jf::Fixture fixture;  // for the AC model (rl, dc return)
   double ac_sigma_db = 0.01, cj_f = 0.0, peak_per_unit = 1.4142135623730951;
+  // As typed, checked after parsing.
+  double temp_c = 27.0;
+  std::string robust, accuracy_v, accuracy_i, ac_unit = "vrms";
+  std::optional<double> rreturn_ohm, noise_floor_a;
 };
+
+Args g_args;  // one command per process: the options are bound here by define_fit
 
 struct UsageError : std::runtime_error {
   using std::runtime_error::runtime_error;
 };
 
 double parse_number(const std::string& flag, const std::string& text) {
-  std::size_t used = 0;
-  double v = 0.0;
-  try {
-    v = std::stod(text, &used);
-  } catch (const std::exception&) {
-    used = 0;
-  }
-  if (used == 0 || used != text.size() || !std::isfinite(v)) throw UsageError(flag + ": '" + text + "' is not a number");
-  return v;
+  std::string why;
+  const auto v = junco::units::parse_si(text, "", &why);
+  if (!v) throw UsageError(flag + ": " + why);
+  return *v;
 }
 
 // "REL,ABS" with REL a fraction or a percentage.
@@ -126,78 +114,105 @@ std::pair<double, double> parse_accuracy(const std::string& flag, const std::str
   return {r, a};
 }
 
-Args parse_args(const std::vector<std::string>& argv) {
-  Args a;
-  double temp_c = 27.0;
-  for (std::size_t k = 0; k < argv.size(); ++k) {
-    const std::string& s = argv[k];
-    auto value = [&]() -> const std::string& {
-      if (k + 1 >= argv.size()) throw UsageError(s + " needs a value");
-      return argv[++k];
-    };
-    if (s == "--json") {
-      a.json = true;
-    } else if (s == "--model-out") {
-      a.model_out = value();
-    } else if (s == "--label") {
-      a.label = value();
-    } else if (s == "--lot") {
-      a.lot = value();
-    } else if (s == "--shunt") {
-      a.fit.fit_shunt = true;
-    } else if (s == "--v-col") {
-      a.columns.v_col = value();
-    } else if (s == "--i-col") {
-      a.columns.i_col = value();
-    } else if (s == "--temp-c") {
-      temp_c = parse_number(s, value());
-      if (temp_c <= -273.15 || temp_c > 500.0) throw UsageError("--temp-c: " + argv[k] + " °C is outside -273.15..500");
-    } else if (s == "--robust") {
-      const std::string& v = value();
-      if (v == "huber") a.fit.loss = jf::RobustLoss::huber;
-      else if (v == "cauchy") a.fit.loss = jf::RobustLoss::cauchy;
-      else throw UsageError("--robust: '" + v + "' is not huber or cauchy");
-    } else if (s == "--robust-scale") {
-      a.fit.loss_scale = parse_number(s, value());
-      if (!(a.fit.loss_scale > 0.0)) throw UsageError("--robust-scale must be > 0");
-    } else if (s == "--accuracy-v") {
-      std::tie(a.fit.accuracy.v_rel, a.fit.accuracy.v_abs_v) = parse_accuracy(s, value());
-    } else if (s == "--accuracy-i") {
-      std::tie(a.fit.accuracy.i_rel, a.fit.accuracy.i_abs_a) = parse_accuracy(s, value());
-    } else if (s == "--ac") {
-      a.ac_file = value();
-    } else if (s == "--ac-unit") {
-      const std::string& v = value();
-      if (v == "vrms") a.peak_per_unit = std::sqrt(2.0);
-      else if (v == "vpp") a.peak_per_unit = 0.5;
-      else throw UsageError("--ac-unit: '" + v + "' is not vrms or vpp");
-    } else if (s == "--rl" || s == "--rreturn" || s == "--ac-sigma" || s == "--cj") {
-      const char* unit = s == "--ac-sigma" ? "dB" : s == "--cj" ? "F" : "Ohm";
-      std::string why;
-      const auto v = jf::parse_engineering(value(), unit, &why);
-      if (!v) throw UsageError(s + ": " + why);
-      if (s == "--rl" && !(*v > 0)) throw UsageError("--rl must be > 0");
-      if (s == "--rreturn" && !(*v > 0)) throw UsageError("--rreturn must be > 0 (leave it out for a choke)");
-      if (s == "--ac-sigma" && !(*v > 0)) throw UsageError("--ac-sigma must be > 0");
-      if (s == "--cj" && !(*v >= 0)) throw UsageError("--cj must be >= 0");
-      if (s == "--rl") a.fixture.rl_ohm = *v;
-      else if (s == "--rreturn") a.fixture.dc_return_ohm = *v;
-      else if (s == "--ac-sigma") a.ac_sigma_db = *v;
-      else a.cj_f = *v;
-    } else if (s == "--noise-floor") {
-      a.fit.noise_floor_a = parse_number(s, value());
-      if (a.fit.noise_floor_a < 0.0) throw UsageError("--noise-floor must be ≥ 0");
-    } else if (!s.empty() && s[0] == '-' && s != "-") {
-      throw UsageError("unknown option '" + s + "' (see junco fit --help)");
-    } else if (a.file.empty()) {
-      a.file = s;
-    } else {
-      throw UsageError("one input file only (got '" + a.file + "' and '" + s + "')");
+void define_fit(CLI::App& app) {
+  Args& a = g_args;
+  app.description(fit_description);
+  app.footer(fit_footer);
+  app.add_option("FILE", a.file, "the forward curve (CSV, see above)")->type_name("");
+  app.add_option("--v-col", a.columns.v_col, "voltage column by header name or 1-based position")->type_name("NAME|N");
+  app.add_option("--i-col", a.columns.i_col, "current column by header name or 1-based position")->type_name("NAME|N");
+  app.add_flag("--decimal-comma", a.columns.decimal_comma, "numbers use a decimal comma (0,4286); columns separated by ';' or tab");
+  add_si_option(app, "--temp-c", a.temp_c, "C", "junction temperature in °C", "27");
+  app.add_flag("--shunt", a.fit.fit_shunt, "also fit a shunt resistance Rsh across the junction");
+  app.add_option("--robust", a.robust, "robust loss, limits the pull of outlier readings")
+      ->check(CLI::IsMember({"huber", "cauchy"}).description(""))
+      ->type_name("huber|cauchy");
+  add_si_option(app, "--robust-scale", a.fit.loss_scale, "", "where the robust loss starts, in standard uncertainties", "3");
+  app.add_option("--accuracy-v", a.accuracy_v, "voltmeter accuracy ±(REL·|V| + ABS volts); REL may end in % (default 0.05%,100e-6)")
+      ->type_name("REL,ABS");
+  app.add_option("--accuracy-i", a.accuracy_i, "ammeter accuracy ±(REL·|I| + ABS amps) (default 0.2%,1e-9)")->type_name("REL,ABS");
+  add_si_option(app, "--noise-floor", a.noise_floor_a, "A", "exclude currents below this (default 10 × the current offset)");
+  app.add_flag("--json", a.json, "machine-readable output (see docs/fitting.md)");
+  app.add_option("--model-out", a.model_out,
+                 "also write the fitted part as a JSON model document, which junco design --model, junco export and junco plot read")
+      ->type_name("FILE");
+  app.add_option("--label", a.label, "the part's label in that document (default: the file name)")->type_name("L");
+  app.add_option("--lot", a.lot, "the part's lot in that document")->type_name("L");
+  app.add_option("--ac", a.ac_file, "joint AC+DC fit with these fixture-gain readings, header bias_i_a,freq_hz,vin,vout "
+                                    "(junco show PART --export ac-csv writes one)")
+      ->type_name("AC.csv");
+  app.add_option("--ac-unit", a.ac_unit, "the unit of vin and vout (default vrms)")
+      ->check(CLI::IsMember({"vrms", "vpp"}).description(""))
+      ->type_name("vrms|vpp");
+  add_si_option(app, "--rl", a.fixture.rl_ohm, "ohm", "fixture load", "50");
+  add_si_option(app, "--rreturn", a.rreturn_ohm, "ohm", "DC-return resistor at the cathode (default: a choke, open at AC)");
+  add_si_option(app, "--ac-sigma", a.ac_sigma_db, "dB", "uncertainty of one AC reading", "0.01");
+  add_si_option(app, "--cj", a.cj_f, "F", "junction capacitance in the AC model and the AC-alone fit (default: none)");
+}
+
+// The checks CLI11 cannot express (ranges of unit-bearing values), and the
+// conversions to the fit's own units.
+void finish_args(Args& a) {
+  if (a.file.empty()) throw UsageError("missing input file (usage: junco fit FILE.csv [options])");
+  if (a.temp_c <= -273.15 || a.temp_c > 500.0) throw UsageError("--temp-c: " + junco::units::format_si(a.temp_c, "", 6) + " °C is outside -273.15..500");
+  if (a.robust == "huber") a.fit.loss = jf::RobustLoss::huber;
+  else if (a.robust == "cauchy") a.fit.loss = jf::RobustLoss::cauchy;
+  if (!(a.fit.loss_scale > 0.0)) throw UsageError("--robust-scale must be > 0");
+  if (!a.accuracy_v.empty()) std::tie(a.fit.accuracy.v_rel, a.fit.accuracy.v_abs_v) = parse_accuracy("--accuracy-v", a.accuracy_v);
+  if (!a.accuracy_i.empty()) std::tie(a.fit.accuracy.i_rel, a.fit.accuracy.i_abs_a) = parse_accuracy("--accuracy-i", a.accuracy_i);
+  if (a.noise_floor_a) {
+    if (*a.noise_floor_a < 0.0) throw UsageError("--noise-floor must be ≥ 0");
+    a.fit.noise_floor_a = *a.noise_floor_a;
+  }
+  a.peak_per_unit = a.ac_unit == "vpp" ? 0.5 : std::sqrt(2.0);
+  if (!(a.fixture.rl_ohm > 0)) throw UsageError("--rl must be > 0");
+  if (a.rreturn_ohm) {
+    if (!(*a.rreturn_ohm > 0)) throw UsageError("--rreturn must be > 0 (leave it out for a choke)");
+    a.fixture.dc_return_ohm = *a.rreturn_ohm;
+  }
+  if (!(a.ac_sigma_db > 0)) throw UsageError("--ac-sigma must be > 0");
+  if (!(a.cj_f >= 0)) throw UsageError("--cj must be >= 0");
+  a.fit.temp_k = jf::kelvin_from_celsius(a.temp_c);
+}
+
+// Parameters the solve left at a bound of fit_solve.hpp: such a "fit" says
+// the model did not describe the readings (often columns in mV/mA read as
+// V/A), so it is reported as a failure, never as converged. Rs = 0 is not
+// listed: a curve without high-current points rightly gives Rs ≈ 0 (warned).
+std::vector<std::string> parameters_at_bounds(const jf::FitResult& r) {
+  std::vector<std::string> out;
+  const auto at = [](double x, double bound) { return std::abs(x - bound) <= 1e-6 * std::max(1.0, std::abs(bound)); };
+  char text[160];
+  if (at(r.n.value, jf::fit_n_min) || at(r.n.value, jf::fit_n_max)) {
+    std::snprintf(text, sizeof text, "n = %.4g is at its bound (%.2g..%.2g)", r.n.value, jf::fit_n_min, jf::fit_n_max);
+    out.emplace_back(text);
+  }
+  if (r.is_a.value > 0) {
+    const double ln_is = std::log(r.is_a.value);
+    if (at(ln_is, jf::fit_ln_is_min) || at(ln_is, jf::fit_ln_is_max)) {
+      std::snprintf(text, sizeof text, "Is = %.3g A is at its bound (%.2g..%.2g A)", r.is_a.value, std::exp(jf::fit_ln_is_min),
+                    std::exp(jf::fit_ln_is_max));
+      out.emplace_back(text);
     }
   }
-  if (a.file.empty()) throw UsageError("missing input file (usage: junco fit FILE.csv [options])");
-  a.fit.temp_k = jf::kelvin_from_celsius(temp_c);
-  return a;
+  if (at(r.rs_ohm.value, jf::fit_rs_max_ohm)) out.emplace_back("Rs is at its upper bound (1 Mohm)");
+  if (std::isfinite(r.rsh_ohm.value) && at(std::log(r.rsh_ohm.value), jf::fit_ln_rsh_min)) out.emplace_back("Rsh is at its lower bound (1 ohm)");
+  return out;
+}
+
+// What the readings look like when a fit ends at a bound: a hint at the
+// usual cause, columns whose unit is not what the header says.
+std::string bound_hint(const jf::IvCsv& csv) {
+  double v_max = 0, i_max = 0;
+  for (const auto& p : csv.points) {
+    v_max = std::max(v_max, p.v);
+    i_max = std::max(i_max, p.i_a);
+  }
+  std::string hint = "the readings reach " + junco::units::format_si(v_max, "V", 3) + " and " + junco::units::format_si(i_max, "A", 3);
+  if (v_max > 5.0 || i_max > 1.0)
+    hint += ", far above a diode's forward range: if the columns are in mV and mA, name them v_mv,i_ma "
+            "(or 'v [mV]','i [mA]'); header read as " + csv.v_header + "," + csv.i_header;
+  return hint;
 }
 
 std::string read_file(const std::string& path) {
@@ -237,10 +252,12 @@ Derived derive(const jf::FitResult& r) {
   return {jf::forward_voltage_v(r, 1e-3), jf::forward_voltage_v(r, 10e-3), jf::small_signal_resistance_ohm(r, 5e-3)};
 }
 
-void print_json(const Args& a, const jf::IvCsv& csv, const jf::FitResult& r, const nlohmann::json& joint) {
+void print_json(const Args& a, const jf::IvCsv& csv, const jf::FitResult& r, const nlohmann::json& joint,
+                const std::vector<std::string>& at_bounds) {
   nlohmann::json j;
   j["file"] = a.file;
-  j["status"] = jf::to_string(r.status);
+  j["status"] = at_bounds.empty() ? jf::to_string(r.status) : "at_bound";
+  j["at_bounds"] = at_bounds;
   j["message"] = r.message;
   j["temp_k"] = r.temp_k;
   j["points_total"] = csv.points.size();
@@ -275,8 +292,9 @@ void print_json(const Args& a, const jf::IvCsv& csv, const jf::FitResult& r, con
   std::printf("%s\n", j.dump(2).c_str());
 }
 
-void print_human(const Args& a, const jf::IvCsv& csv, const jf::FitResult& r) {
-  std::printf("%s: %s, %zu of %zu points used, %.2f °C, %d iterations\n", a.file.c_str(), jf::to_string(r.status),
+void print_human(const Args& a, const jf::IvCsv& csv, const jf::FitResult& r, bool at_bound) {
+  std::printf("%s: %s, %zu of %zu points used, %.2f °C, %d iterations\n", a.file.c_str(),
+              at_bound ? "NOT FITTED (a parameter is at its bound)" : jf::to_string(r.status),
               r.points_used, csv.points.size(), r.temp_k - jf::zero_celsius_k, r.iterations);
   std::printf("  Is  = %.5g ± %.2g A\n", r.is_a.value, r.is_a.std_error);
   std::printf("  n   = %.5f ± %.2g\n", r.n.value, r.n.std_error);
@@ -356,11 +374,11 @@ void print_joint(const Args& a, const JointRun& j) {
   print_joint_report(jf::joint_report_json(j.report));
 }
 
-int run_fit(const std::vector<std::string>& argv) {
-  Args a;
+int run_fit() {
+  Args& a = g_args;
   jf::IvCsv csv;
   try {
-    a = parse_args(argv);
+    finish_args(a);
     csv = jf::parse_iv_csv(read_file(a.file), a.columns);
   } catch (const UsageError& e) {
     std::fprintf(stderr, "junco fit: %s\n", e.what());
@@ -392,11 +410,18 @@ int run_fit(const std::vector<std::string>& argv) {
       return exit_usage;
     }
   }
+  const auto at_bounds = parameters_at_bounds(r);
   if (a.json) {
-    print_json(a, csv, r, a.ac_file.empty() ? nlohmann::json(nullptr) : joint_json(joint));
+    print_json(a, csv, r, a.ac_file.empty() ? nlohmann::json(nullptr) : joint_json(joint), at_bounds);
   } else {
-    print_human(a, csv, r);
+    print_human(a, csv, r, !at_bounds.empty());
     if (!a.ac_file.empty()) print_joint(a, joint);
+  }
+  if (!at_bounds.empty()) {
+    std::string what;
+    for (const auto& b : at_bounds) what += (what.empty() ? "" : "; ") + b;
+    std::fprintf(stderr, "junco fit: %s: no valid fit: %s; %s\n", a.file.c_str(), what.c_str(), bound_hint(csv).c_str());
+    return exit_failure;
   }
   if (!r.usable()) {
     std::fprintf(stderr, "junco fit: %s: fit did not converge: %s\n", a.file.c_str(), r.message.c_str());
@@ -406,7 +431,16 @@ int run_fit(const std::vector<std::string>& argv) {
   return exit_ok;
 }
 
-const bool registered = register_command({"fit", "fit Is, n, Rs to a measured forward curve (CSV)", fit_usage, run_fit});
+Command fit_command() {
+  Command c;
+  c.name = "fit";
+  c.summary = "fit Is, n, Rs to a measured forward curve (CSV)";
+  c.define = define_fit;
+  c.run_parsed = run_fit;
+  return c;
+}
+
+const bool registered = register_command(fit_command());
 
 }  // namespace
 }  // namespace junco::cli

@@ -1,4 +1,5 @@
 // junco jobs: the daemon's jobs, newest last.
+#include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
 #include "tools/junco/rpc_client.hpp"
 
@@ -7,24 +8,32 @@
 namespace junco::cli {
 namespace {
 
-const char* const usage = R"(usage: junco jobs [--state STATE] [--socket PATH] [--json]
-
-Lists juncod's jobs: id, state, points done / total, lot, submission time,
+const char* const description = R"(Lists juncod's jobs: id, state, points done / total, lot, submission time,
 and the error of a failed job.
+)";
+const char* const footer = R"()";
 
-options:
-  --state STATE  only jobs in STATE: queued, running, paused, done, failed,
-                 cancelled or interrupted
-  --socket PATH  juncod's socket (see junco status --help)
-  --json         print the job.list result as JSON)";
+struct Options {
+  std::string socket, state;
+  bool json = false;
+};
+Options g_opt;  // bound by define(); one command per process
 
-int run(std::vector<std::string> args) {
+void define(CLI::App& app) {
+  app.description(description);
+  app.footer(footer);
+  app.add_option("--state", g_opt.state, "only jobs in STATE")
+      ->check(CLI::IsMember({"queued", "running", "paused", "done", "failed", "cancelled", "interrupted"}).description(""))
+      ->type_name("queued|running|paused|done|failed|cancelled|interrupted");
+  add_socket_option(app, g_opt.socket);
+  app.add_flag("--json", g_opt.json, "print the job.list result as JSON");
+}
+
+int run() {
   return guarded("jobs", [&] {
-    const auto socket = take_socket_option(args);
-    const bool json = take_flag(args, "--json");
-    const auto state = take_option(args, "--state");
-    if (!args.empty()) throw std::invalid_argument("unexpected argument '" + args.front() + "'");
-    RpcClient client(socket);
+    const bool json = g_opt.json;
+    const auto state = g_opt.state.empty() ? std::nullopt : std::optional<std::string>(g_opt.state);
+    RpcClient client(socket_path(g_opt.socket));
     Json params = Json::object();
     if (state) params["state"] = *state;
     const Json r = client.call("job.list", params);
@@ -49,7 +58,16 @@ int run(std::vector<std::string> args) {
   });
 }
 
-const bool registered = register_command({"jobs", "list the daemon's jobs", usage, run});
+Command make_command() {
+  Command c;
+  c.name = "jobs";
+  c.summary = "list the daemon's jobs";
+  c.define = define;
+  c.run_parsed = run;
+  return c;
+}
+
+const bool registered = register_command(make_command());
 
 }  // namespace
 }  // namespace junco::cli

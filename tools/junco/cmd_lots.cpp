@@ -1,7 +1,12 @@
 // junco lots: the lots the daemon has measured; with a lot name, that lot's
 // statistics (lot.stats) or its nominal part as a model (lot.export).
+#include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
 #include "tools/junco/rpc_client.hpp"
+#include "tools/junco/run_history.hpp"
+
+#include <map>
+#include <set>
 
 #include <cmath>
 #include <cstdio>
@@ -10,35 +15,54 @@
 namespace junco::cli {
 namespace {
 
-const char* const usage = R"(usage: junco lots [--socket PATH] [--json]
-       junco lots LOT [--at CURRENTS] [--match-current A] [--match-tol V] [--set-size N] [--json]
-       junco lots LOT --export spice|json [--out FILE]
-
-Without LOT: lists the lots in juncod's database: id, name, number of parts,
-when the lot was first seen. `junco parts --lot NAME` lists a lot's parts.
+const char* const description = R"(Without LOT: lists the lots in juncod's database: id, name, number of parts,
+when the lot was first seen, and the jobs that measured it (a lot measured by
+several jobs is marked re-measured). `junco parts --lot NAME` lists its parts.
 
 With LOT: the spread of the lot's fitted parts — mean, standard deviation,
 range, median and MAD of Is, n, Rs and of Vf and rd at the chosen currents;
 outliers (modified z-score over 3.5; Is in log); matched sets (parts whose Vf
 at the match current agree within the tolerance); and the lot nominal
 (median of each parameter). Parts without a usable fit are listed apart.
+It says which job each part's latest fit comes from, and when the statistics
+mix runs of different jobs.
 
-options:
-  --at CURRENTS        currents for Vf and rd (default 1mA,10mA)
-  --match-current A    current at which Vf is matched (default 10mA)
-  --match-tol V        Vf tolerance of a matched set (default 2mV)
-  --set-size N         parts per matched set (default 2: pairs)
-  --export FORMAT      the lot nominal as a SPICE .model card (spice) or a model
-                       document for junco design --model (json)
-  --out FILE           with --export: write to FILE instead of standard output
-  --socket PATH        juncod's socket (see junco status --help)
-  --json               print the lot.list / lot.stats result as JSON
+With LOT --export: the lot nominal as a SPICE .model card (spice) or a model
+document for junco design --model (json).
+)";
 
-examples:
+const char* const footer = R"(examples:
+  junco lots
   junco lots WREN-0912 --at 1mA,5mA --match-tol 1mV
   junco lots WREN-0912 --export spice --out wren0912_nom.lib
 
 exit status: 0 shown; 1 unknown lot, no fitted parts, or daemon error; 2 bad options.)";
+
+struct Options {
+  std::string lot, socket, export_format, out_path;
+  std::vector<double> currents_a;
+  std::optional<double> match_current_a, match_tolerance_v;
+  std::string set_size;  // checked in run(): the message names the text
+  bool json = false;
+};
+Options g_opt;  // bound by define(); one command per process
+
+void define(CLI::App& app) {
+  Options& o = g_opt;
+  app.description(description);
+  app.footer(footer);
+  app.add_option("LOT", o.lot, "a lot's name (without it: the list of lots)")->type_name("");
+  add_si_list_option(app, "--at", o.currents_a, "A", "currents for Vf and rd", "1mA,10mA");
+  add_si_option(app, "--match-current", o.match_current_a, "A", "current at which Vf is matched (default 10mA)");
+  add_si_option(app, "--match-tol", o.match_tolerance_v, "V", "Vf tolerance of a matched set (default 2mV)");
+  app.add_option("--set-size", o.set_size, "parts per matched set, 2..64 (default 2: pairs)")->type_name("N");
+  app.add_option("--export", o.export_format, "the lot nominal as a SPICE .model card or a model document")
+      ->check(CLI::IsMember({"spice", "json"}).description(""))
+      ->type_name("spice|json");
+  app.add_option("--out", o.out_path, "with --export: write to FILE instead of standard output")->type_name("FILE");
+  add_socket_option(app, o.socket);
+  app.add_flag("--json", o.json, "print the lot.list / lot.stats result as JSON");
+}
 
 double num(const Json& j) { return j.is_number() ? j.get<double>() : std::nan(""); }
 
@@ -100,6 +124,49 @@ void print_stats(const Json& r) {
               num(nom["n"]), format_si(num(nom["rs_ohm"]), "Ω").c_str(), law.c_str(), r["lot"].get<std::string>().c_str());
 }
 
+// Which run each part's latest fit (what lot.stats uses) came from, grouped
+// by job: [{job_id, started_at, parts: [labels]}], and the parts measured in
+// other jobs too. A re-measured lot is never shown as one run silently.
+Json runs_used(RpcClient& client, const std::string& lot) {
+  const auto runs = all_runs(client);
+  std::map<long, Json> by_job;
+  std::set<long> all_jobs;
+  for (const auto& p : client.call("part.list", Json{{"lot", lot}}).value("parts", Json::array())) {
+    const long part = p.value("part_id", 0L);
+    for (const auto& r : runs_of_part(runs, part)) all_jobs.insert(r.job_id);
+    if (!p.value("has_fit", false)) continue;
+    const Json fit = client.call("part.fit", Json{{"part_id", part}});
+    const long run = fit.value("run_id", Json(0)).is_number() ? fit["run_id"].get<long>() : 0;
+    for (const auto& r : runs_of_part(runs, part))
+      if (r.run_id == run) {
+        Json& g = by_job[r.job_id];
+        if (g.is_null()) g = Json{{"job_id", r.job_id}, {"started_at", r.started_at}, {"parts", Json::array()}};
+        g["parts"].push_back(p.value("label", ""));
+      }
+  }
+  Json out{{"fits_from_jobs", Json::array()}, {"jobs_measuring_lot", Json(std::vector<long>(all_jobs.begin(), all_jobs.end()))}};
+  for (auto& [job, g] : by_job) out["fits_from_jobs"].push_back(g);
+  return out;
+}
+
+void print_runs_used(const Json& used) {
+  const Json& groups = used["fits_from_jobs"];
+  const Json& jobs = used["jobs_measuring_lot"];
+  if (jobs.size() <= 1 && groups.size() <= 1) {
+    if (groups.size() == 1)
+      std::printf("  fits from job %ld (%s)\n", groups[0]["job_id"].get<long>(), groups[0]["started_at"].get<std::string>().c_str());
+    return;
+  }
+  std::printf("  the lot was measured by %zu jobs; each part's latest fit is used:\n", jobs.size());
+  for (const auto& g : groups) {
+    std::string labels;
+    for (const auto& l : g["parts"]) labels += " " + l.get<std::string>();
+    std::printf("    job %ld (%s): %zu part(s):%s\n", g["job_id"].get<long>(), g["started_at"].get<std::string>().c_str(), g["parts"].size(),
+                labels.c_str());
+  }
+  if (groups.size() > 1) std::printf("  note: these statistics mix runs of different jobs\n");
+}
+
 int list_lots(RpcClient& client, bool json) {
   const Json r = client.call("lot.list");
   if (json) {
@@ -111,56 +178,74 @@ int list_lots(RpcClient& client, bool json) {
     std::printf("no lots yet (submit a plan: junco submit PLAN.jsonc)\n");
     return exit_ok;
   }
-  std::printf("%6s  %-24s  %6s  %s\n", "lot", "name", "parts", "created");
-  for (const auto& l : lots)
-    std::printf("%6ld  %-24s  %6ld  %s\n", l.value("lot_id", 0L), l.value("name", "").c_str(), l.value("parts", 0L),
-                l.value("created_at", "").c_str());
+  // Which jobs measured each lot: a lot measured twice says so here.
+  std::map<long, std::string> lot_of_part;
+  for (const auto& p : client.call("part.list").value("parts", Json::array())) lot_of_part[p.value("part_id", 0L)] = p.value("lot", "");
+  std::map<std::string, std::set<long>> jobs_of_lot;
+  for (const auto& run : all_runs(client)) jobs_of_lot[lot_of_part[run.part_id]].insert(run.job_id);
+  std::printf("%6s  %-24s  %6s  %-20s  %s\n", "lot", "name", "parts", "created", "measured by");
+  for (const auto& l : lots) {
+    std::string jobs;
+    for (long j : jobs_of_lot[l.value("name", "")]) jobs += (jobs.empty() ? "job " : ", ") + std::to_string(j);
+    const auto count = jobs_of_lot[l.value("name", "")].size();
+    if (count > 1) jobs = "jobs" + jobs.substr(3) + " (re-measured)";
+    std::printf("%6ld  %-24s  %6ld  %-20s  %s\n", l.value("lot_id", 0L), l.value("name", "").c_str(), l.value("parts", 0L),
+                l.value("created_at", "").c_str(), jobs.empty() ? "-" : jobs.c_str());
+  }
   return exit_ok;
 }
 
-int run(std::vector<std::string> args) {
+int run() {
+  const Options& o = g_opt;
   return guarded("lots", [&] {
-    const auto socket = take_socket_option(args);
-    const bool json = take_flag(args, "--json");
-    const auto at = take_option(args, "--at");
-    const auto match_current = take_option(args, "--match-current");
-    const auto match_tol = take_option(args, "--match-tol");
-    const auto set_size = take_option(args, "--set-size");
-    const auto export_format = take_option(args, "--export");
-    const auto out_path = take_option(args, "--out");
-    if (out_path && !export_format) throw std::invalid_argument("--out goes with --export FORMAT");
-    if (args.size() > 1) throw std::invalid_argument("unexpected argument '" + args[1] + "'");
-    if (args.empty()) {
-      if (at || match_current || match_tol || set_size || export_format) throw std::invalid_argument("these options need a LOT");
+    const std::string socket = socket_path(o.socket);
+    if (!o.out_path.empty() && o.export_format.empty()) throw std::invalid_argument("--out goes with --export FORMAT");
+    const bool stats_options = !o.currents_a.empty() || o.match_current_a || o.match_tolerance_v || !o.set_size.empty();
+    if (o.lot.empty()) {
+      if (stats_options || !o.export_format.empty()) throw std::invalid_argument("these options need a LOT");
       RpcClient client(socket);
-      return list_lots(client, json);
+      return list_lots(client, o.json);
     }
-    Json params{{"lot", args[0]}};
-    if (export_format) {
+    if (!o.export_format.empty()) {
+      if (stats_options) throw std::invalid_argument("--export gives the nominal; --at, --match-* and --set-size go without it");
       RpcClient client(socket);
-      const Json r = client.call("lot.export", Json{{"lot", args[0]}, {"format", *export_format}});
-      write_document(r.value("content", ""), out_path);
+      const Json r = client.call("lot.export", Json{{"lot", o.lot}, {"format", o.export_format}});
+      write_document(r.value("content", ""), o.out_path.empty() ? std::nullopt : std::optional<std::string>(o.out_path));
       for (const auto& l : r.value("left_out", Json::array()))
         std::fprintf(stderr, "junco lots: the nominal leaves out %s (%s)\n", l["label"].get<std::string>().c_str(), l["reason"].get<std::string>().c_str());
       return exit_ok;
     }
-    if (at) params["currents_a"] = parse_quantity_list(*at, "A");
-    if (match_current) params["match_current_a"] = parse_quantity(*match_current, "A");
-    if (match_tol) params["match_tolerance_v"] = parse_quantity(*match_tol, "V");
-    if (set_size) {  // the daemon checks the range (2..64) and says so
-      if (set_size->empty() || set_size->find_first_not_of("0123456789") != std::string::npos || set_size->size() > 6)
-        throw std::invalid_argument("--set-size must be a whole number of parts (2..64), not '" + *set_size + "'");
-      params["set_size"] = std::stol(*set_size);
+    Json params{{"lot", o.lot}};
+    if (!o.currents_a.empty()) params["currents_a"] = o.currents_a;
+    if (o.match_current_a) params["match_current_a"] = *o.match_current_a;
+    if (o.match_tolerance_v) params["match_tolerance_v"] = *o.match_tolerance_v;
+    if (!o.set_size.empty()) {  // the daemon checks the range (2..64) and says so
+      if (o.set_size.find_first_not_of("0123456789") != std::string::npos || o.set_size.size() > 6)
+        throw std::invalid_argument("--set-size must be a whole number of parts (2..64), not '" + o.set_size + "'");
+      params["set_size"] = std::stol(o.set_size);
     }
     RpcClient client(socket);
-    const Json r = client.call("lot.stats", params);
-    if (json) std::printf("%s\n", r.dump(2).c_str());
-    else print_stats(r);
+    Json r = client.call("lot.stats", params);
+    r["runs_used"] = runs_used(client, o.lot);
+    if (o.json) std::printf("%s\n", r.dump(2).c_str());
+    else {
+      print_stats(r);
+      print_runs_used(r["runs_used"]);
+    }
     return exit_ok;
   });
 }
 
-const bool registered = register_command({"lots", "list measured lots; a lot's statistics, matched sets and nominal", usage, run});
+Command make_command() {
+  Command c;
+  c.name = "lots";
+  c.summary = "list measured lots; a lot's statistics, matched sets and nominal";
+  c.define = define;
+  c.run_parsed = run;
+  return c;
+}
+
+const bool registered = register_command(make_command());
 
 }  // namespace
 }  // namespace junco::cli

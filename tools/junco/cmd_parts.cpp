@@ -1,4 +1,5 @@
 // junco parts [--lot L]: measured parts, and whether each has a fit.
+#include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
 #include "tools/junco/rpc_client.hpp"
 
@@ -7,23 +8,30 @@
 namespace junco::cli {
 namespace {
 
-const char* const usage = R"(usage: junco parts [--lot NAME] [--socket PATH] [--json]
-
-Lists measured parts: part id, lot, label, fixture slot, and whether the part
+const char* const description = R"(Lists measured parts: part id, lot, label, fixture slot, and whether the part
 has a fit. `junco show PART` prints a part's fitted model.
+)";
+const char* const footer = R"()";
 
-options:
-  --lot NAME     only the parts of lot NAME
-  --socket PATH  juncod's socket (see junco status --help)
-  --json         print the part.list result as JSON)";
+struct Options {
+  std::string socket, lot;
+  bool json = false;
+};
+Options g_opt;  // bound by define(); one command per process
 
-int run(std::vector<std::string> args) {
+void define(CLI::App& app) {
+  app.description(description);
+  app.footer(footer);
+  app.add_option("--lot", g_opt.lot, "only the parts of lot NAME")->type_name("NAME");
+  add_socket_option(app, g_opt.socket);
+  app.add_flag("--json", g_opt.json, "print the part.list result as JSON");
+}
+
+int run() {
   return guarded("parts", [&] {
-    const auto socket = take_socket_option(args);
-    const bool json = take_flag(args, "--json");
-    const auto lot = take_option(args, "--lot");
-    if (!args.empty()) throw std::invalid_argument("unexpected argument '" + args.front() + "'");
-    RpcClient client(socket);
+    const bool json = g_opt.json;
+    const auto lot = g_opt.lot.empty() ? std::nullopt : std::optional<std::string>(g_opt.lot);
+    RpcClient client(socket_path(g_opt.socket));
     Json params = Json::object();
     if (lot) params["lot"] = *lot;
     const Json r = client.call("part.list", params);
@@ -44,7 +52,16 @@ int run(std::vector<std::string> args) {
   });
 }
 
-const bool registered = register_command({"parts", "list measured parts (of a lot)", usage, run});
+Command make_command() {
+  Command c;
+  c.name = "parts";
+  c.summary = "list measured parts (of a lot)";
+  c.define = define;
+  c.run_parsed = run;
+  return c;
+}
+
+const bool registered = register_command(make_command());
 
 }  // namespace
 }  // namespace junco::cli

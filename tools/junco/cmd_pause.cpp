@@ -1,4 +1,5 @@
 // junco pause JOB: stops the job after the current point, outputs off; junco resume continues it.
+#include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
 #include "tools/junco/rpc_client.hpp"
 
@@ -7,29 +8,44 @@
 namespace junco::cli {
 namespace {
 
-const char* const usage = R"(usage: junco pause JOB [--socket PATH]
-
-Asks juncod to pause job JOB: stops the job after the current point, outputs off; junco resume continues it.
+const char* const description = R"(Asks juncod to pause job JOB: stops the job after the current point, outputs off; junco resume continues it.
 Prints the job's new state.
+)";
+const char* const footer = R"(exit status: 0 done; 1 no such job or the job cannot be paused in its state.)";
 
-options:
-  --socket PATH  juncod's socket (see junco status --help)
+struct Options {
+  long job = 0;
+  std::string socket;
+};
+Options g_opt;  // bound by define(); one command per process
 
-exit status: 0 done; 1 no such job or the job cannot be paused in its state.)";
+void define(CLI::App& app) {
+  app.description(description);
+  app.footer(footer);
+  app.add_option("JOB", g_opt.job, "the job id (junco jobs lists them)")->required()->check(positive_id());
+  add_socket_option(app, g_opt.socket);
+}
 
-int run(std::vector<std::string> args) {
+int run() {
   return guarded("pause", [&] {
-    const auto socket = take_socket_option(args);
-    if (args.size() != 1) throw std::invalid_argument("expected one job id");
-    const long job = parse_id(args[0], "JOB");
-    RpcClient client(socket);
+    const long job = g_opt.job;
+    RpcClient client(socket_path(g_opt.socket));
     const Json j = client.call("job.pause", Json{{"job_id", job}});
     std::printf("job %ld: %s\n", job, j.value("state", "?").c_str());
     return exit_ok;
   });
 }
 
-const bool registered = register_command({"pause", "pause a job (outputs off)", usage, run});
+Command make_command() {
+  Command c;
+  c.name = "pause";
+  c.summary = "pause a job (outputs off)";
+  c.define = define;
+  c.run_parsed = run;
+  return c;
+}
+
+const bool registered = register_command(make_command());
 
 }  // namespace
 }  // namespace junco::cli

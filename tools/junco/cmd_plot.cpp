@@ -98,6 +98,16 @@ std::string title_of(const PartModel& m) {
   return "part " + m.part_label + (m.lot.empty() ? std::string() : ", lot " + m.lot);
 }
 
+// An option's value through the one units grammar ("50", "4.7k", "1mA").
+double number(std::map<std::string, std::string>& o, const char* key, double fallback, const char* unit = "ohm") {
+  if (!o.count(key)) return fallback;
+  try {
+    return parse_quantity(o[key], unit);
+  } catch (const std::invalid_argument& e) {
+    throw std::invalid_argument(std::string("--") + key + ": " + e.what());
+  }
+}
+
 int plot_iv(Source& src) {
   auto& o = src.o;
   const auto m = src.model();
@@ -106,7 +116,7 @@ int plot_iv(Source& src) {
   // Readings the fit leaves out (reverse, below the noise floor) are drawn
   // apart and kept out of the residual panel, as the fit report lists them.
   FitOptions fit_rules;
-  if (o.count("noise-floor")) fit_rules.noise_floor_a = std::stod(o["noise-floor"]);
+  if (o.count("noise-floor")) fit_rules.noise_floor_a = number(o, "noise-floor", 0.0, "A");
   const double floor_a = effective_noise_floor_a(fit_rules);
   std::string meas, excluded, resid, model;
   double i_lo = 1e300, i_hi = 0;
@@ -150,9 +160,7 @@ int plot_iv(Source& src) {
   return exit_ok;
 }
 
-double number(std::map<std::string, std::string>& o, const char* key, double fallback) {
-  return o.count(key) ? std::stod(o[key]) : fallback;
-}
+
 
 // One AC reading as plotted: measured and modelled gain, and whether the
 // small-signal comparison uses it (juncod's part.transfer says; from files,

@@ -1,5 +1,7 @@
 // junco show PART: a part's fitted model and its figures at chosen currents.
+#include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
+#include "tools/junco/run_history.hpp"
 #include "tools/junco/rpc_client.hpp"
 
 #include <cstdio>
@@ -8,32 +10,51 @@
 namespace junco::cli {
 namespace {
 
-const char* const usage = R"(usage: junco show PART [--at CURRENTS] [--lot NAME] [--socket PATH] [--json]
-
-Prints a part's latest fit: saturation current Is, ideality n, series
+const char* const description = R"(Prints a part's latest fit: saturation current Is, ideality n, series
 resistance Rs (and shunt Rsh when fitted), each ± its standard error; the fit
 status and warnings; and, at each chosen forward current, the forward voltage
 Vf and the small-signal resistance rd = dV/dI, ± standard error.
 
+The first lines name the part, its lot, the run the fit was made from (its job
+and date) and when the fit was made. A part measured more than once (a lot
+re-measured) is never shown mixed: the other runs are listed with their dates.
+
 PART is a part id (see junco parts) or a part label; a label used in several
 lots needs --lot.
+)";
 
-options:
-  --at CURRENTS  comma-separated forward currents (default 1mA,10mA); units
-                 optional: 1mA, 10e-3, 5 mA, 100uA
-  --lot NAME     the lot of a PART given by label
-  --socket PATH  juncod's socket (see junco status --help)
-  --json         print {"fit":..., "figures":...} as JSON
-  --export FORMAT  print the part as the daemon exports it instead:
-                 json (model document for junco design/export/plot --model),
-                 spice (.model card), csv (all readings), iv-csv, ac-csv, off-csv
-  --out FILE     with --export: write to FILE instead of standard output
-
-examples:
+const char* const footer = R"(examples:
   junco show WR-03 --at 100uA,1mA,10mA
+  junco show WR-03 --run 4
   junco show WR-03 --export json --out wr03.json && junco design bias-r --model wr03.json --supply 5 --current 10mA
 
-exit status: 0 shown; 1 unknown part, no usable fit, or daemon error; 2 bad options.)";
+exit status: 0 shown; 1 unknown part or run, no usable fit of that run, or daemon error; 2 bad options.)";
+
+struct Options {
+  std::string part, socket, lot, export_format, out_path;
+  std::vector<double> currents_a{1e-3, 10e-3};
+  long run_id = 0;  // 0: the run of the latest fit
+  bool json = false;
+};
+Options g_opt;  // bound by define(); one command per process
+
+void define(CLI::App& app) {
+  Options& o = g_opt;
+  app.description(description);
+  app.footer(footer);
+  app.add_option("PART", o.part, "part id or label")->required()->type_name("");
+  add_si_list_option(app, "--at", o.currents_a, "A", "comma-separated forward currents; units optional: 1mA, 10e-3, 5 mA, 100uA",
+                     "1mA,10mA");
+  app.add_option("--run", o.run_id, "the run to show (default: the run of the latest fit)")->type_name("RUN")->check(positive_id());
+  app.add_option("--lot", o.lot, "the lot of a PART given by label")->type_name("NAME");
+  add_socket_option(app, o.socket);
+  app.add_flag("--json", o.json, "print {\"part\", \"run\", \"other_runs\", \"fit\", \"figures\"} as JSON");
+  app.add_option("--export", o.export_format,
+                 "print the part as the daemon exports it instead: json (model document for junco design/export/plot "
+                 "--model), spice (.model card), csv (all readings), iv-csv, ac-csv, off-csv")
+      ->type_name("FORMAT");
+  app.add_option("--out", o.out_path, "with --export: write to FILE instead of standard output")->type_name("FILE");
+}
 
 std::string estimate(const Json& e, const std::string& unit) {
   if (!e.is_object() || !e["value"].is_number()) return "not determined";
@@ -56,30 +77,70 @@ int export_part(RpcClient& client, long part, const std::string& format, const s
   return exit_ok;
 }
 
-int run(std::vector<std::string> args) {
+Json run_json(const RunInfo& r) {
+  return Json{{"run_id", r.run_id}, {"job_id", r.job_id}, {"state", r.state}, {"started_at", r.started_at},
+              {"finished_at", r.finished_at.empty() ? Json(nullptr) : Json(r.finished_at)}};
+}
+
+int run() {
+  const Options& o = g_opt;
   return guarded("show", [&] {
-    const auto socket = take_socket_option(args);
-    const bool json = take_flag(args, "--json");
-    const auto lot = take_option(args, "--lot");
-    const auto at = take_option(args, "--at");
-    const auto export_format = take_option(args, "--export");
-    const auto out_path = take_option(args, "--out");
-    if (out_path && !export_format) throw std::invalid_argument("--out goes with --export FORMAT");
-    const auto currents = parse_quantity_list(at.value_or("1mA,10mA"), "A");
-    for (double i : currents)
+    if (!o.out_path.empty() && o.export_format.empty()) throw std::invalid_argument("--out goes with --export FORMAT");
+    for (double i : o.currents_a)
       if (!(i > 0)) throw std::invalid_argument("--at currents must be > 0 (forward), got " + format_si(i, "A"));
-    if (args.size() != 1) throw std::invalid_argument("expected one PART (id or label)");
-    RpcClient client(socket);
-    const long part = resolve_part(client, args[0], lot);
-    if (export_format) return export_part(client, part, *export_format, out_path);
+    RpcClient client(socket_path(o.socket));
+    const long part = resolve_part(client, o.part, o.lot.empty() ? std::nullopt : std::optional<std::string>(o.lot));
+    if (!o.export_format.empty()) {
+      if (o.run_id) throw std::invalid_argument("--export gives the latest fit and run; --run goes without it");
+      return export_part(client, part, o.export_format, o.out_path.empty() ? std::nullopt : std::optional<std::string>(o.out_path));
+    }
     const Json fit = client.call("part.fit", Json{{"part_id", part}});
-    const Json figures = client.call("part.figures", Json{{"part_id", part}, {"currents_a", currents}});
-    if (json) {
-      std::printf("%s\n", Json{{"fit", fit}, {"figures", figures}}.dump(2).c_str());
+    const long fit_run = fit.value("run_id", Json(0)).is_number() ? fit["run_id"].get<long>() : 0;
+    const Json about = client.call("part.readings", Json{{"part_id", part}, {"run_id", fit_run}})["part"];
+    const auto runs = runs_of_part(all_runs(client), part);
+    const auto find_run = [&](long id) -> const RunInfo* {
+      for (const auto& r : runs)
+        if (r.run_id == id) return &r;
+      return nullptr;
+    };
+    const std::string who = "part " + about.value("label", std::string("?")) + " (id " + std::to_string(part) + "), lot " +
+                            about.value("lot", std::string("?"));
+    if (o.run_id && !find_run(o.run_id)) {
+      std::string list;
+      for (const auto& r : runs) list += (list.empty() ? "" : ", ") + std::to_string(r.run_id);
+      throw std::runtime_error(who + " has no run " + std::to_string(o.run_id) + " (its runs: " + (list.empty() ? "none" : list) + ")");
+    }
+    if (o.run_id && o.run_id != fit_run) {
+      // juncod serves the latest fit of a part; an older run's fit is not
+      // served, so nothing from another run is printed as if it were this one.
+      const RunInfo* shown = find_run(fit_run);
+      throw std::runtime_error(who + ": " + describe_run(*find_run(o.run_id)) + " has no fit that juncod serves; its latest fit is from " +
+                               (shown ? describe_run(*shown) : "run " + std::to_string(fit_run)) + " (junco show " + o.part + ")");
+    }
+    const Json figures = client.call("part.figures", Json{{"part_id", part}, {"currents_a", o.currents_a}});
+    const RunInfo* shown = find_run(fit_run);
+    std::vector<const RunInfo*> others;
+    for (const auto& r : runs)
+      if (r.run_id != fit_run) others.push_back(&r);
+    if (o.json) {
+      Json other = Json::array();
+      for (const auto* r : others) other.push_back(run_json(*r));
+      std::printf("%s\n", Json{{"part", about}, {"run", shown ? run_json(*shown) : Json(nullptr)}, {"other_runs", other},
+                                {"fit", fit}, {"figures", figures}}
+                               .dump(2)
+                               .c_str());
       return exit_ok;
     }
-    std::printf("part %ld  fit %ld (%s, %ld points, T = %.2f K)\n", part, fit.value("fit_id", 0L), fit.value("status", "?").c_str(),
-                fit.value("points_used", 0L), fit.value("temp_k", Json()).is_number() ? fit["temp_k"].get<double>() : 0.0);
+    std::printf("%s\n", who.c_str());
+    std::printf("  %s, fit %ld made %s\n", shown ? describe_run(*shown).c_str() : "run unknown", fit.value("fit_id", 0L),
+                fit.value("created_at", "?").c_str());
+    if (!others.empty()) {
+      std::string list;
+      for (const auto* r : others) list += (list.empty() ? "" : ", ") + describe_run(*r);
+      std::printf("  also measured in %s; shown: the latest fit, from run %ld only\n", list.c_str(), fit_run);
+    }
+    std::printf("  fit %s, %ld points, T = %.2f K\n", fit.value("status", "?").c_str(), fit.value("points_used", 0L),
+                fit.value("temp_k", Json()).is_number() ? fit["temp_k"].get<double>() : 0.0);
     std::printf("  Is  = %s\n  n   = %s\n  Rs  = %s\n", estimate(fit["is_a"], "A").c_str(), estimate(fit["n"], "").c_str(),
                 estimate(fit["rs_ohm"], "Ω").c_str());
     if (fit.contains("rsh_ohm") && fit["rsh_ohm"].is_object() && fit["rsh_ohm"]["value"].is_number())
@@ -117,7 +178,16 @@ int run(std::vector<std::string> args) {
   });
 }
 
-const bool registered = register_command({"show", "show a part's fitted model, Vf and rd", usage, run});
+Command show_command() {
+  Command c;
+  c.name = "show";
+  c.summary = "show a part's fitted model, Vf and rd, and which run it came from";
+  c.define = define;
+  c.run_parsed = run;
+  return c;
+}
+
+const bool registered = register_command(show_command());
 
 }  // namespace
 }  // namespace junco::cli

@@ -1,4 +1,5 @@
 // junco status: what the daemon is doing (version, uptime, running job, queue).
+#include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
 #include "tools/junco/rpc_client.hpp"
 
@@ -7,28 +8,34 @@
 namespace junco::cli {
 namespace {
 
-const char* const usage = R"(usage: junco status [--socket PATH] [--json]
-
-Asks juncod what it is doing: version, uptime, the running job, the queue,
+const char* const description = R"(Asks juncod what it is doing: version, uptime, the running job, the queue,
 whether the bench is open, the database file, and when the bench publishes to
 a lab database: the lab, whether it is reachable, the rows not yet published
 (backlog) and how long the oldest has waited (lag).
+)";
+const char* const footer = R"(exit status: 0 the daemon answered; 1 it could not be reached.)";
 
-options:
-  --socket PATH  juncod's socket (default: $JUNCO_SOCKET; as root
-                 /run/junco/juncod.sock; else your own daemon's
-                 $XDG_RUNTIME_DIR/junco/juncod.sock if it is there, else the
-                 service's /run/junco/juncod.sock: members of group junco
-                 need no option)
-  --json         print the daemon.status result as JSON
+struct Options {
+  std::string socket;
+  bool json = false;
+};
+Options g_opt;  // bound by define(); one command per process
 
-exit status: 0 the daemon answered; 1 it could not be reached.)";
+void define(CLI::App& app) {
+  app.description(description);
+  app.footer(footer);
+  app.add_option("--socket", g_opt.socket,
+                 "juncod's socket (default: $JUNCO_SOCKET; as root /run/junco/juncod.sock; else your own daemon's "
+                 "$XDG_RUNTIME_DIR/junco/juncod.sock if it is there, else the service's /run/junco/juncod.sock: members "
+                 "of group junco need no option)")
+      ->type_name("PATH");
+  app.add_flag("--json", g_opt.json, "print the daemon.status result as JSON");
+}
 
-int run(std::vector<std::string> args) {
+int run() {
   return guarded("status", [&] {
-    const auto socket = take_socket_option(args);
-    const bool json = take_flag(args, "--json");
-    if (!args.empty()) throw std::invalid_argument("unexpected argument '" + args.front() + "'");
+    const std::string socket = socket_path(g_opt.socket);
+    const bool json = g_opt.json;
     RpcClient client(socket);
     const Json s = client.call("daemon.status");
     if (json) {
@@ -55,7 +62,16 @@ int run(std::vector<std::string> args) {
   });
 }
 
-const bool registered = register_command({"status", "show what juncod is doing", usage, run});
+Command make_command() {
+  Command c;
+  c.name = "status";
+  c.summary = "show what juncod is doing";
+  c.define = define;
+  c.run_parsed = run;
+  return c;
+}
+
+const bool registered = register_command(make_command());
 
 }  // namespace
 }  // namespace junco::cli

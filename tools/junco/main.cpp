@@ -1,6 +1,9 @@
-// junco: entry point and subcommand dispatch.
+// junco: entry point and subcommand dispatch (the table of command.hpp).
+#include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
 #include "junco/version.hpp"
+
+#include <CLI/CLI.hpp>
 
 #include <algorithm>
 #include <cstdio>
@@ -38,6 +41,21 @@ void print_overview() {
       "usage: junco COMMAND [options]      junco COMMAND --help for details\n"
       "       junco --version\n\ncommands:\n");
   for (const auto& c : junco::cli::commands()) std::printf("  %-10s %s\n", c.name.c_str(), c.summary.c_str());
+  std::printf(
+      "\nValues take SI prefixes and an optional unit: 1mA, 2.2pF, 100MHz, 10meg, 4.7u (m = milli,\n"
+      "M = mega). Exit status: 0 ok, 1 the work failed, 2 bad command line or input file.\n");
+}
+
+// A CLI11 command: its options are defined on a fresh app, parsed, then run.
+int run_defined(const junco::cli::Command& c, const std::vector<std::string>& args) {
+  using namespace junco::cli;
+  CLI::App app(c.summary, "junco " + c.name);
+  app.get_formatter()->column_width(30);
+  app.get_formatter()->label("OPTIONS", "options");
+  app.get_formatter()->label("REQUIRED", "required");
+  c.define(app);
+  if (const auto status = parse_command_line(app, c.name, args)) return *status;
+  return c.run_parsed();
 }
 
 }  // namespace
@@ -64,13 +82,15 @@ int main(int argc, char** argv) {
     return exit_usage;
   }
   std::vector<std::string> args(argv + 2, argv + argc);
-  const bool wants_help = it->has_subcommands ? (!args.empty() && (args[0] == "--help" || args[0] == "-h"))
-                                              : std::find(args.begin(), args.end(), "--help") != args.end();
-  if (wants_help) {
-    std::printf("%s\n", it->usage.c_str());
-    return exit_ok;
-  }
+  apply_renames(name, args, it->renamed);
   try {
+    if (it->define) return run_defined(*it, args);
+    const bool wants_help = it->has_subcommands ? (!args.empty() && (args[0] == "--help" || args[0] == "-h"))
+                                                : std::find(args.begin(), args.end(), "--help") != args.end();
+    if (wants_help) {
+      std::printf("%s\n", it->usage.c_str());
+      return exit_ok;
+    }
     return it->run(args);
   } catch (const std::exception& e) {
     std::fprintf(stderr, "junco %s: %s\n", name.c_str(), e.what());

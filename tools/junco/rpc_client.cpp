@@ -1,5 +1,6 @@
 // Blocking JSON-RPC client on a Unix socket, and option helpers (see rpc_client.hpp).
 #include "tools/junco/rpc_client.hpp"
+#include "units/si_text.hpp"
 
 #include "daemon/rpc_framing.hpp"  // default_socket_path(), shared with the daemon
 
@@ -150,68 +151,12 @@ std::string take_socket_option(std::vector<std::string>& args) {
   return daemon::rpc::default_socket_path();
 }
 
-double parse_quantity(const std::string& text, const std::string& unit) {
-  const auto fail = [&] {
-    return std::invalid_argument("'" + text + "' is not a value in " + unit + " (examples: 1m" + unit + ", 10e-3, 5 m" + unit + ", 100u)");
-  };
-  std::size_t used = 0;
-  double value = 0;
-  try {
-    value = std::stod(text, &used);
-  } catch (const std::exception&) {
-    throw fail();
-  }
-  std::string rest = text.substr(used);
-  rest.erase(std::remove_if(rest.begin(), rest.end(), [](unsigned char c) { return std::isspace(c); }), rest.end());
-  // Optional unit at the end (case-insensitive), then an optional SI prefix.
-  if (rest.size() >= unit.size()) {
-    std::string tail = rest.substr(rest.size() - unit.size());
-    const bool match = std::equal(tail.begin(), tail.end(), unit.begin(),
-                                  [](char a, char b) { return std::tolower(static_cast<unsigned char>(a)) == std::tolower(static_cast<unsigned char>(b)); });
-    if (match) rest.erase(rest.size() - unit.size());
-  }
-  static const std::pair<const char*, double> prefixes[] = {{"p", 1e-12}, {"n", 1e-9}, {"u", 1e-6}, {"\xC2\xB5", 1e-6}, {"\xCE\xBC", 1e-6},
-                                                            {"m", 1e-3},  {"k", 1e3},  {"M", 1e6},  {"", 1.0}};
-  for (const auto& [p, scale] : prefixes)
-    if (rest == p) {
-      if (!std::isfinite(value)) throw fail();
-      return value * scale;
-    }
-  throw fail();
-}
+// One grammar for every command: units/si_text.hpp.
+double parse_quantity(const std::string& text, const std::string& unit) { return units::parse_si_or_throw(text, unit); }
 
-std::vector<double> parse_quantity_list(const std::string& text, const std::string& unit) {
-  std::vector<double> out;
-  std::size_t start = 0;
-  while (start <= text.size()) {
-    const auto comma = text.find(',', start);
-    const auto item = text.substr(start, comma == std::string::npos ? std::string::npos : comma - start);
-    out.push_back(parse_quantity(item, unit));
-    if (comma == std::string::npos) break;
-    start = comma + 1;
-  }
-  return out;
-}
+std::vector<double> parse_quantity_list(const std::string& text, const std::string& unit) { return units::parse_si_list(text, unit); }
 
-std::string format_si(double value, const std::string& unit, int digits) {
-  if (!std::isfinite(value)) return "—";
-  static const std::pair<double, const char*> prefixes[] = {{1e6, "M"}, {1e3, "k"}, {1.0, ""}, {1e-3, "m"},
-                                                            {1e-6, "u"}, {1e-9, "n"}, {1e-12, "p"}, {1e-15, "f"}};
-  const double mag = std::fabs(value);
-  for (const auto& [scale, p] : prefixes)
-    if (mag >= scale * 0.9995 || scale == 1e-15) {
-      if (mag == 0) break;
-      char text[64];
-      std::snprintf(text, sizeof text, "%.*g %s%s", digits, value / scale, p, unit.c_str());
-      // Fewer digits than the integer part has (900 to 2 digits) make %g
-      // write an exponent ("9e+02 u"); print the integer instead.
-      if (std::strchr(text, 'e')) std::snprintf(text, sizeof text, "%.0f %s%s", value / scale, p, unit.c_str());
-      return text;
-    }
-  char text[64];
-  std::snprintf(text, sizeof text, "0 %s", unit.c_str());
-  return text;
-}
+std::string format_si(double value, const std::string& unit, int digits) { return units::format_si(value, unit, digits); }
 
 int guarded(const std::string& command, const std::function<int()>& body) {
   try {

@@ -77,8 +77,8 @@ bool take_flag(std::vector<std::string>& args, const std::string& flag);
 std::optional<std::string> take_option(std::vector<std::string>& args, const std::string& name);
 
 // Parses an engineering value in `unit` ("A", "V", "ohm"): "1mA", "10e-3",
-// "5 mA", "100u", "100uA", "2.5k". Throws std::invalid_argument with a
-// one-line message naming the text and the unit expected.
+// "5 mA", "100u", "4.7µA", "2.5k", "10meg" (units::parse_si). Throws
+// std::invalid_argument with a one-line message naming the text and the unit.
 double parse_quantity(const std::string& text, const std::string& unit);
 // Comma-separated list of the above ("1mA,10mA").
 std::vector<double> parse_quantity_list(const std::string& text, const std::string& unit);
@@ -93,6 +93,7 @@ inline constexpr const char* kBenchHint =
 // is not open; nothing otherwise.
 void print_bench_wait(RpcClient& client);
 
+// Formats with an SI prefix and unit: 1.234e-3 → "1.234 mA" (units::format_si).
 std::string format_si(double value, const std::string& unit, int digits = 4);
 
 // Pads to `width` terminal columns (UTF-8: Ω and ± are two bytes, one column).
