@@ -1,5 +1,7 @@
 #include "daemon/store.hpp"
 
+#include "daemon/api_json.hpp"
+
 #include "daemon/migrations.hpp"
 #include "fitting/extract.hpp"
 #include "fitting/json_limits.hpp"
@@ -207,20 +209,9 @@ Json matrix_json(const std::vector<std::vector<double>>& m) {
   return out;
 }
 
-std::string fixture_text(const RunFixture& f) {
-  Json j = Json::object();
-  const auto put = [&](const char* key, double v) {
-    if (std::isfinite(v)) j[key] = v;
-  };
-  put("bias_resistor_ohm", f.bias_resistor_ohm);
-  put("dc_return_ohm", f.dc_return_ohm);
-  put("source_ohm", f.source_ohm);
-  put("load_ohm", f.load_ohm);
-  if (!f.current_from.empty()) j["current_from"] = f.current_from;
-  put("stray_c_f", f.stray_c_f);
-  if (f.ac_units) j["ac_units"] = {{"plan", f.ac_units->plan}, {"siggen", f.ac_units->siggen}, {"levelmeter", f.ac_units->levelmeter}};
-  return j.dump();
-}
+// The stored fixture is the one the API serves (daemon/api_json.cpp): what
+// was recorded, nothing more, so one writer keeps them the same.
+std::string fixture_text(const RunFixture& f) { return to_json(f).dump(); }
 
 // Keys this version does not know (a newer juncod's) are left out.
 RunFixture fixture_of(const std::string& text, const std::string& where) {
