@@ -5,6 +5,7 @@
 // or above.
 #include "fitting/design_calculators.hpp"
 #include "fitting/design_distortion.hpp"
+#include "tests/support/ngspice.hpp"
 
 #include <catch2/catch.hpp>
 
@@ -53,14 +54,11 @@ struct Hd {
 // Long enough for the junction's slowest time constant (≤ TT + R·Cj, a few
 // ns) to die out, then `fourier` of the last period of the load voltage.
 std::vector<Hd> ngspice_hd(const std::vector<DistortionInput>& cases, double freq_hz) {
-  char dir[] = "/tmp/junco-rfhd-XXXXXX";
-  REQUIRE(mkdtemp(dir));
-  const std::string cir = std::string(dir) + "/hd.cir", out = std::string(dir) + "/hd.out";
   const double period = 1.0 / freq_hz;
   const double settle = 100e-9;
   const int periods = std::max(4, static_cast<int>(std::ceil(settle / period)) + 1);
+  std::ostringstream f;
   {
-    std::ofstream f(cir);
     f.precision(12);
     f << "switch distortion at frequency\n";
     std::string four;
@@ -88,14 +86,13 @@ std::vector<Hd> ngspice_hd(const std::vector<DistortionInput>& cases, double fre
       << ".control\nset fourgridsize=2048\ntran " << period / 1000 << " " << periods * period << " 0 " << period / 1000 << "\n"
       << four << ".endc\n.end\n";
   }
-  const std::string cmd = "ngspice -b " + cir + " > " + out + " 2>&1";
-  const int status = std::system(cmd.c_str());
-  INFO("ngspice status " << status);  // -b exits 1 after a .control run; the parsed tables are the check
-  std::ifstream f(out);
+  const junco::test::NgspiceRun run = junco::test::run_ngspice(f.str());
+  INFO("ngspice status " << run.exit_code);  // -b exits 1 after a .control run; the parsed tables are the check
+  std::istringstream printed(run.out);
   std::string line;
   std::vector<Hd> hd(cases.size(), {NAN, NAN});
   int table = -1;
-  while (std::getline(f, line)) {
+  while (std::getline(printed, line)) {
     const auto at = line.find("Fourier analysis for v(o");
     if (at != std::string::npos) {
       table = std::stoi(line.substr(at + 24));
@@ -114,9 +111,6 @@ std::vector<Hd> ngspice_hd(const std::vector<DistortionInput>& cases, double fre
     REQUIRE(std::isfinite(h.hd2_dbc));
     REQUIRE(std::isfinite(h.hd3_dbc));
   }
-  std::remove(out.c_str());
-  std::remove(cir.c_str());
-  rmdir(dir);
   return hd;
 }
 

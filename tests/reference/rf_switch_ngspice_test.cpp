@@ -3,6 +3,7 @@
 // analyses of the same switches, series and shunt, biased and off, 1 MHz to
 // 1 GHz. Target (issue 15): every loss and isolation within 0.1 dB.
 #include "fitting/design_calculators.hpp"
+#include "tests/support/ngspice.hpp"
 
 #include <catch2/catch.hpp>
 
@@ -56,12 +57,11 @@ double value_of(const Json& lines, const std::string& key) {
 // return (shunt) reverse biases the junction. Returns per frequency the
 // losses in case order.
 std::vector<std::pair<double, std::vector<double>>> ngspice_losses(const DesignPart& part, const std::vector<Case>& cases) {
-  char dir[] = "/tmp/junco-rfac-XXXXXX";
-  REQUIRE(mkdtemp(dir));
-  const std::string cir = std::string(dir) + "/ac.cir", out = std::string(dir) + "/ac.txt", log = std::string(dir) + "/ac.log";
+  const junco::test::Ngspice ng("rfac");
+  const std::string out = ng.path("ac.txt");
   const double nvt = part.dc.n * thermal_voltage_v(t27_k);
+  std::ostringstream f;
   {
-    std::ofstream f(cir);
     f.precision(15);
     f << "series and shunt switches, small signal\n";
     std::string vectors;
@@ -90,13 +90,12 @@ std::vector<std::pair<double, std::vector<double>>> ngspice_losses(const DesignP
       << ".options reltol=1e-9 abstol=1e-18 vntol=1e-12 temp=27 tnom=27\n"
       << ".control\nac dec 6 1e6 1e9\nset wr_singlescale\nwrdata " << out << vectors << "\n.endc\n.end\n";
   }
-  const std::string cmd = "ngspice -b " + cir + " > " + log + " 2>&1";
-  const int status = std::system(cmd.c_str());
-  INFO("ngspice status " << status);  // -b exits 1 without .print lines; the parsed data are the check
-  std::ifstream f(out);
+  const junco::test::NgspiceRun run = ng.run(f.str(), "ac");
+  INFO("ngspice status " << run.exit_code);  // -b exits 1 without .print lines; the parsed data are the check
+  std::ifstream data(out);
   std::string line;
   std::vector<std::pair<double, std::vector<double>>> rows;
-  while (std::getline(f, line)) {
+  while (std::getline(data, line)) {
     std::istringstream row(line);
     double freq;
     if (!(row >> freq)) continue;
@@ -110,8 +109,6 @@ std::vector<std::pair<double, std::vector<double>>> ngspice_losses(const DesignP
     rows.emplace_back(freq, losses);
   }
   REQUIRE(rows.size() == 19);  // 6 per decade over three decades, both ends
-  for (const auto& name : {out, cir, log}) std::remove(name.c_str());
-  rmdir(dir);
   return rows;
 }
 
