@@ -2,7 +2,7 @@
 
 #include "daemon/log.hpp"
 #include "drivers/levels.hpp"
-#include "fitting/json_limits.hpp"
+#include "formats/json_limits.hpp"
 #include "lab/pg.hpp"  // conninfo_problem
 
 #include <cmath>

@@ -15,9 +15,9 @@
 #include "daemon/service_params.hpp"
 #include "daemon/store.hpp"
 #include "fitting/derived.hpp"
-#include "fitting/lot_nominal.hpp"
-#include "fitting/model_document.hpp"
-#include "fitting/spice_card.hpp"
+#include "formats/lot_nominal.hpp"
+#include "formats/model_document.hpp"
+#include "formats/spice_card.hpp"
 #include "junco/version.hpp"
 
 #include <chrono>
@@ -271,7 +271,7 @@ class CoreService final : public Service {
     return v.get<double>();
   }
 
-  // A design calculator on the latest usable fit (fitting/design_calculators.hpp).
+  // A design calculator on the latest usable fit (design/calculators.hpp).
   Json design(const Json& params, const Caller&) {
     const PartRow part = part_or_throw(id_param(params, "part_id"));
     const std::string calculator = calculator_param(params);

@@ -7,7 +7,7 @@
 #include "drivers/errors.hpp"
 #include "drivers/levels.hpp"
 #include "fitting/ac_charge_fit.hpp"
-#include "fitting/design_joint_fit.hpp"
+#include "fitting/joint_fit.hpp"
 #include "fitting/electrothermal_fit.hpp"
 #include "fitting/extract.hpp"
 

@@ -6,12 +6,12 @@
 #include "fitting/temperature.hpp"
 
 #include "daemon/rows.hpp"
-#include "fitting/design_calculators.hpp"
-#include "fitting/design_joint_fit.hpp"
+#include "design/calculators.hpp"
+#include "fitting/joint_fit.hpp"
 #include "fitting/heating.hpp"
 #include "fitting/junction_cap.hpp"
 #include "fitting/lot_stats.hpp"
-#include "fitting/spice_card.hpp"
+#include "formats/spice_card.hpp"
 #include "fitting/transfer.hpp"
 
 #include <optional>

@@ -3,8 +3,8 @@
 #include "daemon/api_json.hpp"
 #include "daemon/part_analysis.hpp"
 
-#include "fitting/design_readings_csv.hpp"
-#include "fitting/model_document.hpp"
+#include "formats/readings_csv.hpp"
+#include "formats/model_document.hpp"
 
 #include <cctype>
 #include <cmath>

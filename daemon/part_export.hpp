@@ -1,16 +1,16 @@
 // part.export formats of a stored part.
-// json:   the model document of the latest usable fit (fitting/model_document.hpp,
+// json:   the model document of the latest usable fit (formats/model_document.hpp,
 //         format junco.part-model v1), read by junco design --model, export, plot.
-// spice:  a `.model` card from the same fit (fitting/spice_card.hpp).
+// spice:  a `.model` card from the same fit (formats/spice_card.hpp).
 // csv:    raw readings of the latest run, one row per point, SI units in the header.
-// iv-csv: the run's DC readings as `v,i_a` (fitting/design_readings_csv.hpp).
+// iv-csv: the run's DC readings as `v,i_a` (formats/readings_csv.hpp).
 // ac-csv: the run's AC readings as `bias_i_a,freq_hz,vin,vout`, the bias being
 //         the current of the DC reading at the same step.
 #pragma once
 
 #include "daemon/rows.hpp"
 #include "fitting/extract.hpp"
-#include "fitting/spice_card.hpp"
+#include "formats/spice_card.hpp"
 
 #include <optional>
 #include <string>

@@ -3,7 +3,7 @@
 
 #include "daemon/error_codes.hpp"
 
-#include "fitting/json_limits.hpp"
+#include "formats/json_limits.hpp"
 
 #include <functional>
 #include <map>

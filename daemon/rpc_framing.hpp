@@ -22,12 +22,12 @@
 //    level 1). Deeper containers are discarded while the line is parsed —
 //    never built, copied or destroyed recursively — and the request is
 //    refused (invalid_params "params nested deeper than 64 levels"), or
-//    ignored when it is a notification. fitting/json_limits.hpp has the
+//    ignored when it is a notification. formats/json_limits.hpp has the
 //    limit and its wording for every JSON reader.
 #pragma once
 
 #include "daemon/service.hpp"
-#include "fitting/json_limits.hpp"
+#include "formats/json_limits.hpp"
 
 #include <sys/stat.h>  // stat: which default socket exists
 #include <unistd.h>    // geteuid

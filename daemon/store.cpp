@@ -4,7 +4,7 @@
 
 #include "daemon/migrations.hpp"
 #include "fitting/extract.hpp"
-#include "fitting/json_limits.hpp"
+#include "formats/json_limits.hpp"
 #include "fitting/junction_cap.hpp"
 
 #include <sqlite3.h>

@@ -2,7 +2,7 @@
 
 #include "drivers/errors.hpp"
 #include "drivers/levels.hpp"
-#include "fitting/json_limits.hpp"  // header-only: no link dependency on junco_fitting
+#include "formats/json_limits.hpp"  // header-only: no link dependency on junco_fitting
 
 #include <nlohmann/json.hpp>
 

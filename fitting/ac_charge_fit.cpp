@@ -1,6 +1,6 @@
 #include "fitting/ac_charge_fit.hpp"
 
-#include "fitting/design_joint_fit.hpp"
+#include "fitting/joint_fit.hpp"
 
 #include <Eigen/Dense>
 

@@ -1,6 +1,6 @@
 #include "fitting/electrothermal_fit.hpp"
 
-#include "fitting/design_joint_fit.hpp"
+#include "fitting/joint_fit.hpp"
 #include "fitting/solver_options.hpp"
 
 #include <ceres/ceres.h>

@@ -27,7 +27,7 @@
 // readings taken before the junction settled see less than the steady rise.
 #pragma once
 
-#include "fitting/design_joint_fit.hpp"
+#include "fitting/joint_fit.hpp"
 #include "fitting/extract.hpp"
 #include "fitting/temperature.hpp"
 #include "fitting/transfer.hpp"

@@ -1,4 +1,4 @@
-// Time per answer of every design calculator (fitting/design_calculators.hpp),
+// Time per answer of every design calculator (design/calculators.hpp),
 // through the table as `junco design` and part.design call it, on junco-sim's
 // nominal part with its junction capacitance and a 5 ns transit time, at
 // 1 MHz, 100 MHz and 1 GHz. The target (issue 15) is ≤ 10 ms per answer,
@@ -8,7 +8,7 @@
 // adds the time other processes had the core). Exits 1 when the worst median
 // CPU time is above the target.
 //   build/<preset>/bin/bench_design_speed [REPS]      (default 50)
-#include "fitting/design_calculators.hpp"
+#include "design/calculators.hpp"
 
 #include <nlohmann/json.hpp>
 

@@ -6,7 +6,7 @@
 // default accuracy model (fixed seed).
 //   build/<preset>/bin/bench_fit_electrothermal [REPS] [AC_COUNT]   (defaults 200, 50)
 // Prints the median ms per part of each fit and the electro-thermal Rs error.
-#include "fitting/design_joint_fit.hpp"
+#include "fitting/joint_fit.hpp"
 #include "fitting/electrothermal_fit.hpp"
 
 #include <algorithm>

@@ -1,4 +1,4 @@
-// Fuzz entry: fitting/design_calculators.hpp run_design, the code behind
+// Fuzz entry: design/calculators.hpp run_design, the code behind
 // juncod's part.design and design.run (inputs from any client) and `junco
 // design`. The bytes are JSON: {"calculator": NAME, "part": {is_a, n, rs_ohm,
 // temp_k, cj0_f, ...}, "inputs": {...}} (comments allowed); the part is read
@@ -11,7 +11,7 @@
 // with 0 <= I and 0 <= Vd <= Vs (relative 1e-6).
 #include "tests/fuzz/entries.hpp"
 
-#include "fitting/design_calculators.hpp"
+#include "design/calculators.hpp"
 
 #include <cmath>
 

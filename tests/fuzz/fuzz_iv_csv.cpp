@@ -1,11 +1,11 @@
-// Fuzz entry: fitting/iv_csv.hpp, the CSV importer of `junco fit`. When the
+// Fuzz entry: formats/iv_csv.hpp, the CSV importer of `junco fit`. When the
 // bytes start with "@", the first line is "V_COL,I_COL" (the --v-col/--i-col
 // choices) and the rest is the file. Invariants: an error is one non-empty
 // line; success yields finite points, one line number
 // per point, strictly increasing and within the file, and names the headers.
 #include "tests/fuzz/entries.hpp"
 
-#include "fitting/iv_csv.hpp"
+#include "formats/iv_csv.hpp"
 
 #include <algorithm>
 #include <cmath>

@@ -13,7 +13,7 @@
 #include "tests/fuzz/entries.hpp"
 
 #include "daemon/plan.hpp"
-#include "fitting/json_limits.hpp"
+#include "formats/json_limits.hpp"
 #include "tests/fuzz/rpc_service.hpp"  // fuzz_bench_config
 
 #include <algorithm>

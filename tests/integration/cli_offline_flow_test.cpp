@@ -3,7 +3,7 @@
 // calculators and the plotter. Also: text from a model document cannot break
 // out of the gnuplot script that `junco plot` generates.
 #include "fitting/diode.hpp"
-#include "fitting/model_document.hpp"
+#include "formats/model_document.hpp"
 
 #include "tests/support/cli_run.hpp"
 

@@ -1,7 +1,7 @@
 // The junco CLI's design, export and plot commands as real processes on real
 // files: a model document and readings CSV written here, gnuplot really run.
-#include "fitting/design_readings_csv.hpp"
-#include "fitting/model_document.hpp"
+#include "formats/readings_csv.hpp"
+#include "formats/model_document.hpp"
 
 #include "tests/support/cli_run.hpp"
 

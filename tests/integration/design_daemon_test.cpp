@@ -2,9 +2,9 @@
 // the AC transfer against the model with the joint AC+DC fit
 // (part.transfer), and the CLI's design/transfer/plot commands on --part —
 // junco-sim, juncod and junco as real processes on real sockets.
-#include "fitting/design_calculators.hpp"
-#include "fitting/design_units.hpp"
-#include "fitting/model_document.hpp"
+#include "design/calculators.hpp"
+#include "units/si_text.hpp"
+#include "formats/model_document.hpp"
 #include "tests/support/bench_daemon.hpp"
 
 #include <boost/math/special_functions/lambert_w.hpp>
@@ -135,7 +135,7 @@ TEST_CASE("part.design answers as the calculators do on the exported model", "[d
   INFO(cli.out << cli.err);
   CHECK(cli.status == 0);
   CHECK(cli.out.find("assumed   bias resistor    390 ohm") != std::string::npos);  // one formatter: no trailing zeros
-  CHECK(cli.out.find(fitting::format_engineering(i_a, "A", 6)) != std::string::npos);
+  CHECK(cli.out.find(units::format_si(i_a, "A", 6)) != std::string::npos);
   cli = b.junco({"design", "op", "--part", "DS-1", "--supply", "-5", "--rbias", "390"});
   CHECK(cli.status == 2);
   CHECK(cli.err.find("--supply: must be > 0") != std::string::npos);

@@ -4,7 +4,7 @@
 // simulator's self-heating model (docs/sim.md: Tj → ambient + θ·P, IS(T) of
 // docs/references.md §2), the target (isothermal Rs within 5 % with
 // heating at 400 K/W), and docs/references.md §8 for the DC-only bias.
-#include "fitting/design_joint_fit.hpp"
+#include "fitting/joint_fit.hpp"
 #include "fitting/electrothermal_fit.hpp"
 #include "tests/support/bench_daemon.hpp"
 

@@ -1,9 +1,9 @@
-// The lot nominal is computed once (fitting/lot_nominal.hpp): juncod's
+// The lot nominal is computed once (formats/lot_nominal.hpp): juncod's
 // lot.export and the offline `junco export spice|json a.json b.json` give the
 // same card, CJO, VJ and M included. The offline command runs as a real
 // process on model documents written here; the library call is the reference.
-#include "fitting/lot_nominal.hpp"
-#include "fitting/model_document.hpp"
+#include "formats/lot_nominal.hpp"
+#include "formats/model_document.hpp"
 #include "tests/support/cli_run.hpp"
 
 #include <catch2/catch.hpp>

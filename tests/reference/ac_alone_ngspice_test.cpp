@@ -1,10 +1,10 @@
-// The AC-alone fit (fitting/design_joint_fit.hpp fit_ac_only) on readings
+// The AC-alone fit (fitting/joint_fit.hpp fit_ac_only) on readings
 // made by a real ngspice small-signal (.ac) analysis of the fixture's series
 // switch, with the junction capacitance in the diode. The fit must recover
 // the netlist's N and RS when it is told Cj, and the plain dynamic-resistance
 // line (docs/references.md §3), which neglects Cj, must be visibly off at the
 // same frequency: the reason the refinement exists.
-#include "fitting/design_joint_fit.hpp"
+#include "fitting/joint_fit.hpp"
 
 #include "tests/support/ngspice.hpp"
 

@@ -1,6 +1,6 @@
 // Distortion of a series diode switch against E13 (docs/references.md) and
 // against a real ngspice transient analysis with Fourier of the same circuit.
-#include "fitting/design_distortion.hpp"
+#include "design/distortion.hpp"
 
 #include "tests/support/ngspice.hpp"
 

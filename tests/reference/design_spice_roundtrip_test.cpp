@@ -3,7 +3,7 @@
 // Outside source: ngspice (Debian package) evaluating its own level-1 diode;
 // card names and TNOM-in-°C per ngspice dio.c / diosetup.c (docs/references.md §2).
 #include "fitting/extract.hpp"
-#include "fitting/spice_card.hpp"
+#include "formats/spice_card.hpp"
 
 #include "tests/support/ngspice.hpp"
 

@@ -1,7 +1,7 @@
 // Switch loss, isolation and bias-resistor calculators against the outside
 // check values of docs/references.md (E8–E12, relations of §6).
-#include "fitting/design_bias.hpp"
-#include "fitting/design_switch.hpp"
+#include "design/bias.hpp"
+#include "design/switch.hpp"
 #include "fitting/transfer.hpp"
 
 #include <catch2/catch.hpp>

@@ -1,10 +1,10 @@
-// Distortion at frequency (fitting/design_distortion.hpp with the junction's
+// Distortion at frequency (design/distortion.hpp with the junction's
 // stored charge: Cj(V) and TT) against ngspice transient analyses with
 // Fourier of the same circuits, series and shunt, 1 MHz to 1 GHz. Target
 // (issue 15): HD2 and HD3 within 1 dB wherever ngspice puts them at −60 dBc
 // or above.
-#include "fitting/design_calculators.hpp"
-#include "fitting/design_distortion.hpp"
+#include "design/calculators.hpp"
+#include "design/distortion.hpp"
 #include "tests/support/ngspice.hpp"
 
 #include <catch2/catch.hpp>

@@ -2,7 +2,7 @@
 // diode, fitting/junction_charge.hpp) against ngspice small-signal (.ac)
 // analyses of the same switches, series and shunt, biased and off, 1 MHz to
 // 1 GHz. Target (issue 15): every loss and isolation within 0.1 dB.
-#include "fitting/design_calculators.hpp"
+#include "design/calculators.hpp"
 #include "tests/support/ngspice.hpp"
 
 #include <catch2/catch.hpp>

@@ -5,8 +5,8 @@
 // ngspice differs from junco only in CODATA-2014 k/q (3.4e-7 relative) and
 // GMIN = 1e-12 S across the junction (below 1e-9 of these currents), so the
 // agreement is in fact far tighter. Fails if ngspice is missing or fails.
-#include "fitting/design_calculators.hpp"
-#include "fitting/spice_card.hpp"
+#include "design/calculators.hpp"
+#include "formats/spice_card.hpp"
 
 #include "tests/support/ngspice.hpp"
 

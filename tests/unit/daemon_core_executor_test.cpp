@@ -7,9 +7,9 @@
 #include "daemon/core_service.hpp"
 #include "daemon/store.hpp"
 #include "drivers/errors.hpp"
-#include "fitting/design_units.hpp"
+#include "units/si_text.hpp"
 #include "fitting/diode.hpp"
-#include "fitting/model_document.hpp"
+#include "formats/model_document.hpp"
 #include "tests/support/process.hpp"
 
 #include <catch2/catch.hpp>
@@ -595,7 +595,7 @@ TEST_CASE("part.export json is a model document that junco design op reads; spic
   REQUIRE(cli.wait(5000ms) == 0);
   std::smatch m;
   REQUIRE(std::regex_search(out, m, std::regex("bias current +([^\n]+)")));
-  const auto i_a = fit::parse_engineering(m[1].str(), "A");
+  const auto i_a = units::parse_si(m[1].str(), "A");
   REQUIRE(i_a);
   // Against the fake part itself: supply 5 V through 100 Ω into the diode (Lambert W, fitting/diode.hpp).
   fit::DiodeParams total = lab.diode;

@@ -1,7 +1,7 @@
 // The calculator table behind `junco design` and part.design: its answers
 // against published check values (docs/references.md E8, E11, E12, E5), the
 // inputs it echoes, and how it refuses bad input.
-#include "fitting/design_calculators.hpp"
+#include "design/calculators.hpp"
 
 #include <catch2/catch.hpp>
 

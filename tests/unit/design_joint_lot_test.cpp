@@ -1,6 +1,6 @@
 // Joint DC+AC fit and lot statistics on synthetic data from known parameters
 // (seeded noise); expected values are the generating parameters, not outputs.
-#include "fitting/design_joint_fit.hpp"
+#include "fitting/joint_fit.hpp"
 #include "fitting/lot_stats.hpp"
 
 #include <catch2/catch.hpp>

@@ -1,6 +1,6 @@
 // parse_iv_csv: accepted headers and units, column choice, and the exact
 // one-line error for each kind of bad file.
-#include "fitting/iv_csv.hpp"
+#include "formats/iv_csv.hpp"
 
 #include <catch2/catch.hpp>
 

@@ -1,7 +1,7 @@
 // The SPICE temperature law (fitting/temperature.hpp) against published check
 // values, and the derived figures at another temperature.
 #include "fitting/derived.hpp"
-#include "fitting/model_document.hpp"
+#include "formats/model_document.hpp"
 #include "fitting/temperature.hpp"
 
 #include <catch2/catch.hpp>

@@ -1,7 +1,7 @@
 // The heating plan options: plan parsing, expansion and refusals
 // (daemon/plan.hpp), the dry-run estimate (daemon/plan_estimate.hpp), the
 // two-dwell and hysteresis analysis (fitting/heating.hpp), and one σ for
-// every χ² of the same readings (fitting/design_joint_fit.hpp vs extract.hpp).
+// every χ² of the same readings (fitting/joint_fit.hpp vs extract.hpp).
 // Sources: the first-order RC step response T(t) = T∞·(1 − e^(−t/τ))
 // (common practice, no source), integrated here numerically with the power
 // following the junction (dT/dt = (Ta + Rth·P(T) − T)/τ, junco-sim's model,
@@ -11,7 +11,7 @@
 // GUM 4.3.7 for σ = limit/√3.
 #include "daemon/plan.hpp"
 #include "daemon/plan_estimate.hpp"
-#include "fitting/design_joint_fit.hpp"
+#include "fitting/joint_fit.hpp"
 #include "fitting/extract.hpp"
 #include "fitting/heating.hpp"
 

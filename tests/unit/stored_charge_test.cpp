@@ -6,9 +6,9 @@
 // readings at one frequency. And TT's way out: the SPICE card, the model
 // document and the calculators' part.
 #include "fitting/ac_charge_fit.hpp"
-#include "fitting/design_calculators.hpp"
-#include "fitting/model_document.hpp"
-#include "fitting/spice_card.hpp"
+#include "design/calculators.hpp"
+#include "formats/model_document.hpp"
+#include "formats/spice_card.hpp"
 
 #include <catch2/catch.hpp>
 

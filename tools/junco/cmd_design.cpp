@@ -1,10 +1,10 @@
-// junco design: the design calculators of fitting/design_calculators.hpp on
+// junco design: the design calculators of design/calculators.hpp on
 // the command line. Options and help come from the calculator table; the part
 // comes from a model document, explicit values, or a stored part that juncod
 // computes on (part.design), and the answer is printed the same either way.
-#include "fitting/design_calculators.hpp"
-#include "fitting/design_units.hpp"
-#include "fitting/model_document.hpp"
+#include "design/calculators.hpp"
+#include "units/si_text.hpp"
+#include "formats/model_document.hpp"
 #include "tools/junco/command.hpp"
 #include "tools/junco/rpc_client.hpp"
 
@@ -54,7 +54,7 @@ std::string option_help(const DesignInputSpec& s) {
   t.resize(std::max<std::size_t>(t.size() + 1, 26), ' ');
   t += s.label;
   if (!s.choices.empty()) t += " (default " + s.choices.front() + ")";
-  else if (s.fallback && std::isfinite(*s.fallback)) t += " (default " + format_engineering(*s.fallback, shown_unit(s.unit), 3) + ")";
+  else if (s.fallback && std::isfinite(*s.fallback)) t += " (default " + units::format_si(*s.fallback, shown_unit(s.unit), 3) + ")";
   else if (s.fallback) t += " (default " + s.infinite_text + ")";
   else if (!s.optional) t += " (required)";
   return t + "\n";
@@ -104,7 +104,7 @@ const DesignInputSpec* spec_by_option(const DesignCalculator& c, const std::stri
 
 double parse_value(const std::string& option, const std::string& text, const std::string& unit) {
   std::string why;
-  const auto v = parse_engineering(text, unit, &why);
+  const auto v = units::parse_si(text, unit, &why);
   if (!v) throw std::invalid_argument("--" + option + ": " + why);
   return *v;
 }
@@ -177,7 +177,7 @@ std::string shown_value(const nlohmann::json& line, int digits) {
   char buf[64];
   if (unit == "dB" || unit == "dBc") std::snprintf(buf, sizeof buf, "%.4f %s", v, unit.c_str());
   else if (unit == "%" || unit.empty()) std::snprintf(buf, sizeof buf, "%.6g%s%s", v, unit.empty() ? "" : " ", unit.c_str());
-  else return format_engineering(v, shown_unit(unit), digits);
+  else return units::format_si(v, shown_unit(unit), digits);
   return buf;
 }
 
@@ -187,9 +187,9 @@ void print_answer(const nlohmann::json& a) {
     std::printf("part      %s: IS=%.4g A  N=%.4g  RS=%.4g ohm", p.value("label", "?").c_str(), p["is_a"].get<double>(),
                 p["n"].get<double>(), p["rs_ohm"].get<double>());
     if (p["cj0_f"].is_number())
-      std::printf("  CJO=%s VJ=%.3g V M=%.3g", format_engineering(p["cj0_f"].get<double>(), "F").c_str(), p["vj_v"].get<double>(),
+      std::printf("  CJO=%s VJ=%.3g V M=%.3g", units::format_si(p["cj0_f"].get<double>(), "F").c_str(), p["vj_v"].get<double>(),
                   p["m"].get<double>());
-    if (p.value("tt_s", 0.0) > 0) std::printf("  TT=%s", format_engineering(p["tt_s"].get<double>(), "s").c_str());
+    if (p.value("tt_s", 0.0) > 0) std::printf("  TT=%s", units::format_si(p["tt_s"].get<double>(), "s").c_str());
     std::printf("  at %.2f degC\n", p["temp_k"].get<double>() - zero_celsius_k);
     // The calculators computed at the junction temperature (SPICE law from the part's).
     if (a.contains("junction") && a["junction"]["temp_k"].get<double>() != p["temp_k"].get<double>()) {

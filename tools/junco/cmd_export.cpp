@@ -1,10 +1,10 @@
 // junco export: offline exports from JSON model documents. One document
 // gives that part; several give the lot's nominal (median of each parameter;
 // see fitting/lot_stats.hpp) — and `stats` prints the lot statistics.
-#include "fitting/lot_nominal.hpp"
+#include "formats/lot_nominal.hpp"
 #include "fitting/lot_stats.hpp"
-#include "fitting/model_document.hpp"
-#include "fitting/spice_card.hpp"
+#include "formats/model_document.hpp"
+#include "formats/spice_card.hpp"
 #include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
 #include "units/si_text.hpp"
@@ -125,7 +125,7 @@ int run() {
   } else {
     PartModel chosen = parts.front();
     if (parts.size() > 1) {
-      // The same nominal as juncod's lot.export (fitting/lot_nominal.hpp).
+      // The same nominal as juncod's lot.export (formats/lot_nominal.hpp).
       chosen = lot_nominal_model(parts.front().lot, lot_parts);
       for (const auto& p : parts)
         if (p.lot != parts.front().lot) {

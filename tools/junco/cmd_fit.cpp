@@ -1,11 +1,11 @@
 // junco fit FILE.csv: offline fit of one measured forward curve.
 #include "fitting/derived.hpp"
-#include "fitting/design_joint_fit.hpp"
-#include "fitting/design_readings_csv.hpp"
+#include "fitting/joint_fit.hpp"
+#include "formats/readings_csv.hpp"
 #include "fitting/extract.hpp"
 #include "fitting/fit_solve.hpp"  // the solver bounds a fit must not end at
-#include "fitting/iv_csv.hpp"
-#include "fitting/model_document.hpp"
+#include "formats/iv_csv.hpp"
+#include "formats/model_document.hpp"
 #include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
 #include "units/si_text.hpp"

@@ -1,10 +1,10 @@
 // junco plot: plots of a part's readings and fit, its AC transfer, and a
 // lot's spread; from files (a readings CSV and a JSON model document) or
 // straight from juncod (--part, --lot), which exports the same documents.
-#include "fitting/design_readings_csv.hpp"
+#include "formats/readings_csv.hpp"
 #include "fitting/junction_cap.hpp"
 #include "fitting/lot_stats.hpp"
-#include "fitting/model_document.hpp"
+#include "formats/model_document.hpp"
 #include "fitting/transfer.hpp"
 #include "tools/junco/command.hpp"
 #include "tools/junco/plot_gnuplot.hpp"

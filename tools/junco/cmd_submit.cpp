@@ -1,7 +1,7 @@
 // junco submit PLAN.jsonc: queue a job on the daemon.
 #include "tools/junco/command.hpp"
 #include "tools/junco/rpc_client.hpp"
-#include "fitting/json_limits.hpp"
+#include "formats/json_limits.hpp"
 
 #include <cstdio>
 #include <fstream>
@@ -42,7 +42,7 @@ would be accepted); 1 daemon error; 2 bad file or refused plan.)";
 
 Json read_plan(const std::string& path) {
   try {
-    // Depth and size checked while parsing (fitting/json_limits.hpp): a deep
+    // Depth and size checked while parsing (formats/json_limits.hpp): a deep
     // file never becomes a json value this program would copy or dump.
     return parse_json_limited(read_json_file(path), "plan", /*ignore_comments=*/true);
   } catch (const JsonLimitError& e) {

@@ -451,7 +451,7 @@ class Client:
             inputs: Optional[Dict[str, Any]] = None,
             timeout_s: Optional[float] = None
     ) -> Dict[str, Any]:
-        """`design.run`: A design calculator (fitting/design_calculators.hpp) on a part given by value: the part object of an answer reads back as the same part. No store access.
+        """`design.run`: A design calculator (design/calculators.hpp) on a part given by value: the part object of an answer reads back as the same part. No store access.
 
         Params:
             calculator (str, required): one of op, bias-r, loss, bias-for-loss, headroom, distortion,
@@ -630,7 +630,7 @@ class Client:
             inputs: Optional[Dict[str, Any]] = None,
             timeout_s: Optional[float] = None
     ) -> Dict[str, Any]:
-        """`part.design`: A design calculator (fitting/design_calculators.hpp) on the part's latest usable fit.
+        """`part.design`: A design calculator (design/calculators.hpp) on the part's latest usable fit.
 
         Params:
             part_id (int, required): the part's id (part.list)

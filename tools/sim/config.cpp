@@ -1,6 +1,6 @@
 #include "tools/sim/config.hpp"
 
-#include "fitting/json_limits.hpp"
+#include "formats/json_limits.hpp"
 
 #include <nlohmann/json.hpp>
 

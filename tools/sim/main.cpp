@@ -1,7 +1,7 @@
 // junco-sim: the simulated bench process. See --help and docs/sim.md.
 #include "tools/sim/app.hpp"
 #include "tools/sim/config.hpp"
-#include "fitting/json_limits.hpp"  // read_json_file
+#include "formats/json_limits.hpp"  // read_json_file
 #include "junco/cli_args.hpp"
 #include "junco/exit_status.hpp"
 

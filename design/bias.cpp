@@ -1,6 +1,6 @@
-#include "fitting/design_bias.hpp"
+#include "design/bias.hpp"
 
-#include "fitting/design_units.hpp"
+#include "units/si_text.hpp"
 #include "fitting/transfer.hpp"
 
 #include <cmath>
@@ -29,8 +29,8 @@ std::optional<double> bias_resistor_ohm(const DiodeParams& p, double supply_v, d
   const double r = (supply_v - vd) / target_i_a - return_r_ohm;
   if (!(r >= 0.0)) {
     if (why)
-      *why = "a " + format_engineering(supply_v, "V") + " supply cannot drive " + format_engineering(target_i_a, "A") +
-             ": the diode alone needs " + format_engineering(vd, "V") +
+      *why = "a " + units::format_si(supply_v, "V") + " supply cannot drive " + units::format_si(target_i_a, "A") +
+             ": the diode alone needs " + units::format_si(vd, "V") +
              (return_r_ohm > 0 ? " plus the DC return's drop" : "");
     return std::nullopt;
   }
@@ -50,8 +50,8 @@ PowerCheck check_power(const OperatingPoint& op, double bias_r_ohm, double signa
   c.resistor_w = op.i_a * op.i_a * bias_r_ohm;
   const auto judge = [&](const char* what, double w, double max_w) {
     if (!(max_w > 0.0)) return;
-    const std::string text = std::string(what) + " dissipates " + format_engineering(w, "W") + ", limit " +
-                             format_engineering(max_w, "W");
+    const std::string text = std::string(what) + " dissipates " + units::format_si(w, "W") + ", limit " +
+                             units::format_si(max_w, "W");
     if (w > max_w)
       c.failures.push_back(text + ": OVER THE LIMIT");
     else if (w > limits.warn_fraction * max_w)

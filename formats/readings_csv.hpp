@@ -4,7 +4,7 @@
 //   AC readings:       bias_i_a,freq_hz,vin,vout
 //   off-state readings: reverse_v,freq_hz,vin,vout  (reverse_v a magnitude)
 // Lines starting with '#' are comments. A forward table is read by
-// parse_iv_csv (fitting/iv_csv.hpp), so it accepts whatever `junco fit` does.
+// parse_iv_csv (formats/iv_csv.hpp), so it accepts whatever `junco fit` does.
 #pragma once
 
 #include "fitting/extract.hpp"

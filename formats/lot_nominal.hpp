@@ -5,7 +5,7 @@
 #pragma once
 
 #include "fitting/lot_stats.hpp"
-#include "fitting/spice_card.hpp"
+#include "formats/spice_card.hpp"
 
 #include <string>
 #include <vector>

@@ -32,9 +32,9 @@
 // (the nonlinearity) hardly moves (docs/references.md §6).
 #pragma once
 
-#include "fitting/design_switch.hpp"
+#include "design/switch.hpp"
 #include "fitting/diode.hpp"
-#include "fitting/harmonics.hpp"
+#include "design/harmonics.hpp"
 
 #include <optional>
 #include <string>

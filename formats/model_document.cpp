@@ -1,6 +1,6 @@
-#include "fitting/model_document.hpp"
+#include "formats/model_document.hpp"
 
-#include "fitting/json_limits.hpp"
+#include "formats/json_limits.hpp"
 
 #include <nlohmann/json.hpp>
 

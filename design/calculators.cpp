@@ -1,7 +1,7 @@
-#include "fitting/design_calculators.hpp"
+#include "design/calculators.hpp"
 
-#include "fitting/design_bias.hpp"
-#include "fitting/design_distortion.hpp"
+#include "design/bias.hpp"
+#include "design/distortion.hpp"
 #include "fitting/transfer.hpp"
 
 #include <cmath>

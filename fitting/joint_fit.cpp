@@ -1,4 +1,4 @@
-#include "fitting/design_joint_fit.hpp"
+#include "fitting/joint_fit.hpp"
 
 #include "fitting/solver_options.hpp"
 

@@ -2,7 +2,7 @@
 // socket requests (daemon/rpc_framing.cpp), plan files (junco submit),
 // juncod's config (daemon/config.cpp), dialect files (drivers/dialect.cpp),
 // junco-sim's config (tools/sim/config.cpp) and model documents
-// (fitting/model_document.cpp).
+// (formats/model_document.cpp).
 //
 // Why: nlohmann's parser is iterative, but copying, dumping, comparing and
 // walking a json value recurse once per nesting level. A 200 KB line of

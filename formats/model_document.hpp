@@ -19,7 +19,7 @@
 #pragma once
 
 #include "fitting/extract.hpp"
-#include "fitting/spice_card.hpp"
+#include "formats/spice_card.hpp"
 
 #include <optional>
 #include <string>

@@ -15,7 +15,7 @@
 #pragma once
 
 #include "fitting/diode.hpp"
-#include "fitting/design_switch.hpp"
+#include "design/switch.hpp"
 #include "fitting/temperature.hpp"
 
 #include <nlohmann/json.hpp>

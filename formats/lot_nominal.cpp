@@ -1,4 +1,4 @@
-#include "fitting/lot_nominal.hpp"
+#include "formats/lot_nominal.hpp"
 
 #include <cmath>
 #include <cstdio>

@@ -1,4 +1,4 @@
-#include "fitting/harmonics.hpp"
+#include "design/harmonics.hpp"
 
 #include <cmath>
 #include <numbers>

@@ -1,6 +1,6 @@
-#include "fitting/design_readings_csv.hpp"
+#include "formats/readings_csv.hpp"
 
-#include "fitting/iv_csv.hpp"
+#include "formats/iv_csv.hpp"
 
 #include <cmath>
 #include <cstdio>

@@ -1,4 +1,4 @@
-#include "fitting/iv_csv.hpp"
+#include "formats/iv_csv.hpp"
 
 #include "units/si_text.hpp"
 

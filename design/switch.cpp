@@ -1,4 +1,4 @@
-#include "fitting/design_switch.hpp"
+#include "design/switch.hpp"
 
 #include "fitting/transfer.hpp"
 

@@ -1,4 +1,4 @@
-#include "fitting/design_distortion.hpp"
+#include "design/distortion.hpp"
 
 #include "fitting/junction_charge.hpp"
 #include "fitting/transfer.hpp"

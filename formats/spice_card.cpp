@@ -1,4 +1,4 @@
-#include "fitting/spice_card.hpp"
+#include "formats/spice_card.hpp"
 
 #include <cctype>
 #include <cmath>
