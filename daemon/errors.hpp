@@ -1,7 +1,7 @@
 // The daemon's domain errors: what went wrong in words of the bench, not of
 // the protocol. The plan parser, the plan checks, the job queue and the store
 // throw these; they know nothing of JSON-RPC. One place turns them into a
-// JSON-RPC error (rpc::answer, daemon/rpc_framing.cpp: rpc_code()), so a code
+// JSON-RPC error (rpc::answer, protocol/framing.cpp: rpc_code()), so a code
 // is chosen once for each kind.
 #pragma once
 

@@ -33,7 +33,7 @@
 #include <sys/stat.h>
 
 #include "daemon/log.hpp"
-#include "daemon/rpc_framing.hpp"
+#include "daemon/rpc_answer.hpp"
 #include "daemon/service.hpp"
 
 #include <boost/asio/io_context.hpp>

@@ -8,6 +8,8 @@
 // server to subscribed clients): job.state, job.progress, point.added.
 #pragma once
 
+#include "protocol/codes.hpp"
+
 #include <nlohmann/json.hpp>
 
 #include <functional>
@@ -18,21 +20,6 @@
 namespace junco::daemon {
 
 using Json = nlohmann::json;
-
-// JSON-RPC error codes. The -326xx ones are the standard's; the -320xx
-// range is ours ("server error" range reserved for implementations).
-enum class RpcCode : int {
-  parse_error = -32700,
-  invalid_request = -32600,
-  method_not_found = -32601,
-  invalid_params = -32602,
-  internal_error = -32603,
-  not_found = -32001,      // unknown job/part/lot/run id
-  plan_refused = -32002,   // plan violates a safety limit or is malformed
-  wrong_state = -32003,    // e.g. resume a job that is not paused
-  storage_error = -32004,  // the store could not do what was asked
-  unavailable = -32005,    // e.g. bench not reachable
-};
 
 class RequestError : public std::runtime_error {
  public:

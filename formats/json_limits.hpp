@@ -1,5 +1,5 @@
 // Depth and size limits for every JSON document junco reads from outside:
-// socket requests (daemon/rpc_framing.cpp), plan files (junco submit),
+// socket requests (protocol/framing.cpp), plan files (junco submit),
 // juncod's config (daemon/config.cpp), dialect files (drivers/dialect.cpp),
 // junco-sim's config (tools/sim/config.cpp) and model documents
 // (formats/model_document.cpp).
@@ -36,7 +36,7 @@ namespace junco {
 // and keeps every recursive walk far from any stack limit.
 inline constexpr int max_json_depth = 64;
 // Largest JSON file read (config, dialect, plan, model document, sim config).
-// The socket has its own, smaller line limit (rpc_framing.hpp).
+// The socket has its own, smaller line limit (protocol/framing.hpp).
 inline constexpr std::size_t max_json_file_bytes = std::size_t{4} << 20;  // 4 MiB
 
 // A document over a limit; what() names the limit ("nested deeper than 64 levels").

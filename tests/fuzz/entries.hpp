@@ -27,7 +27,7 @@ inline void require(bool ok, const std::string& what) {
 
 void reply_parser(std::string_view data);  // drivers/reply_parser.hpp
 void dialect(std::string_view data);       // drivers/dialect.hpp parse_dialect, expand_template, format_number
-void rpc_request(std::string_view data);   // daemon/rpc_framing.hpp LineFramer + parse_line + replies
+void rpc_request(std::string_view data);   // protocol/framing.hpp LineFramer + parse_line + replies
 void plan(std::string_view data);          // daemon/plan.hpp parse_plan + check_plan on a fixed bench
 void iv_csv(std::string_view data);        // formats/iv_csv.hpp parse_iv_csv
 void design(std::string_view data);        // design/calculators.hpp run_design (part.design's inputs)

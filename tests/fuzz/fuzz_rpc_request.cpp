@@ -1,4 +1,4 @@
-// Fuzz entry: the pure half of juncod's socket server (daemon/rpc_framing.hpp).
+// Fuzz entry: the pure half of juncod's socket server (protocol/framing.hpp).
 // The bytes are a client's stream, cut into chunks where the first byte says.
 // Invariants:
 //  - a small-limit LineFramer agrees exactly with a simple model (split at
@@ -16,7 +16,7 @@
 //    serialises with to_line to exactly one line that parses back as JSON.
 #include "tests/fuzz/entries.hpp"
 
-#include "daemon/rpc_framing.hpp"
+#include "daemon/rpc_answer.hpp"
 #include "tests/fuzz/rpc_service.hpp"
 
 #include <algorithm>

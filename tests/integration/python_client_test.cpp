@@ -4,7 +4,7 @@
 // threads, id-null errors and notifications work (tests/python/exercise_client.py);
 // its wrappers cover schema/api and its version is CMake's (tests/python/check_wrappers.py).
 // Runs /usr/bin/python3 (Debian's: python3-pip, python3-venv from tools/setup).
-#include "daemon/rpc_framing.hpp"  // default_socket_path: junco's rule
+#include "protocol/framing.hpp"  // default_socket_path: junco's rule
 #include "tests/support/bench_daemon.hpp"
 
 #include <grp.h>
@@ -218,7 +218,7 @@ bool make_socket_file(const std::string& path) {
 }  // namespace
 
 TEST_CASE("junco_client finds the default socket by junco's rule, in the same order", "[python]") {
-  // The reference is the function junco itself calls (daemon/rpc_framing.hpp
+  // The reference is the function junco itself calls (protocol/framing.hpp
   // default_socket_path), run beside the Python one under the same user and
   // environment. The service's /run/junco/juncod.sock must exist for one
   // case, so a child process gets a private mount namespace with its own

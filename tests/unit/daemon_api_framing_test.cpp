@@ -2,7 +2,7 @@
 // Expected codes and reply shapes follow the JSON-RPC 2.0 specification
 // (https://www.jsonrpc.org/specification, sections 4, 5, 5.1, 6 and its
 // "Examples" section, whose batch and error cases are reproduced below).
-#include "daemon/rpc_framing.hpp"
+#include "protocol/framing.hpp"
 
 #include <catch2/catch.hpp>
 

@@ -2,7 +2,7 @@
 
 #include "tools/junco/command.hpp"
 
-#include "daemon/rpc_framing.hpp"  // default_socket_path(), shared with the daemon
+#include "protocol/framing.hpp"  // default_socket_path(), shared with the daemon
 #include "units/si_text.hpp"
 
 #include <cstdio>

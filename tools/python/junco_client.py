@@ -78,7 +78,7 @@ SERVICE_SOCKET = "/run/junco/juncod.sock"  # juncod as a system service (juncod.
 
 
 def default_socket_path():
-    """The socket junco would use with no --socket (daemon/rpc_framing.hpp,
+    """The socket junco would use with no --socket (protocol/framing.hpp,
     default_socket_path; the same order): $JUNCO_SOCKET; else, as root, the
     service's /run/junco/juncod.sock; else the user's own daemon's socket,
     $XDG_RUNTIME_DIR/junco/juncod.sock or

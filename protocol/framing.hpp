@@ -26,7 +26,7 @@
 //    limit and its wording for every JSON reader.
 #pragma once
 
-#include "daemon/service.hpp"
+#include "protocol/codes.hpp"
 #include "formats/json_limits.hpp"
 
 #include <sys/stat.h>  // stat: which default socket exists
@@ -127,18 +127,6 @@ Parsed parse_line(std::string_view line);
 // notifications have none. A batch gets an array, a single message one
 // object; nullopt = send nothing. The server and the fuzz target share it.
 std::optional<Json> respond(const Parsed& parsed, const std::function<Json(const Request&)>& run);
-
-// Methods the transport answers itself (events.subscribe on the socket):
-// returns the result, or nullopt when `req` is not one of them. May throw
-// RequestError like Service::call.
-using LocalMethod = std::function<std::optional<Json>(const Request&)>;
-
-// Runs one request: `local` first (may be empty), else service.call. Maps
-// RequestError to its code, a nlohmann::json exception from the Service's
-// accessors to invalid_params, anything else to internal_error (reported to
-// on_internal_error, which may be empty). Never throws.
-Json answer(Service& service, const Request& req, const Caller& caller, const LocalMethod& local,
-            const std::function<void(const std::string&)>& on_internal_error);
 
 // Reply and notification builders (objects; the caller serialises with dump()).
 Json make_result(const Json& id, Json result);

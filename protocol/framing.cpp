@@ -1,7 +1,5 @@
-// JSON-RPC 2.0 line framing and request validation (see rpc_framing.hpp).
-#include "daemon/rpc_framing.hpp"
-
-#include "daemon/error_codes.hpp"
+// JSON-RPC 2.0 line framing and request validation (see framing.hpp).
+#include "protocol/framing.hpp"
 
 #include "formats/json_limits.hpp"
 
@@ -179,27 +177,6 @@ std::optional<Json> respond(const Parsed& parsed, const std::function<Json(const
   if (replies.empty()) return std::nullopt;
   if (parsed.batch) return replies;
   return std::move(replies.front());
-}
-
-Json answer(Service& service, const Request& req, const Caller& caller, const LocalMethod& local,
-            const std::function<void(const std::string&)>& on_internal_error) {
-  try {
-    if (local)
-      if (auto result = local(req)) return make_result(req.id, std::move(*result));
-    return make_result(req.id, service.call(req.method, req.params, caller));
-  } catch (const RequestError& e) {
-    return make_error(req.id, e.code(), e.what(), e.data());
-  } catch (const DomainError& e) {  // a Service that did not map it itself
-    const RequestError r = to_request_error(e);
-    return make_error(req.id, r.code(), r.what(), r.data());
-  } catch (const nlohmann::json::exception& e) {
-    // A params member of the wrong type or missing reached the Service's
-    // json accessors: the caller's mistake, not a daemon failure.
-    return make_error(req.id, RpcCode::invalid_params, std::string("invalid params for ") + req.method + ": " + e.what());
-  } catch (const std::exception& e) {
-    if (on_internal_error) on_internal_error("internal error in " + req.method + ": " + e.what());
-    return make_error(req.id, RpcCode::internal_error, std::string("internal error: ") + e.what());
-  }
 }
 
 Json make_result(const Json& id, Json result) {
