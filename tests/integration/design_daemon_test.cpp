@@ -135,7 +135,7 @@ TEST_CASE("part.design answers as the calculators do on the exported model", "[d
   INFO(cli.out << cli.err);
   CHECK(cli.status == 0);
   CHECK(cli.out.find("assumed   bias resistor    390 ohm") != std::string::npos);  // one formatter: no trailing zeros
-  CHECK(cli.out.find(units::format_si(i_a, "A", 6)) != std::string::npos);
+  CHECK(cli.out.find(junco::units::format_si(i_a, "A", 6)) != std::string::npos);
   cli = b.junco({"design", "op", "--part", "DS-1", "--supply", "-5", "--rbias", "390"});
   CHECK(cli.status == 2);
   CHECK(cli.err.find("--supply: must be > 0") != std::string::npos);

@@ -595,7 +595,7 @@ TEST_CASE("part.export json is a model document that junco design op reads; spic
   REQUIRE(cli.wait(5000ms) == 0);
   std::smatch m;
   REQUIRE(std::regex_search(out, m, std::regex("bias current +([^\n]+)")));
-  const auto i_a = units::parse_si(m[1].str(), "A");
+  const auto i_a = junco::units::parse_si(m[1].str(), "A");
   REQUIRE(i_a);
   // Against the fake part itself: supply 5 V through 100 Ω into the diode (Lambert W, fitting/diode.hpp).
   fit::DiodeParams total = lab.diode;
