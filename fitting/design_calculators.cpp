@@ -519,7 +519,7 @@ void attenuator_calc(Run& r) {
     r.result("shunt_ohm", "shunt R(I)", pad.shunt_ohm, "Ohm");
   }
   const auto resp = pad_response(kind, pad, z0, z0);
-  r.result("attenuation_db", "attenuation between Z0 ports", resp.loss_db, "dB");
+  r.result("pad_loss_db", "attenuation between Z0 ports (the pad's loss)", resp.loss_db, "dB");
   r.result("return_loss_db", "input return loss", resp.return_loss_db, "dB");
 }
 
