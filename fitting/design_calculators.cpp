@@ -390,7 +390,7 @@ void off_headroom_calc(Run& r) {
 
 void junction_temp_calc(Run& r) {
   if (r.has("temp_k"))
-    throw DesignInputError("temp_k", "temp_k: junction-temp finds the junction temperature itself; give ambient_k");
+    throw DesignInputError("temp_k", "temp_k: junction-temp finds the junction temperature itself; give the ambient instead (ambient_k, --ambient)");
   r.assume_all();
   const auto& p = r.part_at_tnom();
   const double emf = rf_emf_peak_v(r).value_or(0.0);
@@ -520,7 +520,8 @@ void attenuator_calc(Run& r) {
   }
   const auto resp = pad_response(kind, pad, z0, z0);
   r.result("pad_loss_db", "attenuation between Z0 ports (the pad's loss)", resp.loss_db, "dB");
-  r.result("return_loss_db", "input return loss", resp.return_loss_db, "dB");
+  r.result("input_reflection", "input |reflection coefficient| (0: matched)", resp.reflection, "");
+  if (resp.reflection > 1e-9) r.result("return_loss_db", "input return loss", resp.return_loss_db, "dB");
 }
 
 }  // namespace

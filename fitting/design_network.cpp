@@ -215,7 +215,8 @@ PadResponse pad_response(PadKind kind, const PadResistors& r, double rg_ohm, dou
   const double z_in = (m.a * rl_ohm + m.b) / (m.c * rl_ohm + m.d);
   PadResponse out;
   out.loss_db = 20.0 * std::log10(rl_ohm / (rg_ohm + rl_ohm) / v_load);
-  out.return_loss_db = -20.0 * std::log10(std::abs((z_in - rg_ohm) / (z_in + rg_ohm)));
+  out.reflection = std::abs((z_in - rg_ohm) / (z_in + rg_ohm));
+  out.return_loss_db = -20.0 * std::log10(out.reflection);
   return out;
 }
 

@@ -156,7 +156,8 @@ PadResistors matched_pad(PadKind kind, double a_db, double z0_ohm);
 // rg_ohm and rl_ohm.
 struct PadResponse {
   double loss_db = 0.0;
-  double return_loss_db = 0.0;  // −20·log10|Γin|, Γin against rg_ohm
+  double reflection = 0.0;      // |Γin|, the input against rg_ohm (0 when matched)
+  double return_loss_db = 0.0;  // −20·log10|Γin| (infinite when matched)
 };
 PadResponse pad_response(PadKind kind, const PadResistors& r, double rg_ohm, double rl_ohm);
 

@@ -420,7 +420,8 @@ TEST_CASE("attenuator: matched pi and T resistors are the textbook values", "[re
     CHECK(p.series_ohm == Approx(r.pi_series).epsilon(2e-3));
     // matched: the designed pad gives its attenuation and no reflection
     CHECK(pad_response(PadKind::tee, t, 50, 50).loss_db == Approx(r.db).margin(1e-9));
-    CHECK(pad_response(PadKind::pi, p, 50, 50).return_loss_db > 100);
+    CHECK(pad_response(PadKind::pi, p, 50, 50).reflection < 1e-12);
+    CHECK(pad_response(PadKind::tee, t, 50, 50).reflection < 1e-12);
   }
 }
 
@@ -441,7 +442,7 @@ TEST_CASE("attenuator: attenuation against PIN bias current matches ngspice .ac 
   std::ostringstream f;
   f.precision(15);
   f << "PIN attenuators\n.param r0=1.5 k=0.05 x=0.87\n";
-  std::vector<double> ours;
+  std::vector<double> ours, reflection;
   std::string vectors;
   for (std::size_t n = 0; n < cases.size(); ++n) {
     Json in = law;
@@ -450,6 +451,7 @@ TEST_CASE("attenuator: attenuation against PIN bias current matches ngspice .ac 
     const Json a = run_design("attenuator", nullptr, in);
     REQUIRE(a["achievable"] == true);
     ours.push_back(value_of(a, "pad_loss_db"));
+    reflection.push_back(value_of(a, "input_reflection"));
     if (cases[n].extra.contains("target_db")) CHECK(ours.back() == Approx(cases[n].extra["target_db"].get<double>()).margin(1e-9));
     const bool design = cases[n].extra.contains("target_db");
     const double is = design ? value_of(a, "series_current_a") : in["series_current_a"].get<double>();
@@ -463,17 +465,21 @@ TEST_CASE("attenuator: attenuation against PIN bias current matches ngspice .ac 
     else
       f << "Rs1" << s << " i" << s << " m" << s << " " << r(is) << "\nRp" << s << " m" << s << " 0 " << r(ish) << "\nRs2" << s << " m" << s
         << " o" << s << " " << r(is) << "\n";
-    vectors += " vm(o" + s + ")";
+    vectors += " vm(o" + s + ") vr(i" + s + ")";
   }
   f << ".control\nac dec 6 1e6 1e9\nset wr_singlescale\nwrdata " << ng.path("ac.txt") << vectors << "\n.endc\n.end\n";
   ng.run(f.str(), "ac");
-  const auto rows = read_columns(ng.path("ac.txt"), 1 + cases.size());
+  const auto rows = read_columns(ng.path("ac.txt"), 1 + 2 * cases.size());
   REQUIRE(rows.size() == 19);
   for (const auto& row : rows)
     for (std::size_t n = 0; n < cases.size(); ++n) {
       INFO(cases[n].pad << " " << cases[n].extra.dump() << " at " << row[0] << " Hz");
-      CHECK(ours[n] == Approx(db(0.5 / row[1 + n])).margin(0.1));
-      CHECK(ours[n] == Approx(db(0.5 / row[1 + n])).margin(1e-6));
+      const double v_out = row[1 + 2 * n], v_in = row[2 + 2 * n];
+      CHECK(ours[n] == Approx(db(0.5 / v_out)).margin(0.1));
+      CHECK(ours[n] == Approx(db(0.5 / v_out)).margin(1e-6));
+      // The input's reflection from its voltage: Zin = Rg*Vin/(1 - Vin) (EMF 1 V).
+      const double z_in = 50.0 * v_in / (1.0 - v_in);
+      CHECK(reflection[n] == Approx(std::abs((z_in - 50.0) / (z_in + 50.0))).margin(1e-6));
     }
   // A target below what R0 allows is not achievable, and says why.
   Json in = law;
