@@ -2,6 +2,7 @@
 
 #include "design/bias.hpp"
 #include "design/distortion.hpp"
+#include "design/network.hpp"
 #include "fitting/transfer.hpp"
 
 #include <cmath>
@@ -89,6 +90,7 @@ class Run {
       if (!(part_copy_.dc.is_a > 0 && part_copy_.dc.n > 0 && part_copy_.dc.rs_ohm >= 0))
         throw DesignInputError("part", "the part needs Is > 0, n > 0 and Rs >= 0");
       answer_["part"] = design_part_json(part_copy_);
+      part_tnom_ = part_copy_;
       // The calculators compute at the junction temperature: the part's
       // parameters moved there by the SPICE law (the same one a simulator
       // applies to the exported card).
@@ -112,6 +114,14 @@ class Run {
   }
 
   const DesignPart& part() const { return part_copy_; }
+  // The part at its own temperature (TNOM), the overrides applied: for a
+  // calculator that finds the junction temperature itself.
+  const DesignPart& part_at_tnom() const { return part_tnom_; }
+  void report_junction(const DiodeParams& dc, double temp_k) {
+    answer_["junction"]["temp_k"] = temp_k;
+    answer_["junction"]["is_a"] = dc.is_a;
+    answer_["junction"]["rs_ohm"] = dc.rs_ohm;
+  }
   bool has(const std::string& key) const { return numbers_.count(key) != 0; }
   double number(const std::string& key) const { return numbers_.at(key); }
   const std::string& text(const std::string& key) const { return texts_.at(key); }
@@ -145,6 +155,10 @@ class Run {
   }
   void result(const std::string& key, const std::string& label, double value, const std::string& unit) {
     answer_["result"].push_back({{"key", key}, {"label", label}, {"unit", unit}, {"value", std::isfinite(value) ? Json(value) : Json(nullptr)}});
+  }
+  // A result with no number: a verdict ("pass", "FAIL") or a description.
+  void result_text(const std::string& key, const std::string& label, const std::string& text) {
+    answer_["result"].push_back({{"key", key}, {"label", label}, {"unit", ""}, {"value", nullptr}, {"text", text}});
   }
   void not_achievable(const std::string& why) {
     answer_["achievable"] = false;
@@ -191,6 +205,7 @@ class Run {
   const DesignCalculator& calc_;
   const DesignPart* part_;
   DesignPart part_copy_;
+  DesignPart part_tnom_;
   std::map<std::string, double> numbers_;
   std::map<std::string, std::string> texts_;
   Json answer_;
@@ -327,6 +342,187 @@ void power(Run& r) {
   for (const auto& f : c.failures) r.fail(f);
 }
 
+// ---- the switch around the diode (design_network.hpp) ------------------------
+
+// The RF drive: amplitude_v (EMF peak) or power_w (available power), not both.
+std::optional<double> rf_emf_peak_v(const Run& r) {
+  if (r.has("amplitude_v") && r.has("power_w"))
+    throw DesignInputError("power_w", "power_w: give the drive as amplitude_v or as power_w, not both");
+  if (r.has("amplitude_v")) return r.number("amplitude_v");
+  if (r.has("power_w")) return emf_peak_from_power_v(r.number("power_w"), r.number("rg_ohm"));
+  return std::nullopt;
+}
+
+std::vector<DesignInputSpec> rf_drive_inputs() {
+  return {optional_input("amplitude_v", "amplitude", "V", "EMF peak", InputRange::non_negative),
+          optional_input("power_w", "power", "W", "available RF power", InputRange::non_negative)};
+}
+
+void off_headroom_calc(Run& r) {
+  const auto emf = rf_emf_peak_v(r);
+  if (!emf) throw DesignInputError("amplitude_v", "off-headroom needs the RF drive: amplitude_v (EMF peak) or power_w");
+  r.assume_all();
+  const auto& p = r.part();
+  const std::optional<double> bv = r.has("bv_v") ? std::optional<double>(r.number("bv_v")) : std::nullopt;
+  const auto h = off_headroom(r.kind(), p.dc, p.charge(), r.number("reverse_v"), *emf, r.number("rg_ohm"), r.number("rl_ohm"),
+                              r.number("freq_hz"), series_l(r), p.temp_k, bv, r.number("margin_v"), r.number("onset_a"));
+  r.result("emf_peak_v", "EMF peak", *emf, "V");
+  r.result("junction_peak_v", "RF peak across the off junction", h.junction_peak_v, "V");
+  r.result("forward_margin_v", "reverse bias minus RF peak", h.forward_margin_v, "V");
+  r.result("min_reverse_v", "least reverse bias (RF peak + margin)", h.min_reverse_v, "V");
+  r.result("conduction_peak_v", "RF peak at which forward current reaches the onset", h.conduction_peak_v, "V");
+  if (bv) {
+    r.result("breakdown_margin_v", "BV minus (reverse bias + RF peak)", h.breakdown_margin_v, "V");
+    r.result("max_reverse_v", "largest reverse bias (BV - RF peak - margin)", h.max_reverse_v, "V");
+    r.result("breakdown_peak_v", "RF peak at which the reverse current reaches IBV (at -BV)", h.breakdown_peak_v, "V");
+  }
+  r.result_text("verdict", "off-state headroom", h.ok() ? "pass" : "FAIL");
+  if (!h.forward_ok)
+    r.fail("the off junction swings to within " + junco::units::format_si(h.forward_margin_v, "V") + " of forward bias (margin " +
+           junco::units::format_si(r.number("margin_v"), "V") + "): raise the reverse bias to " + junco::units::format_si(h.min_reverse_v, "V"));
+  if (!h.breakdown_ok)
+    r.fail("reverse bias + RF peak come within " + junco::units::format_si(h.breakdown_margin_v, "V") + " of BV (margin " +
+           junco::units::format_si(r.number("margin_v"), "V") + "): lower the reverse bias to " + junco::units::format_si(h.max_reverse_v, "V") +
+           " or use a part with a higher BV");
+  if (bv && h.min_reverse_v > h.max_reverse_v) r.not_achievable("no reverse bias fits: BV is below 2 x (RF peak + margin)");
+}
+
+void junction_temp_calc(Run& r) {
+  if (r.has("temp_k"))
+    throw DesignInputError("temp_k", "temp_k: junction-temp finds the junction temperature itself; give the ambient instead (ambient_k, --ambient)");
+  r.assume_all();
+  const auto& p = r.part_at_tnom();
+  const double emf = rf_emf_peak_v(r).value_or(0.0);
+  const auto at = [&](double ambient_k, double theta) {
+    return junction_heating(r.kind(), p.dc, p.charge(), p.temp_k, p.law, r.number("current_a"), emf, r.number("rg_ohm"),
+                            r.number("rl_ohm"), r.number("freq_hz"), series_l(r), ambient_k, theta);
+  };
+  const auto h = at(r.number("ambient_k"), r.number("theta_k_per_w"));
+  if (!h.converged) return r.not_achievable("no steady junction temperature (thermal runaway at this theta and power)");
+  if (emf > 0) {
+    const auto& pj = r.part();
+    const double w = 2.0 * std::numbers::pi * r.number("freq_hz");
+    const auto z = diode_small_signal_impedance(pj.dc, pj.charge(), r.number("current_a"), r.number("freq_hz"), pj.temp_k) +
+                   std::complex<double>(0.0, w * r.number("ls_h"));
+    const double i_peak = std::abs(element_current_a(r.kind(), z, emf, r.number("rg_ohm"), r.number("rl_ohm")));
+    if (i_peak > r.number("current_a"))
+      r.warn("the RF peak current (" + junco::units::format_si(i_peak, "A") + ") exceeds the bias: the diode clips and the "
+             "small-signal RF loss share is only an estimate");
+  }
+  const auto loss_at = [&](double temp_k) {
+    DiodeParams dc = diode_at_temperature(p.dc, p.temp_k, temp_k, p.law);
+    JunctionCharge charge = p.charge();
+    if (charge.cap.cj0_f > 0) {
+      const auto d = depletion_at_temperature(charge.cap.cj0_f, charge.cap.vj_v, charge.cap.m, p.temp_k, temp_k);
+      charge.cap.cj0_f = d.cj0_f;
+      charge.cap.vj_v = d.vj_v;
+    }
+    return on_state_loss_db(r.kind(), dc, charge, r.number("current_a"), r.number("rg_ohm"), r.number("rl_ohm"), r.number("freq_hz"),
+                            series_l(r), temp_k);
+  };
+  r.report_junction(diode_at_temperature(p.dc, p.temp_k, h.tj_k, p.law), h.tj_k);
+  r.result("tj_k", "junction temperature Ta + theta*P", h.tj_k, "K");
+  r.result("diode_power_w", "diode dissipation", h.total_w(), "W");
+  r.result("dc_power_w", "of which DC bias I*Vf", h.dc_w, "W");
+  r.result("rf_power_w", "of which RF loss in the diode", h.rf_w, "W");
+  const double ambient_db = loss_at(r.number("ambient_k")), hot_db = loss_at(h.tj_k);
+  r.result("loss_ambient_db", r.kind() == SwitchKind::series ? "insertion loss at ambient" : "isolation at ambient", ambient_db, "dB");
+  r.result("loss_db", r.kind() == SwitchKind::series ? "insertion loss at Tj" : "isolation at Tj", hot_db, "dB");
+  r.result("loss_shift_db", "shift from ambient to Tj", hot_db - ambient_db, "dB");
+}
+
+void bias_network_calc(Run& r) {
+  if (!(r.number("freq_high_hz") > r.number("freq_low_hz")))
+    throw DesignInputError("freq_high_hz", "freq_high_hz: must be above freq_low_hz");
+  r.assume_all();
+  const auto& p = r.part();
+  BiasNetwork net;
+  net.supply_v = r.number("supply_v");
+  net.rbias_ohm = r.number("rbias_ohm");
+  net.rground_ohm = r.number("rground_ohm");
+  net.feed_diode = r.text("feed_diode") == "same";
+  net.rg_ohm = r.number("rg_ohm");
+  net.rl_ohm = r.number("rl_ohm");
+  const double f_lo = r.number("freq_low_hz"), f_hi = r.number("freq_high_hz"), ratio = r.number("ratio");
+  net.cblock_f = r.has("cblock_f") ? r.number("cblock_f") : block_capacitor_f(f_lo, net.rg_ohm, net.rl_ohm, ratio);
+  net.choke_h = r.has("choke_h") ? r.number("choke_h") : choke_inductance_h(f_lo, net.rg_ohm, net.rl_ohm, ratio);
+  net.ferrite_r_ohm = r.has("ferrite_r_ohm") ? r.number("ferrite_r_ohm") : 0.0;
+  net.cbypass_f = r.has("cbypass_f") ? r.number("cbypass_f") : 0.0;
+  const auto b = network_bias(net, p.dc, p.temp_k);
+  r.result("cblock_f", r.has("cblock_f") ? "DC block (given)" : "DC block (|Xc| = Z0/ratio at f low)", net.cblock_f, "F");
+  r.result("choke_h", r.has("choke_h") ? "choke (given)" : "choke (|XL| = ratio*Z0 at f low)", net.choke_h, "H");
+  r.result("thevenin_v", "feed drive Vs*Rgnd/(Rb+Rgnd)", b.thevenin_v, "V");
+  r.result("thevenin_ohm", "feed resistance Rb||Rgnd", b.thevenin_ohm, "Ohm");
+  r.result("bias_current_a", "diode current", b.i_a, "A");
+  r.result("diode_voltage_v", "diode voltage", b.vd_v, "V");
+  // The band on a log grid (24 points a decade, both edges): the worst of each.
+  double worst_loss = -inf, worst_added = -inf, worst_leak = -inf;
+  NetworkResponse lo{}, hi{};
+  const int steps = std::max(2, static_cast<int>(std::ceil(24.0 * std::log10(f_hi / f_lo))));
+  for (int k = 0; k <= steps; ++k) {
+    const double f = f_lo * std::pow(f_hi / f_lo, static_cast<double>(k) / steps);
+    const auto x = network_response(net, p.dc, p.charge(), b.i_a, f, p.temp_k);
+    if (k == 0) lo = x;
+    if (k == steps) hi = x;
+    worst_loss = std::max(worst_loss, x.loss_db);
+    worst_added = std::max(worst_added, x.loss_db - x.bare_loss_db);
+    worst_leak = std::max(worst_leak, x.supply_leak_db);
+  }
+  r.result("loss_low_db", "insertion loss at f low", lo.loss_db, "dB");
+  r.result("loss_high_db", "insertion loss at f high", hi.loss_db, "dB");
+  r.result("max_loss_db", "insertion loss, worst in the band", worst_loss, "dB");
+  r.result("added_loss_db", "added by the network, worst in the band", worst_added, "dB");
+  r.result("supply_leak_db", "RF into the supply line, worst in the band", worst_leak, "dB");
+  const double z0 = std::max(net.rg_ohm, net.rl_ohm);
+  if (net.ferrite_r_ohm > 0 && net.ferrite_r_ohm < ratio * z0)
+    r.warn("the ferrite's R (" + junco::units::format_si(net.ferrite_r_ohm, "ohm") + ") is below ratio x Z0: it loads the signal at high frequency");
+  if (b.i_a <= 0) r.not_achievable("the feed drives no forward current");
+}
+
+void series_shunt_calc(Run& r) {
+  r.assume_all();
+  const auto& p = r.part();
+  const double f = r.number("freq_hz"), w = 2.0 * std::numbers::pi * f;
+  const std::complex<double> z_on =
+      diode_small_signal_impedance(p.dc, p.charge(), r.number("current_a"), f, p.temp_k) + std::complex<double>(0.0, w * r.number("ls_h"));
+  const auto z_off = diode_off_impedance(p.dc, p.charge(), r.number("reverse_v"), f, {r.number("ls_h"), r.number("rr_ohm")}, p.temp_k);
+  const double rg = r.number("rg_ohm"), rl = r.number("rl_ohm");
+  r.result("insertion_loss_db", "insertion loss (series on, shunt off)", series_shunt_db(z_on, z_off, rg, rl), "dB");
+  r.result("isolation_db", "isolation (series off, shunt on)", series_shunt_db(z_off, z_on, rg, rl), "dB");
+  r.result("series_isolation_db", "isolation of the series diode alone, for comparison", series_loss_db(z_off, rg, rl), "dB");
+}
+
+void attenuator_calc(Run& r) {
+  r.assume_all();
+  const PinLaw law{r.number("pin_r0_ohm"), r.number("pin_k_ohm"), r.number("pin_x")};
+  const PadKind kind = r.text("pad") == "pi" ? PadKind::pi : PadKind::tee;
+  const double z0 = r.number("z0_ohm");
+  PadResistors pad;
+  if (r.has("target_db")) {
+    if (r.has("series_current_a") || r.has("shunt_current_a"))
+      throw DesignInputError("target_db", "target_db: give a target attenuation or the two currents, not both");
+    pad = matched_pad(kind, r.number("target_db"), z0);
+    r.result("series_ohm", kind == PadKind::tee ? "series arms (each)" : "series element", pad.series_ohm, "Ohm");
+    r.result("shunt_ohm", kind == PadKind::tee ? "shunt element" : "shunt arms (each)", pad.shunt_ohm, "Ohm");
+    const auto is = pin_current_for_resistance_a(law, pad.series_ohm), ish = pin_current_for_resistance_a(law, pad.shunt_ohm);
+    if (!is || !ish)
+      return r.not_achievable("R(I) never falls to " + junco::units::format_si(std::min(pad.series_ohm, pad.shunt_ohm), "ohm") +
+                              ": R0 = " + junco::units::format_si(law.r0_ohm, "ohm") + " is the least the PIN reaches");
+    r.result("series_current_a", "series diode current", *is, "A");
+    r.result("shunt_current_a", "shunt diode current (each)", *ish, "A");
+  } else {
+    if (!r.has("series_current_a") || !r.has("shunt_current_a"))
+      throw DesignInputError("target_db", "attenuator needs target_db, or series_current_a and shunt_current_a");
+    pad = {pin_resistance_ohm(law, r.number("series_current_a")), pin_resistance_ohm(law, r.number("shunt_current_a"))};
+    r.result("series_ohm", "series R(I)", pad.series_ohm, "Ohm");
+    r.result("shunt_ohm", "shunt R(I)", pad.shunt_ohm, "Ohm");
+  }
+  const auto resp = pad_response(kind, pad, z0, z0);
+  r.result("pad_loss_db", "attenuation between Z0 ports (the pad's loss)", resp.loss_db, "dB");
+  r.result("input_reflection", "input |reflection coefficient| (0: matched)", resp.reflection, "");
+  if (resp.reflection > 1e-9) r.result("return_loss_db", "input return loss", resp.return_loss_db, "dB");
+}
+
 }  // namespace
 
 const std::vector<DesignInputSpec>& design_part_inputs() {
@@ -391,6 +587,52 @@ const std::vector<CalculatorRow>& calculator_rows() {
         with_default("signal_peak_a", "signal-peak", "A", "signal peak", 0.0, R::non_negative),
         optional_input("max_diode_w", "max-diode", "W", "diode limit", R::positive),
         optional_input("max_resistor_w", "max-resistor", "W", "resistor limit", R::positive)}}, power},
+      {{"off-headroom",
+       "off-state headroom: the reverse bias must exceed the RF peak on the off junction (plus a margin) and, with BV, "
+       "reverse bias + RF peak stay below BV (less the margin); pass or fail with the numbers", true,
+       join(join({switch_input(), required("reverse_v", "reverse", "V", "reverse bias", R::non_negative)}, rf_drive_inputs()),
+            join({optional_input("bv_v", "bv", "V", "breakdown BV", R::positive),
+                  with_default("margin_v", "margin", "V", "margin", 0.5, R::non_negative),
+                  with_default("onset_a", "onset", "A", "conduction onset current", 10e-6, R::positive)},
+                 circuit_inputs(true)))}, off_headroom_calc},
+      {{"junction-temp",
+       "junction temperature from the dissipation (DC bias I*Vf + RF loss in the diode): Tj = Ta + theta*P, "
+       "and the biased-state loss at Tj against ambient", true,
+       join(join({switch_input(), required("current_a", "current", "A", "bias current", R::positive),
+                  required("theta_k_per_w", "theta", "K/W", "thermal resistance junction-ambient", R::non_negative),
+                  with_default("ambient_k", "ambient", "K", "ambient", 300.15, R::positive)},
+                 rf_drive_inputs()),
+            circuit_inputs(true))}, junction_temp_calc},
+      {{"bias-network",
+       "series switch with its bias network (DC blocks, chokes or ferrites R||L, feed and ground-return resistors, "
+       "optional isolating diode) sized for a band: values, diode current, loss and RF into the supply", true,
+       join({required("supply_v", "supply", "V", "supply", R::positive), required("rbias_ohm", "rbias", "Ohm", "bias resistor", R::non_negative),
+             with_default("rground_ohm", "rground", "Ohm", "ground-return resistor", inf, R::positive, "none"),
+             {"feed_diode", "feed-diode", "", "isolating diode in the feed", std::nullopt, false, R::any, {"none", "same"}, {}},
+             with_default("freq_low_hz", "freq-low", "Hz", "band low edge", 1e6, R::positive),
+             with_default("freq_high_hz", "freq-high", "Hz", "band high edge", 1e9, R::positive),
+             with_default("ratio", "ratio", "", "reactance ratio to Z0", 10.0, R::positive),
+             optional_input("cblock_f", "cblock", "F", "DC block (default: sized)", R::positive),
+             optional_input("choke_h", "choke", "H", "choke (default: sized)", R::positive),
+             optional_input("ferrite_r_ohm", "ferrite-r", "Ohm", "ferrite R (choke as R||L)", R::positive),
+             optional_input("cbypass_f", "cbypass", "F", "bypass C at the supply side (default none)", R::positive)},
+            circuit_inputs(false))}, bias_network_calc},
+      {{"series-shunt", "series-shunt switch: insertion loss (series on, shunt off) and isolation (series off, shunt on)", true,
+       join({required("current_a", "current", "A", "bias current of the on diode", R::positive),
+             with_default("reverse_v", "reverse", "V", "reverse bias of the off diode", 0.0, R::non_negative),
+             with_default("rr_ohm", "rr", "Ohm", "off resistance", 0.0, R::non_negative)},
+            circuit_inputs(true))}, series_shunt_calc},
+      {{"attenuator",
+       "PIN pi or T attenuator: bias currents for a matched attenuation, or the attenuation at given currents, "
+       "with R(I) = R0 + K*I^-x", false,
+       {{"pad", "pad", "", "topology", std::nullopt, false, R::any, {"pi", "tee"}, {}},
+        optional_input("target_db", "target", "dB", "target attenuation", R::positive),
+        optional_input("series_current_a", "series-current", "A", "series diode current", R::positive),
+        optional_input("shunt_current_a", "shunt-current", "A", "shunt diode current", R::positive),
+        with_default("z0_ohm", "z0", "Ohm", "port impedance Z0", 50.0, R::positive),
+        required("pin_r0_ohm", "pin-r0", "Ohm", "PIN R0", R::non_negative),
+        required("pin_k_ohm", "pin-k", "Ohm", "PIN K (ohm at 1 A)", R::positive),
+        required("pin_x", "pin-x", "", "PIN exponent x", R::positive)}}, attenuator_calc},
   };
   return table;
 }

@@ -167,3 +167,28 @@ TEST_CASE("junco fit --ac: joint AC+DC fit offline, agreeing and disagreeing") {
   CHECK(run_junco("fit " + d.file("iv.csv") + " --ac " + d.file("iv.csv")).status == 2);
   CHECK(run_junco("fit " + d.file("iv.csv") + " --ac " + d.file("same.csv") + " --ac-unit dBm").status == 2);
 }
+
+TEST_CASE("junco design off-headroom fails with the fix, and the switch-network calculators answer") {
+  // Source: docs/references.md §6: 100 mW in 50 ohm is 3.16 V at the load, so
+  // the off series diode sees the 6.32 V EMF: 5 V of reverse bias is short.
+  const std::string part = "--is 2.5n --n 1.85 --rs 0.7 --cj 2p --vj 0.65 --m 0.4";
+  auto r = run_junco("design off-headroom " + part + " --reverse 5 --power 100mW --bv 30");
+  INFO(r.out);
+  CHECK(r.status == 1);
+  CHECK(r.out.find("FAIL") != std::string::npos);
+  CHECK(r.out.find("raise the reverse bias to 6.824 V") != std::string::npos);
+  r = run_junco("design off-headroom " + part + " --reverse 10 --power 100mW --bv 30");
+  CHECK(r.status == 0);
+  CHECK(r.out.find("pass") != std::string::npos);
+  // Matched 10 dB T pad, 50 ohm: 25.97 and 35.14 ohm (textbook pad table, from memory).
+  r = run_junco("design attenuator --pad tee --target 10dB --pin-r0 1 --pin-k 0.04 --pin-x 0.9");
+  CHECK(r.status == 0);
+  CHECK(r.out.find("25.9747 ohm") != std::string::npos);
+  CHECK(r.out.find("35.1364 ohm") != std::string::npos);
+  r = run_junco("design bias-network " + part + " --supply 5 --rbias 390 --rground 1k --feed-diode same --json");
+  CHECK(r.status == 0);
+  CHECK(r.out.find("\"supply_leak_db\"") != std::string::npos);
+  r = run_junco("design junction-temp " + part + " --current 10mA --theta 400 --temp-c 50");
+  CHECK(r.status == 2);
+  CHECK(r.out.find("--ambient") != std::string::npos);
+}

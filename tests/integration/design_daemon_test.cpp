@@ -51,6 +51,7 @@ TEST_CASE("part.design answers as the calculators do on the exported model", "[d
   fitting::DesignPart local;
   local.dc = model->params;
   local.temp_k = model->temp_k;
+  local.law = model->law;  // junction-temp moves the part to its Tj
 
   struct Case {
     std::string calculator;
@@ -63,6 +64,10 @@ TEST_CASE("part.design answers as the calculators do on the exported model", "[d
       {"loss", {{"current_a", 0.01}, {"switch", "shunt"}, {"freq_hz", 1e8}}, "loss_db"},
       {"distortion", {{"current_a", 0.005}, {"amplitude_v", 0.1}}, "thd_pct"},
       {"isolation", {{"cj0_f", 2e-12}, {"reverse_v", 5.0}, {"freq_hz", 1e9}}, "isolation_db"},
+      {"off-headroom", {{"cj0_f", 2e-12}, {"reverse_v", 5.0}, {"power_w", 0.01}, {"bv_v", 30.0}}, "junction_peak_v"},
+      {"junction-temp", {{"current_a", 0.01}, {"theta_k_per_w", 500.0}, {"power_w", 1e-3}}, "tj_k"},
+      {"bias-network", {{"supply_v", 5.0}, {"rbias_ohm", 390.0}, {"rground_ohm", 1000.0}, {"feed_diode", "same"}}, "supply_leak_db"},
+      {"series-shunt", {{"cj0_f", 2e-12}, {"current_a", 0.01}, {"reverse_v", 5.0}, {"freq_hz", 1e8}}, "isolation_db"},
   };
   const Json schema = test::api_schema("part.design");
   const Json by_value_schema = test::api_schema("design.run");
@@ -91,6 +96,10 @@ TEST_CASE("part.design answers as the calculators do on the exported model", "[d
   const Json headroom = b.result("design.run", {{"calculator", "headroom"}, {"inputs", {{"amplitude_v", 1.0}}}});
   CHECK(test::schema_problem(by_value_schema["result"], headroom) == "");
   CHECK_FALSE(headroom.contains("part"));
+  const Json pad = b.result("design.run", {{"calculator", "attenuator"},
+                                          {"inputs", {{"pad", "tee"}, {"target_db", 6.0}, {"pin_r0_ohm", 1.0}, {"pin_k_ohm", 0.04}, {"pin_x", 0.9}}}});
+  CHECK(test::schema_problem(by_value_schema["result"], pad) == "");
+  CHECK(value_of(pad["result"], "pad_loss_db") == Approx(6.0));
   CHECK(test::schema_problem(schema["result"], b.result("part.design", {{"part_id", 1}, {"calculator", "headroom"}, {"inputs", {{"amplitude_v", 1.0}}}})) == "");
   const Json good_part{{"is_a", 2e-9}, {"n", 1.8}, {"rs_ohm", 0.7}};
   auto by_value_error = [&](const Json& part) {

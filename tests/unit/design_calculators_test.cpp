@@ -186,6 +186,8 @@ TEST_CASE("every calculator in the table runs on its required inputs alone") {
     for (const auto& s : c.inputs)
       if (!s.fallback && !s.optional && s.choices.empty()) inputs[s.key] = s.unit == "dB" ? 1.0 : s.unit == "%" ? 5.0 : s.unit == "A" ? 0.01 : 1.0;
     if (c.name == "isolation") inputs["cj0_f"] = 1e-12;
+    if (c.name == "off-headroom") inputs["amplitude_v"] = 1.0;  // one of amplitude_v or power_w
+    if (c.name == "attenuator") inputs["target_db"] = 10.0;     // or the two currents
     INFO(c.name << " " << inputs.dump());
     const Json a = run_design(c.name, c.needs_part ? &part : nullptr, inputs);
     CHECK(a["calculator"] == c.name);

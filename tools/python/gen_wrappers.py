@@ -35,7 +35,8 @@ FALLBACK = {
     "run_id": "the run's id (job.get runs)",
     "lot": "the lot's name",
     "calculator": "the calculator (docs/design.md): op, bias-r, loss, bias-for-loss, headroom, distortion, "
-                  "bias-for-thd, isolation, power",
+                  "bias-for-thd, isolation, power, off-headroom, junction-temp, bias-network, series-shunt, "
+                  "attenuator",
     "format": "the output format (see docs/api.md)",
 }
 

@@ -455,7 +455,8 @@ class Client:
 
         Params:
             calculator (str, required): one of op, bias-r, loss, bias-for-loss, headroom, distortion,
-            bias-for-thd, isolation, power
+            bias-for-thd, isolation, power, off-headroom, junction-temp, bias-network, series-shunt,
+            attenuator
             part (Dict[str, Any], optional): required unless the calculator works without one
             (headroom); unknown keys are refused (data.field = part.KEY)
             inputs (Dict[str, Any], optional): the calculator's inputs in SI units, keys as in
@@ -635,7 +636,8 @@ class Client:
         Params:
             part_id (int, required): the part's id (part.list)
             calculator (str, required): one of op, bias-r, loss, bias-for-loss, headroom, distortion,
-            bias-for-thd, isolation, power
+            bias-for-thd, isolation, power, off-headroom, junction-temp, bias-network, series-shunt,
+            attenuator
             inputs (Dict[str, Any], optional): the calculator's inputs in SI units, keys as in
             docs/design.md (supply_v, rbias_ohm, current_a, switch, ...); optional part overrides cj0_f,
             vj_v, m, tt_s, eg_ev, xti, trs1_per_k and the junction temperature temp_k (IS and RS follow
