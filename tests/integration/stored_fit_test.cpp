@@ -155,9 +155,13 @@ TEST_CASE("a damaged stored fit is a storage error, not invalid params; older ro
 // part.readings name the run again. Common practice, no source.
 TEST_CASE("fits stored without their run id get it back when an older store is opened", "[daemon][fit]") {
   test::BenchDaemon b("old-run-ids", no_heating());
-  const long job = b.run_plan(forward_plan("WREN-0914"));
-  std::map<long, long> run_of_part;  // the runs as juncod recorded them
-  for (const auto& r : b.result("job.get", {{"job_id", job}})["runs"]) run_of_part[r["part_id"].get<long>()] = r["run_id"].get<long>();
+  b.run_plan(forward_plan("WREN-0914"));
+  std::map<long, long> run_of_part;  // each part's one run, as juncod recorded it
+  const Json parts = b.result("part.list", {{"lot", "WREN-0914"}})["parts"];
+  for (const auto& p : parts) {
+    const long part = p["part_id"];
+    run_of_part[part] = b.result("part.readings", {{"part_id", part}})["run"]["run_id"];
+  }
   REQUIRE(run_of_part.size() == 2);
   b.daemon().stop();
   const auto db = b.dir() / "junco.db";
