@@ -273,7 +273,7 @@ std::string rth_text(const Json& fit) {
 // lot table shows.
 void print_lot_spread(RpcClient& client, const std::string& lot) {
   const Json stats = client.call("lot.stats", Json{{"lot", lot}, {"currents_a", {1e-3, 5e-3, 10e-3}}});
-  std::printf("\nlot spread (%zu parts; junco lots %s --at 1mA,5mA,10mA)\n%-14s %-12s %-12s %-12s %-12s\n", stats["parts"].size(),
+  std::printf("\nlot spread (%zu parts) from juncod's lot.stats, as junco lots %s --at 1mA,5mA,10mA\n%-14s %-12s %-12s %-12s %-12s\n", stats["parts"].size(),
               lot.c_str(), "quantity", "mean", "std", "min", "max");
   // {statistic's name, unit, label shown to the reader}
   const std::vector<std::array<std::string, 3>> shown{
