@@ -229,8 +229,17 @@ class CoreService final : public Service {
   Json readings(const Json& params, const Caller&) {
     const PartRow part = part_or_throw(id_param(params, "part_id"));
     const auto run = run_of(part, params);
-    const Json points = run ? to_json(store_.points(run->id)) : Json::array();
-    return {{"part", to_json(part)}, {"run", run ? to_json(*run) : Json(nullptr)}, {"points", points}};
+    const auto rows = run ? store_.points(run->id) : std::vector<PointRow>{};
+    // How the part's latest fit treated each reading, when that fit is of this run.
+    const auto fit = store_.latest_fit(part.id);
+    const bool fit_of_run = run && fit && fit->run_id && *fit->run_id == run->id;
+    const auto uses = fit_of_run ? fit_use_of_points(rows, fit->fit) : std::vector<std::optional<FitUse>>(rows.size());
+    Json points = Json::array();
+    for (std::size_t k = 0; k < rows.size(); ++k) points.push_back(to_json(rows[k], uses[k]));
+    return {{"part", to_json(part)},
+            {"run", run ? to_json(*run) : Json(nullptr)},
+            {"fit_id", fit_of_run ? Json(fit->id) : Json(nullptr)},
+            {"points", points}};
   }
 
   std::shared_ptr<const FitRecord> usable_fit(const PartRow& part, const char* purpose) {
@@ -408,7 +417,7 @@ class CoreService final : public Service {
       auto num = [](double x) { return std::isfinite(x) ? Json(x) : Json(nullptr); };
       rows.push_back({{"i_a", i}, {"vf_v", num(vf.value)}, {"vf_v_se", num(vf.std_error)}, {"rd_ohm", num(rd.value)}, {"rd_ohm_se", num(rd.std_error)}});
     }
-    return {{"part_id", part_id}, {"fit_id", fit->id}, {"temp_k", std::isfinite(r.temp_k) ? Json(r.temp_k) : Json(nullptr)}, {"figures", rows}};
+    return {{"part_id", part_id}, {"fit_id", fit->id}, {"run_id", fit->run_id ? Json(*fit->run_id) : Json(nullptr)}, {"temp_k", std::isfinite(r.temp_k) ? Json(r.temp_k) : Json(nullptr)}, {"figures", rows}};
   }
 
   Json export_part(const Json& params, const Caller&) {

@@ -69,8 +69,9 @@ void fault_point(const char* name, const LogFn& log) {
 struct RunFit {
   fitting::FitResult fit;
   std::optional<fitting::JunctionCapFit> cap;
-  Json cap_readings;
-  Json more_detail = Json::object();  // {"electrothermal": …}
+  std::optional<JunctionCapReport> cap_report;          // what is stored of cap, with each reading's outcome
+  std::optional<ElectrothermalReport> electrothermal;  // detail.electrothermal
+  Json more_detail = Json::object();                   // {"heating": …, "stored_charge": …}
 };
 
 // With AC readings, Rs and self-heating can be told apart
@@ -90,7 +91,7 @@ void apply_electrothermal(const Config& cfg, double temp_k, const RunFixture& fi
   // without, its DC-only fit and note are about the stored fit's readings.
   const auto dc = ac.empty() ? dc_fit_points(points) : held_dc_points(points);
   const fitting::ElectroThermalRun et = fitting::fit_run_electrothermal(dc, ac, ac_fixture(fixture), eo);
-  out.more_detail["electrothermal"] = fitting::electrothermal_run_json(et, eo);
+  out.electrothermal = electrothermal_report(et, eo);
   if (et.status == "no_ac" || et.status == "failed") {
     if (!et.note.empty()) out.fit.warnings.push_back(et.note);
     return;
@@ -164,9 +165,9 @@ void apply_heating(const Config& cfg, double temp_k, const std::vector<PointRow>
   // it still holds with the measured Rth (the per-100 K/W figure of the
   // electro-thermal note × Rth/100), times the part of the settled rise a
   // pulsed top reading sees, 1 − e^(−t0/τ), when the top was pulsed.
-  const Json& et = out.more_detail.value("electrothermal", Json::object());
-  const double per_100 = et.value("rs_bias_per_100_k_per_w_ohm", Json()).is_number() ? et["rs_bias_per_100_k_per_w_ohm"].get<double>() : NAN;
-  if (dwell && dwell->status == "measured" && et.value("status", "") == "no_ac" && std::isfinite(per_100)) {
+  const bool no_ac = out.electrothermal && out.electrothermal->status == "no_ac";
+  const double per_100 = out.electrothermal ? out.electrothermal->rs_bias_per_100_k_per_w_ohm : NAN;
+  if (dwell && dwell->status == "measured" && no_ac && std::isfinite(per_100)) {
     const double fraction = h.pulsed > 0 && std::isfinite(h.pulse_dwell_median_s) ? 1.0 - std::exp(-h.pulse_dwell_median_s / dwell->tau_s.value) : 1.0;
     const double bias = per_100 * dwell->rth_k_per_w.value / 100.0 * fraction;
     j["rs_heating_ohm"] = bias;
@@ -176,7 +177,7 @@ void apply_heating(const Config& cfg, double temp_k, const std::vector<PointRow>
                   dwell->rth_k_per_w.value, bias, h.pulsed > 0 ? " (pulsed top readings: that part of the settled rise they see)" : "");
     out.fit.warnings.emplace_back(line);
   }
-  else if (h.pulsed > 0 && et.value("status", "") == "no_ac" && std::isfinite(h.pulse_dwell_median_s)) {
+  else if (h.pulsed > 0 && no_ac && std::isfinite(h.pulse_dwell_median_s)) {
     // The electro-thermal note sizes a settled rise at the top reading's
     // power; a pulsed top reading sees only what the junction reached in its
     // dwell, and τ is not known without heating.dwell.
@@ -218,9 +219,10 @@ RunFit fit_run(const Config& cfg, double temp_k, const RunFixture& fixture, cons
   }
   try {
     out.cap = junction_cap_of_run(points, fixture, out.fit.usable() ? out.fit.rs_ohm.value : 0.0);
-    if (out.cap) out.cap_readings = off_state_readings_report(off_state_points(points), *out.cap);
+    if (out.cap) out.cap_report = junction_cap_report(*out.cap, off_state_points(points));
   } catch (const std::exception& e) {
     out.cap.reset();
+    out.cap_report.reset();
     out.fit.warnings.push_back(std::string("junction capacitance not fitted: ") + e.what());
   }
   if (out.fit.usable()) {
@@ -280,7 +282,7 @@ class JobRun {
   bool temperature_done(int temp_index) {
     const auto runs = store_.runs_of_job(job_id_);
     int done = 0;
-    for (const auto& r : runs) done += r.temp_index == temp_index && r.state == "done";
+    for (const auto& r : runs) done += r.temp_index == temp_index && r.state == RunState::done;
     return done >= static_cast<int>(plan_.parts.size());
   }
 
@@ -299,7 +301,7 @@ class JobRun {
     part_label_ = part.label;
     part_id_ = part_id;
     run_id_ = run.id;
-    if (run.state == "done") {  // finished before a restart
+    if (run.state == RunState::done) {  // finished before a restart
       // A run marked done by an older juncod may lack its fit (it was stored
       // after the run's end, in a separate transaction): fit it now.
       for (const auto& orphan : store_.runs_without_fit(job_id_, true))
@@ -738,7 +740,7 @@ class JobRun {
   // stored with its reason; a StoreError goes up (the job pauses).
   void fit_and_finish(Id part_id, Id run_id, const RunFixture& fixture, double temp_k) {
     const RunFit f = fit_run(cfg_, temp_k, fixture, store_.points(run_id));
-    store_.finish_run_with_fit(part_id, run_id, f.fit, f.cap ? &*f.cap : nullptr, f.cap ? f.cap_readings : Json(), f.more_detail);
+    store_.finish_run_with_fit(part_id, run_id, f.fit, f.cap_report ? &*f.cap_report : nullptr, f.electrothermal ? &*f.electrothermal : nullptr, f.more_detail);
     log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " + describe_fit(f));
   }
 
@@ -1191,7 +1193,7 @@ void Executor::refit_runs_without_fit() {
       const auto job = store_.job(run.job_id);
       const double temp_k = std::isfinite(run.temp_k) ? run.temp_k : job ? job->plan.temp_k : 300.15;
       const RunFit f = fit_run(config_, temp_k, run.fixture, store_.points(run.id));
-      store_.finish_run_with_fit(run.part_id, run.id, f.fit, f.cap ? &*f.cap : nullptr, f.cap ? f.cap_readings : Json(), f.more_detail);
+      store_.finish_run_with_fit(run.part_id, run.id, f.fit, f.cap_report ? &*f.cap_report : nullptr, f.electrothermal ? &*f.electrothermal : nullptr, f.more_detail);
       log_("recovered: run " + std::to_string(run.id) + " of job " + std::to_string(run.job_id) +
            " was done without its fit; fitted now: " + describe_fit(f));
     }

@@ -24,6 +24,24 @@ std::vector<fitting::IvPoint> dc_fit_points(const std::vector<PointRow>& points)
   return out;
 }
 
+std::vector<std::optional<FitUse>> fit_use_of_points(const std::vector<PointRow>& points, const fitting::FitResult& fit) {
+  std::vector<std::optional<FitUse>> out(points.size());
+  std::vector<std::size_t> input;  // index into points of each fit input, in dc_fit_points' order
+  for (std::size_t k = 0; k < points.size(); ++k) {
+    const PointRow& p = points[k];
+    if (p.kind != "dc" || p.series != "up" || !std::isfinite(p.v) || !std::isfinite(p.i_a)) continue;
+    if (p.flags & kLimitFlags) out[k] = FitUse{false, "taken in a current or power limit"};
+    else input.push_back(k);
+  }
+  if (fit.points_used + fit.excluded.size() != input.size()) return std::vector<std::optional<FitUse>>(points.size());
+  for (std::size_t k : input) out[k] = FitUse{true, ""};
+  for (const auto& e : fit.excluded) {
+    if (e.index >= input.size()) return std::vector<std::optional<FitUse>>(points.size());
+    out[input[e.index]] = FitUse{false, e.reason};
+  }
+  return out;
+}
+
 std::vector<fitting::IvPoint> held_dc_points(const std::vector<PointRow>& points) {
   std::vector<fitting::IvPoint> out;
   for (const auto& p : points)
@@ -98,19 +116,34 @@ std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<Poi
   return fitting::fit_junction_cap(off, ac_fixture(run_fixture), std::isfinite(rs_ohm) && rs_ohm > 0 ? rs_ohm : 0.0, o);
 }
 
-Json off_state_readings_report(const std::vector<fitting::OffStatePoint>& points, const fitting::JunctionCapFit& fit) {
-  Json rows = Json::array();
-  for (std::size_t k = 0; k < points.size(); ++k) {
-    const double c = k < fit.c_f.size() ? fit.c_f[k] : kNaN;
-    rows.push_back({{"reverse_v", points[k].reverse_v},
-                    {"freq_hz", points[k].freq_hz},
-                    {"fixture_ratio_db", number_or_null(fitting::off_state_fixture_ratio_db(points[k]))},
-                    // the same ratio under its former name, for readers of older reports (one release)
-                    {"isolation_db", number_or_null(fitting::off_state_fixture_ratio_db(points[k]))},
-                    {"c_f", number_or_null(c)},
-                    {"left_out", k < fit.left_out.size() ? fit.left_out[k] : std::string()}});
-  }
-  return rows;
+JunctionCapReport junction_cap_report(const fitting::JunctionCapFit& fit, const std::vector<fitting::OffStatePoint>& points) {
+  JunctionCapReport r{fit.ok, fit.message, fit.cj0_f, fit.vj_v, fit.m, fit.law_held, static_cast<long>(fit.points_used),
+                      fit.reduced_chi2, fit.vj_m_correlation, std::vector<OffStateReadingReport>{}};
+  for (std::size_t k = 0; k < points.size(); ++k)
+    r.readings->push_back({points[k].reverse_v, points[k].freq_hz, fitting::off_state_fixture_ratio_db(points[k]),
+                           k < fit.c_f.size() ? fit.c_f[k] : kNaN, k < fit.left_out.size() ? fit.left_out[k] : std::string()});
+  return r;
+}
+
+ElectrothermalReport electrothermal_report(const fitting::ElectroThermalRun& run, const fitting::ElectroThermalRunOptions& options) {
+  ElectrothermalReport r;
+  r.status = run.status;
+  r.note = run.note;
+  r.ac_readings = static_cast<long>(run.ac_total);
+  r.ac_left_out = static_cast<long>(run.ac_left_out);
+  r.rs_ohm = run.fit.rs_ohm;
+  r.is_a = run.fit.is_a;
+  r.n = run.fit.n;
+  r.rth_k_per_w = run.fit.rth_k_per_w;
+  r.top_tj_k = run.fit.top_tj_k;
+  r.top_power_w = run.fit.top_power_w;
+  r.apparent_rs_ohm = run.fit.apparent_rs_ohm;
+  r.reduced_chi2 = run.fit.reduced_chi2;
+  r.rs_bias_per_100_k_per_w_ohm = run.rs_bias_per_100_k_per_w_ohm;
+  r.eg_ev = options.fit.law.eg_ev;
+  r.xti = options.fit.law.xti;
+  r.ambient_k = options.fit.ambient_k;
+  return r;
 }
 
 fitting::Fixture ac_fixture(const RunFixture& f) {
@@ -155,12 +188,11 @@ fitting::LotPart lot_part(const PartRow& part, const FitRecord& fit) {
 // source), where the DC-only Rs does not.
 std::string transfer_verdict(const Json& joint, const FitRecord& fit) {
   if (joint.value("agree", false)) return "agree";
-  const Json& et = fit.electrothermal();
   const Json ac = joint.contains("ac_only") ? joint["ac_only"].value("rs_ohm", Json()) : Json();
   const auto number = [](const Json& j, const char* k) { return j.is_object() && j.value(k, Json()).is_number() ? j[k].get<double>() : kNaN; };
-  if (et.is_object() && et.value("status", "") == "fitted" && ac.is_object()) {
-    const double d = number(et["rs_ohm"], "value") - number(ac, "value");
-    const double se = std::hypot(number(et["rs_ohm"], "std_error"), number(ac, "std_error"));
+  if (fit.electrothermal && fit.electrothermal->status == "fitted" && ac.is_object()) {
+    const double d = fit.electrothermal->rs_ohm.value - number(ac, "value");
+    const double se = std::hypot(fit.electrothermal->rs_ohm.std_error, number(ac, "std_error"));
     if (std::fabs(d) <= 3 * se) return "consistent once heating is modelled";
   }
   return "DISAGREE";

@@ -8,6 +8,7 @@
 #include "daemon/rows.hpp"
 #include "design/calculators.hpp"
 #include "fitting/joint_fit.hpp"
+#include "fitting/electrothermal_fit.hpp"
 #include "fitting/heating.hpp"
 #include "fitting/junction_cap.hpp"
 #include "fitting/lot_stats.hpp"
@@ -26,6 +27,14 @@ namespace junco::daemon {
 // Only the sweep up (series "up"): a pulse's dwell readings and the sweep
 // down are the heating options' (heating_readings).
 std::vector<fitting::IvPoint> dc_fit_points(const std::vector<PointRow>& points);
+// How the stored fit treated each of its run's readings, in the order of
+// `points` (the run's, as Store::points gives them): nullopt for readings the
+// forward fit does not take (AC, reverse, dwell and down series, NaN), else
+// used or the fit's reason for leaving it out. The fit's excluded indices
+// count into dc_fit_points(points); when they cannot belong to these
+// readings (counts differ), every entry is nullopt rather than a guess.
+std::vector<std::optional<FitUse>> fit_use_of_points(const std::vector<PointRow>& points, const fitting::FitResult& fit);
+
 // The DC readings taken at a held bias (no pulse): the electro-thermal fit's,
 // whose model is the settled junction temperature Ta + Rth·I·V.
 std::vector<fitting::IvPoint> held_dc_points(const std::vector<PointRow>& points);
@@ -52,9 +61,12 @@ std::vector<fitting::OffStatePoint> off_state_points(const std::vector<PointRow>
 std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<PointRow>& points, const RunFixture& run_fixture,
                                                            double rs_ohm);
 
-// What each off-state reading gave, in the order of off_state_points:
-// [{reverse_v, freq_hz, fixture_ratio_db (and its former name isolation_db), c_f (null when left out), left_out}].
-Json off_state_readings_report(const std::vector<fitting::OffStatePoint>& points, const fitting::JunctionCapFit& fit);
+// The capacitance law's fit as it is stored (detail.junction_cap), with what
+// each off-state reading gave, in the order of off_state_points.
+JunctionCapReport junction_cap_report(const fitting::JunctionCapFit& fit, const std::vector<fitting::OffStatePoint>& points);
+
+// The electro-thermal fit as it is stored (detail.electrothermal).
+ElectrothermalReport electrothermal_report(const fitting::ElectroThermalRun& run, const fitting::ElectroThermalRunOptions& options);
 
 // The small-signal fixture of a run, from the fixture stored with it:
 // Vout/Vin sees the load and the DC return (0 Ω = a choke, open at AC). The

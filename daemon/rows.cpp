@@ -13,7 +13,21 @@ constexpr std::array<std::pair<JobState, const char*>, 7> kJobStates{{{JobState:
                                                                       {JobState::failed, "failed"},
                                                                       {JobState::cancelled, "cancelled"},
                                                                       {JobState::interrupted, "interrupted"}}};
+constexpr std::array<std::pair<RunState, const char*>, 3> kRunStates{
+    {{RunState::running, "running"}, {RunState::done, "done"}, {RunState::stopped, "stopped"}}};
 }  // namespace
+
+const char* to_string(RunState state) {
+  for (const auto& [s, name] : kRunStates)
+    if (s == state) return name;
+  return "?";
+}
+
+std::optional<RunState> run_state_from_string(std::string_view name) {
+  for (const auto& [s, n] : kRunStates)
+    if (name == n) return s;
+  return std::nullopt;
+}
 
 const char* to_string(JobState state) {
   for (const auto& [s, name] : kJobStates)
@@ -42,19 +56,6 @@ bool is_terminal(JobState s) {
 
 RunFixture run_fixture(const FixtureConfig& f) {
   return RunFixture{f.bias_resistor_ohm, f.dc_return_ohm, f.source_ohm, f.load_ohm, to_string(f.current_from), f.stray_c_f, std::nullopt};
-}
-
-long FitRecord::cap_points_used() const {
-  const auto it = detail.find("junction_cap");
-  if (it == detail.end() || !it->is_object()) return 0;
-  const auto p = it->find("points_used");
-  return p != it->end() && p->is_number_integer() ? p->get<long>() : 0;
-}
-
-const Json& FitRecord::electrothermal() const {
-  static const Json none;
-  const auto it = detail.find("electrothermal");
-  return it != detail.end() && it->is_object() ? *it : none;
 }
 
 }  // namespace junco::daemon

@@ -36,6 +36,15 @@ std::optional<JobState> job_state_from_string(std::string_view name);
 const std::string& job_state_names();
 bool is_terminal(JobState state);  // done, failed, cancelled, interrupted
 
+// ---- run states: the one home of their names ---------------------------------
+// A part's run: running → done (its readings and fit stored) | stopped (the
+// job ended before the part's readings did). The runs table's CHECK allows
+// exactly these names (schema/migrations/0004).
+enum class RunState { running, done, stopped };
+
+const char* to_string(RunState state);
+std::optional<RunState> run_state_from_string(std::string_view name);
+
 struct LotRow {
   Id id = 0;
   std::string name;
@@ -89,7 +98,7 @@ struct RunRecord {
   int slot = 0;
   RunFixture fixture;
   double temp_k = kNaN;
-  std::string state;  // running, done, stopped
+  RunState state = RunState::running;
   std::string started_at, finished_at;
   // With a chamber (plan.temps_k): which temperature, its set point, and the
   // chamber's readback before and after the part's readings (NaN without).
@@ -114,6 +123,43 @@ struct JobRecord {
   bool persisted = true;
 };
 
+// One off-state reading as the capacitance fit took it (detail.junction_cap.readings).
+struct OffStateReadingReport {
+  double reverse_v = kNaN;
+  double freq_hz = kNaN;
+  double fixture_ratio_db = kNaN;  // −20·log10(Vout/Vin) of the fixture; NaN: not computable
+  double c_f = kNaN;               // the junction capacitance from this reading; NaN when left out
+  std::string left_out;            // why it was left out of the law; "" when used
+};
+
+// The junction capacitance law's fit from a run's off-state readings
+// (detail.junction_cap; fitting::JunctionCapFit as stored).
+struct JunctionCapReport {
+  bool ok = false;
+  std::string message;
+  fitting::Estimate cj0_f, vj_v, m;
+  bool law_held = false;  // VJ, M held at their defaults (too few biases)
+  long points_used = 0;
+  double reduced_chi2 = kNaN;
+  double vj_m_correlation = kNaN;
+  std::optional<std::vector<OffStateReadingReport>> readings;  // rows stored before per-reading reports: none
+};
+
+// The electro-thermal fit of a run (detail.electrothermal; fitting::
+// ElectroThermalRun as stored): DC and AC readings fitted together with the
+// junction's heating, or without AC readings how far heating may bias Rs.
+struct ElectrothermalReport {
+  std::string status;  // fitted, no_ac, failed
+  std::string note;
+  long ac_readings = 0;
+  long ac_left_out = 0;
+  fitting::Estimate rs_ohm, is_a, n, rth_k_per_w, top_tj_k, apparent_rs_ohm;
+  double top_power_w = kNaN;
+  double reduced_chi2 = kNaN;
+  double rs_bias_per_100_k_per_w_ohm = kNaN;
+  double eg_ev = kNaN, xti = kNaN, ambient_k = kNaN;  // the law and ambient the fit assumed
+};
+
 // A stored fit: the forward fit with its covariance (so every figure served
 // from it carries a standard error), the junction capacitance law when the
 // run had off-state readings, and the stored reports.
@@ -131,19 +177,21 @@ struct FitRecord {
   // The transit time from the run's multi-frequency AC readings
   // (detail.stored_charge, when that fit succeeded); value NaN: none.
   fitting::Estimate tt_s;
-  // The stored detail document as written (parameter_names, correlation,
-  // excluded, iterations, and the reports: junction_cap, electrothermal);
-  // checked on read, served as is.
+  // The reports read from the stored detail, typed (absent: the run had no
+  // off-state readings / no electro-thermal fit was made).
+  std::optional<JunctionCapReport> junction_cap;
+  std::optional<ElectrothermalReport> electrothermal;
+  // The rest of the stored detail document as written (parameter_names,
+  // correlation, excluded, iterations, heating, stored_charge); checked on
+  // read, served as is. api_json puts the typed reports back beside it.
   Json detail = Json::object();
   // The part's latest temperature law (Store::latest_temperature_fit, from a
   // multi-temperature job: EG, XTI, TRS1), null when it has none. Not a
   // column of fits: the service adds it for part.fit and the exports.
   Json temperature_law = nullptr;
 
-  // Points used by the capacitance law (detail.junction_cap.points_used), 0 without one.
-  long cap_points_used() const;
-  // The electrothermal report (detail.electrothermal), null when absent.
-  const Json& electrothermal() const;
+  // Points used by the capacitance law, 0 without one.
+  long cap_points_used() const { return junction_cap ? junction_cap->points_used : 0; }
 };
 
 // Quality flags of a reading (points.flags).
@@ -177,6 +225,14 @@ struct PointRow {
   // schema 0006); dwell_s: output on → reading, for a reading in a pulse.
   std::string series = "up";
   double dwell_s = kNaN;
+};
+
+// How the stored forward fit treated one reading (part.readings): used, or
+// left out and why ("below noise floor 3.5e-06 A", "taken in a current or
+// power limit"). Only readings the forward fit considers have one.
+struct FitUse {
+  bool used = false;
+  std::string reason;  // "" when used
 };
 
 }  // namespace junco::daemon

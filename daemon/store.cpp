@@ -558,8 +558,10 @@ constexpr const char* kRunColumns =
 template <typename S>
 RunRecord run_row(const S& st) {
   const Id id = st.i64(0);
+  const auto state = run_state_from_string(st.text(6));
+  if (!state) throw StoreError("run " + std::to_string(id) + ": state \"" + st.text(6) + "\" is not a run state");
   RunRecord r{id,         st.i64(1),  st.i64(2),  static_cast<int>(st.i64(3)), fixture_of(st.text(4), "run " + std::to_string(id) + ": fixture"),
-              st.real(5), st.text(6), st.text(7), st.text(8)};
+              st.real(5), *state,     st.text(7), st.text(8)};
   r.temp_index = static_cast<int>(st.i64(9));
   r.setpoint_k = st.real(10);
   r.ambient_k = st.real(11);
@@ -661,9 +663,9 @@ std::vector<RunRecord> Store::runs_of_job(Id job_id) {
   return out;
 }
 
-void Store::finish_run(Id run_id, const std::string& state) {
+void Store::finish_run(Id run_id, RunState state) {
   std::lock_guard lock(write_mutex_);
-  Stmt(*writer_, std::string("UPDATE runs SET state = ?, finished_at = ") + kNow + " WHERE id = ?").bind(1, state).bind(2, run_id).run();
+  Stmt(*writer_, std::string("UPDATE runs SET state = ?, finished_at = ") + kNow + " WHERE id = ?").bind(1, to_string(state)).bind(2, run_id).run();
 }
 
 std::optional<long> Store::last_seq(Id run_id) {
@@ -721,8 +723,8 @@ std::vector<PointRow> Store::points(Id run_id) {
 
 // ---- fits ------------------------------------------------------------------
 
-Id Store::insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap,
-                         const Json& cap_readings, const Json& more_detail) {
+Id Store::insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, const JunctionCapReport* cap,
+                         const ElectrothermalReport* electrothermal, const Json& more_detail) {
   Json excluded = Json::array();
   for (const auto& e : fit.excluded) excluded.push_back({{"index", e.index}, {"reason", e.reason}});
   Json detail = {{"parameter_names", fit.parameter_names}, {"correlation", Json::array()}, {"excluded", excluded}, {"iterations", fit.iterations}};
@@ -731,9 +733,9 @@ Id Store::insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, c
   // The law's columns only when its fit succeeded; the report (with the
   // reason when it did not) goes into detail either way.
   fitting::Estimate cj0, vj, m;
+  if (electrothermal) detail["electrothermal"] = to_json(*electrothermal);
   if (cap) {
-    detail["junction_cap"] = fitting::junction_cap_json(*cap);
-    if (!cap_readings.is_null()) detail["junction_cap"]["readings"] = cap_readings;
+    detail["junction_cap"] = to_json(*cap);
     if (cap->ok) {
       cj0 = cap->cj0_f;
       vj = cap->vj_v;
@@ -761,24 +763,24 @@ void Store::forget_cached_fit(Id part_id) {
   fit_cache_.erase(part_id);
 }
 
-Id Store::insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap,
-                     const Json& cap_readings, const Json& more_detail) {
+Id Store::insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const JunctionCapReport* cap,
+                     const ElectrothermalReport* electrothermal, const Json& more_detail) {
   Id id = 0;
   {
     std::lock_guard lock(write_mutex_);
-    id = insert_fit_row(part_id, run_id, fit, cap, cap_readings, more_detail);
+    id = insert_fit_row(part_id, run_id, fit, cap, electrothermal, more_detail);
   }
   forget_cached_fit(part_id);
   return id;
 }
 
-Id Store::finish_run_with_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap,
-                              const Json& cap_readings, const Json& more_detail) {
+Id Store::finish_run_with_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const JunctionCapReport* cap,
+                              const ElectrothermalReport* electrothermal, const Json& more_detail) {
   Id id = 0;
   {
     std::lock_guard lock(write_mutex_);
     Transaction tx(writer_->db);
-    id = insert_fit_row(part_id, run_id, fit, cap, cap_readings, more_detail);
+    id = insert_fit_row(part_id, run_id, fit, cap, electrothermal, more_detail);
     Stmt(*writer_, std::string("UPDATE runs SET state = 'done', finished_at = COALESCE(finished_at, ") + kNow + ") WHERE id = ?").bind(1, run_id).run();
     tx.commit();
   }
@@ -883,6 +885,17 @@ std::shared_ptr<const FitRecord> Store::latest_fit(Id part_id) {
     part = "detail";
     rec->detail = stored_json(st.text(19), where + ": detail");
     read_fit_detail(rec->detail, f);
+    // The reports into their rows (api_json reads them), out of the document.
+    part = "detail.junction_cap";
+    if (const auto it = rec->detail.find("junction_cap"); it != rec->detail.end()) {
+      rec->junction_cap = junction_cap_report_of(*it);
+      rec->detail.erase(it);
+    }
+    part = "detail.electrothermal";
+    if (const auto it = rec->detail.find("electrothermal"); it != rec->detail.end()) {
+      rec->electrothermal = electrothermal_report_of(*it);
+      rec->detail.erase(it);
+    }
     part = "detail.stored_charge";
     if (const Json& charge = rec->detail.value("stored_charge", Json()); charge.is_object() && charge.value("ok", false)) {
       const Json& tt = charge.at("tt_s");

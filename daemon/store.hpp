@@ -95,15 +95,15 @@ class Store {
   void set_run_ambient(Id run_id, double ambient_k, double ambient_end_k, double temp_k);
   std::vector<RunRecord> runs_of_part(Id part_id);
   std::vector<RunRecord> runs_of_job(Id job_id);
-  void finish_run(Id run_id, const std::string& state);
+  void finish_run(Id run_id, RunState state);
   // The end of a run and its fit, one transaction: the fit row (a failed fit
   // too, with its status and reason in message) and runs.state = 'done'.
   // A kill at any moment leaves either both or neither, so a done run always
   // has its fit. Returns the fit's id.
   // more_detail: further reports merged into the fit's detail (e.g.
   // {"electrothermal": …}).
-  Id finish_run_with_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap = nullptr,
-                         const Json& cap_readings = Json(), const Json& more_detail = Json());
+  Id finish_run_with_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const JunctionCapReport* cap = nullptr,
+                         const ElectrothermalReport* electrothermal = nullptr, const Json& more_detail = Json());
   // Runs without any fit row: state 'done' only (done_only), or every run
   // with at least one reading. job_id: only that job's runs.
   std::vector<RunRecord> runs_without_fit(std::optional<Id> job_id, bool done_only);
@@ -118,10 +118,10 @@ class Store {
   std::vector<PointRow> points(Id run_id);
 
   // cap: the junction capacitance law from the run's off-state readings,
-  // stored with the forward fit (null: the run had none); cap_readings, when
-  // not null, lists what each reading gave (detail.junction_cap.readings).
-  Id insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap = nullptr,
-                const Json& cap_readings = Json(), const Json& more_detail = Json());
+  // stored with the forward fit (null: the run had none), with what each
+  // reading gave; electrothermal: the electro-thermal fit (null: none made).
+  Id insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const JunctionCapReport* cap = nullptr,
+                const ElectrothermalReport* electrothermal = nullptr, const Json& more_detail = Json());
   // The part's latest fit, with its covariance (rows written before
   // migration 0007 have none stored: it is rebuilt from the stored
   // correlation and standard errors, which determine it). null: no fit.
@@ -145,8 +145,8 @@ class Store {
   bool set_job_state_if(Id id, const std::optional<JobState>& from, JobState state, const std::optional<std::string>& error);
   void apply_held(JobRecord& row);
   // INSERT INTO fits; the caller holds write_mutex_ (and its transaction).
-  Id insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, const fitting::JunctionCapFit* cap, const Json& cap_readings,
-                    const Json& more_detail);
+  Id insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, const JunctionCapReport* cap,
+                    const ElectrothermalReport* electrothermal, const Json& more_detail);
   void forget_cached_fit(Id part_id);
 
   std::filesystem::path file_;

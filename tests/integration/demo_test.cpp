@@ -5,6 +5,7 @@
 #include "tests/support/db_rows.hpp"
 
 #include <catch2/catch.hpp>
+#include <nlohmann/json.hpp>
 
 #include <algorithm>
 #include <cmath>
@@ -25,6 +26,17 @@ namespace {
 using Run = junco::test::CliRun;
 using junco::test::run_shell;
 using junco::test::count_rows;
+
+// A value as the demo prints it: "1.234 mV", "2.5 nA", "731.2 mΩ" (engineering
+// prefix, micro as "u") or a bare "1.8765".
+double printed_value(const std::string& text) {
+  std::smatch m;
+  REQUIRE(std::regex_match(text, m, std::regex(R"((-?[0-9.]+(?:e[-+]?[0-9]+)?)(?: ([fpnumkMGT]?)(?:A|V|Ω))?)")));
+  const std::string prefix = m[2].str();
+  const double scale = prefix == "f" ? 1e-15 : prefix == "p" ? 1e-12 : prefix == "n" ? 1e-9 : prefix == "u" ? 1e-6 : prefix == "m" ? 1e-3
+                       : prefix == "k" ? 1e3 : prefix == "M" ? 1e6 : prefix == "G" ? 1e9 : prefix == "T" ? 1e12 : 1.0;
+  return std::stod(m[1].str()) * scale;
+}
 
 }  // namespace
 
@@ -100,6 +112,41 @@ TEST_CASE("junco demo characterises the simulated lot end to end") {
   for (const char* plot : {"WR-01-iv.svg", "WR-01-ac.svg", "WR-01-off.svg", "lot.svg"}) {
     CHECK(fs::exists(dir / plot));
     CHECK(r.out.find((dir / plot).string()) != std::string::npos);
+  }
+
+  // The lot spread the demo printed is juncod's (lot.stats, here through
+  // `junco lots --json`), to the 4 significant digits printed: the demo
+  // computes no statistics of its own.
+  {
+    const Run lots = run_shell(std::string(JUNCO_BIN_DIR) + "/junco lots WREN-0912 --json --at 1mA,5mA,10mA --socket " +
+                               (dir / "run" / "juncod.sock").string());
+    INFO(lots.out);
+    REQUIRE(lots.status == 0);
+    const auto served = nlohmann::json::parse(lots.out);
+    const std::vector<std::pair<std::string, std::string>> rows{{"Is", "is_a"}, {"n", "n"}, {"Rs", "rs_ohm"},
+                                                                {"Vf @ 1 mA", "vf_v@0.001A"}, {"Vf @ 10 mA", "vf_v@0.01A"},
+                                                                {"rd @ 5 mA", "rd_ohm@0.005A"}};
+    const std::string value = R"(-?[0-9.]+(?:e[-+]?[0-9]+)?(?: [fpnumkMGT]?(?:A|V|Ω))?)";
+    int compared = 0;
+    for (const auto& [label, name] : rows) {
+      std::smatch m;
+      INFO(label);
+      REQUIRE(std::regex_search(r.out, m, std::regex("\n" + std::regex_replace(label, std::regex("[@ ]"), "[$&]") + " +(" + value + ") +(" + value +
+                                                     ") +(" + value + ") +(" + value + ")")));
+      nlohmann::json q;
+      for (const auto& x : served["quantities"])
+        if (x["name"] == name) q = x;
+      REQUIRE(q.is_object());
+      const char* keys[] = {"mean", "std_dev", "min", "max"};
+      for (int k = 0; k < 4; ++k) {
+        const double want = q[keys[k]].get<double>(), got = printed_value(m[k + 1].str());
+        INFO(keys[k] << ": printed " << m[k + 1].str() << ", served " << want);
+        // 4 significant digits, or "%.4f" for n
+        CHECK(std::abs(got - want) <= std::max(1e-3 * std::abs(want), name == "n" ? 6e-5 : 0.0));
+        ++compared;
+      }
+    }
+    CHECK(compared == 24);
   }
 
   // The next steps: every "  $ " line, pasted into a shell with junco on the

@@ -12,6 +12,9 @@
 #include <algorithm>
 #include <array>
 #include <cmath>
+#include <fstream>
+#include <map>
+#include <sstream>
 #include <string>
 
 using namespace junco;
@@ -144,4 +147,101 @@ TEST_CASE("a damaged stored fit is a storage error, not invalid params; older ro
   CHECK(reply["error"]["code"] == -32004);
   // The parts themselves still list.
   CHECK(b.result("part.list", {{"lot", "WREN-0913"}})["parts"].size() == 2);
+}
+
+// A store written before fits recorded their run (fits.run_id NULL, schema
+// before migration 0010): on open the migration gives each fit the part's
+// latest run started no later than the fit, so part.fit, part.figures and
+// part.readings name the run again. Common practice, no source.
+TEST_CASE("fits stored without their run id get it back when an older store is opened", "[daemon][fit]") {
+  test::BenchDaemon b("old-run-ids", no_heating());
+  b.run_plan(forward_plan("WREN-0914"));
+  std::map<long, long> run_of_part;  // each part's one run, as juncod recorded it
+  const Json parts = b.result("part.list", {{"lot", "WREN-0914"}})["parts"];
+  for (const auto& p : parts) {
+    const long part = p["part_id"];
+    run_of_part[part] = b.result("part.readings", {{"part_id", part}})["run"]["run_id"];
+  }
+  REQUIRE(run_of_part.size() == 2);
+  b.daemon().stop();
+  const auto db = b.dir() / "junco.db";
+  // As an older juncod left it: no run ids, and migration 0010 not applied.
+  sql(db, "UPDATE fits SET run_id = NULL; DELETE FROM schema_migrations WHERE version = 10");
+  b.restart();
+  for (const auto& [part, run] : run_of_part) {
+    INFO("part " << part);
+    CHECK(b.result("part.fit", {{"part_id", part}})["run_id"] == run);
+    CHECK(b.result("part.figures", {{"part_id", part}})["run_id"] == run);
+    const Json readings = b.result("part.readings", {{"part_id", part}});
+    CHECK(readings["fit_id"].is_number());
+    CHECK(readings["points"][0]["used_by_fit"].is_boolean());
+  }
+}
+
+namespace {
+
+// The rows "x y" of data block $dK in a gnuplot script `junco plot` kept.
+std::vector<std::pair<double, double>> datablock(const std::string& script, int k) {
+  std::vector<std::pair<double, double>> out;
+  const std::string head = "$d" + std::to_string(k) + " << EOD\n";
+  const auto at = script.find(head);
+  REQUIRE(at != std::string::npos);
+  std::istringstream in(script.substr(at + head.size(), script.find("EOD\n", at + head.size()) - at - head.size()));
+  std::string x, y;
+  while (in >> x >> y)
+    if (x != "NaN") out.emplace_back(std::stod(x), std::stod(y));
+  return out;
+}
+
+bool same_points(std::vector<std::pair<double, double>> a, std::vector<std::pair<double, double>> b) {
+  std::sort(a.begin(), a.end());
+  std::sort(b.begin(), b.end());
+  if (a.size() != b.size()) return false;
+  for (std::size_t k = 0; k < a.size(); ++k)  // printed with 9 significant digits
+    if (std::abs(a[k].first - b[k].first) > 1e-8 * std::abs(b[k].first) || std::abs(a[k].second - b[k].second) > 1e-8 * std::abs(b[k].second))
+      return false;
+  return true;
+}
+
+}  // namespace
+
+// `junco plot iv --part` draws what the stored fit did: the readings its
+// noise floor (the bench's accuracy, here i_abs_a = 0.35 µA → 3.5 µA) left
+// out are drawn apart, not the ones the CLI's default accuracy would leave
+// out (1 nA → 10 nA). The expected sets are rebuilt here from part.readings
+// and the fit's detail.excluded (indices into the forward sweep's readings
+// not taken in a limit, docs/api.md), not from the new per-reading flags.
+TEST_CASE("a plot of a stored part marks exactly the readings its stored fit left out", "[daemon][fit][plot]") {
+  test::BenchDaemonOptions options;
+  options.extra = {{"accuracy", {{"v_rel", 1e-5}, {"v_abs_v", 5e-6}, {"i_rel", 1e-3}, {"i_abs_a", 3.5e-7}}}};
+  test::BenchDaemon b("plot-excluded", no_heating(), options);
+  Json plan = forward_plan("WREN-0915");
+  plan["sweep"]["start"] = 1e-6;
+  b.run_plan(plan);
+  const Json fit = b.result("part.fit", {{"part_id", 1}});
+  REQUIRE(fit["status"] == "converged");
+  const Json readings = b.result("part.readings", {{"part_id", 1}, {"run_id", fit["run_id"]}});
+  std::vector<std::pair<double, double>> input, limited;
+  for (const auto& p : readings["points"]) {
+    if (p["kind"] != "dc" || p["series"] != "up" || !p["v"].is_number() || !p["i_a"].is_number()) continue;
+    ((p["flags"].get<int>() & 9) ? limited : input).emplace_back(p["v"].get<double>(), p["i_a"].get<double>());
+  }
+  std::vector<bool> left_out(input.size(), false);
+  for (const auto& e : fit["detail"]["excluded"]) left_out.at(e["index"].get<std::size_t>()) = true;
+  std::vector<std::pair<double, double>> used, excluded = limited;
+  for (std::size_t k = 0; k < input.size(); ++k) (left_out[k] ? excluded : used).push_back(input[k]);
+  // The case this is about: readings left out by the stored fit that the
+  // CLI's default noise floor (10 nA) would have counted as used.
+  REQUIRE(std::count_if(excluded.begin(), excluded.end(), [](const auto& p) { return p.second > 1e-8; }) >= 1);
+  CHECK(used.size() == fit["points_used"].get<std::size_t>());
+
+  const auto out = b.dir() / "iv.svg";
+  const auto cli = b.junco({"plot", "iv", "--part", "SE-1", "--out", out.string()});
+  INFO(cli.err);
+  REQUIRE(cli.status == 0);
+  std::ifstream gp(out.string() + ".gp");
+  const std::string script((std::istreambuf_iterator<char>(gp)), std::istreambuf_iterator<char>());
+  INFO(script.substr(0, 3000));
+  CHECK(same_points(datablock(script, 0), used));      // "readings used by the fit"
+  CHECK(same_points(datablock(script, 3), excluded));  // drawn apart
 }

@@ -3,9 +3,12 @@
 // SIGKILLed are all there when the file is opened again.
 #include "daemon/api_json.hpp"
 #include "daemon/migrations.hpp"
+#include "daemon/part_analysis.hpp"
 #include "daemon/store.hpp"
 #include "fitting/diode.hpp"
+#include "fitting/electrothermal_fit.hpp"
 #include "fitting/extract.hpp"
+#include "fitting/junction_cap.hpp"
 
 #include "tests/support/db_rows.hpp"
 
@@ -354,13 +357,13 @@ TEST_CASE("a run's end and its fit are one transaction: both or neither") {
                          nullptr, nullptr, nullptr) == SQLITE_OK);
     CHECK_THROWS_AS(s.finish_run_with_fit(part, run.id, fit), StoreError);
     CHECK(count_rows(file, "SELECT COUNT(*) FROM fits") == 0);
-    CHECK(s.runs_of_job(job)[0].state == "running");
+    CHECK(s.runs_of_job(job)[0].state == RunState::running);
     CHECK_FALSE(s.latest_fit(part));
     REQUIRE(sqlite3_exec(db, "DROP TRIGGER refuse_run_end", nullptr, nullptr, nullptr) == SQLITE_OK);
     sqlite3_close(db);
   }
   const Id fit_id = s.finish_run_with_fit(part, run.id, fit);
-  CHECK(s.runs_of_job(job)[0].state == "done");
+  CHECK(s.runs_of_job(job)[0].state == RunState::done);
   CHECK_FALSE(s.runs_of_job(job)[0].finished_at.empty());
   const auto stored = s.latest_fit(part);
   REQUIRE(stored);
@@ -373,7 +376,7 @@ TEST_CASE("a run's end and its fit are one transaction: both or neither") {
   // A database written before: run done, fit missing. Found for recovery.
   const Id part2 = s.ensure_part(s.ensure_lot("QX-7"), "QX-7-02", 2);
   const RunRecord run2 = s.ensure_run(job, part2, 2, RunFixture{}, 300.15);
-  s.finish_run(run2.id, "done");
+  s.finish_run(run2.id, RunState::done);
   const auto orphans = s.runs_without_fit(std::nullopt, true);
   REQUIRE(orphans.size() == 1);
   CHECK(orphans[0].id == run2.id);
@@ -553,4 +556,127 @@ TEST_CASE("a store with 0006 and 0007 but without 0004 gets 0004 on open, keepin
   CHECK(count_rows(fresh, "SELECT COUNT(*) FROM points WHERE series IS NOT NULL OR dwell_s IS NOT NULL") == 0);
   CHECK(count_rows(fresh, "SELECT COUNT(*) FROM fits WHERE covariance IS NOT NULL") == 0);
   CHECK(count_rows(fresh, "SELECT COUNT(*) FROM runs WHERE temp_index IS NOT NULL") == 0);
+}
+
+// Fits stored before juncod recorded their run (run_id NULL) get it from
+// migration 0010: the part's latest run started no later than the fit; a fit
+// older than every run of its part keeps NULL. Common practice, no source.
+TEST_CASE("migration 0010 gives each fit stored without a run id the run it was made from") {
+  TempDir dir;
+  const fs::path db = dir.path / "no-run-ids.db";
+  {
+    sqlite3* h = nullptr;
+    REQUIRE(sqlite3_open(db.c_str(), &h) == SQLITE_OK);
+    std::vector<Migration> before;
+    for (const auto& m : embedded_migrations())
+      if (m.version < 10) before.push_back(m);
+    REQUIRE(before.size() + 1 <= embedded_migrations().size());
+    REQUIRE(apply_migrations(h, before) == static_cast<int>(before.size()));
+    const char* rows =
+        "INSERT INTO lots VALUES (1, 'QX-7', '2026-01-01T00:00:00Z');"
+        "INSERT INTO parts VALUES (1, 1, 'QX-7-01', 1, '2026-01-01T00:00:00Z');"
+        "INSERT INTO parts VALUES (2, 1, 'QX-7-02', 2, '2026-01-01T00:00:00Z');"
+        "INSERT INTO jobs (id, plan, state, points_total, submitted_at, updated_at) VALUES (1, '{\"lot\":\"QX-7\"}', 'done', 3, 'x', 'x');"
+        "INSERT INTO jobs (id, plan, state, points_total, submitted_at, updated_at) VALUES (2, '{\"lot\":\"QX-7\"}', 'done', 3, 'x', 'x');"
+        "INSERT INTO runs (id, job_id, part_id, slot, fixture, temp_k, state, started_at, finished_at)"
+        " VALUES (3, 1, 1, 1, '{}', 300.15, 'done', '2026-01-01T10:00:00.000Z', '2026-01-01T10:05:00.000Z');"
+        "INSERT INTO runs (id, job_id, part_id, slot, fixture, temp_k, state, started_at, finished_at)"
+        " VALUES (4, 1, 2, 2, '{}', 300.15, 'done', '2026-01-01T10:06:00.000Z', '2026-01-01T10:09:00.000Z');"
+        "INSERT INTO runs (id, job_id, part_id, slot, fixture, temp_k, state, started_at, finished_at)"
+        " VALUES (7, 2, 1, 1, '{}', 300.15, 'done', '2026-01-02T10:00:00.000Z', '2026-01-02T10:05:00.000Z');"
+        // part 1: a fit after each of its runs; part 2: one after its run and one older than any run
+        "INSERT INTO fits (id, part_id, run_id, model, status, is_a, n, rs_ohm, points_used, warnings, created_at)"
+        " VALUES (10, 1, NULL, 'forward', 'converged', 2.5e-9, 1.85, 0.7, 5, '[]', '2026-01-01T10:05:00.500Z');"
+        "INSERT INTO fits (id, part_id, run_id, model, status, is_a, n, rs_ohm, points_used, warnings, created_at)"
+        " VALUES (11, 2, NULL, 'forward', 'converged', 2.5e-9, 1.85, 0.7, 5, '[]', '2026-01-01T10:09:00.500Z');"
+        "INSERT INTO fits (id, part_id, run_id, model, status, is_a, n, rs_ohm, points_used, warnings, created_at)"
+        " VALUES (12, 1, NULL, 'forward', 'converged', 2.6e-9, 1.86, 0.7, 5, '[]', '2026-01-02T10:05:00.500Z');"
+        "INSERT INTO fits (id, part_id, run_id, model, status, is_a, n, rs_ohm, points_used, warnings, created_at)"
+        " VALUES (9, 2, NULL, 'forward', 'converged', 2.5e-9, 1.85, 0.7, 5, '[]', '2025-12-31T00:00:00.000Z');";
+    char* err = nullptr;
+    const int rc = sqlite3_exec(h, rows, nullptr, nullptr, &err);
+    INFO((err ? err : ""));
+    REQUIRE(rc == SQLITE_OK);
+    sqlite3_close(h);
+  }
+  Store s(db);
+  CHECK(count_rows(db, "SELECT run_id FROM fits WHERE id = 10") == 3);
+  CHECK(count_rows(db, "SELECT run_id FROM fits WHERE id = 11") == 4);
+  CHECK(count_rows(db, "SELECT run_id FROM fits WHERE id = 12") == 7);
+  CHECK(count_rows(db, "SELECT COUNT(*) FROM fits WHERE id = 9 AND run_id IS NULL") == 1);
+  const auto fit = s.latest_fit(1);
+  REQUIRE(fit);
+  REQUIRE(fit->run_id);
+  CHECK(*fit->run_id == 7);
+  CHECK(to_json(*s.latest_fit(2))["run_id"] == 4);
+}
+
+// The capacitance and electro-thermal reports are typed rows inside juncod
+// and JSON only at the API: stored and read back, part.fit's detail carries
+// exactly what fitting's own writers (junction_cap_json,
+// electrothermal_run_json, the documented shapes) give for the same fits.
+TEST_CASE("typed fit reports go through the store and reach the API as the fitting library writes them") {
+  TempDir dir;
+  Store s(dir.path / "junco.db");
+  const Id part = s.ensure_part(s.ensure_lot("QX-7"), "QX-7-01", 1);
+  const Id job = s.insert_job(plan_json(), 3, 1000, 42);
+  const RunRecord run = s.ensure_run(job, part, 1, RunFixture{}, 300.15);
+  junco::fitting::JunctionCapFit cap;
+  cap.ok = true;
+  cap.message = "VJ, M held";
+  cap.cj0_f = {1.25e-12, 3e-15};
+  cap.vj_v = {0.65, kNaN};
+  cap.m = {0.4, kNaN};
+  cap.law_held = true;
+  cap.points_used = 1;
+  cap.reduced_chi2 = 1.3;
+  cap.c_f = {1.1e-12, kNaN};
+  cap.left_out = {"", "below the level floor"};
+  const std::vector<junco::fitting::OffStatePoint> off{{2.0, 1e8, 0.05, 1e-3}, {5.0, 1e8, 0.05, 2e-5}};
+  junco::fitting::ElectroThermalRunOptions eo;
+  eo.fit.ambient_k = 299.5;
+  junco::fitting::ElectroThermalRun et;
+  et.status = "fitted";
+  et.note = "Rth from DC and AC";
+  et.ac_total = 12;
+  et.ac_left_out = 2;
+  et.fit.rs_ohm = {0.71, 0.02};
+  et.fit.is_a = {2.1e-9, 1e-11};
+  et.fit.n = {1.85, 0.001};
+  et.fit.rth_k_per_w = {390, 20};
+  et.fit.top_tj_k = {310.2, 0.5};
+  et.fit.top_power_w = 0.024;
+  et.fit.apparent_rs_ohm = {0.3, 0.002};
+  et.fit.reduced_chi2 = 0.9;
+  const JunctionCapReport cap_report = junction_cap_report(cap, off);
+  const ElectrothermalReport et_report = electrothermal_report(et, eo);
+  junco::fitting::FitResult fit;
+  fit.status = junco::fitting::FitStatus::converged;
+  fit.is_a = {2.1e-9, 1e-11};
+  fit.n = {1.85, 0.001};
+  fit.rs_ohm = {0.71, 0.02};
+  fit.points_used = 5;
+  s.insert_fit(part, run.id, fit, &cap_report, &et_report);
+
+  const auto stored = s.latest_fit(part);
+  REQUIRE(stored);
+  REQUIRE(stored->junction_cap);
+  REQUIRE(stored->electrothermal);
+  CHECK(stored->cap_points_used() == 1);
+  CHECK(stored->electrothermal->rth_k_per_w.value == 390);
+  CHECK(stored->cj0_f.value == 1.25e-12);  // the law's columns, from the report
+  CHECK_FALSE(stored->detail.contains("junction_cap"));  // typed, not left in the document
+  const Json detail = to_json(*stored)["detail"];
+  Json cap_json = detail["junction_cap"];
+  REQUIRE(cap_json.contains("readings"));
+  const Json readings = cap_json["readings"];
+  cap_json.erase("readings");
+  CHECK(cap_json == junco::fitting::junction_cap_json(cap));
+  CHECK(detail["electrothermal"] == junco::fitting::electrothermal_run_json(et, eo));
+  REQUIRE(readings.size() == 2);
+  // −20·log10(Vout/Vin): 0.05 → 1e-3 is 33.98 dB (the definition of the ratio in dB).
+  CHECK(readings[0]["fixture_ratio_db"].get<double>() == Approx(-20.0 * std::log10(1e-3 / 0.05)));
+  CHECK(readings[0]["isolation_db"] == readings[0]["fixture_ratio_db"]);
+  CHECK(readings[1]["c_f"].is_null());
+  CHECK(readings[1]["left_out"] == "below the level floor");
 }

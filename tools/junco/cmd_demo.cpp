@@ -2,7 +2,11 @@
 // Starts junco-sim and juncod as children in a scratch directory, runs an
 // accelerated overnight job over a lot of 8 simulated parts, prints the lot
 // table and spread, stops the children and leaves the database behind.
-#include "fitting/lot_stats.hpp"
+// Everything it prints about the lot is what juncod serves (part.fit,
+// part.figures, lot.stats, part.transfer, part.design): the demo computes
+// nothing of its own, so it shows what `junco lots`, `junco show` and the
+// API give.
+#include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
 #include "tools/junco/rpc_client.hpp"
 
@@ -30,9 +34,7 @@ namespace {
 
 namespace fs = std::filesystem;
 
-const char* const usage = R"(usage: junco demo [--dir DIR] [--seed N] [--keep-running] [--lab CONNINFO]
-
-Runs junco end to end on the simulated bench, no hardware needed:
+const char* const description = R"(Runs junco end to end on the simulated bench, no hardware needed:
   1. starts junco-sim (a simulated supply, meter, signal generator, level
      meter and 8-slot fixture holding a lot of switching diodes) and
      juncod, both found next to this junco;
@@ -41,29 +43,42 @@ Runs junco end to end on the simulated bench, no hardware needed:
      in milliseconds), of lot WREN-0912 — eight PIN-style switching diodes
      bought for the transmit/receive switch of an invented marine VHF radio;
   3. shows the job's progress, then the lot table (Is, n, Rs ± standard
-     error, Vf at 1 mA and 10 mA, rd at 5 mA) and the lot spread; each
-     part's AC transfer against its fit with the joint AC+DC verdict; each
-     part's junction capacitance (CJO, VJ, M) from the off-state readings
-     and its measured isolation; two design calculations on a stored part;
-     and writes plots (I-V, AC transfer, off state, lot spread) into DIR;
+     error, Vf at 1 mA and 10 mA, rd at 5 mA) and the lot spread (juncod's
+     lot.stats, as junco lots prints it); each part's AC transfer against its
+     fit with the joint AC+DC verdict; each part's junction capacitance (CJO,
+     VJ, M) from the off-state readings and its measured isolation; two design
+     calculations on a stored part; and writes plots (I-V, AC transfer, off
+     state, lot spread) into DIR;
   4. writes the first part's model document and readings (WR-01.json,
      WR-01-iv.csv, WR-01-ac.csv), stops both children (also on Ctrl-C) and
      leaves DIR with the database, the config, the plan and both logs;
   5. ends with next steps: commands to paste that explore the lot on those
      files (and, with --keep-running, on the still running daemon).
 Takes about a minute.
+)";
 
-options:
-  --dir DIR       scratch directory (default ./junco-demo-YYYYMMDD-HHMMSS)
-  --seed N        seed of the simulated lot (default 912)
-  --keep-running  leave juncod and junco-sim running at the end and print how
-                  to talk to them and how to stop them
-  --lab CONNINFO  also publish to a lab database on PostgreSQL (a libpq
-                  connection string; docs/lab.md) as bench "demo-bench", and
-                  wait until the lab has everything; without it, no server is
-                  needed
+const char* const footer = R"(exit status: 0 the job ran and every part was fitted; 1 something failed; 2 bad options.)";
 
-exit status: 0 the job ran and every part was fitted; 1 something failed.)";
+struct Options {
+  std::string dir, lab;
+  std::string seed = "912";
+  bool keep_running = false;
+};
+Options g_opt;  // bound by define(); one command per process
+
+void define(CLI::App& app) {
+  Options& o = g_opt;
+  app.description(description);
+  app.footer(footer);
+  app.add_option("--dir", o.dir, "scratch directory (default ./junco-demo-YYYYMMDD-HHMMSS)")->type_name("DIR");
+  app.add_option("--seed", o.seed, "seed of the simulated lot (default 912)")->type_name("N")->check(positive_id());
+  app.add_flag("--keep-running", o.keep_running,
+               "leave juncod and junco-sim running at the end and print how to talk to them and how to stop them");
+  app.add_option("--lab", o.lab,
+                 "also publish to a lab database on PostgreSQL (a libpq connection string; docs/lab.md) as bench "
+                 "\"demo-bench\", and wait until the lab has everything; without it, no server is needed")
+      ->type_name("CONNINFO");
+}
 
 volatile sig_atomic_t g_interrupted = 0;
 volatile pid_t g_children[2] = {-1, -1};
@@ -254,10 +269,36 @@ std::string rth_text(const Json& fit) {
   return t;
 }
 
+// The lot's spread as juncod computes it (lot.stats), for the quantities the
+// lot table shows.
+void print_lot_spread(RpcClient& client, const std::string& lot) {
+  const Json stats = client.call("lot.stats", Json{{"lot", lot}, {"currents_a", {1e-3, 5e-3, 10e-3}}});
+  std::printf("\nlot spread (%zu parts) from juncod's lot.stats, as junco lots %s --at 1mA,5mA,10mA\n%-14s %-12s %-12s %-12s %-12s\n", stats["parts"].size(),
+              lot.c_str(), "quantity", "mean", "std", "min", "max");
+  // {statistic's name, unit, label shown to the reader}
+  const std::vector<std::array<std::string, 3>> shown{
+      {"is_a", "A", "Is"},          {"n", "", "n"},
+      {"rs_ohm", "Ω", "Rs"},        {"vf_v@0.001A", "V", "Vf @ 1 mA"},
+      {"vf_v@0.01A", "V", "Vf @ 10 mA"}, {"rd_ohm@0.005A", "Ω", "rd @ 5 mA"}};
+  for (const auto& [name, unit, label] : shown)
+    for (const auto& q : stats["quantities"]) {
+      if (q.value("name", "") != name) continue;
+      const auto f = [&, u = unit](const Json& x) {
+        if (!x.is_number()) return std::string("—");
+        if (!u.empty()) return format_si(x.get<double>(), u);
+        char t[32];
+        std::snprintf(t, sizeof t, "%.4f", x.get<double>());
+        return std::string(t);
+      };
+      std::printf("%s%s\n", (pad_columns(label, 15) + pad_columns(f(q["mean"]), 13) + pad_columns(f(q["std_dev"]), 13) + pad_columns(f(q["min"]), 13) + f(q["max"])).c_str(),
+                  q["outliers"].empty() ? "" : ("  outliers: " + q["outliers"].dump()).c_str());
+    }
+}
+
 // The lot table and the lot spread, from the daemon's fits.
 bool print_lot(RpcClient& client, const std::string& lot) {
   const std::vector<double> at{1e-3, 10e-3, 5e-3};
-  std::vector<fitting::LotPart> fitted;
+  std::size_t fitted = 0;
   bool all_fitted = true;
   std::printf("\nlot %s — fitted at %.2f K; Rs is isothermal where a part has AC readings (DC and AC fitted together\n"
               "with the junction's heating, Rth)\n", lot.c_str(), 300.15);
@@ -276,44 +317,17 @@ bool print_lot(RpcClient& client, const std::string& lot) {
                             pad_columns(format_si(num(figs[0]["vf_v"]), "V"), 12) + pad_columns(format_si(num(figs[1]["vf_v"]), "V"), 12) +
                             pad_columns(format_si(num(figs[2]["rd_ohm"]), "Ω"), 11) + rth_text(fit))
                                .c_str());
-      fitting::LotPart lp;
-      lp.label = label;
-      lp.lot = lot;
-      lp.params.is_a = num(fit["is_a"]["value"]);
-      lp.params.n = num(fit["n"]["value"]);
-      lp.params.rs_ohm = num(fit["rs_ohm"]["value"]);
-      if (fit["rsh_ohm"].is_object() && fit["rsh_ohm"]["value"].is_number()) lp.params.rsh_ohm = fit["rsh_ohm"]["value"];
-      fitted.push_back(lp);
+      ++fitted;
     } catch (const RpcError& e) {
       all_fitted = false;
       std::printf("%-6s no usable fit: %s\n", label.c_str(), e.what());
     }
   }
-  if (fitted.size() < 2) {
+  if (fitted < 2) {
     std::printf("fewer than 2 fitted parts: no lot spread\n");
     return false;
   }
-  fitting::LotStatsOptions options;
-  options.currents_a = {1e-3, 5e-3, 10e-3};
-  const auto stats = fitting::lot_statistics(fitted, options);
-  std::printf("\nlot spread (%zu parts)\n%-14s %-12s %-12s %-12s %-12s\n", fitted.size(), "quantity", "mean", "std", "min", "max");
-  // {statistic's name, unit, label shown to the reader}
-  const std::vector<std::array<std::string, 3>> shown{
-      {"is_a", "A", "Is"},          {"n", "", "n"},
-      {"rs_ohm", "Ω", "Rs"},        {"vf_v@0.001A", "V", "Vf @ 1 mA"},
-      {"vf_v@0.01A", "V", "Vf @ 10 mA"}, {"rd_ohm@0.005A", "Ω", "rd @ 5 mA"}};
-  for (const auto& [name, unit, label] : shown)
-    for (const auto& q : stats.front().quantities) {
-      if (q.name != name) continue;
-      const auto f = [&, u = unit](double x) {
-        if (!u.empty()) return format_si(x, u);
-        char t[32];
-        std::snprintf(t, sizeof t, "%.4f", x);
-        return std::string(t);
-      };
-      std::printf("%s%s\n", (pad_columns(label, 15) + pad_columns(f(q.mean), 13) + pad_columns(f(q.std_dev), 13) + pad_columns(f(q.min), 13) + f(q.max)).c_str(),
-                  q.outliers.empty() ? "" : ("  outliers: " + Json(q.outliers).dump()).c_str());
-    }
+  print_lot_spread(client, lot);
   return all_fitted;
 }
 
@@ -361,12 +375,12 @@ void print_off_state(RpcClient& client, const std::string& lot) {
       }
       char m[48], iso[32] = "—";
       std::snprintf(m, sizeof m, "%.4f ± %.2g", num(fit["m"]["value"]), num(fit["m"]["std_error"]));
+      // The level ratio juncod computed for each off-state reading (detail.junction_cap.readings).
       double deepest = -1;
-      const Json readings = client.call("part.readings", Json{{"part_id", p["part_id"]}});
-      for (const auto& r : readings["points"])
-        if (r["kind"] == "reverse_ac" && -num(r["set_value"]) >= deepest && num(r["ac_in_v"]) > 0 && num(r["ac_out_v"]) > 0) {
-          deepest = -num(r["set_value"]);
-          std::snprintf(iso, sizeof iso, "%.1f dB", -20.0 * std::log10(num(r["ac_out_v"]) / num(r["ac_in_v"])));
+      for (const auto& r : fit["detail"]["junction_cap"].value("readings", Json::array()))
+        if (r["fixture_ratio_db"].is_number() && num(r["reverse_v"]) >= deepest) {
+          deepest = num(r["reverse_v"]);
+          std::snprintf(iso, sizeof iso, "%.1f dB", num(r["fixture_ratio_db"]));
         }
       std::printf("%s\n", (pad_columns(label, 7) + pad_columns(pm(num(fit["cj0_f"]["value"]), num(fit["cj0_f"]["std_error"]), "F"), 23) +
                             pad_columns(pm(num(fit["vj_v"]["value"]), num(fit["vj_v"]["std_error"]), "V"), 23) + pad_columns(m, 20) + iso)
@@ -415,24 +429,36 @@ void print_design_example(RpcClient& client, const std::string& lot) {
   }
 }
 
+// Runs this junco again with `args` (as a user would type them), waits; its exit status.
+int run_self(const std::vector<std::string>& args) {
+  std::vector<std::string> argv{(self_dir() / "junco").string()};
+  argv.insert(argv.end(), args.begin(), args.end());
+  std::vector<char*> cargv;
+  for (const auto& a : argv) cargv.push_back(const_cast<char*>(a.c_str()));
+  cargv.push_back(nullptr);
+  pid_t pid = -1;
+  if (::posix_spawn(&pid, cargv[0], nullptr, nullptr, cargv.data(), environ) != 0) return exit_failure;
+  int status = 0;
+  while (::waitpid(pid, &status, 0) < 0 && errno == EINTR) {
+  }
+  return WIFEXITED(status) ? WEXITSTATUS(status) : exit_failure;
+}
+
 // The first part's I-V, AC and off-state plots and the lot's spread, drawn by `junco plot`.
 void write_plots(const std::string& socket, const std::string& lot, const fs::path& dir, RpcClient& client) {
   const Json parts = client.call("part.list", Json{{"lot", lot}}).value("parts", Json::array());
-  const Command* plot = nullptr;
-  for (const auto& c : commands())
-    if (c.name == "plot") plot = &c;
-  if (parts.empty() || !plot) return;
+  if (parts.empty()) return;
   const std::string label = parts[0].value("label", "?");
   const std::vector<std::pair<std::vector<std::string>, fs::path>> jobs{
-      {{"iv", "--part", label}, dir / (label + "-iv.svg")},
-      {{"ac", "--part", label}, dir / (label + "-ac.svg")},
-      {{"off", "--part", label}, dir / (label + "-off.svg")},
-      {{"lot", "--lot", lot}, dir / "lot.svg"}};
+      {{"plot", "iv", "--part", label}, dir / (label + "-iv.svg")},
+      {{"plot", "ac", "--part", label}, dir / (label + "-ac.svg")},
+      {{"plot", "off", "--part", label}, dir / (label + "-off.svg")},
+      {{"plot", "lot", "--lot", lot}, dir / "lot.svg"}};
   std::printf("\nplots (junco plot; gnuplot):\n");
   for (const auto& [args, out] : jobs) {
     auto argv = args;
     argv.insert(argv.end(), {"--socket", socket, "--out", out.string()});
-    if (plot->run(argv) == exit_ok) std::printf("  %s\n", out.c_str());
+    if (run_self(argv) == exit_ok) std::printf("  %s\n", out.c_str());
   }
 }
 
@@ -531,15 +557,13 @@ void wait_for_lab(RpcClient& client, const std::string& lot) {
               status.value("database", "?").c_str(), lot.c_str());
 }
 
-int run(std::vector<std::string> args) {
+int run() {
   return guarded("demo", [&]() -> int {
-    const auto dir_opt = take_option(args, "--dir");
-    const auto seed = take_option(args, "--seed").value_or("912");
-    const bool keep = take_flag(args, "--keep-running");
-    const auto lab = take_option(args, "--lab");
-    if (!args.empty()) throw std::invalid_argument("unexpected argument '" + args.front() + "'");
-    parse_id(seed, "--seed");
-    const fs::path dir = fs::absolute(dir_opt ? fs::path(*dir_opt) : fs::path("junco-demo-" + timestamp()));
+    const Options& o = g_opt;
+    const std::string& seed = o.seed;
+    const bool keep = o.keep_running;
+    const auto lab = o.lab.empty() ? std::nullopt : std::optional<std::string>(o.lab);
+    const fs::path dir = fs::absolute(o.dir.empty() ? fs::path("junco-demo-" + timestamp()) : fs::path(o.dir));
     fs::create_directories(dir);
     const auto sim_path = find_program("junco-sim"), daemon_path = find_program("juncod");
 
@@ -612,7 +636,16 @@ int run(std::vector<std::string> args) {
   });
 }
 
-const bool registered = register_command({"demo", "run the whole tool on the simulated bench", usage, run});
+Command make_command() {
+  Command c;
+  c.name = "demo";
+  c.summary = "run the whole tool on the simulated bench";
+  c.define = define;
+  c.run_parsed = run;
+  return c;
+}
+
+const bool registered = register_command(make_command());
 
 }  // namespace
 }  // namespace junco::cli

@@ -6,6 +6,7 @@
 #include "fitting/lot_stats.hpp"
 #include "formats/model_document.hpp"
 #include "fitting/transfer.hpp"
+#include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
 #include "tools/junco/plot_gnuplot.hpp"
 #include "tools/junco/rpc_client.hpp"
@@ -24,7 +25,9 @@ namespace {
 
 using namespace junco::fitting;
 
-const char* const help =
+// The kinds in "junco plot KIND " lines: the man page test and the bash
+// completion read them from --help.
+const char* const description =
     "usage: junco plot iv  (--part PART | --readings IV.csv --model MODEL.json) --out FILE.svg|.png\n"
     "       junco plot ac  (--part PART | --readings AC.csv --model MODEL.json) --out FILE [--rg OHM] [--rl OHM]\n"
     "                      [--rbias OHM] [--rreturn OHM]\n"
@@ -34,14 +37,32 @@ const char* const help =
     "--lot NAME read the readings and fits from juncod (--socket PATH, see junco status\n"
     "--help); for ac the fixture is the one stored with the run.\n"
     "iv:  forward current (log axis) against voltage, readings and the model, and the voltage\n"
-    "     residual (mV) of each reading against the model. CSV header: v,i_a\n"
+    "     residual (mV) of each reading against the model. CSV header: v,i_a. From juncod, the\n"
+    "     readings the stored fit left out (and why) are the ones drawn apart; from files, those\n"
+    "     below the noise floor (--noise-floor, default junco fit's).\n"
     "ac:  fixture gain Vout/Vin (dB) against bias current, measured and modelled.\n"
     "     CSV header: bias_i_a,freq_hz,vin,vout. Fixture defaults 50/50 ohm, no shunts.\n"
     "off: the part switched off (plan.ac.off_state): junction capacitance from each reading against\n"
     "     reverse bias with the fitted law CJO*(1+VR/VJ)^-M, and the isolation measured. CSV header:\n"
     "     reverse_v,freq_hz,vin,vout (junco show PART --export off-csv writes one).\n"
     "lot: the spread of IS, N and RS over the parts, one panel each.\n"
-    "The gnuplot script is kept as FILE.gp. PNG when FILE ends in .png.\n";
+    "The gnuplot script is kept as FILE.gp. PNG when FILE ends in .png.\n"
+    "junco plot KIND --help lists the options of one plot.";
+
+const char* const footer = R"(examples:
+  junco plot iv --part WR-03 --out iv.svg
+  junco plot ac --readings WR-01-ac.csv --model WR-01.json --rl 50 --out ac.png
+  junco plot lot --lot WREN-0912 --out lot.svg
+
+exit status: 0 written; 1 daemon error; 2 bad options, unreadable file or document, unknown part.)";
+
+struct Options {
+  std::string kind;  // the subcommand given: iv, ac, off, lot
+  std::string part, lot, readings, model, out, socket;
+  std::vector<std::string> files;  // lot: model documents
+  std::optional<double> rg_ohm, rl_ohm, rbias_ohm, rreturn_ohm, noise_floor_a;
+};
+Options g_opt;  // bound by define(); one command per process
 
 std::string slurp(const std::string& path) {
   std::ifstream f(path);
@@ -68,23 +89,25 @@ ReadingsTable parse_readings(const std::string& text, const std::string& where) 
 // Where a plot's documents come from: the files named on the command line,
 // or juncod's exports of a stored part (the same formats).
 struct Source {
-  std::map<std::string, std::string>& o;
+  const Options& o;
   std::optional<RpcClient> client;
   long part_id = 0;
 
-  Source(std::map<std::string, std::string>& options, const std::string& socket) : o(options) {
-    if (!o.count("part")) return;
-    client.emplace(socket);
-    part_id = resolve_part(*client, o["part"], o.count("lot") ? std::optional<std::string>(o["lot"]) : std::nullopt);
+  explicit Source(const Options& options) : o(options) {
+    if (o.part.empty()) return;
+    client.emplace(socket_path(o.socket));
+    part_id = resolve_part(*client, o.part, o.lot.empty() ? std::nullopt : std::optional<std::string>(o.lot));
   }
   bool daemon() const { return client.has_value(); }
-  std::string where(const char* what) const { return daemon() ? "part " + std::to_string(part_id) + " " + what : o.at(what); }
+  std::string where(const char* what) const {
+    return daemon() ? "part " + std::to_string(part_id) + " " + what : std::string(what) == "model" ? o.model : o.readings;
+  }
   std::string exported(const char* format) {
     return client->call("part.export", Json{{"part_id", part_id}, {"format", format}}).value("content", "");
   }
-  PartModel model() { return parse_model(daemon() ? exported("json") : slurp(o["model"]), where("model")); }
+  PartModel model() { return parse_model(daemon() ? exported("json") : slurp(o.model), where("model")); }
   ReadingsTable readings(const char* format) {
-    return parse_readings(daemon() ? exported(format) : slurp(o["readings"]), where("readings"));
+    return parse_readings(daemon() ? exported(format) : slurp(o.readings), where("readings"));
   }
 };
 
@@ -98,33 +121,64 @@ std::string title_of(const PartModel& m) {
   return "part " + m.part_label + (m.lot.empty() ? std::string() : ", lot " + m.lot);
 }
 
-// An option's value through the one units grammar ("50", "4.7k", "1mA").
-double number(std::map<std::string, std::string>& o, const char* key, double fallback, const char* unit = "ohm") {
-  if (!o.count(key)) return fallback;
-  try {
-    return parse_quantity(o[key], unit);
-  } catch (const std::invalid_argument& e) {
-    throw std::invalid_argument(std::string("--") + key + ": " + e.what());
+// A forward reading as the I-V plot draws it: used by the fit, or left out and why.
+struct IvRow {
+  double v, i_a;
+  bool used;
+  std::string reason;
+};
+
+// From juncod: the readings of the run the stored fit was made from, each
+// with how that fit treated it (part.readings: used_by_fit, fit_excluded),
+// so the plot shows the fit's own exclusions and not this program's rules.
+std::vector<IvRow> stored_iv_rows(Source& src) {
+  const Json fit = src.client->call("part.fit", Json{{"part_id", src.part_id}});
+  Json params{{"part_id", src.part_id}};
+  if (fit.value("run_id", Json()).is_number()) params["run_id"] = fit["run_id"];
+  const Json r = src.client->call("part.readings", params);
+  if (!r.value("fit_id", Json()).is_number())
+    throw std::runtime_error("part " + std::to_string(src.part_id) + ": juncod does not say which readings its fit used (fit " +
+                             fit.value("fit_id", Json()).dump() + " names no run)");
+  std::vector<IvRow> rows;
+  for (const auto& p : r["points"]) {
+    if (!p.value("used_by_fit", Json()).is_boolean()) continue;  // not a reading the forward fit takes
+    rows.push_back({p["v"].get<double>(), p["i_a"].get<double>(), p["used_by_fit"].get<bool>(),
+                    p.value("fit_excluded", Json()).is_string() ? p["fit_excluded"].get<std::string>() : std::string()});
   }
+  return rows;
 }
 
 int plot_iv(Source& src) {
-  auto& o = src.o;
+  const Options& o = src.o;
   const auto m = src.model();
-  const auto t = src.readings("iv-csv");
-  if (t.iv.empty()) throw std::runtime_error("no forward readings (v,i_a) in " + src.where("readings"));
-  // Readings the fit leaves out (reverse, below the noise floor) are drawn
-  // apart and kept out of the residual panel, as the fit report lists them.
-  FitOptions fit_rules;
-  if (o.count("noise-floor")) fit_rules.noise_floor_a = number(o, "noise-floor", 0.0, "A");
-  const double floor_a = effective_noise_floor_a(fit_rules);
+  std::vector<IvRow> rows;
+  std::string excluded_title;
+  if (src.daemon()) {
+    rows = stored_iv_rows(src);
+    std::vector<std::string> reasons;  // as the fit gave them, each once
+    for (const auto& r : rows)
+      if (!r.used && std::find(reasons.begin(), reasons.end(), r.reason) == reasons.end()) reasons.push_back(r.reason);
+    excluded_title = "left out by the stored fit";
+    for (std::size_t k = 0; k < reasons.size() && k < 2; ++k) excluded_title += (k ? "; " : ": ") + reasons[k];
+    if (reasons.size() > 2) excluded_title += "; ...";
+  } else {
+    // From files: the fit's noise floor rule (junco fit's default, or --noise-floor).
+    FitOptions fit_rules;
+    if (o.noise_floor_a) fit_rules.noise_floor_a = *o.noise_floor_a;
+    const double floor_a = effective_noise_floor_a(fit_rules);
+    for (const auto& p : src.readings("iv-csv").iv) rows.push_back({p.v, p.i_a, !(p.i_a < floor_a), ""});
+    char title[80];
+    std::snprintf(title, sizeof title, "excluded (below noise floor %.2g A)", floor_a);
+    excluded_title = title;
+  }
+  if (rows.empty()) throw std::runtime_error("no forward readings (v,i_a) in " + src.where("readings"));
   std::string meas, excluded, resid, model;
   double i_lo = 1e300, i_hi = 0;
-  std::vector<IvPoint> by_current(t.iv.begin(), t.iv.end());  // the residual line runs along the axis
-  std::sort(by_current.begin(), by_current.end(), [](const IvPoint& a, const IvPoint& b) { return a.i_a < b.i_a; });
-  for (const auto& p : by_current) {
+  // the residual line runs along the axis
+  std::sort(rows.begin(), rows.end(), [](const IvRow& a, const IvRow& b) { return a.i_a < b.i_a; });
+  for (const auto& p : rows) {
     if (!(p.i_a > 0) || !(p.v > 0)) continue;  // not on a log current axis
-    if (p.i_a < floor_a) {
+    if (!p.used) {
       excluded += row(p.v, p.i_a);
       continue;
     }
@@ -133,23 +187,21 @@ int plot_iv(Source& src) {
     i_lo = std::min(i_lo, p.i_a);
     i_hi = std::max(i_hi, p.i_a);
   }
-  if (meas.empty()) throw std::runtime_error("no forward readings above the noise floor in " + src.where("readings"));
+  if (meas.empty()) throw std::runtime_error("no forward readings used by the fit in " + src.where("readings"));
   for (int k = 0; k <= 200; ++k) {
     const double i = i_lo * std::pow(i_hi / i_lo, k / 200.0);
     model += row(diode_voltage_v(m.params, i, m.temp_k), i);
   }
   if (excluded.empty()) excluded = "NaN NaN\n";  // keeps $d3 valid; draws nothing
-  PlotJob job{o["out"], {meas, model, resid, excluded}, "", 800, 800};
+  PlotJob job{o.out, {meas, model, resid, excluded}, "", 800, 800};
   char fit_label[200];
   std::snprintf(fit_label, sizeof fit_label, "model IS=%.3g A, N=%.3f, RS=%.3g {/Symbol W}", m.params.is_a, m.params.n,
                 m.params.rs_ohm);
-  char floor_label[80];
-  std::snprintf(floor_label, sizeof floor_label, "excluded (below noise floor %.2g A)", floor_a);
   job.body = "set multiplot layout 2,1 title " + gnuplot_literal(title_of(m)) + " noenhanced\n"
              "set logscale y\nset format y '10^{%L}'\nset xlabel 'forward voltage V (V)'\n"
              "set ylabel 'forward current I (A)'\n"
              "plot $d0 using 1:2 with points pt 7 ps 0.6 title 'readings used by the fit', "
-             "$d3 using 1:2 with points pt 6 ps 0.8 lc 'gray40' title '" + std::string(floor_label) + "', "
+             "$d3 using 1:2 with points pt 6 ps 0.8 lc 'gray40' title " + gnuplot_literal(excluded_title) + ", "
              "$d1 using 1:2 with lines lw 2 title '" + std::string(fit_label) + "'\n"
              "unset logscale y\nset format y '%g'\nset logscale x\nset format x '10^{%L}'\n"
              "set xlabel 'forward current I (A)'\nset ylabel 'residual V_{meas} - V_{model} (mV)'\n"
@@ -171,17 +223,17 @@ struct AcRow {
 };
 
 int plot_ac(Source& src) {
-  auto& o = src.o;
+  const Options& o = src.o;
   const auto m = src.model();
-  Fixture fx{number(o, "rg", 50), number(o, "rl", 50), number(o, "rbias", no_shunt_ohm), number(o, "rreturn", no_shunt_ohm)};
+  Fixture fx{o.rg_ohm.value_or(50), o.rl_ohm.value_or(50), o.rbias_ohm.value_or(no_shunt_ohm), o.rreturn_ohm.value_or(no_shunt_ohm)};
   const AcPart part{m.params, std::isfinite(m.cj0_f) ? m.cj0_f : 0.0};
   std::vector<AcRow> rows;
   if (src.daemon()) {  // the run's fixture and juncod's residuals, unless the fixture is overridden here
     const Json r = src.client->call("part.transfer", Json{{"part_id", src.part_id}});
     const Json& f = r["fixture"];
-    if (!o.count("rl")) fx.rl_ohm = f["rl_ohm"].get<double>();
-    if (!o.count("rg")) fx.rg_ohm = f["rg_ohm"].get<double>();
-    if (!o.count("rreturn") && f["dc_return_ohm"].is_number()) fx.dc_return_ohm = f["dc_return_ohm"].get<double>();
+    if (!o.rl_ohm) fx.rl_ohm = f["rl_ohm"].get<double>();
+    if (!o.rg_ohm) fx.rg_ohm = f["rg_ohm"].get<double>();
+    if (!o.rreturn_ohm && f["dc_return_ohm"].is_number()) fx.dc_return_ohm = f["dc_return_ohm"].get<double>();
     for (const auto& p : r["points"]) {
       const double i = p["bias_i_a"], freq = p["freq_hz"], meas = p["measured_db"];
       const double model = to_db(fixture_gain(fx, diode_on_impedance(part, i, freq, m.temp_k)));
@@ -205,7 +257,7 @@ int plot_ac(Source& src) {
   }
   std::sort(freqs.begin(), freqs.end());
   if (excluded.empty()) excluded = "NaN NaN\n";  // keeps $d0 valid; draws nothing
-  PlotJob job{o["out"], {excluded}, "", 800, 800};
+  PlotJob job{o.out, {excluded}, "", 800, 800};
   std::string top = "plot $d0 using 1:2 with points pt 6 ps 0.8 lc 'gray40' title 'left out (large signal or near the level floor)'";
   std::string bottom = "plot 0 with lines lc 'black' notitle";
   for (std::size_t k = 0; k < freqs.size(); ++k) {
@@ -254,7 +306,7 @@ struct OffRow {
 // with the part off. From juncod, the per-reading C of its fit; from files,
 // computed here from the readings, the model's RS and the fixture options.
 int plot_off(Source& src) {
-  auto& o = src.o;
+  const Options& o = src.o;
   const auto m = src.model();
   std::vector<OffRow> rows;
   if (src.daemon()) {
@@ -270,7 +322,7 @@ int plot_off(Source& src) {
     if (t.off.empty() && (!t.iv.empty() || !t.ac.empty()))
       throw std::runtime_error(src.where("readings") + ": not an off-state table (header reverse_v,freq_hz,vin,vout; "
                                "junco show PART --export off-csv writes one)");
-    const Fixture fx{50.0, number(o, "rl", 50), no_shunt_ohm, number(o, "rreturn", no_shunt_ohm)};
+    const Fixture fx{50.0, o.rl_ohm.value_or(50), no_shunt_ohm, o.rreturn_ohm.value_or(no_shunt_ohm)};
     const auto fit = fit_junction_cap(t.off, fx, m.params.rs_ohm);
     for (std::size_t k = 0; k < t.off.size(); ++k)
       rows.push_back({t.off[k].reverse_v, t.off[k].freq_hz, fit.c_f[k], off_state_isolation_db(t.off[k]), fit.left_out[k].empty()});
@@ -294,7 +346,7 @@ int plot_off(Source& src) {
       law += row(v, 1e12 * m.cj0_f * std::pow(1.0 + v / m.vj_v, -m.m));
     }
   }
-  PlotJob job{o["out"], {law, left_out}, "", 800, 800};
+  PlotJob job{o.out, {law, left_out}, "", 800, 800};
   std::string top = "plot $d0 using 1:2 with lines lw 2 lc 'black' title '" +
                     std::string(has_law ? "fitted law" : "no law fitted") + "'";
   const bool any_left_out = left_out != "NaN NaN\n";
@@ -363,7 +415,7 @@ std::vector<PartModel> lot_from_daemon(const std::string& socket, const std::str
   return models;
 }
 
-int plot_lot(const std::vector<PartModel>& models, std::map<std::string, std::string>& o) {
+int plot_lot(const std::vector<PartModel>& models, const Options& o) {
   std::string is, n, rs, lot;
   int k = 0;
   for (const auto& m : models) {
@@ -373,7 +425,7 @@ int plot_lot(const std::vector<PartModel>& models, std::map<std::string, std::st
     rs += lot_row(k, m.params.rs_ohm, m.rs_se_ohm, m.part_label);
     ++k;
   }
-  PlotJob job{o["out"], {is, n, rs}, "", 800, 900};
+  PlotJob job{o.out, {is, n, rs}, "", 800, 900};
   const std::string range = "set xrange [-0.5:" + std::to_string(k) + "-0.5]\n";
   const std::string points = " using 1:2:3:xtic(4) with yerrorbars pt 7 lw 1.5\n";
   job.body = "set multiplot layout 3,1 title " +
@@ -388,79 +440,89 @@ int plot_lot(const std::vector<PartModel>& models, std::map<std::string, std::st
   return exit_ok;
 }
 
-int run(std::vector<std::string> args) {
-  if (args.empty()) {
-    std::fprintf(stderr, "junco plot: which plot? (iv, ac, off, lot; junco plot --help)\n");
-    return exit_usage;
-  }
-  std::string socket;
-  try {
-    socket = take_socket_option(args);
-  } catch (const std::invalid_argument& e) {
-    std::fprintf(stderr, "junco plot: %s\n", e.what());
-    return exit_usage;
-  }
-  std::map<std::string, std::string> o;
-  std::vector<std::string> files;
-  for (std::size_t k = 1; k < args.size(); ++k) {
-    if (args[k].rfind("--", 0) == 0) {
-      if (k + 1 >= args.size()) {
-        std::fprintf(stderr, "junco plot: %s needs a value\n", args[k].c_str());
-        return exit_usage;
-      }
-      o[args[k].substr(2)] = args[k + 1];
-      ++k;
-    } else {
-      files.push_back(args[k]);
-    }
-  }
-  const std::string kind = args[0];
-  const auto need = [&](std::initializer_list<const char*> keys) {
-    for (const char* key : keys)
-      if (!o.count(key)) {
-        std::fprintf(stderr, "junco plot %s: --%s is required\n", kind.c_str(), key);
-        return false;
-      }
-    return true;
-  };
+// Options every plot of a part takes: where the documents come from, the output.
+CLI::App* part_plot(CLI::App& app, const char* kind, const char* summary, Options& o) {
+  CLI::App* sub = app.add_subcommand(kind, summary);
+  sub->add_option("--part", o.part, "a part stored by juncod (id or label)")->type_name("PART");
+  sub->add_option("--lot", o.lot, "with --part: the lot, when the label is in several")->type_name("NAME");
+  sub->add_option("--readings", o.readings, "readings CSV (without --part)")->type_name("CSV");
+  sub->add_option("--model", o.model, "model document, as junco fit --model-out writes (without --part)")->type_name("MODEL.json");
+  sub->add_option("--out", o.out, "the plot: FILE.svg or FILE.png (script kept as FILE.gp)")->type_name("FILE")->required();
+  add_socket_option(*sub, o.socket);
+  return sub;
+}
+
+void define(CLI::App& app) {
+  Options& o = g_opt;
+  app.description(description);
+  app.footer(footer);
+  app.require_subcommand(1, 1);
+  CLI::App* iv = part_plot(app, "iv", "forward current against voltage, with the residuals", o);
+  add_si_option(*iv, "--noise-floor", o.noise_floor_a, "A", "from files: readings below it drawn as excluded (default junco fit's)");
+  CLI::App* ac = part_plot(app, "ac", "fixture gain against bias current, measured and modelled", o);
+  add_si_option(*ac, "--rg", o.rg_ohm, "ohm", "generator resistance (default 50; from juncod the run's)");
+  add_si_option(*ac, "--rl", o.rl_ohm, "ohm", "load resistance (default 50; from juncod the run's)");
+  add_si_option(*ac, "--rbias", o.rbias_ohm, "ohm", "bias feed shunt (default none)");
+  add_si_option(*ac, "--rreturn", o.rreturn_ohm, "ohm", "DC return shunt (default none; from juncod the run's)");
+  CLI::App* off = part_plot(app, "off", "junction capacitance and isolation against reverse bias", o);
+  add_si_option(*off, "--rl", o.rl_ohm, "ohm", "from files: load resistance (default 50)");
+  add_si_option(*off, "--rreturn", o.rreturn_ohm, "ohm", "from files: DC return shunt (default none)");
+  CLI::App* lot = app.add_subcommand("lot", "spread of IS, N and RS over a lot's parts");
+  lot->add_option("MODEL", o.files, "model documents of the parts (without --lot)")->type_name("MODEL.json...");
+  lot->add_option("--lot", o.lot, "a lot stored by juncod")->type_name("NAME");
+  lot->add_option("--out", o.out, "the plot: FILE.svg or FILE.png (script kept as FILE.gp)")->type_name("FILE")->required();
+  add_socket_option(*lot, o.socket);
+  for (CLI::App* sub : {iv, ac, off, lot}) sub->callback([&o, sub] { o.kind = sub->get_name(); });
+}
+
+int run() {
+  const Options& o = g_opt;
+  const std::string& kind = o.kind;
   try {
     if (kind == "iv" || kind == "ac" || kind == "off") {
-      if (o.count("part") && (o.count("readings") || o.count("model"))) {
+      if (!o.part.empty() && (!o.readings.empty() || !o.model.empty())) {
         std::fprintf(stderr, "junco plot %s: give --part, or --readings and --model, not both\n", kind.c_str());
         return exit_usage;
       }
-      if (!need(o.count("part") ? std::initializer_list<const char*>{"out"} : std::initializer_list<const char*>{"readings", "model", "out"}))
-        return exit_usage;
-      Source src(o, socket);
-      return kind == "iv" ? plot_iv(src) : kind == "ac" ? plot_ac(src) : plot_off(src);
-    }
-    if (kind == "lot") {
-      if (files.empty() == !o.count("lot")) {
-        std::fprintf(stderr, "junco plot lot: give the parts' model documents, or --lot NAME (from juncod)\n");
+      if (o.part.empty() && (o.readings.empty() || o.model.empty())) {
+        std::fprintf(stderr, "junco plot %s: --%s is required (or --part PART, from juncod)\n", kind.c_str(),
+                     o.readings.empty() ? "readings" : "model");
         return exit_usage;
       }
-      if (!need({"out"})) return exit_usage;
-      std::vector<PartModel> models;
-      if (o.count("lot")) models = lot_from_daemon(socket, o["lot"]);
-      else
-        for (const auto& f : files) models.push_back(parse_model(slurp(f), f));
-      return plot_lot(models, o);
+      Source src(o);
+      return kind == "iv" ? plot_iv(src) : kind == "ac" ? plot_ac(src) : plot_off(src);
     }
+    if (o.files.empty() == o.lot.empty()) {
+      std::fprintf(stderr, "junco plot lot: give the parts' model documents, or --lot NAME (from juncod)\n");
+      return exit_usage;
+    }
+    std::vector<PartModel> models;
+    if (!o.lot.empty()) models = lot_from_daemon(socket_path(o.socket), o.lot);
+    else
+      for (const auto& f : o.files) models.push_back(parse_model(slurp(f), f));
+    return plot_lot(models, o);
   } catch (const ConnectError& e) {
     std::fprintf(stderr, "junco plot %s: %s\n", kind.c_str(), e.what());
     return exit_failure;
   } catch (const RpcError& e) {
     std::fprintf(stderr, "junco plot %s: juncod: %s\n", kind.c_str(), e.what());
     return exit_failure;
-  } catch (const std::exception& e) {  // unreadable file or document, bad option value, unknown part
+  } catch (const std::exception& e) {  // unreadable file or document, unknown part
     std::fprintf(stderr, "junco plot %s: %s\n", kind.c_str(), e.what());
     return exit_usage;
   }
-  std::fprintf(stderr, "junco plot: unknown plot '%s' (iv, ac, off, lot)\n", kind.c_str());
-  return exit_usage;
 }
 
-const bool registered = register_command({"plot", "plot readings, fits, AC transfer, the off state and lot spread (SVG/PNG, gnuplot)", help, run});
+Command make_command() {
+  Command c;
+  c.name = "plot";
+  c.summary = "plot readings, fits, AC transfer, the off state and lot spread (SVG/PNG, gnuplot)";
+  c.define = define;
+  c.run_parsed = run;
+  return c;
+}
+
+const bool registered = register_command(make_command());
 
 }  // namespace
 }  // namespace junco::cli

@@ -681,7 +681,7 @@ class Client:
             currents_a (List[float], A, optional): forward currents > 0 (default chosen by the daemon)
             [A]
 
-        Returns the result object: part_id, fit_id, temp_k, figures.
+        Returns the result object: part_id, fit_id, run_id, temp_k, figures.
         Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
         client's), ConnectionError when the connection is lost.
         """
@@ -726,7 +726,7 @@ class Client:
             part_id (int, required): the part's id (part.list)
             run_id (int, optional): default: the part's latest run
 
-        Returns the result object: part, run, points.
+        Returns the result object: part, run, fit_id, points.
         Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
         client's), ConnectionError when the connection is lost.
         """
