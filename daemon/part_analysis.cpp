@@ -124,6 +124,21 @@ fitting::Fixture ac_fixture(const RunFixture& f) {
   return fx;
 }
 
+std::optional<fitting::PinPart> pin_part_of_fit(const FitRecord& fit) {
+  const Json& pin = fit.detail.value("pin", Json());
+  if (!pin.is_object() || !pin.value("ok", false)) return std::nullopt;
+  const auto value = [](const Json& obj, const char* key) {
+    return obj.contains(key) && obj[key].is_object() && obj[key]["value"].is_number() ? obj[key]["value"].get<double>() : kNaN;
+  };
+  fitting::PinPart p;
+  p.law = {value(pin, "n"), value(pin, "tau_s"), value(pin, "r0_ohm"), value(pin, "k_ohm_a_x"), value(pin, "x")};
+  if (const Json& off = pin.value("off_state", Json()); off.is_object() && off.value("ok", false)) {
+    p.ct_f = value(off, "ct_f");
+    p.rp_ohm = value(off, "rp_ohm");
+  }
+  return p;
+}
+
 fitting::DesignPart design_part(const PartRow& part, const FitRecord& fit) {
   const fitting::FitResult& r = fit.fit;
   fitting::DesignPart p;
@@ -136,6 +151,7 @@ fitting::DesignPart design_part(const PartRow& part, const FitRecord& fit) {
     if (const double m = fit.m.value; m > 0) p.cap.m = m;
   }
   if (const double tt = fit.tt_s.value; tt >= 0) p.tt_s = tt;  // stored charge from multi-frequency AC readings
+  p.pin = pin_part_of_fit(fit);
   return p;
 }
 

@@ -28,6 +28,7 @@
 #include <nlohmann/json.hpp>
 
 #include <complex>
+#include <limits>
 #include <span>
 #include <string>
 #include <vector>
@@ -40,6 +41,13 @@ struct PinLaw {
   double r0_ohm = 0.5;      // R0: resistance that the stored charge does not modulate
   double k_ohm_a_x = 0.02;  // K in Ω·A^x
   double x = 1.0;           // exponent of the current
+};
+
+// A PIN part as the calculators take it: the law on, CT ∥ Rp off (ct_f 0: unknown).
+struct PinPart {
+  PinLaw law;
+  double ct_f = 0.0;
+  double rp_ohm = std::numeric_limits<double>::infinity();
 };
 
 // R0 + K·I^−x: the RF resistance well above the knee (I > 0).

@@ -11,7 +11,9 @@
 //    values (Sze, Physics of Semiconductor Devices) — from memory.
 //  - The charge per half cycle of a sine of peak Î, Î/(π f): ∫ Î sin ωt over a
 //    half period = 2Î/ω (elementary calculus).
+#include "fitting/design_calculators.hpp"
 #include "fitting/design_joint_fit.hpp"
+#include "fitting/model_document.hpp"
 #include "fitting/pin_diode.hpp"
 
 #include <catch2/catch.hpp>
@@ -190,4 +192,46 @@ TEST_CASE("PIN screen: the charge criterion keeps readings the small-signal rule
   const auto pin = screen_pin_ac_readings(ac, Fixture{}, 1e-6);
   CHECK(pin[0].empty());
   CHECK(pin[1] == "large signal");
+}
+
+TEST_CASE("PIN law in the model document and the calculators' inputs") {
+  PartModel m;
+  m.part_label = "PIN-1";
+  m.lot = "WREN-0912";
+  m.params = {5e-10, 2.0, 0.3};
+  m.pin = PinPart{{2.0, 200e-9, 0.3, 0.0246, 1.0}, 0.3e-12, 2e6};
+  std::string why;
+  const auto back = parse_model_document(model_document_json(m), &why);
+  INFO(why);
+  REQUIRE(back);
+  REQUIRE(back->pin);
+  CHECK(back->pin->law.tau_s == 200e-9);
+  CHECK(back->pin->law.k_ohm_a_x == 0.0246);
+  CHECK(back->pin->ct_f == 0.3e-12);
+  CHECK(back->pin->rp_ohm == 2e6);
+
+  // A junction part made a PIN part by the inputs: the series loss far above
+  // the knee is 20·log10(1 + R/(2·Z0)) with R = R0 + K/I (docs/references.md §6).
+  DesignPart part;
+  part.dc = {5e-10, 2.0, 0.3};
+  const nlohmann::json a = run_design("loss", &part, {{"switch", "series"}, {"current_a", 1e-3}, {"freq_hz", 1e9}, {"k_ohm_a_x", 0.0246},
+                                                       {"tau_s", 200e-9}, {"r0_ohm", 0.3}});
+  double loss = 0;
+  for (const auto& l : a["result"]) if (l["key"] == "loss_db") loss = l["value"].get<double>();
+  CHECK(loss == Approx(20.0 * std::log10(1.0 + (0.3 + 24.6) / 100.0)).margin(2e-3));
+  CHECK(a["part"]["pin"]["tau_s"] == 200e-9);
+  // K without τ is refused, naming the missing input.
+  try {
+    run_design("loss", &part, {{"switch", "series"}, {"current_a", 1e-3}, {"freq_hz", 1e9}, {"k_ohm_a_x", 0.0246}});
+    FAIL("no error");
+  } catch (const DesignInputError& e) {
+    CHECK(e.field() == "tau_s");
+  }
+  // Distortion of a PIN part: the charge criterion, no junction harmonics.
+  const nlohmann::json d = run_design("distortion", &part, {{"switch", "series"}, {"current_a", 10e-3}, {"freq_hz", 100e6}, {"amplitude_v", 2.0},
+                                                            {"k_ohm_a_x", 0.0246}, {"tau_s", 1e-6}});
+  double ratio = -1;
+  for (const auto& l : d["result"]) if (l["key"] == "rf_charge_ratio") ratio = l["value"].get<double>();
+  // 2 V into ~100 Ω: 20 mA peak; 20 mA/(π·100 MHz) = 64 pC against 10 nC stored.
+  CHECK(ratio == Approx(0.02 / (std::numbers::pi * 100e6) / 10e-9).epsilon(0.05));
 }
