@@ -189,7 +189,10 @@ Json transfer_report(const PartRow& part, const RunRecord& run, const FitRecord&
   const fitting::Fixture fx = ac_fixture(run.fixture);
   const fitting::AcPart ac_part{r.params(), options.cj_f};
   const std::vector<fitting::AcPoint> all = ac_points(points);
-  const auto left_out = fitting::screen_ac_readings(all, fx, {options.max_signal_ratio, options.ac_floor_v});
+  // A PIN part's readings are screened by the charge criterion with its fitted τ (fitting/pin_diode.hpp).
+  const auto pin = pin_part_of_fit(fit);
+  const auto left_out = pin ? fitting::screen_pin_ac_readings(all, fx, pin->law.tau_s, options.max_signal_ratio, options.ac_floor_v)
+                            : fitting::screen_ac_readings(all, fx, {options.max_signal_ratio, options.ac_floor_v});
   std::vector<fitting::AcPoint> used;
   Json rows = Json::array();
   double sum_sq = 0.0, worst = 0.0;
@@ -235,6 +238,12 @@ Json transfer_report(const PartRow& part, const RunRecord& run, const FitRecord&
   const auto rep = fitting::compare_dc_and_joint(dc, used, fx, jo);
   out["joint"] = fitting::joint_report_json(rep);
   out["joint"]["verdict"] = transfer_verdict(out["joint"], fit);
+  if (pin) {
+    // The junction's rd = N·Vt/I does not describe a PIN above its knee: a
+    // disagreement here is not self-heating.
+    out["joint"].erase("hint");
+    out["joint"]["verdict"] = "PIN part: the junction model does not describe AC readings above the lifetime's knee (part.fit pin holds the PIN law)";
+  }
   return out;
 }
 

@@ -61,4 +61,19 @@ TEST_CASE("part.fit recovers the PIN law and lifetime of junco-sim's PIN part", 
   CHECK(pin["above_knee"].get<long>() >= 16);
   REQUIRE(pin.contains("off_state"));
   CHECK(pin["off_state"]["ok"] == true);
+
+  // part.transfer does not read the junction model's misfit as self-heating.
+  const Json t = b.result("part.transfer", {{"part_id", 1}});
+  CHECK(test::schema_problem(test::api_schema("part.transfer")["result"], t) == "");
+  REQUIRE(t["joint"].is_object());
+  CHECK(t["joint"]["verdict"].get<std::string>().rfind("PIN part", 0) == 0);
+  CHECK_FALSE(t["joint"].contains("hint"));
+
+  // part.design computes the stored PIN part's loss with its law: far above the
+  // knee the series loss is 20·log10(1 + R/(2·Z0)) (docs/references.md §6).
+  const Json a = b.result("part.design", {{"part_id", 1}, {"calculator", "loss"}, {"inputs", {{"current_a", 1e-3}, {"freq_hz", 1e9}}}});
+  double loss_db = NAN;
+  for (const auto& l : a["result"])
+    if (l["key"] == "loss_db") loss_db = l["value"].get<double>();
+  CHECK(loss_db == Approx(20.0 * std::log10(1.0 + v("r_1ma_ohm") / 100.0)).margin(0.01));
 }
