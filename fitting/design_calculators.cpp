@@ -346,6 +346,9 @@ void distortion(Run& r) {
 
 void bias_for_thd(Run& r) {
   r.assume_all();
+  if (r.part().pin)
+    return r.not_achievable("PIN part: the junction's THD solve does not describe it above the lifetime's knee; "
+                            "use distortion for the charge criterion (stored charge I*tau against the RF charge per half cycle)");
   auto in = distortion_input(r);
   std::string why;
   const auto i = bias_for_thd_a(in, r.number("target_pct") / 100.0, &why);
