@@ -331,8 +331,17 @@ void pin_distortion(Run& r, const PinPart& pin, const DistortionInput& in) {
   r.result("signal_peak_a", "signal current (peak)", signal_peak_a, "A");
   r.result("stored_charge_c", "stored charge I*tau", i * pin.law.tau_s, "C");
   r.result("rf_charge_ratio", "RF charge per half cycle / stored charge", ratio, "");
-  r.warn("PIN part: harmonics are not computed (the junction solve does not apply above the knee); "
-         "distortion is small while rf_charge_ratio is well below 1");
+  if (in.kind == SwitchKind::series) {
+    // The charge-control PIN in the series switch, time domain (pin_series_distortion).
+    const PinDistortion d = pin_series_distortion(pin.law, in.part.is_a, i, f, in.source_peak_v, in.rg_ohm, in.rl_ohm, in.temp_k);
+    r.result("load_peak_v", "load fundamental (peak)", d.load_peak_v, "V");
+    r.result("hd2_dbc", "HD2", d.hd2_dbc, "dBc");
+    r.result("hd3_dbc", "HD3", d.hd3_dbc, "dBc");
+    r.result("thd_pct", "THD", 100 * d.thd, "%");
+    if (!d.converged) r.warn("the PIN large-signal solve did not reach a periodic state");
+  } else {
+    r.warn("PIN part, shunt switch: harmonics are not computed; distortion is small while rf_charge_ratio is well below 1");
+  }
   if (ratio > 0.1) r.warn("the RF charge per half cycle exceeds 0.1 of the stored charge: expect distortion; raise the bias");
 }
 

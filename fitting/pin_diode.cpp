@@ -312,4 +312,70 @@ std::vector<std::string> screen_pin_ac_readings(std::span<const AcPoint> ac, con
   return why;
 }
 
+PinDistortion pin_series_distortion(const PinLaw& law, double is_a, double ib, double freq_hz, double amp_v, double rg, double rl,
+                                    double temp_k, int n) {
+  const double nvt = law.n * thermal_voltage_v(temp_k), w = 2.0 * std::numbers::pi * freq_hz, h = 1.0 / (freq_hz * n);
+  const auto r_i = [&](double q) { return law.k_ohm_a_x * std::pow(std::max(q, 1e-30) / law.tau_s, -law.x); };
+  const auto v_j = [&](double q) { return nvt * std::log1p(std::max(q, 0.0) / (law.tau_s * is_a)); };
+  // Loop current through Rg at charge q, EMF e, block voltage vcb:
+  // e − vcb = Rg·ig + (R0 + R_I)·(Ib + ig) + v_j + RL·(Ib + ig).
+  const auto ig_of = [&](double q, double e, double vcb) {
+    const double r = law.r0_ohm + r_i(q);
+    return (e - vcb - v_j(q) - (r + rl) * ib) / (rg + rl + r);
+  };
+  const auto dq = [&](double q, double t, double vcb) { return ib + ig_of(q, amp_v * std::sin(w * t), vcb) - q / law.tau_s; };
+  // One period from q0: q(T) and the mean loop current (RK4).
+  std::vector<double> ig(static_cast<std::size_t>(n));
+  const auto period = [&](double q0, double vcb, bool keep) {
+    double q = q0, mean = 0.0;
+    for (int s = 0; s < n; ++s) {
+      const double t = s * h;
+      const double i_now = ig_of(q, amp_v * std::sin(w * t), vcb);
+      if (keep) ig[static_cast<std::size_t>(s)] = i_now;
+      mean += i_now / n;
+      const double k1 = dq(q, t, vcb), k2 = dq(q + 0.5 * h * k1, t + 0.5 * h, vcb), k3 = dq(q + 0.5 * h * k2, t + 0.5 * h, vcb),
+                   k4 = dq(q + h * k3, t + h, vcb);
+      q += h / 6.0 * (k1 + 2 * k2 + 2 * k3 + k4);
+    }
+    return std::pair<double, double>{q, mean};
+  };
+  // Shooting: F(q0, vcb) = (q(T) − q0, mean ig) = 0, Newton with finite differences.
+  double q0 = ib * law.tau_s, vcb = -(v_j(q0) + (pin_rf_resistance_ohm(law, ib) + rl) * ib);
+  PinDistortion out;
+  for (int it = 0; it < 50; ++it) {
+    const auto [q1, m] = period(q0, vcb, false);
+    const double f1 = q1 - q0, f2 = m;
+    if (std::abs(f1) <= 1e-12 * q0 && std::abs(f2) <= 1e-12 * std::max(ib, amp_v / (rg + rl))) {
+      out.converged = true;
+      break;
+    }
+    const double dq0 = 1e-6 * q0, dv = 1e-6 * std::max(1.0, std::abs(vcb));
+    const auto [qa, ma] = period(q0 + dq0, vcb, false);
+    const auto [qb, mb] = period(q0, vcb + dv, false);
+    const double a = (qa - (q0 + dq0) - f1) / dq0, b = (qb - q0 - f1) / dv, c = (ma - f2) / dq0, d = (mb - f2) / dv;
+    const double det = a * d - b * c;
+    if (!(std::abs(det) > 0)) break;
+    q0 -= (d * f1 - b * f2) / det;
+    vcb -= (-c * f1 + a * f2) / det;
+    q0 = std::max(q0, 1e-3 * ib * law.tau_s);
+  }
+  period(q0, vcb, true);
+  std::vector<double> mag(10, 0.0);
+  for (int k = 1; k < 10; ++k) {
+    std::complex<double> s = 0;
+    for (int j = 0; j < n; ++j) s += ig[static_cast<std::size_t>(j)] * std::polar(1.0, -2.0 * std::numbers::pi * k * j / n);
+    mag[static_cast<std::size_t>(k)] = 2.0 * std::abs(s) / n;
+  }
+  double sum2 = 0.0;
+  for (int k = 2; k < 10; ++k) sum2 += mag[static_cast<std::size_t>(k)] * mag[static_cast<std::size_t>(k)];
+  out.load_peak_v = rl * mag[1];
+  out.hd2_dbc = 20.0 * std::log10(mag[2] / mag[1]);
+  out.hd3_dbc = 20.0 * std::log10(mag[3] / mag[1]);
+  out.thd = std::sqrt(sum2) / mag[1];
+  const auto [lo, hi] = std::minmax_element(ig.begin(), ig.end());
+  out.min_current_a = ib + *lo;
+  out.max_current_a = ib + *hi;
+  return out;
+}
+
 }  // namespace junco::fitting

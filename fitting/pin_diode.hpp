@@ -118,4 +118,20 @@ nlohmann::json pin_off_fit_json(const PinOffFit& fit);
 std::vector<std::string> screen_pin_ac_readings(std::span<const AcPoint> ac, const Fixture& fixture, double tau_s,
                                                 double max_signal_ratio = 0.1, double floor_v = 100e-6);
 
+// Large signal in a series switch: source EMF Â·sin ωt → Rg → DC block →
+// anode (bias current I_b fed in, open at AC) → PIN → cathode → RL → ground.
+// Charge control in the time domain: dQ/dt = i − Q/τ, the diode's voltage
+// R0·i + N·Vt·ln(1 + Q/(τ·IS)) + i·K·(Q/τ)^−x; periodic steady state by
+// shooting on (Q at t = 0, the block's voltage), RK4 over one period.
+// Harmonics of the load's AC current (DFT).
+struct PinDistortion {
+  bool converged = false;
+  double load_peak_v = 0.0;  // fundamental across RL
+  double hd2_dbc = 0.0, hd3_dbc = 0.0;
+  double thd = 0.0;          // √(Σ_{k=2..9} h_k²)/h_1
+  double min_current_a = 0.0, max_current_a = 0.0;
+};
+PinDistortion pin_series_distortion(const PinLaw& law, double is_a, double bias_i_a, double freq_hz, double source_peak_v,
+                                    double rg_ohm, double rl_ohm, double temp_k, int steps_per_period = 512);
+
 }  // namespace junco::fitting
