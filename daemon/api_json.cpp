@@ -214,7 +214,10 @@ Json to_json(const FitRecord& f) {
               {"vj_v", to_json(f.vj_v)},
               {"m", to_json(f.m)},
               {"tt_s", to_json(f.tt_s)},
-              {"temperature_law", f.temperature_law}};
+              {"temperature_law", f.temperature_law},
+              // A PIN part's fit (plan.part_type "pin"): the law and lifetime, detail.pin.
+              {"part_type", f.detail.contains("pin") ? "pin" : "junction"},
+              {"pin", f.detail.contains("pin") ? f.detail["pin"] : Json(nullptr)}};
 }
 
 }  // namespace junco::daemon

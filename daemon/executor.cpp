@@ -10,6 +10,7 @@
 #include "fitting/joint_fit.hpp"
 #include "fitting/electrothermal_fit.hpp"
 #include "fitting/extract.hpp"
+#include "fitting/pin_diode.hpp"
 
 #include <algorithm>
 #include <chrono>
@@ -139,6 +140,55 @@ void apply_stored_charge(const Config& cfg, double temp_k, const RunFixture& fix
   if (!f.ok) out.fit.warnings.push_back("stored charge not fitted: " + f.message);
 }
 
+// A PIN part's AC readings (plan.part_type "pin"): the law R0 + K·I^−x and
+// the lifetime τ (fitting/pin_diode.hpp), and CT ∥ Rp from the off-state
+// readings. The large-signal screen is the charge criterion, which needs τ:
+// a first fit on every reading above the level floor gives it, the screen
+// keeps the readings whose RF charge per half cycle is small next to I·τ (or
+// whose signal is small next to the bias), and the fit is made again on
+// those. Stored as detail.pin, served by part.fit as "pin".
+void apply_pin(const Config& cfg, double temp_k, const RunFixture& fixture, const std::vector<PointRow>& points, RunFit& out) {
+  const auto all = ac_points(points);
+  const fitting::Fixture fx = ac_fixture(fixture);
+  fitting::PinFitOptions o;
+  o.temp_k = temp_k;
+  o.ac_sigma_db = cfg.level_sigma_db();
+  Json j = Json::object();
+  if (!all.empty()) {
+    const fitting::AcScreen junction_rule;
+    const auto floor_only = fitting::screen_ac_readings(all, fx, {std::numeric_limits<double>::infinity(), junction_rule.floor_v});
+    std::vector<fitting::AcPoint> above_floor;
+    for (std::size_t k = 0; k < all.size(); ++k)
+      if (floor_only[k].empty()) above_floor.push_back(all[k]);
+    const fitting::PinFit first = fitting::fit_pin_law(above_floor, fx, o);
+    const double tau_s = first.ok ? first.tau_s.value : 0.0;
+    const auto why = fitting::screen_pin_ac_readings(all, fx, tau_s, junction_rule.max_signal_ratio, junction_rule.floor_v);
+    const auto small = fitting::screen_ac_readings(all, fx, junction_rule);
+    std::vector<fitting::AcPoint> used;
+    long large = 0, low = 0, kept_by_charge = 0;
+    for (std::size_t k = 0; k < all.size(); ++k) {
+      if (why[k].empty()) used.push_back(all[k]);
+      else ++(why[k] == "large signal" ? large : low);
+      if (why[k].empty() && small[k] == "large signal") ++kept_by_charge;
+    }
+    const fitting::PinFit f = fitting::fit_pin_law(used, fx, o);
+    j = fitting::pin_fit_json(f);
+    j["screen"] = {{"readings", all.size()},
+                   {"used", used.size()},
+                   {"large_signal", large},
+                   {"below_floor", low},
+                   {"kept_by_charge_rule", kept_by_charge},
+                   {"tau_for_screen_s", tau_s}};
+    if (!f.ok) out.fit.warnings.push_back("PIN law not fitted: " + f.message);
+  } else {
+    j = {{"ok", false}, {"message", "the run has no AC readings: the PIN law needs them at 2 or more frequencies"}};
+    out.fit.warnings.push_back("PIN law not fitted: the run has no AC readings");
+  }
+  const auto off = off_state_points(points);
+  if (!off.empty()) j["off_state"] = fitting::pin_off_fit_json(fitting::fit_pin_off_state(off, fx, cfg.level_sigma_db()));
+  out.more_detail["pin"] = j;
+}
+
 // The heating plan options' readings (plan.heating; fitting/heating.hpp):
 // Rth and τ from the two dwells, the up/down hysteresis, and how much
 // heating the stored Rs may still hold. Stored as detail.heating.
@@ -191,7 +241,9 @@ void apply_heating(const Config& cfg, double temp_k, const std::vector<PointRow>
   out.more_detail["heating"] = j;
 }
 
-RunFit fit_run(const Config& cfg, double temp_k, const RunFixture& fixture, const std::vector<PointRow>& points) {
+RunFit fit_run(const Config& cfg, double temp_k, const RunFixture& fixture, const std::vector<PointRow>& points,
+              const std::string& part_type) {
+  const bool pin = part_type == "pin";
   RunFit out;
   try {
     fitting::FitOptions opt;
@@ -206,7 +258,9 @@ RunFit fit_run(const Config& cfg, double temp_k, const RunFixture& fixture, cons
     return out;
   }
   if (out.fit.usable()) {
-    try {
+    // The electro-thermal fit reads the AC readings as a junction's
+    // rd = N·Vt/I: a PIN part's above its knee are the I-region's resistance.
+    if (!pin) try {
       apply_electrothermal(cfg, temp_k, fixture, points, out);
     } catch (const std::exception& e) {
       out.fit.warnings.push_back(std::string("electro-thermal fit not made: ") + e.what());
@@ -225,7 +279,13 @@ RunFit fit_run(const Config& cfg, double temp_k, const RunFixture& fixture, cons
     out.cap_report.reset();
     out.fit.warnings.push_back(std::string("junction capacitance not fitted: ") + e.what());
   }
-  if (out.fit.usable()) {
+  if (pin) {
+    try {
+      apply_pin(cfg, temp_k, fixture, points, out);
+    } catch (const std::exception& e) {
+      out.fit.warnings.push_back(std::string("PIN law not fitted: ") + e.what());
+    }
+  } else if (out.fit.usable()) {
     try {
       apply_stored_charge(cfg, temp_k, fixture, points, out);
     } catch (const std::exception& e) {
@@ -739,7 +799,7 @@ class JobRun {
   // not done is fitted when the resumed job reaches it. A failed fit is
   // stored with its reason; a StoreError goes up (the job pauses).
   void fit_and_finish(Id part_id, Id run_id, const RunFixture& fixture, double temp_k) {
-    const RunFit f = fit_run(cfg_, temp_k, fixture, store_.points(run_id));
+    const RunFit f = fit_run(cfg_, temp_k, fixture, store_.points(run_id), plan_.part_type);
     store_.finish_run_with_fit(part_id, run_id, f.fit, f.cap_report ? &*f.cap_report : nullptr, f.electrothermal ? &*f.electrothermal : nullptr, f.more_detail);
     log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " + describe_fit(f));
   }
@@ -1192,7 +1252,7 @@ void Executor::refit_runs_without_fit() {
     for (const auto& run : store_.runs_without_fit(std::nullopt, true)) {
       const auto job = store_.job(run.job_id);
       const double temp_k = std::isfinite(run.temp_k) ? run.temp_k : job ? job->plan.temp_k : 300.15;
-      const RunFit f = fit_run(config_, temp_k, run.fixture, store_.points(run.id));
+      const RunFit f = fit_run(config_, temp_k, run.fixture, store_.points(run.id), job ? job->plan.part_type : "junction");
       store_.finish_run_with_fit(run.part_id, run.id, f.fit, f.cap_report ? &*f.cap_report : nullptr, f.electrothermal ? &*f.electrothermal : nullptr, f.more_detail);
       log_("recovered: run " + std::to_string(run.id) + " of job " + std::to_string(run.job_id) +
            " was done without its fit; fitted now: " + describe_fit(f));

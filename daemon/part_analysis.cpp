@@ -157,6 +157,21 @@ fitting::Fixture ac_fixture(const RunFixture& f) {
   return fx;
 }
 
+std::optional<fitting::PinPart> pin_part_of_fit(const FitRecord& fit) {
+  const Json& pin = fit.detail.value("pin", Json());
+  if (!pin.is_object() || !pin.value("ok", false)) return std::nullopt;
+  const auto value = [](const Json& obj, const char* key) {
+    return obj.contains(key) && obj[key].is_object() && obj[key]["value"].is_number() ? obj[key]["value"].get<double>() : kNaN;
+  };
+  fitting::PinPart p;
+  p.law = {value(pin, "n"), value(pin, "tau_s"), value(pin, "r0_ohm"), value(pin, "k_ohm_a_x"), value(pin, "x")};
+  if (const Json& off = pin.value("off_state", Json()); off.is_object() && off.value("ok", false)) {
+    p.ct_f = value(off, "ct_f");
+    p.rp_ohm = value(off, "rp_ohm");
+  }
+  return p;
+}
+
 fitting::DesignPart design_part(const PartRow& part, const FitRecord& fit) {
   const fitting::FitResult& r = fit.fit;
   fitting::DesignPart p;
@@ -169,6 +184,7 @@ fitting::DesignPart design_part(const PartRow& part, const FitRecord& fit) {
     if (const double m = fit.m.value; m > 0) p.cap.m = m;
   }
   if (const double tt = fit.tt_s.value; tt >= 0) p.tt_s = tt;  // stored charge from multi-frequency AC readings
+  p.pin = pin_part_of_fit(fit);
   return p;
 }
 
@@ -205,7 +221,10 @@ Json transfer_report(const PartRow& part, const RunRecord& run, const FitRecord&
   const fitting::Fixture fx = ac_fixture(run.fixture);
   const fitting::AcPart ac_part{r.params(), options.cj_f};
   const std::vector<fitting::AcPoint> all = ac_points(points);
-  const auto left_out = fitting::screen_ac_readings(all, fx, {options.max_signal_ratio, options.ac_floor_v});
+  // A PIN part's readings are screened by the charge criterion with its fitted τ (fitting/pin_diode.hpp).
+  const auto pin = pin_part_of_fit(fit);
+  const auto left_out = pin ? fitting::screen_pin_ac_readings(all, fx, pin->law.tau_s, options.max_signal_ratio, options.ac_floor_v)
+                            : fitting::screen_ac_readings(all, fx, {options.max_signal_ratio, options.ac_floor_v});
   std::vector<fitting::AcPoint> used;
   Json rows = Json::array();
   double sum_sq = 0.0, worst = 0.0;
@@ -251,6 +270,12 @@ Json transfer_report(const PartRow& part, const RunRecord& run, const FitRecord&
   const auto rep = fitting::compare_dc_and_joint(dc, used, fx, jo);
   out["joint"] = fitting::joint_report_json(rep);
   out["joint"]["verdict"] = transfer_verdict(out["joint"], fit);
+  if (pin) {
+    // The junction's rd = N·Vt/I does not describe a PIN above its knee: a
+    // disagreement here is not self-heating.
+    out["joint"].erase("hint");
+    out["joint"]["verdict"] = "PIN part: the junction model does not describe AC readings above the lifetime's knee (part.fit pin holds the PIN law)";
+  }
   return out;
 }
 

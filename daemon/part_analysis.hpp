@@ -76,6 +76,9 @@ fitting::Fixture ac_fixture(const RunFixture& run_fixture);
 // The latest fit as the calculators take it ("WR-03 (lot WREN-0912, fit 7)"),
 // with its measured capacitance law when the fit has one.
 fitting::DesignPart design_part(const PartRow& part, const FitRecord& fit);
+// A PIN part's law and off state from its fit (detail.pin), nullopt when the
+// fit has none that succeeded.
+std::optional<fitting::PinPart> pin_part_of_fit(const FitRecord& fit);
 
 // The fit as lot statistics take it (its capacitance law when it has one).
 fitting::LotPart lot_part(const PartRow& part, const FitRecord& fit);

@@ -71,6 +71,13 @@ fitting::PartModel part_model(const PartRow& part, const FitRecord& fit) {
                   m.law.trs1_per_k != 0.0 ? ", TRS1 fitted" : "");
     m.notes.push_back(note);
   }
+  // A PIN part's law (detail.pin): in the model document; the level-1 card cannot hold it.
+  if ((m.pin = pin_part_of_fit(fit))) {
+    char note[240];
+    std::snprintf(note, sizeof note, "PIN part: R(I) = %.4g + %.4g*I^-%.4g ohm above 1/(2 pi tau), tau %.4g s (not in this card)",
+                  m.pin->law.r0_ohm, m.pin->law.k_ohm_a_x, m.pin->law.x, m.pin->law.tau_s);
+    m.notes.push_back(note);
+  }
   return m;
 }
 

@@ -183,7 +183,7 @@ const char* to_string(Step::Kind kind) {
 }
 
 Plan parse_plan(const Json& j) {
-  only_keys(j, "plan", {"lot", "parts", "sweep", "ac", "reverse_v", "heating", "resume", "temp_k", "vf_max_v", "temps_k", "soak"});
+  only_keys(j, "plan", {"lot", "parts", "sweep", "ac", "reverse_v", "heating", "resume", "temp_k", "vf_max_v", "temps_k", "soak", "part_type"});
   Plan p;
   p.lot = text(need(j, "lot", "plan"), "plan.lot");
   const Json& parts = need(j, "parts", "plan");
@@ -221,6 +221,10 @@ Plan parse_plan(const Json& j) {
     if (s.contains("hold_s")) p.soak.hold_s = number(s["hold_s"], "plan.soak.hold_s");
   }
   if (j.contains("vf_max_v")) p.vf_max_v = number(j["vf_max_v"], "plan.vf_max_v");
+  if (j.contains("part_type")) {
+    p.part_type = text(j["part_type"], "plan.part_type");
+    if (p.part_type != "junction" && p.part_type != "pin") bad("plan.part_type", "must be \"junction\" or \"pin\", not \"" + p.part_type + "\"");
+  }
   return p;
 }
 
@@ -498,7 +502,8 @@ Json to_json(const Plan& p) {
            {"average", p.sweep.average}}},
          {"reverse_v", p.reverse_v},
          {"resume", p.resume},
-         {"vf_max_v", p.vf_max_v}};
+         {"vf_max_v", p.vf_max_v},
+         {"part_type", p.part_type}};
   if (p.temps_k.empty()) {
     j["temp_k"] = p.temp_k;
   } else {

@@ -103,6 +103,10 @@ struct Plan {
   // Highest forward voltage assumed when bounding the power in the part
   // (conservative for silicon signal and PIN diodes; common practice, no source).
   double vf_max_v = 1.5;
+  // What the parts are: "junction" (a switching diode: the junction fits) or
+  // "pin" (a PIN diode: the PIN law and lifetime, fitting/pin_diode.hpp, and
+  // the charge criterion for large AC signals).
+  std::string part_type = "junction";
 };
 
 // One measurement of the expansion; a point's seq is its index here.

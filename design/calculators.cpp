@@ -87,6 +87,7 @@ class Run {
       if (has("eg_ev")) part_copy_.law.eg_ev = number("eg_ev");
       if (has("xti")) part_copy_.law.xti = number("xti");
       if (has("trs1_per_k")) part_copy_.law.trs1_per_k = number("trs1_per_k");
+      apply_pin_inputs();
       if (!(part_copy_.dc.is_a > 0 && part_copy_.dc.n > 0 && part_copy_.dc.rs_ohm >= 0))
         throw DesignInputError("part", "the part needs Is > 0, n > 0 and Rs >= 0");
       answer_["part"] = design_part_json(part_copy_);
@@ -111,6 +112,30 @@ class Run {
       }
       answer_["junction"]["tt_s"] = part_copy_.tt_s;
     }
+  }
+
+  // The PIN inputs make (or override) the part's PIN law; a part that is not
+  // a PIN part yet needs K and τ, the rest default (R0 0, x 1, N the part's).
+  void apply_pin_inputs() {
+    const char* keys[] = {"r0_ohm", "k_ohm_a_x", "x", "tau_s", "ct_f", "rp_ohm"};
+    bool any = false;
+    for (const char* k : keys) any = any || has(k);
+    if (!any) return;
+    if (!part_copy_.pin) {
+      for (const char* k : {"k_ohm_a_x", "tau_s"})
+        if (!has(k)) throw DesignInputError(k, std::string(k) + ": a PIN part needs k_ohm_a_x (--k) and tau_s (--tau)");
+      PinPart pin;
+      pin.law.n = part_copy_.dc.n;
+      pin.law.r0_ohm = 0.0;
+      part_copy_.pin = pin;
+    }
+    PinPart& p = *part_copy_.pin;
+    if (has("r0_ohm")) p.law.r0_ohm = number("r0_ohm");
+    if (has("k_ohm_a_x")) p.law.k_ohm_a_x = number("k_ohm_a_x");
+    if (has("x")) p.law.x = number("x");
+    if (has("tau_s")) p.law.tau_s = number("tau_s");
+    if (has("ct_f")) p.ct_f = number("ct_f");
+    if (has("rp_ohm")) p.rp_ohm = number("rp_ohm");
   }
 
   const DesignPart& part() const { return part_copy_; }
@@ -150,7 +175,7 @@ class Run {
   void assume_all() {
     for (const auto& s : calc_.inputs) assumed(s.key);
     if (!calc_.needs_part) return;
-    for (const char* key : {"temp_k", "eg_ev", "xti", "trs1_per_k", "tt_s"})
+    for (const char* key : {"temp_k", "eg_ev", "xti", "trs1_per_k", "tt_s", "r0_ohm", "k_ohm_a_x", "x", "tau_s", "ct_f", "rp_ohm"})
       if (has(key)) assumed(key);
   }
   void result(const std::string& key, const std::string& label, double value, const std::string& unit) {
@@ -235,9 +260,22 @@ void bias_r(Run& r) {
 
 Parasitics series_l(const Run& r) { return {r.number("ls_h"), 0.0}; }
 
+// A PIN part's biased loss: its law at the frequency (R_I above the knee, rd below).
+void pin_loss(Run& r, const PinPart& pin) {
+  const double f = r.number("freq_hz"), i = r.number("current_a");
+  const std::complex<double> z = pin_on_impedance(pin.law, i, f, r.part().temp_k) + std::complex<double>(0.0, 2.0 * std::numbers::pi * f * r.number("ls_h"));
+  const double db = switch_loss_db(r.kind(), z, r.number("rg_ohm"), r.number("rl_ohm"));
+  if (r.kind() == SwitchKind::series) r.result("loss_db", "insertion loss (biased series switch)", db, "dB");
+  else r.result("loss_db", "isolation (biased shunt switch)", db, "dB");
+  r.result("pin_rf_resistance_ohm", "PIN RF resistance R0 + K*I^-x", pin_rf_resistance_ohm(pin.law, i), "Ohm");
+  r.result("knee_freq_hz", "PIN lifetime knee 1/(2 pi tau)", pin_knee_freq_hz(pin.law.tau_s), "Hz");
+  if (f < 3.0 * pin_knee_freq_hz(pin.law.tau_s)) r.warn("below 3x the lifetime's knee the PIN part is partly a junction (rd = N*Vt/I)");
+}
+
 void loss(Run& r) {
   r.assume_all();
   const auto& p = r.part();
+  if (p.pin) return pin_loss(r, *p.pin);
   const double db = on_state_loss_db(r.kind(), p.dc, p.charge(), r.number("current_a"), r.number("rg_ohm"),
                                      r.number("rl_ohm"), r.number("freq_hz"), series_l(r), p.temp_k);
   if (r.kind() == SwitchKind::series) r.result("loss_db", "insertion loss (biased series switch)", db, "dB");
@@ -296,15 +334,45 @@ void harmonics(Run& r, const DistortionResult& d) {
     r.warn("the diode current reverses in the trough while stored charge keeps the junction on (not clipping)");
 }
 
+// A PIN part: the junction solve does not describe it above the knee. What
+// is reported is the charge criterion (docs/references.md §8): the signal's
+// charge per half cycle Î/(π f) against the stored I·τ; well below 1 the
+// I-region's resistance hardly moves over a cycle and distortion is small.
+void pin_distortion(Run& r, const PinPart& pin, const DistortionInput& in) {
+  const double i = in.bias_i_a, f = in.freq_hz;
+  const std::complex<double> z = pin_on_impedance(pin.law, i, f, in.temp_k);
+  const double signal_peak_a = in.source_peak_v / std::abs(in.rg_ohm + in.rl_ohm + z);  // series switch loop
+  const double ratio = signal_peak_a / (std::numbers::pi * f) / (i * pin.law.tau_s);
+  r.result("signal_peak_a", "signal current (peak)", signal_peak_a, "A");
+  r.result("stored_charge_c", "stored charge I*tau", i * pin.law.tau_s, "C");
+  r.result("rf_charge_ratio", "RF charge per half cycle / stored charge", ratio, "");
+  if (in.kind == SwitchKind::series) {
+    // The charge-control PIN in the series switch, time domain (pin_series_distortion).
+    const PinDistortion d = pin_series_distortion(pin.law, in.part.is_a, i, f, in.source_peak_v, in.rg_ohm, in.rl_ohm, in.temp_k);
+    r.result("load_peak_v", "load fundamental (peak)", d.load_peak_v, "V");
+    r.result("hd2_dbc", "HD2", d.hd2_dbc, "dBc");
+    r.result("hd3_dbc", "HD3", d.hd3_dbc, "dBc");
+    r.result("thd_pct", "THD", 100 * d.thd, "%");
+    if (!d.converged) r.warn("the PIN large-signal solve did not reach a periodic state");
+  } else {
+    r.warn("PIN part, shunt switch: harmonics are not computed; distortion is small while rf_charge_ratio is well below 1");
+  }
+  if (ratio > 0.1) r.warn("the RF charge per half cycle exceeds 0.1 of the stored charge: expect distortion; raise the bias");
+}
+
 void distortion(Run& r) {
   r.assume_all();
   auto in = distortion_input(r);
   in.bias_i_a = r.number("current_a");
+  if (r.part().pin) return pin_distortion(r, *r.part().pin, in);
   harmonics(r, solve_distortion(in));
 }
 
 void bias_for_thd(Run& r) {
   r.assume_all();
+  if (r.part().pin)
+    return r.not_achievable("PIN part: the junction's THD solve does not describe it above the lifetime's knee; "
+                            "use distortion for the charge criterion (stored charge I*tau against the RF charge per half cycle)");
   auto in = distortion_input(r);
   std::string why;
   const auto i = bias_for_thd_a(in, r.number("target_pct") / 100.0, &why);
@@ -316,6 +384,17 @@ void bias_for_thd(Run& r) {
 
 void isolation(Run& r) {
   const auto& p = r.part();
+  if (p.pin) {
+    if (!(p.pin->ct_f > 0)) throw DesignInputError("ct_f", "isolation of a PIN part needs its off-state CT: give ct_f (--ct), or a model that has it");
+    r.assume_all();
+    const double f = r.number("freq_hz");
+    const auto z = pin_off_impedance(p.pin->ct_f, p.pin->rp_ohm, f) + std::complex<double>(r.number("rr_ohm"), 2.0 * std::numbers::pi * f * r.number("ls_h"));
+    const double db = switch_loss_db(r.kind(), z, r.number("rg_ohm"), r.number("rl_ohm"));
+    r.result("ct_f", "PIN off-state CT", p.pin->ct_f, "F");
+    if (r.kind() == SwitchKind::series) r.result("isolation_db", "isolation (unbiased series switch)", db, "dB");
+    else r.result("isolation_db", "insertion loss (unbiased shunt switch)", db, "dB");
+    return;
+  }
   if (!(p.cap.cj0_f > 0))
     throw DesignInputError("cj0_f", "isolation needs the junction capacitance: give cj0_f (--cj), or a model that has it");
   r.assume_all();
@@ -534,7 +613,14 @@ const std::vector<DesignInputSpec>& design_part_inputs() {
       optional_input("temp_k", "temp", "K", "junction T", InputRange::positive),
       optional_input("eg_ev", "eg", "eV", "EG", InputRange::positive),
       optional_input("xti", "xti", "", "XTI", InputRange::any),
-      optional_input("trs1_per_k", "trs1", "", "TRS1 (1/K)", InputRange::any)};
+      optional_input("trs1_per_k", "trs1", "", "TRS1 (1/K)", InputRange::any),
+      // A PIN part's law (any of them makes the part a PIN part; k and tau are then needed).
+      optional_input("r0_ohm", "r0", "Ohm", "PIN R0", InputRange::non_negative),
+      optional_input("k_ohm_a_x", "k", "", "PIN K (Ohm*A^x)", InputRange::positive),
+      optional_input("x", "x", "", "PIN exponent x", InputRange::positive),
+      optional_input("tau_s", "tau", "s", "PIN lifetime tau", InputRange::positive),
+      optional_input("ct_f", "ct", "F", "PIN off CT", InputRange::positive),
+      optional_input("rp_ohm", "rp", "Ohm", "PIN off Rp", InputRange::positive)};
   return v;
 }
 
@@ -665,8 +751,42 @@ Json design_part_json(const DesignPart& p) {
     j["cj0_f"] = nullptr;
   }
   j["tt_s"] = p.tt_s;
+  if (p.pin)
+    j["pin"] = {{"n", p.pin->law.n},          {"tau_s", p.pin->law.tau_s}, {"r0_ohm", p.pin->law.r0_ohm}, {"k_ohm_a_x", p.pin->law.k_ohm_a_x},
+                {"x", p.pin->law.x},          {"ct_f", p.pin->ct_f},
+                {"rp_ohm", std::isfinite(p.pin->rp_ohm) ? Json(p.pin->rp_ohm) : Json(nullptr)}};
   return j;
 }
+
+namespace {
+// part.pin {n, tau_s, r0_ohm, k_ohm_a_x, x, ct_f, rp_ohm (null: none)}: tau_s and k_ohm_a_x required.
+PinPart pin_part_from_json(const Json& j) {
+  if (!j.is_object()) throw DesignInputError("part.pin", "part.pin: must be an object or null");
+  PinPart p;
+  const auto num = [&](const char* key, double& out, bool required) {
+    if (!j.contains(key) || j[key].is_null()) {
+      if (required) throw DesignInputError(std::string("part.pin.") + key, std::string("part.pin.") + key + ": missing (required)");
+      return;
+    }
+    if (!j[key].is_number() || !(j[key].get<double>() >= 0))
+      throw DesignInputError(std::string("part.pin.") + key, std::string("part.pin.") + key + ": must be a number >= 0");
+    out = j[key].get<double>();
+  };
+  for (const auto& [key, value] : j.items()) {
+    (void)value;
+    if (key != "n" && key != "tau_s" && key != "r0_ohm" && key != "k_ohm_a_x" && key != "x" && key != "ct_f" && key != "rp_ohm")
+      throw DesignInputError("part.pin." + key, "part.pin." + key + ": not a PIN parameter (n, tau_s, r0_ohm, k_ohm_a_x, x, ct_f, rp_ohm)");
+  }
+  num("tau_s", p.law.tau_s, true);
+  num("k_ohm_a_x", p.law.k_ohm_a_x, true);
+  num("n", p.law.n, false);
+  num("r0_ohm", p.law.r0_ohm, false);
+  num("x", p.law.x, false);
+  num("ct_f", p.ct_f, false);
+  num("rp_ohm", p.rp_ohm, false);
+  return p;
+}
+}  // namespace
 
 DesignPart design_part_from_json(const Json& j) {
   if (!j.is_object()) throw DesignInputError("part", std::string("part must be an object, not ") + j.type_name());
@@ -682,6 +802,7 @@ DesignPart design_part_from_json(const Json& j) {
       if (!value.is_string()) throw DesignInputError("part.label", "part.label: must be a string");
       continue;
     }
+    if (key == "pin") continue;  // read below
     const auto it = numbers.find(key);
     if (it == numbers.end())
       throw DesignInputError("part." + key, "part." + key +
@@ -710,6 +831,7 @@ DesignPart design_part_from_json(const Json& j) {
   if (j.contains("xti")) p.law.xti = j["xti"].get<double>();
   if (j.contains("trs1_per_k")) p.law.trs1_per_k = j["trs1_per_k"].get<double>();
   if (j.contains("trs2_per_k2")) p.law.trs2_per_k2 = j["trs2_per_k2"].get<double>();
+  if (j.contains("pin") && !j["pin"].is_null()) p.pin = pin_part_from_json(j["pin"]);
   return p;
 }
 

@@ -16,6 +16,7 @@
 
 #include "fitting/diode.hpp"
 #include "design/switch.hpp"
+#include "fitting/pin_diode.hpp"
 #include "fitting/temperature.hpp"
 
 #include <nlohmann/json.hpp>
@@ -40,6 +41,9 @@ struct DesignPart {
   JunctionCap cap;  // cj0_f = 0: unknown
   double tt_s = 0.0;  // transit time TT (diffusion charge TT·Id); 0 = none or unknown
   JunctionCharge charge() const { return {cap, tt_s}; }
+  // A PIN part: loss uses its law Z(ω) = R0 + rd/(1 + jωτ) + R_I·jωτ/(1 + jωτ)
+  // and isolation CT ∥ Rp (fitting/pin_diode.hpp) in place of rd, Cj(V), TT.
+  std::optional<PinPart> pin;
 };
 
 enum class InputRange { any, positive, non_negative };

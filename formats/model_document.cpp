@@ -72,6 +72,13 @@ std::string model_document_json(const PartModel& p) {
            {"model", model},
            {"temperature_law",
             {{"eg_ev", p.law.eg_ev}, {"xti", p.law.xti}, {"trs1_per_k", p.law.trs1_per_k}, {"trs2_per_k2", p.law.trs2_per_k2}}}};
+  if (p.pin) {
+    doc["part_type"] = "pin";
+    doc["pin"] = {{"n", p.pin->law.n}, {"tau_s", p.pin->law.tau_s}, {"r0_ohm", p.pin->law.r0_ohm},
+                  {"k_ohm_a_x", p.pin->law.k_ohm_a_x}, {"x", p.pin->law.x}};
+    if (p.pin->ct_f > 0) doc["pin"]["ct_f"] = p.pin->ct_f;
+    if (std::isfinite(p.pin->rp_ohm)) doc["pin"]["rp_ohm"] = p.pin->rp_ohm;
+  }
   if (std::isfinite(p.rms_residual)) doc["fit"] = {{"rms_residual", p.rms_residual}, {"points_used", p.points_used}};
   return doc.dump(2) + "\n";
 }
@@ -117,6 +124,19 @@ std::optional<PartModel> parse_model_document(const std::string& text, std::stri
       if (law.contains("trs1_per_k")) p.law.trs1_per_k = number_at(law, "trs1_per_k", "temperature_law");
       if (law.contains("trs2_per_k2")) p.law.trs2_per_k2 = number_at(law, "trs2_per_k2", "temperature_law");
       if (!(p.law.eg_ev > 0.0)) throw Bad("temperature_law.eg_ev must be positive (eV)");
+    }
+    if (doc.contains("pin") && doc.at("pin").is_object()) {
+      const Json& pin = doc.at("pin");
+      PinPart pp;
+      pp.law.tau_s = number_at(pin, "tau_s", "pin");
+      pp.law.k_ohm_a_x = number_at(pin, "k_ohm_a_x", "pin");
+      if (pin.contains("n")) pp.law.n = number_at(pin, "n", "pin");
+      if (pin.contains("r0_ohm")) pp.law.r0_ohm = number_at(pin, "r0_ohm", "pin");
+      if (pin.contains("x")) pp.law.x = number_at(pin, "x", "pin");
+      if (pin.contains("ct_f")) pp.ct_f = number_at(pin, "ct_f", "pin");
+      if (pin.contains("rp_ohm")) pp.rp_ohm = number_at(pin, "rp_ohm", "pin");
+      if (!(pp.law.tau_s > 0.0) || !(pp.law.k_ohm_a_x > 0.0)) throw Bad("pin.tau_s and pin.k_ohm_a_x must be positive");
+      p.pin = pp;
     }
     if (doc.contains("fit") && doc.at("fit").is_object()) {
       const Json& fit = doc.at("fit");

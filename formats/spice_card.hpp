@@ -10,9 +10,11 @@
 #pragma once
 
 #include "fitting/diode.hpp"
+#include "fitting/pin_diode.hpp"
 #include "fitting/temperature.hpp"
 
 #include <limits>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -35,6 +37,7 @@ struct PartModel {
   double tt_se_s = std::numeric_limits<double>::quiet_NaN();  // its standard error, when fitted
   double rms_residual = std::numeric_limits<double>::quiet_NaN();  // of the fit, as the fit reports it
   std::size_t points_used = 0;
+  std::optional<PinPart> pin;  // a PIN part's law and off state (not expressible in the level-1 card)
   std::vector<std::string> notes;  // extra comment lines for the card (e.g. what a lot nominal is made of)
 };
 

@@ -159,6 +159,7 @@ DesignPart local_part(const Request& r) {
     if (std::isfinite(m->vj_v)) p.cap.vj_v = m->vj_v;
     if (std::isfinite(m->m)) p.cap.m = m->m;
     if (std::isfinite(m->tt_s)) p.tt_s = m->tt_s;
+    p.pin = m->pin;
     return p;
   }
   for (const char* key : {"is", "n", "rs"})

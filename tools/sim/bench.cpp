@@ -18,6 +18,7 @@ Bench::Bench(SimConfig config)
     if (o.n) p.n = *o.n;
     if (o.rs_ohm) p.rs_ohm = *o.rs_ohm;
     if (o.cj0_f) p.cj0_f = *o.cj0_f;
+    if (o.pin) p.pin = *o.pin;
   }
   for (int s : config_.empty_slots)
     if (s >= 1 && s <= config_.slots) lot_[static_cast<size_t>(s - 1)].fitted = false;
@@ -227,6 +228,15 @@ nlohmann::json Bench::lot_json() const {
       p["vj_v"] = s.part.vj_v;
       p["m"] = s.part.m;
       p["tt_s"] = s.part.tt_s;
+      p["type"] = s.part.pin ? "pin" : "junction";
+      if (s.part.pin) {
+        // The ideal I-region's law R = K/I: K = W²/((µn + µp)·τ), x = 1, R0 = RS.
+        p["i_region_width_m"] = s.part.i_region_width_m;
+        p["mobility_sum_m2_per_v_s"] = s.part.mobility_sum_m2_per_v_s;
+        p["k_ohm_a_x"] = s.part.tt_s > 0 ? s.part.i_region_width_m * s.part.i_region_width_m /
+                                               (s.part.mobility_sum_m2_per_v_s * s.part.tt_s)
+                                         : 0.0;
+      }
       p["eg_ev"] = s.part.eg_ev;
       p["xti"] = s.part.xti;
       p["trs1_per_k"] = s.part.trs1_per_k;

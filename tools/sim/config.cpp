@@ -65,6 +65,14 @@ void apply_part(PartParams& p, const json& j, const std::string& where) {
     else if (k == "xti") p.xti = v.get<double>();
     else if (k == "trs1_per_k") p.trs1_per_k = v.get<double>();
     else if (k == "trs2_per_k2") p.trs2_per_k2 = v.get<double>();
+    else if (k == "type") {
+      const std::string t = v.is_string() ? v.get<std::string>() : "";
+      if (t != "junction" && t != "pin") throw std::invalid_argument("config: " + key + " must be \"junction\" or \"pin\"");
+      p.pin = t == "pin";
+    }
+    else if (k == "i_region_width_m") p.i_region_width_m = positive(v, key);
+    else if (k == "mobility_sum_m2_per_v_s") p.mobility_sum_m2_per_v_s = positive(v, key);
+    else if (k == "pin_r_max_ohm") p.pin_r_max_ohm = positive(v, key);
     else return false;
     return true;
   });
@@ -148,6 +156,11 @@ void apply_config_json(SimConfig& cfg, const std::string& json_text) {
             else if (f == "n") out.n = positive(fv, "outliers[].n");
             else if (f == "rs_ohm") out.rs_ohm = non_negative(fv, "outliers[].rs_ohm");
             else if (f == "cj0_f") out.cj0_f = non_negative(fv, "outliers[].cj0_f");
+            else if (f == "type") {
+              const std::string t = fv.is_string() ? fv.get<std::string>() : "";
+              if (t != "junction" && t != "pin") throw std::invalid_argument("config: outliers[].type must be \"junction\" or \"pin\"");
+              out.pin = t == "pin";
+            }
             else return false;
             return true;
           });
@@ -239,9 +252,14 @@ std::string help_reference() {
   nominal.{is_a [2.5e-9], n [1.85], rs_ohm [0.7], cj0_f [2e-12], vj_v [0.65],
            m [0.4], fc [0.5], tt_s [0], eg_ev [1.11], xti [3],
            trs1_per_k [0], trs2_per_k2 [0]}
+  nominal.type ["junction"]     "pin": a PIN part; tt_s is then its carrier
+                                lifetime tau and the I-region adds
+                                R_I = W^2/((mun + mup)*Q), Q = tau*Id:
+  nominal.{i_region_width_m [30e-6], mobility_sum_m2_per_v_s [0.183],
+           pin_r_max_ohm [1e4]}  (W, mun + mup, the cap of R_I)
   spread.{is_ln_sigma [0.25], n_sigma [0.02], rs_rel_sigma [0.08],
           cj0_rel_sigma [0.08]}
-  outliers [[]]                 e.g. [{"slot":3,"rs_ohm":4.0}] (is_a, n, rs_ohm, cj0_f)
+  outliers [[]]                 e.g. [{"slot":3,"rs_ohm":4.0}] (is_a, n, rs_ohm, cj0_f, type)
   empty_slots [[]]              slots with no part (open circuit)
   source.{v_min_v [-30], v_max_v [30], i_limit_min_a [1e-4], i_limit_max_a [0.5]}
   families.{ROLE: NAME}

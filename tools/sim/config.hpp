@@ -26,6 +26,7 @@ struct FaultSpec {
 struct Outlier {
   int slot = 0;
   std::optional<double> is_a, n, rs_ohm, cj0_f;
+  std::optional<bool> pin;  // "type": "pin" or "junction" for this slot
 };
 
 struct SourceLimits {

@@ -17,11 +17,22 @@ DcPoint solve_dc(const FixtureConfig& fx, const PartParams* part, const BiasSett
   const double r_dc = fx.rb_ohm + (fx.return_kind == ReturnKind::resistor ? fx.return_ohm : 0.0);
   const auto loop = dc_params(*part, temp_k, r_dc);
   double i = fitting::diode_current_a(loop, bias.voltage_v, temp_k);
+  if (part->pin && i > 0.0) {
+    // The I-region's drop i·R_I(τ·i) only lowers the current: bisect on
+    // [0, the junction's current] (the drop is nondecreasing in i).
+    double lo = 0.0, hi = i;
+    for (int it = 0; it < 200 && hi - lo > 1e-15 * hi; ++it) {
+      const double mid = 0.5 * (lo + hi);
+      const double v = fitting::diode_voltage_v(loop, mid, temp_k) + i_region_drop_v(*part, mid);
+      (v < bias.voltage_v ? lo : hi) = mid;
+    }
+    i = 0.5 * (lo + hi);
+  }
   if (i > bias.current_limit_a) {
     // Compliance: the supply regulates current and its voltage folds back.
     i = bias.current_limit_a;
     dc.current_limited = true;
-    dc.v_part_v = fitting::diode_voltage_v(dc_params(*part, temp_k), i, temp_k);
+    dc.v_part_v = fitting::diode_voltage_v(dc_params(*part, temp_k), i, temp_k) + i_region_drop_v(*part, i);
     dc.supply_v = dc.v_part_v + i * r_dc;
   } else {
     dc.v_part_v = bias.voltage_v - i * r_dc;
@@ -44,6 +55,7 @@ constexpr double gmin_s = 1e-12;  // conductance across the junction, as SPICE a
 struct Junction {
   struct At {
     double i_a, g_s, q_c, c_f;
+    double r_i_ohm = 0.0, dr_i_dv = 0.0;  // a PIN part's I-region resistance at the stored charge τ·Id, and its slope
   };
   Junction(const PartParams& part, double is, double n_vt) : p(part), depletion(part), is_a(is), nvt(n_vt) {}
   PartParams p;
@@ -59,6 +71,11 @@ struct Junction {
     const auto d = depletion.at(v);
     r.q_c = d.q_c + p.tt_s * r.i_a;
     r.c_f = d.c_f + p.tt_s * r.g_s;
+    if (p.pin && v > 0.0) {
+      r.r_i_ohm = i_region_resistance_ohm(p, p.tt_s * r.i_a);
+      // R_I ∝ 1/Id where not capped: dR_I/dv = −R_I·g/Id.
+      if (r.r_i_ohm > 0.0 && r.r_i_ohm < p.pin_r_max_ohm) r.dr_i_dv = -r.r_i_ohm * r.g_s / r.i_a;
+    }
     return r;
   }
   double charge(double v) const { return at(v).q_c; }
@@ -145,7 +162,7 @@ class PeriodSolver {
       periodic_junction(n, h, rth, [&](int step) { return (emf(step) / fx_.rg_ohm + ja_const) * ra - vk0; });
       for (int s = 0; s < n; ++s) {
         const double vth = (emf(s) / fx_.rg_ohm + ja_const) * ra - vk0;
-        record(s, emf(s), (vth - vj_[s]) / rth);
+        record(s, emf(s), (vth - vj_[s]) / (rth + junction_.at(vj_[s]).r_i_ohm));
       }
     }
     std::vector<double> r;
@@ -191,15 +208,17 @@ class PeriodSolver {
     start_v = v_prev;
   }
 
-  // Solves (vth − v)/rth − Id(v) − (a·q(v) − b)/h = 0; f is strictly
-  // decreasing in v, so a bracket plus safeguarded Newton always converges.
+  // Solves (vth − v)/(rth + R_I(v)) − Id(v) − (a·q(v) − b)/h = 0. Without
+  // an I-region (R_I = 0) f is strictly decreasing in v; with one it is
+  // continuous, negative above vth and positive far below, so the bracket
+  // plus safeguarded Newton still converges to a root.
   double solve_step(double vth, double rth, double a, double b, double h, double guess) const {
     auto f = [&](double v) {
       const auto j = junction_.at(v);
-      return (vth - v) / rth - j.i_a - (a * j.q_c - b) / h;
+      return (vth - v) / (rth + j.r_i_ohm) - j.i_a - (a * j.q_c - b) / h;
     };
     const auto j0 = junction_.at(guess);
-    const double f0 = (vth - guess) / rth - j0.i_a - (a * j0.q_c - b) / h;
+    const double f0 = (vth - guess) / (rth + j0.r_i_ohm) - j0.i_a - (a * j0.q_c - b) / h;
     if (f0 == 0.0) return guess;
     double lo = guess, hi = guess;
     double step = 0.05;
@@ -211,8 +230,9 @@ class PeriodSolver {
     double v = f0 > 0 ? lo : hi;
     for (int it = 0; it < 200; ++it) {
       const auto j = v == guess ? j0 : junction_.at(v);  // the first iterate is the guess
-      const double fv = (vth - v) / rth - j.i_a - (a * j.q_c - b) / h;
-      const double dfv = -1.0 / rth - j.g_s - a * j.c_f / h;
+      const double r = rth + j.r_i_ohm;
+      const double fv = (vth - v) / r - j.i_a - (a * j.q_c - b) / h;
+      const double dfv = (-r - (vth - v) * j.dr_i_dv) / (r * r) - j.g_s - a * j.c_f / h;
       if (fv > 0) lo = v; else hi = v;
       double next = v - fv / dfv;
       // Bisect only when Newton leaves the bracket. An iterate that has
@@ -282,7 +302,7 @@ AcResult solve_ac(const FixtureConfig& fx, const PartParams* part, const BiasSet
   std::vector<double> x{-va_dc, vk_dc};
   if (solver.unknowns().bias_current_unknown) x.push_back(res.dc.i_a);
   if (solver.unknowns().return_current_unknown) x.push_back(res.dc.i_a);
-  solver.start_v = part ? res.dc.v_part_v - res.dc.i_a * part->rs_ohm : 0.0;
+  solver.start_v = part ? res.dc.v_part_v - res.dc.i_a * part->rs_ohm - i_region_drop_v(*part, res.dc.i_a) : 0.0;
 
   PeriodSolution sol;
   std::vector<double> r = solver.residuals(x, sol);

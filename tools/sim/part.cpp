@@ -47,6 +47,13 @@ double junction_capacitance_f(const PartParams& p, double v, double diode_conduc
   return DepletionLaw(p).at(v).c_f + p.tt_s * diode_conductance_s;
 }
 
+double i_region_resistance_ohm(const PartParams& p, double q_c) {
+  if (!p.pin || !(q_c > 0.0)) return 0.0;
+  return std::min(p.i_region_width_m * p.i_region_width_m / (p.mobility_sum_m2_per_v_s * q_c), p.pin_r_max_ohm);
+}
+
+double i_region_drop_v(const PartParams& p, double i_a) { return i_a * i_region_resistance_ohm(p, p.tt_s * i_a); }
+
 std::vector<Slot> draw_lot(const PartParams& nominal, const LotSpread& spread, int slots, std::uint64_t seed) {
   // A fixed engine and hand-written normal draws (Box–Muller) so the lot is
   // the same on every standard library for the same seed.

@@ -26,6 +26,16 @@ struct PartParams {
   double trs1_per_k = 0.0;   // TRS1: RS(T) = RS·(1 + TRS1·ΔT + TRS2·ΔT²)
   double trs2_per_k2 = 0.0;  // TRS2
   double tnom_k = 300.15;
+  // A PIN part (type "pin"): the junction above, with tt_s its carrier
+  // lifetime τ, in series with an intrinsic region of width W whose
+  // resistance is set by the stored charge Q = τ·Id (charge control:
+  // dQ/dt = i − Q/τ): R_I = W²/((µn + µp)·Q), capped at pin_r_max_ohm where
+  // hardly any charge is stored; reverse biased the region is depleted
+  // (its capacitance is the depletion law's CJO) and R_I = 0.
+  bool pin = false;
+  double i_region_width_m = 30e-6;
+  double mobility_sum_m2_per_v_s = 0.183;  // silicon µn + µp at 300 K (1350 + 480 cm²/Vs)
+  double pin_r_max_ohm = 1e4;
 
   // The part's temperature coefficients in the one home of the SPICE law.
   fitting::TemperatureLaw law() const { return {eg_ev, xti, trs1_per_k, trs2_per_k2}; }
@@ -73,6 +83,12 @@ struct Slot {
   bool fitted = true;    // false: empty slot (open circuit)
   PartParams part;
 };
+
+// The I-region's resistance at stored charge q_c (0 for a junction part or
+// a charge ≤ 0); the PIN fields above.
+double i_region_resistance_ohm(const PartParams& p, double q_c);
+// The I-region's DC drop at diode current i_a: i·R_I(τ·i).
+double i_region_drop_v(const PartParams& p, double i_a);
 
 std::vector<Slot> draw_lot(const PartParams& nominal, const LotSpread& spread, int slots, std::uint64_t seed);
 

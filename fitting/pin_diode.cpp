@@ -1,0 +1,381 @@
+#include "fitting/pin_diode.hpp"
+
+#include "fitting/joint_fit.hpp"
+#include "fitting/diode.hpp"
+
+#include <Eigen/Dense>
+
+#include <algorithm>
+#include <cmath>
+#include <functional>
+#include <limits>
+#include <numbers>
+#include <set>
+
+namespace junco::fitting {
+
+namespace {
+
+constexpr double nan = std::numeric_limits<double>::quiet_NaN();
+constexpr double i_ref_a = 1e-3;  // the law's reference current (R0 + K·I_ref^−x is fitted, not K)
+
+using Residuals = std::function<Eigen::VectorXd(const Eigen::VectorXd&)>;
+using Project = std::function<void(Eigen::VectorXd&)>;
+
+struct LmResult {
+  Eigen::VectorXd x;
+  Eigen::MatrixXd jac;
+  double cost = 0.0;
+  bool converged = false;
+};
+
+Eigen::MatrixXd forward_jacobian(const Residuals& f, const Eigen::VectorXd& x, const Eigen::VectorXd& r0) {
+  Eigen::MatrixXd j(r0.size(), x.size());
+  for (Eigen::Index c = 0; c < x.size(); ++c) {
+    Eigen::VectorXd xp = x;
+    const double h = 1e-6 * std::max(std::abs(x[c]), 1e-3);
+    xp[c] += h;
+    j.col(c) = (f(xp) - r0) / h;
+  }
+  return j;
+}
+
+// Levenberg–Marquardt with projection onto the bounds (the same scheme as
+// ac_charge_fit.cpp; the residuals are already whitened).
+LmResult levenberg_marquardt(const Residuals& f, Eigen::VectorXd x, const Project& project, int max_iterations) {
+  Eigen::VectorXd r = f(x);
+  double cost = r.squaredNorm(), lambda = 1e-3;
+  Eigen::MatrixXd jac = forward_jacobian(f, x, r);
+  bool converged = false;
+  for (int it = 0; it < max_iterations && !converged; ++it) {
+    const Eigen::MatrixXd jtj = jac.transpose() * jac;
+    const Eigen::VectorXd jtr = jac.transpose() * r;
+    bool stepped = false;
+    for (int tries = 0; tries < 20 && !stepped; ++tries) {
+      Eigen::MatrixXd a = jtj;
+      a.diagonal() += lambda * jtj.diagonal().cwiseMax(1e-12);
+      Eigen::VectorXd next = x + a.ldlt().solve(-jtr);
+      project(next);
+      const Eigen::VectorXd rn = f(next);
+      const double cn = rn.squaredNorm();
+      if (std::isfinite(cn) && cn <= cost) {
+        converged = (cost - cn) <= 1e-12 * std::max(cost, 1e-300) + 1e-20 || (next - x).norm() <= 1e-12 * (1.0 + x.norm());
+        x = next;
+        r = rn;
+        cost = cn;
+        jac = forward_jacobian(f, x, r);
+        lambda = std::max(lambda / 3.0, 1e-12);
+        stepped = true;
+      } else {
+        lambda *= 4.0;
+      }
+    }
+    if (!stepped) converged = true;  // no step lowers the cost: at the minimum within round-off
+  }
+  return {x, jac, cost, converged};
+}
+
+// (JᵀJ)⁻¹ scaled by max(1, reduced χ²).
+Eigen::MatrixXd scaled_covariance(const Eigen::MatrixXd& jac, double reduced_chi2) {
+  const Eigen::MatrixXd jtj = jac.transpose() * jac;
+  Eigen::MatrixXd cov = jtj.ldlt().solve(Eigen::MatrixXd::Identity(jtj.rows(), jtj.cols()));
+  return cov * std::max(1.0, reduced_chi2);
+}
+
+double se_of(const Eigen::MatrixXd& cov, Eigen::Index k) {
+  const double v = cov(k, k);
+  return std::isfinite(v) && v >= 0.0 ? std::sqrt(v) : nan;
+}
+
+double measured_db(const AcPoint& p) { return 20.0 * std::log10(p.vout / p.vin); }
+
+// Fit parameters → the law. p = (N, ln τ, R0, ln(R(1 mA) − R0), x).
+PinLaw law_of(const Eigen::VectorXd& p) {
+  PinLaw law;
+  law.n = p[0];
+  law.tau_s = std::exp(p[1]);
+  law.r0_ohm = p[2];
+  law.x = p[4];
+  law.k_ohm_a_x = std::exp(p[3]) * std::pow(i_ref_a, p[4]);
+  return law;
+}
+
+nlohmann::json est_json(const Estimate& e) {
+  return {{"value", std::isfinite(e.value) ? nlohmann::json(e.value) : nlohmann::json(nullptr)},
+          {"std_error", std::isfinite(e.std_error) ? nlohmann::json(e.std_error) : nlohmann::json(nullptr)}};
+}
+
+}  // namespace
+
+double pin_rf_resistance_ohm(const PinLaw& law, double i_a) { return law.r0_ohm + law.k_ohm_a_x * std::pow(i_a, -law.x); }
+
+double pin_knee_freq_hz(double tau_s) { return 1.0 / (2.0 * std::numbers::pi * tau_s); }
+
+std::complex<double> pin_on_impedance(const PinLaw& law, double i_a, double freq_hz, double temp_k) {
+  const double rd = law.n * thermal_voltage_v(temp_k) / i_a;
+  const double r_i = law.k_ohm_a_x * std::pow(i_a, -law.x);
+  const std::complex<double> jwt(0.0, 2.0 * std::numbers::pi * freq_hz * law.tau_s);
+  return law.r0_ohm + rd / (1.0 + jwt) + r_i * jwt / (1.0 + jwt);
+}
+
+std::complex<double> pin_off_impedance(double ct_f, double rp_ohm, double freq_hz) {
+  const std::complex<double> y(1.0 / rp_ohm, 2.0 * std::numbers::pi * freq_hz * ct_f);
+  return 1.0 / y;
+}
+
+double pin_ideal_k_ohm_a(double width_m, double mobility_sum_m2_per_v_s, double tau_s) {
+  return width_m * width_m / (mobility_sum_m2_per_v_s * tau_s);
+}
+
+PinFit fit_pin_law(std::span<const AcPoint> ac_in, const Fixture& fixture, const PinFitOptions& o) {
+  PinFit f;
+  std::vector<AcPoint> ac;
+  std::set<double> freqs;
+  for (const auto& p : ac_in)
+    if (p.vin > 0.0 && p.vout > 0.0 && p.bias_i_a > 0.0 && p.freq_hz > 0.0) {
+      ac.push_back(p);
+      freqs.insert(p.freq_hz);
+    }
+  f.points = ac.size();
+  f.frequencies = freqs.size();
+  constexpr Eigen::Index np = 5;
+  if (freqs.size() < 2) {
+    f.message = "need AC readings at 2 or more frequencies to find the lifetime's knee";
+    return f;
+  }
+  if (ac.size() <= static_cast<std::size_t>(np)) {
+    f.message = "need more AC readings than the 5 parameters (N, tau, R0, K, x)";
+    return f;
+  }
+  const Residuals residuals = [&](const Eigen::VectorXd& p) {
+    const PinLaw law = law_of(p);
+    Eigen::VectorXd r(static_cast<Eigen::Index>(ac.size()));
+    for (std::size_t k = 0; k < ac.size(); ++k) {
+      const double model = to_db(fixture_gain(fixture, pin_on_impedance(law, ac[k].bias_i_a, ac[k].freq_hz, o.temp_k)));
+      r[static_cast<Eigen::Index>(k)] = (measured_db(ac[k]) - model) / o.ac_sigma_db;
+    }
+    return r;
+  };
+  const Project project = [](Eigen::VectorXd& p) {
+    p[0] = std::clamp(p[0], 0.3, 10.0);
+    p[1] = std::clamp(p[1], std::log(1e-12), std::log(1e-1));
+    p[2] = std::clamp(p[2], 0.0, 1e4);
+    p[3] = std::clamp(p[3], std::log(1e-6), std::log(1e7));
+    p[4] = std::clamp(p[4], 0.1, 3.0);
+  };
+
+  // Start: the series resistance each reading implies (dynamic-resistance
+  // method, design_joint_fit.hpp) at the highest frequency gives R0 (a fraction
+  // of the smallest) and R(1 mA); τ from a log grid with N = 2, x = 1.
+  const double fmax = *freqs.rbegin();
+  const double z = cathode_load_ohm(fixture);
+  double r_min = std::numeric_limits<double>::infinity(), r_near_1ma = nan, best_dist = std::numeric_limits<double>::infinity();
+  for (const auto& p : ac) {
+    if (p.freq_hz != fmax) continue;
+    const double r = z * (p.vin / p.vout - 1.0);  // the fixture's series R at Rg ≈ 0 (a start, not a model)
+    if (!(r > 0.0)) continue;
+    r_min = std::min(r_min, r);
+    const double d = std::abs(std::log(p.bias_i_a / i_ref_a));
+    if (d < best_dist) best_dist = d, r_near_1ma = r * std::pow(p.bias_i_a / i_ref_a, 1.0);
+  }
+  Eigen::VectorXd p(np);
+  p[0] = 2.0;
+  p[2] = std::isfinite(r_min) ? 0.5 * r_min : 1.0;
+  p[3] = std::log(std::isfinite(r_near_1ma) && r_near_1ma > p[2] ? r_near_1ma - p[2] : 10.0);
+  p[4] = 1.0;
+  double best_cost = std::numeric_limits<double>::infinity(), best_ln_tau = std::log(1e-6);
+  for (double tau = 1e-9; tau <= 1e-3; tau *= std::sqrt(10.0)) {
+    p[1] = std::log(tau);
+    const double c = residuals(p).squaredNorm();
+    if (c < best_cost) best_cost = c, best_ln_tau = p[1];
+  }
+  p[1] = best_ln_tau;
+
+  const LmResult lm = levenberg_marquardt(residuals, p, project, o.max_iterations);
+  if (!std::isfinite(lm.cost)) {
+    f.message = "the PIN fit did not find finite residuals";
+    return f;
+  }
+  const double dof = static_cast<double>(ac.size() - np);
+  f.reduced_chi2 = lm.cost / dof;
+  const Eigen::MatrixXd cov_p = scaled_covariance(lm.jac, f.reduced_chi2);
+  // To the reported SI parameters (n, τ, R0, K, x): J = ∂(SI)/∂p.
+  const PinLaw law = law_of(lm.x);
+  Eigen::MatrixXd t = Eigen::MatrixXd::Zero(np, np);
+  t(0, 0) = 1.0;
+  t(1, 1) = law.tau_s;
+  t(2, 2) = 1.0;
+  t(3, 3) = law.k_ohm_a_x;                        // ∂K/∂ln(R1m − R0)
+  t(3, 4) = law.k_ohm_a_x * std::log(i_ref_a);    // ∂K/∂x at fixed R(1 mA)
+  t(4, 4) = 1.0;
+  const Eigen::MatrixXd cov = t * cov_p * t.transpose();
+  f.n = {law.n, se_of(cov, 0)};
+  f.tau_s = {law.tau_s, se_of(cov, 1)};
+  f.r0_ohm = {law.r0_ohm, se_of(cov, 2)};
+  f.k_ohm_a_x = {law.k_ohm_a_x, se_of(cov, 3)};
+  f.x = {law.x, se_of(cov, 4)};
+  // R(1 mA) = R0 + e^{p3}: var = var(R0) + e^{2 p3} var(p3) + 2 e^{p3} cov(R0, p3).
+  const double e3 = std::exp(lm.x[3]);
+  const double v1 = cov_p(2, 2) + e3 * e3 * cov_p(3, 3) + 2.0 * e3 * cov_p(2, 3);
+  f.r_1ma_ohm = {law.r0_ohm + e3, v1 >= 0.0 ? std::sqrt(v1) : nan};
+  f.parameter_names = {"n", "tau_s", "r0_ohm", "k_ohm_a_x", "x"};
+  f.covariance.assign(np, std::vector<double>(np, 0.0));
+  for (Eigen::Index a = 0; a < np; ++a)
+    for (Eigen::Index b = 0; b < np; ++b) f.covariance[a][b] = cov(a, b);
+  f.knee_freq_hz = pin_knee_freq_hz(law.tau_s);
+  for (const auto& q : ac)
+    if (q.freq_hz >= 3.0 * f.knee_freq_hz) ++f.above_knee;
+  f.ok = true;
+  f.message = lm.converged ? "converged" : "stopped at the iteration limit";
+  if (f.above_knee == 0) f.message += "; no reading is above 3x the knee: R0, K and x rest on the knee alone";
+  return f;
+}
+
+nlohmann::json pin_fit_json(const PinFit& f) {
+  return {{"ok", f.ok},
+          {"message", f.message},
+          {"n", est_json(f.n)},
+          {"tau_s", est_json(f.tau_s)},
+          {"r0_ohm", est_json(f.r0_ohm)},
+          {"k_ohm_a_x", est_json(f.k_ohm_a_x)},
+          {"x", est_json(f.x)},
+          {"r_1ma_ohm", est_json(f.r_1ma_ohm)},
+          {"knee_freq_hz", f.knee_freq_hz},
+          {"parameter_names", f.parameter_names},
+          {"covariance", f.covariance},
+          {"reduced_chi2", f.reduced_chi2},
+          {"points", f.points},
+          {"frequencies", f.frequencies},
+          {"above_knee", f.above_knee}};
+}
+
+PinOffFit fit_pin_off_state(std::span<const OffStatePoint> off_in, const Fixture& fixture, double sigma_db) {
+  PinOffFit f;
+  std::vector<OffStatePoint> off;
+  for (const auto& p : off_in)
+    if (p.vin > 0.0 && p.vout > 0.0 && p.freq_hz > 0.0) off.push_back(p);
+  f.points = off.size();
+  if (off.size() < 3) {
+    f.message = "need 3 or more off-state readings for CT and Rp";
+    return f;
+  }
+  // p = (ln CT [F], ln Rp [Ω])
+  const Residuals residuals = [&](const Eigen::VectorXd& p) {
+    Eigen::VectorXd r(static_cast<Eigen::Index>(off.size()));
+    for (std::size_t k = 0; k < off.size(); ++k) {
+      const double model = to_db(fixture_gain(fixture, pin_off_impedance(std::exp(p[0]), std::exp(p[1]), off[k].freq_hz)));
+      r[static_cast<Eigen::Index>(k)] = (20.0 * std::log10(off[k].vout / off[k].vin) - model) / sigma_db;
+    }
+    return r;
+  };
+  const Project project = [](Eigen::VectorXd& p) {
+    p[0] = std::clamp(p[0], std::log(1e-16), std::log(1e-8));
+    p[1] = std::clamp(p[1], std::log(1.0), std::log(1e12));
+  };
+  Eigen::VectorXd p(2);
+  double best = std::numeric_limits<double>::infinity();
+  Eigen::VectorXd start(2);
+  for (double c = 1e-15; c <= 1e-9; c *= std::sqrt(10.0))
+    for (double rp = 10.0; rp <= 1e11; rp *= 10.0) {
+      p << std::log(c), std::log(rp);
+      const double cost = residuals(p).squaredNorm();
+      if (cost < best) best = cost, start = p;
+    }
+  const LmResult lm = levenberg_marquardt(residuals, start, project, 300);
+  const double dof = static_cast<double>(off.size()) - 2.0;
+  f.reduced_chi2 = dof > 0 ? lm.cost / dof : nan;
+  const Eigen::MatrixXd cov = scaled_covariance(lm.jac, dof > 0 ? f.reduced_chi2 : 1.0);
+  const double ct = std::exp(lm.x[0]), rp = std::exp(lm.x[1]);
+  f.ct_f = {ct, ct * se_of(cov, 0)};
+  f.rp_ohm = {rp, rp * se_of(cov, 1)};
+  f.ok = std::isfinite(lm.cost);
+  f.message = lm.converged ? "converged" : "stopped at the iteration limit";
+  return f;
+}
+
+nlohmann::json pin_off_fit_json(const PinOffFit& f) {
+  return {{"ok", f.ok}, {"message", f.message}, {"ct_f", est_json(f.ct_f)}, {"rp_ohm", est_json(f.rp_ohm)},
+          {"reduced_chi2", std::isfinite(f.reduced_chi2) ? nlohmann::json(f.reduced_chi2) : nlohmann::json(nullptr)},
+          {"points", f.points}};
+}
+
+std::vector<std::string> screen_pin_ac_readings(std::span<const AcPoint> ac, const Fixture& fx, double tau_s,
+                                                double max_signal_ratio, double floor_v) {
+  std::vector<std::string> why = screen_ac_readings(ac, fx, {max_signal_ratio, floor_v});
+  const double z_cathode_ohm = cathode_load_ohm(fx);
+  for (std::size_t k = 0; k < ac.size(); ++k) {
+    if (why[k] != "large signal" || !(tau_s > 0.0)) continue;
+    const double signal_peak_a = ac[k].vout * ac[k].peak_per_unit / z_cathode_ohm;
+    const double rf_charge_c = signal_peak_a / (std::numbers::pi * ac[k].freq_hz);
+    if (rf_charge_c <= max_signal_ratio * ac[k].bias_i_a * tau_s) why[k].clear();
+  }
+  return why;
+}
+
+PinDistortion pin_series_distortion(const PinLaw& law, double is_a, double ib, double freq_hz, double amp_v, double rg, double rl,
+                                    double temp_k, int n) {
+  const double nvt = law.n * thermal_voltage_v(temp_k), w = 2.0 * std::numbers::pi * freq_hz, h = 1.0 / (freq_hz * n);
+  const auto r_i = [&](double q) { return law.k_ohm_a_x * std::pow(std::max(q, 1e-30) / law.tau_s, -law.x); };
+  const auto v_j = [&](double q) { return nvt * std::log1p(std::max(q, 0.0) / (law.tau_s * is_a)); };
+  // Loop current through Rg at charge q, EMF e, block voltage vcb:
+  // e − vcb = Rg·ig + (R0 + R_I)·(Ib + ig) + v_j + RL·(Ib + ig).
+  const auto ig_of = [&](double q, double e, double vcb) {
+    const double r = law.r0_ohm + r_i(q);
+    return (e - vcb - v_j(q) - (r + rl) * ib) / (rg + rl + r);
+  };
+  const auto dq = [&](double q, double t, double vcb) { return ib + ig_of(q, amp_v * std::sin(w * t), vcb) - q / law.tau_s; };
+  // One period from q0: q(T) and the mean loop current (RK4).
+  std::vector<double> ig(static_cast<std::size_t>(n));
+  const auto period = [&](double q0, double vcb, bool keep) {
+    double q = q0, mean = 0.0;
+    for (int s = 0; s < n; ++s) {
+      const double t = s * h;
+      const double i_now = ig_of(q, amp_v * std::sin(w * t), vcb);
+      if (keep) ig[static_cast<std::size_t>(s)] = i_now;
+      mean += i_now / n;
+      const double k1 = dq(q, t, vcb), k2 = dq(q + 0.5 * h * k1, t + 0.5 * h, vcb), k3 = dq(q + 0.5 * h * k2, t + 0.5 * h, vcb),
+                   k4 = dq(q + h * k3, t + h, vcb);
+      q += h / 6.0 * (k1 + 2 * k2 + 2 * k3 + k4);
+    }
+    return std::pair<double, double>{q, mean};
+  };
+  // Shooting: F(q0, vcb) = (q(T) − q0, mean ig) = 0, Newton with finite differences.
+  double q0 = ib * law.tau_s, vcb = -(v_j(q0) + (pin_rf_resistance_ohm(law, ib) + rl) * ib);
+  PinDistortion out;
+  for (int it = 0; it < 50; ++it) {
+    const auto [q1, m] = period(q0, vcb, false);
+    const double f1 = q1 - q0, f2 = m;
+    if (std::abs(f1) <= 1e-12 * q0 && std::abs(f2) <= 1e-12 * std::max(ib, amp_v / (rg + rl))) {
+      out.converged = true;
+      break;
+    }
+    const double dq0 = 1e-6 * q0, dv = 1e-6 * std::max(1.0, std::abs(vcb));
+    const auto [qa, ma] = period(q0 + dq0, vcb, false);
+    const auto [qb, mb] = period(q0, vcb + dv, false);
+    const double a = (qa - (q0 + dq0) - f1) / dq0, b = (qb - q0 - f1) / dv, c = (ma - f2) / dq0, d = (mb - f2) / dv;
+    const double det = a * d - b * c;
+    if (!(std::abs(det) > 0)) break;
+    q0 -= (d * f1 - b * f2) / det;
+    vcb -= (-c * f1 + a * f2) / det;
+    q0 = std::max(q0, 1e-3 * ib * law.tau_s);
+  }
+  period(q0, vcb, true);
+  std::vector<double> mag(10, 0.0);
+  for (int k = 1; k < 10; ++k) {
+    std::complex<double> s = 0;
+    for (int j = 0; j < n; ++j) s += ig[static_cast<std::size_t>(j)] * std::polar(1.0, -2.0 * std::numbers::pi * k * j / n);
+    mag[static_cast<std::size_t>(k)] = 2.0 * std::abs(s) / n;
+  }
+  double sum2 = 0.0;
+  for (int k = 2; k < 10; ++k) sum2 += mag[static_cast<std::size_t>(k)] * mag[static_cast<std::size_t>(k)];
+  out.load_peak_v = rl * mag[1];
+  out.hd2_dbc = 20.0 * std::log10(mag[2] / mag[1]);
+  out.hd3_dbc = 20.0 * std::log10(mag[3] / mag[1]);
+  out.thd = std::sqrt(sum2) / mag[1];
+  const auto [lo, hi] = std::minmax_element(ig.begin(), ig.end());
+  out.min_current_a = ib + *lo;
+  out.max_current_a = ib + *hi;
+  return out;
+}
+
+}  // namespace junco::fitting

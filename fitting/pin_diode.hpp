@@ -1,0 +1,137 @@
+// The PIN diode: a junction whose intrinsic (I) region, flooded with stored
+// charge Q when forward biased, is a resistance set by that charge.
+//
+// Charge control (docs/references.md §8): dQ/dt = i − Q/τ, so at a steady
+// bias Q = I·τ, and an ideal I-region of width W conducts with
+// G_I = (µn + µp)·Q/W², i.e. R_I = W²/((µn + µp)·τ·I) — inversely
+// proportional to the stored charge. Practical parts follow the law
+// R(I) = R0 + K·I^−x (x ≈ 0.8–1; R0 the contacts and the undepleted ends).
+//
+// Small signal at bias I and angular frequency ω, linearising the charge
+// equation (our derivation, docs/fitting.md "PIN diodes"): the signal charge
+// is q = i·τ/(1 + jωτ); the junction's voltage follows q (v_j = rd·q/τ,
+// rd = N·Vt/I) and the I-region's drop is i·R_I − R_I·q/τ, so
+//   Z(ω) = R0 + rd/(1 + jωτ) + R_I·jωτ/(1 + jωτ).
+// Below the knee f_τ = 1/(2π τ) the part is a junction (rd + R0; with x = 1
+// the I-region's DC drop is independent of I); above it the charge cannot
+// follow the signal, the junction is shorted by its diffusion capacitance
+// and the part is the resistor R0 + K·I^−x.
+//
+// Off (reverse biased past punch-through): the total capacitance CT in
+// parallel with a loss resistance Rp.
+#pragma once
+
+#include "fitting/extract.hpp"
+#include "fitting/junction_cap.hpp"
+#include "fitting/transfer.hpp"
+
+#include <nlohmann/json.hpp>
+
+#include <complex>
+#include <limits>
+#include <span>
+#include <string>
+#include <vector>
+
+namespace junco::fitting {
+
+struct PinLaw {
+  double n = 2.0;           // junction ideality below the knee (high injection: about 2)
+  double tau_s = 1e-6;      // carrier lifetime τ
+  double r0_ohm = 0.5;      // R0: resistance that the stored charge does not modulate
+  double k_ohm_a_x = 0.02;  // K in Ω·A^x
+  double x = 1.0;           // exponent of the current
+};
+
+// A PIN part as the calculators take it: the law on, CT ∥ Rp off (ct_f 0: unknown).
+struct PinPart {
+  PinLaw law;
+  double ct_f = 0.0;
+  double rp_ohm = std::numeric_limits<double>::infinity();
+};
+
+// R0 + K·I^−x: the RF resistance well above the knee (I > 0).
+double pin_rf_resistance_ohm(const PinLaw& law, double i_a);
+// The lifetime's corner 1/(2π τ).
+double pin_knee_freq_hz(double tau_s);
+// Z(ω) above, at bias i_a (> 0).
+std::complex<double> pin_on_impedance(const PinLaw& law, double i_a, double freq_hz, double temp_k);
+// CT ∥ Rp.
+std::complex<double> pin_off_impedance(double ct_f, double rp_ohm, double freq_hz);
+// K of an ideal I-region: W²/((µn + µp)·τ) (then x = 1, R0 = 0).
+double pin_ideal_k_ohm_a(double width_m, double mobility_sum_m2_per_v_s, double tau_s);
+
+struct PinFitOptions {
+  double temp_k = 300.15;
+  double ac_sigma_db = 0.01;  // standard uncertainty of one reading's ratio
+  int max_iterations = 300;
+};
+
+// The law fitted to small-signal readings at several biases and frequencies.
+// parameter_names/covariance: (n, tau_s, r0_ohm, k_ohm_a_x, x) in SI, scaled
+// by the reduced χ² when that exceeds 1.
+struct PinFit {
+  bool ok = false;
+  std::string message;
+  Estimate n, tau_s, r0_ohm, k_ohm_a_x, x;
+  Estimate r_1ma_ohm;   // R0 + K·(1 mA)^−x, the law at a reference current
+  std::vector<std::string> parameter_names;
+  std::vector<std::vector<double>> covariance;
+  double reduced_chi2 = 0.0;
+  std::size_t points = 0;
+  std::size_t frequencies = 0;
+  std::size_t above_knee = 0;  // readings at f ≥ 3·f_τ of the fitted τ: those that set R0, K, x
+  double knee_freq_hz = 0.0;
+  PinLaw law() const { return {n.value, tau_s.value, r0_ohm.value, k_ohm_a_x.value, x.value}; }
+};
+
+// Levenberg–Marquardt on (measured − model dB)/σ over (N, ln τ, R0,
+// ln R(1 mA)−R0, x), τ started from a log grid 1 ns … 1 ms. Readings at one
+// frequency only see R(I) or rd: ≥ 2 frequencies and more readings than the
+// 5 parameters are needed. R0, K, x are set by the readings above the knee
+// and τ by the knee itself: with readings on one side only, the standard
+// errors say which is undetermined.
+PinFit fit_pin_law(std::span<const AcPoint> ac, const Fixture& fixture, const PinFitOptions& options);
+
+// {ok, message, n, tau_s, r0_ohm, k_ohm_a_x, x, r_1ma_ohm: {value, std_error},
+//  knee_freq_hz, parameter_names, covariance, reduced_chi2, points, frequencies, above_knee}
+nlohmann::json pin_fit_json(const PinFit& fit);
+
+// Off state from off-state readings (any reverse bias past punch-through):
+// CT and Rp fitted to the fixture ratio.
+struct PinOffFit {
+  bool ok = false;
+  std::string message;
+  Estimate ct_f, rp_ohm;
+  double reduced_chi2 = 0.0;
+  std::size_t points = 0;
+};
+PinOffFit fit_pin_off_state(std::span<const OffStatePoint> off, const Fixture& fixture, double ac_sigma_db = 0.01);
+nlohmann::json pin_off_fit_json(const PinOffFit& fit);
+
+// The large-signal screen of a PIN part: a reading whose signal is not small
+// against the bias (the junction rule, screen_ac_readings) is still linear
+// when the RF current's charge per half cycle, Î/(π f), is small against the
+// stored charge I·τ (docs/references.md §8). Kept when either holds, with
+// the same ratio (max_signal_ratio) for both. One entry per reading: "" when
+// used, else "large signal" or "below the level floor".
+std::vector<std::string> screen_pin_ac_readings(std::span<const AcPoint> ac, const Fixture& fixture, double tau_s,
+                                                double max_signal_ratio = 0.1, double floor_v = 100e-6);
+
+// Large signal in a series switch: source EMF Â·sin ωt → Rg → DC block →
+// anode (bias current I_b fed in, open at AC) → PIN → cathode → RL → ground.
+// Charge control in the time domain: dQ/dt = i − Q/τ, the diode's voltage
+// R0·i + N·Vt·ln(1 + Q/(τ·IS)) + i·K·(Q/τ)^−x; periodic steady state by
+// shooting on (Q at t = 0, the block's voltage), RK4 over one period.
+// Harmonics of the load's AC current (DFT).
+struct PinDistortion {
+  bool converged = false;
+  double load_peak_v = 0.0;  // fundamental across RL
+  double hd2_dbc = 0.0, hd3_dbc = 0.0;
+  double thd = 0.0;          // √(Σ_{k=2..9} h_k²)/h_1
+  double min_current_a = 0.0, max_current_a = 0.0;
+};
+PinDistortion pin_series_distortion(const PinLaw& law, double is_a, double bias_i_a, double freq_hz, double source_peak_v,
+                                    double rg_ohm, double rl_ohm, double temp_k, int steps_per_period = 512);
+
+}  // namespace junco::fitting
