@@ -118,7 +118,7 @@ TEST_CASE("submit, watch, transfer, bench, lab: CLI11 help, one-line errors, the
                              {"bench extra", "junco bench: unknown option or extra argument 'extra'"},
                              {"lab", "junco lab: A subcommand is required"},
                              {"lab parts", "junco lab: LOT is required"},
-                             {"lab lots --bench b1", "junco lab: unknown option or extra argument '--bench'"}};
+                             {"lab lots --bench b1", "junco lab: unknown option or extra argument '--bench b1'"}};
   for (const auto& b : bad) {
     const auto r = run_junco(b.args);
     INFO(b.args << ": " << r.out);
@@ -128,7 +128,7 @@ TEST_CASE("submit, watch, transfer, bench, lab: CLI11 help, one-line errors, the
   // The forms scripts use keep parsing: --socket=PATH, options before the
   // operand, lab's --json before its command. With no daemon / lab there the
   // work fails (1), which is not a command-line error (2).
-  for (const std::string args : {"watch --socket=" + nowhere + " 3", "bench --json --socket " + nowhere,
+  for (const std::string& args : std::vector<std::string>{"watch --socket=" + nowhere + " 3", "bench --json --socket " + nowhere,
                                  "transfer --socket=" + nowhere + " --points WR-03 --sigma 0.02dB", "submit --socket " + nowhere + " " + d.file("plan.jsonc")}) {
     const auto r = run_junco(args);
     INFO(args << ": " << r.out);

@@ -87,8 +87,8 @@ TEST_CASE("junco design: every row of the calculator table is a subcommand with 
       if (!s->fallback && !s->optional && s->choices.empty()) CHECK(help.out.find(s->label + " (required)") != std::string::npos);
     }
     for (const char* o : {"--json", "--socket"}) CHECK(help.out.find(o) != std::string::npos);
-    CHECK((help.out.find("--temp-c") != std::string::npos) == c.needs_part);
-    CHECK((help.out.find("--model") != std::string::npos) == c.needs_part);
+    CHECK((help.out.find("--temp-c DEGC") != std::string::npos) == c.needs_part);
+    CHECK((help.out.find("--model FILE ") != std::string::npos) == c.needs_part);
   }
   // A part option on a calculator that needs no part is refused on the command line.
   const auto r = run_junco("design headroom --amplitude 1 --is 1n");
