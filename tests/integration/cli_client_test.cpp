@@ -55,7 +55,7 @@ TEST_CASE("junco explains an unreachable daemon and bad values", "[cli]") {
   CHECK(r.status == 2);
   r = junco_cli(dir, {"watch", "--help"});
   CHECK(r.status == 0);
-  CHECK_THAT(r.all(), Catch::Contains("usage: junco watch JOB"));
+  CHECK_THAT(r.all(), Catch::Contains("Usage: junco watch [options] JOB") && Catch::Contains("--socket PATH"));
   fs::remove_all(dir);
 }
 
