@@ -1,5 +1,7 @@
 #include "daemon/api_json.hpp"
 
+#include "formats/fit_json.hpp"
+
 #include <cmath>
 
 namespace junco::daemon {
@@ -9,7 +11,7 @@ Json nullable(double v) { return std::isfinite(v) ? Json(v) : Json(nullptr); }
 Json text_or_null(const std::string& s) { return s.empty() ? Json(nullptr) : Json(s); }
 }  // namespace
 
-Json to_json(const fitting::Estimate& e) { return Json{{"value", nullable(e.value)}, {"std_error", nullable(e.std_error)}}; }
+Json to_json(const fitting::Estimate& e) { return fitting::estimate_json(e); }
 
 namespace {
 // A number as stored: null (or absent) is NaN; anything else not a number is damage.
@@ -189,35 +191,26 @@ Json to_json(const InstrumentRow& i) {
 }
 
 Json to_json(const FitRecord& f) {
-  const fitting::FitResult& r = f.fit;
+  // The fit itself as `junco fit --json` writes it (one writer), then what the store adds.
+  Json out = fitting::fit_result_json(f.fit);
+  out["fit_id"] = f.id;
+  out["part_id"] = f.part_id;
+  out["run_id"] = f.run_id ? Json(*f.run_id) : Json(nullptr);
+  out["model"] = f.model;
   Json detail = f.detail;
   if (f.junction_cap) detail["junction_cap"] = to_json(*f.junction_cap);
   if (f.electrothermal) detail["electrothermal"] = to_json(*f.electrothermal);
-  return Json{{"fit_id", f.id},
-              {"part_id", f.part_id},
-              {"run_id", f.run_id ? Json(*f.run_id) : Json(nullptr)},
-              {"model", f.model},
-              {"status", fitting::to_string(r.status)},
-              {"message", r.message},
-              {"is_a", to_json(r.is_a)},
-              {"n", to_json(r.n)},
-              {"rs_ohm", to_json(r.rs_ohm)},
-              {"rsh_ohm", to_json(r.rsh_ohm)},
-              {"temp_k", nullable(r.temp_k)},
-              {"cost", nullable(r.cost)},
-              {"rms_residual", nullable(r.rms_residual)},
-              {"points_used", r.points_used},
-              {"warnings", r.warnings},
-              {"detail", detail},
-              {"created_at", f.created_at},
-              {"cj0_f", to_json(f.cj0_f)},
-              {"vj_v", to_json(f.vj_v)},
-              {"m", to_json(f.m)},
-              {"tt_s", to_json(f.tt_s)},
-              {"temperature_law", f.temperature_law},
-              // A PIN part's fit (plan.part_type "pin"): the law and lifetime, detail.pin.
-              {"part_type", f.detail.contains("pin") ? "pin" : "junction"},
-              {"pin", f.detail.contains("pin") ? f.detail["pin"] : Json(nullptr)}};
+  out["detail"] = detail;
+  out["created_at"] = f.created_at;
+  out["cj0_f"] = to_json(f.cj0_f);
+  out["vj_v"] = to_json(f.vj_v);
+  out["m"] = to_json(f.m);
+  out["tt_s"] = to_json(f.tt_s);
+  out["temperature_law"] = f.temperature_law;
+  // A PIN part's fit (plan.part_type "pin"): the law and lifetime, detail.pin.
+  out["part_type"] = f.detail.contains("pin") ? "pin" : "junction";
+  out["pin"] = f.detail.contains("pin") ? f.detail["pin"] : Json(nullptr);
+  return out;
 }
 
 }  // namespace junco::daemon

@@ -241,7 +241,7 @@ class Run {
 void op(Run& r) {
   r.assume_all();
   const auto& p = r.part();
-  const auto o = operating_point(p.dc, r.number("supply_v"), r.number("rbias_ohm"), r.number("rreturn_ohm"), p.temp_k);
+  const auto o = operating_point(p.dc, r.number("supply_v"), r.number("bias_resistor_ohm"), r.number("dc_return_ohm"), p.temp_k);
   r.result("bias_current_a", "bias current", o.i_a, "A");
   r.result("diode_voltage_v", "diode voltage", o.vd_v, "V");
   r.result("resistor_drop_v", "resistor drop", o.v_rb_v, "V");
@@ -252,7 +252,7 @@ void bias_r(Run& r) {
   r.assume_all();
   const auto& p = r.part();
   std::string why;
-  const auto rb = bias_resistor_ohm(p.dc, r.number("supply_v"), r.number("current_a"), r.number("rreturn_ohm"), p.temp_k, &why);
+  const auto rb = bias_resistor_ohm(p.dc, r.number("supply_v"), r.number("current_a"), r.number("dc_return_ohm"), p.temp_k, &why);
   if (!rb) return r.not_achievable(why);
   r.result("bias_resistor_ohm", "bias resistor", *rb, "Ohm");
   r.result("diode_voltage_v", "diode voltage", diode_voltage_v(p.dc, r.number("current_a"), p.temp_k), "V");
@@ -278,8 +278,9 @@ void loss(Run& r) {
   if (p.pin) return pin_loss(r, *p.pin);
   const double db = on_state_loss_db(r.kind(), p.dc, p.charge(), r.number("current_a"), r.number("rg_ohm"),
                                      r.number("rl_ohm"), r.number("freq_hz"), series_l(r), p.temp_k);
+  // Keyed by what the number is: a biased shunt switch's loss is its isolation.
   if (r.kind() == SwitchKind::series) r.result("loss_db", "insertion loss (biased series switch)", db, "dB");
-  else r.result("loss_db", "isolation (biased shunt switch)", db, "dB");
+  else r.result("isolation_db", "isolation (biased shunt switch)", db, "dB");
   if (p.charge().any()) {
     const double w = 2.0 * std::numbers::pi * r.number("freq_hz");
     const auto y = junction_admittance_s(p.dc, p.charge(), r.number("current_a"), r.number("freq_hz"), p.temp_k);
@@ -303,7 +304,7 @@ void bias_for_loss(Run& r) {
 
 void headroom(Run& r) {
   r.assume_all();
-  const auto h = drive_headroom(r.number("amplitude_v"), r.number("rl_ohm"), r.number("rreturn_ohm"), r.number("floor_a"));
+  const auto h = drive_headroom(r.number("amplitude_v"), r.number("rl_ohm"), r.number("dc_return_ohm"), r.number("floor_a"));
   r.result("signal_peak_a", "signal peak through the diode", h.signal_peak_a, "A");
   r.result("min_bias_a", "minimum bias (series switch stays forward-biased)", h.min_bias_a, "A");
 }
@@ -404,13 +405,13 @@ void isolation(Run& r) {
   const double db = switch_loss_db(r.kind(), z, r.number("rg_ohm"), r.number("rl_ohm"));
   r.result("cj_f", "Cj at the reverse bias", cj, "F");
   if (r.kind() == SwitchKind::series) r.result("isolation_db", "isolation (unbiased series switch)", db, "dB");
-  else r.result("isolation_db", "insertion loss (unbiased shunt switch)", db, "dB");
+  else r.result("loss_db", "insertion loss (unbiased shunt switch)", db, "dB");
 }
 
 void power(Run& r) {
   r.assume_all();
   const auto& p = r.part();
-  const double rb = r.number("rbias_ohm");
+  const double rb = r.number("bias_resistor_ohm");
   const auto o = operating_point(p.dc, r.number("supply_v"), rb, 0.0, p.temp_k);
   const PowerLimits lim{r.has("max_diode_w") ? r.number("max_diode_w") : 0.0, r.has("max_resistor_w") ? r.number("max_resistor_w") : 0.0, 0.8};
   const auto c = check_power(o, rb, r.number("signal_peak_a"), lim);
@@ -517,7 +518,7 @@ void bias_network_calc(Run& r) {
   const auto& p = r.part();
   BiasNetwork net;
   net.supply_v = r.number("supply_v");
-  net.rbias_ohm = r.number("rbias_ohm");
+  net.rbias_ohm = r.number("bias_resistor_ohm");
   net.rground_ohm = r.number("rground_ohm");
   net.feed_diode = r.text("feed_diode") == "same";
   net.rg_ohm = r.number("rg_ohm");
@@ -636,11 +637,11 @@ const std::vector<CalculatorRow>& calculator_rows() {
   using R = InputRange;
   static const std::vector<CalculatorRow> table{
       {{"op", "operating point: supply and bias resistor -> bias current and diode voltage (exact, Lambert W)", true,
-       {required("supply_v", "supply", "V", "supply", R::positive), required("rbias_ohm", "rbias", "Ohm", "bias resistor", R::non_negative),
-        with_default("rreturn_ohm", "rreturn", "Ohm", "DC return", 0.0, R::non_negative)}}, op},
+       {required("supply_v", "supply", "V", "supply", R::positive), required("bias_resistor_ohm", "bias-resistor", "Ohm", "bias resistor", R::non_negative),
+        with_default("dc_return_ohm", "dc-return", "Ohm", "DC return", 0.0, R::non_negative)}}, op},
       {{"bias-r", "bias resistor for a target current: Rb = (Vs - Vd(I))/I - Rr", true,
        {required("supply_v", "supply", "V", "supply", R::positive), required("current_a", "current", "A", "target current", R::positive),
-        with_default("rreturn_ohm", "rreturn", "Ohm", "DC return", 0.0, R::non_negative)}}, bias_r},
+        with_default("dc_return_ohm", "dc-return", "Ohm", "DC return", 0.0, R::non_negative)}}, bias_r},
       {{"loss", "biased-state loss at a bias current and frequency (RS, rd, Cj(V), TT): insertion loss (series) or isolation (shunt)", true,
        join({switch_input(), required("current_a", "current", "A", "bias current", R::positive)}, circuit_inputs(true))}, loss},
       {{"bias-for-loss", "bias current (and resistor, given a supply) for a target biased-state loss", true,
@@ -650,7 +651,7 @@ const std::vector<CalculatorRow>& calculator_rows() {
       {{"headroom", "least bias that keeps a series switch conducting over the signal swing", false,
        {required("amplitude_v", "amplitude", "V", "load peak", R::positive),
         with_default("rl_ohm", "rl", "Ohm", "load RL", 50.0, R::positive),
-        with_default("rreturn_ohm", "rreturn", "Ohm", "DC return", inf, R::positive, "choke (no AC shunt)"),
+        with_default("dc_return_ohm", "dc-return", "Ohm", "DC return", inf, R::positive, "choke (no AC shunt)"),
         with_default("floor_a", "floor", "A", "trough floor", 0.0, R::non_negative)}}, headroom},
       {{"distortion",
        "HD2, HD3 and THD at a bias, amplitude and frequency (periodic steady state of the circuit with the SPICE junction: "
@@ -669,7 +670,7 @@ const std::vector<CalculatorRow>& calculator_rows() {
              with_default("rr_ohm", "rr", "Ohm", "off resistance", 0.0, R::non_negative)},
             circuit_inputs(true))}, isolation},
       {{"power", "dissipation in the part and the bias resistor, against limits (warn at 80 %, fail above)", true,
-       {required("supply_v", "supply", "V", "supply", R::positive), required("rbias_ohm", "rbias", "Ohm", "bias resistor", R::non_negative),
+       {required("supply_v", "supply", "V", "supply", R::positive), required("bias_resistor_ohm", "bias-resistor", "Ohm", "bias resistor", R::non_negative),
         with_default("signal_peak_a", "signal-peak", "A", "signal peak", 0.0, R::non_negative),
         optional_input("max_diode_w", "max-diode", "W", "diode limit", R::positive),
         optional_input("max_resistor_w", "max-resistor", "W", "resistor limit", R::positive)}}, power},
@@ -692,7 +693,7 @@ const std::vector<CalculatorRow>& calculator_rows() {
       {{"bias-network",
        "series switch with its bias network (DC blocks, chokes or ferrites R||L, feed and ground-return resistors, "
        "optional isolating diode) sized for a band: values, diode current, loss and RF into the supply", true,
-       join({required("supply_v", "supply", "V", "supply", R::positive), required("rbias_ohm", "rbias", "Ohm", "bias resistor", R::non_negative),
+       join({required("supply_v", "supply", "V", "supply", R::positive), required("bias_resistor_ohm", "bias-resistor", "Ohm", "bias resistor", R::non_negative),
              with_default("rground_ohm", "rground", "Ohm", "ground-return resistor", inf, R::positive, "none"),
              {"feed_diode", "feed-diode", "", "isolating diode in the feed", std::nullopt, false, R::any, {"none", "same"}, {}},
              with_default("freq_low_hz", "freq-low", "Hz", "band low edge", 1e6, R::positive),
@@ -835,7 +836,26 @@ DesignPart design_part_from_json(const Json& j) {
   return p;
 }
 
-Json run_design(const std::string& calculator, const DesignPart* part, const Json& inputs) {
+const std::vector<std::pair<std::string, std::string>>& design_renamed_inputs() {
+  static const std::vector<std::pair<std::string, std::string>> v{{"rbias_ohm", "bias_resistor_ohm"},
+                                                                  {"rreturn_ohm", "dc_return_ohm"}};
+  return v;
+}
+
+Json run_design(const std::string& calculator, const DesignPart* part, const Json& given) {
+  // Old input names still work (docs/names.md): read as the new one, with a
+  // warning in the answer that names it. Both spellings at once is an error.
+  Json inputs = given;
+  std::vector<std::string> renamed;
+  if (inputs.is_object())
+    for (const auto& [old_key, new_key] : design_renamed_inputs()) {
+      if (!inputs.contains(old_key)) continue;
+      if (inputs.contains(new_key))
+        throw DesignInputError(old_key, old_key + ": give " + new_key + " only (" + old_key + " is its old name)");
+      inputs[new_key] = inputs[old_key];
+      inputs.erase(old_key);
+      renamed.push_back("input " + old_key + " is now spelled " + new_key + " (the old spelling still works for now)");
+    }
   const DesignCalculator* calc = find_design_calculator(calculator);
   if (!calc) {
     std::string names;
@@ -845,7 +865,9 @@ Json run_design(const std::string& calculator, const DesignPart* part, const Jso
   Run run(*calc, part, inputs);
   for (const auto& row : calculator_rows())
     if (row.calculator.name == calc->name) row.body(run);
-  return run.take();
+  Json answer = run.take();
+  for (const auto& w : renamed) answer["warnings"].push_back(w);
+  return answer;
 }
 
 }  // namespace junco::fitting

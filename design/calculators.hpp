@@ -6,7 +6,7 @@
 // same answers.
 //
 // Inputs and answers are JSON documents (schema/api/part.design.json):
-//   inputs  {"supply_v": 5, "rbias_ohm": 390, "switch": "series", ...}
+//   inputs  {"supply_v": 5, "bias_resistor_ohm": 390, "switch": "series", ...}
 //   answer  {"calculator", "part", "assumed": [line...], "result": [line...],
 //            "achievable", "reason", "warnings", "failures"}
 //   line    {"key", "label", "unit", "value"} (+ "text" for a choice, or for
@@ -22,6 +22,7 @@
 #include <nlohmann/json.hpp>
 
 #include <optional>
+#include <utility>
 #include <stdexcept>
 #include <string>
 #include <vector>
@@ -90,7 +91,10 @@ const std::vector<DesignInputSpec>& design_part_inputs();
 // one. Throws DesignInputError for an unknown calculator or input, a missing
 // required one, a value of the wrong type or outside its range. A target that
 // cannot be met is not an error: achievable = false and reason say why.
+// Inputs given by an old name (rbias_ohm) are read as the new one with a
+// warning in the answer (design_renamed_inputs: {old, new}).
 nlohmann::json run_design(const std::string& calculator, const DesignPart* part, const nlohmann::json& inputs);
+const std::vector<std::pair<std::string, std::string>>& design_renamed_inputs();
 
 // The part as the answer reports it (SPICE names, SI units): its parameters
 // at its own temp_k, with the temperature law (eg_ev, xti, trs1_per_k,

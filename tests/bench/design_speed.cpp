@@ -46,10 +46,10 @@ int main(int argc, char** argv) {
   part.cap = {2e-12, 0.65, 0.4, 0.5};
   part.tt_s = 5e-9;
 
-  std::vector<Case> cases{{"op", {{"supply_v", 5.0}, {"rbias_ohm", 390.0}}},
+  std::vector<Case> cases{{"op", {{"supply_v", 5.0}, {"bias_resistor_ohm", 390.0}}},
                           {"bias-r", {{"supply_v", 5.0}, {"current_a", 10e-3}}},
                           {"headroom", {{"amplitude_v", 0.2}}},
-                          {"power", {{"supply_v", 5.0}, {"rbias_ohm", 390.0}, {"signal_peak_a", 4e-3}}}};
+                          {"power", {{"supply_v", 5.0}, {"bias_resistor_ohm", 390.0}, {"signal_peak_a", 4e-3}}}};
   for (double f : {1e6, 100e6, 1e9})
     for (const char* sw : {"series", "shunt"}) {
       cases.push_back({"loss", {{"switch", sw}, {"current_a", 1e-3}, {"freq_hz", f}}});

@@ -49,7 +49,7 @@ void design(std::string_view data) {
         if (l["key"] == key) return l["value"].is_number() ? l["value"].get<double>() : std::nan("");
       return std::nan("");
     };
-    const double vs = value(a["assumed"], "supply_v"), r = value(a["assumed"], "rbias_ohm") + value(a["assumed"], "rreturn_ohm");
+    const double vs = value(a["assumed"], "supply_v"), r = value(a["assumed"], "bias_resistor_ohm") + value(a["assumed"], "dc_return_ohm");
     const double i = value(a["result"], "bias_current_a"), vd = value(a["result"], "diode_voltage_v");
     if (std::isfinite(i) && std::isfinite(vd) && std::isfinite(r * i)) {
       require(i >= 0 && vd >= 0 && vd <= vs * (1 + 1e-6), "op: a bias current or diode voltage outside 0..supply");

@@ -6,7 +6,9 @@
 
 #include <catch2/catch.hpp>
 
+#include <fstream>
 #include <string>
+#include <vector>
 
 using junco::test::run_junco;
 using junco::test::ScratchDir;
@@ -64,4 +66,76 @@ TEST_CASE("one set of exit statuses and generated help", "[cli]") {
   const auto fit = run_junco("fit " + examples + "kestrel24b_k24b017.csv --rl 5x");
   CHECK(fit.status == 2);
   CHECK(fit.out.find("--rl: '5x': unknown suffix 'x'") != std::string::npos);
+}
+
+TEST_CASE("the fixture resistors' old option names work and name the new ones", "[cli]") {
+  // docs/names.md: Rb is --bias-resistor (bias_resistor_ohm), Rr --dc-return (dc_return_ohm).
+  const std::string part = "design op --is 1n --n 1 --rs 1 --supply 5 ";
+  const auto now = run_junco(part + "--bias-resistor 470 --dc-return 10");
+  const auto old = run_junco(part + "--rbias 470 --rreturn=10");
+  REQUIRE(now.status == 0);
+  REQUIRE(old.status == 0);
+  CHECK(now.out.find("warning") == std::string::npos);
+  CHECK(old.out.find("junco design: warning: --rbias is now spelled --bias-resistor") != std::string::npos);
+  CHECK(old.out.find("junco design: warning: --rreturn is now spelled --dc-return") != std::string::npos);
+  CHECK(old.out.substr(old.out.find("assumed")) == now.out.substr(now.out.find("assumed")));
+  CHECK(now.out.find("DC return        10 ohm") != std::string::npos);
+  const auto fit_old = run_junco("fit " + examples + "kestrel24b_k24b017.csv --rreturn 1k");
+  CHECK(fit_old.status == 0);
+  CHECK(fit_old.out.find("junco fit: warning: --rreturn is now spelled --dc-return") != std::string::npos);
+  CHECK(run_junco("fit " + examples + "kestrel24b_k24b017.csv --dc-return 0").status == 2);
+}
+
+TEST_CASE("submit, watch, transfer, bench, lab: CLI11 help, one-line errors, the old forms still parse", "[cli]") {
+  ScratchDir d;
+  const std::string nowhere = d.file("no-daemon.sock");
+  std::ofstream(d.file("plan.jsonc")) << "{ // a plan, read before the daemon is asked\n}\n";
+  struct Help {
+    const char* command;
+    std::vector<const char*> want;
+  };
+  const std::vector<Help> helps{{"submit", {"PLAN", "--dry-run", "--watch", "--socket", "exit status"}},
+                                {"watch", {"JOB", "--socket", "exit status"}},
+                                {"transfer", {"PART", "--run", "--sigma", "--cj", "--points", "--lot", "--json", "example"}},
+                                {"bench", {"--socket", "--json", "*IDN?"}},
+                                {"lab", {"lots", "parts", "stats", "--db", "--json"}},
+                                {"lab parts", {"LOT", "--bench", "--db", "--json"}}};
+  for (const auto& h : helps) {
+    const auto r = run_junco(std::string(h.command) + " --help");
+    INFO(h.command << ": " << r.out);
+    CHECK(r.status == 0);
+    for (const char* w : h.want) CHECK(r.out.find(w) != std::string::npos);
+  }
+  // Bad command lines: exit 2, one line naming the command, before any daemon is asked.
+  struct Bad {
+    std::string args, says;
+  };
+  const std::vector<Bad> bad{{"watch abc", "junco watch: JOB: must be a positive integer id, not 'abc'"},
+                             {"watch", "junco watch: JOB is required"},
+                             {"submit plan.jsonc --watch --dry-run", "junco submit: --dry-run queues nothing to --watch; give one of them"},
+                             {"transfer WR-03 --cj 2xF", "junco transfer: --cj: '2xF'"},
+                             {"transfer WR-03 --run 0", "junco transfer: --run: must be a positive integer id, not '0'"},
+                             {"bench extra", "junco bench: unknown option or extra argument 'extra'"},
+                             {"lab", "junco lab: A subcommand is required"},
+                             {"lab parts", "junco lab: LOT is required"},
+                             {"lab lots --bench b1", "junco lab: unknown option or extra argument '--bench b1'"}};
+  for (const auto& b : bad) {
+    const auto r = run_junco(b.args);
+    INFO(b.args << ": " << r.out);
+    CHECK(r.status == 2);
+    CHECK(r.out.find(b.says) != std::string::npos);
+  }
+  // The forms scripts use keep parsing: --socket=PATH, options before the
+  // operand, lab's --json before its command. With no daemon / lab there the
+  // work fails (1), which is not a command-line error (2).
+  for (const std::string& args : std::vector<std::string>{"watch --socket=" + nowhere + " 3", "bench --json --socket " + nowhere,
+                                 "transfer --socket=" + nowhere + " --points WR-03 --sigma 0.02dB", "submit --socket " + nowhere + " " + d.file("plan.jsonc")}) {
+    const auto r = run_junco(args);
+    INFO(args << ": " << r.out);
+    CHECK(r.status != 2);
+    CHECK(r.out.find("--help") == std::string::npos);
+  }
+  const auto lab = run_junco("lab --json lots --db 'host=/nonexistent-" + std::string("dir") + " connect_timeout=1'");
+  INFO(lab.out);
+  CHECK(lab.status == 1);
 }

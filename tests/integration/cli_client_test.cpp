@@ -55,7 +55,7 @@ TEST_CASE("junco explains an unreachable daemon and bad values", "[cli]") {
   CHECK(r.status == 2);
   r = junco_cli(dir, {"watch", "--help"});
   CHECK(r.status == 0);
-  CHECK_THAT(r.all(), Catch::Contains("usage: junco watch JOB"));
+  CHECK_THAT(r.all(), Catch::Contains("Usage: junco watch [options] JOB") && Catch::Contains("--socket PATH"));
   fs::remove_all(dir);
 }
 
@@ -112,7 +112,7 @@ TEST_CASE("junco submit, watch, jobs, lots, parts, show against a running daemon
   const auto model = dir / "cl2.json";
   r = junco_cli(dir, {"show", "CL-2", "--export", "json", "--out", model.string(), "--socket", sock});
   REQUIRE(r.status == 0);
-  r = junco_cli(dir, {"design", "op", "--model", model.string(), "--supply", "5V", "--rbias", "1k"});
+  r = junco_cli(dir, {"design", "op", "--model", model.string(), "--supply", "5V", "--bias-resistor", "1k"});
   CHECK(r.status == 0);
   CHECK_THAT(r.all(), Catch::Contains("CL-2"));
   r = junco_cli(dir, {"show", "CL-2", "--out", model.string(), "--socket", sock});

@@ -45,7 +45,7 @@ TEST_CASE("fit --model-out writes a document the calculators and plots accept") 
   CHECK(part->n_se > 0.0);
 
   // The calculator reproduces the model's own Vf at the current it reports.
-  const auto op = run_junco("design op --model " + model.string() + " --supply 5V --rbias 470");
+  const auto op = run_junco("design op --model " + model.string() + " --supply 5V --bias-resistor 470");
   REQUIRE(op.status == 0);
   CHECK(op.out.find("K24B-017") != std::string::npos);
 

@@ -1,5 +1,6 @@
 // The junco CLI's design, export and plot commands as real processes on real
 // files: a model document and readings CSV written here, gnuplot really run.
+#include "design/calculators.hpp"
 #include "formats/readings_csv.hpp"
 #include "formats/model_document.hpp"
 
@@ -15,6 +16,7 @@
 #include <fstream>
 #include <sstream>
 #include <string>
+#include <vector>
 #include <sys/wait.h>
 #include <unistd.h>
 
@@ -62,8 +64,40 @@ TEST_CASE("junco design rejects bad input with exit 2 and one clear line") {
   CHECK(r.out.find("junction capacitance") != std::string::npos);
 }
 
+TEST_CASE("junco design: every row of the calculator table is a subcommand with its options and help texts") {
+  // The options are generated from design/calculators.hpp: a row added
+  // there must show up here with no change to tools/junco/cmd_design.cpp.
+  const auto top = run_junco("design --help");
+  REQUIRE(top.status == 0);
+  for (const auto& c : design_calculators()) {
+    INFO(c.name);
+    CHECK(top.out.find("  " + c.name + " ") != std::string::npos);
+    CHECK(top.out.find(c.synopsis.substr(0, 40)) != std::string::npos);
+    const auto help = run_junco("design " + c.name + " --help");
+    INFO(help.out);
+    CHECK(help.status == 0);
+    std::vector<const DesignInputSpec*> specs;
+    for (const auto& s : c.inputs) specs.push_back(&s);
+    if (c.needs_part)
+      for (const auto& s : design_part_inputs())
+        if (s.key != "temp_k") specs.push_back(&s);  // on the command line in degC: --temp-c
+    for (const auto* s : specs) {
+      CHECK(help.out.find("--" + s->option + " ") != std::string::npos);
+      CHECK(help.out.find(s->label) != std::string::npos);
+      if (!s->fallback && !s->optional && s->choices.empty()) CHECK(help.out.find(s->label + " (required)") != std::string::npos);
+    }
+    for (const char* o : {"--json", "--socket"}) CHECK(help.out.find(o) != std::string::npos);
+    CHECK((help.out.find("--temp-c DEGC") != std::string::npos) == c.needs_part);
+    CHECK((help.out.find("--model FILE ") != std::string::npos) == c.needs_part);
+  }
+  // A part option on a calculator that needs no part is refused on the command line.
+  const auto r = run_junco("design headroom --amplitude 1 --is 1n");
+  CHECK(r.status == 2);
+  CHECK(r.out.find("--is") != std::string::npos);
+}
+
 TEST_CASE("junco design power fails over a limit") {
-  const auto r = run_junco("design power --is 1e-14 --n 1 --rs 1 --supply 5 --rbias 100 --max-resistor 125mW");
+  const auto r = run_junco("design power --is 1e-14 --n 1 --rs 1 --supply 5 --bias-resistor 100 --max-resistor 125mW");
   CHECK(r.status == 1);
   CHECK(r.out.find("OVER THE LIMIT") != std::string::npos);
 }
@@ -185,7 +219,7 @@ TEST_CASE("junco design off-headroom fails with the fix, and the switch-network 
   CHECK(r.status == 0);
   CHECK(r.out.find("25.9747 ohm") != std::string::npos);
   CHECK(r.out.find("35.1364 ohm") != std::string::npos);
-  r = run_junco("design bias-network " + part + " --supply 5 --rbias 390 --rground 1k --feed-diode same --json");
+  r = run_junco("design bias-network " + part + " --supply 5 --bias-resistor 390 --rground 1k --feed-diode same --json");
   CHECK(r.status == 0);
   CHECK(r.out.find("\"supply_leak_db\"") != std::string::npos);
   r = run_junco("design junction-temp " + part + " --current 10mA --theta 400 --temp-c 50");

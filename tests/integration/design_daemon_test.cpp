@@ -59,14 +59,14 @@ TEST_CASE("part.design answers as the calculators do on the exported model", "[d
     std::string key;
   };
   const std::vector<Case> cases{
-      {"op", {{"supply_v", 5.0}, {"rbias_ohm", 390.0}}, "bias_current_a"},
+      {"op", {{"supply_v", 5.0}, {"bias_resistor_ohm", 390.0}}, "bias_current_a"},
       {"bias-r", {{"supply_v", 5.0}, {"current_a", 0.01}}, "bias_resistor_ohm"},
-      {"loss", {{"current_a", 0.01}, {"switch", "shunt"}, {"freq_hz", 1e8}}, "loss_db"},
+      {"loss", {{"current_a", 0.01}, {"switch", "shunt"}, {"freq_hz", 1e8}}, "isolation_db"},
       {"distortion", {{"current_a", 0.005}, {"amplitude_v", 0.1}}, "thd_pct"},
       {"isolation", {{"cj0_f", 2e-12}, {"reverse_v", 5.0}, {"freq_hz", 1e9}}, "isolation_db"},
       {"off-headroom", {{"cj0_f", 2e-12}, {"reverse_v", 5.0}, {"power_w", 0.01}, {"bv_v", 30.0}}, "junction_peak_v"},
       {"junction-temp", {{"current_a", 0.01}, {"theta_k_per_w", 500.0}, {"power_w", 1e-3}}, "tj_k"},
-      {"bias-network", {{"supply_v", 5.0}, {"rbias_ohm", 390.0}, {"rground_ohm", 1000.0}, {"feed_diode", "same"}}, "supply_leak_db"},
+      {"bias-network", {{"supply_v", 5.0}, {"bias_resistor_ohm", 390.0}, {"rground_ohm", 1000.0}, {"feed_diode", "same"}}, "supply_leak_db"},
       {"series-shunt", {{"cj0_f", 2e-12}, {"current_a", 0.01}, {"reverse_v", 5.0}, {"freq_hz", 1e8}}, "isolation_db"},
   };
   const Json schema = test::api_schema("part.design");
@@ -103,7 +103,7 @@ TEST_CASE("part.design answers as the calculators do on the exported model", "[d
   CHECK(test::schema_problem(schema["result"], b.result("part.design", {{"part_id", 1}, {"calculator", "headroom"}, {"inputs", {{"amplitude_v", 1.0}}}})) == "");
   const Json good_part{{"is_a", 2e-9}, {"n", 1.8}, {"rs_ohm", 0.7}};
   auto by_value_error = [&](const Json& part) {
-    Json params{{"calculator", "op"}, {"inputs", {{"supply_v", 5.0}, {"rbias_ohm", 390.0}}}};
+    Json params{{"calculator", "op"}, {"inputs", {{"supply_v", 5.0}, {"bias_resistor_ohm", 390.0}}}};
     if (!part.is_null()) params["part"] = part;
     const Json r = b.client().request("design.run", params);
     INFO(r.dump());
@@ -119,7 +119,7 @@ TEST_CASE("part.design answers as the calculators do on the exported model", "[d
   // The op answer by value against docs/references.md §2's explicit current with
   // Boost.Math's W0: I = (N·Vt/R)·W0[(IS·R/(N·Vt))·exp((V + IS·R)/(N·Vt))] − IS, R = RBIAS + RS.
   {
-    const Json op = b.result("design.run", {{"calculator", "op"}, {"part", good_part}, {"inputs", {{"supply_v", 5.0}, {"rbias_ohm", 390.0}}}});
+    const Json op = b.result("design.run", {{"calculator", "op"}, {"part", good_part}, {"inputs", {{"supply_v", 5.0}, {"bias_resistor_ohm", 390.0}}}});
     const double nvt = 1.8 * 1.380649e-23 * 300.15 / 1.602176634e-19, r = 390.0 + 0.7, is = 2e-9;
     const double expected = nvt / r * boost::math::lambert_w0(is * r / nvt * std::exp((5.0 + is * r) / nvt)) - is;
     CHECK(value_of(op["result"], "bias_current_a") == Approx(expected).epsilon(1e-9));
@@ -127,8 +127,19 @@ TEST_CASE("part.design answers as the calculators do on the exported model", "[d
   // Bad input is refused and names the field; nothing about the part changes.
   auto reply = b.client().request("part.design", {{"part_id", 1}, {"calculator", "op"}, {"inputs", {{"supply_v", 5.0}}}});
   CHECK(reply["error"]["code"] == -32602);
-  CHECK(reply["error"]["data"]["field"] == "inputs.rbias_ohm");
-  reply = b.client().request("part.design", {{"part_id", 1}, {"calculator", "op"}, {"inputs", {{"supply_v", 5.0}, {"rbias_ohm", 1.0}, {"vbias", 3}}}});
+  CHECK(reply["error"]["data"]["field"] == "inputs.bias_resistor_ohm");
+  // The old input names (rbias_ohm, rreturn_ohm) still work, with a warning naming the new one (docs/names.md).
+  {
+    const Json old = b.result("part.design", {{"part_id", 1}, {"calculator", "op"},
+                                              {"inputs", {{"supply_v", 5.0}, {"rbias_ohm", 390.0}, {"rreturn_ohm", 10.0}}}});
+    const Json now = b.result("part.design", {{"part_id", 1}, {"calculator", "op"},
+                                              {"inputs", {{"supply_v", 5.0}, {"bias_resistor_ohm", 390.0}, {"dc_return_ohm", 10.0}}}});
+    CHECK(value_of(old["result"], "bias_current_a") == value_of(now["result"], "bias_current_a"));
+    CHECK(old["warnings"].dump().find("rbias_ohm is now spelled bias_resistor_ohm") != std::string::npos);
+    CHECK(old["warnings"].dump().find("rreturn_ohm is now spelled dc_return_ohm") != std::string::npos);
+    CHECK(now["warnings"].empty());
+  }
+  reply = b.client().request("part.design", {{"part_id", 1}, {"calculator", "op"}, {"inputs", {{"supply_v", 5.0}, {"bias_resistor_ohm", 1.0}, {"vbias", 3}}}});
   CHECK(reply["error"]["data"]["field"] == "inputs.vbias");
   reply = b.client().request("part.design", {{"part_id", 1}, {"calculator", "warp"}});
   CHECK(reply["error"]["data"]["field"] == "calculator");
@@ -138,17 +149,17 @@ TEST_CASE("part.design answers as the calculators do on the exported model", "[d
   CHECK(reply["error"]["data"]["field"] == "supply_v");  // inputs go inside "inputs"
 
   // The CLI on --part: the daemon's numbers, printed with the assumed inputs.
-  const double i_a = value_of(b.result("part.design", {{"part_id", 1}, {"calculator", "op"}, {"inputs", {{"supply_v", 5.0}, {"rbias_ohm", 390.0}}}})["result"],
+  const double i_a = value_of(b.result("part.design", {{"part_id", 1}, {"calculator", "op"}, {"inputs", {{"supply_v", 5.0}, {"bias_resistor_ohm", 390.0}}}})["result"],
                               "bias_current_a");
-  auto cli = b.junco({"design", "op", "--part", "DS-1", "--supply", "5V", "--rbias", "390"});
+  auto cli = b.junco({"design", "op", "--part", "DS-1", "--supply", "5V", "--bias-resistor", "390"});
   INFO(cli.out << cli.err);
   CHECK(cli.status == 0);
   CHECK(cli.out.find("assumed   bias resistor    390 ohm") != std::string::npos);  // one formatter: no trailing zeros
   CHECK(cli.out.find(junco::units::format_si(i_a, "A", 6)) != std::string::npos);
-  cli = b.junco({"design", "op", "--part", "DS-1", "--supply", "-5", "--rbias", "390"});
+  cli = b.junco({"design", "op", "--part", "DS-1", "--supply", "-5", "--bias-resistor", "390"});
   CHECK(cli.status == 2);
   CHECK(cli.err.find("--supply: must be > 0") != std::string::npos);
-  cli = b.junco({"design", "op", "--part", "NO-SUCH", "--supply", "5", "--rbias", "390"});
+  cli = b.junco({"design", "op", "--part", "NO-SUCH", "--supply", "5", "--bias-resistor", "390"});
   CHECK(cli.status == 1);
   CHECK(cli.err.find("no part labelled 'NO-SUCH'") != std::string::npos);
 }

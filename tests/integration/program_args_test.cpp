@@ -106,7 +106,7 @@ TEST_CASE("junco-sim: bad command lines are one line and exit 2; every option st
                                        {{"--settle-ms", "-1"}, "--settle-ms: wants a number >= 0, not '-1'"},
                                        {{"--seed", "x"}, "--seed: wants a whole number"},
                                        {{"--fault", "source:loud"}, "unknown mode 'loud'"},
-                                       {{"--family", "source=nope"}, "'nope' is not a source family"},
+                                       {{"--dialect", "source=nope"}, "'nope' is not a source dialect"},
                                        {{"--serial", "toaster"}, "unknown role 'toaster'"},
                                        {{"--config", (dir / "missing.json").string()}, "missing.json"}}) {
     std::vector<std::string> argv{kSim};
@@ -121,8 +121,8 @@ TEST_CASE("junco-sim: bad command lines are one line and exit 2; every option st
 
   // The config file first, the command line over it.
   std::ofstream(dir / "sim.json") << R"({"slots": 5, "seed": 3})";
-  SimProcess sim({"--config", (dir / "sim.json").string(), "--slots", "3", "--settle-ms", "0", "--family=source=psu-compact",
-                  "--family", "meter=dmm-prefixed", "--fault", "scanner:late:1"});
+  SimProcess sim({"--config", (dir / "sim.json").string(), "--slots", "3", "--settle-ms", "0", "--dialect=source=psu-compact",
+                  "--dialect", "meter=dmm-prefixed", "--fault", "scanner:late:1"});
   CHECK(sim.family("source") == "psu-compact");
   CHECK(sim.family("meter") == "dmm-prefixed");
   CHECK(sim.family("scanner") == "scpi-switch");  // the default
@@ -131,6 +131,43 @@ TEST_CASE("junco-sim: bad command lines are one line and exit 2; every option st
   const Outcome help = run({kSim, "--help"}, dir);
   CHECK(help.code == 0);
   CHECK_THAT(help.out, Catch::Contains("--slots N [8]") && Catch::Contains("scpi99") && Catch::Contains("Examples:") &&
-                           Catch::Contains("Control endpoint"));
+                           Catch::Contains("Control endpoint") && Catch::Contains("--dialect ROLE=NAME"));
+  CHECK_THAT(help.out, !Catch::Contains("--family"));  // the former spelling works, but is not taught
+  std::filesystem::remove_all(dir);
+}
+
+TEST_CASE("junco-sim: former spellings (--family, families, fixture.rb_ohm ...) work with a warning naming the new one", "[args]") {
+  // docs/names.md: the instrument's command file is a dialect; the fixture keys are the daemon config's.
+  const auto dir = junco::test::scratch_dir("args-sim-renamed");
+  std::ofstream(dir / "old.json") << R"({"families": {"meter": "dmm-prefixed"},
+      "fixture": {"rb_ohm": 220, "return": "resistor", "return_ohm": 1000, "rg_ohm": 50, "rl_ohm": 50}})";
+  ChildOptions o;
+  o.stderr_path = (dir / "stderr.txt").string();
+  {
+    SimProcess sim({"--config", (dir / "old.json").string(), "--family", "source=psu-compact"}, o);
+    CHECK(sim.family("source") == "psu-compact");
+    CHECK(sim.family("meter") == "dmm-prefixed");
+    CHECK(sim.ready()["dialects"] == sim.ready()["families"]);
+  }
+  std::ifstream in(o.stderr_path);
+  std::stringstream err;
+  err << in.rdbuf();
+  INFO(err.str());
+  for (const char* w : {"warning: --family is now spelled --dialect", "config key families is now spelled dialects",
+                        "config key fixture.rb_ohm is now spelled fixture.bias_resistor_ohm",
+                        "config key fixture.return_ohm is now spelled fixture.dc_return_ohm",
+                        "config key fixture.rg_ohm is now spelled fixture.source_ohm",
+                        "config key fixture.rl_ohm is now spelled fixture.load_ohm"})
+    CHECK(err.str().find(w) != std::string::npos);
+  // The old key is read as the new one: its value is checked under the new name;
+  // both at once is refused, naming the one to keep.
+  std::ofstream(dir / "bad.json") << R"({"fixture": {"rl_ohm": -5}})";
+  Outcome r = run({kSim, "--config", (dir / "bad.json").string()}, dir);
+  CHECK(r.code == 2);
+  CHECK_THAT(r.err, Catch::Contains("fixture.load_ohm must be > 0"));
+  std::ofstream(dir / "both.json") << R"({"fixture": {"rb_ohm": 100, "bias_resistor_ohm": 100}})";
+  r = run({kSim, "--config", (dir / "both.json").string()}, dir);
+  CHECK(r.code == 2);
+  CHECK_THAT(r.err, Catch::Contains("give fixture.bias_resistor_ohm only (fixture.rb_ohm is its old name)"));
   std::filesystem::remove_all(dir);
 }

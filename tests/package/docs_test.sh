@@ -75,6 +75,9 @@ expect "junco jobs --state " queued running paused "done" failed cancelled inter
 expect "junco design " $calculators
 expect "junco design loss --sw" --switch
 expect "junco design loss --switch " series shunt
+expect "junco design op --bias" --bias-resistor
+expect "junco lab " lots parts stats
+expect "junco lab parts --" --bench --db --json
 expect "junco plot " $kinds
 expect "junco lots --export " spice json
 expect "junco show WR-03 --export " json spice csv iv-csv ac-csv off-csv

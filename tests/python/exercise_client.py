@@ -53,9 +53,9 @@ def step_wrappers(c, lot):
     check(c.bench_describe()["safety"]["current_limit_a"] > 0, "bench.describe")
     card = c.part_export(part_id=ids[0], format="spice")["content"]
     check(".model" in card.lower(), "part.export spice is a .model card")
-    op = c.part_design(part_id=ids[0], calculator="op", inputs={"supply_v": 5.0, "rbias_ohm": 1000.0})
+    op = c.part_design(part_id=ids[0], calculator="op", inputs={"supply_v": 5.0, "bias_resistor_ohm": 1000.0})
     check(op["achievable"] in (True, False) and op["part_id"] == ids[0], "part.design")
-    again = c.design_run(calculator="op", part=op["part"], inputs={"supply_v": 5.0, "rbias_ohm": 1000.0})
+    again = c.design_run(calculator="op", part=op["part"], inputs={"supply_v": 5.0, "bias_resistor_ohm": 1000.0})
     check(again["result"] == op["result"], "design.run on the same part by value answers as part.design")
     # Errors come back typed, and the connection goes on.
     for call, code in ((lambda: c.part_fit(part_id=999999), junco_client.NOT_FOUND),

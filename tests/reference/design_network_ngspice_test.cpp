@@ -265,7 +265,7 @@ void check_network(const DesignPart& part, const NetworkCase& c, double* worst_d
   INFO(a.dump());
   REQUIRE(a["achievable"] == true);
   const double cb = value_of(a, "cblock_f"), l = value_of(a, "choke_h"), i_a = value_of(a, "bias_current_a");
-  const double vs = c.inputs["supply_v"].get<double>(), rb = c.inputs["rbias_ohm"].get<double>();
+  const double vs = c.inputs["supply_v"].get<double>(), rb = c.inputs["bias_resistor_ohm"].get<double>();
   const junco::test::Ngspice ng("biasnet");
   std::ostringstream f;
   f.precision(15);
@@ -320,13 +320,13 @@ TEST_CASE("bias-network: diode current and loss and supply leakage match ngspice
   // (issue 15): 0.1 dB.
   const DesignPart part = sim_part(5e-9);
   double worst = 0.0;
-  check_network(part, {{{"supply_v", 5.0}, {"rbias_ohm", 390.0}, {"rground_ohm", 1000.0}}, false, false, false}, &worst);
+  check_network(part, {{{"supply_v", 5.0}, {"bias_resistor_ohm", 390.0}, {"rground_ohm", 1000.0}}, false, false, false}, &worst);
   check_network(part,
-                {{{"supply_v", 12.0}, {"rbias_ohm", 1000.0}, {"rground_ohm", 2200.0}, {"feed_diode", "same"}, {"ferrite_r_ohm", 300.0},
+                {{{"supply_v", 12.0}, {"bias_resistor_ohm", 1000.0}, {"rground_ohm", 2200.0}, {"feed_diode", "same"}, {"ferrite_r_ohm", 300.0},
                   {"cbypass_f", 100e-12}, {"ratio", 5.0}},
                  true, true, true},
                 &worst);
-  check_network(part, {{{"supply_v", 3.3}, {"rbias_ohm", 150.0}, {"cblock_f", 1e-9}, {"choke_h", 1e-6}}, false, false, false}, &worst);
+  check_network(part, {{{"supply_v", 3.3}, {"bias_resistor_ohm", 150.0}, {"cblock_f", 1e-9}, {"choke_h", 1e-6}}, false, false, false}, &worst);
   WARN("largest difference from ngspice, bias network: " << worst << " dB");
   CHECK(worst < 0.01);
 }
@@ -336,7 +336,7 @@ TEST_CASE("bias-network: sized reactances and the Rb/Rgnd divider", "[reference]
   // |XL| = 10*Z0 at the band's low edge; the divider's Thevenin equivalent
   // (textbook circuit theory, from memory).
   const DesignPart part = sim_part(0.0);
-  const Json a = run_design("bias-network", &part, {{"supply_v", 5.0}, {"rbias_ohm", 390.0}, {"rground_ohm", 1000.0}, {"freq_low_hz", 10e6}});
+  const Json a = run_design("bias-network", &part, {{"supply_v", 5.0}, {"bias_resistor_ohm", 390.0}, {"rground_ohm", 1000.0}, {"freq_low_hz", 10e6}});
   CHECK(1.0 / (2 * M_PI * 10e6 * value_of(a, "cblock_f")) == Approx(5.0));
   CHECK(2 * M_PI * 10e6 * value_of(a, "choke_h") == Approx(500.0));
   CHECK(value_of(a, "thevenin_v") == Approx(5.0 * 1000 / 1390));
@@ -344,7 +344,7 @@ TEST_CASE("bias-network: sized reactances and the Rb/Rgnd divider", "[reference]
   // The current solves Vth = I*Rth + Vd(I).
   const double i = value_of(a, "bias_current_a");
   CHECK(i * value_of(a, "thevenin_ohm") + diode_voltage_v(part.dc, i, t27_k) == Approx(value_of(a, "thevenin_v")).epsilon(1e-9));
-  CHECK_THROWS_AS(run_design("bias-network", &part, {{"supply_v", 5.0}, {"rbias_ohm", 390.0}, {"freq_low_hz", 1e9}, {"freq_high_hz", 1e8}}),
+  CHECK_THROWS_AS(run_design("bias-network", &part, {{"supply_v", 5.0}, {"bias_resistor_ohm", 390.0}, {"freq_low_hz", 1e9}, {"freq_high_hz", 1e8}}),
                   DesignInputError);
 }
 

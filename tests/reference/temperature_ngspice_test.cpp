@@ -94,7 +94,7 @@ TEST_CASE("op calculator equals ngspice .op from -40 to 125 degC", "[reference][
       for (const double temp_c : {-40.0, 27.0, 85.0, 125.0}) {
         INFO(part.what << ", " << rbias_ohm << " ohm, " << temp_c << " degC");
         const Op ref = ngspice_op(card, 5.0, rbias_ohm, temp_c);
-        const Json a = run_design("op", &dp, {{"supply_v", 5.0}, {"rbias_ohm", rbias_ohm}, {"temp_k", kelvin_from_celsius(temp_c)}});
+        const Json a = run_design("op", &dp, {{"supply_v", 5.0}, {"bias_resistor_ohm", rbias_ohm}, {"temp_k", kelvin_from_celsius(temp_c)}});
         const double vd = value_of(a["result"], "diode_voltage_v"), i = value_of(a["result"], "bias_current_a");
         CHECK(std::abs(vd - ref.vd_v) < 1e-3);  // the issue's target
         CHECK(std::abs(vd - ref.vd_v) < 2e-6);  // what the law, done right, achieves

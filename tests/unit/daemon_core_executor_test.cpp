@@ -588,7 +588,7 @@ TEST_CASE("part.export json is a model document that junco design op reads; spic
   const fs::path file = dir.path / "QX-7-01.json";
   std::ofstream(file) << doc;
   junco::test::ChildProcess cli({std::string(JUNCO_BIN_DIR) + "/junco", "design", "op", "--model", file.string(), "--supply", "5",
-                                 "--rbias", "100"});
+                                 "--bias-resistor", "100"});
   std::string out;
   while (auto line = cli.read_line(5000ms)) out += *line + "\n";
   INFO(out);

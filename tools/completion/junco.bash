@@ -24,9 +24,11 @@ _junco_commands() {
 }
 
 _junco_subcommands() {
-  # design: the calculators listed under "calculators"; plot: the kinds in its usage lines.
+  # design: the calculators listed under "calculators"; lab: its "lab commands";
+  # plot: the kinds in its usage lines.
   case "$1" in
     design) _junco_help design | awk '/^calculators/ { on = 1; next } on && /^  [a-z]/ { print $1 } /^$/ { on = 0 }' ;;
+    lab) _junco_help lab | awk '/^lab commands/ { on = 1; next } on && /^  [a-z]/ { print $1 } /^$/ { on = 0 }' ;;
     plot) _junco_help plot | sed -n 's/^\(usage:\)\{0,1\} *junco plot \([a-z]*\) .*/\2/p' ;;
     export) printf '%s\n' spice json stats ;;
   esac
@@ -46,7 +48,7 @@ _junco() {
   fi
   local cmd="${COMP_WORDS[1]}" sub=""
   case "$cmd" in
-    design | plot)
+    design | plot | lab)
       if ((COMP_CWORD == 2)); then
         COMPREPLY=($(compgen -W "$(_junco_subcommands "$cmd") --help" -- "$cur"))
         return

@@ -7,6 +7,7 @@
 
 #include <cstdio>
 #include <memory>
+#include <algorithm>
 #include <set>
 
 namespace junco::cli {
@@ -110,7 +111,16 @@ std::optional<int> parse_command_line(CLI::App& app, const std::string& command,
     return exit_ok;
   } catch (const CLI::ExtrasError& e) {  // CLI11: "The following argument(s) was/were not expected: X Y"
     const std::string what = e.what();
-    const std::string extras = what.substr(what.find(": ") == std::string::npos ? 0 : what.find(": ") + 2);
+    const std::string listed = what.substr(what.find(": ") == std::string::npos ? 0 : what.find(": ") + 2);
+    // CLI11 lists them in the order it was given them: ours, last first.
+    std::vector<std::string> words;
+    for (std::size_t start = 0; start <= listed.size();) {
+      const std::size_t end = std::min(listed.find(' ', start), listed.size());
+      words.push_back(listed.substr(start, end - start));
+      start = end + 1;
+    }
+    std::string extras;
+    for (auto w = words.rbegin(); w != words.rend(); ++w) extras += (extras.empty() ? "" : " ") + *w;
     std::fprintf(stderr, "junco %s: unknown option or extra argument '%s' (see junco %s --help)\n", command.c_str(), extras.c_str(),
                  command.c_str());
     return exit_usage;

@@ -1,6 +1,7 @@
 // junco bench: check the bench before trusting it — each instrument's
 // address, dialect, *IDN? and one reading that changes nothing, and why an
 // instrument or the bench is not open (daemon method bench.check).
+#include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
 #include "tools/junco/rpc_client.hpp"
 
@@ -10,9 +11,7 @@
 namespace junco::cli {
 namespace {
 
-const char* const usage = R"(usage: junco bench [--socket PATH] [--json]
-
-Asks juncod to check every instrument of its configured bench, one at a time:
+const char* const description = R"(Asks juncod to check every instrument of its configured bench, one at a time:
 open it with short timeouts, read its *IDN?, and take one reading that
 changes nothing (the supply's output state and voltage/current readback, the
 meter's DC voltage, the switch's channel state, the generator's output state,
@@ -25,16 +24,22 @@ While a job runs, the instruments are not disturbed: juncod shows what it
 knows (addresses, identities found at open) and says which job holds the
 bench. A mute instrument costs about 1 s (connect 0.5 s + reply 0.7 s at
 most); the whole check is bounded by the number of instruments.
-
-options:
-  --socket PATH  juncod's socket (default: $JUNCO_SOCKET; as root
-                 /run/junco/juncod.sock; else your own daemon's
-                 $XDG_RUNTIME_DIR/junco/juncod.sock if it is there, else the
-                 service's /run/junco/juncod.sock)
-  --json         print the bench.check result as JSON
-
-exit status: 0 every instrument opened and answered (or a job holds the
+)";
+const char* const footer = R"(exit status: 0 every instrument opened and answered (or a job holds the
 bench); 1 some instrument did not, or juncod could not be reached.)";
+
+struct Options {
+  std::string socket;
+  bool json = false;
+};
+Options g_opt;  // bound by define(); one command per process
+
+void define(CLI::App& app) {
+  app.description(description);
+  app.footer(footer);
+  add_socket_option(app, g_opt.socket);
+  app.add_flag("--json", g_opt.json, "print the bench.check result as JSON");
+}
 
 void print_reading(const Json& r) {
   const std::string name = r.value("name", "?");
@@ -54,12 +59,10 @@ void print_reading(const Json& r) {
   }
 }
 
-int run(std::vector<std::string> args) {
+int run() {
   return guarded("bench", [&] {
-    const auto socket = take_socket_option(args);
-    const bool json = take_flag(args, "--json");
-    if (!args.empty()) throw std::invalid_argument("unexpected argument '" + args.front() + "'");
-    RpcClient client(socket);
+    const bool json = g_opt.json;
+    RpcClient client(socket_path(g_opt.socket));
     const Json b = client.call("bench.check", Json::object(), std::chrono::seconds(60));
     bool all_ok = true;
     for (const auto& inst : b.value("instruments", Json::array()))
@@ -89,7 +92,16 @@ int run(std::vector<std::string> args) {
   });
 }
 
-const bool registered = register_command({"bench", "check each instrument: address, *IDN?, one safe reading, why not open", usage, run});
+Command make_command() {
+  Command c;
+  c.name = "bench";
+  c.summary = "check each instrument: address, *IDN?, one safe reading, why not open";
+  c.define = define;
+  c.run_parsed = run;
+  return c;
+}
+
+const bool registered = register_command(make_command());
 
 }  // namespace
 }  // namespace junco::cli

@@ -5,6 +5,7 @@
 #include "design/calculators.hpp"
 #include "units/si_text.hpp"
 #include "formats/model_document.hpp"
+#include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
 #include "tools/junco/rpc_client.hpp"
 
@@ -22,67 +23,27 @@ namespace {
 
 using namespace junco::fitting;
 
-const char* const part_help =
-    "part (one of):\n"
-    "  --part PART [--lot NAME] [--socket PATH]\n"
-    "                      a stored part (id or label); juncod computes with its latest fit\n"
-    "  --model FILE        JSON model document (junco show PART --export json, junco export)\n"
-    "  --is A --n N --rs OHM   explicit parameters, e.g. --is 2.5n --n 1.8 --rs 0.6\n"
-    "and, for any of them:\n"
-    "  --cj F --vj V --m M     junction capacitance law (overrides the part's)\n"
-    "  --tt S              transit time TT: diffusion charge TT*Id (overrides the part's)\n"
-    "  --temp-c DEGC       junction temperature (default: the fit's, else 27 degC); IS and RS\n"
-    "                      follow the SPICE law from the fit's temperature (TNOM):\n"
-    "                      IS(T) = IS*(T/TNOM)^(XTI/N)*exp((T/TNOM-1)*EG/(N*Vt(T))),\n"
-    "                      RS(T) = RS*(1 + TRS1*(T-TNOM))\n"
-    "  --eg EV --xti X --trs1 PER_K   the law's EG (default 1.11), XTI (3), TRS1 (0)\n"
-    "  --json              print the answer as JSON (the part.design result)\n"
-    "values take engineering suffixes: 10mA, 1k, 2.2pF, 100MHz (m = milli, M = mega)\n";
+const char* const part_text =
+    "The part, one of: --part PART (a stored part, id or label; juncod computes with its latest\n"
+    "fit), --model FILE (a JSON model document: junco show PART --export json, junco export), or\n"
+    "--is --n --rs (explicit parameters, e.g. --is 2.5n --n 1.8 --rs 0.6). --cj --vj --m --tt\n"
+    "override the part's charge. --temp-c sets the junction temperature (default: the fit's,\n"
+    "else 27 degC); IS and RS follow the SPICE law from the fit's temperature (TNOM):\n"
+    "  IS(T) = IS*(T/TNOM)^(XTI/N)*exp((T/TNOM-1)*EG/(N*Vt(T))),  RS(T) = RS*(1 + TRS1*(T-TNOM))\n"
+    "with --eg (default 1.11), --xti (3), --trs1 (0).\n";
+
+const char* const values_text = "Values take engineering suffixes: 10mA, 1k, 2.2pF, 100MHz (m = milli, M = mega).\n";
+
+const char* const design_footer =
+    "examples:\n"
+    "  junco design bias-r --part WR-03 --supply 5 --current 10mA\n"
+    "  junco design loss --is 1e-14 --n 1 --rs 1 --current 10mA --switch series\n"
+    "  junco design isolation --model wr03.json --cj 0.3pF --freq 1GHz --reverse 5V\n"
+    "  junco design distortion --part WR-03 --current 10mA --amplitude 0.1V --freq 100MHz --tt 5ns --json\n"
+    "exit: 0 ok, 1 not achievable, over a power limit or daemon error, 2 bad input";
 
 // Units as a user reads them.
 std::string shown_unit(const std::string& unit) { return unit == "Ohm" ? "ohm" : unit; }
-
-std::string option_help(const DesignInputSpec& s) {
-  std::string t = "  --" + s.option;
-  if (!s.choices.empty()) {
-    std::string list;
-    for (const auto& c : s.choices) list += (list.empty() ? "" : "|") + c;
-    t += " " + list;
-  } else {
-    t += " " + (s.unit.empty() ? std::string("NUMBER") : shown_unit(s.unit));
-  }
-  t.resize(std::max<std::size_t>(t.size() + 1, 26), ' ');
-  t += s.label;
-  if (!s.choices.empty()) t += " (default " + s.choices.front() + ")";
-  else if (s.fallback && std::isfinite(*s.fallback)) t += " (default " + units::format_si(*s.fallback, shown_unit(s.unit), 3) + ")";
-  else if (s.fallback) t += " (default " + s.infinite_text + ")";
-  else if (!s.optional) t += " (required)";
-  return t + "\n";
-}
-
-std::string calculator_help(const DesignCalculator& c) {
-  std::string t = "usage: junco design " + c.name + " [options]\n\n" + c.synopsis + "\n\noptions:\n";
-  for (const auto& s : c.inputs) t += option_help(s);
-  return t + "\n" + (c.needs_part ? std::string(part_help) : std::string("no part needed\n"));
-}
-
-std::string usage() {
-  std::string u =
-      "usage: junco design CALCULATOR [options]\n\n"
-      "Calculators for a diode switch, using a fitted part. Each prints the part and every\n"
-      "input it assumed, defaults included. Defaults: Rg = RL = 50 ohm, 10 MHz, no series\n"
-      "inductance, the fit's temperature.\n\ncalculators (junco design CALCULATOR --help for the options):\n";
-  for (const auto& c : design_calculators()) u += "  " + c.name + "\n      " + c.synopsis + "\n";
-  u += "\n";
-  u += part_help;
-  u += "\nexamples:\n"
-       "  junco design bias-r --part WR-03 --supply 5 --current 10mA\n"
-       "  junco design loss --is 1e-14 --n 1 --rs 1 --current 10mA --switch series\n"
-       "  junco design isolation --model wr03.json --cj 0.3pF --freq 1GHz --reverse 5V\n"
-       "  junco design distortion --part WR-03 --current 10mA --amplitude 0.1V --freq 100MHz --tt 5ns --json\n"
-       "exit: 0 ok, 1 not achievable, over a power limit or daemon error, 2 bad input\n";
-  return u;
-}
 
 // The command line of one calculator, split into the part source and the inputs.
 struct Request {
@@ -93,13 +54,79 @@ struct Request {
   bool json = false;
 };
 
-const DesignInputSpec* spec_by_option(const DesignCalculator& c, const std::string& option) {
-  for (const auto& s : c.inputs)
-    if (s.option == option) return &s;
-  if (c.needs_part)
+// What the command line gave, as text; checked and converted after parsing
+// (parse_request), so every error names the option.
+struct Given {
+  const DesignCalculator* calculator = nullptr;
+  std::string socket;
+  std::map<std::string, std::string> part_source;  // part, lot, model, is, n, rs
+  std::map<std::string, std::string> inputs;       // JSON key -> text
+  std::optional<std::string> temp_c;
+  std::string unknown;  // a first word that is no calculator
+  bool json = false;
+};
+Given g_given;  // bound by define(); one command per process
+
+// "--supply V", its help the table's label and its default or "(required)".
+void add_input_option(CLI::App& sub, const DesignInputSpec& s) {
+  std::string help = s.label;
+  if (!s.choices.empty()) help += " (default " + s.choices.front() + ")";
+  else if (s.fallback && std::isfinite(*s.fallback)) help += " (default " + junco::units::format_si(*s.fallback, shown_unit(s.unit), 3) + ")";
+  else if (s.fallback) help += " (default " + s.infinite_text + ")";
+  else if (!s.optional) help += " (required)";
+  const std::string key = s.key;
+  auto* o = sub.add_option_function<std::string>("--" + s.option, [key](const std::string& v) { g_given.inputs[key] = v; }, help);
+  if (!s.choices.empty()) {
+    std::string list;
+    for (const auto& c : s.choices) list += (list.empty() ? "" : "|") + c;
+    o->check(CLI::IsMember(s.choices).description(""))->type_name(list);
+  } else {
+    o->type_name(s.unit.empty() ? std::string("NUMBER") : shown_unit(s.unit));
+  }
+}
+
+void add_text(CLI::App& sub, const std::string& name, const std::string& metavar, const std::string& help) {
+  sub.add_option_function<std::string>("--" + name, [name](const std::string& v) { g_given.part_source[name] = v; }, help)
+      ->type_name(metavar);
+}
+
+// One subcommand per row of the calculator table: a row added there is an
+// option set and a help page here, with no change to this file.
+void define_calculator(CLI::App& app, const DesignCalculator& c) {
+  auto* sub = app.add_subcommand(c.name, c.synopsis)->group("calculators (junco design CALCULATOR --help for the options)");
+  sub->get_formatter()->column_width(30);
+  sub->get_formatter()->label("OPTIONS", "options");
+  sub->get_formatter()->label("REQUIRED", "required");
+  sub->footer((c.needs_part ? std::string(part_text) : std::string("No part needed.\n")) + values_text + "\n" + design_footer);
+  for (const auto& s : c.inputs) add_input_option(*sub, s);
+  if (c.needs_part) {
+    add_text(*sub, "part", "PART", "a stored part (id or label); juncod computes with its latest fit");
+    add_text(*sub, "lot", "NAME", "the lot of a --part given by label");
+    add_text(*sub, "model", "FILE", "JSON model document (junco show PART --export json, junco export)");
+    add_text(*sub, "is", "A", "explicit saturation current IS (with --n and --rs)");
+    add_text(*sub, "n", "N", "explicit emission coefficient N");
+    add_text(*sub, "rs", "OHM", "explicit series resistance RS");
     for (const auto& s : design_part_inputs())
-      if (s.option == option) return &s;
-  return nullptr;
+      if (s.key != "temp_k") add_input_option(*sub, s);  // temperature: in degC, below
+    sub->add_option_function<std::string>("--temp-c", [](const std::string& v) { g_given.temp_c = v; },
+                                          "junction temperature in degC (default: the fit's, else 27 degC)")
+        ->type_name("DEGC");
+  }
+  add_socket_option(*sub, g_given.socket);
+  sub->add_flag("--json", g_given.json, "print the answer as JSON (the part.design result)");
+  sub->callback([&c] { g_given.calculator = &c; });
+}
+
+void define(CLI::App& app) {
+  app.description(
+      "Calculators for a diode switch, using a fitted part. Each prints the part and every\n"
+      "input it assumed, defaults included. Defaults: Rg = RL = 50 ohm, 10 MHz, no series\n"
+      "inductance, the fit's temperature.\n\n" + std::string(part_text) + values_text);
+  app.footer(design_footer);
+  // Not a calculator's name: kept to say so, naming the calculators.
+  app.require_subcommand(0, 1);
+  app.add_option("CALCULATOR", g_given.unknown, "")->group("");
+  for (const auto& c : design_calculators()) define_calculator(app, c);
 }
 
 double parse_value(const std::string& option, const std::string& text, const std::string& unit) {
@@ -109,29 +136,28 @@ double parse_value(const std::string& option, const std::string& text, const std
   return *v;
 }
 
-Request parse_request(const DesignCalculator& c, std::vector<std::string> args) {
+const DesignInputSpec* spec_by_key(const DesignCalculator& c, const std::string& key) {
+  for (const auto* list : {&c.inputs, &design_part_inputs()})
+    for (const auto& s : *list)
+      if (s.key == key) return &s;
+  return nullptr;
+}
+
+Request parse_request(const DesignCalculator& c, const Given& g) {
   Request r;
-  r.socket = take_socket_option(args);
-  r.json = take_flag(args, "--json");
-  for (std::size_t k = 0; k < args.size(); ++k) {
-    const std::string& a = args[k];
-    if (a.rfind("--", 0) != 0) throw std::invalid_argument("unexpected argument '" + a + "'");
-    const std::string option = a.substr(2);
-    if (k + 1 >= args.size()) throw std::invalid_argument(a + " needs a value");
-    const std::string value = args[++k];
-    const bool part_option = option == "part" || option == "lot" || option == "model" || option == "is" || option == "n" || option == "rs";
-    if (part_option && !c.needs_part) throw std::invalid_argument("the " + c.name + " calculator needs no part (" + a + ")");
-    if (option == "part") r.part = value;
-    else if (option == "lot") r.lot = value;
-    else if (option == "model") r.model = value;
-    else if (option == "is" || option == "n" || option == "rs") r.explicit_part[option] = value;
-    else if (option == "temp-c" && c.needs_part) r.inputs["temp_k"] = kelvin_from_celsius(parse_value(option, value, "C"));
-    else if (const auto* s = spec_by_option(c, option)) {
-      if (s->choices.empty()) r.inputs[s->key] = parse_value(option, value, s->unit);
-      else r.inputs[s->key] = value;
-    } else {
-      throw std::invalid_argument("unknown option " + a + " for " + c.name);
-    }
+  r.socket = socket_path(g.socket);
+  r.json = g.json;
+  for (const auto& [name, value] : g.part_source) {
+    if (name == "part") r.part = value;
+    else if (name == "lot") r.lot = value;
+    else if (name == "model") r.model = value;
+    else r.explicit_part[name] = value;
+  }
+  if (g.temp_c) r.inputs["temp_k"] = kelvin_from_celsius(parse_value("temp-c", *g.temp_c, "C"));
+  for (const auto& [key, value] : g.inputs) {
+    const auto* s = spec_by_key(c, key);
+    if (s->choices.empty()) r.inputs[key] = parse_value(s->option, value, s->unit);
+    else r.inputs[key] = value;
   }
   if (!c.needs_part) return r;
   const int sources = (r.part ? 1 : 0) + (r.model ? 1 : 0) + (r.explicit_part.empty() ? 0 : 1);
@@ -218,9 +244,9 @@ std::string as_option_message(const DesignCalculator& c, const DesignInputError&
   return message;
 }
 
-int run_calculator(const DesignCalculator& c, const std::vector<std::string>& args) {
+int run_calculator(const DesignCalculator& c) {
   return guarded("design " + c.name, [&] {
-    const Request r = parse_request(c, args);
+    const Request r = parse_request(c, g_given);
     nlohmann::json answer;
     if (r.part) {
       RpcClient client(r.socket);
@@ -254,27 +280,28 @@ int run_calculator(const DesignCalculator& c, const std::vector<std::string>& ar
   });
 }
 
-int run(const std::vector<std::string>& args) {
-  if (args.empty()) {
-    std::fprintf(stderr, "junco design: which calculator? (junco design --help)\n");
-    return exit_usage;
-  }
-  const DesignCalculator* c = find_design_calculator(args[0]);
-  if (!c) {
-    std::fprintf(stderr, "junco design: unknown calculator '%s' (junco design --help)\n", args[0].c_str());
-    return exit_usage;
-  }
-  const std::vector<std::string> rest(args.begin() + 1, args.end());
-  if (std::find(rest.begin(), rest.end(), "--help") != rest.end()) {
-    std::printf("%s", calculator_help(*c).c_str());
-    return exit_ok;
-  }
-  return run_calculator(*c, rest);
+int run() {
+  if (g_given.calculator) return run_calculator(*g_given.calculator);
+  std::string names;
+  for (const auto& c : design_calculators()) names += (names.empty() ? "" : ", ") + c.name;
+  if (g_given.unknown.empty()) std::fprintf(stderr, "junco design: which calculator? (%s; see junco design --help)\n", names.c_str());
+  else std::fprintf(stderr, "junco design: unknown calculator '%s' (%s; see junco design --help)\n", g_given.unknown.c_str(), names.c_str());
+  return exit_usage;
 }
 
-const bool registered = register_command(
-    {"design", "design calculators using a fitted part (bias, loss, distortion, isolation, power)", usage(), run, true, {}, {},
-     {{"--temp", "--temp-c"}}});  // one name for temperature in °C across commands (docs/names.md)
+Command make_command() {
+  Command c;
+  c.name = "design";
+  c.summary = "design calculators using a fitted part (bias, loss, distortion, isolation, power)";
+  c.define = define;
+  c.run_parsed = run;
+  // Old spellings keep working with a warning (docs/names.md): one name for
+  // temperature in °C across commands, and the fixture resistors' names.
+  c.renamed = {{"--temp", "--temp-c"}, {"--rbias", "--bias-resistor"}, {"--rreturn", "--dc-return"}};
+  return c;
+}
+
+const bool registered = register_command(make_command());
 
 }  // namespace
 }  // namespace junco::cli

@@ -4,6 +4,7 @@
 #include "formats/readings_csv.hpp"
 #include "fitting/extract.hpp"
 #include "fitting/fit_solve.hpp"  // the solver bounds a fit must not end at
+#include "formats/fit_json.hpp"  // the fit as the daemon's API writes it
 #include "formats/iv_csv.hpp"
 #include "formats/model_document.hpp"
 #include "tools/junco/cli_options.hpp"
@@ -81,7 +82,7 @@ struct Args {
   // As typed, checked after parsing.
   double temp_c = 27.0;
   std::string robust, accuracy_v, accuracy_i, ac_unit = "vrms";
-  std::optional<double> rreturn_ohm, noise_floor_a;
+  std::optional<double> dc_return_ohm, noise_floor_a;
 };
 
 Args g_args;  // one command per process: the options are bound here by define_fit
@@ -145,7 +146,7 @@ void define_fit(CLI::App& app) {
       ->check(CLI::IsMember({"vrms", "vpp"}).description(""))
       ->type_name("vrms|vpp");
   add_si_option(app, "--rl", a.fixture.rl_ohm, "ohm", "fixture load", "50");
-  add_si_option(app, "--rreturn", a.rreturn_ohm, "ohm", "DC-return resistor at the cathode (default: a choke, open at AC)");
+  add_si_option(app, "--dc-return", a.dc_return_ohm, "ohm", "DC-return resistor at the cathode (default: a choke, open at AC)");
   add_si_option(app, "--ac-sigma", a.ac_sigma_db, "dB", "uncertainty of one AC reading", "0.01");
   add_si_option(app, "--cj", a.cj_f, "F", "junction capacitance in the AC model and the AC-alone fit (default: none)");
 }
@@ -166,9 +167,9 @@ void finish_args(Args& a) {
   }
   a.peak_per_unit = a.ac_unit == "vpp" ? 0.5 : std::sqrt(2.0);
   if (!(a.fixture.rl_ohm > 0)) throw UsageError("--rl must be > 0");
-  if (a.rreturn_ohm) {
-    if (!(*a.rreturn_ohm > 0)) throw UsageError("--rreturn must be > 0 (leave it out for a choke)");
-    a.fixture.dc_return_ohm = *a.rreturn_ohm;
+  if (a.dc_return_ohm) {
+    if (!(*a.dc_return_ohm > 0)) throw UsageError("--dc-return must be > 0 (leave it out for a choke)");
+    a.fixture.dc_return_ohm = *a.dc_return_ohm;
   }
   if (!(a.ac_sigma_db > 0)) throw UsageError("--ac-sigma must be > 0");
   if (!(a.cj_f >= 0)) throw UsageError("--cj must be >= 0");
@@ -252,22 +253,15 @@ Derived derive(const jf::FitResult& r) {
   return {jf::forward_voltage_v(r, 1e-3), jf::forward_voltage_v(r, 10e-3), jf::small_signal_resistance_ohm(r, 5e-3)};
 }
 
+// The fit as the API's part.fit gives it (formats/fit_json.hpp:
+// values nested as {value, std_error}), plus what only an offline fit has.
 void print_json(const Args& a, const jf::IvCsv& csv, const jf::FitResult& r, const nlohmann::json& joint,
                 const std::vector<std::string>& at_bounds) {
-  nlohmann::json j;
+  nlohmann::json j = jf::fit_result_json(r);
   j["file"] = a.file;
-  j["status"] = at_bounds.empty() ? jf::to_string(r.status) : "at_bound";
+  if (!at_bounds.empty()) j["status"] = "at_bound";
   j["at_bounds"] = at_bounds;
-  j["message"] = r.message;
-  j["temp_k"] = r.temp_k;
   j["points_total"] = csv.points.size();
-  j["points_used"] = r.points_used;
-  const std::pair<const char*, const jf::Estimate*> params[] = {
-      {"is_a", &r.is_a}, {"n", &r.n}, {"rs_ohm", &r.rs_ohm}, {"rsh_ohm", &r.rsh_ohm}};
-  for (std::size_t k = 0; k < r.parameter_names.size(); ++k) {
-    j[params[k].first] = number(params[k].second->value);
-    j[std::string(params[k].first) + "_se"] = number(params[k].second->std_error);
-  }
   j["parameter_names"] = r.parameter_names;
   nlohmann::json corr = nlohmann::json::array();
   for (const auto& row : r.correlation) {
@@ -276,18 +270,15 @@ void print_json(const Args& a, const jf::IvCsv& csv, const jf::FitResult& r, con
     corr.push_back(jr);
   }
   j["correlation"] = corr;
-  j["cost"] = number(r.cost);
   j["reduced_chi2"] = number(r.reduced_chi2);
-  j["rms_residual_v"] = number(r.rms_residual);
   j["iterations"] = r.iterations;
   nlohmann::json ex = nlohmann::json::array();
   for (const auto& e : r.excluded) ex.push_back({{"line", csv.line_of_point[e.index]}, {"index", e.index}, {"reason", e.reason}});
   j["excluded"] = ex;
-  j["warnings"] = r.warnings;
   const Derived d = derive(r);
-  j["derived"] = {{"vf_at_1ma_v", number(d.vf_1ma.value)},   {"vf_at_1ma_v_se", number(d.vf_1ma.std_error)},
-                  {"vf_at_10ma_v", number(d.vf_10ma.value)}, {"vf_at_10ma_v_se", number(d.vf_10ma.std_error)},
-                  {"rd_at_5ma_ohm", number(d.rd_5ma.value)}, {"rd_at_5ma_ohm_se", number(d.rd_5ma.std_error)}};
+  j["derived"] = {{"vf_at_1ma_v", jf::estimate_json(d.vf_1ma)},
+                  {"vf_at_10ma_v", jf::estimate_json(d.vf_10ma)},
+                  {"rd_at_5ma_ohm", jf::estimate_json(d.rd_5ma)}};
   if (!joint.is_null()) j["joint"] = joint;
   std::printf("%s\n", j.dump(2).c_str());
 }
@@ -437,6 +428,7 @@ Command fit_command() {
   c.summary = "fit Is, n, Rs to a measured forward curve (CSV)";
   c.define = define_fit;
   c.run_parsed = run_fit;
+  c.renamed = {{"--rreturn", "--dc-return"}};  // the old spelling warns (docs/names.md)
   return c;
 }
 

@@ -2,6 +2,7 @@
 // stable views of schema/pg (junco.lot_benches, junco.part_fits), as any
 // team tool would: no juncod involved, read-only access is enough.
 #include "lab/pg.hpp"
+#include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
 #include "tools/junco/rpc_client.hpp"
 
@@ -10,6 +11,7 @@
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <optional>
 #include <stdexcept>
 
 namespace junco::cli {
@@ -17,39 +19,58 @@ namespace {
 
 using Json = nlohmann::json;
 
-const char* const usage = R"(usage: junco lab lots [--db CONNINFO] [--json]
-       junco lab parts LOT [--bench NAME] [--db CONNINFO] [--json]
-       junco lab stats LOT [--db CONNINFO] [--json]
-
-Reads the lab database that the benches publish to (docs/lab.md).
-  lots         every lot, per bench that measured it: parts, parts with a fit
-  parts LOT    the latest fit of each part of LOT, on every bench (Is, n, Rs,
-               CJO, VJ, M, status) from the view junco.part_fits
-  stats LOT    the spread of LOT's converged fits, per bench and over all
-               benches: count, mean, standard deviation, min and max of n and
-               Rs, and of log10(Is) (Is shown as its geometric mean)
-
+const char* const description = R"(Reads the lab database that the benches publish to (docs/lab.md).
 The same lot name measured on two benches is two measurements: each row
 names its bench.
-
-options:
-  --db CONNINFO  a libpq connection string (default: $JUNCO_LAB, else libpq's
-                 own defaults: PGHOST, PGDATABASE, PGSERVICE ...). Give the
-                 password the libpq way (~/.pgpass, PGPASSFILE, a service file);
-                 a read-only user (granted junco_reader) is enough
-  --bench NAME   parts: only this bench
-  --json         print the rows as JSON
-
-exit status: 0 done; 1 the lab could not be read; 2 bad command line.
+)";
+const char* const footer = R"(exit status: 0 done; 1 the lab could not be read; 2 bad command line.
 
 examples:
   junco lab lots --db "service=junco-lab"
+  junco lab parts WREN-0912 --bench bench-a
   junco lab stats WREN-0912)";
 
-std::string conninfo(std::vector<std::string>& args) {
-  if (auto db = take_option(args, "--db")) return *db;
-  if (const char* env = std::getenv("JUNCO_LAB"); env && *env) return env;
-  return "";
+const char* const db_help =
+    "a libpq connection string (default: $JUNCO_LAB, else libpq's own defaults: PGHOST, PGDATABASE, PGSERVICE ...). "
+    "Give the password the libpq way (~/.pgpass, PGPASSFILE, a service file); a read-only user (granted junco_reader) "
+    "is enough";
+
+struct Options {
+  std::string what;  // lots, parts, stats
+  std::string lot, bench, db;
+  bool json = false;
+};
+Options g_opt;  // bound by define(); one command per process
+
+// --db and --json are taken before the lab command (junco lab --json lots)
+// as well as after it, as the command line always has.
+void add_common(CLI::App& app) {
+  app.add_option("--db", g_opt.db, db_help)->type_name("CONNINFO");
+  app.add_flag("--json", g_opt.json, "print the rows as JSON");
+}
+
+void define(CLI::App& app) {
+  app.description(description);
+  app.footer(footer);
+  add_common(app);
+  app.require_subcommand(1, 1);
+  auto* lots = app.add_subcommand("lots", "every lot, per bench that measured it: parts, parts with a fit");
+  auto* parts = app.add_subcommand("parts", "the latest fit of each part of LOT, on every bench (Is, n, Rs, CJO, VJ, M, status) "
+                                            "from the view junco.part_fits");
+  auto* stats = app.add_subcommand("stats", "the spread of LOT's converged fits, per bench and over all benches: count, mean, "
+                                            "standard deviation, min and max of n and Rs, and of log10(Is) (Is shown as its "
+                                            "geometric mean)");
+  for (auto* sub : {lots, parts, stats}) {
+    sub->get_formatter()->column_width(30);
+    sub->get_formatter()->label("OPTIONS", "options");
+    sub->get_formatter()->label("REQUIRED", "required");
+    sub->group("lab commands");
+    sub->footer(footer);
+    add_common(*sub);
+    sub->callback([sub] { g_opt.what = sub->get_name(); });
+  }
+  for (auto* sub : {parts, stats}) sub->add_option("LOT", g_opt.lot, "the lot")->required()->type_name("");
+  parts->add_option("--bench", g_opt.bench, "only this bench")->type_name("NAME");
 }
 
 Json rows_json(const lab::PgResult& r) {
@@ -136,36 +157,37 @@ int stats(lab::PgConnection& db, const std::string& lot, bool json) {
   return exit_ok;
 }
 
-int run(std::vector<std::string> args) {
+std::string conninfo() {
+  if (!g_opt.db.empty()) return g_opt.db;
+  if (const char* env = std::getenv("JUNCO_LAB"); env && *env) return env;
+  return "";
+}
+
+int run() {
   return guarded("lab", [&] {
-    const bool json = take_flag(args, "--json");
-    const auto bench = take_option(args, "--bench");
-    const std::string info = conninfo(args);
-    if (args.empty()) throw std::invalid_argument("which one: lots, parts LOT or stats LOT?");
-    const std::string what = args.front();
-    args.erase(args.begin());
-    std::optional<std::string> lot;
-    if (what == "parts" || what == "stats") {
-      if (args.empty()) throw std::invalid_argument(what + " needs a LOT");
-      lot = args.front();
-      args.erase(args.begin());
-    } else if (what != "lots") {
-      throw std::invalid_argument("unknown lab command '" + what + "' (lots, parts LOT, stats LOT)");
-    }
-    if (!args.empty()) throw std::invalid_argument("unexpected argument '" + args.front() + "'");
-    if (bench && what != "parts") throw std::invalid_argument("--bench goes with parts");
+    const std::string info = conninfo();
     if (const std::string bad = lab::conninfo_problem(info); !bad.empty() && bad.rfind("must not", 0) != 0)
       throw std::invalid_argument("--db: " + bad);
     lab::PgConnection db(info, 5, "junco lab");
     if (lab::lab_schema_version(db) == 0)
       throw std::runtime_error("lab database " + lab::describe_conninfo(info) + ": no junco schema (no bench has published yet)");
-    if (what == "lots") return lots(db, json);
-    if (what == "parts") return parts(db, *lot, bench, json);
-    return stats(db, *lot, json);
+    if (g_opt.what == "lots") return lots(db, g_opt.json);
+    if (g_opt.what == "parts")
+      return parts(db, g_opt.lot, g_opt.bench.empty() ? std::nullopt : std::optional<std::string>(g_opt.bench), g_opt.json);
+    return stats(db, g_opt.lot, g_opt.json);
   });
 }
 
-const bool registered = register_command({"lab", "read the lab database: lots, parts, spread across benches", usage, run});
+Command make_command() {
+  Command c;
+  c.name = "lab";
+  c.summary = "read the lab database: lots, parts, spread across benches";
+  c.define = define;
+  c.run_parsed = run;
+  return c;
+}
+
+const bool registered = register_command(make_command());
 
 }  // namespace
 }  // namespace junco::cli

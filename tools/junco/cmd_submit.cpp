@@ -1,4 +1,5 @@
 // junco submit PLAN.jsonc: queue a job on the daemon.
+#include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
 #include "tools/junco/rpc_client.hpp"
 #include "formats/json_limits.hpp"
@@ -10,9 +11,7 @@
 namespace junco::cli {
 namespace {
 
-const char* const usage = R"(usage: junco submit PLAN.jsonc [--watch | --dry-run] [--socket PATH]
-
-Sends a plan to juncod, which checks it against the bench's safety limits
+const char* const description = R"(Sends a plan to juncod, which checks it against the bench's safety limits
 and queues it as a job. Prints the job id (alone on its line, so scripts can
 use job=$(junco submit plan.jsonc)). A refused plan is reported with the
 limit or field at fault, and nothing is queued.
@@ -29,16 +28,26 @@ PLAN.jsonc is JSON with // and /* */ comments allowed, for example:
   }
 
 The full format (ac sweeps, averaging, compliance) is in docs/daemon-core.md.
-
-options:
-  --dry-run      check the plan as a submit would and show what it would do
-                 on this bench (readings, duration, peak supply voltage,
-                 current and power, which safety limits bind); queue nothing
-  --watch        follow the job until it ends (as junco watch)
-  --socket PATH  juncod's socket (see junco status --help)
-
-exit status: 0 queued (with --watch: and done; with --dry-run: the plan
+)";
+const char* const footer = R"(exit status: 0 queued (with --watch: and done; with --dry-run: the plan
 would be accepted); 1 daemon error; 2 bad file or refused plan.)";
+
+struct Options {
+  std::string plan_file, socket;
+  bool watch = false, dry_run = false;
+};
+Options g_opt;  // bound by define(); one command per process
+
+void define(CLI::App& app) {
+  app.description(description);
+  app.footer(footer);
+  app.add_option("PLAN", g_opt.plan_file, "the plan file (JSON with comments, see above)")->required()->type_name("");
+  app.add_flag("--dry-run", g_opt.dry_run,
+                           "check the plan as a submit would and show what it would do on this bench (readings, duration, "
+                           "peak supply voltage, current and power, which safety limits bind); queue nothing");
+  app.add_flag("--watch", g_opt.watch, "follow the job until it ends (as junco watch)");
+  add_socket_option(app, g_opt.socket);
+}
 
 Json read_plan(const std::string& path) {
   try {
@@ -75,17 +84,14 @@ void print_dry_run(const std::string& file, const Json& r) {
   std::printf("nothing queued (dry run)\n");
 }
 
-int run(std::vector<std::string> args) {
+int run() {
   return guarded("submit", [&] {
-    const auto socket = take_socket_option(args);
-    const bool watch = take_flag(args, "--watch");
-    const bool dry_run = take_flag(args, "--dry-run");
-    if (args.size() != 1) throw std::invalid_argument("expected one plan file");
+    const bool watch = g_opt.watch, dry_run = g_opt.dry_run;
     if (watch && dry_run) throw std::invalid_argument("--dry-run queues nothing to --watch; give one of them");
-    const Json plan = read_plan(args[0]);
-    RpcClient client(socket);
+    const Json plan = read_plan(g_opt.plan_file);
+    RpcClient client(socket_path(g_opt.socket));
     if (dry_run) {
-      print_dry_run(args[0], client.call("plan.check", Json{{"plan", plan}}));
+      print_dry_run(g_opt.plan_file, client.call("plan.check", Json{{"plan", plan}}));
       return exit_ok;
     }
     const Json r = client.call("job.submit", Json{{"plan", plan}});
@@ -100,7 +106,16 @@ int run(std::vector<std::string> args) {
   });
 }
 
-const bool registered = register_command({"submit", "queue a job from a plan file", usage, run});
+Command make_command() {
+  Command c;
+  c.name = "submit";
+  c.summary = "queue a job from a plan file";
+  c.define = define;
+  c.run_parsed = run;
+  return c;
+}
+
+const bool registered = register_command(make_command());
 
 }  // namespace
 }  // namespace junco::cli

@@ -1,5 +1,6 @@
 // junco transfer PART: a run's AC readings against the model of the part's
 // fit, and the joint AC+DC fit with its verdict (juncod's part.transfer).
+#include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
 #include "tools/junco/joint_report.hpp"
 #include "tools/junco/rpc_client.hpp"
@@ -7,13 +8,12 @@
 #include <cmath>
 #include <cstdio>
 #include <map>
+#include <optional>
 
 namespace junco::cli {
 namespace {
 
-const char* const usage = R"(usage: junco transfer PART [--run ID] [--sigma DB] [--cj F] [--points] [--lot NAME] [--socket PATH] [--json]
-
-Compares the AC readings of a part's run (the fixture gain Vout/Vin, in dB)
+const char* const description = R"(Compares the AC readings of a part's run (the fixture gain Vout/Vin, in dB)
 with the small-signal model of its latest fit: the diode as Rs + n·Vt/I
 (parallel Cj when given) between the fixture input and the load. Then fits
 n and Rs to the AC readings alone (the straight line rd = Rs + n·Vt/I), and
@@ -23,21 +23,34 @@ pin Rs and n through the dynamic resistance, the DC curve pins Is. A larger
 Rs from the AC readings alone is the mark of self-heating at the top of the
 DC sweep. Readings at a level below 100 uV or with a signal current above
 0.1 x the bias are left out (and listed with --points).
-
-options:
-  --run ID       the run (default: the part's latest)
-  --sigma DB     uncertainty of one AC reading (default 0.01 dB)
-  --cj F         junction capacitance for the model and the AC-alone fit, e.g.
-                 2pF (default: none; matters once 2*pi*f*Cj*n*Vt/I nears 0.1)
-  --points       list every reading, not just the summary per frequency
-  --lot NAME     the lot of a PART given by label
-  --socket PATH  juncod's socket (see junco status --help)
-  --json         print juncod's part.transfer result as JSON
-
-example:
+)";
+const char* const footer = R"(example:
   junco transfer WR-03 --cj 2pF --points
 
 exit status: 0 shown (agreeing or not); 1 unknown part, no AC readings or fit, or daemon error; 2 bad options.)";
+
+struct Options {
+  std::string part, socket, lot;
+  long run_id = 0;  // 0: the part's latest
+  std::optional<double> sigma_db, cj_f;
+  bool points = false, json = false;
+};
+Options g_opt;  // bound by define(); one command per process
+
+void define(CLI::App& app) {
+  app.description(description);
+  app.footer(footer);
+  app.add_option("PART", g_opt.part, "the part: id or label (junco parts lists them)")->required()->type_name("");
+  app.add_option("--run", g_opt.run_id, "the run (default: the part's latest)")->type_name("ID")->check(positive_id());
+  add_si_option(app, "--sigma", g_opt.sigma_db, "dB", "uncertainty of one AC reading (default 0.01 dB)");
+  add_si_option(app, "--cj", g_opt.cj_f, "F",
+                "junction capacitance for the model and the AC-alone fit, e.g. 2pF (default: none; matters once "
+                "2*pi*f*Cj*n*Vt/I nears 0.1)");
+  app.add_flag("--points", g_opt.points, "list every reading, not just the summary per frequency");
+  app.add_option("--lot", g_opt.lot, "the lot of a PART given by label")->type_name("NAME");
+  add_socket_option(app, g_opt.socket);
+  app.add_flag("--json", g_opt.json, "print juncod's part.transfer result as JSON");
+}
 
 double num(const Json& j) { return j.is_number() ? j.get<double>() : std::nan(""); }
 
@@ -82,39 +95,37 @@ void print_report(const Json& r, bool all_points) {
   if (r["joint"].is_object()) print_joint_report(r["joint"]);
 }
 
-int run(std::vector<std::string> args) {
+int run() {
   return guarded("transfer", [&] {
-    const auto socket = take_socket_option(args);
-    const bool json = take_flag(args, "--json");
-    const bool all_points = take_flag(args, "--points");
-    const auto lot = take_option(args, "--lot");
-    const auto run_id = take_option(args, "--run");
-    const auto sigma = take_option(args, "--sigma");
-    const auto cj = take_option(args, "--cj");
-    if (args.size() != 1) throw std::invalid_argument("expected one PART (id or label)");
     Json params = Json::object();
-    if (run_id) params["run_id"] = parse_id(*run_id, "--run");
-    if (sigma) {
-      const double s = parse_quantity(*sigma, "dB");
-      if (!(s > 0)) throw std::invalid_argument("--sigma must be > 0 dB");
-      params["ac_sigma_db"] = s;
+    if (g_opt.run_id > 0) params["run_id"] = g_opt.run_id;
+    if (g_opt.sigma_db) {
+      if (!(*g_opt.sigma_db > 0)) throw std::invalid_argument("--sigma must be > 0 dB");
+      params["ac_sigma_db"] = *g_opt.sigma_db;
     }
-    if (cj) {
-      const double c = parse_quantity(*cj, "F");
-      if (!(c >= 0)) throw std::invalid_argument("--cj must be >= 0 F");
-      params["cj_f"] = c;
+    if (g_opt.cj_f) {
+      if (!(*g_opt.cj_f >= 0)) throw std::invalid_argument("--cj must be >= 0 F");
+      params["cj_f"] = *g_opt.cj_f;
     }
-    RpcClient client(socket);
-    params["part_id"] = resolve_part(client, args[0], lot);
+    RpcClient client(socket_path(g_opt.socket));
+    params["part_id"] = resolve_part(client, g_opt.part, g_opt.lot.empty() ? std::nullopt : std::optional<std::string>(g_opt.lot));
     const Json r = client.call("part.transfer", params);
-    if (json) std::printf("%s\n", r.dump(2).c_str());
-    else print_report(r, all_points);
+    if (g_opt.json) std::printf("%s\n", r.dump(2).c_str());
+    else print_report(r, g_opt.points);
     return r["points"].empty() ? exit_failure : exit_ok;
   });
 }
 
-const bool registered = register_command(
-    {"transfer", "AC transfer of a part's run against its model, and the joint AC+DC fit", usage, run});
+Command make_command() {
+  Command c;
+  c.name = "transfer";
+  c.summary = "AC transfer of a part's run against its model, and the joint AC+DC fit";
+  c.define = define;
+  c.run_parsed = run;
+  return c;
+}
+
+const bool registered = register_command(make_command());
 
 }  // namespace
 }  // namespace junco::cli

@@ -1,4 +1,5 @@
 // junco watch JOB: follow a job's progress until it ends.
+#include "tools/junco/cli_options.hpp"
 #include "tools/junco/command.hpp"
 #include "tools/junco/rpc_client.hpp"
 
@@ -10,20 +11,28 @@
 namespace junco::cli {
 namespace {
 
-const char* const usage = R"(usage: junco watch JOB [--socket PATH]
-
-Follows job JOB until it ends. On a terminal: one live line with a bar,
+const char* const description = R"(Follows job JOB until it ends. On a terminal: one live line with a bar,
 points done / total, the part being measured and the estimated time left.
 Otherwise (a pipe, a log file): plain lines, at most one per second, plus one
 per state change. While the job waits for the bench, says why ("waiting
 for bench: REASON"). A paused job waits for a person: watch says why it
 paused and how to resume it, and returns.
-
-options:
-  --socket PATH  juncod's socket (see junco status --help)
-
-exit status: 0 the job is done; 1 it failed, was cancelled, interrupted or
+)";
+const char* const footer = R"(exit status: 0 the job is done; 1 it failed, was cancelled, interrupted or
 paused (or the daemon went away).)";
+
+struct Options {
+  long job = 0;
+  std::string socket;
+};
+Options g_opt;  // bound by define(); one command per process
+
+void define(CLI::App& app) {
+  app.description(description);
+  app.footer(footer);
+  app.add_option("JOB", g_opt.job, "the job id (junco submit prints it, junco jobs lists them)")->required()->check(positive_id())->type_name("");
+  add_socket_option(app, g_opt.socket);
+}
 
 const std::set<std::string> final_states{"done", "failed", "cancelled", "interrupted"};
 
@@ -88,17 +97,23 @@ void apply_job(View& v, const Json& j) {
   v.error = j.value("error", Json()).is_string() ? j["error"].get<std::string>() : "";
 }
 
-int run(std::vector<std::string> args) {
+int run() {
   return guarded("watch", [&] {
-    const auto socket = take_socket_option(args);
-    if (args.size() != 1) throw std::invalid_argument("expected one job id");
-    const long job = parse_id(args[0], "JOB");
-    RpcClient client(socket);
-    return watch_job(client, job);
+    RpcClient client(socket_path(g_opt.socket));
+    return watch_job(client, g_opt.job);
   });
 }
 
-const bool registered = register_command({"watch", "follow a job's progress", usage, run});
+Command make_command() {
+  Command c;
+  c.name = "watch";
+  c.summary = "follow a job's progress";
+  c.define = define;
+  c.run_parsed = run;
+  return c;
+}
+
+const bool registered = register_command(make_command());
 
 }  // namespace
 

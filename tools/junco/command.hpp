@@ -10,7 +10,7 @@
 //    definitions (plus the app's description and footer), bad options exit 2
 //    with one line. tools/junco/cli_options.hpp has the unit-bearing options.
 //  - the older argument vector: `run` receives the raw arguments and
-//    `usage` is its hand-written --help.
+//    `usage` is its hand-written --help (left in plot and demo).
 #pragma once
 
 #include <functional>

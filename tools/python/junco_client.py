@@ -460,10 +460,11 @@ class Client:
             part (Dict[str, Any], optional): required unless the calculator works without one
             (headroom); unknown keys are refused (data.field = part.KEY)
             inputs (Dict[str, Any], optional): the calculator's inputs in SI units, keys as in
-            docs/design.md (supply_v, rbias_ohm, current_a, switch, ...); optional part overrides cj0_f,
-            vj_v, m, tt_s, eg_ev, xti, trs1_per_k and the junction temperature temp_k (IS and RS follow
-            the SPICE law from the part's temp_k). Unknown keys are refused (invalid params, data.field
-            = inputs.KEY)
+            docs/design.md (supply_v, bias_resistor_ohm, current_a, switch, ...; the former names
+            rbias_ohm and rreturn_ohm are read with a warning in the answer); optional part overrides
+            cj0_f, vj_v, m, tt_s, eg_ev, xti, trs1_per_k and the junction temperature temp_k (IS and RS
+            follow the SPICE law from the part's temp_k). Unknown keys are refused (invalid params,
+            data.field = inputs.KEY)
 
         Returns the result object: calculator, part, assumed, result, achievable, reason, warnings,
         failures, junction.
@@ -639,10 +640,11 @@ class Client:
             bias-for-thd, isolation, power, off-headroom, junction-temp, bias-network, series-shunt,
             attenuator
             inputs (Dict[str, Any], optional): the calculator's inputs in SI units, keys as in
-            docs/design.md (supply_v, rbias_ohm, current_a, switch, ...); optional part overrides cj0_f,
-            vj_v, m, tt_s, eg_ev, xti, trs1_per_k and the junction temperature temp_k (IS and RS follow
-            the SPICE law from the part's temp_k). Unknown keys are refused (invalid params, data.field
-            = inputs.KEY)
+            docs/design.md (supply_v, bias_resistor_ohm, current_a, switch, ...; the former names
+            rbias_ohm and rreturn_ohm are read with a warning in the answer); optional part overrides
+            cj0_f, vj_v, m, tt_s, eg_ev, xti, trs1_per_k and the junction temperature temp_k (IS and RS
+            follow the SPICE law from the part's temp_k). Unknown keys are refused (invalid params,
+            data.field = inputs.KEY)
 
         Returns the result object: calculator, part, assumed, result, achievable, reason, warnings,
         failures, part_id, fit_id, junction.

@@ -26,7 +26,8 @@ std::string SimApp::start() {
   endpoints["control"] = start_tcp_endpoint([this](const std::string& line) {
     return LineOutcome{control_line(line), 0, false};
   });
-  return nlohmann::json{{"ready", true}, {"endpoints", endpoints}, {"families", families}}.dump();
+  // "families" is the former name of "dialects", kept for readers of the old line.
+  return nlohmann::json{{"ready", true}, {"endpoints", endpoints}, {"dialects", families}, {"families", families}}.dump();
 }
 
 LineOutcome SimApp::instrument_line(const std::string& role, const std::string& line) {

@@ -80,7 +80,23 @@ void apply_part(PartParams& p, const json& j, const std::string& where) {
 
 }  // namespace
 
-void apply_config_json(SimConfig& cfg, const std::string& json_text) {
+namespace {
+
+// Config keys renamed to the names the daemon's config uses (docs/names.md):
+// the old spelling is read as the new one, with a warning naming it.
+const std::map<std::string, std::string>& renamed_fixture_keys() {
+  static const std::map<std::string, std::string> m{
+      {"rb_ohm", "bias_resistor_ohm"}, {"return_ohm", "dc_return_ohm"}, {"rg_ohm", "source_ohm"}, {"rl_ohm", "load_ohm"}};
+  return m;
+}
+
+void warn_renamed(std::vector<std::string>* warnings, const std::string& old_key, const std::string& new_key) {
+  if (warnings) warnings->push_back("config key " + old_key + " is now spelled " + new_key + " (the old spelling still works for now)");
+}
+
+}  // namespace
+
+void apply_config_json(SimConfig& cfg, const std::string& json_text, std::vector<std::string>* warnings) {
   json doc;
   try {
     doc = junco::parse_json_limited(json_text, "config");
@@ -118,19 +134,27 @@ void apply_config_json(SimConfig& cfg, const std::string& json_text) {
         });
         if (!(cfg.chamber.min_c < cfg.chamber.max_c)) throw std::invalid_argument("config: chamber.min_c must be below chamber.max_c");
       } else if (k == "fixture") {
-        each_key(v, k, [&](const std::string& f, const json& fv) {
+        for (const auto& [old_key, new_key] : renamed_fixture_keys())
+          if (v.is_object() && v.contains(old_key) && v.contains(new_key))
+            throw std::invalid_argument("config: give fixture." + new_key + " only (fixture." + old_key + " is its old name)");
+        each_key(v, k, [&](const std::string& given, const json& fv) {
+          std::string f = given;
+          if (const auto r = renamed_fixture_keys().find(given); r != renamed_fixture_keys().end()) {
+            warn_renamed(warnings, "fixture." + given, "fixture." + r->second);
+            f = r->second;
+          }
           const std::string key = "fixture." + f;
           auto& fx = cfg.fixture;
-          if (f == "rb_ohm") fx.rb_ohm = positive(fv, key);
+          if (f == "bias_resistor_ohm") fx.rb_ohm = positive(fv, key);
           else if (f == "bias_choke") fx.bias_choke = fv.get<bool>();
           else if (f == "return") {
             const auto s = fv.get<std::string>();
             if (s == "inductor") fx.return_kind = ReturnKind::inductor;
             else if (s == "resistor") fx.return_kind = ReturnKind::resistor;
             else throw std::invalid_argument("config: fixture.return must be \"inductor\" or \"resistor\"");
-          } else if (f == "return_ohm") fx.return_ohm = positive(fv, key);
-          else if (f == "rg_ohm") fx.rg_ohm = positive(fv, key);
-          else if (f == "rl_ohm") fx.rl_ohm = positive(fv, key);
+          } else if (f == "dc_return_ohm") fx.return_ohm = positive(fv, key);
+          else if (f == "source_ohm") fx.rg_ohm = positive(fv, key);
+          else if (f == "load_ohm") fx.rl_ohm = positive(fv, key);
           else if (f == "steps_per_period") fx.steps_per_period = std::clamp(fv.get<int>(), 32, 8192);
           else return false;
           return true;
@@ -177,7 +201,11 @@ void apply_config_json(SimConfig& cfg, const std::string& json_text) {
           else return false;
           return true;
         });
-      } else if (k == "families") {
+      } else if (k == "dialects" || k == "families") {
+        if (k == "families") {
+          if (doc.contains("dialects")) throw std::invalid_argument("config: give dialects only (families is its old name)");
+          warn_renamed(warnings, "families", "dialects");
+        }
         each_key(v, k, [&](const std::string& role, const json& fv) {
           check_role(role);
           cfg.families[role] = fv.get<std::string>();
@@ -214,12 +242,12 @@ FaultSpec parse_fault_spec(const std::string& text) {
 
 void apply_family(SimConfig& cfg, const std::string& role_eq_name) {
   const auto eq = role_eq_name.find('=');
-  if (eq == std::string::npos) throw std::invalid_argument("--family wants ROLE=NAME, got '" + role_eq_name + "'");
+  if (eq == std::string::npos) throw std::invalid_argument("--dialect wants ROLE=NAME, got '" + role_eq_name + "'");
   const std::string role = role_eq_name.substr(0, eq), fam = role_eq_name.substr(eq + 1);
   check_role(role);
   const auto& allowed = known_families().at(role);
   if (std::find(allowed.begin(), allowed.end(), fam) == allowed.end())
-    throw std::invalid_argument("--family: '" + fam + "' is not a " + role + " family");
+    throw std::invalid_argument("--dialect: '" + fam + "' is not a " + role + " dialect");
   cfg.families[role] = fam;
 }
 
@@ -227,7 +255,7 @@ void check_families(const SimConfig& cfg) {
   for (const auto& [role, fam] : cfg.families) {
     const auto& allowed = known_families().at(role);
     if (std::find(allowed.begin(), allowed.end(), fam) == allowed.end())
-      throw std::invalid_argument("family '" + fam + "' is not a " + role + " family");
+      throw std::invalid_argument("dialect '" + fam + "' is not a " + role + " dialect");
   }
 }
 
@@ -242,12 +270,13 @@ std::string help_reference() {
   chamber.drift_period_s [600]  period of that drift
   chamber.{min_c [-70], max_c [180]}  set points the chamber accepts
   chamber.readback_noise_k [0.005]    readback noise (resolution 0.01 C)
-  fixture.rb_ohm [100]          bias resistor
+  fixture.bias_resistor_ohm [100]  bias resistor Rb
   fixture.bias_choke [true]     choke in series with Rb (Rb open at AC)
   fixture.return ["inductor"]   DC return: "inductor" (0 ohm DC, open AC)
-                                or "resistor" (fixture.return_ohm [1000])
-  fixture.rg_ohm [50]           generator source resistance
-  fixture.rl_ohm [50]           load
+                                or "resistor" (fixture.dc_return_ohm [1000])
+  fixture.source_ohm [50]       generator source resistance Rg
+  fixture.load_ohm [50]         load RL
+  (the former names rb_ohm, return_ohm, rg_ohm, rl_ohm still work, with a warning)
   fixture.steps_per_period [256] time steps of the AC solve
   nominal.{is_a [2.5e-9], n [1.85], rs_ohm [0.7], cj0_f [2e-12], vj_v [0.65],
            m [0.4], fc [0.5], tt_s [0], eg_ev [1.11], xti [3],
@@ -262,7 +291,8 @@ std::string help_reference() {
   outliers [[]]                 e.g. [{"slot":3,"rs_ohm":4.0}] (is_a, n, rs_ohm, cj0_f, type)
   empty_slots [[]]              slots with no part (open circuit)
   source.{v_min_v [-30], v_max_v [30], i_limit_min_a [1e-4], i_limit_max_a [0.5]}
-  families.{ROLE: NAME}
+  dialects.{ROLE: NAME}         the command set (dialect) each role speaks
+                                (the former key families still works, with a warning)
 
 Physics: bias supply -> Rb -> anode; cathode -> DC return; generator EMF
 (sine, Vpp or Vrms as set; the EMF before Rg) -> Rg -> DC block -> anode;

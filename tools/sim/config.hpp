@@ -70,18 +70,21 @@ struct SimConfig {
   std::vector<FaultSpec> faults;
 };
 
-// Families each role may speak (docs/command-sets.md).
+// Dialects each role may speak (docs/command-sets.md); "families" is the
+// code's older word for the same thing.
 const std::map<std::string, std::vector<std::string>>& known_families();
 
 // Applies a JSON config document over `cfg`; throws std::invalid_argument
 // naming the key on a bad value or unknown key.
-void apply_config_json(SimConfig& cfg, const std::string& json_text);
+// Keys given by a former name are applied and a warning naming the new one
+// is added to `warnings` (when given).
+void apply_config_json(SimConfig& cfg, const std::string& json_text, std::vector<std::string>* warnings = nullptr);
 
 // Command-line pieces (the options themselves are defined in main.cpp with
 // CLI11); each throws std::invalid_argument with a one-line message.
 void check_role(const std::string& role);  // one of all_roles
-void apply_family(SimConfig& cfg, const std::string& role_eq_name);  // --family ROLE=NAME
-void check_families(const SimConfig& cfg);  // after the config file and --family
+void apply_family(SimConfig& cfg, const std::string& role_eq_name);  // --dialect ROLE=NAME
+void check_families(const SimConfig& cfg);  // after the config file and --dialect
 FaultSpec parse_fault_spec(const std::string& text);  // ROLE:MODE[:ARG]
 
 // The config keys, the physics and the control endpoint: the reference

@@ -54,7 +54,7 @@ struct Given {
   std::uint64_t seed = 1;
   int slots = 8;
   double settle_ms = 2.0;
-  std::vector<std::string> families, serial, faults;
+  std::vector<std::string> families, old_families, serial, faults;
 };
 
 void define_options(CLI::App& app, Given& g) {
@@ -64,7 +64,8 @@ void define_options(CLI::App& app, Given& g) {
       "port on 127.0.0.1 (ephemeral) or, with --serial ROLE, on a raw pseudo-terminal.\n"
       "When ready it prints ONE JSON line on stdout:\n"
       "  {\"ready\":true,\"endpoints\":{\"source\":\"tcp:127.0.0.1:PORT\",...,\n"
-      "   \"control\":\"tcp:127.0.0.1:PORT\"},\"families\":{\"source\":\"scpi-source\",...}}\n"
+      "   \"control\":\"tcp:127.0.0.1:PORT\"},\"dialects\":{\"source\":\"scpi-source\",...}}\n"
+      "(and the same object as \"families\", its former name).\n"
       "Logs go to stderr. Runs until SIGINT/SIGTERM or the control command quit.");
   using junco::cli_args::shown_as;
   shown_as(app.add_option("--config", g.config_file, "JSON file with the config keys below (the command line wins)"), "FILE");
@@ -75,9 +76,13 @@ void define_options(CLI::App& app, Given& g) {
   shown_as(app.add_option("--settle-ms", g.settle_ms, "time constant of every reading after a change (first order,\nwall clock; 0 = instant)")
                ->check(junco::cli_args::non_negative_number()),
            "MS");
-  shown_as(app.add_option("--family", g.families, "command family of a role (repeatable; the first is the default):\n" + family_lines())
+  shown_as(app.add_option("--dialect", g.families, "command set (dialect) of a role (repeatable; the first is the default):\n" + family_lines())
                ->check(checked([](const std::string& v) { SimConfig c; apply_family(c, v); })),
            "ROLE=NAME");
+  // The former spelling: not in --help, works with a warning (docs/names.md).
+  app.add_option("--family", g.old_families, "")
+      ->check(checked([](const std::string& v) { SimConfig c; apply_family(c, v); }))
+      ->group("");
   shown_as(app.add_option("--serial", g.serial, "put ROLE on a pseudo-terminal (serial:/dev/pts/N); repeatable")
                ->check(checked([](const std::string& v) { check_role(v); })),
            "ROLE");
@@ -89,7 +94,7 @@ void define_options(CLI::App& app, Given& g) {
   app.footer(help_reference() +
              "\nExamples:\n"
              "  junco-sim --seed 7 --slots 4                   a lot of 4 parts\n"
-             "  junco-sim --family source=scpi99 --serial meter   another supply family, meter on a pty\n"
+             "  junco-sim --dialect source=scpi99 --serial meter  another supply dialect, meter on a pty\n"
              "  junco-sim --fault source:silent                a supply that never answers\n"
              "\nExit status: 0 stopped by a signal or quit, 1 failure, 2 bad command line or config.\n");
 }
@@ -104,8 +109,13 @@ SimConfig build_config(const CLI::App& app, const Given& g) {
     } catch (const std::exception& e) {
       throw std::invalid_argument(std::string("--config: ") + e.what());
     }
-    apply_config_json(cfg, text);
+    std::vector<std::string> warnings;
+    apply_config_json(cfg, text, &warnings);
+    for (const auto& w : warnings) std::cerr << "junco-sim: warning: " << g.config_file << ": " << w << "\n";
   }
+  if (!g.old_families.empty())
+    std::cerr << "junco-sim: warning: --family is now spelled --dialect (the old spelling still works for now)\n";
+  for (const auto& f : g.old_families) apply_family(cfg, f);
   if (app.count("--seed")) cfg.seed = g.seed;
   if (app.count("--slots")) cfg.slots = g.slots;
   if (app.count("--settle-ms")) cfg.settle_s = g.settle_ms / 1000.0;

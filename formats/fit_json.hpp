@@ -1,0 +1,21 @@
+// A forward fit as JSON, written in one place for the daemon's API (part.fit,
+// schema/api) and `junco fit --json`, so the two read alike: every fitted
+// value is an object {value, std_error} (null where not finite, e.g. Rsh when
+// no shunt was fitted, or a standard error the fit could not determine).
+#pragma once
+
+#include "fitting/extract.hpp"
+
+#include <nlohmann/json.hpp>
+
+namespace junco::fitting {
+
+// {"value": x, "std_error": s}, each null when not finite.
+nlohmann::json estimate_json(const Estimate& e);
+
+// What every writer of a fit gives: status, message, is_a, n, rs_ohm,
+// rsh_ohm (estimates as above), temp_k, cost, rms_residual (volts),
+// points_used, warnings. Writers add their own keys (ids, file, ...).
+nlohmann::json fit_result_json(const FitResult& r);
+
+}  // namespace junco::fitting
