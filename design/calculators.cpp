@@ -4,6 +4,7 @@
 #include "design/distortion.hpp"
 #include "design/network.hpp"
 #include "fitting/transfer.hpp"
+#include "units/si_text.hpp"
 
 #include <cmath>
 #include <functional>
@@ -574,7 +575,10 @@ void series_shunt_calc(Run& r) {
 
 void attenuator_calc(Run& r) {
   r.assume_all();
-  const PinLaw law{r.number("pin_r0_ohm"), r.number("pin_k_ohm"), r.number("pin_x")};
+  PinLaw law;
+  law.r0_ohm = r.number("r0_ohm");
+  law.k_ohm_a_x = r.number("k_ohm_a_x");
+  law.x = r.number("x");
   const PadKind kind = r.text("pad") == "pi" ? PadKind::pi : PadKind::tee;
   const double z0 = r.number("z0_ohm");
   PadResistors pad;
@@ -717,9 +721,9 @@ const std::vector<CalculatorRow>& calculator_rows() {
         optional_input("series_current_a", "series-current", "A", "series diode current", R::positive),
         optional_input("shunt_current_a", "shunt-current", "A", "shunt diode current", R::positive),
         with_default("z0_ohm", "z0", "Ohm", "port impedance Z0", 50.0, R::positive),
-        required("pin_r0_ohm", "pin-r0", "Ohm", "PIN R0", R::non_negative),
-        required("pin_k_ohm", "pin-k", "Ohm", "PIN K (ohm at 1 A)", R::positive),
-        required("pin_x", "pin-x", "", "PIN exponent x", R::positive)}}, attenuator_calc},
+        required("r0_ohm", "r0", "Ohm", "PIN R0", R::non_negative),
+        required("k_ohm_a_x", "k", "", "PIN K (ohm*A^x)", R::positive),
+        required("x", "x", "", "PIN exponent x", R::positive)}}, attenuator_calc},
   };
   return table;
 }

@@ -188,11 +188,11 @@ double series_shunt_db(cplx zs, cplx zsh, double rg_ohm, double rl_ohm) {
   return 20.0 * std::log10(rl_ohm / (rg_ohm + rl_ohm) / std::abs(v_load));
 }
 
-double pin_resistance_ohm(const PinLaw& law, double i_a) { return law.r0_ohm + law.k_ohm * std::pow(i_a, -law.x); }
+double pin_resistance_ohm(const PinLaw& law, double i_a) { return law.r0_ohm + law.k_ohm_a_x * std::pow(i_a, -law.x); }
 
 std::optional<double> pin_current_for_resistance_a(const PinLaw& law, double r_ohm) {
   if (!(r_ohm > law.r0_ohm)) return std::nullopt;
-  return std::pow(law.k_ohm / (r_ohm - law.r0_ohm), 1.0 / law.x);
+  return std::pow(law.k_ohm_a_x / (r_ohm - law.r0_ohm), 1.0 / law.x);
 }
 
 PadResistors matched_pad(PadKind kind, double a_db, double z0_ohm) {

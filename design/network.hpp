@@ -13,6 +13,8 @@
 // §8 (self-heating), tests/reference/design_network_ngspice_test.cpp.
 #pragma once
 
+#include "fitting/pin_diode.hpp"
+
 #include "design/switch.hpp"
 #include "fitting/diode.hpp"
 #include "fitting/junction_charge.hpp"
@@ -131,13 +133,9 @@ NetworkResponse network_response(const BiasNetwork& net, const DiodeParams& p, c
 double series_shunt_db(std::complex<double> zs, std::complex<double> zsh, double rg_ohm, double rl_ohm);
 
 // A PIN diode's RF resistance against its bias current, R(I) = R0 + K·I^−x
+// (PinLaw, fitting/pin_diode.hpp: the one home of the law)
 // (docs/references.md §8 [P]). A fitted PIN part can take this function's
 // place; the attenuator asks only for R(I) and its inverse.
-struct PinLaw {
-  double r0_ohm = 1.0;
-  double k_ohm = 0.04;  // K: the I^−x term at 1 A (Ω·A^x)
-  double x = 0.9;
-};
 double pin_resistance_ohm(const PinLaw& law, double i_a);
 // The current for a resistance; nullopt when r_ohm ≤ R0 (never reached).
 std::optional<double> pin_current_for_resistance_a(const PinLaw& law, double r_ohm);

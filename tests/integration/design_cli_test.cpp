@@ -215,7 +215,7 @@ TEST_CASE("junco design off-headroom fails with the fix, and the switch-network 
   CHECK(r.status == 0);
   CHECK(r.out.find("pass") != std::string::npos);
   // Matched 10 dB T pad, 50 ohm: 25.97 and 35.14 ohm (textbook pad table, from memory).
-  r = run_junco("design attenuator --pad tee --target 10dB --pin-r0 1 --pin-k 0.04 --pin-x 0.9");
+  r = run_junco("design attenuator --pad tee --target 10dB --r0 1 --k 0.04 --x 0.9");
   CHECK(r.status == 0);
   CHECK(r.out.find("25.9747 ohm") != std::string::npos);
   CHECK(r.out.find("35.1364 ohm") != std::string::npos);

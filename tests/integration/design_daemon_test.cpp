@@ -97,7 +97,7 @@ TEST_CASE("part.design answers as the calculators do on the exported model", "[d
   CHECK(test::schema_problem(by_value_schema["result"], headroom) == "");
   CHECK_FALSE(headroom.contains("part"));
   const Json pad = b.result("design.run", {{"calculator", "attenuator"},
-                                          {"inputs", {{"pad", "tee"}, {"target_db", 6.0}, {"pin_r0_ohm", 1.0}, {"pin_k_ohm", 0.04}, {"pin_x", 0.9}}}});
+                                          {"inputs", {{"pad", "tee"}, {"target_db", 6.0}, {"r0_ohm", 1.0}, {"k_ohm_a_x", 0.04}, {"x", 0.9}}}});
   CHECK(test::schema_problem(by_value_schema["result"], pad) == "");
   CHECK(value_of(pad["result"], "pad_loss_db") == Approx(6.0));
   CHECK(test::schema_problem(schema["result"], b.result("part.design", {{"part_id", 1}, {"calculator", "headroom"}, {"inputs", {{"amplitude_v", 1.0}}}})) == "");

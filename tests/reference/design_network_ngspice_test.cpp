@@ -429,7 +429,7 @@ TEST_CASE("attenuator: attenuation against PIN bias current matches ngspice .ac 
   // Source: ngspice (Debian package) .ac of the pads with behavioural resistors
   // r = {R0 + K*pow(I, -x)} at the calculator's currents; the law itself is
   // docs/references.md §8 [P].
-  const Json law{{"pin_r0_ohm", 1.5}, {"pin_k_ohm", 0.05}, {"pin_x", 0.87}};
+  const Json law{{"r0_ohm", 1.5}, {"k_ohm_a_x", 0.05}, {"x", 0.87}};
   struct Case {
     std::string pad;
     Json extra;
