@@ -471,17 +471,121 @@ DesignPart design_part_from_json(const Json& j) {
   return p;
 }
 
-Json run_design(const std::string& calculator, const DesignPart* part, const Json& inputs) {
-  const DesignCalculator* calc = find_design_calculator(calculator);
-  if (!calc) {
-    std::string names;
-    for (const auto& c : design_calculators()) names += (names.empty() ? "" : ", ") + c.name;
-    throw DesignInputError("calculator", "unknown calculator '" + calculator + "' (one of: " + names + ")");
-  }
-  Run run(*calc, part, inputs);
+namespace {
+
+const CalculatorRow& calculator_row(const std::string& calculator) {
   for (const auto& row : calculator_rows())
-    if (row.calculator.name == calc->name) row.body(run);
-  return run.take();
+    if (row.calculator.name == calculator) return row;
+  std::string names;
+  for (const auto& c : design_calculators()) names += (names.empty() ? "" : ", ") + c.name;
+  throw DesignInputError("calculator", "unknown calculator '" + calculator + "' (one of: " + names + ")");
+}
+
+double& parameter_ref(DesignPart& p, const std::string& name) {
+  if (name == "is_a") return p.dc.is_a;
+  if (name == "n") return p.dc.n;
+  if (name == "rs_ohm") return p.dc.rs_ohm;
+  if (name == "rsh_ohm") return p.dc.rsh_ohm;
+  if (name == "cj0_f") return p.cap.cj0_f;
+  if (name == "vj_v") return p.cap.vj_v;
+  if (name == "m") return p.cap.m;
+  if (name == "tt_s") return p.tt_s;
+  throw DesignInputError("part", "no covariance parameter '" + name + "' (is_a, n, rs_ohm, rsh_ohm, cj0_f, vj_v, m, tt_s)");
+}
+
+// Where a perturbed parameter set still is a part (the step rule halves a step that leaves it).
+bool valid_parameters(const std::vector<std::string>& names, const std::vector<double>& x) {
+  for (std::size_t i = 0; i < names.size(); ++i) {
+    const bool non_negative = names[i] == "rs_ohm" || names[i] == "tt_s" || names[i] == "cj0_f";
+    if (!(non_negative ? x[i] >= 0 : x[i] > 0)) return false;
+  }
+  return true;
+}
+
+// std_error on every result line by the law of propagation (design_uncertainty.hpp).
+void add_uncertainty(const std::string& calculator, const DesignPart& part, const Json& inputs, Json& answer) {
+  if (part.cov.empty()) {
+    answer["uncertainty"] = {{"method", "none"},
+                             {"note", "no uncertainty (" + (part.cov.source.empty() ? std::string("explicit parameters") : part.cov.source) + ")"}};
+    return;
+  }
+  Json& lines = answer["result"];
+  std::vector<std::string> keys;
+  std::vector<double> y0;
+  for (const auto& l : lines) {
+    keys.push_back(l["key"].get<std::string>());
+    y0.push_back(l["value"].is_number() ? l["value"].get<double>() : std::numeric_limits<double>::quiet_NaN());
+  }
+  std::vector<double> x0;
+  for (const auto& name : part.cov.names) x0.push_back(design_part_parameter(part, name));
+  const auto f = design_function(calculator, part, inputs, keys);
+  const auto names = part.cov.names;
+  const auto prop = propagate_gum(f, x0, y0, part.cov, [&names](const std::vector<double>& x) { return valid_parameters(names, x); });
+  bool any_missing = false, any_nonlinear = false;
+  for (std::size_t j = 0; j < keys.size(); ++j) {
+    if (!std::isfinite(y0[j])) continue;
+    const auto& lp = prop.lines[j];
+    lines[j]["std_error"] = std::isfinite(lp.std_error) ? Json(lp.std_error) : Json(nullptr);
+    any_missing = any_missing || !std::isfinite(lp.std_error);
+    if (lp.nonlinear) {
+      lines[j]["nonlinear"] = true;
+      any_nonlinear = true;
+    }
+  }
+  Json u{{"method", "GUM law of propagation (JCGM 100:2008 5.1.2, 5.2.2): central differences of the calculator at one standard "
+                    "deviation along each principal axis of the covariance"},
+         {"parameters", part.cov.names},
+         {"source", part.cov.source},
+         {"evaluations", prop.evaluations}};
+  std::string note;
+  if (any_missing)
+    note = "std_error null: the answer does not exist everywhere within one standard deviation of the parameters "
+           "(the target is only just achievable)";
+  if (any_nonlinear)
+    note += std::string(note.empty() ? "" : "; ") +
+            "nonlinear: the second-order term is above 10 % of std_error, the linear law is indicative only (a Monte Carlo "
+            "over the covariance, JCGM 101, gives the better figure)";
+  if (!note.empty()) u["note"] = note;
+  answer["uncertainty"] = u;
+}
+
+}  // namespace
+
+double design_part_parameter(const DesignPart& part, const std::string& name) {
+  return parameter_ref(const_cast<DesignPart&>(part), name);
+}
+
+DesignFunction design_function(const std::string& calculator, const DesignPart& part, const Json& inputs,
+                               const std::vector<std::string>& result_keys) {
+  const CalculatorRow& row = calculator_row(calculator);
+  DesignPart base = part;
+  const std::vector<std::string> names = part.cov.names;
+  base.cov = {};
+  return [&row, base, names, inputs, result_keys](const std::vector<double>& x) {
+    std::vector<double> y(result_keys.size(), std::numeric_limits<double>::quiet_NaN());
+    DesignPart p = base;
+    for (std::size_t i = 0; i < names.size() && i < x.size(); ++i) parameter_ref(p, names[i]) = x[i];
+    try {
+      Run run(row.calculator, &p, inputs);
+      row.body(run);
+      const Json a = run.take();
+      if (!a["achievable"].get<bool>()) return y;
+      for (const auto& l : a["result"])
+        for (std::size_t j = 0; j < result_keys.size(); ++j)
+          if (l["key"] == result_keys[j] && l["value"].is_number()) y[j] = l["value"].get<double>();
+    } catch (const DesignInputError&) {  // e.g. TRS takes RS below zero there: no value
+    }
+    return y;
+  };
+}
+
+Json run_design(const std::string& calculator, const DesignPart* part, const Json& inputs) {
+  const CalculatorRow& row = calculator_row(calculator);
+  Run run(row.calculator, part, inputs);
+  row.body(run);
+  Json answer = run.take();
+  if (row.calculator.needs_part && answer["achievable"].get<bool>()) add_uncertainty(calculator, *part, inputs, answer);
+  return answer;
 }
 
 }  // namespace junco::fitting

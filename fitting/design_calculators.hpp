@@ -11,11 +11,15 @@
 //            "achievable", "reason", "warnings", "failures"}
 //   line    {"key", "label", "unit", "value"} (+ "text" for a choice, or for
 //            a value with no number such as "choke (no AC shunt)")
+//   result lines of a part with a covariance also carry "std_error" (null:
+//   not determined) and "nonlinear": true where the linear law is not to be
+//   trusted to 10 %; the answer's "uncertainty" says how (or why there is none).
 // Every input the calculator used appears in "assumed", defaults included.
 #pragma once
 
 #include "fitting/diode.hpp"
 #include "fitting/design_switch.hpp"
+#include "fitting/design_uncertainty.hpp"
 #include "fitting/temperature.hpp"
 
 #include <nlohmann/json.hpp>
@@ -40,6 +44,11 @@ struct DesignPart {
   JunctionCap cap;  // cj0_f = 0: unknown
   double tt_s = 0.0;  // transit time TT (diffusion charge TT·Id); 0 = none or unknown
   JunctionCharge charge() const { return {cap, tt_s}; }
+  // The parameters' covariance (design_uncertainty.hpp), at temp_k. With it
+  // every result line carries std_error; empty (explicit parameters, or a
+  // source with none): the answer says why (cov.source, default "explicit
+  // parameters").
+  ParameterCovariance cov;
 };
 
 enum class InputRange { any, positive, non_negative };
@@ -87,6 +96,16 @@ const std::vector<DesignInputSpec>& design_part_inputs();
 // required one, a value of the wrong type or outside its range. A target that
 // cannot be met is not an error: achievable = false and reason say why.
 nlohmann::json run_design(const std::string& calculator, const DesignPart* part, const nlohmann::json& inputs);
+
+// A calculator as a function of the part's covariance parameters (in
+// part.cov.names' order; one value per result line of the nominal answer,
+// keys result_keys; NaN where a line has none), for the propagation and the
+// Monte Carlo check (design_uncertainty.hpp).
+DesignFunction design_function(const std::string& calculator, const DesignPart& part, const nlohmann::json& inputs,
+                               const std::vector<std::string>& result_keys);
+// The part's value of a covariance parameter (is_a, n, rs_ohm, rsh_ohm,
+// cj0_f, vj_v, m, tt_s); throws DesignInputError for another name.
+double design_part_parameter(const DesignPart& part, const std::string& name);
 
 // The part as the answer reports it (SPICE names, SI units): its parameters
 // at its own temp_k, with the temperature law (eg_ev, xti, trs1_per_k,
