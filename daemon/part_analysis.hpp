@@ -64,6 +64,8 @@ fitting::Fixture ac_fixture(const RunFixture& run_fixture);
 // The latest fit as the calculators take it ("WR-03 (lot WREN-0912, fit 7)"),
 // with its measured capacitance law when the fit has one.
 fitting::DesignPart design_part(const PartRow& part, const FitRecord& fit);
+// The covariance design_part gives the calculators (part_analysis.cpp says which).
+fitting::ParameterCovariance design_covariance(const FitRecord& fit);
 
 // The fit as lot statistics take it (its capacitance law when it has one).
 fitting::LotPart lot_part(const PartRow& part, const FitRecord& fit);

@@ -51,6 +51,15 @@ std::vector<DesignInputSpec> join(std::vector<DesignInputSpec> a, const std::vec
   return a;
 }
 
+// What an iterative calculator's nominal run leaves for its perturbed runs
+// (the uncertainty's evaluations) to start from: a perturbed answer lies near
+// the nominal one. NaN: nothing.
+struct SolveHint {
+  double u = std::numeric_limits<double>::quiet_NaN();         // distortion: the blocks' offset
+  double offset_v = std::numeric_limits<double>::quiet_NaN();  // distortion: the start's offset
+  double slope = std::numeric_limits<double>::quiet_NaN();     // bias-for-thd: d ln THD / d ln I at the answer
+};
+
 // What one run of a calculator sees: the checked inputs, and the answer it builds.
 class Run {
  public:
@@ -150,6 +159,25 @@ class Run {
     answer_["achievable"] = false;
     answer_["reason"] = why;
   }
+  // The nominal answer's value of a result line, when this run is one of the
+  // uncertainty's perturbed evaluations (NaN otherwise): an iterative
+  // calculator starts its search there, as the perturbed answer lies near it.
+  void set_nominal(const Json* nominal) { nominal_ = nominal; }
+  // The nominal run writes the hint (writes = true), the perturbed ones read it.
+  void set_hint(SolveHint* hint, bool writes) {
+    hint_ = hint;
+    hint_writes_ = writes;
+  }
+  SolveHint read_hint() const { return hint_ && !hint_writes_ ? *hint_ : SolveHint{}; }
+  void write_hint(const SolveHint& h) {
+    if (hint_ && hint_writes_) *hint_ = h;
+  }
+  double nominal_value(const std::string& key) const {
+    if (nominal_)
+      for (const auto& l : (*nominal_)["result"])
+        if (l["key"] == key && l["value"].is_number()) return l["value"].get<double>();
+    return std::numeric_limits<double>::quiet_NaN();
+  }
   void warn(const std::string& w) { answer_["warnings"].push_back(w); }
   void fail(const std::string& f) { answer_["failures"].push_back(f); }
   Json take() { return std::move(answer_); }
@@ -194,6 +222,9 @@ class Run {
   std::map<std::string, double> numbers_;
   std::map<std::string, std::string> texts_;
   Json answer_;
+  const Json* nominal_ = nullptr;
+  SolveHint* hint_ = nullptr;
+  bool hint_writes_ = false;
 };
 
 // ---- the calculators --------------------------------------------------------
@@ -285,18 +316,28 @@ void distortion(Run& r) {
   r.assume_all();
   auto in = distortion_input(r);
   in.bias_i_a = r.number("current_a");
-  harmonics(r, solve_distortion(in));
+  const SolveHint h = r.read_hint();
+  in.start_u = h.u;
+  in.start_offset_v = h.offset_v;
+  const auto d = solve_distortion(in);
+  r.write_hint({d.block_offset_v, d.periods > 0 ? d.start_offset_v : std::numeric_limits<double>::quiet_NaN(), h.slope});
+  harmonics(r, d);
 }
 
 void bias_for_thd(Run& r) {
   r.assume_all();
   auto in = distortion_input(r);
   std::string why;
-  const auto i = bias_for_thd_a(in, r.number("target_pct") / 100.0, &why);
+  // One search that also hands back the distortion at the answer; started at
+  // the nominal answer in the uncertainty's perturbed evaluations.
+  const SolveHint h = r.read_hint();
+  in.start_u = h.u;
+  in.start_offset_v = h.offset_v;
+  const auto i = solve_bias_for_thd(in, r.number("target_pct") / 100.0, &why, r.nominal_value("least_bias_a"), h.slope);
   if (!i) return r.not_achievable(why);
-  in.bias_i_a = *i;
-  r.result("least_bias_a", "least bias", *i, "A");
-  harmonics(r, solve_distortion(in));
+  r.write_hint({i->at.block_offset_v, i->at.periods > 0 ? i->at.start_offset_v : std::numeric_limits<double>::quiet_NaN(), i->slope});
+  r.result("least_bias_a", "least bias", i->bias_a, "A");
+  harmonics(r, i->at);
 }
 
 void isolation(Run& r) {
@@ -503,7 +544,10 @@ bool valid_parameters(const std::vector<std::string>& names, const std::vector<d
 }
 
 // std_error on every result line by the law of propagation (design_uncertainty.hpp).
-void add_uncertainty(const std::string& calculator, const DesignPart& part, const Json& inputs, Json& answer) {
+DesignFunction design_function_hinted(const std::string& calculator, const DesignPart& part, const Json& inputs,
+                                      const std::vector<std::string>& result_keys, const Json& nominal, SolveHint hint);
+
+void add_uncertainty(const std::string& calculator, const DesignPart& part, const Json& inputs, Json& answer, const SolveHint& hint) {
   if (part.cov.empty()) {
     answer["uncertainty"] = {{"method", "none"},
                              {"note", "no uncertainty (" + (part.cov.source.empty() ? std::string("explicit parameters") : part.cov.source) + ")"}};
@@ -518,7 +562,7 @@ void add_uncertainty(const std::string& calculator, const DesignPart& part, cons
   }
   std::vector<double> x0;
   for (const auto& name : part.cov.names) x0.push_back(design_part_parameter(part, name));
-  const auto f = design_function(calculator, part, inputs, keys);
+  const auto f = design_function_hinted(calculator, part, inputs, keys, answer, hint);
   const auto names = part.cov.names;
   const auto prop = propagate_gum(f, x0, y0, part.cov, [&names](const std::vector<double>& x) { return valid_parameters(names, x); });
   bool any_missing = false, any_nonlinear = false;
@@ -556,17 +600,26 @@ double design_part_parameter(const DesignPart& part, const std::string& name) {
 }
 
 DesignFunction design_function(const std::string& calculator, const DesignPart& part, const Json& inputs,
-                               const std::vector<std::string>& result_keys) {
+                               const std::vector<std::string>& result_keys, const Json& nominal) {
+  return design_function_hinted(calculator, part, inputs, result_keys, nominal, {});
+}
+
+namespace {
+
+DesignFunction design_function_hinted(const std::string& calculator, const DesignPart& part, const Json& inputs,
+                                      const std::vector<std::string>& result_keys, const Json& nominal, SolveHint hint) {
   const CalculatorRow& row = calculator_row(calculator);
   DesignPart base = part;
   const std::vector<std::string> names = part.cov.names;
   base.cov = {};
-  return [&row, base, names, inputs, result_keys](const std::vector<double>& x) {
+  return [&row, base, names, inputs, result_keys, nominal, hint](const std::vector<double>& x) mutable {
     std::vector<double> y(result_keys.size(), std::numeric_limits<double>::quiet_NaN());
     DesignPart p = base;
     for (std::size_t i = 0; i < names.size() && i < x.size(); ++i) parameter_ref(p, names[i]) = x[i];
     try {
       Run run(row.calculator, &p, inputs);
+      if (nominal.is_object()) run.set_nominal(&nominal);
+      run.set_hint(&hint, false);
       row.body(run);
       const Json a = run.take();
       if (!a["achievable"].get<bool>()) return y;
@@ -579,12 +632,16 @@ DesignFunction design_function(const std::string& calculator, const DesignPart& 
   };
 }
 
+}  // namespace
+
 Json run_design(const std::string& calculator, const DesignPart* part, const Json& inputs) {
   const CalculatorRow& row = calculator_row(calculator);
   Run run(row.calculator, part, inputs);
+  SolveHint hint;
+  run.set_hint(&hint, true);
   row.body(run);
   Json answer = run.take();
-  if (row.calculator.needs_part && answer["achievable"].get<bool>()) add_uncertainty(calculator, *part, inputs, answer);
+  if (row.calculator.needs_part && answer["achievable"].get<bool>()) add_uncertainty(calculator, *part, inputs, answer, hint);
   return answer;
 }
 

@@ -100,9 +100,11 @@ nlohmann::json run_design(const std::string& calculator, const DesignPart* part,
 // A calculator as a function of the part's covariance parameters (in
 // part.cov.names' order; one value per result line of the nominal answer,
 // keys result_keys; NaN where a line has none), for the propagation and the
-// Monte Carlo check (design_uncertainty.hpp).
+// Monte Carlo check (design_uncertainty.hpp). nominal: the answer at the
+// part's own values, when known; iterative calculators (bias-for-thd) start
+// their search at its result there (a perturbed answer lies near it).
 DesignFunction design_function(const std::string& calculator, const DesignPart& part, const nlohmann::json& inputs,
-                               const std::vector<std::string>& result_keys);
+                               const std::vector<std::string>& result_keys, const nlohmann::json& nominal = nullptr);
 // The part's value of a covariance parameter (is_a, n, rs_ohm, rsh_ohm,
 // cj0_f, vj_v, m, tt_s); throws DesignInputError for another name.
 double design_part_parameter(const DesignPart& part, const std::string& name);

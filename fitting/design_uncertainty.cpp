@@ -61,15 +61,25 @@ SymmetricEigen symmetric_eigen(const std::vector<std::vector<double>>& a_in) {
 
 namespace {
 
-// The principal-axis steps s_k = √λ_k·e_k (λ_k ≤ 0: a direction with no spread, skipped).
+// The principal-axis steps. The axes are those of the correlation matrix R
+// (V = D·R·D, D = diag(u)), so that parameters in units twenty decades
+// apart (Is in A, N) do not make the decomposition lose the small ones:
+// s_k = D·√λ_k·e_k, and Σ_k s_k·s_kᵀ = D·R·D = V as the law needs
+// (λ_k ≤ 0: a direction with no spread, skipped).
 std::vector<std::vector<double>> principal_steps(const ParameterCovariance& cov) {
-  const auto e = symmetric_eigen(cov.matrix);
+  const std::size_t n = cov.matrix.size();
+  std::vector<double> u(n);
+  for (std::size_t i = 0; i < n; ++i) u[i] = std::sqrt(std::max(0.0, cov.matrix[i][i]));
+  std::vector<std::vector<double>> r(n, std::vector<double>(n, 0.0));
+  for (std::size_t i = 0; i < n; ++i)
+    for (std::size_t j = 0; j < n; ++j) r[i][j] = u[i] > 0 && u[j] > 0 ? cov.matrix[i][j] / (u[i] * u[j]) : 0.0;
+  const auto e = symmetric_eigen(r);
   std::vector<std::vector<double>> steps;
   for (std::size_t k = 0; k < e.values.size(); ++k) {
-    if (!(e.values[k] > 0)) continue;
+    if (!(e.values[k] > 1e-12)) continue;  // round-off of a singular correlation
     const double sd = std::sqrt(e.values[k]);
-    std::vector<double> s(e.vectors[k].size());
-    for (std::size_t i = 0; i < s.size(); ++i) s[i] = sd * e.vectors[k][i];
+    std::vector<double> s(n);
+    for (std::size_t i = 0; i < n; ++i) s[i] = u[i] * sd * e.vectors[k][i];
     steps.push_back(std::move(s));
   }
   return steps;

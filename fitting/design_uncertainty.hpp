@@ -4,8 +4,9 @@
 // differentiation of the calculator itself, and a Monte Carlo check
 // (JCGM 101:2008 §7) over the same covariance.
 //
-// Step rule. The calculator is evaluated at x0 ± s_k, s_k = √λ_k·e_k for each
-// eigenpair (λ_k, e_k) of V: one standard deviation along each principal axis
+// Step rule. The calculator is evaluated at x0 ± s_k, s_k = D·√λ_k·e_k for
+// each eigenpair (λ_k, e_k) of the correlation matrix R (V = D·R·D, D the
+// standard uncertainties): one standard deviation along each principal axis
 // of the parameters' joint distribution. Then
 //   u²(y) = Σ_k ((f(x0+s_k) − f(x0−s_k))/2)²,
 // which equals cᵀ·V·c exactly when f is linear (Σ_k s_k·s_kᵀ = V). This is

@@ -37,6 +37,14 @@ const char* const part_help =
     "                      RS(T) = RS*(1 + TRS1*(T-TNOM))\n"
     "  --eg EV --xti X --trs1 PER_K   the law's EG (default 1.11), XTI (3), TRS1 (0)\n"
     "  --json              print the answer as JSON (the part.design result)\n"
+    "a stored part's answer carries the standard uncertainty of every result (+-, from\n"
+    "the fit's covariance by the GUM law of propagation); explicit parameters have none.\n"
+    "lot worst case (instead of a part):\n"
+    "  --lot NAME --worst-case   every fitted part of the lot (juncod): least and greatest\n"
+    "                      result and the part and corner that set it\n"
+    "  --temps-c LIST      junction temperatures as corners, e.g. -40,85 (degC)\n"
+    "  --supply-tol PCT    supply tolerance, e.g. 5% (corners at supply -+ 5 %)\n"
+    "  --resistor-tol PCT  bias resistor tolerance (rbias, rreturn), e.g. 1%\n"
     "values take engineering suffixes: 10mA, 1k, 2.2pF, 100MHz (m = milli, M = mega)\n";
 
 // Units as a user reads them.
@@ -80,6 +88,7 @@ std::string usage() {
        "  junco design loss --is 1e-14 --n 1 --rs 1 --current 10mA --switch series\n"
        "  junco design isolation --model wr03.json --cj 0.3pF --freq 1GHz --reverse 5V\n"
        "  junco design distortion --part WR-03 --current 10mA --amplitude 0.1V --freq 100MHz --tt 5ns --json\n"
+       "  junco design bias-r --lot WREN-0912 --worst-case --supply 5 --current 10mA --supply-tol 5% --temps-c -40,85\n"
        "exit: 0 ok, 1 not achievable, over a power limit or daemon error, 2 bad input\n";
   return u;
 }
@@ -181,6 +190,17 @@ std::string shown_value(const nlohmann::json& line, int digits) {
   return buf;
 }
 
+// " ± u" after a result (standard uncertainty, same unit), or why there is none.
+std::string shown_uncertainty(const nlohmann::json& line) {
+  if (!line.contains("std_error") || !line["value"].is_number()) return "";
+  if (!line["std_error"].is_number()) return "  +- not determined";
+  nlohmann::json u = line;
+  u["value"] = line["std_error"];
+  std::string t = "  +- " + shown_value(u, 2);
+  if (line.value("nonlinear", false)) t += " (nonlinear: indicative)";
+  return t;
+}
+
 void print_answer(const nlohmann::json& a) {
   if (a.contains("part")) {
     const auto& p = a["part"];
@@ -204,7 +224,12 @@ void print_answer(const nlohmann::json& a) {
   std::size_t width = 0;
   for (const auto& l : a["result"]) width = std::max(width, l["label"].get<std::string>().size());
   for (const auto& l : a["result"])
-    std::printf("%-*s  %s\n", static_cast<int>(width), l["label"].get<std::string>().c_str(), shown_value(l, 6).c_str());
+    std::printf("%-*s  %s%s\n", static_cast<int>(width), l["label"].get<std::string>().c_str(), shown_value(l, 6).c_str(),
+                shown_uncertainty(l).c_str());
+  if (a.contains("uncertainty") && a["uncertainty"].value("method", "") == "none")
+    std::printf("uncertainty: %s\n", a["uncertainty"].value("note", "none").c_str());
+  else if (a.contains("uncertainty") && a["uncertainty"].contains("note"))
+    std::printf("uncertainty: %s\n", a["uncertainty"]["note"].get<std::string>().c_str());
   for (const auto& w : a["warnings"]) std::printf("warning: %s\n", w.get<std::string>().c_str());
 }
 
@@ -253,6 +278,100 @@ int run_calculator(const DesignCalculator& c, const std::vector<std::string>& ar
   });
 }
 
+// junco design CALC --lot NAME --worst-case [--temps-c LIST] [--supply-tol PCT]
+// [--resistor-tol PCT] [calculator options] [--json] [--socket PATH]: lot.design.
+double parse_tolerance(const std::string& option, const std::string& text) {
+  std::string t = text;
+  const bool percent = !t.empty() && t.back() == '%';
+  if (percent) t.pop_back();
+  const double v = parse_value(option, t, "");
+  const double ratio = percent ? v / 100.0 : v;
+  if (!(ratio >= 0 && ratio <= 0.5))
+    throw std::invalid_argument("--" + option + ": must be 0..50 % (e.g. 5% or 0.05), got '" + text + "'");
+  return ratio;
+}
+
+void print_worst_case(const nlohmann::json& a) {
+  std::string varying;
+  for (const auto& k : a["corner_inputs"]) varying += (varying.empty() ? "" : ", ") + k.get<std::string>();
+  std::printf("worst case of %s over lot %s: %d parts x %d corners%s, %d runs\n", a["calculator"].get<std::string>().c_str(),
+              a["lot"].get<std::string>().c_str(), a["parts"].get<int>(), a["corners"].get<int>(),
+              varying.empty() ? "" : (" (" + varying + ")").c_str(), a["evaluations"].get<int>());
+  const auto corner_text = [](const nlohmann::json& c) {
+    std::string t;
+    for (const auto& [k, v] : c.items()) {
+      const double x = v.get<double>();
+      const std::string one = k == "temp_k" ? format_engineering(x - zero_celsius_k, "degC", 4)
+                              : k == "supply_v" ? format_engineering(x, "V", 4)
+                                                : format_engineering(x, "ohm", 4);
+      t += (t.empty() ? "" : ", ") + k + " " + one;
+    }
+    return t.empty() ? std::string() : " at " + t;
+  };
+  for (const auto& l : a["result"]) {
+    for (const char* end : {"min", "max"}) {
+      nlohmann::json v = l;
+      v["value"] = l[end]["value"];
+      std::printf("%-40s %s %-14s %s%s\n", l["label"].get<std::string>().c_str(), end, shown_value(v, 6).c_str(),
+                  l[end]["part"].get<std::string>().c_str(), corner_text(l[end]["corner"]).c_str());
+    }
+  }
+  if (a["not_achievable_count"].get<long>() > 0)
+    std::printf("not achievable in %ld runs (first: %s)\n", a["not_achievable_count"].get<long>(),
+                a["not_achievable"][0].value("part", "?").c_str());
+  for (const auto& f : a["failures"]) std::printf("FAIL: %s: %s\n", f["part"].get<std::string>().c_str(), f["failure"].get<std::string>().c_str());
+  for (const auto& l : a["left_out"])
+    std::printf("left out: %s (%s)\n", l["label"].get<std::string>().c_str(), l["reason"].get<std::string>().c_str());
+}
+
+int run_worst_case(const DesignCalculator& c, std::vector<std::string> args) {
+  return guarded("design " + c.name + " --worst-case", [&] {
+    const std::string socket = take_socket_option(args);
+    const bool json = take_flag(args, "--json");
+    take_flag(args, "--worst-case");
+    nlohmann::json params{{"calculator", c.name}, {"inputs", nlohmann::json::object()}};
+    for (std::size_t k = 0; k < args.size(); ++k) {
+      const std::string& a = args[k];
+      if (a.rfind("--", 0) != 0) throw std::invalid_argument("unexpected argument '" + a + "'");
+      if (k + 1 >= args.size()) throw std::invalid_argument(a + " needs a value");
+      const std::string option = a.substr(2), value = args[++k];
+      if (option == "lot") params["lot"] = value;
+      else if (option == "supply-tol") params["supply_tol"] = parse_tolerance(option, value);
+      else if (option == "resistor-tol") params["resistor_tol"] = parse_tolerance(option, value);
+      else if (option == "temps-c") {
+        params["temps_k"] = nlohmann::json::array();
+        std::stringstream list(value);
+        for (std::string item; std::getline(list, item, ',');)
+          params["temps_k"].push_back(kelvin_from_celsius(parse_value(option, item, "C")));
+      } else if (option == "temp-c") params["inputs"]["temp_k"] = kelvin_from_celsius(parse_value(option, value, "C"));
+      else if (option == "part" || option == "model" || option == "is" || option == "n" || option == "rs")
+        throw std::invalid_argument("--worst-case takes a lot (--lot NAME), not " + a);
+      else if (const auto* s = spec_by_option(c, option)) {
+        if (s->choices.empty()) params["inputs"][s->key] = parse_value(option, value, s->unit);
+        else params["inputs"][s->key] = value;
+      } else {
+        throw std::invalid_argument("unknown option " + a + " for " + c.name + " --worst-case");
+      }
+    }
+    if (!params.contains("lot")) throw std::invalid_argument("--worst-case needs --lot NAME");
+    RpcClient client(socket);
+    nlohmann::json answer;
+    try {
+      answer = client.call("lot.design", params);
+    } catch (const RpcError& e) {  // juncod names inputs.KEY; say the option instead
+      const std::string field = e.data().is_object() ? e.data().value("field", "") : "";
+      const std::string prefix = "inputs.";
+      if (field.rfind(prefix, 0) != 0) throw;
+      const std::string message = e.what();
+      throw std::invalid_argument(as_option_message(
+          c, DesignInputError(field.substr(prefix.size()), message.rfind(prefix, 0) == 0 ? message.substr(prefix.size()) : message)));
+    }
+    if (json) std::printf("%s\n", answer.dump(2).c_str());
+    else print_worst_case(answer);
+    return answer["result"].empty() ? exit_failure : exit_ok;
+  });
+}
+
 int run(const std::vector<std::string>& args) {
   if (args.empty()) {
     std::fprintf(stderr, "junco design: which calculator? (junco design --help)\n");
@@ -268,6 +387,7 @@ int run(const std::vector<std::string>& args) {
     std::printf("%s", calculator_help(*c).c_str());
     return exit_ok;
   }
+  if (std::find(rest.begin(), rest.end(), "--worst-case") != rest.end()) return run_worst_case(*c, rest);
   return run_calculator(*c, rest);
 }
 
