@@ -353,8 +353,8 @@ std::optional<double> from_guess(ThdCrossing& f, double guess_a, double slope) {
       return f0 > 0 ? illinois(f, x0, f0, x1, f1) : illinois(f, x1, f1, x0, f0);
     step = (f1 != f0) ? -f1 * (x1 - x0) / (f1 - f0) : (f1 > 0 ? 0.1 : -0.1);
     if ((f1 > 0) != (step > 0)) step = f1 > 0 ? 0.1 : -0.1;  // a secant that points away: THD falls with bias
-    // A hair past the crossing (1e-6 of I), so the answer meets the target.
-    step = std::clamp(step + (step > 0 ? 1e-6 : -1e-6), -1.5, 1.5);
+    // A hair (1e-6 of I) to the side of more bias, where the target is met.
+    step = std::clamp(step + 1e-6, -1.5, 1.5);
     x0 = x1;
     f0 = f1;
     x1 = x1 + step;

@@ -168,6 +168,9 @@ DesignPart local_part(const Request& r) {
     if (std::isfinite(m->vj_v)) p.cap.vj_v = m->vj_v;
     if (std::isfinite(m->m)) p.cap.m = m->m;
     if (std::isfinite(m->tt_s)) p.tt_s = m->tt_s;
+    // Its standard errors come without their correlation (Is and N at 0.99+),
+    // and alone they would overstate every uncertainty: none is given.
+    p.cov.source = "a model document has standard errors but not their correlation; use --part for the uncertainty";
     return p;
   }
   for (const char* key : {"is", "n", "rs"})
