@@ -18,6 +18,7 @@
 #include "formats/lot_nominal.hpp"
 #include "formats/model_document.hpp"
 #include "formats/spice_card.hpp"
+#include "design/worst_case.hpp"
 #include "junco/version.hpp"
 
 #include <chrono>
@@ -374,6 +375,51 @@ class CoreService final : public Service {
     const std::string content = *format == "spice" ? fitting::spice_model_card(m, fitting::spice_model_name("D_" + lot + "_NOM"))
                                                    : fitting::model_document_json(m);
     return {{"format", *format}, {"content", content}, {"parts", parts.size()}, {"left_out", left_out}};
+  }
+
+  // A calculator's worst case over the lot's fitted parts (the measured
+  // spread) and the corners of the given tolerances (design/worst_case.hpp).
+  Json lot_design(const Json& params, const Caller&) {
+    const std::string calculator = calculator_param(params);
+    const auto lot = opt_string_param(params, "lot");
+    if (!lot) throw RequestError(RpcCode::invalid_params, "lot: missing (required)", Json{{"field", "lot"}});
+    fitting::WorstCaseCorners w;
+    if (params.contains("temps_k")) w.temps_k = positive_list(params, "temps_k");
+    w.supply_tol = opt_number_param(params, "supply_tol", 0.0, true);
+    w.resistor_tol = opt_number_param(params, "resistor_tol", 0.0, true);
+    const auto rows = store_.parts(*lot);
+    if (rows.empty()) throw NotFound("no lot \"" + *lot + "\"", "lot", *lot);
+    std::vector<fitting::DesignPart> parts;
+    std::vector<Id> ids;
+    Json left_out = Json::array();
+    for (const auto& p : rows) {
+      const auto fit = store_.latest_fit(p.part.id);
+      if (!fit || !fit->fit.usable()) {
+        left_out.push_back({{"label", p.part.label}, {"reason", fit ? std::string("fit ") + fitting::to_string(fit->fit.status) : std::string("no fit yet")}});
+        continue;
+      }
+      parts.push_back(design_part(p.part, *fit));
+      parts.back().label = p.part.label;
+      ids.push_back(p.part.id);
+    }
+    if (parts.empty()) throw NotFound("lot \"" + *lot + "\" has no part with a usable fit", "lot", *lot);
+    const Json inputs = params.contains("inputs") ? params["inputs"] : Json::object();
+    Json answer;
+    try {
+      answer = fitting::design_worst_case(calculator, parts, inputs, w);
+    } catch (const fitting::DesignInputError& e) {
+      const std::string f = e.field();
+      const bool top = f == "calculator" || f == "inputs" || f == "supply_tol" || f == "resistor_tol" || f == "temps_k" || f == "lot";
+      const std::string field = top ? f : "inputs." + f;
+      throw RequestError(RpcCode::invalid_params, (top ? "" : "inputs.") + std::string(e.what()), Json{{"field", field}});
+    }
+    for (auto& line : answer["result"])
+      for (const char* end : {"min", "max"}) line[end]["part_id"] = ids[line[end]["part_index"].get<std::size_t>()];
+    for (auto* list : {&answer["not_achievable"], &answer["failures"]})
+      for (auto& e : *list) e["part_id"] = ids[e["part_index"].get<std::size_t>()];
+    answer["lot"] = *lot;
+    answer["left_out"] = left_out;
+    return answer;
   }
 
   // The AC readings of a run against the model of the latest fit, and the joint AC+DC fit.

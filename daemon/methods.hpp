@@ -44,7 +44,9 @@
       ("part_id", "run_id", "ac_sigma_db", "cj_f", "max_signal_ratio", "ac_floor_v"))                                     \
   ROW("lot.stats",      lot_stats,       "spread, outliers, matched sets and nominal of a lot",                           \
       ("lot", "currents_a", "match_current_a", "match_tolerance_v", "set_size"))                                          \
-  ROW("lot.export",     lot_export,      "the lot nominal as a SPICE card or model document", ("lot", "format"))
+  ROW("lot.export",     lot_export,      "the lot nominal as a SPICE card or model document", ("lot", "format"))          \
+  ROW("lot.design",     lot_design,      "a design calculator's worst case over a lot's fitted parts and corners",        \
+      ("lot", "calculator", "inputs", "temps_k", "supply_tol", "resistor_tol"))
 
 // Answered by the RPC server itself (daemon/rpc_server.cpp): they belong to
 // the connection, not to the service.

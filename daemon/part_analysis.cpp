@@ -185,7 +185,60 @@ fitting::DesignPart design_part(const PartRow& part, const FitRecord& fit) {
   }
   if (const double tt = fit.tt_s.value; tt >= 0) p.tt_s = tt;  // stored charge from multi-frequency AC readings
   p.pin = pin_part_of_fit(fit);
+  p.cov = design_covariance(fit);
   return p;
+}
+
+// The covariance the design calculators propagate: the forward fit's
+// (is_a, n, rs_ohm[, rsh_ohm], stored with the fit), the capacitance law's
+// (CJO, VJ, M: standard errors and the VJ–M correlation, the only one stored;
+// CJO taken as uncorrelated with them) and TT's standard error. The three come
+// from separate fits to separate readings (DC sweep, off-state C, multi-
+// frequency AC), so the blocks are taken as independent.
+fitting::ParameterCovariance design_covariance(const FitRecord& fit) {
+  fitting::ParameterCovariance c;
+  const auto& r = fit.fit;
+  const std::size_t dim = r.parameter_names.size();
+  bool dc_ok = dim > 0 && r.covariance.size() == dim;
+  for (std::size_t a = 0; dc_ok && a < dim; ++a) {
+    dc_ok = r.covariance[a].size() == dim;
+    for (std::size_t b = 0; dc_ok && b < dim; ++b) dc_ok = std::isfinite(r.covariance[a][b]);
+  }
+  if (!dc_ok) {
+    c.source = "fit " + std::to_string(fit.id) + " has no covariance";
+    return c;
+  }
+  std::vector<std::pair<std::string, double>> extra;  // name, variance
+  const auto add = [&](const char* name, const fitting::Estimate& e) {
+    if (e.value > 0 && std::isfinite(e.std_error) && e.std_error > 0) extra.emplace_back(name, e.std_error * e.std_error);
+  };
+  add("cj0_f", fit.cj0_f);
+  if (fit.cj0_f.value > 0) {
+    add("vj_v", fit.vj_v);
+    add("m", fit.m);
+  }
+  add("tt_s", fit.tt_s);
+  c.names = r.parameter_names;
+  for (const auto& [name, var] : extra) c.names.push_back(name);
+  const std::size_t n = c.names.size();
+  c.matrix.assign(n, std::vector<double>(n, 0.0));
+  for (std::size_t a = 0; a < dim; ++a)
+    for (std::size_t b = 0; b < dim; ++b) c.matrix[a][b] = r.covariance[a][b];
+  for (std::size_t k = 0; k < extra.size(); ++k) c.matrix[dim + k][dim + k] = extra[k].second;
+  std::size_t ivj = n, im = n;
+  for (std::size_t k = 0; k < n; ++k) {
+    ivj = c.names[k] == "vj_v" ? k : ivj;
+    im = c.names[k] == "m" ? k : im;
+  }
+  const Json& cap = fit.detail.contains("junction_cap") ? fit.detail["junction_cap"] : Json();
+  if (ivj < n && im < n && cap.is_object() && cap.value("vj_m_correlation", Json()).is_number()) {
+    const double rho = cap["vj_m_correlation"].get<double>();
+    c.matrix[ivj][im] = c.matrix[im][ivj] = rho * std::sqrt(c.matrix[ivj][ivj] * c.matrix[im][im]);
+  }
+  std::string names;
+  for (const auto& name : c.names) names += (names.empty() ? "" : ", ") + name;
+  c.source = "fit " + std::to_string(fit.id) + ": " + names;
+  return c;
 }
 
 fitting::LotPart lot_part(const PartRow& part, const FitRecord& fit) {

@@ -79,6 +79,8 @@ fitting::DesignPart design_part(const PartRow& part, const FitRecord& fit);
 // A PIN part's law and off state from its fit (detail.pin), nullopt when the
 // fit has none that succeeded.
 std::optional<fitting::PinPart> pin_part_of_fit(const FitRecord& fit);
+// The covariance design_part gives the calculators (part_analysis.cpp says which).
+fitting::ParameterCovariance design_covariance(const FitRecord& fit);
 
 // The fit as lot statistics take it (its capacitance law when it has one).
 fitting::LotPart lot_part(const PartRow& part, const FitRecord& fit);

@@ -53,6 +53,15 @@ std::vector<DesignInputSpec> join(std::vector<DesignInputSpec> a, const std::vec
   return a;
 }
 
+// What an iterative calculator's nominal run leaves for its perturbed runs
+// (the uncertainty's evaluations) to start from: a perturbed answer lies near
+// the nominal one. NaN: nothing.
+struct SolveHint {
+  double u = std::numeric_limits<double>::quiet_NaN();         // distortion: the blocks' offset
+  double offset_v = std::numeric_limits<double>::quiet_NaN();  // distortion: the start's offset
+  double slope = std::numeric_limits<double>::quiet_NaN();     // bias-for-thd: d ln THD / d ln I at the answer
+};
+
 // What one run of a calculator sees: the checked inputs, and the answer it builds.
 class Run {
  public:
@@ -190,6 +199,25 @@ class Run {
     answer_["achievable"] = false;
     answer_["reason"] = why;
   }
+  // The nominal answer's value of a result line, when this run is one of the
+  // uncertainty's perturbed evaluations (NaN otherwise): an iterative
+  // calculator starts its search there, as the perturbed answer lies near it.
+  void set_nominal(const Json* nominal) { nominal_ = nominal; }
+  // The nominal run writes the hint (writes = true), the perturbed ones read it.
+  void set_hint(SolveHint* hint, bool writes) {
+    hint_ = hint;
+    hint_writes_ = writes;
+  }
+  SolveHint read_hint() const { return hint_ && !hint_writes_ ? *hint_ : SolveHint{}; }
+  void write_hint(const SolveHint& h) {
+    if (hint_ && hint_writes_) *hint_ = h;
+  }
+  double nominal_value(const std::string& key) const {
+    if (nominal_)
+      for (const auto& l : (*nominal_)["result"])
+        if (l["key"] == key && l["value"].is_number()) return l["value"].get<double>();
+    return std::numeric_limits<double>::quiet_NaN();
+  }
   void warn(const std::string& w) { answer_["warnings"].push_back(w); }
   void fail(const std::string& f) { answer_["failures"].push_back(f); }
   Json take() { return std::move(answer_); }
@@ -235,6 +263,9 @@ class Run {
   std::map<std::string, double> numbers_;
   std::map<std::string, std::string> texts_;
   Json answer_;
+  const Json* nominal_ = nullptr;
+  SolveHint* hint_ = nullptr;
+  bool hint_writes_ = false;
 };
 
 // ---- the calculators --------------------------------------------------------
@@ -367,7 +398,12 @@ void distortion(Run& r) {
   auto in = distortion_input(r);
   in.bias_i_a = r.number("current_a");
   if (r.part().pin) return pin_distortion(r, *r.part().pin, in);
-  harmonics(r, solve_distortion(in));
+  const SolveHint h = r.read_hint();
+  in.start_u = h.u;
+  in.start_offset_v = h.offset_v;
+  const auto d = solve_distortion(in);
+  r.write_hint({d.block_offset_v, d.periods > 0 ? d.start_offset_v : std::numeric_limits<double>::quiet_NaN(), h.slope});
+  harmonics(r, d);
 }
 
 void bias_for_thd(Run& r) {
@@ -377,11 +413,16 @@ void bias_for_thd(Run& r) {
                             "use distortion for the charge criterion (stored charge I*tau against the RF charge per half cycle)");
   auto in = distortion_input(r);
   std::string why;
-  const auto i = bias_for_thd_a(in, r.number("target_pct") / 100.0, &why);
+  // One search that also hands back the distortion at the answer; started at
+  // the nominal answer in the uncertainty's perturbed evaluations.
+  const SolveHint h = r.read_hint();
+  in.start_u = h.u;
+  in.start_offset_v = h.offset_v;
+  const auto i = solve_bias_for_thd(in, r.number("target_pct") / 100.0, &why, r.nominal_value("least_bias_a"), h.slope);
   if (!i) return r.not_achievable(why);
-  in.bias_i_a = *i;
-  r.result("least_bias_a", "least bias", *i, "A");
-  harmonics(r, solve_distortion(in));
+  r.write_hint({i->at.block_offset_v, i->at.periods > 0 ? i->at.start_offset_v : std::numeric_limits<double>::quiet_NaN(), i->slope});
+  r.result("least_bias_a", "least bias", i->bias_a, "A");
+  harmonics(r, i->at);
 }
 
 void isolation(Run& r) {
@@ -394,7 +435,7 @@ void isolation(Run& r) {
     const double db = switch_loss_db(r.kind(), z, r.number("rg_ohm"), r.number("rl_ohm"));
     r.result("ct_f", "PIN off-state CT", p.pin->ct_f, "F");
     if (r.kind() == SwitchKind::series) r.result("isolation_db", "isolation (unbiased series switch)", db, "dB");
-    else r.result("isolation_db", "insertion loss (unbiased shunt switch)", db, "dB");
+    else r.result("loss_db", "insertion loss (unbiased shunt switch)", db, "dB");
     return;
   }
   if (!(p.cap.cj0_f > 0))
@@ -846,6 +887,128 @@ const std::vector<std::pair<std::string, std::string>>& design_renamed_inputs() 
   return v;
 }
 
+namespace {
+
+const CalculatorRow& calculator_row(const std::string& calculator) {
+  for (const auto& row : calculator_rows())
+    if (row.calculator.name == calculator) return row;
+  std::string names;
+  for (const auto& c : design_calculators()) names += (names.empty() ? "" : ", ") + c.name;
+  throw DesignInputError("calculator", "unknown calculator '" + calculator + "' (one of: " + names + ")");
+}
+
+double& parameter_ref(DesignPart& p, const std::string& name) {
+  if (name == "is_a") return p.dc.is_a;
+  if (name == "n") return p.dc.n;
+  if (name == "rs_ohm") return p.dc.rs_ohm;
+  if (name == "rsh_ohm") return p.dc.rsh_ohm;
+  if (name == "cj0_f") return p.cap.cj0_f;
+  if (name == "vj_v") return p.cap.vj_v;
+  if (name == "m") return p.cap.m;
+  if (name == "tt_s") return p.tt_s;
+  throw DesignInputError("part", "no covariance parameter '" + name + "' (is_a, n, rs_ohm, rsh_ohm, cj0_f, vj_v, m, tt_s)");
+}
+
+// Where a perturbed parameter set still is a part (the step rule halves a step that leaves it).
+bool valid_parameters(const std::vector<std::string>& names, const std::vector<double>& x) {
+  for (std::size_t i = 0; i < names.size(); ++i) {
+    const bool non_negative = names[i] == "rs_ohm" || names[i] == "tt_s" || names[i] == "cj0_f";
+    if (!(non_negative ? x[i] >= 0 : x[i] > 0)) return false;
+  }
+  return true;
+}
+
+// std_error on every result line by the law of propagation (design_uncertainty.hpp).
+DesignFunction design_function_hinted(const std::string& calculator, const DesignPart& part, const Json& inputs,
+                                      const std::vector<std::string>& result_keys, const Json& nominal, SolveHint hint);
+
+void add_uncertainty(const std::string& calculator, const DesignPart& part, const Json& inputs, Json& answer, const SolveHint& hint) {
+  if (part.cov.empty()) {
+    answer["uncertainty"] = {{"method", "none"},
+                             {"note", "no uncertainty (" + (part.cov.source.empty() ? std::string("explicit parameters") : part.cov.source) + ")"}};
+    return;
+  }
+  Json& lines = answer["result"];
+  std::vector<std::string> keys;
+  std::vector<double> y0;
+  for (const auto& l : lines) {
+    keys.push_back(l["key"].get<std::string>());
+    y0.push_back(l["value"].is_number() ? l["value"].get<double>() : std::numeric_limits<double>::quiet_NaN());
+  }
+  std::vector<double> x0;
+  for (const auto& name : part.cov.names) x0.push_back(design_part_parameter(part, name));
+  const auto f = design_function_hinted(calculator, part, inputs, keys, answer, hint);
+  const auto names = part.cov.names;
+  const auto prop = propagate_gum(f, x0, y0, part.cov, [&names](const std::vector<double>& x) { return valid_parameters(names, x); });
+  bool any_missing = false, any_nonlinear = false;
+  for (std::size_t j = 0; j < keys.size(); ++j) {
+    if (!std::isfinite(y0[j])) continue;
+    const auto& lp = prop.lines[j];
+    lines[j]["std_error"] = std::isfinite(lp.std_error) ? Json(lp.std_error) : Json(nullptr);
+    any_missing = any_missing || !std::isfinite(lp.std_error);
+    if (lp.nonlinear) {
+      lines[j]["nonlinear"] = true;
+      any_nonlinear = true;
+    }
+  }
+  Json u{{"method", "GUM law of propagation (JCGM 100:2008 5.1.2, 5.2.2): central differences of the calculator at one standard "
+                    "deviation along each principal axis of the covariance"},
+         {"parameters", part.cov.names},
+         {"source", part.cov.source},
+         {"evaluations", prop.evaluations}};
+  std::string note;
+  if (any_missing)
+    note = "std_error null: the answer does not exist everywhere within one standard deviation of the parameters "
+           "(the target is only just achievable)";
+  if (any_nonlinear)
+    note += std::string(note.empty() ? "" : "; ") +
+            "nonlinear: the second-order term is above 10 % of std_error, the linear law is indicative only (a Monte Carlo "
+            "over the covariance, JCGM 101, gives the better figure)";
+  if (!note.empty()) u["note"] = note;
+  answer["uncertainty"] = u;
+}
+
+}  // namespace
+
+double design_part_parameter(const DesignPart& part, const std::string& name) {
+  return parameter_ref(const_cast<DesignPart&>(part), name);
+}
+
+DesignFunction design_function(const std::string& calculator, const DesignPart& part, const Json& inputs,
+                               const std::vector<std::string>& result_keys, const Json& nominal) {
+  return design_function_hinted(calculator, part, inputs, result_keys, nominal, {});
+}
+
+namespace {
+
+DesignFunction design_function_hinted(const std::string& calculator, const DesignPart& part, const Json& inputs,
+                                      const std::vector<std::string>& result_keys, const Json& nominal, SolveHint hint) {
+  const CalculatorRow& row = calculator_row(calculator);
+  DesignPart base = part;
+  const std::vector<std::string> names = part.cov.names;
+  base.cov = {};
+  return [&row, base, names, inputs, result_keys, nominal, hint](const std::vector<double>& x) mutable {
+    std::vector<double> y(result_keys.size(), std::numeric_limits<double>::quiet_NaN());
+    DesignPart p = base;
+    for (std::size_t i = 0; i < names.size() && i < x.size(); ++i) parameter_ref(p, names[i]) = x[i];
+    try {
+      Run run(row.calculator, &p, inputs);
+      if (nominal.is_object()) run.set_nominal(&nominal);
+      run.set_hint(&hint, false);
+      row.body(run);
+      const Json a = run.take();
+      if (!a["achievable"].get<bool>()) return y;
+      for (const auto& l : a["result"])
+        for (std::size_t j = 0; j < result_keys.size(); ++j)
+          if (l["key"] == result_keys[j] && l["value"].is_number()) y[j] = l["value"].get<double>();
+    } catch (const DesignInputError&) {  // e.g. TRS takes RS below zero there: no value
+    }
+    return y;
+  };
+}
+
+}  // namespace
+
 Json run_design(const std::string& calculator, const DesignPart* part, const Json& given) {
   // Old input names still work (docs/names.md): read as the new one, with a
   // warning in the answer that names it. Both spellings at once is an error.
@@ -860,16 +1023,13 @@ Json run_design(const std::string& calculator, const DesignPart* part, const Jso
       inputs.erase(old_key);
       renamed.push_back("input " + old_key + " is now spelled " + new_key + " (the old spelling still works for now)");
     }
-  const DesignCalculator* calc = find_design_calculator(calculator);
-  if (!calc) {
-    std::string names;
-    for (const auto& c : design_calculators()) names += (names.empty() ? "" : ", ") + c.name;
-    throw DesignInputError("calculator", "unknown calculator '" + calculator + "' (one of: " + names + ")");
-  }
-  Run run(*calc, part, inputs);
-  for (const auto& row : calculator_rows())
-    if (row.calculator.name == calc->name) row.body(run);
+  const CalculatorRow& row = calculator_row(calculator);
+  Run run(row.calculator, part, inputs);
+  SolveHint hint;
+  run.set_hint(&hint, true);
+  row.body(run);
   Json answer = run.take();
+  if (row.calculator.needs_part && answer["achievable"].get<bool>()) add_uncertainty(calculator, *part, inputs, answer, hint);
   for (const auto& w : renamed) answer["warnings"].push_back(w);
   return answer;
 }

@@ -11,12 +11,16 @@
 //            "achievable", "reason", "warnings", "failures"}
 //   line    {"key", "label", "unit", "value"} (+ "text" for a choice, or for
 //            a value with no number such as "choke (no AC shunt)")
+//   result lines of a part with a covariance also carry "std_error" (null:
+//   not determined) and "nonlinear": true where the linear law is not to be
+//   trusted to 10 %; the answer's "uncertainty" says how (or why there is none).
 // Every input the calculator used appears in "assumed", defaults included.
 #pragma once
 
 #include "fitting/diode.hpp"
 #include "design/switch.hpp"
 #include "fitting/pin_diode.hpp"
+#include "design/uncertainty.hpp"
 #include "fitting/temperature.hpp"
 
 #include <nlohmann/json.hpp>
@@ -45,6 +49,11 @@ struct DesignPart {
   // A PIN part: loss uses its law Z(ω) = R0 + rd/(1 + jωτ) + R_I·jωτ/(1 + jωτ)
   // and isolation CT ∥ Rp (fitting/pin_diode.hpp) in place of rd, Cj(V), TT.
   std::optional<PinPart> pin;
+  // The parameters' covariance (design_uncertainty.hpp), at temp_k. With it
+  // every result line carries std_error; empty (explicit parameters, or a
+  // source with none): the answer says why (cov.source, default "explicit
+  // parameters").
+  ParameterCovariance cov;
 };
 
 enum class InputRange { any, positive, non_negative };
@@ -95,6 +104,18 @@ const std::vector<DesignInputSpec>& design_part_inputs();
 // warning in the answer (design_renamed_inputs: {old, new}).
 nlohmann::json run_design(const std::string& calculator, const DesignPart* part, const nlohmann::json& inputs);
 const std::vector<std::pair<std::string, std::string>>& design_renamed_inputs();
+
+// A calculator as a function of the part's covariance parameters (in
+// part.cov.names' order; one value per result line of the nominal answer,
+// keys result_keys; NaN where a line has none), for the propagation and the
+// Monte Carlo check (design_uncertainty.hpp). nominal: the answer at the
+// part's own values, when known; iterative calculators (bias-for-thd) start
+// their search at its result there (a perturbed answer lies near it).
+DesignFunction design_function(const std::string& calculator, const DesignPart& part, const nlohmann::json& inputs,
+                               const std::vector<std::string>& result_keys, const nlohmann::json& nominal = nullptr);
+// The part's value of a covariance parameter (is_a, n, rs_ohm, rsh_ohm,
+// cj0_f, vj_v, m, tt_s); throws DesignInputError for another name.
+double design_part_parameter(const DesignPart& part, const std::string& name);
 
 // The part as the answer reports it (SPICE names, SI units): its parameters
 // at its own temp_k, with the temperature law (eg_ev, xti, trs1_per_k,

@@ -216,6 +216,7 @@ DistortionResult solve_distortion(const DistortionInput& in) {
   double u = 0.0;
   int periods = 0;
   double min_id_a = 0.0;  // trough of the junction current Id(v)
+  double start_offset_v = 0.0;
   if (!in.charge.any() || !(in.freq_hz > 0)) {
     solve_currents(in, loop, u, i_a);
     if (!in.hold_dc_point) {
@@ -233,11 +234,15 @@ DistortionResult solve_distortion(const DistortionInput& in) {
     min_id_a = *std::min_element(i_a.begin(), i_a.end());  // no stored charge: Id is the terminal current
   } else {
     const ChargeSolver solver(in, loop);
-    double v0 = solver.quasi_static_v0(u);
+    const bool warm = std::isfinite(in.start_u) && std::isfinite(in.start_offset_v);
+    if (warm && !in.hold_dc_point) u = in.start_u;
+    double v0 = solver.quasi_static_v0(u) + (warm ? in.start_offset_v : 0.0);
     periods = steady_state(solver, in.hold_dc_point, in.bias_i_a, v0, u, i_a, &min_id_a);
+    start_offset_v = v0 - solver.quasi_static_v0(u);
   }
   DistortionResult r;
   r.block_offset_v = u;
+  r.start_offset_v = start_offset_v;
   r.min_junction_current_a = min_id_a;
   r.periods = periods;
   r.mean_current_a = mean(i_a);
@@ -256,33 +261,66 @@ DistortionResult solve_distortion(const DistortionInput& in) {
 }
 
 std::optional<double> bias_for_thd_a(DistortionInput in, double target_thd, std::string* why) {
-  // f(x) = ln THD(e^x) − ln target, x = ln I: nearly straight (THD ~ I^−k)
-  // above the bias where the diode starts to clip.
-  const auto f = [&](double x) {
-    in.bias_i_a = std::exp(x);
-    return std::log(solve_distortion(in).load.thd) - std::log(target_thd);
-  };
-  // Scan down from 1 A in steps of √10 to the first bias that misses the
-  // target: the answer is the least bias above which every bias meets it
-  // (with stored charge THD need not fall monotonically at small biases).
-  constexpr double step = 1.1512925464970229;  // ln √10
-  double hi = 0.0, f_hi = f(hi);
-  if (f_hi > 0) {
-    if (why) *why = "even 1 A of bias leaves THD above the target (Rs-dominated or amplitude too high)";
-    return std::nullopt;
+  const auto r = solve_bias_for_thd(std::move(in), target_thd, why);
+  if (!r) return std::nullopt;
+  return r->bias_a;
+}
+
+namespace {
+
+// The search's function f(x) = ln THD(e^x) − ln target, x = ln I: nearly
+// straight (THD ~ I^−k) above the bias where the diode starts to clip. Keeps
+// the last solution to start the next solve from when it is near.
+class ThdCrossing {
+ public:
+  ThdCrossing(DistortionInput in, double target_thd) : in_(std::move(in)), log_target_(std::log(target_thd)) {}
+  double operator()(double x) {
+    in_.bias_i_a = std::exp(x);
+    if (has_last_) {  // the first solve keeps the caller's start, if any
+      const bool near = std::abs(x - last_x_) < 0.4055;  // ln 1.5
+      in_.start_u = near ? last_.block_offset_v : std::numeric_limits<double>::quiet_NaN();
+      in_.start_offset_v = near ? last_.start_offset_v : std::numeric_limits<double>::quiet_NaN();
+    }
+    DistortionResult r = solve_distortion(in_);
+    ++solves;
+    if (r.periods > 0 && r.periods < 60) {  // a converged charge solve: worth starting from
+      last_ = r;
+      last_x_ = x;
+      has_last_ = true;
+    }
+    const double fx = std::log(r.load.thd) - log_target_;
+    if (std::isfinite(fx) && std::isfinite(last_fx_) && x != prev_x_) slope = (fx - last_fx_) / (x - prev_x_);
+    prev_x_ = x;
+    last_fx_ = fx;
+    results_.emplace_back(x, std::move(r));
+    if (results_.size() > 4) results_.erase(results_.begin());
+    return fx;
   }
-  double lo = hi - step, f_lo = f(lo);
-  while (f_lo <= 0) {
-    if (lo <= std::log(1e-6)) return std::exp(lo);  // 1 µA meets it: no lower answer is meaningful
-    hi = lo;
-    f_hi = f_lo;
-    lo -= step;
-    f_lo = f(lo);
+  double slope = std::numeric_limits<double>::quiet_NaN();  // of the last two solves
+  // The solution at x (solved once more only if it is not among the last few).
+  DistortionResult at(double x) {
+    for (const auto& [xi, r] : results_)
+      if (xi == x) return r;
+    (*this)(x);
+    return results_.back().second;
   }
-  // Illinois: regula falsi that halves the stale end's value, so the bracket
-  // shrinks from both sides; stop at 1e-4 of I.
+  int solves = 0;
+
+ private:
+  DistortionInput in_;
+  double log_target_;
+  DistortionResult last_;
+  double last_x_ = 0.0, prev_x_ = std::numeric_limits<double>::quiet_NaN();
+  double last_fx_ = std::numeric_limits<double>::quiet_NaN();
+  bool has_last_ = false;
+  std::vector<std::pair<double, DistortionResult>> results_;
+};
+
+// Illinois: regula falsi that halves the stale end's value, so the bracket
+// shrinks from both sides; stop at 1e-4 of I. f(lo) > 0 ≥ f(hi).
+double illinois(ThdCrossing& f, double lo, double f_lo, double hi, double f_hi, double tolerance = 1e-4) {
   int stale = 0;
-  for (int k = 0; k < 60 && hi - lo > 1e-4; ++k) {
+  for (int k = 0; k < 60 && hi - lo > tolerance; ++k) {
     double x = hi - f_hi * (hi - lo) / (f_hi - f_lo);
     if (!(x > lo && x < hi)) x = 0.5 * (lo + hi);
     const double fx = f(x);
@@ -298,7 +336,82 @@ std::optional<double> bias_for_thd_a(DistortionInput in, double target_thd, std:
       stale = 1;
     }
   }
-  return std::exp(hi);
+  return hi;
+}
+
+// From a guess: secant steps (at most 1.5 in ln I each; the first Newton's
+// when the slope is known) until one moves ln I by less than 1e-3; failing
+// that, to a bracket and Illinois.
+std::optional<double> from_guess(ThdCrossing& f, double guess_a, double slope) {
+  double x0 = std::log(guess_a), f0 = f(x0);
+  if (!std::isfinite(f0)) return std::nullopt;
+  double step = (std::isfinite(slope) && slope < 0) ? -f0 / slope : (f0 > 0 ? 0.02 : -0.02);  // THD falls with bias
+  double x1 = x0 + std::clamp(step, -1.5, 1.5), f1 = f(x1);
+  for (int k = 0; k < 10 && std::isfinite(f1); ++k) {
+    if (std::abs(x1 - x0) < 1e-3 && f1 <= 0) return x1;
+    if ((f0 > 0) != (f1 > 0) && std::abs(x1 - x0) > 0.05)
+      return f0 > 0 ? illinois(f, x0, f0, x1, f1) : illinois(f, x1, f1, x0, f0);
+    step = (f1 != f0) ? -f1 * (x1 - x0) / (f1 - f0) : (f1 > 0 ? 0.1 : -0.1);
+    if ((f1 > 0) != (step > 0)) step = f1 > 0 ? 0.1 : -0.1;  // a secant that points away: THD falls with bias
+    // A hair (1e-6 of I) to the side of more bias, where the target is met.
+    step = std::clamp(step + 1e-6, -1.5, 1.5);
+    x0 = x1;
+    f0 = f1;
+    x1 = x1 + step;
+    if (x1 > 0.0) return std::nullopt;  // above 1 A: leave it to the scan, which says so
+    f1 = f(x1);
+  }
+  return std::nullopt;
+}
+
+}  // namespace
+
+std::optional<BiasForThd> solve_bias_for_thd(DistortionInput in, double target_thd, std::string* why, double guess_a, double slope) {
+  ThdCrossing f(in, target_thd);
+  const auto done = [&f](double x) {
+    const double s = f.slope;
+    auto at = f.at(x);
+    return BiasForThd{std::exp(x), std::move(at), s, f.solves};
+  };
+  if (guess_a > 1e-6 && guess_a < 1.0)
+    if (const auto x = from_guess(f, guess_a, slope)) return done(*x);
+  if (!(guess_a > 0) && in.samples >= 128) {
+    // No guess: the scan and a first pin (to 1e-2 of I) on a quarter of the
+    // time steps, whose answer is the guess of the full-resolution search
+    // (it moves it by a few per cent at most: fewer solves at full cost).
+    DistortionInput coarse_in = in;
+    coarse_in.samples = in.samples / 4;
+    std::string coarse_why;
+    if (const auto coarse = solve_bias_for_thd(coarse_in, target_thd, &coarse_why, std::numeric_limits<double>::quiet_NaN(), slope);
+        coarse && coarse->bias_a > 1.0001e-6 && coarse->bias_a < 0.9) {
+      in.start_u = coarse->at.block_offset_v;
+      in.start_offset_v = coarse->at.periods > 0 ? coarse->at.start_offset_v : std::numeric_limits<double>::quiet_NaN();
+      ThdCrossing fine(in, target_thd);
+      if (const auto x = from_guess(fine, coarse->bias_a, coarse->slope)) {
+        const double s_fine = fine.slope;
+        auto at = fine.at(*x);
+        return BiasForThd{std::exp(*x), std::move(at), s_fine, fine.solves + coarse->solves};
+      }
+    }
+  }
+  // Scan down from 1 A in steps of √10 to the first bias that misses the
+  // target: the answer is the least bias above which every bias meets it
+  // (with stored charge THD need not fall monotonically at small biases).
+  constexpr double step = 1.1512925464970229;  // ln √10
+  double hi = 0.0, f_hi = f(hi);
+  if (f_hi > 0) {
+    if (why) *why = "even 1 A of bias leaves THD above the target (Rs-dominated or amplitude too high)";
+    return std::nullopt;
+  }
+  double lo = hi - step, f_lo = f(lo);
+  while (f_lo <= 0) {
+    if (lo <= std::log(1e-6)) return done(lo);  // 1 µA meets it: no lower answer is meaningful
+    hi = lo;
+    f_hi = f_lo;
+    lo -= step;
+    f_lo = f(lo);
+  }
+  return done(illinois(f, lo, f_lo, hi, f_hi));
 }
 
 }  // namespace junco::fitting

@@ -36,6 +36,7 @@
 #include "fitting/diode.hpp"
 #include "design/harmonics.hpp"
 
+#include <limits>
 #include <optional>
 #include <string>
 #include <vector>
@@ -55,6 +56,12 @@ struct DistortionInput {
   int samples = 256;       // per period (time steps of the charge solve)
   int harmonics = 9;       // highest harmonic reported
   bool hold_dc_point = false;
+  // Warm start of the charge solve (a neighbouring solution, as a bias
+  // search has): the blocks' offset u and the start's distance from the
+  // quasi-static v(0) (DistortionResult::block_offset_v, start_offset_v).
+  // NaN: start quasi-statically with u = 0.
+  double start_u = std::numeric_limits<double>::quiet_NaN();
+  double start_offset_v = std::numeric_limits<double>::quiet_NaN();
 };
 
 struct DistortionResult {
@@ -67,6 +74,7 @@ struct DistortionResult {
                                         // charge keeps the junction on)
   double max_current_a = 0.0;
   double block_offset_v = 0.0;   // u above
+  double start_offset_v = 0.0;   // the periodic v(0) less the quasi-static one (charge solve)
   int periods = 0;               // periods integrated (0: the resistive solve)
   std::vector<double> load_v;    // one period of the load voltage (AC part)
 };
@@ -81,5 +89,28 @@ DistortionResult solve_distortion(const DistortionInput& in);
 // of I. 1 µA when even that meets the target; nullopt with *why when 1 A is
 // not enough.
 std::optional<double> bias_for_thd_a(DistortionInput in, double target_thd, std::string* why = nullptr);
+
+// The same search with the distortion at the answer (no second solve), and
+// an optional guess: a bias near the answer (a neighbouring answer, as the
+// uncertainty's perturbed evaluations have). From a guess the search steps
+// along ln THD against ln I (slope from the first two solves) to a bracket
+// of the crossing nearest the guess and pins it with the same Illinois
+// secant; when that fails within 12 solves it falls back to the full scan.
+// Each solve starts warm from the last one when the bias moved by less than
+// a factor 1.5.
+// slope: d ln THD / d ln I near the guess when known (a neighbouring
+// search's BiasForThd::slope): the first step is then Newton's, and the
+// search from a guess ends when a secant step moves ln I by less than 1e-3
+// (superlinear: the answer is then within ~1e-6 of I). in.start_u and
+// in.start_offset_v, when given, start the first solve warm.
+struct BiasForThd {
+  double bias_a = 0.0;
+  DistortionResult at;  // the distortion at bias_a
+  double slope = std::numeric_limits<double>::quiet_NaN();  // d ln THD / d ln I from the last two solves
+  int solves = 0;       // solve_distortion calls the search made
+};
+std::optional<BiasForThd> solve_bias_for_thd(DistortionInput in, double target_thd, std::string* why = nullptr,
+                                             double guess_a = std::numeric_limits<double>::quiet_NaN(),
+                                             double slope = std::numeric_limits<double>::quiet_NaN());
 
 }  // namespace junco::fitting

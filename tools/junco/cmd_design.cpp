@@ -30,7 +30,13 @@ const char* const part_text =
     "override the part's charge. --temp-c sets the junction temperature (default: the fit's,\n"
     "else 27 degC); IS and RS follow the SPICE law from the fit's temperature (TNOM):\n"
     "  IS(T) = IS*(T/TNOM)^(XTI/N)*exp((T/TNOM-1)*EG/(N*Vt(T))),  RS(T) = RS*(1 + TRS1*(T-TNOM))\n"
-    "with --eg (default 1.11), --xti (3), --trs1 (0).\n";
+    "with --eg (default 1.11), --xti (3), --trs1 (0).\n"
+    "A stored part's answer carries the standard uncertainty of every result (+-, from the\n"
+    "fit's covariance by the GUM law of propagation); explicit parameters have none.\n"
+    "Lot worst case (instead of a part): --lot NAME --worst-case runs the calculator on every\n"
+    "fitted part of the lot (juncod) and gives the least and greatest result and the part and\n"
+    "corner that set it; corners from --temps-c LIST (degC, e.g. -40,85), --supply-tol PCT\n"
+    "(e.g. 5%) and --resistor-tol PCT (bias and DC-return resistors, e.g. 1%).\n";
 
 const char* const values_text = "Values take engineering suffixes: 10mA, 1k, 2.2pF, 100MHz (m = milli, M = mega).\n";
 
@@ -40,6 +46,7 @@ const char* const design_footer =
     "  junco design loss --is 1e-14 --n 1 --rs 1 --current 10mA --switch series\n"
     "  junco design isolation --model wr03.json --cj 0.3pF --freq 1GHz --reverse 5V\n"
     "  junco design distortion --part WR-03 --current 10mA --amplitude 0.1V --freq 100MHz --tt 5ns --json\n"
+    "  junco design bias-r --lot WREN-0912 --worst-case --supply 5 --current 10mA --supply-tol 5% --temps-c -40,85\n"
     "exit: 0 ok, 1 not achievable, over a power limit or daemon error, 2 bad input";
 
 // Units as a user reads them.
@@ -64,6 +71,8 @@ struct Given {
   std::optional<std::string> temp_c;
   std::string unknown;  // a first word that is no calculator
   bool json = false;
+  bool worst_case = false;  // --lot NAME --worst-case: lot.design
+  std::optional<std::string> temps_c, supply_tol, resistor_tol;
 };
 Given g_given;  // bound by define(); one command per process
 
@@ -111,6 +120,17 @@ void define_calculator(CLI::App& app, const DesignCalculator& c) {
     sub->add_option_function<std::string>("--temp-c", [](const std::string& v) { g_given.temp_c = v; },
                                           "junction temperature in degC (default: the fit's, else 27 degC)")
         ->type_name("DEGC");
+    sub->add_flag("--worst-case", g_given.worst_case,
+                  "with --lot NAME: least and greatest result over every fitted part of the lot and the corners");
+    sub->add_option_function<std::string>("--temps-c", [](const std::string& v) { g_given.temps_c = v; },
+                                          "worst case: junction temperatures as corners, e.g. -40,85 (degC)")
+        ->type_name("LIST");
+    sub->add_option_function<std::string>("--supply-tol", [](const std::string& v) { g_given.supply_tol = v; },
+                                          "worst case: supply tolerance, e.g. 5% (corners at supply -+ 5 %)")
+        ->type_name("PCT");
+    sub->add_option_function<std::string>("--resistor-tol", [](const std::string& v) { g_given.resistor_tol = v; },
+                                          "worst case: bias and DC-return resistor tolerance, e.g. 1%")
+        ->type_name("PCT");
   }
   add_socket_option(*sub, g_given.socket);
   sub->add_flag("--json", g_given.json, "print the answer as JSON (the part.design result)");
@@ -186,6 +206,9 @@ DesignPart local_part(const Request& r) {
     if (std::isfinite(m->m)) p.cap.m = m->m;
     if (std::isfinite(m->tt_s)) p.tt_s = m->tt_s;
     p.pin = m->pin;
+    // Its standard errors come without their correlation (Is and N at 0.99+),
+    // and alone they would overstate every uncertainty: none is given.
+    p.cov.source = "a model document has standard errors but not their correlation; use --part for the uncertainty";
     return p;
   }
   for (const char* key : {"is", "n", "rs"})
@@ -206,6 +229,17 @@ std::string shown_value(const nlohmann::json& line, int digits) {
   else if (unit == "%" || unit.empty()) std::snprintf(buf, sizeof buf, "%.6g%s%s", v, unit.empty() ? "" : " ", unit.c_str());
   else return units::format_si(v, shown_unit(unit), digits);
   return buf;
+}
+
+// " +- u" after a result (standard uncertainty, same unit), or why there is none.
+std::string shown_uncertainty(const nlohmann::json& line) {
+  if (!line.contains("std_error") || !line["value"].is_number()) return "";
+  if (!line["std_error"].is_number()) return "  +- not determined";
+  nlohmann::json u = line;
+  u["value"] = line["std_error"];
+  std::string t = "  +- " + shown_value(u, 2);
+  if (line.value("nonlinear", false)) t += " (nonlinear: indicative)";
+  return t;
 }
 
 void print_answer(const nlohmann::json& a) {
@@ -231,7 +265,10 @@ void print_answer(const nlohmann::json& a) {
   std::size_t width = 0;
   for (const auto& l : a["result"]) width = std::max(width, l["label"].get<std::string>().size());
   for (const auto& l : a["result"])
-    std::printf("%-*s  %s\n", static_cast<int>(width), l["label"].get<std::string>().c_str(), shown_value(l, 6).c_str());
+    std::printf("%-*s  %s%s\n", static_cast<int>(width), l["label"].get<std::string>().c_str(), shown_value(l, 6).c_str(),
+                shown_uncertainty(l).c_str());
+  if (a.contains("uncertainty") && a["uncertainty"].contains("note"))
+    std::printf("uncertainty: %s\n", a["uncertainty"]["note"].get<std::string>().c_str());
   for (const auto& w : a["warnings"]) std::printf("warning: %s\n", w.get<std::string>().c_str());
 }
 
@@ -280,7 +317,96 @@ int run_calculator(const DesignCalculator& c) {
   });
 }
 
+// junco design CALC --lot NAME --worst-case [--temps-c LIST] [--supply-tol PCT]
+// [--resistor-tol PCT] [calculator options] [--json] [--socket PATH]: lot.design.
+double parse_tolerance(const std::string& option, const std::string& text) {
+  std::string t = text;
+  const bool percent = !t.empty() && t.back() == '%';
+  if (percent) t.pop_back();
+  const double v = parse_value(option, t, "");
+  const double ratio = percent ? v / 100.0 : v;
+  if (!(ratio >= 0 && ratio <= 0.5))
+    throw std::invalid_argument("--" + option + ": must be 0..50 % (e.g. 5% or 0.05), got '" + text + "'");
+  return ratio;
+}
+
+void print_worst_case(const nlohmann::json& a) {
+  std::string varying;
+  for (const auto& k : a["corner_inputs"]) varying += (varying.empty() ? "" : ", ") + k.get<std::string>();
+  std::printf("worst case of %s over lot %s: %d parts x %d corners%s, %d runs\n", a["calculator"].get<std::string>().c_str(),
+              a["lot"].get<std::string>().c_str(), a["parts"].get<int>(), a["corners"].get<int>(),
+              varying.empty() ? "" : (" (" + varying + ")").c_str(), a["evaluations"].get<int>());
+  const auto corner_text = [](const nlohmann::json& c) {
+    std::string t;
+    for (const auto& [k, v] : c.items()) {
+      const double x = v.get<double>();
+      const std::string one = k == "temp_k" ? units::format_si(x - zero_celsius_k, "degC", 4)
+                              : k == "supply_v" ? units::format_si(x, "V", 4)
+                                                : units::format_si(x, "ohm", 4);
+      t += (t.empty() ? "" : ", ") + k + " " + one;
+    }
+    return t.empty() ? std::string() : " at " + t;
+  };
+  for (const auto& l : a["result"]) {
+    for (const char* end : {"min", "max"}) {
+      nlohmann::json v = l;
+      v["value"] = l[end]["value"];
+      std::printf("%-40s %s %-14s %s%s\n", l["label"].get<std::string>().c_str(), end, shown_value(v, 6).c_str(),
+                  l[end]["part"].get<std::string>().c_str(), corner_text(l[end]["corner"]).c_str());
+    }
+  }
+  if (a["not_achievable_count"].get<long>() > 0)
+    std::printf("not achievable in %ld runs (first: %s)\n", a["not_achievable_count"].get<long>(),
+                a["not_achievable"][0].value("part", "?").c_str());
+  for (const auto& f : a["failures"]) std::printf("FAIL: %s: %s\n", f["part"].get<std::string>().c_str(), f["failure"].get<std::string>().c_str());
+  for (const auto& l : a["left_out"])
+    std::printf("left out: %s (%s)\n", l["label"].get<std::string>().c_str(), l["reason"].get<std::string>().c_str());
+}
+
+int run_worst_case(const DesignCalculator& c, const Given& g) {
+  return guarded("design " + c.name + " --worst-case", [&] {
+    for (const char* name : {"part", "model", "is", "n", "rs"})
+      if (g.part_source.count(name)) throw std::invalid_argument(std::string("--worst-case takes a lot (--lot NAME), not --") + name);
+    if (!g.part_source.count("lot")) throw std::invalid_argument("--worst-case needs --lot NAME");
+    nlohmann::json params{{"calculator", c.name}, {"lot", g.part_source.at("lot")}, {"inputs", nlohmann::json::object()}};
+    if (g.supply_tol) params["supply_tol"] = parse_tolerance("supply-tol", *g.supply_tol);
+    if (g.resistor_tol) params["resistor_tol"] = parse_tolerance("resistor-tol", *g.resistor_tol);
+    if (g.temps_c) {
+      params["temps_k"] = nlohmann::json::array();
+      std::stringstream list(*g.temps_c);
+      for (std::string item; std::getline(list, item, ',');)
+        params["temps_k"].push_back(kelvin_from_celsius(parse_value("temps-c", item, "C")));
+    }
+    if (g.temp_c) params["inputs"]["temp_k"] = kelvin_from_celsius(parse_value("temp-c", *g.temp_c, "C"));
+    for (const auto& [key, value] : g.inputs) {
+      const auto* s = spec_by_key(c, key);
+      if (s->choices.empty()) params["inputs"][key] = parse_value(s->option, value, s->unit);
+      else params["inputs"][key] = value;
+    }
+    RpcClient client(socket_path(g.socket));
+    nlohmann::json answer;
+    try {
+      answer = client.call("lot.design", params);
+    } catch (const RpcError& e) {  // juncod names inputs.KEY; say the option instead
+      const std::string field = e.data().is_object() ? e.data().value("field", "") : "";
+      const std::string prefix = "inputs.";
+      if (field.rfind(prefix, 0) != 0) throw;
+      const std::string message = e.what();
+      throw std::invalid_argument(as_option_message(
+          c, DesignInputError(field.substr(prefix.size()), message.rfind(prefix, 0) == 0 ? message.substr(prefix.size()) : message)));
+    }
+    if (g.json) std::printf("%s\n", answer.dump(2).c_str());
+    else print_worst_case(answer);
+    return answer["result"].empty() ? exit_failure : exit_ok;
+  });
+}
+
 int run() {
+  if (g_given.calculator && g_given.worst_case) return run_worst_case(*g_given.calculator, g_given);
+  if (g_given.calculator && (g_given.temps_c || g_given.supply_tol || g_given.resistor_tol))
+    return guarded("design " + g_given.calculator->name, []() -> int {
+      throw std::invalid_argument("--temps-c, --supply-tol and --resistor-tol go with --lot NAME --worst-case");
+    });
   if (g_given.calculator) return run_calculator(*g_given.calculator);
   std::string names;
   for (const auto& c : design_calculators()) names += (names.empty() ? "" : ", ") + c.name;

@@ -467,7 +467,7 @@ class Client:
             data.field = inputs.KEY)
 
         Returns the result object: calculator, part, assumed, result, achievable, reason, warnings,
-        failures, junction.
+        failures, junction, uncertainty.
         Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
         client's), ConnectionError when the connection is lost.
         """
@@ -575,6 +575,38 @@ class Client:
         """
         return self._method('job.submit', timeout_s, plan=plan)
 
+    def lot_design(
+            self,
+            *,
+            lot: str,
+            calculator: str,
+            inputs: Optional[Dict[str, Any]] = None,
+            temps_k: Optional[List[float]] = None,
+            supply_tol: Optional[float] = None,
+            resistor_tol: Optional[float] = None,
+            timeout_s: Optional[float] = None
+    ) -> Dict[str, Any]:
+        """`lot.design`: Worst case of a design calculator (design/worst_case.hpp) over a lot's fitted parts (their latest usable fits: the lot's measured spread) and the vertices of the given tolerances: per result line the least and greatest value and the part and corner that set it.
+
+        Params:
+            lot (str, required): the lot's name
+            calculator (str, required): a calculator that needs a part; one of op, bias-r, loss,
+            bias-for-loss, distortion, bias-for-thd, isolation, power
+            inputs (Dict[str, Any], optional): the calculator's inputs as for part.design
+            temps_k (List[float], K, optional): junction temperatures > 0 to take as corners, 1..64
+            (default: each part's own) [K]
+            supply_tol (float, optional): supply tolerance as a ratio 0..0.5 (0.05 = ±5 %), when the
+            calculator takes supply_v (default 0)
+            resistor_tol (float, optional): tolerance of the bias resistors rbias_ohm and rreturn_ohm as
+            a ratio 0..0.5 (default 0)
+
+        Returns the result object: calculator, lot, parts, corners, corner_inputs, evaluations, result,
+        not_achievable, not_achievable_count, failures, left_out.
+        Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
+        client's), ConnectionError when the connection is lost.
+        """
+        return self._method('lot.design', timeout_s, lot=lot, calculator=calculator, inputs=inputs, temps_k=temps_k, supply_tol=supply_tol, resistor_tol=resistor_tol)
+
     def lot_export(self, *, lot: str, format: str, timeout_s: Optional[float] = None) -> Dict[str, Any]:
         """`lot.export`: The lot nominal (median of each fitted parameter) as a SPICE .model card or a model document.
 
@@ -647,7 +679,7 @@ class Client:
             data.field = inputs.KEY)
 
         Returns the result object: calculator, part, assumed, result, achievable, reason, warnings,
-        failures, part_id, fit_id, junction.
+        failures, part_id, fit_id, junction, uncertainty.
         Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
         client's), ConnectionError when the connection is lost.
         """
