@@ -5,8 +5,8 @@
 //
 // Corners are the vertices of the tolerance box: junction temperature at each
 // of temps_k (none: the part's own), supply_v × (1 ± supply_tol) when the
-// calculator takes a supply, and each bias resistor input (rbias_ohm,
-// rreturn_ohm, when given and finite > 0) × (1 ± resistor_tol). Vertex
+// calculator takes a supply, and each bias resistor input (bias_resistor_ohm,
+// dc_return_ohm, when given and finite > 0) × (1 ± resistor_tol). Vertex
 // analysis finds the extremes of a result that is monotonic in each
 // tolerance over the box (common practice, no source); one with an extreme
 // inside the box is not found (docs/design.md says so). The parts are the
@@ -25,7 +25,7 @@ namespace junco::fitting {
 struct WorstCaseCorners {
   std::vector<double> temps_k;  // junction temperatures; empty: each part's own (or inputs.temp_k)
   double supply_tol = 0.0;      // relative: 0.05 is ± 5 %
-  double resistor_tol = 0.0;    // relative, on rbias_ohm and rreturn_ohm
+  double resistor_tol = 0.0;    // relative, on bias_resistor_ohm and dc_return_ohm
 };
 
 // The bias resistor inputs resistor_tol applies to.
@@ -36,7 +36,7 @@ const std::vector<std::string>& worst_case_resistor_keys();
 //    "result": [{key, label, unit, "min": {value, part, part_index, corner}, "max": {...}}],
 //    "not_achievable": [{part, part_index, corner, reason}] (the first 20), "not_achievable_count",
 //    "failures": [{part, part_index, corner, failure}] (the first 20)}
-// corner: {"temp_k"?, "supply_v"?, "rbias_ohm"?, "rreturn_ohm"?} (the values used).
+// corner: {"temp_k"?, "supply_v"?, "bias_resistor_ohm"?, "dc_return_ohm"?} (the values used).
 // Throws DesignInputError as run_design does (bad inputs, a calculator that
 // needs no part), and for tolerances outside [0, 0.5] or temperatures ≤ 0.
 nlohmann::json design_worst_case(const std::string& calculator, const std::vector<DesignPart>& parts, const nlohmann::json& inputs,

@@ -597,8 +597,8 @@ class Client:
             (default: each part's own) [K]
             supply_tol (float, optional): supply tolerance as a ratio 0..0.5 (0.05 = ±5 %), when the
             calculator takes supply_v (default 0)
-            resistor_tol (float, optional): tolerance of the bias resistors rbias_ohm and rreturn_ohm as
-            a ratio 0..0.5 (default 0)
+            resistor_tol (float, optional): tolerance of the bias resistors bias_resistor_ohm and
+            dc_return_ohm as a ratio 0..0.5 (default 0)
 
         Returns the result object: calculator, lot, parts, corners, corner_inputs, evaluations, result,
         not_achievable, not_achievable_count, failures, left_out.
