@@ -137,13 +137,6 @@ cplx chip_impedance(const PartModel& model, const BiasState& bias, double freq_h
   return diode_off_impedance(model.params, charge, bias.value, freq_hz, Parasitics{}, model.temp_k);
 }
 
-cplx packaged_impedance(cplx z_chip, const PackageParasitics& pkg, double freq_hz) {
-  const double w = 2.0 * std::numbers::pi * freq_hz;
-  const cplx z_series = z_chip + cplx(0.0, w * pkg.ls_h);
-  if (!(pkg.cp_f > 0.0)) return z_series;
-  return 1.0 / (1.0 / z_series + cplx(0.0, w * pkg.cp_f));
-}
-
 SMatrix element_s_matrix(SwitchKind mount, cplx z, double z0) {
   SMatrix m;
   cplx refl, thru;

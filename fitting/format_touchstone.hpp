@@ -14,6 +14,7 @@
 // (docs/references.md §6, the ABCD matrix of one element turned into S).
 #pragma once
 
+#include "fitting/deembed.hpp"
 #include "fitting/design_switch.hpp"
 #include "fitting/spice_card.hpp"
 
@@ -25,12 +26,6 @@
 #include <vector>
 
 namespace junco::fitting {
-
-// The package and mount around the chip; zeros mean "not known, left out".
-struct PackageParasitics {
-  double ls_h = 0.0;  // series lead/bond inductance
-  double cp_f = 0.0;  // lead-to-lead capacitance across the packaged diode
-};
 
 // One DC operating point: a forward current or a reverse voltage (≥ 0).
 struct BiasState {
@@ -53,8 +48,7 @@ std::optional<std::vector<double>> parse_frequency_list(std::string_view text, s
 
 // The chip's small-signal impedance at the bias (no package), at the model's temperature.
 std::complex<double> chip_impedance(const PartModel& model, const BiasState& bias, double freq_hz);
-// The chip inside its package: (Zchip + jωLs) ∥ 1/(jωCp).
-std::complex<double> packaged_impedance(std::complex<double> z_chip, const PackageParasitics& pkg, double freq_hz);
+// (packaged_impedance, the chip inside its package: fitting/deembed.hpp)
 
 // A two-port's S-matrix at one frequency, row-major: s[0]=S11 s[1]=S12 s[2]=S21 s[3]=S22.
 struct SMatrix {
