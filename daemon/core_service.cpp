@@ -19,6 +19,7 @@
 #include "formats/model_document.hpp"
 #include "formats/spice_card.hpp"
 #include "design/worst_case.hpp"
+#include "formats/touchstone.hpp"
 #include "junco/version.hpp"
 
 #include <chrono>
@@ -488,6 +489,47 @@ class CoreService final : public Service {
     throw RequestError(RpcCode::invalid_params,
                        "format: must be \"json\", \"spice\", \"csv\", \"iv-csv\", \"ac-csv\" or \"off-csv\", got \"" + *format + "\"",
                        Json{{"field", "format"}});
+  }
+
+  // The part's two-port at one bias as Touchstone text (formats/touchstone.hpp),
+  // from the latest usable fit: bias_i_a (forward) or reverse_v, exactly one.
+  Json touchstone(const Json& params, const Caller&) {
+    const PartRow part = part_or_throw(id_param(params, "part_id"));
+    const bool has_i = params.contains("bias_i_a") && !params["bias_i_a"].is_null();
+    const bool has_v = params.contains("reverse_v") && !params["reverse_v"].is_null();
+    if (has_i == has_v)
+      throw RequestError(RpcCode::invalid_params, "bias_i_a or reverse_v: give exactly one (a forward current or a reverse voltage)",
+                         Json{{"field", has_i ? "reverse_v" : "bias_i_a"}});
+    fitting::TouchstoneRequest req;
+    req.bias = has_i ? fitting::BiasState{fitting::BiasState::Kind::forward_current, opt_number_param(params, "bias_i_a", 0, false)}
+                     : fitting::BiasState{fitting::BiasState::Kind::reverse_voltage, opt_number_param(params, "reverse_v", 0, true)};
+    if (!params.contains("freqs_hz")) throw RequestError(RpcCode::invalid_params, "freqs_hz: missing (required)", Json{{"field", "freqs_hz"}});
+    const Json& f = params["freqs_hz"];
+    if (!f.is_array() || f.empty() || f.size() > fitting::max_frequency_points)
+      throw RequestError(RpcCode::invalid_params, "freqs_hz: must be an array of 1.." +
+                                                      std::to_string(fitting::max_frequency_points) + " numbers",
+                         Json{{"field", "freqs_hz"}});
+    for (const auto& v : f) {
+      if (!v.is_number()) throw RequestError(RpcCode::invalid_params, "freqs_hz: every entry must be a number", Json{{"field", "freqs_hz"}});
+      req.freqs_hz.push_back(v.get<double>());
+    }
+    const auto mount = opt_string_param(params, "mount").value_or("series");
+    if (mount != "series" && mount != "shunt")
+      throw RequestError(RpcCode::invalid_params, "mount: must be \"series\" or \"shunt\", got \"" + mount + "\"", Json{{"field", "mount"}});
+    req.mount = mount == "shunt" ? fitting::SwitchKind::shunt : fitting::SwitchKind::series;
+    req.z0_ohm = opt_number_param(params, "z0_ohm", 50.0, false);
+    req.package.ls_h = opt_number_param(params, "ls_h", 0.0, true);
+    req.package.cp_f = opt_number_param(params, "cp_f", 0.0, true);
+    const auto fit = usable_fit(part, "to export a two-port from");
+    const fitting::PartModel model = part_model(part, *fit);
+    if (const std::string problem = fitting::touchstone_request_problem(model, req); !problem.empty()) {
+      // The library names quantities as people say them; the error names the param.
+      const std::string what = problem.substr(0, problem.find(':'));
+      const std::string field = what == "frequencies" ? "freqs_hz" : what == "z0" ? "z0_ohm" : what == "package Ls" ? "ls_h"
+                              : what == "package Cp" ? "cp_f" : what == "bias" ? (has_i ? "bias_i_a" : "reverse_v") : "part_id";
+      throw RequestError(RpcCode::invalid_params, problem, Json{{"field", field}});
+    }
+    return {{"format", "touchstone"}, {"content", fitting::touchstone_s2p(model, req)}};
   }
 
   // Opens the store; a failure is logged (the outputs are already off) and

@@ -38,6 +38,8 @@
   ROW("part.fit",       fit_of,          "the part's latest fit", ("part_id"))                                            \
   ROW("part.figures",   figures,         "Vf and rd with standard errors at given currents", ("part_id", "currents_a"))   \
   ROW("part.export",    export_part,     "model document, SPICE card or readings CSV", ("part_id", "format"))             \
+  ROW("part.touchstone", touchstone,     "the part's two-port at one bias as Touchstone .s2p text",                        \
+      ("part_id", "bias_i_a", "reverse_v", "freqs_hz", "mount", "z0_ohm", "ls_h", "cp_f"))                               \
   ROW("part.design",    design,          "a design calculator on the part's latest fit", ("part_id", "calculator", "inputs")) \
   ROW("design.run",     design_by_value, "a design calculator on a part given by value", ("calculator", "part", "inputs"))  \
   ROW("part.transfer",  transfer,        "AC readings against the model, and the joint AC+DC fit",                         \

@@ -83,7 +83,13 @@ const std::vector<OperationRule>& rules_for(Role role) {
       // Ramp-rate limit in K/min; needed when safety.chamber_max_rate_k_per_min is set.
       {"set_rate", false, {"k_per_min"}, Returns::nothing},
   };
+  // Both halves of one complex reading: ratio (linear) and phase (degrees).
+  static const std::vector<OperationRule> vectormeter = {
+      {"measure_ratio", true, {}, Returns::number},
+      {"measure_phase", true, {}, Returns::number},
+  };
   switch (role) {
+    case Role::vectormeter: return vectormeter;
     case Role::source: return source;
     case Role::meter: return meter;
     case Role::scanner: return scanner;
@@ -282,6 +288,7 @@ Role parse_role(const Checker& c, const std::string& text) {
   if (text == "scanner") return Role::scanner;
   if (text == "siggen") return Role::siggen;
   if (text == "levelmeter") return Role::levelmeter;
+  if (text == "vectormeter") return Role::vectormeter;
   if (text == "chamber") return Role::chamber;
   c.fail("/role", "unknown role \"" + text + "\" (known: source, meter, scanner, siggen, levelmeter, chamber)");
 }
@@ -302,6 +309,7 @@ const char* to_string(Role role) {
     case Role::scanner: return "scanner";
     case Role::siggen: return "siggen";
     case Role::levelmeter: return "levelmeter";
+    case Role::vectormeter: return "vectormeter";
     case Role::chamber: return "chamber";
   }
   return "unknown";

@@ -17,7 +17,7 @@
 
 namespace junco::drivers {
 
-enum class Role { source, meter, scanner, siggen, levelmeter, chamber };
+enum class Role { source, meter, scanner, siggen, levelmeter, chamber, vectormeter };
 const char* to_string(Role role);
 
 struct ReplySpec {

@@ -331,6 +331,18 @@ Level DialectDriver::measure_level(int channel, LevelUnit preferred) {
   return Level{dbm_to_vrms(x, r), LevelUnit::vrms};
 }
 
+// Two queries, ratio then phase, of the same settled state; a negative ratio
+// or a phase outside ±360° is an instrument fault, not a reading.
+Transfer DialectDriver::measure_transfer() {
+  Transfer t;
+  t.ratio = run("measure_ratio").number;
+  t.phase_deg = run("measure_phase").number;
+  if (!(t.ratio >= 0.0) || !(std::abs(t.phase_deg) <= 360.0))
+    throw DriverError(ErrorKind::garbled, label() + ": transfer reading out of range (ratio " + format_number(t.ratio) + ", phase " +
+                                               format_number(t.phase_deg) + " deg)");
+  return t;
+}
+
 std::optional<std::string> DialectDriver::query_state() {
   if (!dialect_.find("query_state")) return std::nullopt;
   return run("query_state").text;

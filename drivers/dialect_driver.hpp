@@ -14,7 +14,8 @@
 
 namespace junco::drivers {
 
-class DialectDriver final : public Source, public Meter, public Scanner, public SignalGen, public LevelMeter, public Chamber {
+class DialectDriver final : public Source, public Meter, public Scanner, public SignalGen, public LevelMeter, public Chamber,
+                            public VectorMeter {
  public:
   // Opens the transport (with retries), asks *IDN? and, when the dialect has
   // an idn_match, checks the answer against it. Throws DriverError.
@@ -50,6 +51,8 @@ class DialectDriver final : public Source, public Meter, public Scanner, public 
   // LevelMeter
   Level measure_level(int channel, LevelUnit preferred) override;
   std::string level_units() const override;
+  // VectorMeter
+  Transfer measure_transfer() override;
   // Chamber
   void set_temperature_k(double kelvin) override;
   double measure_temperature_k() override;

@@ -23,5 +23,6 @@ std::unique_ptr<Scanner> open_scanner(const InstrumentSpec& spec) { return open_
 std::unique_ptr<SignalGen> open_signal_gen(const InstrumentSpec& spec) { return open_as(spec, Role::siggen); }
 std::unique_ptr<LevelMeter> open_level_meter(const InstrumentSpec& spec) { return open_as(spec, Role::levelmeter); }
 std::unique_ptr<Chamber> open_chamber(const InstrumentSpec& spec) { return open_as(spec, Role::chamber); }
+std::unique_ptr<VectorMeter> open_vector_meter(const InstrumentSpec& spec) { return open_as(spec, Role::vectormeter); }
 
 }  // namespace junco::drivers

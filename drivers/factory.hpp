@@ -35,5 +35,6 @@ std::unique_ptr<Scanner> open_scanner(const InstrumentSpec& spec);
 std::unique_ptr<SignalGen> open_signal_gen(const InstrumentSpec& spec);
 std::unique_ptr<LevelMeter> open_level_meter(const InstrumentSpec& spec);
 std::unique_ptr<Chamber> open_chamber(const InstrumentSpec& spec);
+std::unique_ptr<VectorMeter> open_vector_meter(const InstrumentSpec& spec);
 
 }  // namespace junco::drivers

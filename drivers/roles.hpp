@@ -4,6 +4,7 @@
 // verify (overload markers and unparsable replies are errors, not numbers).
 #pragma once
 
+#include <complex>
 #include <optional>
 #include <string>
 #include <vector>
@@ -101,6 +102,23 @@ class LevelMeter : public virtual Instrument {
   virtual Level measure_level(int channel, LevelUnit preferred) = 0;
   // What the meter reads, for the record: "vrms", "vpp, vrms", "dbm into 50 ohm".
   virtual std::string level_units() const { return ""; }
+};
+
+// Complex transfer of the fixture: channel 2 (output) relative to channel 1
+// (input) at the generator's frequency, as a network analyser's transmission
+// or a vector voltmeter's B/A reads it. Magnitude as a linear ratio, phase in
+// degrees (positive: channel 2 leads). The ratio's noise is the meter's; the
+// phase keeps what a magnitude-only level meter loses (docs/command-sets.md,
+// VectorMeter).
+struct Transfer {
+  double ratio = 0.0;      // |V2/V1|
+  double phase_deg = 0.0;  // arg(V2/V1)
+  std::complex<double> value() const { return std::polar(ratio, phase_deg * 3.14159265358979323846 / 180.0); }
+};
+
+class VectorMeter : public virtual Instrument {
+ public:
+  virtual Transfer measure_transfer() = 0;
 };
 
 // A temperature chamber or thermal plate around the fixture. Temperatures

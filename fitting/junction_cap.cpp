@@ -251,6 +251,31 @@ JunctionCapFit fit_junction_cap(std::span<const OffStatePoint> points, const Fix
   return f;
 }
 
+JunctionCapFit fit_junction_cap_values(std::span<const CapacitanceReading> readings, const JunctionCapOptions& o) {
+  JunctionCapFit f;
+  f.c_f.assign(readings.size(), nan_v);
+  f.left_out.assign(readings.size(), "");
+  std::vector<Reading> used;
+  for (std::size_t k = 0; k < readings.size(); ++k) {
+    const auto& r = readings[k];
+    if (!(r.c_f > 0.0 && std::isfinite(r.c_f) && r.sigma_ln_c > 0.0 && r.reverse_v >= 0.0 && std::isfinite(r.reverse_v))) {
+      f.left_out[k] = "capacitance, bias or uncertainty not valid";
+      continue;
+    }
+    f.c_f[k] = r.c_f;
+    used.push_back({r.reverse_v, std::log(r.c_f), 1.0 / (r.sigma_ln_c * r.sigma_ln_c)});
+  }
+  f.points_used = used.size();
+  if (used.empty()) {
+    f.message = "no usable capacitance among " + std::to_string(readings.size());
+    return f;
+  }
+  const std::size_t biases = distinct_biases(used);
+  if (biases < 4) fit_held(used, o, biases, f);
+  else fit_full(used, o, f);
+  return f;
+}
+
 namespace {
 nlohmann::json number_or_null(double x) { return std::isfinite(x) ? nlohmann::json(x) : nlohmann::json(nullptr); }
 nlohmann::json estimate_json(const Estimate& e) {

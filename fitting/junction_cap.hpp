@@ -90,6 +90,16 @@ double off_state_sigma_ln_c(const OffStatePoint& p, const Fixture& fixture, doub
 JunctionCapFit fit_junction_cap(std::span<const OffStatePoint> points, const Fixture& fixture, double rs_ohm,
                                 const JunctionCapOptions& options = {});
 
+// The same law fitted to capacitances already known per reading (vector
+// readings de-embedded: fitting/deembed.hpp), each with its σ of ln C.
+// c_f and left_out are per reading as above; options' level keys are unused.
+struct CapacitanceReading {
+  double reverse_v = 0.0;
+  double c_f = 0.0;
+  double sigma_ln_c = 0.01;
+};
+JunctionCapFit fit_junction_cap_values(std::span<const CapacitanceReading> readings, const JunctionCapOptions& options = {});
+
 // {ok, message, cj0_f:{value,std_error}, vj_v, m, law_held, points_used, reduced_chi2, vj_m_correlation}
 // (non-finite numbers are null).
 nlohmann::json junction_cap_json(const JunctionCapFit& fit);

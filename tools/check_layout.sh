@@ -13,7 +13,7 @@ rules=(
   "units|"
   "fitting|units"
   "design|fitting units"
-  "formats|fitting units"
+  "formats|fitting design units"
   "protocol|formats/json_limits.hpp"
 )
 for rule in "${rules[@]}"; do

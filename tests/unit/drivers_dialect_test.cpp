@@ -51,7 +51,8 @@ TEST_CASE("every shipped dialect loads, one file per family", "[drivers][dialect
       {"scpi-source", Role::source}, {"psu-compact", Role::source},   {"scpi-dmm", Role::meter},
       {"dmm-prefixed", Role::meter}, {"scpi-switch", Role::scanner},  {"relay-bank", Role::scanner},
       {"scpi-gen", Role::siggen},    {"gen-channel", Role::siggen},   {"scpi-acv", Role::levelmeter},
-      {"scope-meas", Role::levelmeter}, {"scpi-chamber", Role::chamber}, {"template-source", Role::source}};
+      {"scope-meas", Role::levelmeter}, {"scpi-chamber", Role::chamber}, {"template-source", Role::source},
+      {"scpi-vvm", Role::vectormeter}};
   std::set<std::string> seen;
   for (const auto& entry : std::filesystem::directory_iterator(dialect_dir)) {
     if (entry.path().extension() != ".json") continue;

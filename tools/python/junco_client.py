@@ -766,6 +766,38 @@ class Client:
         """
         return self._method('part.readings', timeout_s, part_id=part_id, run_id=run_id)
 
+    def part_touchstone(
+            self,
+            *,
+            part_id: int,
+            freqs_hz: List[float],
+            bias_i_a: Optional[float] = None,
+            reverse_v: Optional[float] = None,
+            mount: Optional[str] = None,
+            z0_ohm: Optional[float] = None,
+            ls_h: Optional[float] = None,
+            cp_f: Optional[float] = None,
+            timeout_s: Optional[float] = None
+    ) -> Dict[str, Any]:
+        """`part.touchstone`: The part's two-port at one bias (forward current or reverse voltage) as Touchstone 1.1 .s2p text, from its latest usable fit and the package parasitics given.
+
+        Params:
+            part_id (int, required): the part's id (part.list)
+            freqs_hz (List[float], Hz, required): strictly increasing frequencies, Hz
+            bias_i_a (float, A, optional): forward bias current, A; give this or reverse_v
+            reverse_v (float, V, optional): reverse bias, V (positive number); give this or bias_i_a
+            mount (str, optional): series: the diode between port 1 and port 2 (default); shunt: from
+            the through line to ground; one of series, shunt
+            z0_ohm (float, Ω, optional): reference impedance of both ports, ohm (default 50)
+            ls_h (float, optional): package series inductance, H (default 0: not known)
+            cp_f (float, F, optional): package capacitance across the leads, F (default 0: not known)
+
+        Returns the result object: format, content.
+        Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
+        client's), ConnectionError when the connection is lost.
+        """
+        return self._method('part.touchstone', timeout_s, part_id=part_id, freqs_hz=freqs_hz, bias_i_a=bias_i_a, reverse_v=reverse_v, mount=mount, z0_ohm=z0_ohm, ls_h=ls_h, cp_f=cp_f)
+
     def part_transfer(
             self,
             *,

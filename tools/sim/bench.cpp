@@ -173,6 +173,16 @@ void Bench::advance(Clock::time_point now) {
   relax(observed_.out_vpp, target.out_vpp);
 }
 
+std::optional<std::complex<double>> Bench::vector_transfer(Clock::time_point now) {
+  advance(now);
+  if (!drive_.on || !(drive_.freq_hz > 0)) return std::nullopt;
+  const DcPoint dc = compute_target().dc;
+  SlotContent content = SlotContent::open;
+  if (slot_ >= 1 && config_.short_slots.count(slot_)) content = SlotContent::short_link;
+  else if (connected_part()) content = SlotContent::part;
+  return small_signal_transfer(config_.fixture, content, connected_part(), dc, junction_temp_k(), drive_.freq_hz);
+}
+
 Readings Bench::read(Clock::time_point now) {
   advance(now);
   if (config_.settle_s == 0) return compute_target().readings;

@@ -43,6 +43,10 @@ class Bench {
 
   // Settled readings at `now` (first-order approach to the target).
   Readings read(Clock::time_point now);
+  // The vector meter's reading (noise-free): ch2/ch1 at the generator's
+  // frequency, small signal at the settled DC point (fixture.hpp
+  // small_signal_transfer); nullopt while the generator is off.
+  std::optional<std::complex<double>> vector_transfer(Clock::time_point now);
   // True while the supply regulates current (instantaneous, as its flag is).
   bool current_limited(Clock::time_point now);
 

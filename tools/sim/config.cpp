@@ -18,13 +18,14 @@ const std::map<std::string, std::vector<std::string>>& known_families() {
       {"scanner", {"scpi-switch", "relay-bank", "scpi99"}},
       {"siggen", {"scpi-gen", "gen-channel", "gen-vpp"}},
       {"levelmeter", {"scpi-acv", "scope-meas", "acv-dbm"}},
-      {"chamber", {"scpi-chamber"}}};
+      {"chamber", {"scpi-chamber"}},
+      {"vectormeter", {"scpi-vvm"}}};
   return f;
 }
 
 void check_role(const std::string& role) {
   if (std::find(all_roles.begin(), all_roles.end(), role) == all_roles.end())
-    throw std::invalid_argument("unknown role '" + role + "' (source, meter, scanner, siggen, levelmeter, chamber)");
+    throw std::invalid_argument("unknown role '" + role + "' (source, meter, scanner, siggen, levelmeter, chamber, vectormeter)");
 }
 
 namespace {
@@ -155,6 +156,10 @@ void apply_config_json(SimConfig& cfg, const std::string& json_text, std::vector
           } else if (f == "dc_return_ohm") fx.return_ohm = positive(fv, key);
           else if (f == "source_ohm") fx.rg_ohm = positive(fv, key);
           else if (f == "load_ohm") fx.rl_ohm = positive(fv, key);
+          else if (f == "package_ls_h") fx.package_ls_h = non_negative(fv, key);
+          else if (f == "package_cp_f") fx.package_cp_f = non_negative(fv, key);
+          else if (f == "stray_c_f") fx.stray_c_f = non_negative(fv, key);
+          else if (f == "slot_ls_h") fx.slot_ls_h = non_negative(fv, key);
           else if (f == "steps_per_period") fx.steps_per_period = std::clamp(fv.get<int>(), 32, 8192);
           else return false;
           return true;
@@ -192,6 +197,11 @@ void apply_config_json(SimConfig& cfg, const std::string& json_text, std::vector
         }
       } else if (k == "empty_slots") {
         for (const auto& s : v) cfg.empty_slots.insert(s.get<int>());
+      } else if (k == "short_slots") {
+        for (const auto& s : v) {
+          cfg.short_slots.insert(s.get<int>());
+          cfg.empty_slots.insert(s.get<int>());  // no part: DC and level readings see an open slot
+        }
       } else if (k == "source") {
         each_key(v, k, [&](const std::string& s, const json& sv) {
           if (s == "v_min_v") cfg.source.v_min_v = sv.get<double>();
@@ -278,6 +288,10 @@ std::string help_reference() {
   fixture.load_ohm [50]         load RL
   (the former names rb_ohm, return_ohm, rg_ohm, rl_ohm still work, with a warning)
   fixture.steps_per_period [256] time steps of the AC solve
+  fixture.{package_ls_h [0], package_cp_f [0]}  every part's package: series L,
+                                C across the leads (vector meter only)
+  fixture.stray_c_f [0]         stray C across the slot (vector meter only)
+  fixture.slot_ls_h [0]         slot series trace inductance (vector meter only)
   nominal.{is_a [2.5e-9], n [1.85], rs_ohm [0.7], cj0_f [2e-12], vj_v [0.65],
            m [0.4], fc [0.5], tt_s [0], eg_ev [1.11], xti [3],
            trs1_per_k [0], trs2_per_k2 [0]}
@@ -290,6 +304,8 @@ std::string help_reference() {
           cj0_rel_sigma [0.08]}
   outliers [[]]                 e.g. [{"slot":3,"rs_ohm":4.0}] (is_a, n, rs_ohm, cj0_f, type)
   empty_slots [[]]              slots with no part (open circuit)
+  short_slots [[]]              slots with a zero-ohm link (vector meter's short
+                                standard; DC and level readings see them open)
   source.{v_min_v [-30], v_max_v [30], i_limit_min_a [1e-4], i_limit_max_a [0.5]}
   dialects.{ROLE: NAME}         the command set (dialect) each role speaks
                                 (the former key families still works, with a warning)

@@ -15,7 +15,7 @@
 
 namespace junco::sim {
 
-inline const std::vector<std::string> all_roles{"source", "meter", "scanner", "siggen", "levelmeter", "chamber"};
+inline const std::vector<std::string> all_roles{"source", "meter", "scanner", "siggen", "levelmeter", "chamber", "vectormeter"};
 
 struct FaultSpec {
   std::string role;
@@ -59,13 +59,15 @@ struct SimConfig {
   LotSpread spread;
   std::vector<Outlier> outliers;
   std::set<int> empty_slots;
+  std::set<int> short_slots;  // a zero-ohm link in the slot (the vector meter's short standard; implies empty)
   SourceLimits source;
   std::map<std::string, std::string> families{{"source", "scpi-source"},
                                               {"meter", "scpi-dmm"},
                                               {"scanner", "scpi-switch"},
                                               {"siggen", "scpi-gen"},
                                               {"levelmeter", "scpi-acv"},
-                                              {"chamber", "scpi-chamber"}};
+                                              {"chamber", "scpi-chamber"},
+                                              {"vectormeter", "scpi-vvm"}};
   std::set<std::string> serial_roles;
   std::vector<FaultSpec> faults;
 };

@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <array>
 #include <cmath>
+#include <numbers>
 
 namespace junco::sim {
 
@@ -280,6 +281,32 @@ bool solve_linear(std::vector<std::vector<double>> a, std::vector<double>& b) {
 }
 
 }  // namespace
+
+std::complex<double> small_signal_transfer(const FixtureConfig& fx, SlotContent content, const PartParams* part,
+                                           const DcPoint& dc, double temp_k, double freq_hz) {
+  using cplx = std::complex<double>;
+  const double w = 2.0 * std::numbers::pi * freq_hz;
+  const cplx j(0.0, 1.0);
+  // Admittance of what is in the slot, slot inductance included.
+  cplx y_series(0.0, 0.0);
+  if (content == SlotContent::short_link) {
+    y_series = fx.slot_ls_h > 0 ? 1.0 / (j * w * fx.slot_ls_h) : cplx(1e12, 0.0);  // 1 pΩ: a link
+  } else if (content == SlotContent::part && part) {
+    const double rs = series_resistance_ohm(*part, temp_k);
+    const double is = saturation_current_a(*part, temp_k);
+    const double nvt = part->n * fitting::thermal_voltage_v(temp_k);
+    const double vj = dc.v_part_v - dc.i_a * rs;
+    const double gd = is * std::exp(vj / nvt) / nvt;
+    const double c = junction_capacitance_f(*part, vj, gd);
+    const cplx z_chip = rs + 1.0 / (gd + j * w * c);
+    const cplx y_pkg = 1.0 / (z_chip + j * w * fx.package_ls_h) + j * w * fx.package_cp_f;
+    y_series = 1.0 / (1.0 / y_pkg + j * w * fx.slot_ls_h);
+  }
+  const cplx y_slot = y_series + j * w * fx.stray_c_f;
+  const double z_load = fx.return_kind == ReturnKind::resistor ? fx.rl_ohm * fx.return_ohm / (fx.rl_ohm + fx.return_ohm) : fx.rl_ohm;
+  // H = Z_load/(Z_load + 1/Y_slot) = Z_load·Y_slot/(Z_load·Y_slot + 1): no division by a zero Y.
+  return z_load * y_slot / (z_load * y_slot + 1.0);
+}
 
 AcResult solve_ac(const FixtureConfig& fx, const PartParams* part, const BiasSetting& bias, double temp_k,
                   const AcDrive& drive) {

@@ -15,6 +15,7 @@
 
 #include "tools/sim/part.hpp"
 
+#include <complex>
 #include <vector>
 
 namespace junco::sim {
@@ -29,6 +30,13 @@ struct FixtureConfig {
   double rg_ohm = 50.0;      // generator source resistance
   double rl_ohm = 50.0;      // load
   int steps_per_period = 256;  // time steps of the AC solve
+  // Parasitics the vector meter sees (sim truth; docs/sim.md "Vector
+  // meter"): each part's package, and the fixture's own slot. The level
+  // meter's large-signal solve leaves them out.
+  double package_ls_h = 0.0;  // package series inductance of every part
+  double package_cp_f = 0.0;  // package capacitance across every part's leads
+  double stray_c_f = 0.0;     // fixture stray across the slot (an empty slot reads it)
+  double slot_ls_h = 0.0;     // the slot's series trace inductance (a short link reads it)
 };
 
 // The supply as the fixture sees it: a voltage source, unless the current
@@ -71,5 +79,18 @@ struct AcResult {
 // choke currents). With the drive off it returns the DC point and zero levels.
 AcResult solve_ac(const FixtureConfig& fx, const PartParams* part, const BiasSetting& bias, double temp_k,
                   const AcDrive& drive);
+
+// What sits in the selected slot, as the vector meter sees it.
+enum class SlotContent { part, open, short_link };
+
+// Small-signal transfer ch2/ch1 at freq_hz, linearised at the DC point `dc`
+// (the junction's gd and Cj(V) + TT·gd at temperature), with the package
+// (Ls in series with the chip, Cp across the leads) and the slot (stray C
+// across it, slot_ls_h in series):
+//   Z_slot = 1/(jω·stray + 1/(jω·slot_ls + Z_packaged)),  H = Z_load/(Z_load + Z_slot),
+// Z_load = RL, in parallel with the return resistor when the return is one.
+// An open slot has Z_packaged = ∞, a short link 0.
+std::complex<double> small_signal_transfer(const FixtureConfig& fx, SlotContent content, const PartParams* part,
+                                           const DcPoint& dc, double temp_k, double freq_hz);
 
 }  // namespace junco::sim

@@ -432,6 +432,33 @@ class LevelMeterSim : public SimInstrument {
   }
 };
 
+// ------------------------------------------------------------ vectormeter
+// Vector voltmeter (family scpi-vvm): ch2/ch1 at the generator's frequency
+// as the linear ratio (MEAS:RAT?) and the phase in degrees (MEAS:PHAS?), the
+// small-signal transfer of fixture + part with the package and the slot's
+// parasitics (Bench::vector_transfer). Noise: 0.02 % of the ratio and
+// 0.02 degrees, each query its own draw. Generator off: -221 (no reference).
+class VectorMeterSim : public SimInstrument {
+ public:
+  VectorMeterSim(const std::string& family, Bench& bench, std::uint64_t seed)
+      : SimInstrument("vectormeter", family, "junco-sim,VVM-2,SIM-V001,1.0", bench, seed) {
+    add("MEASure:RATio?", [this](const std::string&) { return format_nr3(std::abs(transfer()) * (1 + 2e-4 * gaussian()), 7); });
+    add("MEASure:PHASe?", [this](const std::string&) {
+      return format_nr3(std::arg(transfer()) * 180.0 / 3.14159265358979323846 + 0.02 * gaussian(), 7);
+    });
+  }
+
+ protected:
+  void reset_settings() override {}
+
+ private:
+  std::complex<double> transfer() {
+    const auto h = bench_.vector_transfer(Clock::now());
+    if (!h) throw ScpiError{-221, "Settings conflict"};
+    return *h;
+  }
+};
+
 // ---------------------------------------------------------------- chamber
 // A temperature chamber in degrees Celsius, as chamber controllers show it:
 // set point, ramp-rate limit (K/min, 0 = none) and the air sensor's reading
@@ -483,6 +510,7 @@ std::unique_ptr<SimInstrument> make_instrument(const std::string& role, const st
   else if (role == "siggen") inst = std::make_unique<SigGenSim>(family, bench, seed);
   else if (role == "levelmeter") inst = std::make_unique<LevelMeterSim>(family, bench, seed);
   else if (role == "chamber") inst = std::make_unique<ChamberSim>(family, bench, seed);
+  else if (role == "vectormeter") inst = std::make_unique<VectorMeterSim>(family, bench, seed);
   else throw std::invalid_argument("unknown role " + role);
   return inst;
 }
