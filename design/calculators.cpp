@@ -633,8 +633,9 @@ void attenuator_calc(Run& r) {
     if (!is || !ish)
       return r.not_achievable("R(I) never falls to " + junco::units::format_si(std::min(pad.series_ohm, pad.shunt_ohm), "ohm") +
                               ": R0 = " + junco::units::format_si(law.r0_ohm, "ohm") + " is the least the PIN reaches");
-    r.result("series_current_a", "series diode current", *is, "A");
-    r.result("shunt_current_a", "shunt diode current (each)", *ish, "A");
+    // A T has two series arms and one shunt diode, a pi one series and two shunt.
+    r.result("series_current_a", kind == PadKind::tee ? "series diode current (each)" : "series diode current", *is, "A");
+    r.result("shunt_current_a", kind == PadKind::tee ? "shunt diode current" : "shunt diode current (each)", *ish, "A");
   } else {
     if (!r.has("series_current_a") || !r.has("shunt_current_a"))
       throw DesignInputError("target_db", "attenuator needs target_db, or series_current_a and shunt_current_a");
