@@ -4,6 +4,8 @@
 // around the junction (fitting/deembed.hpp), and the C–V law comes out at
 // the sim's truth, where the same readings' magnitudes alone, with the
 // package's 0.15 pF unseparated, bend VJ and M far off (issue 15).
+// The correction is the open–short de-embedding of on-wafer practice
+// (Koolen et al., 1991; docs/references.md §10, from memory).
 #include "drivers/errors.hpp"
 #include "drivers/factory.hpp"
 #include "fitting/deembed.hpp"

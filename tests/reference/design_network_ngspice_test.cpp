@@ -12,6 +12,7 @@
 #include "design/network.hpp"
 #include "fitting/temperature.hpp"
 #include "tests/support/ngspice.hpp"
+#include "tests/support/sim_nominal_part.hpp"
 
 #include <catch2/catch.hpp>
 
@@ -28,18 +29,9 @@ using Json = nlohmann::json;
 
 namespace {
 
-constexpr double t27_k = 300.15;
-
-// junco-sim's nominal part (docs/sim.md "JX-41"), as in rf_switch_ngspice_test.
-DesignPart sim_part(double tt_s) {
-  DesignPart p;
-  p.label = "JX-41";
-  p.dc = {2.5e-9, 1.85, 0.7};
-  p.temp_k = t27_k;
-  p.cap = {2e-12, 0.65, 0.4, 0.5};
-  p.tt_s = tt_s;
-  return p;
-}
+using junco::test::t27_k;
+// junco-sim's nominal part (tests/support/sim_nominal_part.hpp).
+const auto sim_part = junco::test::sim_nominal_part;
 
 std::string model_card(const DesignPart& p, const std::string& extra = "") {
   std::ostringstream f;

@@ -4,6 +4,7 @@
 // 1 GHz. Target (issue 15): every loss and isolation within 0.1 dB.
 #include "design/calculators.hpp"
 #include "tests/support/ngspice.hpp"
+#include "tests/support/sim_nominal_part.hpp"
 
 #include <catch2/catch.hpp>
 
@@ -22,19 +23,9 @@ using Json = nlohmann::json;
 
 namespace {
 
-constexpr double t27_k = 300.15;
-
-// junco-sim's nominal part (docs/sim.md "JX-41"), the part of issue 15's
-// figures; with_tt adds a 5 ns transit time.
-DesignPart sim_part(double tt_s) {
-  DesignPart p;
-  p.label = "JX-41";
-  p.dc = {2.5e-9, 1.85, 0.7};
-  p.temp_k = t27_k;
-  p.cap = {2e-12, 0.65, 0.4, 0.5};
-  p.tt_s = tt_s;
-  return p;
-}
+using junco::test::t27_k;
+// junco-sim's nominal part (tests/support/sim_nominal_part.hpp).
+const auto sim_part = junco::test::sim_nominal_part;
 
 struct Case {
   std::string name;  // "series-on", "shunt-on", "series-off", "shunt-off"
