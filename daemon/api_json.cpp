@@ -13,109 +13,13 @@ Json text_or_null(const std::string& s) { return s.empty() ? Json(nullptr) : Jso
 
 Json to_json(const fitting::Estimate& e) { return fitting::estimate_json(e); }
 
-namespace {
-// A number as stored: null (or absent) is NaN; anything else not a number is damage.
-double number_of(const Json& j, const char* key) {
-  const auto it = j.find(key);
-  if (it == j.end() || it->is_null()) return kNaN;
-  if (!it->is_number()) throw std::invalid_argument(std::string(key) + ": a number or null, not " + it->type_name());
-  return it->get<double>();
-}
-fitting::Estimate estimate_of(const Json& j, const char* key) {
-  const auto it = j.find(key);
-  if (it == j.end() || it->is_null()) return {};
-  if (!it->is_object()) throw std::invalid_argument(std::string(key) + ": {value, std_error}, not " + it->type_name());
-  return {number_of(*it, "value"), number_of(*it, "std_error")};
-}
-}  // namespace
-
-Json to_json(const JunctionCapReport& r) {
-  Json out{{"ok", r.ok},
-           {"message", r.message},
-           {"cj0_f", to_json(r.cj0_f)},
-           {"vj_v", to_json(r.vj_v)},
-           {"m", to_json(r.m)},
-           {"law_held", r.law_held},
-           {"points_used", r.points_used},
-           {"reduced_chi2", nullable(r.reduced_chi2)},
-           {"vj_m_correlation", nullable(r.vj_m_correlation)}};
-  if (r.readings) {
-    Json rows = Json::array();
-    for (const auto& p : *r.readings)
-      rows.push_back({{"reverse_v", p.reverse_v},
-                      {"freq_hz", p.freq_hz},
-                      {"fixture_ratio_db", nullable(p.fixture_ratio_db)},
-                      // the same ratio under its former name, for readers of older reports (one release)
-                      {"isolation_db", nullable(p.fixture_ratio_db)},
-                      {"c_f", nullable(p.c_f)},
-                      {"left_out", p.left_out}});
-    out["readings"] = rows;
-  }
-  return out;
-}
-
-JunctionCapReport junction_cap_report_of(const Json& j) {
-  if (!j.is_object()) throw std::invalid_argument(std::string("an object, not ") + j.type_name());
-  JunctionCapReport r;
-  r.ok = j.value("ok", false);
-  r.message = j.value("message", std::string());
-  r.cj0_f = estimate_of(j, "cj0_f");
-  r.vj_v = estimate_of(j, "vj_v");
-  r.m = estimate_of(j, "m");
-  r.law_held = j.value("law_held", false);
-  r.points_used = j.value("points_used", 0L);
-  r.reduced_chi2 = number_of(j, "reduced_chi2");
-  r.vj_m_correlation = number_of(j, "vj_m_correlation");
-  if (j.contains("readings")) {
-    r.readings.emplace();
-    for (const auto& p : j.at("readings")) {
-      // fixture_ratio_db; rows stored before its rename have only isolation_db
-      const double ratio = p.contains("fixture_ratio_db") ? number_of(p, "fixture_ratio_db") : number_of(p, "isolation_db");
-      r.readings->push_back({number_of(p, "reverse_v"), number_of(p, "freq_hz"), ratio, number_of(p, "c_f"), p.value("left_out", std::string())});
-    }
-  }
-  return r;
-}
-
-Json to_json(const ElectrothermalReport& r) {
-  return Json{{"status", r.status},
-              {"note", r.note},
-              {"ac_readings", r.ac_readings},
-              {"ac_left_out", r.ac_left_out},
-              {"rs_ohm", to_json(r.rs_ohm)},
-              {"is_a", to_json(r.is_a)},
-              {"n", to_json(r.n)},
-              {"rth_k_per_w", to_json(r.rth_k_per_w)},
-              {"top_tj_k", to_json(r.top_tj_k)},
-              {"top_power_w", nullable(r.top_power_w)},
-              {"apparent_rs_ohm", to_json(r.apparent_rs_ohm)},
-              {"reduced_chi2", nullable(r.reduced_chi2)},
-              {"rs_bias_per_100_k_per_w_ohm", nullable(r.rs_bias_per_100_k_per_w_ohm)},
-              {"eg_ev", nullable(r.eg_ev)},
-              {"xti", nullable(r.xti)},
-              {"ambient_k", nullable(r.ambient_k)}};
-}
-
-ElectrothermalReport electrothermal_report_of(const Json& j) {
-  if (!j.is_object()) throw std::invalid_argument(std::string("an object, not ") + j.type_name());
-  ElectrothermalReport r;
-  r.status = j.value("status", std::string());
-  r.note = j.value("note", std::string());
-  r.ac_readings = j.value("ac_readings", 0L);
-  r.ac_left_out = j.value("ac_left_out", 0L);
-  r.rs_ohm = estimate_of(j, "rs_ohm");
-  r.is_a = estimate_of(j, "is_a");
-  r.n = estimate_of(j, "n");
-  r.rth_k_per_w = estimate_of(j, "rth_k_per_w");
-  r.top_tj_k = estimate_of(j, "top_tj_k");
-  r.top_power_w = number_of(j, "top_power_w");
-  r.apparent_rs_ohm = estimate_of(j, "apparent_rs_ohm");
-  r.reduced_chi2 = number_of(j, "reduced_chi2");
-  r.rs_bias_per_100_k_per_w_ohm = number_of(j, "rs_bias_per_100_k_per_w_ohm");
-  r.eg_ev = number_of(j, "eg_ev");
-  r.xti = number_of(j, "xti");
-  r.ambient_k = number_of(j, "ambient_k");
-  return r;
+Json fit_detail_json(Json rest, const JunctionCapReport* cap, const ElectrothermalReport* electrothermal, const HeatingReport* heating,
+                     const fitting::AcChargeFit* stored_charge) {
+  if (heating) rest["heating"] = fitting::heating_json(*heating);
+  if (stored_charge) rest["stored_charge"] = fitting::ac_charge_fit_json(*stored_charge);
+  if (electrothermal) rest["electrothermal"] = fitting::electrothermal_json(*electrothermal);
+  if (cap) rest["junction_cap"] = fitting::junction_cap_json(*cap);
+  return rest;
 }
 
 Json to_json(const JobRecord& j) {
@@ -197,10 +101,8 @@ Json to_json(const FitRecord& f) {
   out["part_id"] = f.part_id;
   out["run_id"] = f.run_id ? Json(*f.run_id) : Json(nullptr);
   out["model"] = f.model;
-  Json detail = f.detail;
-  if (f.junction_cap) detail["junction_cap"] = to_json(*f.junction_cap);
-  if (f.electrothermal) detail["electrothermal"] = to_json(*f.electrothermal);
-  out["detail"] = detail;
+  out["detail"] = fit_detail_json(f.detail, f.junction_cap ? &*f.junction_cap : nullptr, f.electrothermal ? &*f.electrothermal : nullptr,
+                                  f.heating ? &*f.heating : nullptr, f.stored_charge ? &*f.stored_charge : nullptr);
   out["created_at"] = f.created_at;
   out["cj0_f"] = to_json(f.cj0_f);
   out["vj_v"] = to_json(f.vj_v);

@@ -4,6 +4,7 @@
 #pragma once
 
 #include "daemon/rows.hpp"
+#include "formats/report_json.hpp"
 
 #include <vector>
 
@@ -22,13 +23,12 @@ Json to_json(const LotRow& l);
 Json to_json(const InstrumentRow& i);
 Json to_json(const FitRecord& f);
 Json to_json(const fitting::Estimate& e);  // {value, std_error}, null when not finite
-Json to_json(const JunctionCapReport& r);
-Json to_json(const ElectrothermalReport& r);
 
-// The stored reports (detail.junction_cap, detail.electrothermal) back into
-// their rows; throws std::exception on a wrong shape (the store names the row).
-JunctionCapReport junction_cap_report_of(const Json& j);
-ElectrothermalReport electrothermal_report_of(const Json& j);
+// A fit's detail document: `rest` (parameter_names, correlation, excluded,
+// iterations, pin) with the typed reports written in (formats/report_json.hpp),
+// the one writer of what the store keeps and what part.fit serves.
+Json fit_detail_json(Json rest, const JunctionCapReport* cap, const ElectrothermalReport* electrothermal, const HeatingReport* heating,
+                     const fitting::AcChargeFit* stored_charge);
 
 template <typename Row>
 Json to_json(const std::vector<Row>& rows) {

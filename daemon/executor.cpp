@@ -1,6 +1,7 @@
 #include "daemon/executor.hpp"
 
 #include "daemon/api_json.hpp"
+#include "formats/report_json.hpp"
 
 #include "daemon/part_analysis.hpp"
 
@@ -72,7 +73,7 @@ struct RunFit {
   std::optional<fitting::JunctionCapFit> cap;
   std::optional<JunctionCapReport> cap_report;          // what is stored of cap, with each reading's outcome
   std::optional<ElectrothermalReport> electrothermal;  // detail.electrothermal
-  Json more_detail = Json::object();                   // {"heating": …, "stored_charge": …}
+  MoreReports more;  // detail.heating, detail.stored_charge, detail.pin
 };
 
 // With AC readings, Rs and self-heating can be told apart
@@ -136,7 +137,7 @@ void apply_stored_charge(const Config& cfg, double temp_k, const RunFixture& fix
   if (out.cap && out.cap->ok) o.cap = {out.cap->cj0_f.value, out.cap->vj_v.value, out.cap->m.value, 0.5};
   else o.fit_cj = true;
   const auto f = fitting::fit_ac_stored_charge(ac, fx, o);
-  out.more_detail["stored_charge"] = fitting::ac_charge_fit_json(f);
+  out.more.stored_charge = f;
   if (!f.ok) out.fit.warnings.push_back("stored charge not fitted: " + f.message);
 }
 
@@ -186,7 +187,7 @@ void apply_pin(const Config& cfg, double temp_k, const RunFixture& fixture, cons
   }
   const auto off = off_state_points(points);
   if (!off.empty()) j["off_state"] = fitting::pin_off_fit_json(fitting::fit_pin_off_state(off, fx, cfg.level_sigma_db()));
-  out.more_detail["pin"] = j;
+  out.more.pin = j;
 }
 
 // The heating plan options' readings (plan.heating; fitting/heating.hpp):
@@ -199,17 +200,17 @@ void apply_heating(const Config& cfg, double temp_k, const std::vector<PointRow>
   o.ambient_k = temp_k;
   o.accuracy = cfg.accuracy;
   const fitting::DiodeParams params = out.fit.params();
-  Json j{{"pulsed_readings", h.pulsed}, {"pulse_dwell_s", std::isfinite(h.pulse_dwell_median_s) ? Json(h.pulse_dwell_median_s) : Json(nullptr)}};
-  std::optional<fitting::DwellThermal> dwell;
+  fitting::HeatingReport report;
+  report.pulsed_readings = h.pulsed;
+  report.pulse_dwell_s = h.pulse_dwell_median_s;
+  std::optional<fitting::DwellThermal>& dwell = report.dwell;
   if (!h.dwells.empty()) {
     dwell = fitting::dwell_thermal(h.dwells, params, o);
-    j["dwell"] = fitting::dwell_thermal_json(*dwell);
     if (dwell->status != "measured") out.fit.warnings.push_back("two dwells: " + dwell->note);
   }
   if (!h.pairs.empty()) {
-    const fitting::Hysteresis hy = fitting::sweep_hysteresis(h.pairs, params, o);
-    j["hysteresis"] = fitting::hysteresis_json(hy);
-    if (hy.flagged) out.fit.warnings.push_back(hy.note);
+    report.hysteresis = fitting::sweep_hysteresis(h.pairs, params, o);
+    if (report.hysteresis->flagged) out.fit.warnings.push_back(report.hysteresis->note);
   }
   // Without AC readings the stored Rs is the DC-only one: size what heating
   // it still holds with the measured Rth (the per-100 K/W figure of the
@@ -220,7 +221,7 @@ void apply_heating(const Config& cfg, double temp_k, const std::vector<PointRow>
   if (dwell && dwell->status == "measured" && no_ac && std::isfinite(per_100)) {
     const double fraction = h.pulsed > 0 && std::isfinite(h.pulse_dwell_median_s) ? 1.0 - std::exp(-h.pulse_dwell_median_s / dwell->tau_s.value) : 1.0;
     const double bias = per_100 * dwell->rth_k_per_w.value / 100.0 * fraction;
-    j["rs_heating_ohm"] = bias;
+    report.rs_heating_ohm = bias;
     char line[240];
     std::snprintf(line, sizeof line,
                   "with the measured Rth %.4g K/W (two dwells) the heating lowers the DC-only Rs by about %.2g ohm%s",
@@ -238,7 +239,7 @@ void apply_heating(const Config& cfg, double temp_k, const std::vector<PointRow>
                   h.pulsed, h.pulse_dwell_median_s * 1e3, h.pulse_dwell_median_s * 1e3);
     out.fit.warnings.emplace_back(line);
   }
-  out.more_detail["heating"] = j;
+  out.more.heating = std::move(report);
 }
 
 RunFit fit_run(const Config& cfg, double temp_k, const RunFixture& fixture, const std::vector<PointRow>& points,
@@ -800,7 +801,7 @@ class JobRun {
   // stored with its reason; a StoreError goes up (the job pauses).
   void fit_and_finish(Id part_id, Id run_id, const RunFixture& fixture, double temp_k) {
     const RunFit f = fit_run(cfg_, temp_k, fixture, store_.points(run_id), plan_.part_type);
-    store_.finish_run_with_fit(part_id, run_id, f.fit, f.cap_report ? &*f.cap_report : nullptr, f.electrothermal ? &*f.electrothermal : nullptr, f.more_detail);
+    store_.finish_run_with_fit(part_id, run_id, f.fit, f.cap_report ? &*f.cap_report : nullptr, f.electrothermal ? &*f.electrothermal : nullptr, f.more);
     log_("job " + std::to_string(job_id_) + " part " + part_label_ + ": " + describe_fit(f));
   }
 
@@ -1253,7 +1254,7 @@ void Executor::refit_runs_without_fit() {
       const auto job = store_.job(run.job_id);
       const double temp_k = std::isfinite(run.temp_k) ? run.temp_k : job ? job->plan.temp_k : 300.15;
       const RunFit f = fit_run(config_, temp_k, run.fixture, store_.points(run.id), job ? job->plan.part_type : "junction");
-      store_.finish_run_with_fit(run.part_id, run.id, f.fit, f.cap_report ? &*f.cap_report : nullptr, f.electrothermal ? &*f.electrothermal : nullptr, f.more_detail);
+      store_.finish_run_with_fit(run.part_id, run.id, f.fit, f.cap_report ? &*f.cap_report : nullptr, f.electrothermal ? &*f.electrothermal : nullptr, f.more);
       log_("recovered: run " + std::to_string(run.id) + " of job " + std::to_string(run.job_id) +
            " was done without its fit; fitted now: " + describe_fit(f));
     }

@@ -1,6 +1,7 @@
 #include "daemon/part_analysis.hpp"
 
 #include "fitting/temperature_fit.hpp"
+#include "formats/report_json.hpp"
 
 #include "daemon/part_export.hpp"
 
@@ -114,36 +115,6 @@ std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<Poi
   fitting::JunctionCapOptions o;
   if (std::isfinite(run_fixture.stray_c_f)) o.stray_c_f = run_fixture.stray_c_f;
   return fitting::fit_junction_cap(off, ac_fixture(run_fixture), std::isfinite(rs_ohm) && rs_ohm > 0 ? rs_ohm : 0.0, o);
-}
-
-JunctionCapReport junction_cap_report(const fitting::JunctionCapFit& fit, const std::vector<fitting::OffStatePoint>& points) {
-  JunctionCapReport r{fit.ok, fit.message, fit.cj0_f, fit.vj_v, fit.m, fit.law_held, static_cast<long>(fit.points_used),
-                      fit.reduced_chi2, fit.vj_m_correlation, std::vector<OffStateReadingReport>{}};
-  for (std::size_t k = 0; k < points.size(); ++k)
-    r.readings->push_back({points[k].reverse_v, points[k].freq_hz, fitting::off_state_fixture_ratio_db(points[k]),
-                           k < fit.c_f.size() ? fit.c_f[k] : kNaN, k < fit.left_out.size() ? fit.left_out[k] : std::string()});
-  return r;
-}
-
-ElectrothermalReport electrothermal_report(const fitting::ElectroThermalRun& run, const fitting::ElectroThermalRunOptions& options) {
-  ElectrothermalReport r;
-  r.status = run.status;
-  r.note = run.note;
-  r.ac_readings = static_cast<long>(run.ac_total);
-  r.ac_left_out = static_cast<long>(run.ac_left_out);
-  r.rs_ohm = run.fit.rs_ohm;
-  r.is_a = run.fit.is_a;
-  r.n = run.fit.n;
-  r.rth_k_per_w = run.fit.rth_k_per_w;
-  r.top_tj_k = run.fit.top_tj_k;
-  r.top_power_w = run.fit.top_power_w;
-  r.apparent_rs_ohm = run.fit.apparent_rs_ohm;
-  r.reduced_chi2 = run.fit.reduced_chi2;
-  r.rs_bias_per_100_k_per_w_ohm = run.rs_bias_per_100_k_per_w_ohm;
-  r.eg_ev = options.fit.law.eg_ev;
-  r.xti = options.fit.law.xti;
-  r.ambient_k = options.fit.ambient_k;
-  return r;
 }
 
 fitting::Fixture ac_fixture(const RunFixture& f) {

@@ -61,12 +61,10 @@ std::vector<fitting::OffStatePoint> off_state_points(const std::vector<PointRow>
 std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<PointRow>& points, const RunFixture& run_fixture,
                                                            double rs_ohm);
 
-// The capacitance law's fit as it is stored (detail.junction_cap), with what
-// each off-state reading gave, in the order of off_state_points.
-JunctionCapReport junction_cap_report(const fitting::JunctionCapFit& fit, const std::vector<fitting::OffStatePoint>& points);
-
-// The electro-thermal fit as it is stored (detail.electrothermal).
-ElectrothermalReport electrothermal_report(const fitting::ElectroThermalRun& run, const fitting::ElectroThermalRunOptions& options);
+// What is stored of the capacitance law's fit (detail.junction_cap, with what
+// each off-state reading gave, in the order of off_state_points) and of the
+// electro-thermal fit (detail.electrothermal): fitting::junction_cap_report
+// and fitting::electrothermal_report (fitting/fit_reports.hpp).
 
 // The small-signal fixture of a run, from the fixture stored with it:
 // Vout/Vin sees the load and the DC return (0 Ω = a choke, open at AC). The

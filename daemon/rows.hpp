@@ -6,7 +6,9 @@
 #pragma once
 
 #include "daemon/plan.hpp"
+#include "fitting/ac_charge_fit.hpp"
 #include "fitting/extract.hpp"
+#include "fitting/fit_reports.hpp"
 
 #include <nlohmann/json.hpp>
 
@@ -123,41 +125,21 @@ struct JobRecord {
   bool persisted = true;
 };
 
-// One off-state reading as the capacitance fit took it (detail.junction_cap.readings).
-struct OffStateReadingReport {
-  double reverse_v = kNaN;
-  double freq_hz = kNaN;
-  double fixture_ratio_db = kNaN;  // −20·log10(Vout/Vin) of the fixture; NaN: not computable
-  double c_f = kNaN;               // the junction capacitance from this reading; NaN when left out
-  std::string left_out;            // why it was left out of the law; "" when used
-};
+// The reports stored with a fit (detail.junction_cap, detail.electrothermal,
+// detail.heating, detail.stored_charge) are the fitting library's typed
+// reports (fitting/fit_reports.hpp, fitting/ac_charge_fit.hpp); their one
+// JSON writer and reader is formats/report_json.hpp.
+using fitting::ElectrothermalReport;
+using fitting::HeatingReport;
+using fitting::JunctionCapReport;
+using fitting::OffStateReadingReport;
 
-// The junction capacitance law's fit from a run's off-state readings
-// (detail.junction_cap; fitting::JunctionCapFit as stored).
-struct JunctionCapReport {
-  bool ok = false;
-  std::string message;
-  fitting::Estimate cj0_f, vj_v, m;
-  bool law_held = false;  // VJ, M held at their defaults (too few biases)
-  long points_used = 0;
-  double reduced_chi2 = kNaN;
-  double vj_m_correlation = kNaN;
-  std::optional<std::vector<OffStateReadingReport>> readings;  // rows stored before per-reading reports: none
-};
-
-// The electro-thermal fit of a run (detail.electrothermal; fitting::
-// ElectroThermalRun as stored): DC and AC readings fitted together with the
-// junction's heating, or without AC readings how far heating may bias Rs.
-struct ElectrothermalReport {
-  std::string status;  // fitted, no_ac, failed
-  std::string note;
-  long ac_readings = 0;
-  long ac_left_out = 0;
-  fitting::Estimate rs_ohm, is_a, n, rth_k_per_w, top_tj_k, apparent_rs_ohm;
-  double top_power_w = kNaN;
-  double reduced_chi2 = kNaN;
-  double rs_bias_per_100_k_per_w_ohm = kNaN;
-  double eg_ev = kNaN, xti = kNaN, ambient_k = kNaN;  // the law and ambient the fit assumed
+// What a run's fit stores beside the forward fit, the capacitance law and the
+// electro-thermal fit.
+struct MoreReports {
+  std::optional<HeatingReport> heating;             // detail.heating (plan.heating readings)
+  std::optional<fitting::AcChargeFit> stored_charge;  // detail.stored_charge (multi-frequency AC readings)
+  Json pin;  // detail.pin (a PIN part), null: none; pin_fit_json with the daemon's screen and off_state
 };
 
 // A stored fit: the forward fit with its covariance (so every figure served
@@ -181,9 +163,11 @@ struct FitRecord {
   // off-state readings / no electro-thermal fit was made).
   std::optional<JunctionCapReport> junction_cap;
   std::optional<ElectrothermalReport> electrothermal;
+  std::optional<HeatingReport> heating;
+  std::optional<fitting::AcChargeFit> stored_charge;
   // The rest of the stored detail document as written (parameter_names,
-  // correlation, excluded, iterations, heating, stored_charge); checked on
-  // read, served as is. api_json puts the typed reports back beside it.
+  // correlation, excluded, iterations, pin); checked on read, served as is.
+  // api_json puts the typed reports back beside it.
   Json detail = Json::object();
   // The part's latest temperature law (Store::latest_temperature_fit, from a
   // multi-temperature job: EG, XTI, TRS1), null when it has none. Not a

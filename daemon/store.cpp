@@ -724,18 +724,17 @@ std::vector<PointRow> Store::points(Id run_id) {
 // ---- fits ------------------------------------------------------------------
 
 Id Store::insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, const JunctionCapReport* cap,
-                         const ElectrothermalReport* electrothermal, const Json& more_detail) {
+                         const ElectrothermalReport* electrothermal, const MoreReports& more) {
   Json excluded = Json::array();
   for (const auto& e : fit.excluded) excluded.push_back({{"index", e.index}, {"reason", e.reason}});
-  Json detail = {{"parameter_names", fit.parameter_names}, {"correlation", Json::array()}, {"excluded", excluded}, {"iterations", fit.iterations}};
-  detail["correlation"] = matrix_json(fit.correlation);
-  if (more_detail.is_object()) detail.update(more_detail);
+  Json rest = {{"parameter_names", fit.parameter_names}, {"correlation", matrix_json(fit.correlation)}, {"excluded", excluded}, {"iterations", fit.iterations}};
+  if (!more.pin.is_null()) rest["pin"] = more.pin;
+  const Json detail = fit_detail_json(std::move(rest), cap, electrothermal, more.heating ? &*more.heating : nullptr,
+                                      more.stored_charge ? &*more.stored_charge : nullptr);
   // The law's columns only when its fit succeeded; the report (with the
   // reason when it did not) goes into detail either way.
   fitting::Estimate cj0, vj, m;
-  if (electrothermal) detail["electrothermal"] = to_json(*electrothermal);
   if (cap) {
-    detail["junction_cap"] = to_json(*cap);
     if (cap->ok) {
       cj0 = cap->cj0_f;
       vj = cap->vj_v;
@@ -764,23 +763,23 @@ void Store::forget_cached_fit(Id part_id) {
 }
 
 Id Store::insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const JunctionCapReport* cap,
-                     const ElectrothermalReport* electrothermal, const Json& more_detail) {
+                     const ElectrothermalReport* electrothermal, const MoreReports& more) {
   Id id = 0;
   {
     std::lock_guard lock(write_mutex_);
-    id = insert_fit_row(part_id, run_id, fit, cap, electrothermal, more_detail);
+    id = insert_fit_row(part_id, run_id, fit, cap, electrothermal, more);
   }
   forget_cached_fit(part_id);
   return id;
 }
 
 Id Store::finish_run_with_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const JunctionCapReport* cap,
-                              const ElectrothermalReport* electrothermal, const Json& more_detail) {
+                              const ElectrothermalReport* electrothermal, const MoreReports& more) {
   Id id = 0;
   {
     std::lock_guard lock(write_mutex_);
     Transaction tx(writer_->db);
-    id = insert_fit_row(part_id, run_id, fit, cap, electrothermal, more_detail);
+    id = insert_fit_row(part_id, run_id, fit, cap, electrothermal, more);
     Stmt(*writer_, std::string("UPDATE runs SET state = 'done', finished_at = COALESCE(finished_at, ") + kNow + ") WHERE id = ?").bind(1, run_id).run();
     tx.commit();
   }
@@ -888,19 +887,24 @@ std::shared_ptr<const FitRecord> Store::latest_fit(Id part_id) {
     // The reports into their rows (api_json reads them), out of the document.
     part = "detail.junction_cap";
     if (const auto it = rec->detail.find("junction_cap"); it != rec->detail.end()) {
-      rec->junction_cap = junction_cap_report_of(*it);
+      rec->junction_cap = fitting::junction_cap_report_of(*it);
       rec->detail.erase(it);
     }
     part = "detail.electrothermal";
     if (const auto it = rec->detail.find("electrothermal"); it != rec->detail.end()) {
-      rec->electrothermal = electrothermal_report_of(*it);
+      rec->electrothermal = fitting::electrothermal_report_of(*it);
+      rec->detail.erase(it);
+    }
+    part = "detail.heating";
+    if (const auto it = rec->detail.find("heating"); it != rec->detail.end()) {
+      rec->heating = fitting::heating_report_of(*it);
       rec->detail.erase(it);
     }
     part = "detail.stored_charge";
-    if (const Json& charge = rec->detail.value("stored_charge", Json()); charge.is_object() && charge.value("ok", false)) {
-      const Json& tt = charge.at("tt_s");
-      rec->tt_s = fitting::Estimate{tt.at("value").is_number() ? tt["value"].get<double>() : kNaN,
-                                    tt.at("std_error").is_number() ? tt["std_error"].get<double>() : kNaN};
+    if (const auto it = rec->detail.find("stored_charge"); it != rec->detail.end()) {
+      rec->stored_charge = fitting::ac_charge_fit_of(*it);
+      rec->detail.erase(it);
+      if (rec->stored_charge->ok) rec->tt_s = rec->stored_charge->tt_s;
     }
     part = "covariance";
     f.covariance = st.is_null(27) ? covariance_from_correlation(f)

@@ -103,7 +103,7 @@ class Store {
   // more_detail: further reports merged into the fit's detail (e.g.
   // {"electrothermal": …}).
   Id finish_run_with_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const JunctionCapReport* cap = nullptr,
-                         const ElectrothermalReport* electrothermal = nullptr, const Json& more_detail = Json());
+                         const ElectrothermalReport* electrothermal = nullptr, const MoreReports& more = {});
   // Runs without any fit row: state 'done' only (done_only), or every run
   // with at least one reading. job_id: only that job's runs.
   std::vector<RunRecord> runs_without_fit(std::optional<Id> job_id, bool done_only);
@@ -121,7 +121,7 @@ class Store {
   // stored with the forward fit (null: the run had none), with what each
   // reading gave; electrothermal: the electro-thermal fit (null: none made).
   Id insert_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const JunctionCapReport* cap = nullptr,
-                const ElectrothermalReport* electrothermal = nullptr, const Json& more_detail = Json());
+                const ElectrothermalReport* electrothermal = nullptr, const MoreReports& more = {});
   // The part's latest fit, with its covariance (rows written before
   // migration 0007 have none stored: it is rebuilt from the stored
   // correlation and standard errors, which determine it). null: no fit.
@@ -146,7 +146,7 @@ class Store {
   void apply_held(JobRecord& row);
   // INSERT INTO fits; the caller holds write_mutex_ (and its transaction).
   Id insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, const JunctionCapReport* cap,
-                    const ElectrothermalReport* electrothermal, const Json& more_detail);
+                    const ElectrothermalReport* electrothermal, const MoreReports& more);
   void forget_cached_fit(Id part_id);
 
   std::filesystem::path file_;

@@ -150,16 +150,4 @@ AcChargeFit fit_ac_stored_charge(std::span<const AcPoint> ac_in, const Fixture& 
   return f;
 }
 
-nlohmann::json ac_charge_fit_json(const AcChargeFit& fit) {
-  const auto est = [](const Estimate& e) {
-    return nlohmann::json{{"value", std::isfinite(e.value) ? nlohmann::json(e.value) : nlohmann::json(nullptr)},
-                          {"std_error", std::isfinite(e.std_error) ? nlohmann::json(e.std_error) : nlohmann::json(nullptr)}};
-  };
-  nlohmann::json j{{"ok", fit.ok},         {"message", fit.message},          {"n", est(fit.n)},
-                   {"rs_ohm", est(fit.rs_ohm)}, {"tt_s", est(fit.tt_s)},      {"reduced_chi2", fit.reduced_chi2},
-                   {"points", fit.points}, {"frequencies", fit.frequencies}};
-  if (std::isfinite(fit.cj_f.value)) j["cj_f"] = est(fit.cj_f);
-  return j;
-}
-
 }  // namespace junco::fitting

@@ -25,8 +25,6 @@
 #include "fitting/extract.hpp"
 #include "fitting/transfer.hpp"
 
-#include <nlohmann/json.hpp>
-
 #include <span>
 #include <string>
 
@@ -53,8 +51,5 @@ struct AcChargeFit {
 
 // Needs at least 2 distinct frequencies and more readings than parameters.
 AcChargeFit fit_ac_stored_charge(std::span<const AcPoint> ac, const Fixture& fixture, const AcChargeFitOptions& options);
-
-// {ok, message, n, rs_ohm, tt_s[, cj_f]: {value, std_error}, reduced_chi2, points, frequencies}
-nlohmann::json ac_charge_fit_json(const AcChargeFit& fit);
 
 }  // namespace junco::fitting

@@ -266,28 +266,4 @@ ElectroThermalRun fit_run_electrothermal(std::span<const IvPoint> dc, std::span<
   return run;
 }
 
-namespace {
-nlohmann::json num_or_null(double x) { return std::isfinite(x) ? nlohmann::json(x) : nlohmann::json(nullptr); }
-nlohmann::json est_json(const Estimate& e) { return {{"value", num_or_null(e.value)}, {"std_error", num_or_null(e.std_error)}}; }
-}  // namespace
-
-nlohmann::json electrothermal_run_json(const ElectroThermalRun& r, const ElectroThermalRunOptions& o) {
-  return {{"status", r.status},
-          {"note", r.note},
-          {"ac_readings", r.ac_total},
-          {"ac_left_out", r.ac_left_out},
-          {"rs_ohm", est_json(r.fit.rs_ohm)},
-          {"is_a", est_json(r.fit.is_a)},
-          {"n", est_json(r.fit.n)},
-          {"rth_k_per_w", est_json(r.fit.rth_k_per_w)},
-          {"top_tj_k", est_json(r.fit.top_tj_k)},
-          {"top_power_w", num_or_null(r.fit.top_power_w)},
-          {"apparent_rs_ohm", est_json(r.fit.apparent_rs_ohm)},
-          {"reduced_chi2", num_or_null(r.fit.reduced_chi2)},
-          {"rs_bias_per_100_k_per_w_ohm", num_or_null(r.rs_bias_per_100_k_per_w_ohm)},
-          {"eg_ev", o.fit.law.eg_ev},
-          {"xti", o.fit.law.xti},
-          {"ambient_k", o.fit.ambient_k}};
-}
-
 }  // namespace junco::fitting

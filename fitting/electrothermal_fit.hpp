@@ -32,8 +32,6 @@
 #include "fitting/temperature.hpp"
 #include "fitting/transfer.hpp"
 
-#include <nlohmann/json.hpp>
-
 #include <limits>
 #include <span>
 #include <string>
@@ -116,10 +114,5 @@ struct ElectroThermalRun {
 
 ElectroThermalRun fit_run_electrothermal(std::span<const IvPoint> dc, std::span<const AcPoint> ac, const Fixture& fixture,
                                          const ElectroThermalRunOptions& options);
-
-// {status, note, ac_readings, ac_left_out, rs_ohm:{value,std_error}, is_a, n,
-//  rth_k_per_w, top_tj_k, top_power_w, apparent_rs_ohm, reduced_chi2,
-//  rs_bias_per_100_k_per_w_ohm, eg_ev, xti, ambient_k}; non-finite numbers null.
-nlohmann::json electrothermal_run_json(const ElectroThermalRun& run, const ElectroThermalRunOptions& options);
 
 }  // namespace junco::fitting

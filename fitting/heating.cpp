@@ -40,9 +40,6 @@ double sigma_difference_v(const DiodeParams& p, const IvPoint& q, const HeatingO
   return std::sqrt(2.0) * residual_sigma_v(p, q, o.accuracy, o.ambient_k);
 }
 
-nlohmann::json num(double x) { return std::isfinite(x) ? nlohmann::json(x) : nlohmann::json(nullptr); }
-nlohmann::json est(const Estimate& e) { return {{"value", num(e.value)}, {"std_error", num(e.std_error)}}; }
-
 }  // namespace
 
 double first_order_tau_s(double t0, double t1, double t2, double ratio) {
@@ -186,21 +183,6 @@ Hysteresis sweep_hysteresis(std::span<const SweepPair> pairs, const DiodeParams&
                           : "within the noise");
   h.note = line;
   return h;
-}
-
-nlohmann::json dwell_thermal_json(const DwellThermal& d) {
-  nlohmann::json steps = nlohmann::json::array();
-  for (const auto& s : d.steps)
-    steps.push_back({{"used", s.used}, {"why", s.why}, {"i_a", num(s.i_a)}, {"power_w", num(s.power_w)},
-                     {"delta_vf_inf_v", num(s.delta_vf_inf_v)}, {"delta_t_inf_k", num(s.delta_t_inf_k)}, {"tau_s", num(s.tau_s)},
-                     {"rth_k_per_w", num(s.rth_k_per_w)}});
-  return {{"status", d.status}, {"note", d.note}, {"rth_k_per_w", est(d.rth_k_per_w)}, {"tau_s", est(d.tau_s)},
-          {"steps_used", d.used}, {"steps", steps}};
-}
-
-nlohmann::json hysteresis_json(const Hysteresis& h) {
-  return {{"pairs", h.pairs},       {"max_abs_v", num(h.max_abs_v)}, {"at_i_a", num(h.at_i_a)}, {"sigma_v", num(h.sigma_v)},
-          {"max_z", num(h.max_z)},   {"mean_v", num(h.mean_v)},      {"flagged", h.flagged},     {"note", h.note}};
 }
 
 }  // namespace junco::fitting

@@ -39,8 +39,6 @@
 #include "fitting/extract.hpp"
 #include "fitting/temperature.hpp"
 
-#include <nlohmann/json.hpp>
-
 #include <limits>
 #include <span>
 #include <string>
@@ -107,8 +105,5 @@ struct Hysteresis {
 };
 
 Hysteresis sweep_hysteresis(std::span<const SweepPair> pairs, const DiodeParams& params, const HeatingOptions& options);
-
-nlohmann::json dwell_thermal_json(const DwellThermal& d);
-nlohmann::json hysteresis_json(const Hysteresis& h);
 
 }  // namespace junco::fitting

@@ -320,22 +320,4 @@ std::vector<std::string> screen_ac_readings(std::span<const AcPoint> ac, const F
   return why;
 }
 
-namespace {
-nlohmann::json number_or_null(double x) { return std::isfinite(x) ? nlohmann::json(x) : nlohmann::json(nullptr); }
-nlohmann::json estimate_json(const Estimate& e) { return {{"value", number_or_null(e.value)}, {"std_error", number_or_null(e.std_error)}}; }
-}  // namespace
-
-nlohmann::json simple_fit_json(const SimpleFit& f) {
-  return {{"ok", f.ok},          {"message", f.message},       {"is_a", estimate_json(f.is_a)},
-          {"n", estimate_json(f.n)}, {"rs_ohm", estimate_json(f.rs_ohm)}, {"reduced_chi2", number_or_null(f.reduced_chi2)},
-          {"dc_points", f.dc_points}, {"ac_points", f.ac_points}};
-}
-
-nlohmann::json joint_report_json(const JointFitReport& r) {
-  nlohmann::json j{{"dc_only", simple_fit_json(r.dc_only)}, {"ac_only", simple_fit_json(r.ac_only)}, {"joint", simple_fit_json(r.joint)},
-                   {"agree", r.agree}, {"agreement", r.agreement}};
-  if (!r.hint.empty()) j["hint"] = r.hint;
-  return j;
-}
-
 }  // namespace junco::fitting

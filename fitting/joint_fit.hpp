@@ -24,8 +24,6 @@
 #include "fitting/extract.hpp"
 #include "fitting/transfer.hpp"
 
-#include <nlohmann/json.hpp>
-
 #include <span>
 #include <string>
 #include <vector>
@@ -74,10 +72,6 @@ struct AcScreen {
 // One entry per reading: "" when used, else "large signal" or "below the level floor".
 std::vector<std::string> screen_ac_readings(std::span<const AcPoint> ac, const Fixture& fixture, const AcScreen& screen);
 
-// {ok, message, is_a:{value,std_error}, n, rs_ohm, reduced_chi2, dc_points, ac_points}
-nlohmann::json simple_fit_json(const SimpleFit& fit);
-// {dc_only, joint, agree, agreement[, hint]}
-nlohmann::json joint_report_json(const JointFitReport& report);
 
 // ac may be empty (then this is the DC-only fit).
 SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, const Fixture& fixture,

@@ -276,23 +276,4 @@ JunctionCapFit fit_junction_cap_values(std::span<const CapacitanceReading> readi
   return f;
 }
 
-namespace {
-nlohmann::json number_or_null(double x) { return std::isfinite(x) ? nlohmann::json(x) : nlohmann::json(nullptr); }
-nlohmann::json estimate_json(const Estimate& e) {
-  return {{"value", number_or_null(e.value)}, {"std_error", number_or_null(e.std_error)}};
-}
-}  // namespace
-
-nlohmann::json junction_cap_json(const JunctionCapFit& f) {
-  return {{"ok", f.ok},
-          {"message", f.message},
-          {"cj0_f", estimate_json(f.cj0_f)},
-          {"vj_v", estimate_json(f.vj_v)},
-          {"m", estimate_json(f.m)},
-          {"law_held", f.law_held},
-          {"points_used", f.points_used},
-          {"reduced_chi2", number_or_null(f.reduced_chi2)},
-          {"vj_m_correlation", number_or_null(f.vj_m_correlation)}};
-}
-
 }  // namespace junco::fitting

@@ -29,8 +29,6 @@
 #include "fitting/extract.hpp"
 #include "fitting/transfer.hpp"
 
-#include <nlohmann/json.hpp>
-
 #include <cstddef>
 #include <limits>
 #include <span>
@@ -99,9 +97,5 @@ struct CapacitanceReading {
   double sigma_ln_c = 0.01;
 };
 JunctionCapFit fit_junction_cap_values(std::span<const CapacitanceReading> readings, const JunctionCapOptions& options = {});
-
-// {ok, message, cj0_f:{value,std_error}, vj_v, m, law_held, points_used, reduced_chi2, vj_m_correlation}
-// (non-finite numbers are null).
-nlohmann::json junction_cap_json(const JunctionCapFit& fit);
 
 }  // namespace junco::fitting

@@ -100,11 +100,6 @@ PinLaw law_of(const Eigen::VectorXd& p) {
   return law;
 }
 
-nlohmann::json est_json(const Estimate& e) {
-  return {{"value", std::isfinite(e.value) ? nlohmann::json(e.value) : nlohmann::json(nullptr)},
-          {"std_error", std::isfinite(e.std_error) ? nlohmann::json(e.std_error) : nlohmann::json(nullptr)}};
-}
-
 }  // namespace
 
 double pin_rf_resistance_ohm(const PinLaw& law, double i_a) { return law.r0_ohm + law.k_ohm_a_x * std::pow(i_a, -law.x); }
@@ -231,24 +226,6 @@ PinFit fit_pin_law(std::span<const AcPoint> ac_in, const Fixture& fixture, const
   return f;
 }
 
-nlohmann::json pin_fit_json(const PinFit& f) {
-  return {{"ok", f.ok},
-          {"message", f.message},
-          {"n", est_json(f.n)},
-          {"tau_s", est_json(f.tau_s)},
-          {"r0_ohm", est_json(f.r0_ohm)},
-          {"k_ohm_a_x", est_json(f.k_ohm_a_x)},
-          {"x", est_json(f.x)},
-          {"r_1ma_ohm", est_json(f.r_1ma_ohm)},
-          {"knee_freq_hz", f.knee_freq_hz},
-          {"parameter_names", f.parameter_names},
-          {"covariance", f.covariance},
-          {"reduced_chi2", f.reduced_chi2},
-          {"points", f.points},
-          {"frequencies", f.frequencies},
-          {"above_knee", f.above_knee}};
-}
-
 PinOffFit fit_pin_off_state(std::span<const OffStatePoint> off_in, const Fixture& fixture, double sigma_db) {
   PinOffFit f;
   std::vector<OffStatePoint> off;
@@ -291,12 +268,6 @@ PinOffFit fit_pin_off_state(std::span<const OffStatePoint> off_in, const Fixture
   f.ok = std::isfinite(lm.cost);
   f.message = lm.converged ? "converged" : "stopped at the iteration limit";
   return f;
-}
-
-nlohmann::json pin_off_fit_json(const PinOffFit& f) {
-  return {{"ok", f.ok}, {"message", f.message}, {"ct_f", est_json(f.ct_f)}, {"rp_ohm", est_json(f.rp_ohm)},
-          {"reduced_chi2", std::isfinite(f.reduced_chi2) ? nlohmann::json(f.reduced_chi2) : nlohmann::json(nullptr)},
-          {"points", f.points}};
 }
 
 std::vector<std::string> screen_pin_ac_readings(std::span<const AcPoint> ac, const Fixture& fx, double tau_s,

@@ -25,8 +25,6 @@
 #include "fitting/junction_cap.hpp"
 #include "fitting/transfer.hpp"
 
-#include <nlohmann/json.hpp>
-
 #include <complex>
 #include <limits>
 #include <span>
@@ -93,9 +91,7 @@ struct PinFit {
 // errors say which is undetermined.
 PinFit fit_pin_law(std::span<const AcPoint> ac, const Fixture& fixture, const PinFitOptions& options);
 
-// {ok, message, n, tau_s, r0_ohm, k_ohm_a_x, x, r_1ma_ohm: {value, std_error},
-//  knee_freq_hz, parameter_names, covariance, reduced_chi2, points, frequencies, above_knee}
-nlohmann::json pin_fit_json(const PinFit& fit);
+// Its JSON (detail.pin): formats/report_json.hpp.
 
 // Off state from off-state readings (any reverse bias past punch-through):
 // CT and Rp fitted to the fixture ratio.
@@ -107,7 +103,6 @@ struct PinOffFit {
   std::size_t points = 0;
 };
 PinOffFit fit_pin_off_state(std::span<const OffStatePoint> off, const Fixture& fixture, double ac_sigma_db = 0.01);
-nlohmann::json pin_off_fit_json(const PinOffFit& fit);
 
 // The large-signal screen of a PIN part: a reading whose signal is not small
 // against the bias (the junction rule, screen_ac_readings) is still linear

@@ -173,32 +173,4 @@ TemperatureFit fit_temperature_law(const std::vector<TemperaturePoint>& points, 
   return f;
 }
 
-nlohmann::json temperature_fit_json(const TemperatureFit& f) {
-  auto est = [](const Estimate& e) {
-    return nlohmann::json{{"value", std::isfinite(e.value) ? nlohmann::json(e.value) : nlohmann::json(nullptr)},
-                          {"std_error", std::isfinite(e.std_error) ? nlohmann::json(e.std_error) : nlohmann::json(nullptr)}};
-  };
-  nlohmann::json temps = nlohmann::json::array();
-  for (std::size_t i = 0; i < f.temps_k.size(); ++i)
-    temps.push_back({{"temp_k", f.temps_k[i]},
-                     {"ln_is_residual", i < f.residuals_ln_is.size() ? nlohmann::json(f.residuals_ln_is[i]) : nlohmann::json(nullptr)}});
-  nlohmann::json j{{"status", f.ok ? "ok" : "failed"},
-                   {"message", f.message},
-                   {"tnom_k", f.tnom_k},
-                   {"n", f.n},
-                   {"is_a", est(f.is_a)},
-                   {"eg_ev", est(f.eg_ev)},
-                   {"xti", est(f.xti)},
-                   {"trs1_per_k", est(f.trs1_per_k)},
-                   {"rs_ohm", est(f.rs_ohm)},
-                   {"corr_eg_xti", std::isfinite(f.corr_eg_xti) ? nlohmann::json(f.corr_eg_xti) : nlohmann::json(nullptr)},
-                   {"reduced_chi2", f.reduced_chi2},
-                   {"dof", f.dof},
-                   {"temperatures", temps},
-                   {"notes", f.notes}};
-  j["xti"]["held"] = f.xti_held;
-  j["trs1_per_k"]["resolved"] = f.trs_resolved;
-  return j;
-}
-
 }  // namespace junco::fitting

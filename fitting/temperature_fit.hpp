@@ -30,8 +30,6 @@
 #include "fitting/extract.hpp"
 #include "fitting/temperature.hpp"
 
-#include <nlohmann/json.hpp>
-
 #include <string>
 #include <vector>
 
@@ -73,10 +71,5 @@ struct TemperatureFit {
 };
 
 TemperatureFit fit_temperature_law(const std::vector<TemperaturePoint>& points, const TemperatureFitOptions& options = {});
-
-// {"status": "ok"|"failed", "message", "eg_ev": {"value","std_error"}, "xti": {…, "held"},
-//  "trs1_per_k": {…, "resolved"}, "tnom_k", "n", "is_a", "rs_ohm", "corr_eg_xti",
-//  "reduced_chi2", "dof", "temperatures": [{"temp_k", "ln_is_residual"}], "notes"}
-nlohmann::json temperature_fit_json(const TemperatureFit& fit);
 
 }  // namespace junco::fitting

@@ -6,6 +6,7 @@
 // (the SPICE law of docs/references.md §2 rearranged; ngspice diotemp.c), and the
 // AC readings from a std::complex divider of the fixture (RL, Rs + rj).
 #include "fitting/electrothermal_fit.hpp"
+#include "formats/report_json.hpp"  // electrothermal_run_json: the report as juncod stores it
 
 #include <catch2/catch.hpp>
 

@@ -8,6 +8,7 @@
 // the Is ∝ T^(XTI/N)·exp(−EG/(N·k·T)) form is the published saturation-current
 // law (Sze & Ng, Physics of Semiconductor Devices, 3rd ed., §2.3.1).
 #include "fitting/temperature_fit.hpp"
+#include "formats/report_json.hpp"  // temperature_fit_json, printed when a check fails
 
 #include <catch2/catch.hpp>
 

@@ -4,6 +4,7 @@
 // depletion law CJO·(1 + Vr/VJ)^−M (docs/references.md §2). Expected values are
 // the generating ones, never outputs of the code under test.
 #include "fitting/junction_cap.hpp"
+#include "formats/report_json.hpp"  // junction_cap_json: the report as juncod stores it
 
 #include <catch2/catch.hpp>
 

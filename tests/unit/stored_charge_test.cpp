@@ -6,6 +6,7 @@
 // readings at one frequency. And TT's way out: the SPICE card, the model
 // document and the calculators' part.
 #include "fitting/ac_charge_fit.hpp"
+#include "formats/report_json.hpp"  // ac_charge_fit_json, printed when a check fails
 #include "design/calculators.hpp"
 #include "formats/model_document.hpp"
 #include "formats/spice_card.hpp"

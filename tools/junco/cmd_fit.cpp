@@ -5,6 +5,7 @@
 #include "fitting/extract.hpp"
 #include "fitting/fit_solve.hpp"  // the solver bounds a fit must not end at
 #include "formats/fit_json.hpp"  // the fit as the daemon's API writes it
+#include "formats/report_json.hpp"  // the joint report as part.transfer writes it
 #include "formats/iv_csv.hpp"
 #include "formats/model_document.hpp"
 #include "tools/junco/cli_options.hpp"

@@ -1,0 +1,77 @@
+// The reports a run's fits give, as juncod stores them with the fit
+// (detail.junction_cap, detail.electrothermal, detail.heating) and part.fit
+// serves them: plain typed values, no JSON. Their one JSON writer and reader
+// is formats/report_json.hpp; the fit results they are made of stay in their
+// own headers (junction_cap.hpp, electrothermal_fit.hpp, heating.hpp).
+#pragma once
+
+#include "fitting/electrothermal_fit.hpp"
+#include "fitting/extract.hpp"
+#include "fitting/heating.hpp"
+#include "fitting/junction_cap.hpp"
+
+#include <limits>
+#include <optional>
+#include <span>
+#include <string>
+#include <vector>
+
+namespace junco::fitting {
+
+// One off-state reading as the capacitance fit took it (detail.junction_cap.readings).
+struct OffStateReadingReport {
+  double reverse_v = std::numeric_limits<double>::quiet_NaN();
+  double freq_hz = std::numeric_limits<double>::quiet_NaN();
+  double fixture_ratio_db = std::numeric_limits<double>::quiet_NaN();  // −20·log10(Vout/Vin) of the fixture; NaN: not computable
+  double c_f = std::numeric_limits<double>::quiet_NaN();  // the junction capacitance from this reading; NaN when left out
+  std::string left_out;                                   // why it was left out of the law; "" when used
+};
+
+// The junction capacitance law's fit (JunctionCapFit) as reported, with what
+// each reading gave when the readings are known.
+struct JunctionCapReport {
+  bool ok = false;
+  std::string message;
+  Estimate cj0_f, vj_v, m;
+  bool law_held = false;  // VJ, M held at their defaults (too few biases)
+  long points_used = 0;
+  double reduced_chi2 = std::numeric_limits<double>::quiet_NaN();
+  double vj_m_correlation = std::numeric_limits<double>::quiet_NaN();
+  std::optional<std::vector<OffStateReadingReport>> readings;  // none: the fit alone (rows stored before per-reading reports)
+};
+
+// The fit alone (no readings).
+JunctionCapReport junction_cap_report(const JunctionCapFit& fit);
+// With one reading report per point, in the order the fit took them.
+JunctionCapReport junction_cap_report(const JunctionCapFit& fit, std::span<const OffStatePoint> points);
+
+// The electro-thermal fit of a run (ElectroThermalRun with the law and
+// ambient it assumed): DC and AC readings fitted together with the junction's
+// heating, or without AC readings how far heating may bias Rs.
+struct ElectrothermalReport {
+  std::string status;  // fitted, no_ac, failed
+  std::string note;
+  long ac_readings = 0;
+  long ac_left_out = 0;
+  Estimate rs_ohm, is_a, n, rth_k_per_w, top_tj_k, apparent_rs_ohm;
+  double top_power_w = std::numeric_limits<double>::quiet_NaN();
+  double reduced_chi2 = std::numeric_limits<double>::quiet_NaN();
+  double rs_bias_per_100_k_per_w_ohm = std::numeric_limits<double>::quiet_NaN();
+  double eg_ev = std::numeric_limits<double>::quiet_NaN(), xti = std::numeric_limits<double>::quiet_NaN(),
+         ambient_k = std::numeric_limits<double>::quiet_NaN();  // the law and ambient the fit assumed
+};
+
+ElectrothermalReport electrothermal_report(const ElectroThermalRun& run, const ElectroThermalRunOptions& options);
+
+// A run's heating readings (plan.heating): how many top readings were pulsed
+// and their median dwell, Rth and τ from the two dwells, the up/down
+// hysteresis, and the heating the DC-only Rs may still hold.
+struct HeatingReport {
+  std::size_t pulsed_readings = 0;
+  double pulse_dwell_s = std::numeric_limits<double>::quiet_NaN();  // median output-on → reading of the pulsed ones
+  std::optional<DwellThermal> dwell;        // with dwell readings
+  std::optional<Hysteresis> hysteresis;     // with down-sweep readings
+  std::optional<double> rs_heating_ohm;     // when the measured Rth sizes it
+};
+
+}  // namespace junco::fitting

@@ -1,0 +1,301 @@
+#include "formats/report_json.hpp"
+
+#include "formats/fit_json.hpp"
+
+#include <cmath>
+#include <stdexcept>
+#include <string>
+
+namespace junco::fitting {
+
+using nlohmann::json;
+
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+
+json nullable(double v) { return std::isfinite(v) ? json(v) : json(nullptr); }
+
+void require_object(const json& j) {
+  if (!j.is_object()) throw std::invalid_argument(std::string("an object, not ") + j.type_name());
+}
+// A number as stored: null (or absent) is NaN; anything else not a number is damage.
+double number_of(const json& j, const char* key) {
+  const auto it = j.find(key);
+  if (it == j.end() || it->is_null()) return kNaN;
+  if (!it->is_number()) throw std::invalid_argument(std::string(key) + ": a number or null, not " + it->type_name());
+  return it->get<double>();
+}
+Estimate estimate_of(const json& j, const char* key) {
+  const auto it = j.find(key);
+  if (it == j.end() || it->is_null()) return {};
+  if (!it->is_object()) throw std::invalid_argument(std::string(key) + ": {value, std_error}, not " + it->type_name());
+  return {number_of(*it, "value"), number_of(*it, "std_error")};
+}
+
+}  // namespace
+
+// ---- capacitance law ---------------------------------------------------------
+
+json junction_cap_json(const JunctionCapReport& r) {
+  json out{{"ok", r.ok},
+           {"message", r.message},
+           {"cj0_f", estimate_json(r.cj0_f)},
+           {"vj_v", estimate_json(r.vj_v)},
+           {"m", estimate_json(r.m)},
+           {"law_held", r.law_held},
+           {"points_used", r.points_used},
+           {"reduced_chi2", nullable(r.reduced_chi2)},
+           {"vj_m_correlation", nullable(r.vj_m_correlation)}};
+  if (r.readings) {
+    json rows = json::array();
+    for (const auto& p : *r.readings)
+      rows.push_back({{"reverse_v", p.reverse_v},
+                      {"freq_hz", p.freq_hz},
+                      {"fixture_ratio_db", nullable(p.fixture_ratio_db)},
+                      // the same ratio under its former name, for readers of older reports (one release)
+                      {"isolation_db", nullable(p.fixture_ratio_db)},
+                      {"c_f", nullable(p.c_f)},
+                      {"left_out", p.left_out}});
+    out["readings"] = rows;
+  }
+  return out;
+}
+
+json junction_cap_json(const JunctionCapFit& fit) { return junction_cap_json(junction_cap_report(fit)); }
+
+JunctionCapReport junction_cap_report_of(const json& j) {
+  require_object(j);
+  JunctionCapReport r;
+  r.ok = j.value("ok", false);
+  r.message = j.value("message", std::string());
+  r.cj0_f = estimate_of(j, "cj0_f");
+  r.vj_v = estimate_of(j, "vj_v");
+  r.m = estimate_of(j, "m");
+  r.law_held = j.value("law_held", false);
+  r.points_used = j.value("points_used", 0L);
+  r.reduced_chi2 = number_of(j, "reduced_chi2");
+  r.vj_m_correlation = number_of(j, "vj_m_correlation");
+  if (j.contains("readings")) {
+    r.readings.emplace();
+    for (const auto& p : j.at("readings")) {
+      // fixture_ratio_db; rows stored before its rename have only isolation_db
+      const double ratio = p.contains("fixture_ratio_db") ? number_of(p, "fixture_ratio_db") : number_of(p, "isolation_db");
+      r.readings->push_back({number_of(p, "reverse_v"), number_of(p, "freq_hz"), ratio, number_of(p, "c_f"), p.value("left_out", std::string())});
+    }
+  }
+  return r;
+}
+
+// ---- electro-thermal fit -------------------------------------------------------
+
+json electrothermal_json(const ElectrothermalReport& r) {
+  return json{{"status", r.status},
+              {"note", r.note},
+              {"ac_readings", r.ac_readings},
+              {"ac_left_out", r.ac_left_out},
+              {"rs_ohm", estimate_json(r.rs_ohm)},
+              {"is_a", estimate_json(r.is_a)},
+              {"n", estimate_json(r.n)},
+              {"rth_k_per_w", estimate_json(r.rth_k_per_w)},
+              {"top_tj_k", estimate_json(r.top_tj_k)},
+              {"top_power_w", nullable(r.top_power_w)},
+              {"apparent_rs_ohm", estimate_json(r.apparent_rs_ohm)},
+              {"reduced_chi2", nullable(r.reduced_chi2)},
+              {"rs_bias_per_100_k_per_w_ohm", nullable(r.rs_bias_per_100_k_per_w_ohm)},
+              {"eg_ev", nullable(r.eg_ev)},
+              {"xti", nullable(r.xti)},
+              {"ambient_k", nullable(r.ambient_k)}};
+}
+
+json electrothermal_run_json(const ElectroThermalRun& run, const ElectroThermalRunOptions& options) {
+  return electrothermal_json(electrothermal_report(run, options));
+}
+
+ElectrothermalReport electrothermal_report_of(const json& j) {
+  require_object(j);
+  ElectrothermalReport r;
+  r.status = j.value("status", std::string());
+  r.note = j.value("note", std::string());
+  r.ac_readings = j.value("ac_readings", 0L);
+  r.ac_left_out = j.value("ac_left_out", 0L);
+  r.rs_ohm = estimate_of(j, "rs_ohm");
+  r.is_a = estimate_of(j, "is_a");
+  r.n = estimate_of(j, "n");
+  r.rth_k_per_w = estimate_of(j, "rth_k_per_w");
+  r.top_tj_k = estimate_of(j, "top_tj_k");
+  r.top_power_w = number_of(j, "top_power_w");
+  r.apparent_rs_ohm = estimate_of(j, "apparent_rs_ohm");
+  r.reduced_chi2 = number_of(j, "reduced_chi2");
+  r.rs_bias_per_100_k_per_w_ohm = number_of(j, "rs_bias_per_100_k_per_w_ohm");
+  r.eg_ev = number_of(j, "eg_ev");
+  r.xti = number_of(j, "xti");
+  r.ambient_k = number_of(j, "ambient_k");
+  return r;
+}
+
+// ---- heating ---------------------------------------------------------------------
+
+json dwell_thermal_json(const DwellThermal& d) {
+  json steps = json::array();
+  for (const auto& s : d.steps)
+    steps.push_back({{"used", s.used}, {"why", s.why}, {"i_a", nullable(s.i_a)}, {"power_w", nullable(s.power_w)},
+                     {"delta_vf_inf_v", nullable(s.delta_vf_inf_v)}, {"delta_t_inf_k", nullable(s.delta_t_inf_k)},
+                     {"tau_s", nullable(s.tau_s)}, {"rth_k_per_w", nullable(s.rth_k_per_w)}});
+  return {{"status", d.status}, {"note", d.note}, {"rth_k_per_w", estimate_json(d.rth_k_per_w)}, {"tau_s", estimate_json(d.tau_s)},
+          {"steps_used", d.used}, {"steps", steps}};
+}
+
+json hysteresis_json(const Hysteresis& h) {
+  return {{"pairs", h.pairs},     {"max_abs_v", nullable(h.max_abs_v)}, {"at_i_a", nullable(h.at_i_a)}, {"sigma_v", nullable(h.sigma_v)},
+          {"max_z", nullable(h.max_z)}, {"mean_v", nullable(h.mean_v)}, {"flagged", h.flagged},         {"note", h.note}};
+}
+
+json heating_json(const HeatingReport& r) {
+  json j{{"pulsed_readings", r.pulsed_readings}, {"pulse_dwell_s", nullable(r.pulse_dwell_s)}};
+  if (r.dwell) j["dwell"] = dwell_thermal_json(*r.dwell);
+  if (r.hysteresis) j["hysteresis"] = hysteresis_json(*r.hysteresis);
+  if (r.rs_heating_ohm) j["rs_heating_ohm"] = *r.rs_heating_ohm;
+  return j;
+}
+
+namespace {
+DwellThermal dwell_thermal_of(const json& j) {
+  require_object(j);
+  DwellThermal d;
+  d.status = j.value("status", std::string());
+  d.note = j.value("note", std::string());
+  d.rth_k_per_w = estimate_of(j, "rth_k_per_w");
+  d.tau_s = estimate_of(j, "tau_s");
+  d.used = j.value("steps_used", std::size_t{0});
+  for (const auto& s : j.value("steps", json::array())) {
+    require_object(s);
+    d.steps.push_back({s.value("used", false), s.value("why", std::string()), number_of(s, "i_a"), number_of(s, "power_w"),
+                       number_of(s, "delta_vf_inf_v"), number_of(s, "delta_t_inf_k"), number_of(s, "tau_s"), number_of(s, "rth_k_per_w")});
+  }
+  return d;
+}
+
+Hysteresis hysteresis_of(const json& j) {
+  require_object(j);
+  Hysteresis h;
+  h.pairs = j.value("pairs", std::size_t{0});
+  h.max_abs_v = number_of(j, "max_abs_v");
+  h.at_i_a = number_of(j, "at_i_a");
+  h.sigma_v = number_of(j, "sigma_v");
+  h.max_z = number_of(j, "max_z");
+  h.mean_v = number_of(j, "mean_v");
+  h.flagged = j.value("flagged", false);
+  h.note = j.value("note", std::string());
+  return h;
+}
+}  // namespace
+
+HeatingReport heating_report_of(const json& j) {
+  require_object(j);
+  HeatingReport r;
+  r.pulsed_readings = j.value("pulsed_readings", std::size_t{0});
+  r.pulse_dwell_s = number_of(j, "pulse_dwell_s");
+  if (j.contains("dwell")) r.dwell = dwell_thermal_of(j["dwell"]);
+  if (j.contains("hysteresis")) r.hysteresis = hysteresis_of(j["hysteresis"]);
+  if (j.contains("rs_heating_ohm")) r.rs_heating_ohm = number_of(j, "rs_heating_ohm");
+  return r;
+}
+
+// ---- stored charge ---------------------------------------------------------------
+
+json ac_charge_fit_json(const AcChargeFit& fit) {
+  json j{{"ok", fit.ok},
+         {"message", fit.message},
+         {"n", estimate_json(fit.n)},
+         {"rs_ohm", estimate_json(fit.rs_ohm)},
+         {"tt_s", estimate_json(fit.tt_s)},
+         {"reduced_chi2", fit.reduced_chi2},
+         {"points", fit.points},
+         {"frequencies", fit.frequencies}};
+  if (std::isfinite(fit.cj_f.value)) j["cj_f"] = estimate_json(fit.cj_f);
+  return j;
+}
+
+AcChargeFit ac_charge_fit_of(const json& j) {
+  require_object(j);
+  AcChargeFit f;
+  f.ok = j.value("ok", false);
+  f.message = j.value("message", std::string());
+  f.n = estimate_of(j, "n");
+  f.rs_ohm = estimate_of(j, "rs_ohm");
+  f.tt_s = estimate_of(j, "tt_s");
+  f.cj_f = estimate_of(j, "cj_f");
+  f.reduced_chi2 = number_of(j, "reduced_chi2");
+  f.points = j.value("points", std::size_t{0});
+  f.frequencies = j.value("frequencies", std::size_t{0});
+  return f;
+}
+
+// ---- joint fit, temperature law, PIN -------------------------------------------------
+
+json simple_fit_json(const SimpleFit& f) {
+  return {{"ok", f.ok},
+          {"message", f.message},
+          {"is_a", estimate_json(f.is_a)},
+          {"n", estimate_json(f.n)},
+          {"rs_ohm", estimate_json(f.rs_ohm)},
+          {"reduced_chi2", nullable(f.reduced_chi2)},
+          {"dc_points", f.dc_points},
+          {"ac_points", f.ac_points}};
+}
+
+json joint_report_json(const JointFitReport& r) {
+  json j{{"dc_only", simple_fit_json(r.dc_only)}, {"ac_only", simple_fit_json(r.ac_only)}, {"joint", simple_fit_json(r.joint)},
+         {"agree", r.agree}, {"agreement", r.agreement}};
+  if (!r.hint.empty()) j["hint"] = r.hint;
+  return j;
+}
+
+json temperature_fit_json(const TemperatureFit& f) {
+  json temps = json::array();
+  for (std::size_t i = 0; i < f.temps_k.size(); ++i)
+    temps.push_back({{"temp_k", f.temps_k[i]}, {"ln_is_residual", i < f.residuals_ln_is.size() ? json(f.residuals_ln_is[i]) : json(nullptr)}});
+  json j{{"status", f.ok ? "ok" : "failed"},
+         {"message", f.message},
+         {"tnom_k", f.tnom_k},
+         {"n", f.n},
+         {"is_a", estimate_json(f.is_a)},
+         {"eg_ev", estimate_json(f.eg_ev)},
+         {"xti", estimate_json(f.xti)},
+         {"trs1_per_k", estimate_json(f.trs1_per_k)},
+         {"rs_ohm", estimate_json(f.rs_ohm)},
+         {"corr_eg_xti", nullable(f.corr_eg_xti)},
+         {"reduced_chi2", f.reduced_chi2},
+         {"dof", f.dof},
+         {"temperatures", temps},
+         {"notes", f.notes}};
+  j["xti"]["held"] = f.xti_held;
+  j["trs1_per_k"]["resolved"] = f.trs_resolved;
+  return j;
+}
+
+json pin_fit_json(const PinFit& f) {
+  return {{"ok", f.ok},
+          {"message", f.message},
+          {"n", estimate_json(f.n)},
+          {"tau_s", estimate_json(f.tau_s)},
+          {"r0_ohm", estimate_json(f.r0_ohm)},
+          {"k_ohm_a_x", estimate_json(f.k_ohm_a_x)},
+          {"x", estimate_json(f.x)},
+          {"r_1ma_ohm", estimate_json(f.r_1ma_ohm)},
+          {"knee_freq_hz", f.knee_freq_hz},
+          {"parameter_names", f.parameter_names},
+          {"covariance", f.covariance},
+          {"reduced_chi2", f.reduced_chi2},
+          {"points", f.points},
+          {"frequencies", f.frequencies},
+          {"above_knee", f.above_knee}};
+}
+
+json pin_off_fit_json(const PinOffFit& f) {
+  return {{"ok", f.ok},       {"message", f.message},   {"ct_f", estimate_json(f.ct_f)}, {"rp_ohm", estimate_json(f.rp_ohm)},
+          {"reduced_chi2", nullable(f.reduced_chi2)}, {"points", f.points}};
+}
+
+}  // namespace junco::fitting
