@@ -123,7 +123,7 @@ ElectroThermalFit fit_electrothermal(std::span<const IvPoint> dc, std::span<cons
   }
   const double z_load = cathode_load_ohm(fixture);
   for (const auto& p : ac) {
-    if (!(p.vin > 0.0 && p.vout > 0.0 && p.bias_i_a > 0.0 && p.freq_hz >= 0.0)) continue;
+    if (!p.usable()) continue;
     cost->ac.push_back({p.bias_i_a, 20.0 * std::log10(p.vout / p.vin), 2.0 * std::numbers::pi * p.freq_hz * o.cj_f, z_load,
                         1.0 / o.ac_sigma_db});
   }

@@ -59,7 +59,7 @@ void refine_ac_with_cj(std::span<const AcPoint> ac, const Fixture& fixture, cons
   ceres::Problem problem;
   std::size_t used = 0;
   for (const auto& p : ac) {
-    if (!(p.vin > 0.0 && p.vout > 0.0 && p.bias_i_a > 0.0)) continue;
+    if (!p.usable()) continue;
     problem.AddResidualBlock(new ceres::AutoDiffCostFunction<AcOnlyCost, 1, 2>(new AcOnlyCost{
                                  p.bias_i_a, 20.0 * std::log10(p.vout / p.vin), vt,
                                  2.0 * std::numbers::pi * p.freq_hz * o.cj_f, z_load, 1.0 / o.ac_sigma_db}),
@@ -157,7 +157,7 @@ SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, co
   }
   const double z_load = cathode_load_ohm(fixture);
   for (const auto& p : ac) {
-    if (!(p.vin > 0.0 && p.vout > 0.0 && p.bias_i_a > 0.0)) continue;
+    if (!p.usable()) continue;
     const double omega_cj = 2.0 * std::numbers::pi * p.freq_hz * o.cj_f;
     problem.AddResidualBlock(
         new ceres::AutoDiffCostFunction<AcCost, 1, 3>(new AcCost{
@@ -214,7 +214,7 @@ SimpleFit fit_ac_only(std::span<const AcPoint> ac, const Fixture& fixture, const
   double s_w = 0, s_x = 0, s_y = 0, s_xx = 0, s_xy = 0;
   std::vector<std::array<double, 3>> rows;  // x, rd, weight
   for (const auto& p : ac) {
-    if (!(p.vin > 0.0 && p.vout > 0.0 && p.bias_i_a > 0.0)) continue;
+    if (!p.usable()) continue;
     const double g = p.vout / p.vin;
     const double rd = z * (1.0 / g - 1.0);
     const double sigma = z / g * o.ac_sigma_db * std::log(10.0) / 20.0;

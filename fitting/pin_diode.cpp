@@ -127,7 +127,7 @@ PinFit fit_pin_law(std::span<const AcPoint> ac_in, const Fixture& fixture, const
   std::vector<AcPoint> ac;
   std::set<double> freqs;
   for (const auto& p : ac_in)
-    if (p.vin > 0.0 && p.vout > 0.0 && p.bias_i_a > 0.0 && p.freq_hz > 0.0) {
+    if (p.usable() && p.freq_hz > 0.0) {
       ac.push_back(p);
       freqs.insert(p.freq_hz);
     }

@@ -31,6 +31,7 @@
 #include "fitting/diode.hpp"
 #include "fitting/junction_charge.hpp"
 
+#include <cmath>
 #include <complex>
 #include <limits>
 #include <span>
@@ -100,6 +101,17 @@ struct AcPoint {
   double vin = 0.0;   // ch1, fixture input
   double vout = 0.0;  // ch2, fixture output
   double peak_per_unit = 1.4142135623730951;  // peak volts per reading unit: √2 for Vrms readings, ½ for Vpp
+
+  // The one rule for a reading any AC fit may take at all: both levels and
+  // the bias finite and positive, the frequency finite and ≥ 0 (NaN, ±inf,
+  // zero or negative levels fail). Fits of a frequency
+  // dependence (stored charge, PIN law) need freq_hz > 0 besides; which
+  // usable readings the small-signal model can describe is
+  // screen_ac_readings (joint_fit.hpp).
+  bool usable() const {
+    const auto positive = [](double x) { return x > 0.0 && std::isfinite(x); };
+    return positive(vin) && positive(vout) && positive(bias_i_a) && freq_hz >= 0.0 && std::isfinite(freq_hz);
+  }
 };
 
 struct AcResidual {
