@@ -201,9 +201,7 @@ fitting::ParameterCovariance design_covariance(const FitRecord& fit) {
     ivj = c.names[k] == "vj_v" ? k : ivj;
     im = c.names[k] == "m" ? k : im;
   }
-  const Json& cap = fit.detail.contains("junction_cap") ? fit.detail["junction_cap"] : Json();
-  if (ivj < n && im < n && cap.is_object() && cap.value("vj_m_correlation", Json()).is_number()) {
-    const double rho = cap["vj_m_correlation"].get<double>();
+  if (const double rho = fit.junction_cap ? fit.junction_cap->vj_m_correlation : kNaN; ivj < n && im < n && std::isfinite(rho)) {
     c.matrix[ivj][im] = c.matrix[im][ivj] = rho * std::sqrt(c.matrix[ivj][ivj] * c.matrix[im][im]);
   }
   std::string names;

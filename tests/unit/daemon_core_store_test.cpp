@@ -680,3 +680,78 @@ TEST_CASE("typed fit reports go through the store and reach the API as the fitti
   CHECK(readings[1]["c_f"].is_null());
   CHECK(readings[1]["left_out"] == "below the level floor");
 }
+
+// design_covariance read the VJ–M correlation from detail.junction_cap after
+// the store had moved that report into its typed row, so the correlation was
+// dropped. cov(VJ, M) = ρ·u(VJ)·u(M): the definition of the correlation
+// coefficient (GUM, JCGM 100:2008, C.3.6).
+TEST_CASE("the capacitance law's VJ-M correlation reaches the design covariance from the typed report") {
+  FitRecord f;
+  f.id = 3;
+  f.fit.parameter_names = {"is_a", "n", "rs_ohm"};
+  f.fit.covariance = {{1e-22, 0, 0}, {0, 1e-6, 0}, {0, 0, 1e-4}};
+  f.cj0_f = {1e-12, 1e-14};
+  f.vj_v = {0.7, 0.05};
+  f.m = {0.45, 0.02};
+  JunctionCapReport cap;
+  cap.ok = true;
+  cap.vj_m_correlation = 0.93;
+  f.junction_cap = cap;
+  const auto c = design_covariance(f);
+  std::size_t ivj = c.names.size(), im = c.names.size();
+  for (std::size_t k = 0; k < c.names.size(); ++k) {
+    if (c.names[k] == "vj_v") ivj = k;
+    if (c.names[k] == "m") im = k;
+  }
+  REQUIRE(ivj < c.names.size());
+  REQUIRE(im < c.names.size());
+  CHECK(c.matrix[ivj][im] == Approx(0.93 * 0.05 * 0.02));
+  CHECK(c.matrix[im][ivj] == Approx(0.93 * 0.05 * 0.02));
+}
+
+// The heating and stored-charge reports are read into typed rows: one of the
+// wrong shape is damage, a StoreError naming the fit and the report (juncod
+// answers it as a storage error, -32004), never a value passed on.
+TEST_CASE("a damaged heating or stored-charge report is a StoreError naming the report") {
+  TempDir dir;
+  const fs::path file = dir.path / "junco.db";
+  Id part = 0;
+  {
+    Store s(file);
+    part = s.ensure_part(s.ensure_lot("QX-7"), "QX-7-01", 1);
+    const Id job = s.insert_job(plan_json(), 3, 1000, 42);
+    const RunRecord run = s.ensure_run(job, part, 1, RunFixture{}, 300.15);
+    junco::fitting::FitResult fit;
+    fit.status = junco::fitting::FitStatus::converged;
+    fit.points_used = 5;
+    MoreReports more;
+    more.heating.emplace();
+    more.heating->pulsed_readings = 3;
+    more.stored_charge.emplace();
+    more.stored_charge->ok = true;
+    more.stored_charge->tt_s = {4e-9, 1e-10};
+    s.insert_fit(part, run.id, fit, nullptr, nullptr, more);
+    const auto stored = s.latest_fit(part);
+    REQUIRE(stored);
+    REQUIRE(stored->heating);
+    CHECK(stored->heating->pulsed_readings == 3);
+    CHECK(stored->tt_s.value == 4e-9);  // served as tt_s from the typed report
+  }
+  // The store reads heating before stored_charge: damage the later one first.
+  for (const auto& [damage, report] :
+       {std::pair{"UPDATE fits SET detail = json_set(detail, '$.stored_charge.tt_s', json('[1, 2]'))", "detail.stored_charge"},
+        std::pair{"UPDATE fits SET detail = json_set(detail, '$.heating.pulsed_readings', 'three')", "detail.heating"}}) {
+    INFO(damage);
+    sqlite3* db = nullptr;
+    REQUIRE(sqlite3_open(file.c_str(), &db) == SQLITE_OK);
+    REQUIRE(sqlite3_exec(db, damage, nullptr, nullptr, nullptr) == SQLITE_OK);
+    sqlite3_close(db);
+    Store fresh(file);
+    try {
+      fresh.latest_fit(part);
+      FAIL("damage not noticed");
+    } catch (const StoreError& e) {
+      CHECK(std::string(e.what()).find(std::string(report) + " damaged") != std::string::npos);
+    }
+  }
+}
