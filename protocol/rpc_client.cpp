@@ -6,6 +6,7 @@
 #include <sys/un.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <cerrno>
 #include <cstring>
 #include <utility>
@@ -46,18 +47,22 @@ RpcClient::~RpcClient() {
   if (fd_ >= 0) ::close(fd_);
 }
 
+void RpcClient::send_raw(const std::string& bytes) {
+  std::size_t sent = 0;
+  while (sent < bytes.size()) {
+    const auto n = ::send(fd_, bytes.data() + sent, bytes.size() - sent, MSG_NOSIGNAL);
+    if (n < 0 && errno == EINTR) continue;
+    if (n <= 0) throw ConnectError("juncod at " + path_ + " closed the connection: " + std::strerror(errno));
+    sent += static_cast<std::size_t>(n);
+  }
+}
+
 Json RpcClient::call(const std::string& method, Json params, std::chrono::milliseconds timeout) {
   const long id = next_id_++;
   auto line = Json{{"jsonrpc", "2.0"}, {"id", id}, {"method", method}, {"params", std::move(params)}}.dump(
       -1, ' ', false, Json::error_handler_t::replace);
   line.push_back('\n');
-  std::size_t sent = 0;
-  while (sent < line.size()) {
-    const auto n = ::send(fd_, line.data() + sent, line.size() - sent, MSG_NOSIGNAL);
-    if (n < 0 && errno == EINTR) continue;
-    if (n <= 0) throw ConnectError("juncod at " + path_ + " closed the connection: " + std::strerror(errno));
-    sent += static_cast<std::size_t>(n);
-  }
+  send_raw(line);
   const auto deadline = std::chrono::steady_clock::now() + timeout;
   for (;;) {
     auto msg = read_message(deadline);
@@ -92,16 +97,18 @@ std::optional<Json> RpcClient::next_notification(std::chrono::milliseconds timeo
   }
 }
 
-std::optional<Json> RpcClient::read_message(std::chrono::steady_clock::time_point deadline) {
+std::optional<std::string> RpcClient::take_line() {
+  const auto nl = buffer_.find('\n');
+  if (nl == std::string::npos) return std::nullopt;
+  std::string line = buffer_.substr(0, nl);
+  buffer_.erase(0, nl + 1);
+  return line;
+}
+
+RpcClient::Fill RpcClient::fill(std::chrono::steady_clock::time_point deadline) {
   for (;;) {
-    if (const auto nl = buffer_.find('\n'); nl != std::string::npos) {
-      Json msg = Json::parse(buffer_.begin(), buffer_.begin() + static_cast<long>(nl), nullptr, false);
-      buffer_.erase(0, nl + 1);
-      if (msg.is_discarded()) throw std::runtime_error("juncod sent a line that is not JSON");
-      return msg;
-    }
     const auto left = std::chrono::duration_cast<std::chrono::milliseconds>(deadline - std::chrono::steady_clock::now());
-    if (left.count() <= 0) return std::nullopt;
+    if (left.count() <= 0) return Fill::timeout;
     pollfd p{fd_, POLLIN, 0};
     const int r = ::poll(&p, 1, static_cast<int>(std::min<long>(left.count(), 60000)));
     if (r < 0 && errno == EINTR) continue;
@@ -109,10 +116,44 @@ std::optional<Json> RpcClient::read_message(std::chrono::steady_clock::time_poin
     char chunk[65536];
     const auto n = ::recv(fd_, chunk, sizeof chunk, 0);
     if (n < 0 && errno == EINTR) continue;
-    if (n <= 0) throw ConnectError("juncod at " + path_ + " closed the connection");
+    if (n <= 0) return Fill::closed;
     buffer_.append(chunk, static_cast<std::size_t>(n));
     if (buffer_.size() > max_reply_bytes) throw std::runtime_error("reply from juncod larger than 64 MiB");
+    return Fill::data;
   }
+}
+
+std::optional<Json> RpcClient::read_message(std::chrono::steady_clock::time_point deadline) {
+  for (;;) {
+    if (auto line = take_line()) {
+      Json msg = Json::parse(*line, nullptr, false);
+      if (msg.is_discarded()) throw std::runtime_error("juncod sent a line that is not JSON");
+      return msg;
+    }
+    const Fill f = fill(deadline);
+    if (f == Fill::timeout) return std::nullopt;
+    if (f == Fill::closed) throw ConnectError("juncod at " + path_ + " closed the connection");
+  }
+}
+
+std::optional<std::string> RpcClient::read_line(std::chrono::milliseconds timeout) {
+  const auto deadline = std::chrono::steady_clock::now() + timeout;
+  for (;;) {
+    if (auto line = take_line()) return line;
+    if (fill(deadline) != Fill::data) return std::nullopt;
+  }
+}
+
+Json RpcClient::read_json(std::chrono::milliseconds timeout) {
+  auto line = read_line(timeout);
+  if (!line) throw std::runtime_error("no reply from juncod within " + std::to_string(timeout.count()) + " ms");
+  return Json::parse(*line);
+}
+
+Json RpcClient::request(const std::string& method, Json params, long id) {
+  if (params.is_null()) params = Json::object();  // `{}` at a call site means "no params"
+  send_raw(Json{{"jsonrpc", "2.0"}, {"id", id}, {"method", method}, {"params", std::move(params)}}.dump() + "\n");
+  return read_json();
 }
 
 }  // namespace junco::cli

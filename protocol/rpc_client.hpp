@@ -54,7 +54,30 @@ class RpcClient {
 
   const std::string& path() const { return path_; }
 
+  // ---- The wire itself -------------------------------------------------------
+  // For tests of the protocol (garbage, oversize and half lines, pipelining,
+  // an error reply as received); the CLI uses call() only. One receive buffer
+  // serves both, so mixing them loses no bytes.
+
+  // Sends exactly these bytes (no newline added). Throws ConnectError.
+  void send_raw(const std::string& bytes);
+  // The next line as received, without its newline; nullopt on timeout or
+  // when juncod closed the connection (never throws for either).
+  std::optional<std::string> read_line(std::chrono::milliseconds timeout = std::chrono::seconds(3));
+  // The next line as JSON: std::runtime_error when none came in time,
+  // nlohmann::json::parse_error when it is not JSON.
+  Json read_json(std::chrono::milliseconds timeout = std::chrono::seconds(3));
+  // Sends one request with this id and returns the next line as JSON: the
+  // reply as received, an error not thrown. params null is sent as {}.
+  Json request(const std::string& method, Json params = Json::object(), long id = 1);
+  // The socket, for a test that shuts one direction (shutdown(2)) or polls it.
+  int fd() const { return fd_; }
+
  private:
+  enum class Fill { data, timeout, closed };
+  // Reads what is there into buffer_, waiting until deadline at most.
+  Fill fill(std::chrono::steady_clock::time_point deadline);
+  std::optional<std::string> take_line();
   std::optional<Json> read_message(std::chrono::steady_clock::time_point deadline);
 
   std::string path_;
