@@ -435,6 +435,8 @@ class CoreService final : public Service {
     const auto run = run_of(part, params);
     if (!run) throw NotFound("part " + std::to_string(part.id) + " has no run", "part_id", part.id);
     const auto fit = usable_fit(part, "to model the transfer with");
+    // The part type its plan measured it as (a run without its job: a junction).
+    if (const auto job = store_.job(run->job_id)) o.part_type = part_type_from_string(job->plan.part_type).value_or(PartType::junction);
     return transfer_report(part, *run, *fit, store_.points(run->id), o);
   }
 

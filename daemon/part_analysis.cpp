@@ -216,6 +216,7 @@ fitting::LotPart lot_part(const PartRow& part, const FitRecord& fit) {
   lp.cj0_f = fit.cj0_f.value;
   lp.vj_v = fit.vj_v.value;
   lp.m = fit.m.value;
+  lp.pin = pin_part_of_fit(fit);
   return lp;
 }
 
@@ -224,7 +225,15 @@ fitting::LotPart lot_part(const PartRow& part, const FitRecord& fit) {
 // (detail.electrothermal): its isothermal Rs then agrees with the Rs the AC
 // readings give alone, within 3 combined standard errors (our bound, no
 // source), where the DC-only Rs does not.
-std::string transfer_verdict(const Json& joint, const FitRecord& fit) {
+std::optional<PartType> part_type_from_string(const std::string& text) {
+  if (text == "junction") return PartType::junction;
+  if (text == "pin") return PartType::pin;
+  return std::nullopt;
+}
+
+std::string transfer_verdict(const Json& joint, const FitRecord& fit, PartType type) {
+  if (type == PartType::pin)
+    return "PIN part: the junction model does not describe AC readings above the lifetime's knee (part.fit pin holds the PIN law)";
   if (joint.value("agree", false)) return "agree";
   const Json ac = joint.contains("ac_only") ? joint["ac_only"].value("rs_ohm", Json()) : Json();
   const auto number = [](const Json& j, const char* k) { return j.is_object() && j.value(k, Json()).is_number() ? j[k].get<double>() : kNaN; };
@@ -244,7 +253,7 @@ Json transfer_report(const PartRow& part, const RunRecord& run, const FitRecord&
   const fitting::AcPart ac_part{r.params(), options.cj_f};
   const std::vector<fitting::AcPoint> all = ac_points(points);
   // A PIN part's readings are screened by the charge criterion with its fitted τ (fitting/pin_diode.hpp).
-  const auto pin = pin_part_of_fit(fit);
+  const auto pin = options.part_type == PartType::pin ? pin_part_of_fit(fit) : std::nullopt;
   const auto left_out = pin ? fitting::screen_pin_ac_readings(all, fx, pin->law.tau_s, options.max_signal_ratio, options.ac_floor_v)
                             : fitting::screen_ac_readings(all, fx, {options.max_signal_ratio, options.ac_floor_v});
   std::vector<fitting::AcPoint> used;
@@ -291,13 +300,8 @@ Json transfer_report(const PartRow& part, const RunRecord& run, const FitRecord&
   const auto dc = dc_fit_points(points);
   const auto rep = fitting::compare_dc_and_joint(dc, used, fx, jo);
   out["joint"] = fitting::joint_report_json(rep);
-  out["joint"]["verdict"] = transfer_verdict(out["joint"], fit);
-  if (pin) {
-    // The junction's rd = N·Vt/I does not describe a PIN above its knee: a
-    // disagreement here is not self-heating.
-    out["joint"].erase("hint");
-    out["joint"]["verdict"] = "PIN part: the junction model does not describe AC readings above the lifetime's knee (part.fit pin holds the PIN law)";
-  }
+  out["joint"]["verdict"] = transfer_verdict(out["joint"], fit, options.part_type);
+  if (options.part_type == PartType::pin) out["joint"].erase("hint");  // not self-heating (transfer_verdict)
   return out;
 }
 

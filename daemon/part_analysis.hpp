@@ -83,7 +83,14 @@ fitting::ParameterCovariance design_covariance(const FitRecord& fit);
 // The fit as lot statistics take it (its capacitance law when it has one).
 fitting::LotPart lot_part(const PartRow& part, const FitRecord& fit);
 
+// What a part was measured as (plan.part_type): a junction diode or a PIN
+// diode. It decides which model the transfer verdict judges the AC readings by.
+enum class PartType { junction, pin };
+// "junction" or "pin" (plan.part_type's spelling); nullopt for another text.
+std::optional<PartType> part_type_from_string(const std::string& text);
+
 struct TransferOptions {
+  PartType part_type = PartType::junction;  // the plan's part_type of the run's job
   fitting::AccuracyModel accuracy;  // of the DC readings (the bench config's)
   double ac_sigma_db = 0.01;  // standard uncertainty of one AC ratio reading
   double cj_f = 0.0;          // junction capacitance for the AC model (0: ignored)
@@ -96,8 +103,17 @@ struct TransferOptions {
 // part.transfer's result: per-point measured/model/residual (and whether the
 // point is used, or why not), the RMS over the used points, and
 // the DC-only and joint fits with the agreement verdict (null without AC readings).
+// A PIN part's readings are screened by the charge criterion with its fitted τ.
 Json transfer_report(const PartRow& part, const RunRecord& run, const FitRecord& fit, const std::vector<PointRow>& points,
                      const TransferOptions& options);
+
+// The joint fit's verdict for a part of the given type. junction: "agree",
+// "consistent once heating is modelled" (the stored electro-thermal fit's Rs
+// agrees with the AC-only Rs) or "DISAGREE". pin: the junction's rd = N·Vt/I
+// does not describe a PIN above its lifetime's knee, so the junction fit's
+// agreement is no verdict on the part: the verdict says so and points at the
+// PIN law (part.fit pin); the joint fit's self-heating hint does not apply.
+std::string transfer_verdict(const Json& joint, const FitRecord& fit, PartType type);
 
 // lot.stats's result: the statistics of the lot's fitted parts (mean, std
 // dev, range, median, MAD, outliers per quantity; matched sets; the median

@@ -270,6 +270,23 @@ class Run {
 
 // ---- the calculators --------------------------------------------------------
 
+// Where a calculator gives the diode's dissipation: the junction temperature
+// from the application's thermal resistance, Tj = Ta + θ·P (JESD51 θJA,
+// docs/references.md §8), with P as computed at the run's junction
+// temperature (junction-temp iterates the two together). No θ: no Tj.
+std::vector<DesignInputSpec> thermal_inputs() {
+  return {optional_input("theta_k_per_w", "theta", "K/W", "thermal resistance junction-ambient (gives tj_k; none without)", InputRange::non_negative),
+          optional_input("ambient_k", "ambient", "K", "ambient, with theta", InputRange::positive)};
+}
+void report_tj(Run& r, double diode_w) {
+  if (!r.has("theta_k_per_w")) {
+    if (r.has("ambient_k")) throw DesignInputError("ambient_k", "ambient_k: goes with theta_k_per_w (--theta); without it no Tj is computed");
+    return;
+  }
+  if (!r.has("ambient_k")) throw DesignInputError("ambient_k", "ambient_k: missing; theta_k_per_w (--theta) needs the ambient (--ambient) for tj_k");
+  r.result("tj_k", "junction temperature Ta + theta*P", r.number("ambient_k") + r.number("theta_k_per_w") * diode_w, "K");
+}
+
 void op(Run& r) {
   r.assume_all();
   const auto& p = r.part();
@@ -278,6 +295,8 @@ void op(Run& r) {
   r.result("diode_voltage_v", "diode voltage", o.vd_v, "V");
   r.result("resistor_drop_v", "resistor drop", o.v_rb_v, "V");
   r.result("rd_ohm", "rd (small-sig)", o.rd_ohm, "Ohm");
+  if (r.has("theta_k_per_w")) r.result("diode_power_w", "diode power I*Vd", o.i_a * o.vd_v, "W");
+  report_tj(r, o.i_a * o.vd_v);
 }
 
 void bias_r(Run& r) {
@@ -324,9 +343,17 @@ void bias_for_loss(Run& r) {
   r.assume_all();
   const auto& p = r.part();
   std::string why;
-  const auto i = bias_for_loss_a(r.kind(), p.dc, p.charge(), r.number("target_db"), r.number("rg_ohm"),
-                                 r.number("rl_ohm"), r.number("freq_hz"), series_l(r), p.temp_k, &why);
+  // A PIN part: the current at which its law Z(ω) at the frequency meets the target (as pin_loss computes the loss).
+  const auto pin_loss_at = [&](double i) {
+    const double f = r.number("freq_hz");
+    const auto z = pin_on_impedance(p.pin->law, i, f, p.temp_k) + std::complex<double>(0.0, 2.0 * std::numbers::pi * f * r.number("ls_h"));
+    return switch_loss_db(r.kind(), z, r.number("rg_ohm"), r.number("rl_ohm"));
+  };
+  const auto i = p.pin ? bias_for_loss_a(r.kind(), pin_loss_at, r.number("target_db"), "R0", &why)
+                       : bias_for_loss_a(r.kind(), p.dc, p.charge(), r.number("target_db"), r.number("rg_ohm"),
+                                         r.number("rl_ohm"), r.number("freq_hz"), series_l(r), p.temp_k, &why);
   if (!i) return r.not_achievable(why);
+  if (p.pin) r.result_text("law", "loss from", "PIN law R0 + K*I^-x and lifetime tau at the frequency");
   r.result("bias_current_a", "bias current", *i, "A");
   if (!r.has("supply_v")) return;
   const auto rb = bias_resistor_ohm(p.dc, r.number("supply_v"), *i, 0.0, p.temp_k, &why);
@@ -374,22 +401,20 @@ void harmonics(Run& r, const DistortionResult& d) {
 void pin_distortion(Run& r, const PinPart& pin, const DistortionInput& in) {
   const double i = in.bias_i_a, f = in.freq_hz;
   const std::complex<double> z = pin_on_impedance(pin.law, i, f, in.temp_k);
-  const double signal_peak_a = in.source_peak_v / std::abs(in.rg_ohm + in.rl_ohm + z);  // series switch loop
+  const double signal_peak_a = std::abs(element_current_a(in.kind, z, in.source_peak_v, in.rg_ohm, in.rl_ohm));
   const double ratio = signal_peak_a / (std::numbers::pi * f) / (i * pin.law.tau_s);
   r.result("signal_peak_a", "signal current (peak)", signal_peak_a, "A");
   r.result("stored_charge_c", "stored charge I*tau", i * pin.law.tau_s, "C");
   r.result("rf_charge_ratio", "RF charge per half cycle / stored charge", ratio, "");
-  if (in.kind == SwitchKind::series) {
-    // The charge-control PIN in the series switch, time domain (pin_series_distortion).
-    const PinDistortion d = pin_series_distortion(pin.law, in.part.is_a, i, f, in.source_peak_v, in.rg_ohm, in.rl_ohm, in.temp_k);
-    r.result("load_peak_v", "load fundamental (peak)", d.load_peak_v, "V");
-    r.result("hd2_dbc", "HD2", d.hd2_dbc, "dBc");
-    r.result("hd3_dbc", "HD3", d.hd3_dbc, "dBc");
-    r.result("thd_pct", "THD", 100 * d.thd, "%");
-    if (!d.converged) r.warn("the PIN large-signal solve did not reach a periodic state");
-  } else {
-    r.warn("PIN part, shunt switch: harmonics are not computed; distortion is small while rf_charge_ratio is well below 1");
-  }
+  // The charge-control PIN in the switch, time domain (pin_series_distortion, pin_shunt_distortion).
+  const PinDistortion d = in.kind == SwitchKind::series
+                              ? pin_series_distortion(pin.law, in.part.is_a, i, f, in.source_peak_v, in.rg_ohm, in.rl_ohm, in.temp_k)
+                              : pin_shunt_distortion(pin.law, in.part.is_a, i, f, in.source_peak_v, in.rg_ohm, in.rl_ohm, in.temp_k);
+  r.result("load_peak_v", "load fundamental (peak)", d.load_peak_v, "V");
+  r.result("hd2_dbc", "HD2", d.hd2_dbc, "dBc");
+  r.result("hd3_dbc", "HD3", d.hd3_dbc, "dBc");
+  r.result("thd_pct", "THD", 100 * d.thd, "%");
+  if (!d.converged) r.warn("the PIN large-signal solve did not reach a periodic state");
   if (ratio > 0.1) r.warn("the RF charge per half cycle exceeds 0.1 of the stored charge: expect distortion; raise the bias");
 }
 
@@ -460,6 +485,7 @@ void power(Run& r) {
   r.result("bias_current_a", "bias current", o.i_a, "A");
   r.result("diode_power_w", "diode power", c.diode_w, "W");
   r.result("resistor_power_w", "resistor power", c.resistor_w, "W");
+  report_tj(r, c.diode_w);
   for (const auto& w : c.warnings) r.warn(w);
   for (const auto& f : c.failures) r.fail(f);
 }
@@ -565,6 +591,11 @@ void bias_network_calc(Run& r) {
   net.feed_diode = r.text("feed_diode") == "same";
   net.rg_ohm = r.number("rg_ohm");
   net.rl_ohm = r.number("rl_ohm");
+  net.mount = r.kind();
+  const bool on = r.text("state") == "on";
+  if (!on && net.feed_diode)
+    throw DesignInputError("feed_diode", "feed_diode: the off state is computed without an isolating diode (the two junctions would share "
+                                         "the reverse bias by their leakage)");
   const double f_lo = r.number("freq_low_hz"), f_hi = r.number("freq_high_hz"), ratio = r.number("ratio");
   net.cblock_f = r.has("cblock_f") ? r.number("cblock_f") : block_capacitor_f(f_lo, net.rg_ohm, net.rl_ohm, ratio);
   net.choke_h = r.has("choke_h") ? r.number("choke_h") : choke_inductance_h(f_lo, net.rg_ohm, net.rl_ohm, ratio);
@@ -575,30 +606,46 @@ void bias_network_calc(Run& r) {
   r.result("choke_h", r.has("choke_h") ? "choke (given)" : "choke (|XL| = ratio*Z0 at f low)", net.choke_h, "H");
   r.result("thevenin_v", "feed drive Vs*Rgnd/(Rb+Rgnd)", b.thevenin_v, "V");
   r.result("thevenin_ohm", "feed resistance Rb||Rgnd", b.thevenin_ohm, "Ohm");
-  r.result("bias_current_a", "diode current", b.i_a, "A");
-  r.result("diode_voltage_v", "diode voltage", b.vd_v, "V");
-  // The band on a log grid (24 points a decade, both edges): the worst of each.
+  if (on) {
+    r.result("bias_current_a", "diode current", b.i_a, "A");
+    r.result("diode_voltage_v", "diode voltage", b.vd_v, "V");
+  } else {
+    r.result("reverse_v", "reverse bias of the diode (supply reversed, leakage neglected)", b.thevenin_v, "V");
+  }
+  // The band on a log grid (24 points a decade, both edges): the worst of
+  // each. The passing state (series on, shunt off) reports insertion loss,
+  // the blocking state isolation (docs/names.md): its worst is the least.
+  const bool passes = on == (net.mount == SwitchKind::series);
+  const double sign = passes ? 1.0 : -1.0;
   double worst_loss = -inf, worst_added = -inf, worst_leak = -inf;
   NetworkResponse lo{}, hi{};
   const int steps = std::max(2, static_cast<int>(std::ceil(24.0 * std::log10(f_hi / f_lo))));
   for (int k = 0; k <= steps; ++k) {
     const double f = f_lo * std::pow(f_hi / f_lo, static_cast<double>(k) / steps);
-    const auto x = network_response(net, p.dc, p.charge(), b.i_a, f, p.temp_k);
+    const auto x = on ? network_response(net, p.dc, p.charge(), b.i_a, f, p.temp_k)
+                      : network_response(net, diode_off_impedance(p.dc, p.charge(), b.thevenin_v, f, {}, p.temp_k), {}, f);
     if (k == 0) lo = x;
     if (k == steps) hi = x;
-    worst_loss = std::max(worst_loss, x.loss_db);
-    worst_added = std::max(worst_added, x.loss_db - x.bare_loss_db);
+    worst_loss = std::max(worst_loss, sign * x.loss_db);
+    worst_added = std::max(worst_added, sign * (x.loss_db - x.bare_loss_db));
     worst_leak = std::max(worst_leak, x.supply_leak_db);
   }
-  r.result("loss_low_db", "insertion loss at f low", lo.loss_db, "dB");
-  r.result("loss_high_db", "insertion loss at f high", hi.loss_db, "dB");
-  r.result("max_loss_db", "insertion loss, worst in the band", worst_loss, "dB");
-  r.result("added_loss_db", "added by the network, worst in the band", worst_added, "dB");
+  if (passes) {
+    r.result("loss_low_db", "insertion loss at f low", lo.loss_db, "dB");
+    r.result("loss_high_db", "insertion loss at f high", hi.loss_db, "dB");
+    r.result("max_loss_db", "insertion loss, worst in the band", worst_loss, "dB");
+    r.result("added_loss_db", "added by the network, worst in the band", worst_added, "dB");
+  } else {
+    r.result("isolation_low_db", "isolation at f low", lo.loss_db, "dB");
+    r.result("isolation_high_db", "isolation at f high", hi.loss_db, "dB");
+    r.result("min_isolation_db", "isolation, worst (least) in the band", -worst_loss, "dB");
+    r.result("lost_isolation_db", "isolation taken away by the network, worst in the band", worst_added, "dB");
+  }
   r.result("supply_leak_db", "RF into the supply line, worst in the band", worst_leak, "dB");
   const double z0 = std::max(net.rg_ohm, net.rl_ohm);
   if (net.ferrite_r_ohm > 0 && net.ferrite_r_ohm < ratio * z0)
     r.warn("the ferrite's R (" + junco::units::format_si(net.ferrite_r_ohm, "ohm") + ") is below ratio x Z0: it loads the signal at high frequency");
-  if (b.i_a <= 0) r.not_achievable("the feed drives no forward current");
+  if (on && b.i_a <= 0) r.not_achievable("the feed drives no forward current");
 }
 
 void series_shunt_calc(Run& r) {
@@ -683,8 +730,8 @@ const std::vector<CalculatorRow>& calculator_rows() {
   using R = InputRange;
   static const std::vector<CalculatorRow> table{
       {{"op", "operating point: supply and bias resistor -> bias current and diode voltage (exact, Lambert W)", true,
-       {required("supply_v", "supply", "V", "supply", R::positive), required("bias_resistor_ohm", "bias-resistor", "Ohm", "bias resistor", R::non_negative),
-        with_default("dc_return_ohm", "dc-return", "Ohm", "DC return", 0.0, R::non_negative)}}, op},
+       join({required("supply_v", "supply", "V", "supply", R::positive), required("bias_resistor_ohm", "bias-resistor", "Ohm", "bias resistor", R::non_negative),
+             with_default("dc_return_ohm", "dc-return", "Ohm", "DC return", 0.0, R::non_negative)}, thermal_inputs())}, op},
       {{"bias-r", "bias resistor for a target current: Rb = (Vs - Vd(I))/I - Rr", true,
        {required("supply_v", "supply", "V", "supply", R::positive), required("current_a", "current", "A", "target current", R::positive),
         with_default("dc_return_ohm", "dc-return", "Ohm", "DC return", 0.0, R::non_negative)}}, bias_r},
@@ -719,7 +766,8 @@ const std::vector<CalculatorRow>& calculator_rows() {
        {required("supply_v", "supply", "V", "supply", R::positive), required("bias_resistor_ohm", "bias-resistor", "Ohm", "bias resistor", R::non_negative),
         with_default("signal_peak_a", "signal-peak", "A", "signal peak", 0.0, R::non_negative),
         optional_input("max_diode_w", "max-diode", "W", "diode limit", R::positive),
-        optional_input("max_resistor_w", "max-resistor", "W", "resistor limit", R::positive)}}, power},
+        optional_input("max_resistor_w", "max-resistor", "W", "resistor limit", R::positive),
+        thermal_inputs()[0], thermal_inputs()[1]}}, power},
       {{"off-headroom",
        "off-state headroom: the reverse bias must exceed the RF peak on the off junction (plus a margin) and, with BV, "
        "reverse bias + RF peak stay below BV (less the margin); pass or fail with the numbers", true,
@@ -737,9 +785,11 @@ const std::vector<CalculatorRow>& calculator_rows() {
                  rf_drive_inputs()),
             circuit_inputs(true))}, junction_temp_calc},
       {{"bias-network",
-       "series switch with its bias network (DC blocks, chokes or ferrites R||L, feed and ground-return resistors, "
-       "optional isolating diode) sized for a band: values, diode current, loss and RF into the supply", true,
-       join({required("supply_v", "supply", "V", "supply", R::positive), required("bias_resistor_ohm", "bias-resistor", "Ohm", "bias resistor", R::non_negative),
+       "series or shunt switch with its bias network (DC blocks, chokes or ferrites R||L, feed and ground-return resistors, "
+       "optional isolating diode) sized for a band, on or off (supply reversed): values, diode current, loss or isolation "
+       "and RF into the supply", true,
+       join({switch_input(), {"state", "state", "", "bias state (off: the supply reversed)", std::nullopt, false, R::any, {"on", "off"}, {}},
+             required("supply_v", "supply", "V", "supply", R::positive), required("bias_resistor_ohm", "bias-resistor", "Ohm", "bias resistor", R::non_negative),
              with_default("rground_ohm", "rground", "Ohm", "ground-return resistor", inf, R::positive, "none"),
              {"feed_diode", "feed-diode", "", "isolating diode in the feed", std::nullopt, false, R::any, {"none", "same"}, {}},
              with_default("freq_low_hz", "freq-low", "Hz", "band low edge", 1e6, R::positive),

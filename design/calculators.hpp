@@ -46,7 +46,7 @@ struct DesignPart {
   JunctionCap cap;  // cj0_f = 0: unknown
   double tt_s = 0.0;  // transit time TT (diffusion charge TT·Id); 0 = none or unknown
   JunctionCharge charge() const { return {cap, tt_s}; }
-  // A PIN part: loss uses its law Z(ω) = R0 + rd/(1 + jωτ) + R_I·jωτ/(1 + jωτ)
+  // A PIN part: loss uses its law Z(ω) = R0 + rd/(1 + jωτ) + R_I·(1 + jωτ − x)/(1 + jωτ)
   // and isolation CT ∥ Rp (fitting/pin_diode.hpp) in place of rd, Cj(V), TT.
   std::optional<PinPart> pin;
   // The parameters' covariance (design_uncertainty.hpp), at temp_k. With it

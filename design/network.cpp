@@ -152,24 +152,30 @@ NetworkBias network_bias(const BiasNetwork& net, const DiodeParams& p, double te
 
 NetworkResponse network_response(const BiasNetwork& net, const DiodeParams& p, const JunctionCharge& charge,
                                  double bias_i_a, double freq_hz, double temp_k) {
-  const double w = two_pi * freq_hz;
   const cplx zd = diode_small_signal_impedance(p, charge, bias_i_a, freq_hz, temp_k);
+  return network_response(net, zd, zd, freq_hz);
+}
+
+NetworkResponse network_response(const BiasNetwork& net, cplx zd, cplx z_feed, double freq_hz) {
+  const double w = two_pi * freq_hz;
   const cplx y_block(0.0, w * net.cblock_f);
   const cplx y_choke = 1.0 / cplx(0.0, w * net.choke_h) + (present(net.ferrite_r_ohm) ? 1.0 / net.ferrite_r_ohm : 0.0);
-  // Nodes: 1 source side of the first block, 2 anode, 3 cathode, 4 load,
-  // 5 feed point F, 6 G (the supply side of the isolating diode; G = F without it).
-  enum { p1 = 1, a = 2, k = 3, p2 = 4, f = 5 };
-  const int g = net.feed_diode ? 6 : f;
+  const bool series = net.mount == SwitchKind::series;
+  // Nodes, series: 1 source side of the first block, 2 anode, 3 cathode, 4
+  // load, 5 feed point F, 6 G (the supply side of the isolating diode; G = F
+  // without it). Shunt: 1 source side, 2 the line (anode), 3 load, 4 F, 5 G.
+  const int p1 = 1, a = 2, k = series ? 3 : 0, p2 = series ? 4 : 3, f = series ? 5 : 4;
+  const int g = net.feed_diode ? f + 1 : f;
   Nodal n(g);
   n.current_into(p1, 1.0 / net.rg_ohm);  // EMF 1 V behind Rg, as a Norton source
   n.admittance(p1, 0, 1.0 / net.rg_ohm);
   n.admittance(p1, a, y_block);
-  n.admittance(a, k, 1.0 / zd);
-  n.admittance(k, p2, y_block);
+  n.admittance(a, k, 1.0 / zd);  // shunt: k is ground
+  n.admittance(series ? k : a, p2, y_block);
   n.admittance(p2, 0, 1.0 / net.rl_ohm);
   n.admittance(a, f, y_choke);
-  n.admittance(k, 0, y_choke);
-  if (net.feed_diode) n.admittance(f, g, 1.0 / zd);
+  if (series) n.admittance(k, 0, y_choke);
+  if (net.feed_diode) n.admittance(f, g, 1.0 / z_feed);
   n.admittance(g, 0, 1.0 / net.rbias_ohm);
   if (present(net.rground_ohm)) n.admittance(g, 0, 1.0 / net.rground_ohm);
   if (net.cbypass_f > 0) n.admittance(g, 0, cplx(0.0, w * net.cbypass_f));
@@ -177,7 +183,7 @@ NetworkResponse network_response(const BiasNetwork& net, const DiodeParams& p, c
   const double direct = net.rl_ohm / (net.rg_ohm + net.rl_ohm);
   NetworkResponse r;
   r.loss_db = 20.0 * std::log10(direct / std::abs(v[p2 - 1]));
-  r.bare_loss_db = series_loss_db(zd, net.rg_ohm, net.rl_ohm);
+  r.bare_loss_db = switch_loss_db(net.mount, zd, net.rg_ohm, net.rl_ohm);
   r.supply_leak_db = 20.0 * std::log10(std::abs(v[g - 1]) / direct);
   return r;
 }

@@ -91,6 +91,25 @@ JunctionHeating junction_heating(SwitchKind kind, const DiodeParams& p_tnom, con
 //                                 Rgnd ─ ground (ground-return resistor)
 //                                 (and an optional bypass capacitor G to ground)
 //
+// A shunt switch (mount shunt) as it is built: the line between the two DC
+// blocks carries the anode, the cathode goes to ground, and the feed comes in
+// through the choke at the line:
+//
+//   Rg ─ Cb ─ L ─ Cb ─ RL                 L: the line node, the anode
+//             │  │
+//             ▼ choke ─ F ─[isolating diode]─ G ─ Rb ─ supply (Rgnd, bypass at G as above)
+//             │
+//           ground (cathode)
+//
+// The DC loop is the same as the series switch's (its cathode choke is a
+// short at DC), so network_bias holds for both.
+//
+// Off state (the supply reversed, −Vs): the diode is reverse biased by the
+// feed's Thevenin voltage (its leakage through Rb∥Rgnd neglected: IS·Rth is
+// far below a volt) and is RS + its junction at −Vth (Cj(V)). An isolating
+// diode would share the reverse bias with it by leakage, which is not
+// modelled: the off state is without one.
+//
 // The choke is an inductor L, or a ferrite modelled as R∥L (0 Ω at DC). The
 // DC loop sees the supply through the divider Rb/Rgnd: Vth = Vs·Rgnd/(Rb +
 // Rgnd), Rth = Rb∥Rgnd, and the current is the exact solution of Vth = I·Rth
@@ -105,6 +124,7 @@ struct BiasNetwork {
   double ferrite_r_ohm = 0.0;    // > 0: the chokes are ferrites, R∥L
   double cbypass_f = 0.0;        // > 0: a bypass capacitor from G to ground
   double rg_ohm = 50.0, rl_ohm = 50.0;
+  SwitchKind mount = SwitchKind::series;
 };
 
 // Sizing for a band from f_low (the reactances are worst at the low edge):
@@ -127,6 +147,11 @@ struct NetworkResponse {
 };
 NetworkResponse network_response(const BiasNetwork& net, const DiodeParams& p, const JunctionCharge& charge,
                                  double bias_i_a, double freq_hz, double temp_k);
+// The same with the diodes' impedances given (the off state: z_diode the
+// reverse-biased diode): z_feed is the isolating diode's, used with
+// net.feed_diode only. bare_loss_db is switch_loss_db(net.mount, z_diode).
+NetworkResponse network_response(const BiasNetwork& net, std::complex<double> z_diode, std::complex<double> z_feed,
+                                 double freq_hz);
 
 // ---- d. topologies -------------------------------------------------------------
 // Series zs then shunt zsh across the load, between Rg and RL.

@@ -53,6 +53,11 @@ std::optional<double> bias_for_loss_a(SwitchKind kind, const DiodeParams& p, con
                                       double target_db, double rg_ohm, double rl_ohm, double freq_hz,
                                       const Parasitics& par, double temp_k, std::string* why) {
   const auto loss = [&](double i) { return on_state_loss_db(kind, p, charge, i, rg_ohm, rl_ohm, freq_hz, par, temp_k); };
+  return bias_for_loss_a(kind, loss, target_db, "Rs", why);
+}
+
+std::optional<double> bias_for_loss_a(SwitchKind kind, const std::function<double(double)>& loss, double target_db,
+                                      const std::string& limit, std::string* why) {
   const bool series = kind == SwitchKind::series;
   const auto meets = [&](double db) { return series ? db <= target_db : db >= target_db; };
   // Scan log(I) from a leakage-level to an unreasonably high bias in steps of
@@ -71,7 +76,7 @@ std::optional<double> bias_for_loss_a(SwitchKind kind, const DiodeParams& p, con
   if (!(hi > 0.0)) {
     if (why)
       *why = std::string("target ") + (series ? "insertion loss" : "isolation") +
-             " cannot be reached: even 10 A gives " + std::to_string(loss(hi_a)) + " dB (limited by Rs, Ls and the capacitances)";
+             " cannot be reached: even 10 A gives " + std::to_string(loss(hi_a)) + " dB (limited by " + limit + ", Ls and the capacitances)";
     return std::nullopt;
   }
   for (int k = 0; k < 200 && hi / lo > 1.0 + 1e-12; ++k) {

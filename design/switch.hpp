@@ -19,6 +19,7 @@
 #include "fitting/junction_charge.hpp"
 
 #include <complex>
+#include <functional>
 #include <optional>
 #include <string>
 
@@ -57,6 +58,13 @@ std::complex<double> diode_off_impedance(const DiodeParams& p, const JunctionCha
 std::optional<double> bias_for_loss_a(SwitchKind kind, const DiodeParams& p, const JunctionCharge& charge,
                                       double target_db, double rg_ohm, double rl_ohm, double freq_hz,
                                       const Parasitics& par, double temp_k, std::string* why = nullptr);
+
+// The same search over any biased-state loss as a function of the bias
+// current (a PIN part's law Z(ω), fitting/pin_diode.hpp): the least bias in
+// 1 nA … 10 A at which loss_db_at(I) meets target_db (series: at most, shunt:
+// at least). limit names what bounds the loss in the message ("Rs", "R0").
+std::optional<double> bias_for_loss_a(SwitchKind kind, const std::function<double(double)>& loss_db_at, double target_db,
+                                      const std::string& limit, std::string* why = nullptr);
 
 // Biased-state loss (series: insertion loss; shunt: isolation) at a bias current.
 double on_state_loss_db(SwitchKind kind, const DiodeParams& p, const JunctionCharge& charge, double bias_i_a,

@@ -111,6 +111,35 @@ LotStats one_lot(const std::string& lot, const std::vector<const LotPart*>& part
     s.nominal_vj_v = median_of(vj);
     s.nominal_m = median_of(m);
   }
+  // The PIN law, over the parts fitted as PIN parts (K spans decades: its
+  // outliers on log10, like Is); the off state over those that have one.
+  std::vector<std::string> with_pin, with_off;
+  std::vector<double> r0, k, x, tau, r1ma, ct, rp;
+  for (const auto* p : parts) {
+    if (!p->pin) continue;
+    with_pin.push_back(p->label);
+    r0.push_back(p->pin->law.r0_ohm);
+    k.push_back(p->pin->law.k_ohm_a_x);
+    x.push_back(p->pin->law.x);
+    tau.push_back(p->pin->law.tau_s);
+    r1ma.push_back(pin_rf_resistance_ohm(p->pin->law, 1e-3));
+    if (p->pin->ct_f > 0 && std::isfinite(p->pin->rp_ohm)) {
+      with_off.push_back(p->label);
+      ct.push_back(p->pin->ct_f);
+      rp.push_back(p->pin->rp_ohm);
+    }
+  }
+  if (!with_pin.empty()) {
+    s.quantities.push_back(describe("r0_ohm", with_pin, r0, false));
+    s.quantities.push_back(describe("k_ohm_a_x", with_pin, k, true));
+    s.quantities.push_back(describe("x", with_pin, x, false));
+    s.quantities.push_back(describe("tau_s", with_pin, tau, true));
+    s.quantities.push_back(describe("r_1ma_ohm", with_pin, r1ma, false));
+  }
+  if (!with_off.empty()) {
+    s.quantities.push_back(describe("ct_f", with_off, ct, false));
+    s.quantities.push_back(describe("rp_ohm", with_off, rp, true));
+  }
   return s;
 }
 

@@ -9,8 +9,10 @@
 #pragma once
 
 #include "fitting/diode.hpp"
+#include "fitting/pin_diode.hpp"
 
 #include <limits>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -25,12 +27,16 @@ struct LotPart {
   double cj0_f = std::numeric_limits<double>::quiet_NaN();
   double vj_v = std::numeric_limits<double>::quiet_NaN();
   double m = std::numeric_limits<double>::quiet_NaN();
+  // A PIN part's law and off state, when its fit made one (pin_diode.hpp).
+  std::optional<PinPart> pin = std::nullopt;
 };
 
 inline constexpr double outlier_z_threshold = 3.5;
 
 struct QuantityStats {
-  std::string name;    // "is_a", "n", "rs_ohm", "vf_v@0.01A", "rd_ohm@0.01A"; "cj0_f", "vj_v", "m" when measured
+  std::string name;    // "is_a", "n", "rs_ohm", "vf_v@0.01A", "rd_ohm@0.01A"; "cj0_f", "vj_v", "m" when measured;
+                       // over the PIN parts: "r0_ohm", "k_ohm_a_x", "x", "tau_s", "r_1ma_ohm" (the law at 1 mA),
+                       // and "ct_f", "rp_ohm" over those with an off state
   std::size_t count = 0;
   double mean = 0.0, std_dev = 0.0, min = 0.0, max = 0.0, median = 0.0, mad = 0.0;
   std::vector<std::string> outliers;  // labels

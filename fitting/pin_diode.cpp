@@ -110,7 +110,7 @@ std::complex<double> pin_on_impedance(const PinLaw& law, double i_a, double freq
   const double rd = law.n * thermal_voltage_v(temp_k) / i_a;
   const double r_i = law.k_ohm_a_x * std::pow(i_a, -law.x);
   const std::complex<double> jwt(0.0, 2.0 * std::numbers::pi * freq_hz * law.tau_s);
-  return law.r0_ohm + rd / (1.0 + jwt) + r_i * jwt / (1.0 + jwt);
+  return law.r0_ohm + rd / (1.0 + jwt) + r_i * (1.0 + jwt - law.x) / (1.0 + jwt);
 }
 
 std::complex<double> pin_off_impedance(double ct_f, double rp_ohm, double freq_hz) {
@@ -283,26 +283,39 @@ std::vector<std::string> screen_pin_ac_readings(std::span<const AcPoint> ac, con
   return why;
 }
 
-PinDistortion pin_series_distortion(const PinLaw& law, double is_a, double ib, double freq_hz, double amp_v, double rg, double rl,
-                                    double temp_k, int n) {
+namespace {
+
+// The charge-control PIN in a switch, time domain: the series and the shunt
+// mount differ only in the block's current and the load's voltage at a state
+// (charge q, EMF e, block voltage vcb). Periodic steady state by shooting on
+// (q at t = 0, vcb), RK4 over one period; harmonics of the load voltage (DFT).
+PinDistortion pin_switch_distortion(const PinLaw& law, double is_a, double ib, double freq_hz, double amp_v, double rg, double rl,
+                                    double temp_k, int n, bool shunt) {
   const double nvt = law.n * thermal_voltage_v(temp_k), w = 2.0 * std::numbers::pi * freq_hz, h = 1.0 / (freq_hz * n);
   const auto r_i = [&](double q) { return law.k_ohm_a_x * std::pow(std::max(q, 1e-30) / law.tau_s, -law.x); };
   const auto v_j = [&](double q) { return nvt * std::log1p(std::max(q, 0.0) / (law.tau_s * is_a)); };
-  // Loop current through Rg at charge q, EMF e, block voltage vcb:
-  // e − vcb = Rg·ig + (R0 + R_I)·(Ib + ig) + v_j + RL·(Ib + ig).
-  const auto ig_of = [&](double q, double e, double vcb) {
+  const double g = 1.0 / rg + 1.0 / rl;
+  // The block's current at charge q, EMF e, block voltage vcb.
+  //   series: e − vcb = Rg·ig + (R0 + R_I)·(Ib + ig) + v_j + RL·(Ib + ig)
+  //   shunt:  e/Rg − G·(vcb + R·(Ib + ic) + v_j) = ic
+  const auto ic_of = [&](double q, double e, double vcb) {
     const double r = law.r0_ohm + r_i(q);
-    return (e - vcb - v_j(q) - (r + rl) * ib) / (rg + rl + r);
+    return shunt ? (e / rg - g * (vcb + r * ib + v_j(q))) / (1.0 + g * r) : (e - vcb - v_j(q) - (r + rl) * ib) / (rg + rl + r);
   };
-  const auto dq = [&](double q, double t, double vcb) { return ib + ig_of(q, amp_v * std::sin(w * t), vcb) - q / law.tau_s; };
-  // One period from q0: q(T) and the mean loop current (RK4).
-  std::vector<double> ig(static_cast<std::size_t>(n));
+  // The load's AC voltage: series RL·ig (the bias's RL·Ib is DC), shunt the line node.
+  const auto load_v = [&](double e, double ic) { return shunt ? (e - rg * ic) * rl / (rg + rl) : rl * ic; };
+  const auto dq = [&](double q, double t, double vcb) { return ib + ic_of(q, amp_v * std::sin(w * t), vcb) - q / law.tau_s; };
+  // One period from q0: q(T) and the mean block current (RK4).
+  std::vector<double> ic(static_cast<std::size_t>(n)), vo(static_cast<std::size_t>(n));
   const auto period = [&](double q0, double vcb, bool keep) {
     double q = q0, mean = 0.0;
     for (int s = 0; s < n; ++s) {
-      const double t = s * h;
-      const double i_now = ig_of(q, amp_v * std::sin(w * t), vcb);
-      if (keep) ig[static_cast<std::size_t>(s)] = i_now;
+      const double t = s * h, e = amp_v * std::sin(w * t);
+      const double i_now = ic_of(q, e, vcb);
+      if (keep) {
+        ic[static_cast<std::size_t>(s)] = i_now;
+        vo[static_cast<std::size_t>(s)] = load_v(e, i_now);
+      }
       mean += i_now / n;
       const double k1 = dq(q, t, vcb), k2 = dq(q + 0.5 * h * k1, t + 0.5 * h, vcb), k3 = dq(q + 0.5 * h * k2, t + 0.5 * h, vcb),
                    k4 = dq(q + h * k3, t + h, vcb);
@@ -310,8 +323,10 @@ PinDistortion pin_series_distortion(const PinLaw& law, double is_a, double ib, d
     }
     return std::pair<double, double>{q, mean};
   };
-  // Shooting: F(q0, vcb) = (q(T) − q0, mean ig) = 0, Newton with finite differences.
-  double q0 = ib * law.tau_s, vcb = -(v_j(q0) + (pin_rf_resistance_ohm(law, ib) + rl) * ib);
+  // Shooting: F(q0, vcb) = (q(T) − q0, mean ic) = 0, Newton with finite differences.
+  // The block's DC voltage: series −(v_j + (R + RL)·Ib) (the EMF side at 0), shunt −(v_j + R·Ib).
+  double q0 = ib * law.tau_s;
+  double vcb = -(v_j(q0) + (pin_rf_resistance_ohm(law, ib) + (shunt ? 0.0 : rl)) * ib);
   PinDistortion out;
   for (int it = 0; it < 50; ++it) {
     const auto [q1, m] = period(q0, vcb, false);
@@ -334,19 +349,31 @@ PinDistortion pin_series_distortion(const PinLaw& law, double is_a, double ib, d
   std::vector<double> mag(10, 0.0);
   for (int k = 1; k < 10; ++k) {
     std::complex<double> s = 0;
-    for (int j = 0; j < n; ++j) s += ig[static_cast<std::size_t>(j)] * std::polar(1.0, -2.0 * std::numbers::pi * k * j / n);
+    for (int j = 0; j < n; ++j) s += vo[static_cast<std::size_t>(j)] * std::polar(1.0, -2.0 * std::numbers::pi * k * j / n);
     mag[static_cast<std::size_t>(k)] = 2.0 * std::abs(s) / n;
   }
   double sum2 = 0.0;
   for (int k = 2; k < 10; ++k) sum2 += mag[static_cast<std::size_t>(k)] * mag[static_cast<std::size_t>(k)];
-  out.load_peak_v = rl * mag[1];
+  out.load_peak_v = mag[1];
   out.hd2_dbc = 20.0 * std::log10(mag[2] / mag[1]);
   out.hd3_dbc = 20.0 * std::log10(mag[3] / mag[1]);
   out.thd = std::sqrt(sum2) / mag[1];
-  const auto [lo, hi] = std::minmax_element(ig.begin(), ig.end());
+  const auto [lo, hi] = std::minmax_element(ic.begin(), ic.end());
   out.min_current_a = ib + *lo;
   out.max_current_a = ib + *hi;
   return out;
+}
+
+}  // namespace
+
+PinDistortion pin_series_distortion(const PinLaw& law, double is_a, double ib, double freq_hz, double amp_v, double rg, double rl,
+                                    double temp_k, int n) {
+  return pin_switch_distortion(law, is_a, ib, freq_hz, amp_v, rg, rl, temp_k, n, false);
+}
+
+PinDistortion pin_shunt_distortion(const PinLaw& law, double is_a, double ib, double freq_hz, double amp_v, double rg, double rl,
+                                   double temp_k, int n) {
+  return pin_switch_distortion(law, is_a, ib, freq_hz, amp_v, rg, rl, temp_k, n, true);
 }
 
 }  // namespace junco::fitting

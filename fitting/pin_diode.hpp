@@ -10,8 +10,10 @@
 // Small signal at bias I and angular frequency ω, linearising the charge
 // equation (our derivation, docs/fitting.md "PIN diodes"): the signal charge
 // is q = i·τ/(1 + jωτ); the junction's voltage follows q (v_j = rd·q/τ,
-// rd = N·Vt/I) and the I-region's drop is i·R_I − R_I·q/τ, so
-//   Z(ω) = R0 + rd/(1 + jωτ) + R_I·jωτ/(1 + jωτ).
+// rd = N·Vt/I) and the I-region's drop I·R_I(Q) moves by R_I·i + I·dR_I/dQ·q
+// = R_I·i − x·R_I·q/τ (R_I = K·(Q/τ)^−x), so
+//   Z(ω) = R0 + rd/(1 + jωτ) + R_I·(1 + jωτ − x)/(1 + jωτ).
+// (At DC the I-region adds (1 − x)·R_I, the slope of its drop K·I^(1−x).)
 // Below the knee f_τ = 1/(2π τ) the part is a junction (rd + R0; with x = 1
 // the I-region's DC drop is independent of I); above it the charge cannot
 // follow the signal, the junction is shorted by its diffusion capacitance
@@ -128,5 +130,14 @@ struct PinDistortion {
 };
 PinDistortion pin_series_distortion(const PinLaw& law, double is_a, double bias_i_a, double freq_hz, double source_peak_v,
                                     double rg_ohm, double rl_ohm, double temp_k, int steps_per_period = 512);
+
+// The same solve in a shunt switch: source EMF → Rg → line node (RL to
+// ground) → DC block → anode (bias current I_b fed in, open at AC) → PIN →
+// ground. With G = 1/Rg + 1/RL the block's current is
+// i_c = (e/Rg − G·(v_cb + R·I_b + v_j)) / (1 + G·R), R = R0 + R_I(Q); the
+// line voltage (the load's) is (e − Rg·i_c)·RL/(Rg + RL); the harmonics are
+// of that voltage. load_peak_v its fundamental, min/max_current_a the PIN's.
+PinDistortion pin_shunt_distortion(const PinLaw& law, double is_a, double bias_i_a, double freq_hz, double source_peak_v,
+                                   double rg_ohm, double rl_ohm, double temp_k, int steps_per_period = 512);
 
 }  // namespace junco::fitting

@@ -77,3 +77,56 @@ TEST_CASE("part.fit recovers the PIN law and lifetime of junco-sim's PIN part", 
     if (l["key"] == "loss_db") loss_db = l["value"].get<double>();
   CHECK(loss_db == Approx(20.0 * std::log10(1.0 + v("r_1ma_ohm") / 100.0)).margin(0.01));
 }
+
+TEST_CASE("lot.stats gives the spread of the PIN law over a lot of junco-sim PIN parts", "[daemon][pin]") {
+  // Two PIN parts of one seeded lot (RS, hence R0, differs by the lot's 8 %
+  // spread, docs/sim.md). lot.stats's PIN rows are checked against a hand
+  // calculation over the two parts' own part.fit values: mean, sample
+  // standard deviation |a − b|/√2, min and max.
+  const std::string config = "/tmp/junco-pin-lot-" + std::to_string(getpid()) + ".json";
+  {
+    std::ofstream f(config);
+    f << R"({"thermal": {"theta_k_per_w": 0},
+             "nominal": {"type": "pin", "n": 2.0, "is_a": 5e-10, "rs_ohm": 0.3, "tt_s": 2e-7, "cj0_f": 3e-13, "m": 0.1,
+                         "i_region_width_m": 3e-5, "mobility_sum_m2_per_v_s": 0.183}})";
+  }
+  test::BenchDaemon b("pinlot", {"--settle-ms", "0", "--config", config});
+  const Json plan{{"lot", "WREN-0912"},
+                  {"part_type", "pin"},
+                  {"parts", {{{"slot", 1}, {"label", "PIN-1"}}, {{"slot", 2}, {"label", "PIN-2"}}}},
+                  {"sweep", {{"mode", "current"}, {"spacing", "log"}, {"start", 1e-4}, {"stop", 0.02}, {"count", 8}, {"settle_s", 0}}},
+                  {"reverse_v", {1, 3, 5}},
+                  {"ac", {{"freqs_hz", {3e4, 3e5, 1e6, 3e6, 3e7, 1e8}}, {"amplitude", 0.02}, {"unit", "vrms"}, {"settle_s", 0},
+                          {"off_state", {{"amplitude", 0.05}, {"freqs_hz", {3e7, 1e8}}}}}}};
+  b.run_plan(plan);
+  std::remove(config.c_str());
+  const Json f1 = b.result("part.fit", {{"part_id", 1}}), f2 = b.result("part.fit", {{"part_id", 2}});
+  REQUIRE(f1["pin"]["ok"] == true);
+  REQUIRE(f2["pin"]["ok"] == true);
+  const Json st = b.result("lot.stats", {{"lot", "WREN-0912"}});
+  CHECK(test::schema_problem(test::api_schema("lot.stats")["result"], st) == "");
+  const auto row = [&](const std::string& name) {
+    for (const auto& q : st["quantities"])
+      if (q["name"] == name) return q;
+    FAIL("no quantity " << name << " in " << st["quantities"].dump());
+    return Json();
+  };
+  for (const std::string name : {"r0_ohm", "k_ohm_a_x", "x", "tau_s", "r_1ma_ohm"}) {
+    const double a = f1["pin"][name]["value"].get<double>(), c = f2["pin"][name]["value"].get<double>();
+    const Json q = row(name);
+    INFO(name << ": parts " << a << ", " << c << "; lot.stats " << q.dump());
+    CHECK(q["count"] == 2);
+    CHECK(q["mean"].get<double>() == Approx((a + c) / 2).epsilon(1e-9));
+    CHECK(q["std_dev"].get<double>() == Approx(std::abs(a - c) / std::sqrt(2.0)).epsilon(1e-6));
+    CHECK(q["min"].get<double>() == Approx(std::min(a, c)).epsilon(1e-9));
+    CHECK(q["max"].get<double>() == Approx(std::max(a, c)).epsilon(1e-9));
+  }
+  for (const std::string name : {"ct_f", "rp_ohm"}) {
+    const double a = f1["pin"]["off_state"][name]["value"].get<double>(), c = f2["pin"]["off_state"][name]["value"].get<double>();
+    const Json q = row(name);
+    INFO(name << ": parts " << a << ", " << c << "; lot.stats " << q.dump());
+    CHECK(q["mean"].get<double>() == Approx((a + c) / 2).epsilon(1e-9));
+    CHECK(q["max"].get<double>() == Approx(std::max(a, c)).epsilon(1e-9));
+  }
+  WARN("lot.stats PIN rows: r0_ohm " << row("r0_ohm").dump() << "; tau_s " << row("tau_s").dump());
+}

@@ -323,6 +323,105 @@ TEST_CASE("bias-network: diode current and loss and supply leakage match ngspice
   CHECK(worst < 0.01);
 }
 
+namespace {
+
+// The shunt switch with its bias network (design/network.hpp): the line
+// between the blocks carries the anode, the cathode is grounded, the feed
+// comes in through the choke. on: the supply as given; off: reversed, no
+// isolating diode. Loss (or isolation) and supply leakage per frequency
+// against ngspice .op and .ac of the full netlist, and the calculator's band
+// edges against the same rows.
+void check_shunt_network(const DesignPart& part, const NetworkCase& c, bool on, double* worst_db) {
+  Json inputs = c.inputs;
+  inputs["switch"] = "shunt";
+  inputs["state"] = on ? "on" : "off";
+  const Json a = run_design("bias-network", &part, inputs);
+  INFO(a.dump());
+  REQUIRE(a["achievable"] == true);
+  const double cb = value_of(a, "cblock_f"), l = value_of(a, "choke_h");
+  const double vs = c.inputs["supply_v"].get<double>(), rb = c.inputs["bias_resistor_ohm"].get<double>();
+  const junco::test::Ngspice ng("shuntnet");
+  std::ostringstream f;
+  f.precision(15);
+  const std::string fe = c.feed_diode ? "f" : "g";
+  f << "shunt switch with its bias network\nV1 s 0 DC 0 AC 1\nRg s p1 50\nCb1 p1 a " << cb << "\nD1 a m dut\nVm m 0 DC 0\nCb2 a p2 " << cb
+    << "\nRL p2 0 50\nL1 a " << fe << " " << l << "\n";
+  if (c.ferrite) f << "Rf1 a " << fe << " " << c.inputs["ferrite_r_ohm"].get<double>() << "\n";
+  if (c.feed_diode) f << "D2 g f dut\n";
+  f << "Rb g sup " << rb << "\nVsup sup 0 DC " << (on ? vs : -vs) << "\n";
+  if (c.inputs.contains("rground_ohm")) f << "Rgnd g 0 " << c.inputs["rground_ohm"].get<double>() << "\n";
+  if (c.bypass) f << "Cbyp g 0 " << c.inputs["cbypass_f"].get<double>() << "\n";
+  f << model_card(part) << ".options reltol=1e-9 abstol=1e-18 vntol=1e-12 temp=27 tnom=27\n.control\nop\nprint i(vm) v(a)\n"
+    << "ac dec 6 1e6 1e9\nset wr_singlescale\nwrdata " << ng.path("ac.txt") << " vm(p2) vm(g)\n.endc\n.end\n";
+  const auto run = ng.run(f.str(), "net");
+  const auto at = run.out.find("i(vm) = ");
+  REQUIRE(at != std::string::npos);
+  const double ngspice_i = std::abs(std::stod(run.out.substr(at + 8)));
+  BiasNetwork net;
+  net.supply_v = vs;
+  net.rbias_ohm = rb;
+  net.rground_ohm = c.inputs.value("rground_ohm", 0.0);
+  net.feed_diode = c.feed_diode;
+  net.cblock_f = cb;
+  net.choke_h = l;
+  net.ferrite_r_ohm = c.inputs.value("ferrite_r_ohm", 0.0);
+  net.cbypass_f = c.inputs.value("cbypass_f", 0.0);
+  net.mount = SwitchKind::shunt;
+  const auto b = network_bias(net, part.dc, part.temp_k);
+  if (on) {
+    CHECK(value_of(a, "bias_current_a") == Approx(ngspice_i).epsilon(1e-6));
+  } else {
+    // The diode's reverse bias is the feed's Thevenin voltage; ngspice's v(a) is its anode.
+    const auto va = run.out.find("v(a) = ");
+    REQUIRE(va != std::string::npos);
+    CHECK(value_of(a, "reverse_v") == Approx(-std::stod(run.out.substr(va + 7))).epsilon(1e-5));
+  }
+  const auto rows = read_columns(ng.path("ac.txt"), 3);
+  REQUIRE(rows.size() == 19);
+  for (const auto& r : rows) {
+    const auto zd = on ? diode_small_signal_impedance(part.dc, part.charge(), b.i_a, r[0], part.temp_k)
+                       : diode_off_impedance(part.dc, part.charge(), b.thevenin_v, r[0], {}, part.temp_k);
+    const auto x = network_response(net, zd, zd, r[0]);
+    const double loss = db(0.5 / r[1]), leak = db(r[2] / 0.5);
+    INFO((on ? "on " : "off ") << r[0] << " Hz: ngspice " << loss << " ours " << x.loss_db << "; leak ngspice " << leak << " ours "
+                               << x.supply_leak_db);
+    CHECK(x.loss_db == Approx(loss).margin(0.1));
+    CHECK(x.supply_leak_db == Approx(leak).margin(0.1));
+    *worst_db = std::max({*worst_db, std::abs(x.loss_db - loss), std::abs(x.supply_leak_db - leak)});
+  }
+  // A biased shunt switch blocks (isolation), an unbiased one passes (insertion loss).
+  CHECK(value_of(a, on ? "isolation_low_db" : "loss_low_db") == Approx(db(0.5 / rows.front()[1])).margin(0.1));
+  CHECK(value_of(a, on ? "isolation_high_db" : "loss_high_db") == Approx(db(0.5 / rows.back()[1])).margin(0.1));
+}
+
+}  // namespace
+
+TEST_CASE("bias-network, shunt switch on and off: diode current, isolation or loss and supply leakage match ngspice, 1 MHz to 1 GHz",
+          "[reference][ngspice]") {
+  // Source: ngspice (Debian package) .op and .ac of the full shunt netlist.
+  // Target (issue 15): 0.1 dB.
+  const DesignPart part = sim_part(5e-9);
+  double worst = 0.0;
+  const NetworkCase plain{{{"supply_v", 5.0}, {"bias_resistor_ohm", 390.0}, {"rground_ohm", 1000.0}}, false, false, false};
+  check_shunt_network(part, plain, true, &worst);
+  check_shunt_network(part, plain, false, &worst);
+  const NetworkCase full{{{"supply_v", 12.0}, {"bias_resistor_ohm", 1000.0}, {"rground_ohm", 2200.0}, {"feed_diode", "same"},
+                          {"ferrite_r_ohm", 300.0}, {"cbypass_f", 100e-12}, {"ratio", 5.0}},
+                         true, true, true};
+  check_shunt_network(part, full, true, &worst);
+  const NetworkCase off{{{"supply_v", 12.0}, {"bias_resistor_ohm", 1000.0}, {"rground_ohm", 2200.0}, {"ferrite_r_ohm", 300.0},
+                         {"cbypass_f", 100e-12}, {"ratio", 5.0}},
+                        false, true, true};
+  check_shunt_network(part, off, false, &worst);
+  WARN("largest difference from ngspice, shunt bias network: " << worst << " dB");
+  CHECK(worst < 0.01);
+  // The off state has no isolating diode (the two junctions would share the reverse bias by leakage).
+  Json with_diode = full.inputs;
+  with_diode["switch"] = "shunt";
+  with_diode["state"] = "off";
+  CHECK_THROWS_AS(run_design("bias-network", &part, with_diode), DesignInputError);
+}
+
 TEST_CASE("bias-network: sized reactances and the Rb/Rgnd divider", "[reference]") {
   // Common practice, no source (docs/references.md §6 [P]): |Xc| = Z0/10 and
   // |XL| = 10*Z0 at the band's low edge; the divider's Thevenin equivalent

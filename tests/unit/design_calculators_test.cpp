@@ -53,8 +53,29 @@ TEST_CASE("E8: bias resistor and the operating point it gives back") {
   // Every input is echoed, the default DC return included.
   std::set<std::string> keys;
   for (const auto& l : op["assumed"]) keys.insert(l["key"].get<std::string>());
-  CHECK(keys == std::set<std::string>{"supply_v", "bias_resistor_ohm", "dc_return_ohm"});
+  CHECK(keys == std::set<std::string>{"supply_v", "bias_resistor_ohm", "dc_return_ohm", "theta_k_per_w", "ambient_k"});
   CHECK(op["part"]["is_a"] == 1e-14);
+}
+
+TEST_CASE("op and power report Tj = Ta + theta*P from the application's theta, by hand; no theta, no Tj") {
+  // Hand calculation (E8's part, 5 V, 427.533 Ω: 10 mA at Vd = 0.724674 V,
+  // docs/references.md E8): P = I·Vd = 7.24674 mW; θ 200 K/W, Ta 298.15 K:
+  // Tj = 298.15 + 200·7.24674e-3 = 299.599 K. With a 20 mA signal peak the
+  // power calculator adds ½·Î²·rd, rd = Vt/I + RS = 25.865e-3/0.01 + 1 = 3.5865 Ω
+  // (Vt at 300.15 K = 25.865 mV): 0.5·4e-4·3.5865 = 0.71730 mW.
+  const auto part = e8_part();
+  const Json op = run_design("op", &part, {{"supply_v", 5.0}, {"bias_resistor_ohm", 427.533}, {"theta_k_per_w", 200.0}, {"ambient_k", 298.15}});
+  CHECK(value_of(op["result"], "diode_power_w") == Approx(0.01 * 0.724674).epsilon(1e-5));
+  CHECK(value_of(op["result"], "tj_k") == Approx(298.15 + 200.0 * 0.01 * 0.724674).margin(1e-3));
+  const Json pw = run_design("power", &part, {{"supply_v", 5.0}, {"bias_resistor_ohm", 427.533}, {"signal_peak_a", 0.02},
+                                              {"theta_k_per_w", 200.0}, {"ambient_k", 298.15}});
+  const double p_hand = 0.01 * 0.724674 + 0.5 * 0.02 * 0.02 * (0.025865 / 0.01 + 1.0);
+  CHECK(value_of(pw["result"], "diode_power_w") == Approx(p_hand).epsilon(1e-4));
+  CHECK(value_of(pw["result"], "tj_k") == Approx(298.15 + 200.0 * p_hand).margin(2e-3));
+  // No theta: no tj_k line; an ambient alone or a theta alone is refused, naming ambient_k.
+  for (const auto& l : run_design("op", &part, {{"supply_v", 5.0}, {"bias_resistor_ohm", 427.533}})["result"]) CHECK(l["key"] != "tj_k");
+  CHECK(field_of("op", &part, {{"supply_v", 5.0}, {"bias_resistor_ohm", 427.533}, {"ambient_k", 298.15}}) == "ambient_k");
+  CHECK(field_of("power", &part, {{"supply_v", 5.0}, {"bias_resistor_ohm", 427.533}, {"theta_k_per_w", 200.0}}) == "ambient_k");
 }
 
 TEST_CASE("E11: series insertion loss and shunt isolation over bias, defaults 50/50 ohm") {

@@ -168,3 +168,50 @@ TEST_CASE("lot statistics: the capacitance law over the parts that have one") {
   for (const auto& q : none.quantities) CHECK(q.name != "cj0_f");
   CHECK(std::isnan(none.nominal_cj0_f));
 }
+
+TEST_CASE("lot statistics: the PIN law over the parts fitted as PIN parts") {
+  // Hand-computed moments (sample standard deviation, n − 1) of the values below.
+  std::vector<LotPart> parts;
+  const double r0[] = {0.30, 0.40, 0.35}, k[] = {0.020, 0.024, 0.022}, x[] = {0.90, 1.00, 0.95}, tau[] = {200e-9, 220e-9, 180e-9};
+  for (int j = 0; j < 3; ++j) {
+    LotPart p{"PIN" + std::to_string(j), "LOT-P", {1e-12, 2.0, 0.3}, 300.15};
+    PinPart pin;
+    pin.law = {2.0, tau[j], r0[j], k[j], x[j]};
+    if (j < 2) {  // the third has no off state
+      pin.ct_f = 0.25e-12 + 0.05e-12 * j;
+      pin.rp_ohm = 20e3;
+    }
+    p.pin = pin;
+    parts.push_back(p);
+  }
+  parts.push_back({"J0", "LOT-P", {1e-9, 1.8, 0.5}, 300.15});  // a junction part: not in the PIN quantities
+  const auto st = lot_statistics(parts).front();
+  const auto find = [&](const std::string& name) -> const QuantityStats* {
+    for (const auto& q : st.quantities)
+      if (q.name == name) return &q;
+    return nullptr;
+  };
+  for (const char* name : {"r0_ohm", "k_ohm_a_x", "x", "tau_s", "r_1ma_ohm", "ct_f", "rp_ohm"}) REQUIRE(find(name) != nullptr);
+  const auto* q = find("r0_ohm");
+  CHECK(q->count == 3);
+  CHECK(q->mean == Approx(0.35));
+  CHECK(q->std_dev == Approx(0.05));  // deviations −0.05, 0.05, 0: sqrt(0.005/2)
+  CHECK(q->min == 0.30);
+  CHECK(q->max == 0.40);
+  CHECK(find("tau_s")->mean == Approx(200e-9));
+  CHECK(find("tau_s")->std_dev == Approx(20e-9));
+  CHECK(find("x")->std_dev == Approx(0.05));
+  CHECK(find("k_ohm_a_x")->max == 0.024);
+  // R(1 mA) = R0 + K·(1e-3)^−x per part.
+  double sum = 0.0;
+  for (int j = 0; j < 3; ++j) sum += r0[j] + k[j] * std::pow(1e-3, -x[j]);
+  CHECK(find("r_1ma_ohm")->mean == Approx(sum / 3));
+  CHECK(find("ct_f")->count == 2);
+  CHECK(find("ct_f")->mean == Approx(0.275e-12));
+  // No PIN part: no PIN quantities.
+  parts.resize(4);
+  parts.erase(parts.begin(), parts.begin() + 3);
+  const auto junction_only = lot_statistics(parts).front();
+  REQUIRE(junction_only.labels.size() == 1);
+  for (const auto& qq : junction_only.quantities) CHECK(qq.name != "r0_ohm");
+}

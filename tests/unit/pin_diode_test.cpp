@@ -38,16 +38,17 @@ constexpr double vt_300_v = 1.380649e-23 * 300.15 / 1.602176634e-19;  // kT/q, C
 struct Truth {
   double n, tau_s, r0_ohm;
   std::function<double(double)> r_i_of_q;  // Ω at stored charge Q [C]
+  double x;                                // −d ln r_i / d ln Q
 };
 
 std::complex<double> truth_impedance(const Truth& t, double i_a, double f_hz) {
   const double q0 = i_a * t.tau_s;
   const double r_i = t.r_i_of_q(q0);
   const double w = 2.0 * std::numbers::pi * f_hz;
-  // q = i·τ/(1 + jωτ); v = R0·i + rd·q/τ + r_i·(i − q/τ)
+  // q = i·τ/(1 + jωτ); v = R0·i + rd·q/τ + r_i·i + I·(dr_i/dQ)·q, and I·dr_i/dQ = −x·r_i/τ
   const std::complex<double> q_per_i = t.tau_s / std::complex<double>(1.0, w * t.tau_s);
   const double rd = t.n * vt_300_v / i_a;
-  return t.r0_ohm + rd * q_per_i / t.tau_s + r_i * (1.0 - q_per_i / t.tau_s);
+  return t.r0_ohm + rd * q_per_i / t.tau_s + r_i * (1.0 - t.x * q_per_i / t.tau_s);
 }
 
 std::vector<AcPoint> readings(const Truth& t, const std::vector<double>& freqs, double sigma_db, unsigned seed) {
@@ -77,7 +78,7 @@ PinFitOptions options(double sigma_db) {
 
 // A practical part: R0 0.4 Ω, R(1 mA) − R0 = 20 Ω with x = 0.9, τ = 200 ns (knee 0.80 MHz).
 const double k_true = 20.0 * std::pow(1e-3, 0.9);
-const Truth practical{2.0, 200e-9, 0.4, [](double q) { return k_true * std::pow(q / 200e-9, -0.9); }};
+const Truth practical{2.0, 200e-9, 0.4, [](double q) { return k_true * std::pow(q / 200e-9, -0.9); }, 0.9};
 const std::vector<double> freqs{50e3, 300e3, 1e6, 3e6, 30e6, 100e6};
 
 }  // namespace
@@ -87,10 +88,10 @@ TEST_CASE("PIN law: R0 + K·I^-x above the knee, rd = N·Vt/I below it") {
   // Far above the knee (1 GHz vs 0.8 MHz) the impedance is the RF resistance.
   const auto z_hi = pin_on_impedance(law, 5e-3, 1e9, t27_k);
   CHECK(z_hi.real() == Approx(pin_rf_resistance_ohm(law, 5e-3)).epsilon(1e-5));
-  // Far below it the part is a junction: R0 + rd (+ the I-region's own
-  // low-frequency term, which vanishes for f → 0 in the linearised charge model).
+  // Far below it the part is a junction, R0 + rd, plus the slope of the
+  // I-region's DC drop K·I^(1−x): (1 − x)·K·I^−x.
   const auto z_lo = pin_on_impedance(law, 5e-3, 1.0, t27_k);
-  CHECK(z_lo.real() == Approx(0.4 + 2.0 * vt_300_v / 5e-3).epsilon(1e-6));
+  CHECK(z_lo.real() == Approx(0.4 + 2.0 * vt_300_v / 5e-3 + 0.1 * k_true * std::pow(5e-3, -0.9)).epsilon(1e-6));
   CHECK(pin_knee_freq_hz(200e-9) == Approx(795774.7).epsilon(1e-6));
 }
 
@@ -133,7 +134,7 @@ TEST_CASE("PIN fit recovers N, tau, R0, K, x from multi-frequency readings; pull
 TEST_CASE("PIN fit against the ideal I-region: R = W^2/((mun + mup) tau I), inversely proportional to Q") {
   // W = 30 µm, silicon µn + µp = (1350 + 480) cm²/Vs = 0.183 m²/Vs, τ = 500 ns.
   constexpr double w_m = 30e-6, mu_m2 = (1350.0 + 480.0) * 1e-4, tau_s = 500e-9;
-  const Truth ideal{2.0, tau_s, 0.0, [](double q) { return w_m * w_m / (mu_m2 * q); }};  // G_I = (µn + µp)·Q/W²
+  const Truth ideal{2.0, tau_s, 0.0, [](double q) { return w_m * w_m / (mu_m2 * q); }, 1.0};  // G_I = (µn + µp)·Q/W²
   const auto fit = fit_pin_law(readings(ideal, {30e3, 300e3, 1e6, 10e6, 100e6}, 0.01, 7), Fixture{}, options(0.01));
   REQUIRE(fit.ok);
   const double k_published = w_m * w_m / (mu_m2 * tau_s);  // 9.84e-3 Ω·A
