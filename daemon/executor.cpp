@@ -33,12 +33,16 @@ using Clock = std::chrono::steady_clock;
 constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
 
 // Current-targeted steps: corrections of the supply voltage per step, and
-// the tolerance that ends them (common practice, no source).
+// the tolerance that ends them (common practice, no source). Bounded steps
+// (target_current) do not count as corrections; kMaxTargetReadings caps all.
 constexpr int kTargetIterations = 5;
+constexpr int kMaxTargetReadings = 24;
 constexpr double kTargetTolerance = 0.02;
 constexpr double kOffTarget = 0.05;
 // Diode voltage assumed before the first reading of a current-targeted sweep.
 constexpr double kFirstVfGuessV = 0.5;
+// The largest change of the supply in one correction (common practice, no source).
+constexpr double kMaxTargetStepV = 0.5;
 
 // Why a job stops before its end; thrown out of the step loop.
 struct JobStop {
@@ -688,24 +692,41 @@ class JobRun {
     }
   }
 
+  // Sets the supply so that the part carries target_a: a first guess from
+  // the last step's Vf, then secant corrections on (supply, current), or the
+  // fixture resistance plus a generous junction rd ≈ 2·Vt/I before two
+  // readings differ. Each correction is bounded: at most kMaxTargetStepV
+  // either way, so a part whose Vf is far above the guess (a series stack, a
+  // high-N part) is approached in steps and not by one jump (was: straight to
+  // max_supply_v, into the current limit, which ended the part's forward
+  // sweep); and never up by more than r·((1 − tolerance)·compliance − I): the
+  // current rises by at most 1/r per volt (the junction's rd only adds to r),
+  // so no reading reaches the plan's compliance on the way. A bounded step
+  // does not count as one of the kTargetIterations corrections (at most
+  // kMaxTargetReadings readings in all), so a part that needs no bound is
+  // measured exactly as before.
   void target_current(double target_a, PointRow& p, bool pulsed) {
     const double r = cfg_.fixture.bias_resistor_ohm + cfg_.fixture.dc_return_ohm;
+    const double up_room_a = (1.0 - kTargetTolerance) * compliance_a(plan_, cfg_);
     double v_set = target_a * r + vf_guess_v_;
     double prev_v = NAN, prev_i = NAN;
-    for (int k = 0; k < kTargetIterations; ++k) {
+    int budget = kTargetIterations;
+    for (int k = 0; k < budget && k < kMaxTargetReadings; ++k) {
       apply_bias(v_set, pulsed);  // each correction of a pulsed step is a pulse from cold
       read_dc(p);
       if (p.flags & kLimitFlags) return;
       if (std::fabs(p.i_a - target_a) <= kTargetTolerance * target_a) break;
-      // Secant on (supply, current) when two readings differ; else the
-      // fixture resistance plus a generous junction rd ≈ 2·Vt/I.
       double slope = 0;
       if (std::isfinite(prev_v) && std::fabs(p.i_a - prev_i) > 1e-12 && std::fabs(v_set - prev_v) > 1e-9)
         slope = (p.i_a - prev_i) / (v_set - prev_v);
       if (!(slope > 0)) slope = 1.0 / (r + 0.05 / std::max(std::fabs(p.i_a), 1e-9));
       prev_v = v_set;
       prev_i = p.i_a;
-      v_set = std::clamp(v_set + (target_a - p.i_a) / slope, 0.0, cfg_.safety.max_supply_v);
+      const double step = (target_a - p.i_a) / slope;
+      const double up_bound = std::min(kMaxTargetStepV, std::max(0.0, r * (up_room_a - p.i_a)));
+      const double bounded = std::clamp(step, -kMaxTargetStepV, up_bound);
+      if (bounded != step) ++budget;
+      v_set = std::clamp(v_set + bounded, 0.0, cfg_.safety.max_supply_v);
     }
     if (std::fabs(p.i_a - target_a) > kOffTarget * target_a) p.flags |= flag_off_target;
     if (std::isfinite(p.v)) vf_guess_v_ = p.v;

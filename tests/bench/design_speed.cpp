@@ -3,10 +3,12 @@
 // nominal part with its junction capacitance and a 5 ns transit time, at
 // 1 MHz, 100 MHz and 1 GHz. The target (issue 15) is ≤ 10 ms per answer,
 // distortion included. Prints, per case over REPS runs, the median and worst
-// wall-clock time and the median CPU time of the calling thread (on a shared,
-// loaded machine the CPU time is what the calculator costs; the wall clock
-// adds the time other processes had the core). Exits 1 when the worst median
-// CPU time is above the target.
+// wall-clock time and the median and worst CPU time of the calling thread (on
+// a shared, loaded machine the CPU time is what the calculator costs; the
+// wall clock adds the time other processes had the core), and the load
+// average (1/5/15 min) before and after, so a figure is read with its load.
+// Judges both clocks against the targets; exits 1 when the slowest median CPU
+// time is above a target (the wall clock depends on the load, and says so).
 //
 // The same cases again on a part with a fit covariance (Is, N, RS strongly
 // correlated as the forward fits give them, and TT's standard error): the
@@ -33,6 +35,7 @@
 #include <ctime>
 #include <cstdio>
 #include <cstdlib>
+#include <stdlib.h>
 #include <string>
 #include <vector>
 
@@ -53,8 +56,17 @@ struct Case {
 };
 
 struct Timing {
-  double median_ms, worst_ms, cpu_median_ms;
+  double median_ms, worst_ms, cpu_median_ms, cpu_worst_ms;
 };
+
+// "1.23 1.10 0.98": the 1, 5 and 15 minute load averages (getloadavg(3)).
+std::string load_average() {
+  double l[3] = {NAN, NAN, NAN};
+  if (getloadavg(l, 3) != 3) return "unknown";
+  char buf[64];
+  std::snprintf(buf, sizeof buf, "%.2f %.2f %.2f", l[0], l[1], l[2]);
+  return buf;
+}
 
 template <class F>
 Timing time_it(int reps, F&& f) {
@@ -68,7 +80,7 @@ Timing time_it(int reps, F&& f) {
   }
   std::sort(t.begin(), t.end());
   std::sort(cpu.begin(), cpu.end());
-  return {t[t.size() / 2], t.back(), cpu[cpu.size() / 2]};
+  return {t[t.size() / 2], t.back(), cpu[cpu.size() / 2], cpu.back()};
 }
 
 // The former bias-for-thd search, kept here as the reference workload.
@@ -152,30 +164,39 @@ int main(int argc, char** argv) {
   ref_in.charge = part.charge();
   ref_in.freq_hz = 100e6;
   ref_in.source_peak_v = 0.2;
+  std::printf("load average (1/5/15 min) at start: %s; %d repeats per case, %d per lot case\n", load_average().c_str(), reps,
+              std::max(3, reps / 10));
   const Timing ref = time_it(std::max(5, reps / 5), [&] { former_bias_for_thd(ref_in, 0.01); });
-  std::printf("reference: the former bias-for-thd search (100 MHz series, 1 %% at 0.2 V): median %.3f ms, CPU %.3f ms\n\n",
+  std::printf("reference: the former bias-for-thd search (100 MHz series, 1 %% at 0.2 V): wall median %.3f ms, CPU median %.3f ms\n\n",
               ref.median_ms, ref.cpu_median_ms);
 
   DesignPart fitted = part;
   fitted.label = "JX-41 with TT and its fit covariance";
   fitted.cov = fit_covariance(part);
-  double worst_all = 0.0;
-  std::string worst_case;
+  double worst_all = 0.0, worst_wall = 0.0, worst_wall_max = 0.0;
+  std::string worst_case, worst_wall_case;
   for (const DesignPart* p : {&part, &fitted}) {
-    std::printf("%s:\n%-14s %-44s %10s %10s %10s %8s\n", p == &part ? "without uncertainty (explicit parameters)"
-                                                                     : "with uncertainty (std_error on every line)",
-                "calculator", "inputs", "median ms", "worst ms", "CPU ms", "CPU/ref");
+    std::printf("%s:\n%-14s %-44s %10s %10s %10s %10s %8s\n", p == &part ? "without uncertainty (explicit parameters)"
+                                                                          : "with uncertainty (std_error on every line)",
+                "calculator", "inputs", "wall med", "wall max", "CPU med", "CPU max", "CPU/ref");
     for (const auto& c : cases) {
       Json answer;
       const Timing t = time_it(reps, [&] { answer = run_design(c.calculator, p, c.inputs); });
       std::string in = c.inputs.dump();
       if (in.size() > 44) in = in.substr(0, 41) + "...";
-      std::printf("%-14s %-44s %10.3f %10.3f %10.3f %8.3f%s\n", c.calculator.c_str(), in.c_str(), t.median_ms, t.worst_ms,
-                  t.cpu_median_ms, t.cpu_median_ms / ref.cpu_median_ms, answer.value("achievable", true) ? "" : "  (not achievable)");
+      std::printf("%-14s %-44s %10.3f %10.3f %10.3f %10.3f %8.3f%s\n", c.calculator.c_str(), in.c_str(), t.median_ms, t.worst_ms,
+                  t.cpu_median_ms, t.cpu_worst_ms, t.cpu_median_ms / ref.cpu_median_ms,
+                  answer.value("achievable", true) ? "" : "  (not achievable)");
+      const std::string name = c.calculator + " " + c.inputs.dump() + (p == &fitted ? " with uncertainty" : "");
       if (t.cpu_median_ms > worst_all) {
         worst_all = t.cpu_median_ms;
-        worst_case = c.calculator + " " + c.inputs.dump() + (p == &fitted ? " with uncertainty" : "");
+        worst_case = name;
       }
+      if (t.median_ms > worst_wall) {
+        worst_wall = t.median_ms;
+        worst_wall_case = name;
+      }
+      worst_wall_max = std::max(worst_wall_max, t.worst_ms);
     }
     std::printf("\n");
   }
@@ -203,22 +224,29 @@ int main(int argc, char** argv) {
       {"bias-for-loss", {{"switch", "series"}, {"target_db", 1.0}, {"freq_hz", 1e8}}, {{233.15, 398.15}, 0.0, 0.0}},
       {"distortion", {{"switch", "series"}, {"current_a", 1e-3}, {"amplitude_v", 0.2}, {"freq_hz", 1e8}}, {}},
       {"bias-for-thd", {{"switch", "series"}, {"target_pct", 1.0}, {"amplitude_v", 0.2}, {"freq_hz", 1e8}}, {}}};
-  std::printf("lot worst case over %zu parts:\n%-14s %-10s %10s %10s %10s %8s\n", lot.size(), "calculator", "corners", "median ms",
-              "worst ms", "CPU ms", "CPU/ref");
-  double worst_lot = 0.0;
+  std::printf("lot worst case over %zu parts (%d repeats each):\n%-14s %-10s %10s %10s %10s %10s %8s\n", lot.size(),
+              std::max(3, reps / 10), "calculator", "corners", "wall med", "wall max", "CPU med", "CPU max", "CPU/ref");
+  double worst_lot = 0.0, worst_lot_wall = 0.0, worst_lot_wall_max = 0.0;
   for (const auto& c : lot_cases) {
     Json answer;
     const Timing t = time_it(std::max(3, reps / 10), [&] { answer = design_worst_case(c.calculator, lot, c.inputs, c.corners); });
-    std::printf("%-14s %-10s %10.1f %10.1f %10.1f %8.2f\n", c.calculator.c_str(), std::to_string(answer["corners"].get<int>()).c_str(),
-                t.median_ms, t.worst_ms, t.cpu_median_ms, t.cpu_median_ms / ref.cpu_median_ms);
+    std::printf("%-14s %-10s %10.1f %10.1f %10.1f %10.1f %8.2f\n", c.calculator.c_str(), std::to_string(answer["corners"].get<int>()).c_str(),
+                t.median_ms, t.worst_ms, t.cpu_median_ms, t.cpu_worst_ms, t.cpu_median_ms / ref.cpu_median_ms);
     worst_lot = std::max(worst_lot, t.cpu_median_ms);
+    worst_lot_wall = std::max(worst_lot_wall, t.median_ms);
+    worst_lot_wall_max = std::max(worst_lot_wall_max, t.worst_ms);
   }
 
-  const double speedup = ref.cpu_median_ms / worst_all;
-  std::printf("\nslowest answer (median CPU time): %.3f ms = %.3f x the reference (%s); target <= 10 ms: %s\n", worst_all,
-              worst_all / ref.cpu_median_ms, worst_case.c_str(), worst_all <= 10.0 ? "met" : "NOT MET");
-  std::printf("slowest lot worst case over 100 parts (median CPU time): %.1f ms = %.1f x the reference; target <= 1 s: %s\n", worst_lot,
-              worst_lot / ref.cpu_median_ms, worst_lot <= 1000.0 ? "met" : "NOT MET");
-  (void)speedup;
+  const auto verdict = [](double ms, double target_ms) { return ms <= target_ms ? "met" : "NOT MET"; };
+  std::printf("\nload average (1/5/15 min) at end: %s\n", load_average().c_str());
+  std::printf("slowest answer, median CPU time: %.3f ms = %.3f x the reference (%s); target <= 10 ms: %s\n", worst_all,
+              worst_all / ref.cpu_median_ms, worst_case.c_str(), verdict(worst_all, 10.0));
+  std::printf("slowest answer, median wall time: %.3f ms = %.3f x the reference's wall (%s); target <= 10 ms: %s"
+              " (the worst single wall time of any answer: %.3f ms)\n",
+              worst_wall, worst_wall / ref.median_ms, worst_wall_case.c_str(), verdict(worst_wall, 10.0), worst_wall_max);
+  std::printf("slowest lot worst case over 100 parts: median CPU %.1f ms = %.1f x the reference, median wall %.1f ms, worst wall %.1f ms;"
+              " target <= 1 s: CPU %s, wall %s\n",
+              worst_lot, worst_lot / ref.cpu_median_ms, worst_lot_wall, worst_lot_wall_max, verdict(worst_lot, 1000.0),
+              verdict(worst_lot_wall, 1000.0));
   return worst_all <= 10.0 && worst_lot <= 1000.0 ? 0 : 1;
 }

@@ -107,8 +107,13 @@ int main(int argc, char** argv) {
     for (;;) {
       const Json j = d.client->request("job.get", {{"job_id", job}})["result"];
       const Json lab = d.lab();
-      max_lag_s = std::max(max_lag_s, lab["lag_s"].get<double>());
-      max_backlog = std::max(max_backlog, lab["backlog_rows"].get<long>());
+      // A status without the publisher's figures (an error reply under load) is no sample.
+      if (lab.is_object() && lab.contains("lag_s") && lab.contains("backlog_rows")) {
+        max_lag_s = std::max(max_lag_s, lab["lag_s"].get<double>());
+        max_backlog = std::max(max_backlog, lab["backlog_rows"].get<long>());
+      } else {
+        std::fprintf(stderr, "daemon.status without lab figures: %s\n", lab.dump().c_str());
+      }
       if (j["state"] != "running" && j["state"] != "queued") {
         points = j["points_done"];
         break;
@@ -149,7 +154,14 @@ int main(int argc, char** argv) {
     pg.start();
     const auto t0 = Clock::now();
     Juncod d(dir, "backlog");
-    const long queued = d.lab()["backlog_rows"];
+    // While juncod starts, daemon.status answers at once without the publisher's figures
+    // (docs/daemon-core.md, "Start-up order"): wait for them.
+    Json first = d.lab();
+    while (!first.contains("backlog_rows")) {
+      std::this_thread::sleep_for(std::chrono::milliseconds(5));
+      first = d.lab();
+    }
+    const long queued = first["backlog_rows"];
     while (d.lab()["backlog_rows"] != 0) std::this_thread::sleep_for(std::chrono::milliseconds(20));
     const double drain_s = seconds_since(t0);
     lab::PgConnection lab(pg.conninfo());

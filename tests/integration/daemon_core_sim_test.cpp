@@ -1,7 +1,8 @@
 // The core service driving the real junco-sim through the real drivers over
 // TCP: an unattended overnight-shaped job (8 parts × 200 bias points × DC +
-// AC at 3 frequencies), fits checked against the simulator's true lot, and a
-// persistent instrument fault that pauses the job with the outputs off.
+// AC at 3 frequencies), fits checked against the simulator's true lot, a
+// persistent instrument fault that pauses the job with the outputs off, and
+// current-targeted steps on a high-Vf part (bounded supply steps).
 #include "daemon/core_service.hpp"
 #include "daemon/store.hpp"
 #include "tests/support/sim_process.hpp"
@@ -10,10 +11,13 @@
 
 #include <cmath>
 #include <filesystem>
+#include <fstream>
 #include <set>
 #include <mutex>
 #include <thread>
 #include <vector>
+
+#include <unistd.h>
 
 using namespace junco::daemon;
 using namespace std::chrono_literals;
@@ -213,6 +217,71 @@ TEST_CASE("a meter that stops answering pauses the job with outputs off; resumed
   // Current-targeted steps land near their targets.
   const double i_mid = pts[30]["i_a"].get<double>(), target = pts[30]["set_value"].get<double>();
   CHECK(i_mid == Approx(target).epsilon(0.05));
+}
+
+// A current-targeted sweep on a part whose Vf is far above the executor's
+// first guess (N = 8: about 3 V at 5 mA, like a stack of four junctions):
+// the supply approaches each target in bounded corrections (at most 0.5 V
+// each, daemon/executor.cpp target_current), never drives the part into the
+// plan's compliance, and lands within the 2 % tolerance. Before, the first
+// correction jumped to max_supply_v (10 V: 70 mA through 100 Ω), the supply
+// went into its current limit and the part's forward sweep ended at step 0.
+// The applied levels are junco-sim's own record (`bias?`, docs/sim.md).
+// The tolerance is the executor's (common practice, no source).
+TEST_CASE("current mode on a high-Vf part: bounded steps to each target, no reading at the compliance") {
+  const std::string sim_config = "/tmp/junco-highvf-sim-" + std::to_string(::getpid()) + ".json";
+  {
+    std::ofstream f(sim_config);
+    f << R"({"thermal": {"theta_k_per_w": 0}, "outliers": [{"slot": 2, "n": 8.0}]})";
+  }
+  junco::test::SimProcess sim({"--seed", "7", "--settle-ms", "0", "--config", sim_config});
+  std::remove(sim_config.c_str());
+  TempDir dir;
+  auto svc = make_service(config_for(sim, dir.path), quiet());  // 100 Ω to the part, max_supply_v 10 V
+  constexpr double kCompliance = 0.01;
+  const Json plan{{"lot", "WREN-0912"},
+                  {"parts", {{{"slot", 1}, {"label", "WREN-0912-1"}}, {{"slot", 2}, {"label", "WREN-0912-STACK"}}}},
+                  {"sweep", {{"mode", "current"}, {"spacing", "log"}, {"start", 1e-4}, {"stop", 5e-3}, {"count", 12},
+                             {"settle_s", 0.0}, {"compliance_a", kCompliance}}}};
+  const Id job = svc->call("job.submit", {{"plan", plan}}, kCaller)["job_id"];
+  const Json j = wait_for(*svc, job, {"done", "paused", "failed"}, 60s);
+  INFO(j.dump());
+  REQUIRE(j["state"] == "done");
+
+  for (int slot = 1; slot <= 2; ++slot) {
+    const Json pts = svc->call("part.readings", {{"part_id", slot}}, kCaller)["points"];
+    REQUIRE(pts.size() == 12);
+    for (const auto& p : pts) {
+      INFO("slot " << slot << " " << p.dump());
+      CHECK(p["flags"] == 0);  // no current limit, no power limit, not off target
+      CHECK(p["i_a"].get<double>() == Approx(p["set_value"].get<double>()).epsilon(0.02));
+    }
+    if (slot == 2) CHECK(pts[11]["v"].get<double>() > 2.5);  // the part is the high-Vf one
+  }
+
+  // Every level the supply held on the high-Vf part, in order.
+  double largest_up_v = 0, largest_i_a = 0, last_v = NAN;
+  int levels = 0;
+  const Json log = sim.control("bias?");
+  for (const auto& l : log["levels"]) {
+    if (l["slot"] != 2) {
+      last_v = NAN;
+      continue;
+    }
+    ++levels;
+    INFO(l.dump());
+    CHECK_FALSE(l["current_limited"].get<bool>());
+    CHECK(l["i_a"].get<double>() < kCompliance);
+    largest_i_a = std::max(largest_i_a, l["i_a"].get<double>());
+    const double v = l["voltage_v"].get<double>();
+    if (std::isfinite(last_v)) largest_up_v = std::max(largest_up_v, v - last_v);
+    last_v = v;
+  }
+  WARN("high-Vf part: " << levels << " supply levels for 12 targets, largest step up " << largest_up_v << " V, largest current "
+                        << largest_i_a * 1e3 << " mA (compliance " << kCompliance * 1e3 << " mA)");
+  CHECK(levels >= 12);
+  // The bounded correction (0.5 V); the plan's own steps move the supply by at most 100 Ω × 1.5 mA.
+  CHECK(largest_up_v <= 0.5 + 1e-9);
 }
 
 TEST_CASE("a supply left on is turned off at start even while the scanner is mute") {

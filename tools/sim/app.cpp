@@ -119,6 +119,10 @@ std::string SimApp::control_line(const std::string& line) {
       std::lock_guard lock(bench_.mutex());
       return bench_.outputs_json().dump();
     }
+    if (word == "bias?") {
+      std::lock_guard lock(bench_.mutex());
+      return bench_.bias_log_json().dump();
+    }
     if (word == "fault") {
       FaultSpec f;
       in >> f.role >> f.mode;
@@ -134,7 +138,7 @@ std::string SimApp::control_line(const std::string& line) {
       on_quit();
       return json{{"ok", true}}.dump();
     }
-    throw std::invalid_argument("unknown control command '" + word + "' (state?, lot?, chamber?, outputs?, fault, quit)");
+    throw std::invalid_argument("unknown control command '" + word + "' (state?, lot?, chamber?, outputs?, bias?, fault, quit)");
   } catch (const std::invalid_argument& e) {
     return json{{"ok", false}, {"error", e.what()}}.dump();
   }

@@ -185,8 +185,28 @@ std::optional<std::complex<double>> Bench::vector_transfer(Clock::time_point now
 
 Readings Bench::read(Clock::time_point now) {
   advance(now);
-  if (config_.settle_s == 0) return compute_target().readings;
-  return observed_;
+  const Target target = compute_target();
+  const Readings r = config_.settle_s == 0 ? target.readings : observed_;
+  note_bias_read(r.supply_i_a, target.dc.current_limited);
+  return r;
+}
+
+void Bench::note_bias_read(double i_a, bool current_limited) {
+  if (!bias_.output_on) return;
+  if (!bias_reads_.empty() && bias_reads_.back().slot == slot_ && bias_reads_.back().voltage_v == bias_.voltage_v) {
+    bias_reads_.back().i_a = i_a;
+    bias_reads_.back().current_limited = bias_reads_.back().current_limited || current_limited;
+    return;
+  }
+  bias_reads_.push_back(BiasRead{slot_, bias_.voltage_v, i_a, current_limited});
+  if (bias_reads_.size() > kMaxSwitches) bias_reads_.pop_front();
+}
+
+nlohmann::json Bench::bias_log_json() const {
+  nlohmann::json a = nlohmann::json::array();
+  for (const auto& b : bias_reads_)
+    a.push_back({{"slot", b.slot}, {"voltage_v", b.voltage_v}, {"i_a", b.i_a}, {"current_limited", b.current_limited}});
+  return {{"levels", a}};
 }
 
 bool Bench::current_limited(Clock::time_point now) {

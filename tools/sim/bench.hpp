@@ -57,6 +57,12 @@ class Bench {
   // reads, so a test can measure how long an output stayed on after it
   // killed the daemon (control command `outputs?`, docs/sim.md).
   nlohmann::json outputs_json() const;
+  // Every supply level read while its output was on, in order (consecutive
+  // reads of one level and slot are one entry, the last read kept): the
+  // voltage as programmed, the current read and whether the supply was in
+  // its current limit (control command `bias?`, docs/sim.md). A test sees
+  // from it how the daemon approached a current-targeted step.
+  nlohmann::json bias_log_json() const;
 
   // The chamber (docs/sim.md, "Chamber"): set point and ramp rate as
   // programmed, the air as it is (true) and as the chamber's sensor reads it.
@@ -88,10 +94,18 @@ class Bench {
   };
   static constexpr std::size_t kMaxSwitches = 100000;  // oldest dropped beyond this
   static void note_switch(std::deque<Switch>& log, bool on);
+  // One supply level as read (bias_log_json).
+  struct BiasRead {
+    int slot;
+    double voltage_v, i_a;
+    bool current_limited;
+  };
+  void note_bias_read(double i_a, bool current_limited);
 
   std::mutex mutex_;
   SimConfig config_;
   std::deque<Switch> source_switches_, siggen_switches_;
+  std::deque<BiasRead> bias_reads_;  // the last kMaxSwitches
   std::vector<Slot> lot_;
   std::vector<double> temp_k_;  // per slot (index slot-1)
   // Chamber: set point, the ramp's present target, the air without drift,
