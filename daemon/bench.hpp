@@ -1,5 +1,5 @@
-// The set of instruments the executor drives, one per role. siggen and
-// levelmeter are optional (null when the config has none). Owned by the
+// The set of instruments the executor drives, one per role. siggen,
+// levelmeter, chamber and vectormeter are optional (null when the config has none). Owned by the
 // executor thread; nothing else talks to the instruments.
 #pragma once
 
