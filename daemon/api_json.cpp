@@ -67,7 +67,8 @@ Json to_json(const PointRow& p) {
               {"ac_in_v", nullable(p.ac_in_v)}, {"ac_out_v", nullable(p.ac_out_v)},
               {"ac_unit", text_or_null(p.ac_unit)}, {"freq_hz", nullable(p.freq_hz)},
               {"temp_k", nullable(p.temp_k)}, {"t_s", p.t_s}, {"flags", p.flags},
-              {"series", p.kind == "dc" ? Json(p.series) : Json(nullptr)}, {"dwell_s", nullable(p.dwell_s)}};
+              {"series", p.kind == "dc" ? Json(p.series) : Json(nullptr)}, {"dwell_s", nullable(p.dwell_s)},
+              {"ratio", nullable(p.ratio)}, {"phase_deg", nullable(p.phase_deg)}};
 }
 
 Json to_json(const PointRow& p, const std::optional<FitUse>& use) {
@@ -112,6 +113,9 @@ Json to_json(const FitRecord& f) {
   // A PIN part's fit (plan.part_type "pin"): the law and lifetime, detail.pin.
   out["part_type"] = f.detail.contains("pin") ? "pin" : "junction";
   out["pin"] = f.detail.contains("pin") ? f.detail["pin"] : Json(nullptr);
+  // The package from the run's vector readings (plan.vector): Ls and Cp with
+  // standard errors, and the chip's Cj(V) law fitted with it removed.
+  out["package"] = f.detail.contains("package") ? f.detail["package"] : Json(nullptr);
   return out;
 }
 

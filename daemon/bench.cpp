@@ -105,6 +105,7 @@ std::string Bench::clear_errors(const std::string& when, Roles roles) noexcept {
     one("meter", meter.get());
     one("levelmeter", levelmeter.get());
     one("chamber", chamber.get());
+    one("vectormeter", vectormeter.get());
   }
   return errors;
 }
@@ -148,6 +149,7 @@ std::unique_ptr<Bench> open_bench(const Config& config, const Log& traffic) {
   open_role(config, traffic, "siggen", drivers::open_signal_gen, b->siggen, *b);
   open_role(config, traffic, "levelmeter", drivers::open_level_meter, b->levelmeter, *b);
   open_role(config, traffic, "chamber", drivers::open_chamber, b->chamber, *b);
+  open_role(config, traffic, "vectormeter", drivers::open_vector_meter, b->vectormeter, *b);
   return b;
 }
 

@@ -1,5 +1,5 @@
-// The set of instruments the executor drives, one per role. siggen and
-// levelmeter are optional (null when the config has none). Owned by the
+// The set of instruments the executor drives, one per role. siggen,
+// levelmeter, chamber and vectormeter are optional (null when the config has none). Owned by the
 // executor thread; nothing else talks to the instruments.
 #pragma once
 
@@ -30,6 +30,7 @@ struct Bench {
   std::unique_ptr<drivers::SignalGen> siggen;         // may be null
   std::unique_ptr<drivers::LevelMeter> levelmeter;    // may be null
   std::unique_ptr<drivers::Chamber> chamber;          // may be null
+  std::unique_ptr<drivers::VectorMeter> vectormeter;  // may be null (plan.vector needs it)
   // Instruments of the config that could not be opened ("scanner: why");
   // a bench with any is incomplete: it can be made safe, never run a job.
   std::vector<std::string> missing;

@@ -88,7 +88,7 @@ class Checker {
   std::string file_;
 };
 
-const char* const kRoles[] = {"source", "meter", "scanner", "siggen", "levelmeter", "chamber"};
+const char* const kRoles[] = {"source", "meter", "scanner", "siggen", "levelmeter", "chamber", "vectormeter"};
 const char* const kRequiredRoles[] = {"source", "meter", "scanner"};
 
 fs::path resolve(const fs::path& p, const fs::path& dir) { return p.is_absolute() ? p : (dir / p).lexically_normal(); }
@@ -317,7 +317,7 @@ Config parse_config_impl(const std::string& text, const fs::path& file, std::vec
         const std::string p = "/bench/" + role;
         bool known = false;
         for (const char* r : kRoles) known = known || role == r;
-        if (!known) c.fail(p, "unknown role (expected source, meter, scanner, siggen, levelmeter or chamber)");
+        if (!known) c.fail(p, "unknown role (expected source, meter, scanner, siggen, levelmeter, chamber or vectormeter)");
         if (!obj.is_object()) c.fail(p, std::string("must be an object, not ") + obj.type_name());
         cfg.bench[role] = parse_instrument(c, obj, role, p, dir);
       });

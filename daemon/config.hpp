@@ -32,7 +32,7 @@ class ConfigError : public std::runtime_error {
 };
 
 // One instrument of the bench. Roles: source, meter, scanner, siggen,
-// levelmeter, chamber (source, meter and scanner are required).
+// levelmeter, chamber, vectormeter (source, meter and scanner are required).
 struct InstrumentConfig {
   std::string role;
   std::string address;                // drivers/transport.hpp syntax

@@ -26,6 +26,7 @@ drivers::Role role_of(const std::string& role) {
   if (role == "scanner") return drivers::Role::scanner;
   if (role == "siggen") return drivers::Role::siggen;
   if (role == "chamber") return drivers::Role::chamber;
+  if (role == "vectormeter") return drivers::Role::vectormeter;
   return drivers::Role::levelmeter;
 }
 

@@ -4,6 +4,7 @@
 #include "formats/report_json.hpp"
 
 #include "daemon/part_analysis.hpp"
+#include "daemon/vector_analysis.hpp"
 
 #include "drivers/errors.hpp"
 #include "drivers/levels.hpp"
@@ -246,6 +247,31 @@ void apply_heating(const Config& cfg, double temp_k, const std::vector<PointRow>
   out.more.heating = std::move(report);
 }
 
+// The run's vector readings (plan.vector; daemon/vector_analysis.hpp): the
+// package's Ls and Cp with their standard errors (detail.package), and the
+// chip's Cj(V) law with the package removed, which then stands as the run's
+// junction capacitance law in place of the one from the level readings (their
+// magnitudes carry the package and the fixture unseparated): the TT fit
+// after it takes this law.
+void apply_vector(const RunFixture& fixture, const std::vector<PointRow>& points, RunFit& out) {
+  const auto v = vector_fit_of_run(points, fixture);
+  if (!v) return;
+  out.more_detail["package"] = v->to_json();
+  if (!v->package.ok) {
+    out.fit.warnings.push_back("package not fitted from the vector readings: " + v->package.message);
+    return;
+  }
+  if (!v->cap || !v->cap->ok) {
+    out.fit.warnings.push_back("junction capacitance not fitted from the vector readings: " + (v->cap ? v->cap->message : std::string("no usable reading")));
+    return;
+  }
+  out.cap = *v->cap;
+  out.cap_report = junction_cap_report(*v->cap, {});
+  out.cap_report->message = "from " + std::to_string(v->cap->points_used) + " vector readings" +
+                            (v->deembedded ? ", open/short de-embedded" : "") + ", package Ls and Cp fitted and removed" +
+                            (v->cap->message.empty() ? "" : "; " + v->cap->message);
+}
+
 RunFit fit_run(const Config& cfg, double temp_k, const RunFixture& fixture, const std::vector<PointRow>& points,
               const std::string& part_type) {
   const bool pin = part_type == "pin";
@@ -284,6 +310,11 @@ RunFit fit_run(const Config& cfg, double temp_k, const RunFixture& fixture, cons
     out.cap_report.reset();
     out.fit.warnings.push_back(std::string("junction capacitance not fitted: ") + e.what());
   }
+  if (!pin) try {
+    apply_vector(fixture, points, out);
+  } catch (const std::exception& e) {
+    out.fit.warnings.push_back(std::string("vector readings not analysed: ") + e.what());
+  }
   if (pin) {
     try {
       apply_pin(cfg, temp_k, fixture, points, out);
@@ -311,6 +342,13 @@ std::string describe_fit(const RunFit& f) {
                     f.cap->vj_v.value, f.cap->m.value, f.cap->points_used, f.cap->law_held ? " (VJ, M held)" : "");
     else
       std::snprintf(buf, sizeof buf, "; junction capacitance not fitted: %s", f.cap->message.c_str());
+    line += buf;
+  }
+  if (f.more_detail.contains("package") && f.more_detail["package"].value("ok", false)) {
+    const Json& pk = f.more_detail["package"];
+    char buf[160];
+    std::snprintf(buf, sizeof buf, "; package Ls %.4g nH Cp %.4g pF from %zu vector readings", pk["ls_h"]["value"].get<double>() * 1e9,
+                  pk["cp_f"]["value"].get<double>() * 1e12, pk.value("readings", std::size_t{0}));
     line += buf;
   }
   return line;
@@ -466,6 +504,7 @@ class JobRun {
   void measure(int slot, std::size_t first) {
     check(bench_.make_safe(), "making the bench safe");
     guarded([&] { bench_.scanner->connect_slot(slot); });
+    part_slot_ = connected_slot_ = slot;
     guarded([&] {
       bench_.source->set_current_limit_a(compliance_a(plan_, cfg_));  // before output on, always
       bench_.source->set_voltage_v(0.0);
@@ -488,7 +527,7 @@ class JobRun {
 
   void step_at(std::size_t seq) {
     const Step& step = steps_[seq];
-    const bool reverse = step.kind == Step::Kind::reverse || step.kind == Step::Kind::reverse_ac;
+    const bool reverse = step.kind == Step::Kind::reverse || step.kind == Step::Kind::reverse_ac || is_vector(step.kind);
     // A new bias step begins (a pulse's dwell readings belong to its step:
     // no commit between them, it would shift their timing).
     if ((step.kind == Step::Kind::dc && step.series != Series::dwell) || step.kind == Step::Kind::reverse) commit_pending();
@@ -552,10 +591,17 @@ class JobRun {
     PointRow p;
     p.kind = to_string(step.kind);
     p.set_value = step.set_value;
-    const bool reverse = step.kind == Step::Kind::reverse || step.kind == Step::Kind::reverse_ac;
+    const bool reverse = step.kind == Step::Kind::reverse || step.kind == Step::Kind::reverse_ac || is_vector(step.kind);
     p.set_unit = (!reverse && plan_.sweep.mode == SweepMode::current) ? "A" : "V";
     p.series = to_string(step.series);
-    const bool levels = step.kind == Step::Kind::ac || step.kind == Step::Kind::reverse_ac;
+    if (is_vector(step.kind)) {
+      take_vector(step, p);
+      p.t_s = unix_time_s();
+      return p;
+    }
+    if (connected_slot_ != part_slot_) back_to_part();  // after the fixture's standards
+    vector_level_set_ = false;  // the levels' amplitude goes on the generator below
+    const bool levels = uses_siggen(step.kind);
     if (!levels && siggen_on_) {  // DC readings are taken with the generator off
       bench_.siggen->set_output(false);
       siggen_on_ = false;
@@ -612,6 +658,63 @@ class JobRun {
     p.ac_unit = drivers::to_string(in.unit);
     p.ac_in_v = in.value;
     p.ac_out_v = out.value;
+    p.supply_v = supply_v_;
+  }
+
+  // --- vector readings (plan.vector) ---------------------------------------
+
+  // A standard's step: its slot connected with the supply off; a
+  // reverse_vector step: the part's slot at the step's reverse bias. Then the
+  // transfer at the step's frequency.
+  void take_vector(const Step& step, PointRow& p) {
+    if (!bench_.vectormeter || !bench_.siggen)
+      throw JobStop{JobStop::Why::fault, "plan.vector needs a vectormeter and a siggen in the bench config (bench.vectormeter, bench.siggen)"};
+    if (step.kind == Step::Kind::reverse_vector) {
+      if (connected_slot_ != part_slot_) back_to_part();
+      if (reversed_index_ != step.dc_index) reverse_bias(step);  // resumed into the vector part of a reverse step
+    } else {
+      const int slot = step.kind == Step::Kind::vector_open ? plan_.vector->open_slot : plan_.vector->short_slot;
+      if (connected_slot_ != slot) switch_slot(slot);
+    }
+    read_transfer(step, p);
+  }
+
+  // Relays are switched with no current flowing (the safety order): the
+  // generator and the supply's output off, the supply at 0 V, then the slot.
+  void switch_slot(int slot) {
+    if (siggen_on_) {
+      bench_.siggen->set_output(false);
+      siggen_on_ = false;
+    }
+    end_pulse();  // supply output off
+    set_supply(0.0);
+    biased_index_ = reversed_index_ = -1;
+    connected_slot_ = -1;  // unknown until the scanner has answered
+    bench_.scanner->connect_slot(slot);
+    connected_slot_ = slot;
+  }
+
+  // Back to the part's slot after the standards; the next step turns the
+  // supply on again (source_on(): current limit first).
+  void back_to_part() { switch_slot(part_slot_); }
+
+  void read_transfer(const Step& step, PointRow& p) {
+    const VectorSpec& v = *plan_.vector;
+    if (!siggen_on_ || !vector_level_set_) {
+      bench_.siggen->set_amplitude(v.amplitude, v.unit);
+      vector_level_set_ = true;
+      siggen_amplitude_ = kNaN;  // the level readings set theirs again
+    }
+    bench_.siggen->set_frequency_hz(step.freq_hz);
+    if (!siggen_on_) {
+      bench_.siggen->set_output(true);
+      siggen_on_ = true;
+    }
+    wait(v.settle_s);
+    const drivers::Transfer t = bench_.vectormeter->measure_transfer();
+    p.freq_hz = step.freq_hz;
+    p.ratio = t.ratio;
+    p.phase_deg = t.phase_deg;
     p.supply_v = supply_v_;
   }
 
@@ -848,6 +951,8 @@ class JobRun {
   int biased_index_ = -1;    // the forward step the supply is at, -1 = none or unknown
   int reversed_index_ = -1;  // the reverse_v point the supply is at, -1 = none or unknown
   double siggen_amplitude_ = 0;  // as last programmed (valid while siggen_on_)
+  bool vector_level_set_ = false;  // the generator carries plan.vector's amplitude (valid while siggen_on_)
+  int part_slot_ = 0, connected_slot_ = 0;  // the part's slot, and the one the scanner connects (a standard's, -1 unknown)
   double supply_v_ = 0, vf_guess_v_ = kFirstVfGuessV;
 };
 
@@ -1041,6 +1146,7 @@ void Executor::identify() {
   one("siggen", bench_->siggen.get());
   one("levelmeter", bench_->levelmeter.get());
   one("chamber", bench_->chamber.get());
+  one("vectormeter", bench_->vectormeter.get());
 }
 
 void Executor::note_identity(const std::string& role, const drivers::Identity& id) {
@@ -1124,6 +1230,10 @@ Json role_readings(const std::string& role, Bench& b) {
       r["unit"] = drivers::to_string(l.unit);
     });
     out.push_back({{"name", "reads"}, {"text", b.levelmeter->level_units()}});
+  } else if (role == "vectormeter" && b.vectormeter) {
+    // No query: MEAS:RAT? needs the generator's reference, which the check
+    // never turns on (it changes nothing); *IDN? above is its answer.
+    out.push_back({{"name", "reads"}, {"text", "complex transfer ch2/ch1 (ratio, phase), generator on only"}});
   } else if (role == "chamber" && b.chamber) {
     reading("temperature readback", "K", [&](Json& r) { r["value"] = b.chamber->measure_temperature_k(); });
   }
@@ -1234,6 +1344,7 @@ Json Executor::run_check() {
                                     : role == "scanner" ? static_cast<drivers::Instrument*>(b->scanner.get())
                                     : role == "siggen"  ? static_cast<drivers::Instrument*>(b->siggen.get())
                                     : role == "chamber" ? static_cast<drivers::Instrument*>(b->chamber.get())
+                                    : role == "vectormeter" ? static_cast<drivers::Instrument*>(b->vectormeter.get())
                                                         : static_cast<drivers::Instrument*>(b->levelmeter.get());
         if (inst) {
           const drivers::Identity id = inst->identify();  // asked at open; not asked again

@@ -108,6 +108,28 @@ AcSpec parse_ac(const Json& a) {
   return out;
 }
 
+VectorSpec parse_vector(const Json& v) {
+  const std::string f = "plan.vector";
+  only_keys(v, f, {"freqs_hz", "amplitude", "unit", "settle_s", "standards"});
+  VectorSpec out;
+  const Json& freqs = need(v, "freqs_hz", f);
+  if (!freqs.is_array()) bad(f + ".freqs_hz", std::string("must be an array, not ") + freqs.type_name());
+  for (std::size_t i = 0; i < freqs.size(); ++i) out.freqs_hz.push_back(number(freqs[i], f + ".freqs_hz[" + std::to_string(i) + "]"));
+  out.amplitude = number(need(v, "amplitude", f), f + ".amplitude");
+  const std::string unit = v.contains("unit") ? text(v["unit"], f + ".unit") : "vpp";
+  if (unit == "vrms") out.unit = drivers::LevelUnit::vrms;
+  else if (unit == "vpp") out.unit = drivers::LevelUnit::vpp;
+  else bad(f + ".unit", "must be \"vrms\" or \"vpp\", got \"" + unit + "\"");
+  if (v.contains("settle_s")) out.settle_s = number(v["settle_s"], f + ".settle_s");
+  if (v.contains("standards") && !v["standards"].is_null()) {
+    const std::string g = f + ".standards";
+    only_keys(v["standards"], g, {"open_slot", "short_slot"});
+    out.open_slot = integer(need(v["standards"], "open_slot", g), g + ".open_slot");
+    out.short_slot = integer(need(v["standards"], "short_slot", g), g + ".short_slot");
+  }
+  return out;
+}
+
 HeatingSpec parse_heating(const Json& h) {
   const std::string f = "plan.heating";
   only_keys(h, f, {"pulse", "dwell", "down_sweep"});
@@ -178,12 +200,21 @@ const char* to_string(Step::Kind kind) {
     case Step::Kind::ac: return "ac";
     case Step::Kind::reverse: return "reverse";
     case Step::Kind::reverse_ac: return "reverse_ac";
+    case Step::Kind::reverse_vector: return "reverse_vector";
+    case Step::Kind::vector_open: return "vector_open";
+    case Step::Kind::vector_short: return "vector_short";
   }
   return "?";
 }
 
+bool is_vector(Step::Kind kind) {
+  return kind == Step::Kind::reverse_vector || kind == Step::Kind::vector_open || kind == Step::Kind::vector_short;
+}
+
+bool uses_siggen(Step::Kind kind) { return kind == Step::Kind::ac || kind == Step::Kind::reverse_ac || is_vector(kind); }
+
 Plan parse_plan(const Json& j) {
-  only_keys(j, "plan", {"lot", "parts", "sweep", "ac", "reverse_v", "heating", "resume", "temp_k", "vf_max_v", "temps_k", "soak", "part_type"});
+  only_keys(j, "plan", {"lot", "parts", "sweep", "ac", "vector", "reverse_v", "heating", "resume", "temp_k", "vf_max_v", "temps_k", "soak", "part_type"});
   Plan p;
   p.lot = text(need(j, "lot", "plan"), "plan.lot");
   const Json& parts = need(j, "parts", "plan");
@@ -195,6 +226,7 @@ Plan parse_plan(const Json& j) {
   }
   p.sweep = parse_sweep(need(j, "sweep", "plan"));
   if (j.contains("ac") && !j["ac"].is_null()) p.ac = parse_ac(j["ac"]);
+  if (j.contains("vector") && !j["vector"].is_null()) p.vector = parse_vector(j["vector"]);
   if (j.contains("reverse_v")) {
     const Json& r = j["reverse_v"];
     if (!r.is_array()) bad("plan.reverse_v", std::string("must be an array, not ") + r.type_name());
@@ -235,7 +267,9 @@ double steps_per_part(const Plan& p) {
   // No AC readings at a pulsed step (they need the bias held); two dwell
   // readings there instead when asked; the sweep down repeats every step.
   const double forward = count + (count - pulsed) * n_ac + (p.heating.dwell ? 2.0 * pulsed : 0.0) + (p.heating.down_sweep ? count : 0.0);
-  return forward + static_cast<double>(p.reverse_v.size()) * (1.0 + n_off);
+  const double n_vec = p.vector ? static_cast<double>(p.vector->freqs_hz.size()) : 0.0;
+  const double standards = p.vector && p.vector->standards() ? 2.0 * n_vec : 0.0;
+  return forward + static_cast<double>(p.reverse_v.size()) * (1.0 + n_off + n_vec) + standards;
 }
 
 int temperature_count(const Plan& p) { return p.temps_k.empty() ? 1 : static_cast<int>(p.temps_k.size()); }
@@ -308,6 +342,43 @@ void check_heating(const Plan& p) {
     if (!(d.short_s > h.pulse->on_s && d.short_s < d.long_s && d.long_s <= 60))
       refuse("heating.dwell short_s " + num(d.short_s) + " s and long_s " + num(d.long_s) +
              " s must satisfy pulse.on_s < short_s < long_s <= 60 s (the pulse's first reading is the cold reference)");
+  }
+}
+
+// plan.vector: the roles it needs (named, so a bench without them says
+// which is missing), its frequencies and amplitude, the reverse biases it
+// reads at, and the standards' slots.
+void check_vector(const Plan& p, const Config& c) {
+  if (!p.vector) return;
+  const VectorSpec& v = *p.vector;
+  if (!c.instrument("vectormeter"))
+    refuse("plan.vector needs a vectormeter in the bench config (bench.vectormeter): this bench has no instrument that reads complex transfer",
+           "", "plan.vector");
+  if (!c.instrument("siggen")) refuse("plan.vector needs a siggen in the bench config (bench.siggen): the transfer is read at its frequency", "", "plan.vector");
+  if (v.freqs_hz.empty()) refuse("plan.vector.freqs_hz must list at least one frequency");
+  for (double f : v.freqs_hz)
+    if (f <= 0 || f > 1e10) refuse("plan.vector frequency " + num(f) + " Hz must be in (0, 1e10]");
+  if (v.amplitude <= 0 || v.amplitude > c.safety.max_supply_v)
+    refuse("plan.vector amplitude " + num(v.amplitude) + " must be > 0 and not above max_supply_v = " + num(c.safety.max_supply_v) + " V");
+  if (v.settle_s < 0 || v.settle_s > 3600) refuse("plan.vector settle_s " + num(v.settle_s) + " s must be in 0..3600");
+  if (p.reverse_v.empty()) refuse("plan.vector needs reverse_v: the reverse biases to read the transfer at");
+  // As for the off-state levels: the signal must not carry the junction
+  // into conduction on its peaks (common practice, no source).
+  const double peak_v = v.unit == drivers::LevelUnit::vrms ? v.amplitude * std::sqrt(2.0) : v.amplitude / 2.0;
+  const double least_v = *std::min_element(p.reverse_v.begin(), p.reverse_v.end());
+  if (peak_v > least_v + 0.1)
+    refuse("plan.vector amplitude peak " + num(peak_v) + " V is above the smallest reverse bias " + num(least_v) +
+           " V + 0.1 V: the junction would conduct on the signal peaks of the vector readings");
+  if ((v.open_slot > 0) != (v.short_slot > 0) || v.open_slot < 0 || v.short_slot < 0)
+    refuse("plan.vector.standards needs both open_slot and short_slot (fixture slots from 1)");
+  if (v.standards()) {
+    for (int s : {v.open_slot, v.short_slot}) {
+      if (s > c.fixture.slots)
+        refuse("plan.vector.standards slot " + std::to_string(s) + " is not on the fixture (slots 1.." + std::to_string(c.fixture.slots) + ")");
+      for (const auto& part : p.parts)
+        if (part.slot == s) refuse("plan.vector.standards slot " + std::to_string(s) + " holds part \"" + part.label + "\": a standard's slot holds no part");
+    }
+    if (v.open_slot == v.short_slot) refuse("plan.vector.standards open_slot and short_slot are both " + std::to_string(v.open_slot));
   }
 }
 
@@ -425,6 +496,7 @@ void check_plan(const Plan& p, const Config& c) {
     }
   }
   check_heating(p);
+  check_vector(p, c);
   const double t = min_duration_s(p);
   if (t > lim.max_job_s)
     refuse("estimated duration " + num(t) + " s exceeds safety limit max_job_s = " + num(lim.max_job_s) + " s", "max_job_s");
@@ -449,6 +521,12 @@ std::vector<double> sweep_values(const SweepSpec& s) {
 
 std::vector<Step> expand_steps(const Plan& plan) {
   std::vector<Step> steps;
+  // The fixture's standards first: with the supply off, before the part's
+  // slot carries any bias.
+  if (plan.vector && plan.vector->standards()) {
+    for (double f : plan.vector->freqs_hz) steps.push_back({Step::Kind::vector_open, 0, 0.0, f});
+    for (double f : plan.vector->freqs_hz) steps.push_back({Step::Kind::vector_short, 0, 0.0, f});
+  }
   const auto values = sweep_values(plan.sweep);
   const int n = static_cast<int>(values.size());
   for (int k = 0; k < n; ++k) {
@@ -468,6 +546,8 @@ std::vector<Step> expand_steps(const Plan& plan) {
     steps.push_back({Step::Kind::reverse, index, -plan.reverse_v[k], 0});
     if (plan.ac && plan.ac->off_state)
       for (double f : plan.ac->off_state->freqs_hz) steps.push_back({Step::Kind::reverse_ac, index, -plan.reverse_v[k], f});
+    if (plan.vector)
+      for (double f : plan.vector->freqs_hz) steps.push_back({Step::Kind::reverse_vector, index, -plan.reverse_v[k], f});
   }
   return steps;
 }
@@ -476,13 +556,15 @@ double min_duration_s(const Plan& p) {
   const double n_ac = p.ac ? static_cast<double>(p.ac->freqs_hz.size()) : 0.0;
   const double n_off = p.ac && p.ac->off_state ? static_cast<double>(p.ac->off_state->freqs_hz.size()) : 0.0;
   const double count = p.sweep.count, pulsed = pulsed_steps(p), ac_s = p.ac ? p.ac->settle_s : 0.0;
+  const double n_vec = p.vector ? static_cast<double>(p.vector->freqs_hz.size()) : 0.0;
+  const double vector_s = p.vector ? n_vec * p.vector->settle_s * (static_cast<double>(p.reverse_v.size()) + (p.vector->standards() ? 2.0 : 0.0)) : 0.0;
   // A pulsed step waits off_s, then on_s (or long_s with the dwells) in
   // place of settle_s, and takes no AC readings.
   const double pulse_s =
       p.heating.pulse ? p.heating.pulse->off_s + std::max(p.heating.pulse->on_s, p.heating.dwell ? p.heating.dwell->long_s : 0.0) : 0.0;
   const double down_s = p.heating.down_sweep ? (count - pulsed) * p.sweep.settle_s + pulsed * (p.heating.pulse ? p.heating.pulse->off_s + p.heating.pulse->on_s : 0.0) : 0.0;
   const double per_part = (count - pulsed) * (p.sweep.settle_s + n_ac * ac_s) + pulsed * pulse_s + down_s +
-                          static_cast<double>(p.reverse_v.size()) * (p.sweep.settle_s + n_off * ac_s);
+                          static_cast<double>(p.reverse_v.size()) * (p.sweep.settle_s + n_off * ac_s) + vector_s;
   const double hold_s = p.temps_k.empty() ? 0.0 : p.soak.hold_s * static_cast<double>(p.temps_k.size());
   return per_part * static_cast<double>(p.parts.size()) * static_cast<double>(temperature_count(p)) + hold_s;
 }
@@ -521,6 +603,13 @@ Json to_json(const Plan& p) {
     if (p.heating.pulse) h["pulse"] = {{"from", p.heating.pulse->from}, {"on_s", p.heating.pulse->on_s}, {"off_s", p.heating.pulse->off_s}};
     if (p.heating.dwell) h["dwell"] = {{"short_s", p.heating.dwell->short_s}, {"long_s", p.heating.dwell->long_s}};
     j["heating"] = h;
+  }
+  if (p.vector) {
+    j["vector"] = {{"freqs_hz", p.vector->freqs_hz},
+                   {"amplitude", p.vector->amplitude},
+                   {"unit", p.vector->unit == drivers::LevelUnit::vrms ? "vrms" : "vpp"},
+                   {"settle_s", p.vector->settle_s}};
+    if (p.vector->standards()) j["vector"]["standards"] = {{"open_slot", p.vector->open_slot}, {"short_slot", p.vector->short_slot}};
   }
   if (p.ac && p.ac->off_state) j["ac"]["off_state"] = {{"freqs_hz", p.ac->off_state->freqs_hz}, {"amplitude", p.ac->off_state->amplitude}};
   return j;

@@ -54,6 +54,24 @@ struct AcSpec {
   std::optional<OffState> off_state;
 };
 
+// Vector readings (plan.vector; docs/daemon-core.md "Vector readings"): the
+// complex transfer ch2/ch1 (ratio and phase, the vectormeter role) at every
+// reverse_v point and frequency, and, when the plan names them, the fixture's
+// open and short standards (an empty slot and a slot with a link) read at the
+// start of each part's run at the same frequencies. Each run carries its own
+// standards, so a run is de-embedded from its own readings (no calibration
+// kept apart from the readings it corrects). The fit turns them into the
+// package's Ls and Cp and the chip's Cj(V) (fitting/deembed.hpp).
+struct VectorSpec {
+  std::vector<double> freqs_hz;
+  double amplitude = 0.0;
+  drivers::LevelUnit unit = drivers::LevelUnit::vpp;
+  double settle_s = 0.01;  // after each frequency change
+  int open_slot = 0;       // 0 = no open standard read
+  int short_slot = 0;      // 0 = no short standard read
+  bool standards() const { return open_slot > 0 && short_slot > 0; }
+};
+
 // How the chamber soaks at each of a plan's temperatures: the readback must
 // stay within tolerance_k of the set point for hold_s without a break
 // (safety.max_soak_s bounds the whole wait).
@@ -90,6 +108,7 @@ struct Plan {
   std::vector<PartSpec> parts;
   SweepSpec sweep;
   std::optional<AcSpec> ac;
+  std::optional<VectorSpec> vector;
   std::vector<double> reverse_v;  // magnitudes of reverse-bias points (V)
   HeatingSpec heating;
   bool resume = true;             // may continue after a daemon restart
@@ -116,10 +135,12 @@ struct Plan {
 enum class Series : unsigned char { up, dwell, down };
 
 struct Step {
-  enum class Kind { dc, ac, reverse, reverse_ac } kind = Kind::dc;
-  int dc_index = 0;      // which forward step (dc and ac), or which reverse_v point (reverse, reverse_ac)
+  // vector_open / vector_short: a fixture standard (plan.vector), read with
+  // the supply off; reverse_vector: the transfer at a reverse_v point.
+  enum class Kind { dc, ac, reverse, reverse_ac, reverse_vector, vector_open, vector_short } kind = Kind::dc;
+  int dc_index = 0;      // which forward step (dc and ac), or which reverse_v point (reverse, reverse_ac, reverse_vector)
   double set_value = 0;  // V or A for dc/ac (by mode); −|V| for reverse and reverse_ac
-  double freq_hz = 0;    // ac and reverse_ac
+  double freq_hz = 0;    // ac, reverse_ac and the vector kinds
   Series series = Series::up;  // dc only
   bool pulsed = false;         // dc only: read in a pulse from cold (heating.pulse)
   double dwell_s = 0;          // series dwell: time from output on to the reading
@@ -156,6 +177,9 @@ std::vector<Step> expand_steps(const Plan& plan);  // per part; same for every p
 double min_duration_s(const Plan& plan);
 double compliance_a(const Plan& plan, const Config& c);
 const char* to_string(Step::Kind kind);
+// The kinds read with the generator on (levels or transfer).
+bool uses_siggen(Step::Kind kind);
+bool is_vector(Step::Kind kind);
 const char* to_string(Series series);
 // heating.pulse.from as it applies: the plan's value, or the top decade.
 double pulse_from(const Plan& plan);

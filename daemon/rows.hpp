@@ -192,7 +192,7 @@ inline constexpr int kLimitFlags = flag_current_limit | flag_power_limit;
 struct PointRow {
   Id run_id = 0;
   long seq = 0;
-  std::string kind = "dc";  // dc, ac, reverse, reverse_ac
+  std::string kind = "dc";  // dc, ac, reverse, reverse_ac, reverse_vector, vector_open, vector_short
   double set_value = 0.0;
   std::string set_unit = "V";
   double supply_v = kNaN;
@@ -209,6 +209,10 @@ struct PointRow {
   // schema 0006); dwell_s: output on → reading, for a reading in a pulse.
   std::string series = "up";
   double dwell_s = kNaN;
+  // Vector kinds (schema 0011): the transfer ch2/ch1 as read, |V2/V1| and
+  // arg(V2/V1) in degrees.
+  double ratio = kNaN;
+  double phase_deg = kNaN;
 };
 
 // How the stored forward fit treated one reading (part.readings): used, or

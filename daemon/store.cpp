@@ -692,13 +692,15 @@ void Store::insert_points(Id job_id, const std::vector<PointRow>& points) {
   for (const auto& p : points)
     Stmt(*writer_,
          "INSERT INTO points(run_id, seq, kind, set_value, set_unit, supply_v, v, i_a, ac_in_v, ac_out_v, ac_unit, freq_hz, temp_k, t_s, flags,"
-         " series, dwell_s) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)")
+         " series, dwell_s, ratio, phase_deg) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)")
         .bind(1, p.run_id).bind(2, p.seq).bind(3, p.kind).bind(4, p.set_value).bind(5, p.set_unit).bind(6, p.supply_v)
         .bind(7, p.v).bind(8, p.i_a).bind(9, p.ac_in_v).bind(10, p.ac_out_v)
         .bind_opt(11, p.ac_unit.empty() ? std::nullopt : std::optional<std::string>(p.ac_unit))
         .bind(12, p.freq_hz).bind(13, p.temp_k).bind(14, p.t_s).bind(15, p.flags)
         .bind_opt(16, p.kind == "dc" ? std::optional<std::string>(p.series) : std::nullopt)
         .bind(17, p.dwell_s)
+        .bind(18, p.ratio)
+        .bind(19, p.phase_deg)
         .run();
   Stmt(*writer_, std::string("UPDATE jobs SET points_done = points_done + ?2, updated_at = ") + kNow + " WHERE id = ?1")
       .bind(1, job_id)
@@ -711,13 +713,13 @@ std::vector<PointRow> Store::points(Id run_id) {
   auto r = reader();
   auto st = r(
       "SELECT run_id, seq, kind, set_value, set_unit, supply_v, v, i_a, ac_in_v, ac_out_v, COALESCE(ac_unit, ''), freq_hz, temp_k, t_s, flags,"
-      " COALESCE(series, 'up'), dwell_s FROM points WHERE run_id = ? ORDER BY seq");
+      " COALESCE(series, 'up'), dwell_s, ratio, phase_deg FROM points WHERE run_id = ? ORDER BY seq");
   st.bind(1, run_id);
   std::vector<PointRow> out;
   while (st.step())
     out.push_back(PointRow{st.i64(0), static_cast<long>(st.i64(1)), st.text(2), st.real(3), st.text(4), st.real(5), st.real(6), st.real(7),
                            st.real(8), st.real(9), st.text(10), st.real(11), st.real(12), st.real(13), static_cast<int>(st.i64(14)),
-                           st.text(15), st.real(16)});
+                           st.text(15), st.real(16), st.real(17), st.real(18)});
   return out;
 }
 

@@ -74,6 +74,59 @@ double residual_at_cp(std::span<const PackagedOffReading> rs, const std::vector<
   return rms;
 }
 
+// Covariance of (Cp, Ls) at the fitted package: the Jacobian of the weighted
+// residuals r_k = s_k·(Im(1/(Y_k − jωCp)) − ω·Ls + b_v/ω) over (Cp, Ls, b_v)
+// (d/dCp of Im(1/(Y − jωCp)) is Im(jω/(Y − jωCp)²)), σ² = Σr²/(N − P),
+// cov = σ²·(JᵀJ)⁻¹ (Gauss–Newton, columns scaled to unit norm first).
+void package_std_errors(std::span<const PackagedOffReading> rs, const std::vector<double>& biases, PackageFit& f) {
+  const std::size_t n = rs.size(), p = 2 + biases.size();
+  if (n <= p) return;
+  const double cp = f.package.cp_f, ls = f.package.ls_h;
+  // b_v at the fitted Cp, Ls: the mean over the bias's readings (the linear
+  // solve's own answer, each reading weighted alike).
+  std::vector<double> b_sum(biases.size(), 0.0), w_sum(biases.size(), 0.0);
+  const auto col_of = [&](double v) { return static_cast<std::size_t>(std::lower_bound(biases.begin(), biases.end(), v) - biases.begin()); };
+  Eigen::MatrixXd j = Eigen::MatrixXd::Zero(static_cast<Eigen::Index>(n), static_cast<Eigen::Index>(p));
+  std::vector<double> im(n), w(n), s(n);
+  for (std::size_t k = 0; k < n; ++k) {
+    w[k] = two_pi * rs[k].freq_hz;
+    const cplx y = 1.0 / rs[k].z_ohm - cplx(0.0, w[k] * cp);
+    im[k] = (1.0 / y).imag();
+    s[k] = 1.0 / std::max(std::abs(rs[k].z_ohm.imag()), 1e-30);
+    const auto row = static_cast<Eigen::Index>(k);
+    j(row, 0) = s[k] * (cplx(0.0, w[k]) / (y * y)).imag();
+    j(row, 1) = -s[k] * w[k];
+    j(row, static_cast<Eigen::Index>(2 + col_of(rs[k].reverse_v))) = s[k] / w[k];
+    // b_v estimate for this reading: (ω·Ls − Im)·ω, weighted by (s/ω)².
+    const std::size_t c = col_of(rs[k].reverse_v);
+    const double wt = (s[k] / w[k]) * (s[k] / w[k]);
+    b_sum[c] += wt * (w[k] * ls - im[k]) * w[k];
+    w_sum[c] += wt;
+  }
+  double ssr = 0.0;
+  for (std::size_t k = 0; k < n; ++k) {
+    const std::size_t c = col_of(rs[k].reverse_v);
+    const double r = s[k] * (im[k] - w[k] * ls + (b_sum[c] / w_sum[c]) / w[k]);
+    ssr += r * r;
+  }
+  Eigen::VectorXd norms = j.colwise().norm().transpose();
+  for (Eigen::Index c = 0; c < norms.size(); ++c) {
+    if (!(norms(c) > 0)) return;
+    j.col(c) /= norms(c);
+  }
+  const Eigen::MatrixXd jtj = j.transpose() * j;
+  Eigen::FullPivLU<Eigen::MatrixXd> lu(jtj);
+  if (!lu.isInvertible()) return;
+  const Eigen::MatrixXd inv = lu.inverse();
+  const double sigma2 = ssr / static_cast<double>(n - p);
+  const double var_cp = sigma2 * inv(0, 0) / (norms(0) * norms(0));
+  const double var_ls = sigma2 * inv(1, 1) / (norms(1) * norms(1));
+  if (!(var_cp >= 0.0) || !(var_ls >= 0.0)) return;
+  f.cp_f_std_error = std::sqrt(var_cp);
+  f.ls_h_std_error = std::sqrt(var_ls);
+  f.ls_cp_correlation = inv(0, 1) / std::sqrt(inv(0, 0) * inv(1, 1));
+}
+
 }  // namespace
 
 PackageFit fit_package(std::span<const PackagedOffReading> readings, double cp_max_f) {
@@ -121,6 +174,8 @@ PackageFit fit_package(std::span<const PackagedOffReading> readings, double cp_m
   f.package.cp_f = 0.5 * (lo + hi);
   f.rms_relative = residual_at_cp(readings, biases, f.package.cp_f, &f.package.ls_h);
   f.ok = f.package.ls_h >= 0.0;
+  f.readings_used = readings.size();
+  package_std_errors(readings, biases, f);
   f.message = f.ok ? "" : "the readings give a negative Ls: too little frequency span to separate Ls and Cp";
   if (f.ok && f.package.cp_f < 1e-3 * cp_max_f)
     f.message = "Cp at the bottom of its range: none, or not resolved by these frequencies (ω²·Ls·Cj near the noise)";

@@ -22,6 +22,8 @@
 #pragma once
 
 #include <complex>
+#include <cstddef>
+#include <limits>
 #include <span>
 #include <string>
 #include <vector>
@@ -64,11 +66,18 @@ struct PackagedOffReading {
 // that fit's relative residual (a scan, then golden-section refinement).
 // Needs ≥ 2 biases and ≥ 2 frequencies per bias, and frequencies high enough
 // that ω²·Ls·Cj is well above the readings' noise (docs/design.md).
+// Standard errors: the linearised least squares over (Cp, Ls, 1/Cj per bias)
+// at the minimum, σ² from the residuals (RMS² · N/(N − P)); NaN when the
+// readings do not determine them (too few, or a singular normal matrix).
 struct PackageFit {
   bool ok = false;
   std::string message;
   PackageParasitics package;
   double rms_relative = 0.0;  // RMS of the residuals of Im Z relative to |Im Z|
+  double ls_h_std_error = std::numeric_limits<double>::quiet_NaN();
+  double cp_f_std_error = std::numeric_limits<double>::quiet_NaN();
+  double ls_cp_correlation = std::numeric_limits<double>::quiet_NaN();
+  std::size_t readings_used = 0;
 };
 PackageFit fit_package(std::span<const PackagedOffReading> readings, double cp_max_f = 2e-12);
 

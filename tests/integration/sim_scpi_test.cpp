@@ -156,3 +156,18 @@ TEST_CASE("*RST returns to the power-up state: outputs off, 0 V, no slot", "[sim
   CHECK(st["scanner"]["slot"] == 0);
   CHECK(st["siggen"]["output_on"] == false);
 }
+
+TEST_CASE("the generator takes frequencies up to 3 GHz and refuses above", "[sim][scpi]") {
+  // docs/command-sets.md (sim ranges): 1 Hz … 3 GHz; out of range is -222
+  // (SCPI-99 error list, docs/references.md §5) and leaves the setting alone.
+  SimProcess sim;
+  LineClient c(sim.endpoint("siggen"));
+  c.send("FREQ 1e9");
+  CHECK(std::stod(q(c, "FREQ?")) == 1e9);
+  c.send("FREQ 3e9");
+  CHECK(std::stod(q(c, "FREQ?")) == 3e9);
+  CHECK(q(c, "SYST:ERR?") == "0,\"No error\"");
+  c.send("FREQ 3.1e9");
+  CHECK(q(c, "SYST:ERR?") == "-222,\"Data out of range\"");
+  CHECK(std::stod(q(c, "FREQ?")) == 3e9);
+}

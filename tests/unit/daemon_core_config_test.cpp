@@ -74,7 +74,7 @@ TEST_CASE("config errors name file, pointer and problem exactly") {
         "/etc/junco/bench.jsonc: /bench/scanner/address: missing (required)");
   CHECK(message_of(with(kGood, "\"max_supply_v\"", "\"max_suply_v\"")) == "/etc/junco/bench.jsonc: /safety/max_suply_v: unknown key");
   CHECK(message_of(with(kGood, "\"source\":  {", "\"psu\": {")) ==
-        "/etc/junco/bench.jsonc: /bench/psu: unknown role (expected source, meter, scanner, siggen, levelmeter or chamber)");
+        "/etc/junco/bench.jsonc: /bench/psu: unknown role (expected source, meter, scanner, siggen, levelmeter, chamber or vectormeter)");
   CHECK(message_of(with(kGood, "\"meter\":   {\"address\": \"tcp:127.0.0.1:5026\", \"dialect\": \"scpi-dmm\", \"reply_timeout_ms\": 500},", "")) ==
         "/etc/junco/bench.jsonc: /bench/meter: missing (required)");
 }

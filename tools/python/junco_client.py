@@ -729,7 +729,7 @@ class Client:
 
         Returns the result object: fit_id, part_id, run_id, model, status, message, is_a, n, rs_ohm,
         rsh_ohm, temp_k, cost, rms_residual, points_used, warnings, detail, created_at, cj0_f, vj_v, m,
-        tt_s, temperature_law, part_type, pin.
+        tt_s, temperature_law, part_type, pin, package.
         Raises RpcError (code and data as in docs/api.md), TimeoutError after timeout_s (default: the
         client's), ConnectionError when the connection is lost.
         """
