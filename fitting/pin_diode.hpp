@@ -132,6 +132,6 @@ struct PinDistortion {
   double min_current_a = 0.0, max_current_a = 0.0;
 };
 PinDistortion pin_series_distortion(const PinLaw& law, double is_a, double bias_i_a, double freq_hz, double source_peak_v,
-                                    double rg_ohm, double rl_ohm, double temp_k, int steps_per_period = 512);
+                                    double source_ohm, double load_ohm, double temp_k, int steps_per_period = 512);
 
 }  // namespace junco::fitting
