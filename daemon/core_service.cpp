@@ -15,6 +15,7 @@
 #include "daemon/service_params.hpp"
 #include "daemon/store.hpp"
 #include "fitting/derived.hpp"
+#include "formats/fit_json.hpp"
 #include "formats/lot_nominal.hpp"
 #include "formats/model_document.hpp"
 #include "formats/spice_card.hpp"
@@ -463,8 +464,8 @@ class CoreService final : public Service {
     for (double i : currents) {
       const auto vf = fitting::forward_voltage_v(r, i);
       const auto rd = fitting::small_signal_resistance_ohm(r, i);
-      auto num = [](double x) { return std::isfinite(x) ? Json(x) : Json(nullptr); };
-      rows.push_back({{"i_a", i}, {"vf_v", num(vf.value)}, {"vf_v_se", num(vf.std_error)}, {"rd_ohm", num(rd.value)}, {"rd_ohm_se", num(rd.std_error)}});
+      // {value, std_error} as part.fit and junco fit --json give every estimate.
+      rows.push_back({{"i_a", i}, {"vf_v", fitting::estimate_json(vf)}, {"rd_ohm", fitting::estimate_json(rd)}});
     }
     return {{"part_id", part_id}, {"fit_id", fit->id}, {"run_id", fit->run_id ? Json(*fit->run_id) : Json(nullptr)}, {"temp_k", std::isfinite(r.temp_k) ? Json(r.temp_k) : Json(nullptr)}, {"figures", rows}};
   }

@@ -120,8 +120,8 @@ std::optional<fitting::JunctionCapFit> junction_cap_of_run(const std::vector<Poi
 fitting::Fixture ac_fixture(const RunFixture& f) {
   const auto ohm = [](double v, double fallback) { return std::isfinite(v) ? v : fallback; };  // older rows: defaults
   fitting::Fixture fx;
-  fx.rg_ohm = ohm(f.source_ohm, 50.0);
-  fx.rl_ohm = ohm(f.load_ohm, 50.0);
+  fx.source_ohm = ohm(f.source_ohm, 50.0);
+  fx.load_ohm = ohm(f.load_ohm, 50.0);
   const double ret = ohm(f.dc_return_ohm, 0.0);
   fx.dc_return_ohm = ret > 0 ? ret : fitting::no_shunt_ohm;
   fx.bias_feed_ohm = fitting::no_shunt_ohm;
@@ -280,7 +280,7 @@ Json transfer_report(const PartRow& part, const RunRecord& run, const FitRecord&
            {"fit_id", fit.id},
            {"temp_k", temp_k},
            {"fixture",
-            {{"rl_ohm", fx.rl_ohm}, {"dc_return_ohm", number_or_null(fx.dc_return_ohm)}, {"rg_ohm", fx.rg_ohm}}},
+            {{"load_ohm", fx.load_ohm}, {"dc_return_ohm", number_or_null(fx.dc_return_ohm)}, {"source_ohm", fx.source_ohm}}},
            {"ac_sigma_db", options.ac_sigma_db},
            {"cj_f", options.cj_f},
            {"max_signal_ratio", options.max_signal_ratio},

@@ -71,6 +71,22 @@ fitting::PartModel part_model(const PartRow& part, const FitRecord& fit) {
                   m.law.trs1_per_k != 0.0 ? ", TRS1 fitted" : "");
     m.notes.push_back(note);
   }
+  // Stored charge from multi-frequency AC readings, as part.design uses it.
+  if (const fitting::Estimate& tt = fit.tt_s; tt.value >= 0) {
+    m.tt_s = tt.value;
+    m.tt_se_s = tt.std_error;
+  }
+  // The covariance part.design propagates (forward fit, CJO/VJ/M, TT), so that
+  // junco design --model on this document gives the same std_error.
+  if (const auto cov = design_covariance(fit); !cov.empty()) {
+    m.covariance_names = cov.names;
+    m.covariance = cov.matrix;
+    m.covariance_source = cov.source;
+  } else {
+    m.covariance_names.clear();
+    m.covariance.clear();
+    m.covariance_source.clear();
+  }
   // A PIN part's law (detail.pin): in the model document; the level-1 card cannot hold it.
   if ((m.pin = pin_part_of_fit(fit))) {
     char note[240];

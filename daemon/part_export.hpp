@@ -1,6 +1,6 @@
 // part.export formats of a stored part.
 // json:   the model document of the latest usable fit (formats/model_document.hpp,
-//         format junco.part-model v1), read by junco design --model, export, plot.
+//         format junco.part-model v2), read by junco design --model, export, plot.
 // spice:  a `.model` card from the same fit (formats/spice_card.hpp).
 // csv:    raw readings of the latest run, one row per point, SI units in the header.
 // iv-csv: the run's DC readings as `v,i_a` (formats/readings_csv.hpp).

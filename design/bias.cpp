@@ -37,9 +37,9 @@ std::optional<double> bias_resistor_ohm(const DiodeParams& p, double supply_v, d
   return r;
 }
 
-Headroom drive_headroom(double load_peak_v, double rl_ohm, double return_r_ohm, double floor_a) {
+Headroom drive_headroom(double load_peak_v, double load_ohm, double return_r_ohm, double floor_a) {
   Headroom h;
-  h.signal_peak_a = load_peak_v / rl_ohm + (std::isfinite(return_r_ohm) && return_r_ohm > 0 ? load_peak_v / return_r_ohm : 0.0);
+  h.signal_peak_a = load_peak_v / load_ohm + (std::isfinite(return_r_ohm) && return_r_ohm > 0 ? load_peak_v / return_r_ohm : 0.0);
   h.min_bias_a = h.signal_peak_a + floor_a;
   return h;
 }

@@ -36,7 +36,7 @@ struct Headroom {
   double signal_peak_a = 0.0;  // Î through the diode
   double min_bias_a = 0.0;
 };
-Headroom drive_headroom(double load_peak_v, double rl_ohm, double return_r_ohm, double floor_a);
+Headroom drive_headroom(double load_peak_v, double load_ohm, double return_r_ohm, double floor_a);
 
 // Dissipation at the operating point against the user's limits. A value above
 // its limit fails; above warn_fraction of it warns (derating, common practice).

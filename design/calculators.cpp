@@ -33,8 +33,8 @@ DesignInputSpec switch_input() { return {"switch", "switch", "", "switch", std::
 
 // Circuit values shared by the AC calculators.
 std::vector<DesignInputSpec> circuit_inputs(bool with_freq) {
-  std::vector<DesignInputSpec> v{with_default("rg_ohm", "rg", "Ohm", "source Rg", 50.0, InputRange::positive),
-                                 with_default("rl_ohm", "rl", "Ohm", "load RL", 50.0, InputRange::positive)};
+  std::vector<DesignInputSpec> v{with_default("source_ohm", "source", "Ohm", "source Rg", 50.0, InputRange::positive),
+                                 with_default("load_ohm", "load", "Ohm", "load RL", 50.0, InputRange::positive)};
   if (with_freq) {
     v.push_back(with_default("freq_hz", "freq", "Hz", "frequency", 10e6, InputRange::positive));
     v.push_back(with_default("ls_h", "ls", "H", "series L", 0.0, InputRange::non_negative));
@@ -315,7 +315,7 @@ Parasitics series_l(const Run& r) { return {r.number("ls_h"), 0.0}; }
 void pin_loss(Run& r, const PinPart& pin) {
   const double f = r.number("freq_hz"), i = r.number("current_a");
   const std::complex<double> z = pin_on_impedance(pin.law, i, f, r.part().temp_k) + std::complex<double>(0.0, 2.0 * std::numbers::pi * f * r.number("ls_h"));
-  const double db = switch_loss_db(r.kind(), z, r.number("rg_ohm"), r.number("rl_ohm"));
+  const double db = switch_loss_db(r.kind(), z, r.number("source_ohm"), r.number("load_ohm"));
   if (r.kind() == SwitchKind::series) r.result("loss_db", "insertion loss (biased series switch)", db, "dB");
   else r.result("loss_db", "isolation (biased shunt switch)", db, "dB");
   r.result("pin_rf_resistance_ohm", "PIN RF resistance R0 + K*I^-x", pin_rf_resistance_ohm(pin.law, i), "Ohm");
@@ -327,8 +327,8 @@ void loss(Run& r) {
   r.assume_all();
   const auto& p = r.part();
   if (p.pin) return pin_loss(r, *p.pin);
-  const double db = on_state_loss_db(r.kind(), p.dc, p.charge(), r.number("current_a"), r.number("rg_ohm"),
-                                     r.number("rl_ohm"), r.number("freq_hz"), series_l(r), p.temp_k);
+  const double db = on_state_loss_db(r.kind(), p.dc, p.charge(), r.number("current_a"), r.number("source_ohm"),
+                                     r.number("load_ohm"), r.number("freq_hz"), series_l(r), p.temp_k);
   // Keyed by what the number is: a biased shunt switch's loss is its isolation.
   if (r.kind() == SwitchKind::series) r.result("loss_db", "insertion loss (biased series switch)", db, "dB");
   else r.result("isolation_db", "isolation (biased shunt switch)", db, "dB");
@@ -347,11 +347,11 @@ void bias_for_loss(Run& r) {
   const auto pin_loss_at = [&](double i) {
     const double f = r.number("freq_hz");
     const auto z = pin_on_impedance(p.pin->law, i, f, p.temp_k) + std::complex<double>(0.0, 2.0 * std::numbers::pi * f * r.number("ls_h"));
-    return switch_loss_db(r.kind(), z, r.number("rg_ohm"), r.number("rl_ohm"));
+    return switch_loss_db(r.kind(), z, r.number("source_ohm"), r.number("load_ohm"));
   };
   const auto i = p.pin ? bias_for_loss_a(r.kind(), pin_loss_at, r.number("target_db"), "R0", &why)
-                       : bias_for_loss_a(r.kind(), p.dc, p.charge(), r.number("target_db"), r.number("rg_ohm"),
-                                         r.number("rl_ohm"), r.number("freq_hz"), series_l(r), p.temp_k, &why);
+                       : bias_for_loss_a(r.kind(), p.dc, p.charge(), r.number("target_db"), r.number("source_ohm"),
+                                         r.number("load_ohm"), r.number("freq_hz"), series_l(r), p.temp_k, &why);
   if (!i) return r.not_achievable(why);
   if (p.pin) r.result_text("law", "loss from", "PIN law R0 + K*I^-x and lifetime tau at the frequency");
   r.result("bias_current_a", "bias current", *i, "A");
@@ -363,7 +363,7 @@ void bias_for_loss(Run& r) {
 
 void headroom(Run& r) {
   r.assume_all();
-  const auto h = drive_headroom(r.number("amplitude_v"), r.number("rl_ohm"), r.number("dc_return_ohm"), r.number("floor_a"));
+  const auto h = drive_headroom(r.number("amplitude_v"), r.number("load_ohm"), r.number("dc_return_ohm"), r.number("floor_a"));
   r.result("signal_peak_a", "signal peak through the diode", h.signal_peak_a, "A");
   r.result("min_bias_a", "minimum bias (series switch stays forward-biased)", h.min_bias_a, "A");
 }
@@ -376,8 +376,8 @@ DistortionInput distortion_input(const Run& r) {
   in.kind = r.kind();
   in.freq_hz = r.number("freq_hz");
   in.source_peak_v = r.number("amplitude_v");
-  in.rg_ohm = r.number("rg_ohm");
-  in.rl_ohm = r.number("rl_ohm");
+  in.source_ohm = r.number("source_ohm");
+  in.load_ohm = r.number("load_ohm");
   return in;
 }
 
@@ -401,15 +401,15 @@ void harmonics(Run& r, const DistortionResult& d) {
 void pin_distortion(Run& r, const PinPart& pin, const DistortionInput& in) {
   const double i = in.bias_i_a, f = in.freq_hz;
   const std::complex<double> z = pin_on_impedance(pin.law, i, f, in.temp_k);
-  const double signal_peak_a = std::abs(element_current_a(in.kind, z, in.source_peak_v, in.rg_ohm, in.rl_ohm));
+  const double signal_peak_a = std::abs(element_current_a(in.kind, z, in.source_peak_v, in.source_ohm, in.load_ohm));
   const double ratio = signal_peak_a / (std::numbers::pi * f) / (i * pin.law.tau_s);
   r.result("signal_peak_a", "signal current (peak)", signal_peak_a, "A");
   r.result("stored_charge_c", "stored charge I*tau", i * pin.law.tau_s, "C");
   r.result("rf_charge_ratio", "RF charge per half cycle / stored charge", ratio, "");
   // The charge-control PIN in the switch, time domain (pin_series_distortion, pin_shunt_distortion).
   const PinDistortion d = in.kind == SwitchKind::series
-                              ? pin_series_distortion(pin.law, in.part.is_a, i, f, in.source_peak_v, in.rg_ohm, in.rl_ohm, in.temp_k)
-                              : pin_shunt_distortion(pin.law, in.part.is_a, i, f, in.source_peak_v, in.rg_ohm, in.rl_ohm, in.temp_k);
+                              ? pin_series_distortion(pin.law, in.part.is_a, i, f, in.source_peak_v, in.source_ohm, in.load_ohm, in.temp_k)
+                              : pin_shunt_distortion(pin.law, in.part.is_a, i, f, in.source_peak_v, in.source_ohm, in.load_ohm, in.temp_k);
   r.result("load_peak_v", "load fundamental (peak)", d.load_peak_v, "V");
   r.result("hd2_dbc", "HD2", d.hd2_dbc, "dBc");
   r.result("hd3_dbc", "HD3", d.hd3_dbc, "dBc");
@@ -457,7 +457,7 @@ void isolation(Run& r) {
     r.assume_all();
     const double f = r.number("freq_hz");
     const auto z = pin_off_impedance(p.pin->ct_f, p.pin->rp_ohm, f) + std::complex<double>(r.number("rr_ohm"), 2.0 * std::numbers::pi * f * r.number("ls_h"));
-    const double db = switch_loss_db(r.kind(), z, r.number("rg_ohm"), r.number("rl_ohm"));
+    const double db = switch_loss_db(r.kind(), z, r.number("source_ohm"), r.number("load_ohm"));
     r.result("ct_f", "PIN off-state CT", p.pin->ct_f, "F");
     if (r.kind() == SwitchKind::series) r.result("isolation_db", "isolation (unbiased series switch)", db, "dB");
     else r.result("loss_db", "insertion loss (unbiased shunt switch)", db, "dB");
@@ -469,7 +469,7 @@ void isolation(Run& r) {
   const double cj = junction_capacitance_f(p.cap, -r.number("reverse_v"));
   const auto z = diode_off_impedance(p.dc, p.charge(), r.number("reverse_v"), r.number("freq_hz"),
                                      {r.number("ls_h"), r.number("rr_ohm")}, p.temp_k);
-  const double db = switch_loss_db(r.kind(), z, r.number("rg_ohm"), r.number("rl_ohm"));
+  const double db = switch_loss_db(r.kind(), z, r.number("source_ohm"), r.number("load_ohm"));
   r.result("cj_f", "Cj at the reverse bias", cj, "F");
   if (r.kind() == SwitchKind::series) r.result("isolation_db", "isolation (unbiased series switch)", db, "dB");
   else r.result("loss_db", "insertion loss (unbiased shunt switch)", db, "dB");
@@ -497,7 +497,7 @@ std::optional<double> rf_emf_peak_v(const Run& r) {
   if (r.has("amplitude_v") && r.has("power_w"))
     throw DesignInputError("power_w", "power_w: give the drive as amplitude_v or as power_w, not both");
   if (r.has("amplitude_v")) return r.number("amplitude_v");
-  if (r.has("power_w")) return emf_peak_from_power_v(r.number("power_w"), r.number("rg_ohm"));
+  if (r.has("power_w")) return emf_peak_from_power_v(r.number("power_w"), r.number("source_ohm"));
   return std::nullopt;
 }
 
@@ -512,7 +512,7 @@ void off_headroom_calc(Run& r) {
   r.assume_all();
   const auto& p = r.part();
   const std::optional<double> bv = r.has("bv_v") ? std::optional<double>(r.number("bv_v")) : std::nullopt;
-  const auto h = off_headroom(r.kind(), p.dc, p.charge(), r.number("reverse_v"), *emf, r.number("rg_ohm"), r.number("rl_ohm"),
+  const auto h = off_headroom(r.kind(), p.dc, p.charge(), r.number("reverse_v"), *emf, r.number("source_ohm"), r.number("load_ohm"),
                               r.number("freq_hz"), series_l(r), p.temp_k, bv, r.number("margin_v"), r.number("onset_a"));
   r.result("emf_peak_v", "EMF peak", *emf, "V");
   r.result("junction_peak_v", "RF peak across the off junction", h.junction_peak_v, "V");
@@ -542,8 +542,8 @@ void junction_temp_calc(Run& r) {
   const auto& p = r.part_at_tnom();
   const double emf = rf_emf_peak_v(r).value_or(0.0);
   const auto at = [&](double ambient_k, double theta) {
-    return junction_heating(r.kind(), p.dc, p.charge(), p.temp_k, p.law, r.number("current_a"), emf, r.number("rg_ohm"),
-                            r.number("rl_ohm"), r.number("freq_hz"), series_l(r), ambient_k, theta);
+    return junction_heating(r.kind(), p.dc, p.charge(), p.temp_k, p.law, r.number("current_a"), emf, r.number("source_ohm"),
+                            r.number("load_ohm"), r.number("freq_hz"), series_l(r), ambient_k, theta);
   };
   const auto h = at(r.number("ambient_k"), r.number("theta_k_per_w"));
   if (!h.converged) return r.not_achievable("no steady junction temperature (thermal runaway at this theta and power)");
@@ -552,7 +552,7 @@ void junction_temp_calc(Run& r) {
     const double w = 2.0 * std::numbers::pi * r.number("freq_hz");
     const auto z = diode_small_signal_impedance(pj.dc, pj.charge(), r.number("current_a"), r.number("freq_hz"), pj.temp_k) +
                    std::complex<double>(0.0, w * r.number("ls_h"));
-    const double i_peak = std::abs(element_current_a(r.kind(), z, emf, r.number("rg_ohm"), r.number("rl_ohm")));
+    const double i_peak = std::abs(element_current_a(r.kind(), z, emf, r.number("source_ohm"), r.number("load_ohm")));
     if (i_peak > r.number("current_a"))
       r.warn("the RF peak current (" + junco::units::format_si(i_peak, "A") + ") exceeds the bias: the diode clips and the "
              "small-signal RF loss share is only an estimate");
@@ -565,7 +565,7 @@ void junction_temp_calc(Run& r) {
       charge.cap.cj0_f = d.cj0_f;
       charge.cap.vj_v = d.vj_v;
     }
-    return on_state_loss_db(r.kind(), dc, charge, r.number("current_a"), r.number("rg_ohm"), r.number("rl_ohm"), r.number("freq_hz"),
+    return on_state_loss_db(r.kind(), dc, charge, r.number("current_a"), r.number("source_ohm"), r.number("load_ohm"), r.number("freq_hz"),
                             series_l(r), temp_k);
   };
   r.report_junction(diode_at_temperature(p.dc, p.temp_k, h.tj_k, p.law), h.tj_k);
@@ -589,16 +589,16 @@ void bias_network_calc(Run& r) {
   net.rbias_ohm = r.number("bias_resistor_ohm");
   net.rground_ohm = r.number("rground_ohm");
   net.feed_diode = r.text("feed_diode") == "same";
-  net.rg_ohm = r.number("rg_ohm");
-  net.rl_ohm = r.number("rl_ohm");
+  net.source_ohm = r.number("source_ohm");
+  net.load_ohm = r.number("load_ohm");
   net.mount = r.kind();
   const bool on = r.text("state") == "on";
   if (!on && net.feed_diode)
     throw DesignInputError("feed_diode", "feed_diode: the off state is computed without an isolating diode (the two junctions would share "
                                          "the reverse bias by their leakage)");
   const double f_lo = r.number("freq_low_hz"), f_hi = r.number("freq_high_hz"), ratio = r.number("ratio");
-  net.cblock_f = r.has("cblock_f") ? r.number("cblock_f") : block_capacitor_f(f_lo, net.rg_ohm, net.rl_ohm, ratio);
-  net.choke_h = r.has("choke_h") ? r.number("choke_h") : choke_inductance_h(f_lo, net.rg_ohm, net.rl_ohm, ratio);
+  net.cblock_f = r.has("cblock_f") ? r.number("cblock_f") : block_capacitor_f(f_lo, net.source_ohm, net.load_ohm, ratio);
+  net.choke_h = r.has("choke_h") ? r.number("choke_h") : choke_inductance_h(f_lo, net.source_ohm, net.load_ohm, ratio);
   net.ferrite_r_ohm = r.has("ferrite_r_ohm") ? r.number("ferrite_r_ohm") : 0.0;
   net.cbypass_f = r.has("cbypass_f") ? r.number("cbypass_f") : 0.0;
   const auto b = network_bias(net, p.dc, p.temp_k);
@@ -642,7 +642,7 @@ void bias_network_calc(Run& r) {
     r.result("lost_isolation_db", "isolation taken away by the network, worst in the band", worst_added, "dB");
   }
   r.result("supply_leak_db", "RF into the supply line, worst in the band", worst_leak, "dB");
-  const double z0 = std::max(net.rg_ohm, net.rl_ohm);
+  const double z0 = std::max(net.source_ohm, net.load_ohm);
   if (net.ferrite_r_ohm > 0 && net.ferrite_r_ohm < ratio * z0)
     r.warn("the ferrite's R (" + junco::units::format_si(net.ferrite_r_ohm, "ohm") + ") is below ratio x Z0: it loads the signal at high frequency");
   if (on && b.i_a <= 0) r.not_achievable("the feed drives no forward current");
@@ -655,7 +655,7 @@ void series_shunt_calc(Run& r) {
   const std::complex<double> z_on =
       diode_small_signal_impedance(p.dc, p.charge(), r.number("current_a"), f, p.temp_k) + std::complex<double>(0.0, w * r.number("ls_h"));
   const auto z_off = diode_off_impedance(p.dc, p.charge(), r.number("reverse_v"), f, {r.number("ls_h"), r.number("rr_ohm")}, p.temp_k);
-  const double rg = r.number("rg_ohm"), rl = r.number("rl_ohm");
+  const double rg = r.number("source_ohm"), rl = r.number("load_ohm");
   r.result("insertion_loss_db", "insertion loss (series on, shunt off)", series_shunt_db(z_on, z_off, rg, rl), "dB");
   r.result("isolation_db", "isolation (series off, shunt on)", series_shunt_db(z_off, z_on, rg, rl), "dB");
   r.result("series_isolation_db", "isolation of the series diode alone, for comparison", series_loss_db(z_off, rg, rl), "dB");
@@ -743,7 +743,7 @@ const std::vector<CalculatorRow>& calculator_rows() {
             circuit_inputs(true))}, bias_for_loss},
       {{"headroom", "least bias that keeps a series switch conducting over the signal swing", false,
        {required("amplitude_v", "amplitude", "V", "load peak", R::positive),
-        with_default("rl_ohm", "rl", "Ohm", "load RL", 50.0, R::positive),
+        with_default("load_ohm", "load", "Ohm", "load RL", 50.0, R::positive),
         with_default("dc_return_ohm", "dc-return", "Ohm", "DC return", inf, R::positive, "choke (no AC shunt)"),
         with_default("floor_a", "floor", "A", "trough floor", 0.0, R::non_negative)}}, headroom},
       {{"distortion",
@@ -934,7 +934,9 @@ DesignPart design_part_from_json(const Json& j) {
 
 const std::vector<std::pair<std::string, std::string>>& design_renamed_inputs() {
   static const std::vector<std::pair<std::string, std::string>> v{{"rbias_ohm", "bias_resistor_ohm"},
-                                                                  {"rreturn_ohm", "dc_return_ohm"}};
+                                                                  {"rreturn_ohm", "dc_return_ohm"},
+                                                                  {"rg_ohm", "source_ohm"},
+                                                                  {"rl_ohm", "load_ohm"}};
   return v;
 }
 

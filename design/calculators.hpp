@@ -100,7 +100,7 @@ const std::vector<DesignInputSpec>& design_part_inputs();
 // one. Throws DesignInputError for an unknown calculator or input, a missing
 // required one, a value of the wrong type or outside its range. A target that
 // cannot be met is not an error: achievable = false and reason say why.
-// Inputs given by an old name (rbias_ohm) are read as the new one with a
+// Inputs given by an old name (rbias_ohm, rg_ohm) are read as the new one with a
 // warning in the answer (design_renamed_inputs: {old, new}).
 nlohmann::json run_design(const std::string& calculator, const DesignPart* part, const nlohmann::json& inputs);
 const std::vector<std::pair<std::string, std::string>>& design_renamed_inputs();

@@ -21,8 +21,8 @@ struct Loop {
 
 Loop make_loop(const DistortionInput& in) {
   const bool series = in.kind == SwitchKind::series;
-  Loop l{in.part, series ? in.rg_ohm + in.rl_ohm : in.rg_ohm * in.rl_ohm / (in.rg_ohm + in.rl_ohm),
-         series ? in.source_peak_v : in.source_peak_v * in.rl_ohm / (in.rg_ohm + in.rl_ohm), 0.0};
+  Loop l{in.part, series ? in.source_ohm + in.load_ohm : in.source_ohm * in.load_ohm / (in.source_ohm + in.load_ohm),
+         series ? in.source_peak_v : in.source_peak_v * in.load_ohm / (in.source_ohm + in.load_ohm), 0.0};
   l.with_loop_r.rs_ohm += l.r_th_ohm;
   l.v_dc = diode_voltage_v(in.part, in.bias_i_a, in.temp_k) + in.bias_i_a * l.r_th_ohm;
   return l;
@@ -253,7 +253,7 @@ DistortionResult solve_distortion(const DistortionInput& in) {
   const bool series = in.kind == SwitchKind::series;
   for (std::size_t j = 0; j < i_a.size(); ++j) {
     const double di = i_a[j] - r.mean_current_a;
-    r.load_v[j] = series ? di * in.rl_ohm : loop.drive_peak_v * std::sin(phase_of(j, i_a.size())) - loop.r_th_ohm * di;
+    r.load_v[j] = series ? di * in.load_ohm : loop.drive_peak_v * std::sin(phase_of(j, i_a.size())) - loop.r_th_ohm * di;
   }
   r.load = summarize_harmonics(harmonic_phasors(r.load_v, in.harmonics));
   r.load_peak_v = r.load.fundamental_peak;

@@ -50,8 +50,8 @@ struct DistortionInput {
   double freq_hz = 10e6;  // signal frequency (matters only with stored charge)
   double bias_i_a = 10e-3;
   double source_peak_v = 0.1;  // open-circuit EMF amplitude of the generator
-  double rg_ohm = 50.0;
-  double rl_ohm = 50.0;
+  double source_ohm = 50.0;
+  double load_ohm = 50.0;
   double temp_k = 300.15;
   int samples = 256;       // per period (time steps of the charge solve)
   int harmonics = 9;       // highest harmonic reported

@@ -65,22 +65,22 @@ class Nodal {
 
 }  // namespace
 
-double emf_peak_from_power_v(double power_w, double rg_ohm) { return 2.0 * std::sqrt(2.0 * power_w * rg_ohm); }
+double emf_peak_from_power_v(double power_w, double source_ohm) { return 2.0 * std::sqrt(2.0 * power_w * source_ohm); }
 
-cplx element_current_a(SwitchKind kind, cplx z, double emf_peak_v, double rg_ohm, double rl_ohm) {
-  if (kind == SwitchKind::series) return emf_peak_v / (rg_ohm + rl_ohm + z);
-  const cplx zp = parallel(z, cplx(rl_ohm));
-  return emf_peak_v * zp / (rg_ohm + zp) / z;
+cplx element_current_a(SwitchKind kind, cplx z, double emf_peak_v, double source_ohm, double load_ohm) {
+  if (kind == SwitchKind::series) return emf_peak_v / (source_ohm + load_ohm + z);
+  const cplx zp = parallel(z, cplx(load_ohm));
+  return emf_peak_v * zp / (source_ohm + zp) / z;
 }
 
 OffHeadroom off_headroom(SwitchKind kind, const DiodeParams& p, const JunctionCharge& charge, double reverse_v,
-                         double emf_peak_v, double rg_ohm, double rl_ohm, double freq_hz, const Parasitics& par,
+                         double emf_peak_v, double source_ohm, double load_ohm, double freq_hz, const Parasitics& par,
                          double temp_k, std::optional<double> bv_v, double margin_v, double onset_a) {
   constexpr double inf = std::numeric_limits<double>::infinity();
   const cplx z = diode_off_impedance(p, charge, reverse_v, freq_hz, par, temp_k);
   const cplx zj = 1.0 / junction_admittance_at_voltage_s(p, charge, -reverse_v, freq_hz, temp_k);
   OffHeadroom h;
-  h.junction_peak_v = std::abs(element_current_a(kind, z, emf_peak_v, rg_ohm, rl_ohm) * zj);
+  h.junction_peak_v = std::abs(element_current_a(kind, z, emf_peak_v, source_ohm, load_ohm) * zj);
   h.forward_margin_v = reverse_v - h.junction_peak_v;
   h.min_reverse_v = h.junction_peak_v + margin_v;
   h.forward_ok = h.forward_margin_v >= margin_v;
@@ -94,7 +94,7 @@ OffHeadroom off_headroom(SwitchKind kind, const DiodeParams& p, const JunctionCh
 
 JunctionHeating junction_heating(SwitchKind kind, const DiodeParams& p_tnom, const JunctionCharge& charge_tnom,
                                  double tnom_k, const TemperatureLaw& law, double bias_i_a, double emf_peak_v,
-                                 double rg_ohm, double rl_ohm, double freq_hz, const Parasitics& par, double ambient_k,
+                                 double source_ohm, double load_ohm, double freq_hz, const Parasitics& par, double ambient_k,
                                  double theta_k_per_w) {
   JunctionHeating h;
   h.tj_k = ambient_k;
@@ -108,7 +108,7 @@ JunctionHeating junction_heating(SwitchKind kind, const DiodeParams& p_tnom, con
     }
     const cplx z = diode_small_signal_impedance(p, charge, bias_i_a, freq_hz, h.tj_k) + cplx(0.0, two_pi * freq_hz * par.ls_h);
     h.dc_w = bias_i_a * diode_voltage_v(p, bias_i_a, h.tj_k);
-    h.rf_w = 0.5 * std::norm(element_current_a(kind, z, emf_peak_v, rg_ohm, rl_ohm)) * z.real();
+    h.rf_w = 0.5 * std::norm(element_current_a(kind, z, emf_peak_v, source_ohm, load_ohm)) * z.real();
     const double next = ambient_k + theta_k_per_w * h.total_w();
     if (!std::isfinite(next) || next <= 0.0) return h;
     const bool settled = std::abs(next - h.tj_k) < 1e-9;
@@ -121,12 +121,12 @@ JunctionHeating junction_heating(SwitchKind kind, const DiodeParams& p_tnom, con
   return h;
 }
 
-double block_capacitor_f(double freq_low_hz, double rg_ohm, double rl_ohm, double ratio) {
-  return ratio / (two_pi * freq_low_hz * std::min(rg_ohm, rl_ohm));
+double block_capacitor_f(double freq_low_hz, double source_ohm, double load_ohm, double ratio) {
+  return ratio / (two_pi * freq_low_hz * std::min(source_ohm, load_ohm));
 }
 
-double choke_inductance_h(double freq_low_hz, double rg_ohm, double rl_ohm, double ratio) {
-  return ratio * std::max(rg_ohm, rl_ohm) / (two_pi * freq_low_hz);
+double choke_inductance_h(double freq_low_hz, double source_ohm, double load_ohm, double ratio) {
+  return ratio * std::max(source_ohm, load_ohm) / (two_pi * freq_low_hz);
 }
 
 NetworkBias network_bias(const BiasNetwork& net, const DiodeParams& p, double temp_k) {
@@ -167,12 +167,12 @@ NetworkResponse network_response(const BiasNetwork& net, cplx zd, cplx z_feed, d
   const int p1 = 1, a = 2, k = series ? 3 : 0, p2 = series ? 4 : 3, f = series ? 5 : 4;
   const int g = net.feed_diode ? f + 1 : f;
   Nodal n(g);
-  n.current_into(p1, 1.0 / net.rg_ohm);  // EMF 1 V behind Rg, as a Norton source
-  n.admittance(p1, 0, 1.0 / net.rg_ohm);
+  n.current_into(p1, 1.0 / net.source_ohm);  // EMF 1 V behind Rg, as a Norton source
+  n.admittance(p1, 0, 1.0 / net.source_ohm);
   n.admittance(p1, a, y_block);
   n.admittance(a, k, 1.0 / zd);  // shunt: k is ground
   n.admittance(series ? k : a, p2, y_block);
-  n.admittance(p2, 0, 1.0 / net.rl_ohm);
+  n.admittance(p2, 0, 1.0 / net.load_ohm);
   n.admittance(a, f, y_choke);
   if (series) n.admittance(k, 0, y_choke);
   if (net.feed_diode) n.admittance(f, g, 1.0 / z_feed);
@@ -180,18 +180,18 @@ NetworkResponse network_response(const BiasNetwork& net, cplx zd, cplx z_feed, d
   if (present(net.rground_ohm)) n.admittance(g, 0, 1.0 / net.rground_ohm);
   if (net.cbypass_f > 0) n.admittance(g, 0, cplx(0.0, w * net.cbypass_f));
   const auto v = n.solve();
-  const double direct = net.rl_ohm / (net.rg_ohm + net.rl_ohm);
+  const double direct = net.load_ohm / (net.source_ohm + net.load_ohm);
   NetworkResponse r;
   r.loss_db = 20.0 * std::log10(direct / std::abs(v[p2 - 1]));
-  r.bare_loss_db = switch_loss_db(net.mount, zd, net.rg_ohm, net.rl_ohm);
+  r.bare_loss_db = switch_loss_db(net.mount, zd, net.source_ohm, net.load_ohm);
   r.supply_leak_db = 20.0 * std::log10(std::abs(v[g - 1]) / direct);
   return r;
 }
 
-double series_shunt_db(cplx zs, cplx zsh, double rg_ohm, double rl_ohm) {
-  const cplx zp = parallel(zsh, cplx(rl_ohm));
-  const cplx v_load = zp / (rg_ohm + zs + zp);
-  return 20.0 * std::log10(rl_ohm / (rg_ohm + rl_ohm) / std::abs(v_load));
+double series_shunt_db(cplx zs, cplx zsh, double source_ohm, double load_ohm) {
+  const cplx zp = parallel(zsh, cplx(load_ohm));
+  const cplx v_load = zp / (source_ohm + zs + zp);
+  return 20.0 * std::log10(load_ohm / (source_ohm + load_ohm) / std::abs(v_load));
 }
 
 double pin_resistance_ohm(const PinLaw& law, double i_a) { return law.r0_ohm + law.k_ohm_a_x * std::pow(i_a, -law.x); }
@@ -207,7 +207,7 @@ PadResistors matched_pad(PadKind kind, double a_db, double z0_ohm) {
   return {z0_ohm * (k * k - 1.0) / (2.0 * k), z0_ohm * (k + 1.0) / (k - 1.0)};
 }
 
-PadResponse pad_response(PadKind kind, const PadResistors& r, double rg_ohm, double rl_ohm) {
+PadResponse pad_response(PadKind kind, const PadResistors& r, double source_ohm, double load_ohm) {
   // ABCD of the cascade: series Z is [1 Z; 0 1], shunt Z is [1 0; 1/Z 1].
   struct Abcd {
     double a, b, c, d;
@@ -217,11 +217,11 @@ PadResponse pad_response(PadKind kind, const PadResistors& r, double rg_ohm, dou
   };
   const Abcd series{1.0, r.series_ohm, 0.0, 1.0}, shunt{1.0, 0.0, 1.0 / r.shunt_ohm, 1.0};
   const Abcd m = kind == PadKind::tee ? series * shunt * series : shunt * series * shunt;
-  const double v_load = rl_ohm / (m.a * rl_ohm + m.b + m.c * rg_ohm * rl_ohm + m.d * rg_ohm);
-  const double z_in = (m.a * rl_ohm + m.b) / (m.c * rl_ohm + m.d);
+  const double v_load = load_ohm / (m.a * load_ohm + m.b + m.c * source_ohm * load_ohm + m.d * source_ohm);
+  const double z_in = (m.a * load_ohm + m.b) / (m.c * load_ohm + m.d);
   PadResponse out;
-  out.loss_db = 20.0 * std::log10(rl_ohm / (rg_ohm + rl_ohm) / v_load);
-  out.reflection = std::abs((z_in - rg_ohm) / (z_in + rg_ohm));
+  out.loss_db = 20.0 * std::log10(load_ohm / (source_ohm + load_ohm) / v_load);
+  out.reflection = std::abs((z_in - source_ohm) / (z_in + source_ohm));
   out.return_loss_db = -20.0 * std::log10(out.reflection);
   return out;
 }

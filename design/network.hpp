@@ -27,16 +27,16 @@
 
 namespace junco::fitting {
 
-// EMF peak of a source of available power power_w and resistance rg_ohm:
+// EMF peak of a source of available power power_w and resistance source_ohm:
 // P = EMF²/(8·Rg), so EMF = 2·sqrt(2·P·Rg) (the load peak into a matched
 // load is then sqrt(2·P·Z0), docs/references.md §6).
-double emf_peak_from_power_v(double power_w, double rg_ohm);
+double emf_peak_from_power_v(double power_w, double source_ohm);
 
 // Peak current through a series or shunt element z driven by an EMF of peak
-// emf_peak_v behind rg_ohm, with the load rl_ohm (series: in series with the
+// emf_peak_v behind source_ohm, with the load load_ohm (series: in series with the
 // load; shunt: across it).
-std::complex<double> element_current_a(SwitchKind kind, std::complex<double> z, double emf_peak_v, double rg_ohm,
-                                       double rl_ohm);
+std::complex<double> element_current_a(SwitchKind kind, std::complex<double> z, double emf_peak_v, double source_ohm,
+                                       double load_ohm);
 
 // ---- a. off-state headroom ---------------------------------------------------
 // A reverse-biased (off) diode sees the RF across its junction on top of the
@@ -59,7 +59,7 @@ struct OffHeadroom {
   bool ok() const { return forward_ok && breakdown_ok; }
 };
 OffHeadroom off_headroom(SwitchKind kind, const DiodeParams& p, const JunctionCharge& charge, double reverse_v,
-                         double emf_peak_v, double rg_ohm, double rl_ohm, double freq_hz, const Parasitics& par,
+                         double emf_peak_v, double source_ohm, double load_ohm, double freq_hz, const Parasitics& par,
                          double temp_k, std::optional<double> bv_v, double margin_v, double onset_a);
 
 // ---- b. dissipation and junction temperature --------------------------------
@@ -76,7 +76,7 @@ struct JunctionHeating {
 };
 JunctionHeating junction_heating(SwitchKind kind, const DiodeParams& p_tnom, const JunctionCharge& charge_tnom,
                                  double tnom_k, const TemperatureLaw& law, double bias_i_a, double emf_peak_v,
-                                 double rg_ohm, double rl_ohm, double freq_hz, const Parasitics& par, double ambient_k,
+                                 double source_ohm, double load_ohm, double freq_hz, const Parasitics& par, double ambient_k,
                                  double theta_k_per_w);
 
 // ---- c. the bias network -----------------------------------------------------
@@ -123,15 +123,15 @@ struct BiasNetwork {
   double choke_h = 0.0;          // each choke
   double ferrite_r_ohm = 0.0;    // > 0: the chokes are ferrites, R∥L
   double cbypass_f = 0.0;        // > 0: a bypass capacitor from G to ground
-  double rg_ohm = 50.0, rl_ohm = 50.0;
+  double source_ohm = 50.0, load_ohm = 50.0;
   SwitchKind mount = SwitchKind::series;
 };
 
 // Sizing for a band from f_low (the reactances are worst at the low edge):
 // |Xc| = min(Rg, RL)/ratio and |XL| = ratio·max(Rg, RL) at f_low (common
 // practice: ratio 10, docs/references.md §6 [P]).
-double block_capacitor_f(double freq_low_hz, double rg_ohm, double rl_ohm, double ratio);
-double choke_inductance_h(double freq_low_hz, double rg_ohm, double rl_ohm, double ratio);
+double block_capacitor_f(double freq_low_hz, double source_ohm, double load_ohm, double ratio);
+double choke_inductance_h(double freq_low_hz, double source_ohm, double load_ohm, double ratio);
 
 struct NetworkBias {
   double thevenin_v = 0.0, thevenin_ohm = 0.0;
@@ -155,7 +155,7 @@ NetworkResponse network_response(const BiasNetwork& net, std::complex<double> z_
 
 // ---- d. topologies -------------------------------------------------------------
 // Series zs then shunt zsh across the load, between Rg and RL.
-double series_shunt_db(std::complex<double> zs, std::complex<double> zsh, double rg_ohm, double rl_ohm);
+double series_shunt_db(std::complex<double> zs, std::complex<double> zsh, double source_ohm, double load_ohm);
 
 // A PIN diode's RF resistance against its bias current, R(I) = R0 + K·I^−x
 // (PinLaw, fitting/pin_diode.hpp: the one home of the law)
@@ -176,12 +176,12 @@ struct PadResistors {
 PadResistors matched_pad(PadKind kind, double a_db, double z0_ohm);
 
 // Loss and input return loss of a pad built from the given resistors between
-// rg_ohm and rl_ohm.
+// source_ohm and load_ohm.
 struct PadResponse {
   double loss_db = 0.0;
-  double reflection = 0.0;      // |Γin|, the input against rg_ohm (0 when matched)
+  double reflection = 0.0;      // |Γin|, the input against source_ohm (0 when matched)
   double return_loss_db = 0.0;  // −20·log10|Γin| (infinite when matched)
 };
-PadResponse pad_response(PadKind kind, const PadResistors& r, double rg_ohm, double rl_ohm);
+PadResponse pad_response(PadKind kind, const PadResistors& r, double source_ohm, double load_ohm);
 
 }  // namespace junco::fitting

@@ -11,17 +11,17 @@ using cplx = std::complex<double>;
 
 const char* to_string(SwitchKind kind) { return kind == SwitchKind::series ? "series" : "shunt"; }
 
-double series_loss_db(cplx z, double rg_ohm, double rl_ohm) {
-  return 20.0 * std::log10(std::abs(1.0 + z / (rg_ohm + rl_ohm)));
+double series_loss_db(cplx z, double source_ohm, double load_ohm) {
+  return 20.0 * std::log10(std::abs(1.0 + z / (source_ohm + load_ohm)));
 }
 
-double shunt_loss_db(cplx z, double rg_ohm, double rl_ohm) {
-  const double r_par = rg_ohm * rl_ohm / (rg_ohm + rl_ohm);
+double shunt_loss_db(cplx z, double source_ohm, double load_ohm) {
+  const double r_par = source_ohm * load_ohm / (source_ohm + load_ohm);
   return 20.0 * std::log10(std::abs(1.0 + r_par / z));
 }
 
-double switch_loss_db(SwitchKind kind, cplx z, double rg_ohm, double rl_ohm) {
-  return kind == SwitchKind::series ? series_loss_db(z, rg_ohm, rl_ohm) : shunt_loss_db(z, rg_ohm, rl_ohm);
+double switch_loss_db(SwitchKind kind, cplx z, double source_ohm, double load_ohm) {
+  return kind == SwitchKind::series ? series_loss_db(z, source_ohm, load_ohm) : shunt_loss_db(z, source_ohm, load_ohm);
 }
 
 double series_shunt_loss_db(cplx zs, cplx zsh, double z0_ohm) {
@@ -43,16 +43,16 @@ cplx diode_off_impedance(const DiodeParams& p, const JunctionCharge& charge, dou
 }
 
 double on_state_loss_db(SwitchKind kind, const DiodeParams& p, const JunctionCharge& charge, double bias_i_a,
-                        double rg_ohm, double rl_ohm, double freq_hz, const Parasitics& par, double temp_k) {
+                        double source_ohm, double load_ohm, double freq_hz, const Parasitics& par, double temp_k) {
   const double w = 2.0 * std::numbers::pi * freq_hz;
   const cplx z = diode_small_signal_impedance(p, charge, bias_i_a, freq_hz, temp_k) + cplx(0.0, w * par.ls_h);
-  return switch_loss_db(kind, z, rg_ohm, rl_ohm);
+  return switch_loss_db(kind, z, source_ohm, load_ohm);
 }
 
 std::optional<double> bias_for_loss_a(SwitchKind kind, const DiodeParams& p, const JunctionCharge& charge,
-                                      double target_db, double rg_ohm, double rl_ohm, double freq_hz,
+                                      double target_db, double source_ohm, double load_ohm, double freq_hz,
                                       const Parasitics& par, double temp_k, std::string* why) {
-  const auto loss = [&](double i) { return on_state_loss_db(kind, p, charge, i, rg_ohm, rl_ohm, freq_hz, par, temp_k); };
+  const auto loss = [&](double i) { return on_state_loss_db(kind, p, charge, i, source_ohm, load_ohm, freq_hz, par, temp_k); };
   return bias_for_loss_a(kind, loss, target_db, "Rs", why);
 }
 

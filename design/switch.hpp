@@ -28,9 +28,9 @@ namespace junco::fitting {
 enum class SwitchKind { series, shunt };
 const char* to_string(SwitchKind kind);
 
-double series_loss_db(std::complex<double> z, double rg_ohm, double rl_ohm);
-double shunt_loss_db(std::complex<double> z, double rg_ohm, double rl_ohm);
-double switch_loss_db(SwitchKind kind, std::complex<double> z, double rg_ohm, double rl_ohm);
+double series_loss_db(std::complex<double> z, double source_ohm, double load_ohm);
+double shunt_loss_db(std::complex<double> z, double source_ohm, double load_ohm);
+double switch_loss_db(SwitchKind kind, std::complex<double> z, double source_ohm, double load_ohm);
 // Series Zs followed by shunt Zsh between Z0 ports (S21 = 2/(A + B/Z0 + C·Z0 + D)).
 double series_shunt_loss_db(std::complex<double> zs, std::complex<double> zsh, double z0_ohm);
 
@@ -56,7 +56,7 @@ std::complex<double> diode_off_impedance(const DiodeParams& p, const JunctionCha
 // refines it. nullopt with *why when the target cannot be met (e.g. Rs alone
 // exceeds it).
 std::optional<double> bias_for_loss_a(SwitchKind kind, const DiodeParams& p, const JunctionCharge& charge,
-                                      double target_db, double rg_ohm, double rl_ohm, double freq_hz,
+                                      double target_db, double source_ohm, double load_ohm, double freq_hz,
                                       const Parasitics& par, double temp_k, std::string* why = nullptr);
 
 // The same search over any biased-state loss as a function of the bias
@@ -68,6 +68,6 @@ std::optional<double> bias_for_loss_a(SwitchKind kind, const std::function<doubl
 
 // Biased-state loss (series: insertion loss; shunt: isolation) at a bias current.
 double on_state_loss_db(SwitchKind kind, const DiodeParams& p, const JunctionCharge& charge, double bias_i_a,
-                        double rg_ohm, double rl_ohm, double freq_hz, const Parasitics& par, double temp_k);
+                        double source_ohm, double load_ohm, double freq_hz, const Parasitics& par, double temp_k);
 
 }  // namespace junco::fitting

@@ -129,7 +129,7 @@ struct PinDistortion {
   double min_current_a = 0.0, max_current_a = 0.0;
 };
 PinDistortion pin_series_distortion(const PinLaw& law, double is_a, double bias_i_a, double freq_hz, double source_peak_v,
-                                    double rg_ohm, double rl_ohm, double temp_k, int steps_per_period = 512);
+                                    double source_ohm, double load_ohm, double temp_k, int steps_per_period = 512);
 
 // The same solve in a shunt switch: source EMF → Rg → line node (RL to
 // ground) → DC block → anode (bias current I_b fed in, open at AC) → PIN →
@@ -138,6 +138,6 @@ PinDistortion pin_series_distortion(const PinLaw& law, double is_a, double bias_
 // line voltage (the load's) is (e − Rg·i_c)·RL/(Rg + RL); the harmonics are
 // of that voltage. load_peak_v its fundamental, min/max_current_a the PIN's.
 PinDistortion pin_shunt_distortion(const PinLaw& law, double is_a, double bias_i_a, double freq_hz, double source_peak_v,
-                                   double rg_ohm, double rl_ohm, double temp_k, int steps_per_period = 512);
+                                   double source_ohm, double load_ohm, double temp_k, int steps_per_period = 512);
 
 }  // namespace junco::fitting

@@ -30,20 +30,20 @@ cplx diode_on_impedance(const AcPart& part, double bias_i_a, double freq_hz, dou
 }
 
 double cathode_load_ohm(const Fixture& fx) {
-  return std::isfinite(fx.dc_return_ohm) ? fx.rl_ohm * fx.dc_return_ohm / (fx.rl_ohm + fx.dc_return_ohm) : fx.rl_ohm;
+  return std::isfinite(fx.dc_return_ohm) ? fx.load_ohm * fx.dc_return_ohm / (fx.load_ohm + fx.dc_return_ohm) : fx.load_ohm;
 }
 
 cplx fixture_gain(const Fixture& fx, cplx z_diode) {
   // The anode node is ch1; the diode and the cathode-node load form a divider.
-  const cplx z_cathode = parallel(cplx(fx.rl_ohm), fx.dc_return_ohm);
+  const cplx z_cathode = parallel(cplx(fx.load_ohm), fx.dc_return_ohm);
   return z_cathode / (z_diode + z_cathode);
 }
 
 cplx transfer_ratio(const Fixture& fx, cplx z_diode) {
-  const cplx z_cathode = parallel(cplx(fx.rl_ohm), fx.dc_return_ohm);
+  const cplx z_cathode = parallel(cplx(fx.load_ohm), fx.dc_return_ohm);
   const cplx z_in = parallel(z_diode + z_cathode, fx.bias_feed_ohm);
-  const cplx vin_per_emf = z_in / (fx.rg_ohm + z_in);
-  const double thru_per_emf = fx.rl_ohm / (fx.rg_ohm + fx.rl_ohm);
+  const cplx vin_per_emf = z_in / (fx.source_ohm + z_in);
+  const double thru_per_emf = fx.load_ohm / (fx.source_ohm + fx.load_ohm);
   return vin_per_emf * fixture_gain(fx, z_diode) / thru_per_emf;
 }
 

@@ -42,8 +42,8 @@ namespace junco::fitting {
 inline constexpr double no_shunt_ohm = std::numeric_limits<double>::infinity();
 
 struct Fixture {
-  double rg_ohm = 50.0;               // signal source resistance
-  double rl_ohm = 50.0;               // load
+  double source_ohm = 50.0;               // signal source resistance
+  double load_ohm = 50.0;               // load
   double bias_feed_ohm = no_shunt_ohm;  // Rb: supply to anode (AC shunt at the anode)
   double dc_return_ohm = no_shunt_ohm;  // Rr: cathode to ground (AC shunt at the cathode)
 };

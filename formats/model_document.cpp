@@ -4,6 +4,7 @@
 
 #include <nlohmann/json.hpp>
 
+#include <algorithm>
 #include <cmath>
 
 namespace junco::fitting {
@@ -51,6 +52,42 @@ std::string string_at(const Json& obj, const char* key, const std::string& where
   return obj.at(key).get<std::string>();
 }
 
+// covariance: {"parameters":[model keys], "matrix":[[...]] (n x n, finite,
+// symmetric, diagonal >= 0), "source":"..."}; each parameter a key of model.
+void read_covariance(const Json& c, const Json& model, PartModel& p) {
+  if (!c.is_object()) throw Bad("covariance must be an object {\"parameters\":[...], \"matrix\":[[...]]}");
+  if (!c.contains("parameters") || !c.at("parameters").is_array()) throw Bad("covariance.parameters must be an array of model keys");
+  std::vector<std::string> names;
+  for (const auto& n : c.at("parameters")) {
+    if (!n.is_string()) throw Bad("covariance.parameters must be an array of model keys");
+    const std::string name = n.get<std::string>();
+    if (!model.contains(name)) throw Bad("covariance.parameters: '" + name + "' is not a key of model");
+    if (std::find(names.begin(), names.end(), name) != names.end()) throw Bad("covariance.parameters: '" + name + "' twice");
+    names.push_back(name);
+  }
+  const std::size_t n = names.size();
+  const std::string shape = "covariance.matrix must be " + std::to_string(n) + " x " + std::to_string(n) + " numbers (one row per parameter)";
+  if (!c.contains("matrix") || !c.at("matrix").is_array() || c.at("matrix").size() != n) throw Bad(shape);
+  std::vector<std::vector<double>> m(n, std::vector<double>(n, 0.0));
+  for (std::size_t a = 0; a < n; ++a) {
+    const Json& row = c.at("matrix").at(a);
+    if (!row.is_array() || row.size() != n) throw Bad(shape);
+    for (std::size_t b = 0; b < n; ++b) {
+      if (!row.at(b).is_number() || !std::isfinite(row.at(b).get<double>())) throw Bad(shape);
+      m[a][b] = row.at(b).get<double>();
+    }
+  }
+  for (std::size_t a = 0; a < n; ++a) {
+    if (!(m[a][a] >= 0.0)) throw Bad("covariance.matrix: the variance of " + names[a] + " is negative");
+    for (std::size_t b = 0; b < a; ++b)
+      if (std::fabs(m[a][b] - m[b][a]) > 1e-9 * std::sqrt(m[a][a] * m[b][b]))
+        throw Bad("covariance.matrix is not symmetric (" + names[a] + ", " + names[b] + ")");
+  }
+  p.covariance_names = std::move(names);
+  p.covariance = std::move(m);
+  p.covariance_source = string_at(c, "source", "covariance");
+}
+
 }  // namespace
 
 std::string model_document_json(const PartModel& p) {
@@ -68,7 +105,7 @@ std::string model_document_json(const PartModel& p) {
   Json doc{{"format", model_document_format},
            {"version", model_document_version},
            {"part", part},
-           {"temperature_k", p.temp_k},
+           {"temp_k", p.temp_k},
            {"model", model},
            {"temperature_law",
             {{"eg_ev", p.law.eg_ev}, {"xti", p.law.xti}, {"trs1_per_k", p.law.trs1_per_k}, {"trs2_per_k2", p.law.trs2_per_k2}}}};
@@ -80,6 +117,8 @@ std::string model_document_json(const PartModel& p) {
     if (std::isfinite(p.pin->rp_ohm)) doc["pin"]["rp_ohm"] = p.pin->rp_ohm;
   }
   if (std::isfinite(p.rms_residual)) doc["fit"] = {{"rms_residual", p.rms_residual}, {"points_used", p.points_used}};
+  if (!p.covariance_names.empty())
+    doc["covariance"] = {{"parameters", p.covariance_names}, {"matrix", p.covariance}, {"source", p.covariance_source}};
   return doc.dump(2) + "\n";
 }
 
@@ -89,9 +128,9 @@ std::optional<PartModel> parse_model_document(const std::string& text, std::stri
     if (!doc.is_object()) throw Bad("document must be a JSON object");
     if (doc.value("format", std::string()) != model_document_format)
       throw Bad(std::string("format must be \"") + model_document_format + "\"");
-    if (!doc.contains("version") || !doc.at("version").is_number_integer() ||
-        doc.at("version").get<int>() != model_document_version)
-      throw Bad("version must be " + std::to_string(model_document_version));
+    const int version = doc.contains("version") && doc.at("version").is_number_integer() ? doc.at("version").get<int>() : 0;
+    if (version != model_document_version && version != 1)
+      throw Bad("version must be " + std::to_string(model_document_version) + " (or 1, the previous one)");
     PartModel p;
     if (doc.contains("part")) {
       const Json& part = doc.at("part");
@@ -100,8 +139,12 @@ std::optional<PartModel> parse_model_document(const std::string& text, std::stri
       p.lot = string_at(part, "lot", "part");
       p.run_id = string_at(part, "run_id", "part");
     }
-    p.temp_k = number_at(doc, "temperature_k", "document");
-    if (!(p.temp_k > 0.0)) throw Bad("temperature_k must be positive (kelvin)");
+    // Version 1 named the temperature temperature_k; from version 2 it is temp_k as everywhere else.
+    const char* const temp_key = version == 1 ? "temperature_k" : "temp_k";
+    if (version != 1 && !doc.contains("temp_k") && doc.contains("temperature_k"))
+      throw Bad("temperature_k is version 1's name: a version " + std::to_string(version) + " document says temp_k");
+    p.temp_k = number_at(doc, temp_key, "document");
+    if (!(p.temp_k > 0.0)) throw Bad(std::string(temp_key) + " must be positive (kelvin)");
     if (!doc.contains("model") || !doc.at("model").is_object()) throw Bad("model is missing");
     const Json& model = doc.at("model");
     read_estimate(model, "is_a", true, p.params.is_a, &p.is_se_a);
@@ -144,6 +187,7 @@ std::optional<PartModel> parse_model_document(const std::string& text, std::stri
       if (fit.contains("points_used") && fit.at("points_used").is_number_unsigned())
         p.points_used = fit.at("points_used").get<std::size_t>();
     }
+    if (version != 1 && doc.contains("covariance")) read_covariance(doc.at("covariance"), model, p);
     return p;
   } catch (const Json::exception& e) {
     if (why) *why = std::string("not valid JSON: ") + e.what();
@@ -167,6 +211,19 @@ PartModel part_model_from_fit(const FitResult& fit, std::string part_label, std:
   m.rs_se_ohm = fit.rs_ohm.std_error;
   m.rms_residual = fit.rms_residual;
   m.points_used = fit.points_used;
+  // The forward fit's covariance, when it has a whole one.
+  bool whole = !fit.parameter_names.empty() && fit.covariance.size() == fit.parameter_names.size();
+  for (const auto& row : fit.covariance) {
+    whole = whole && row.size() == fit.parameter_names.size();
+    for (double x : row) whole = whole && std::isfinite(x);
+  }
+  if (whole) {
+    m.covariance_names = fit.parameter_names;
+    m.covariance = fit.covariance;
+    std::string names;
+    for (const auto& name : m.covariance_names) names += (names.empty() ? "" : ", ") + name;
+    m.covariance_source = "forward fit: " + names;
+  }
   return m;
 }
 

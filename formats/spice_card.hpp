@@ -38,6 +38,13 @@ struct PartModel {
   double rms_residual = std::numeric_limits<double>::quiet_NaN();  // of the fit, as the fit reports it
   std::size_t points_used = 0;
   std::optional<PinPart> pin;  // a PIN part's law and off state (not expressible in the level-1 card)
+  // The fitted parameters' covariance (model keys, e.g. is_a, n, rs_ohm, cj0_f,
+  // vj_v, m, tt_s; matrix in that order, SI units squared), what the design
+  // calculators propagate; empty when not known. covariance_source says
+  // where it came from ("fit 12: is_a, n, rs_ohm, tt_s").
+  std::vector<std::string> covariance_names;
+  std::vector<std::vector<double>> covariance;
+  std::string covariance_source;
   std::vector<std::string> notes;  // extra comment lines for the card (e.g. what a lot nominal is made of)
 };
 

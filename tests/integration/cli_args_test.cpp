@@ -61,11 +61,11 @@ TEST_CASE("one set of exit statuses and generated help", "[cli]") {
   for (const char* opt : {"--match-current", "--match-tol", "--set-size", "--out", "--name", "exit status", "examples:"})
     CHECK(help.out.find(opt) != std::string::npos);
   CHECK(run_junco("export stats --set-size 1 x.json").status == 2);
-  const auto plot = run_junco("plot ac --readings x.csv --model y.json --out z.svg --rl 5x");
+  const auto plot = run_junco("plot ac --readings x.csv --model y.json --out z.svg --load 5x");
   CHECK(plot.status == 2);
-  const auto fit = run_junco("fit " + examples + "kestrel24b_k24b017.csv --rl 5x");
+  const auto fit = run_junco("fit " + examples + "kestrel24b_k24b017.csv --load 5x");
   CHECK(fit.status == 2);
-  CHECK(fit.out.find("--rl: '5x': unknown suffix 'x'") != std::string::npos);
+  CHECK(fit.out.find("--load: '5x': unknown suffix 'x'") != std::string::npos);
 }
 
 TEST_CASE("the fixture resistors' old option names work and name the new ones", "[cli]") {
@@ -116,7 +116,7 @@ TEST_CASE("submit, watch, transfer, bench, lab: CLI11 help, one-line errors, the
                              {"transfer WR-03 --cj 2xF", "junco transfer: --cj: '2xF'"},
                              {"transfer WR-03 --run 0", "junco transfer: --run: must be a positive integer id, not '0'"},
                              {"bench extra", "junco bench: unknown option or extra argument 'extra'"},
-                             {"lab", "junco lab: A subcommand is required"},
+                             {"lab", "junco lab: which lab command? (lots, parts, stats; see junco lab --help)"},
                              {"lab parts", "junco lab: LOT is required"},
                              {"lab lots --bench b1", "junco lab: unknown option or extra argument '--bench b1'"}};
   for (const auto& b : bad) {
@@ -138,4 +138,85 @@ TEST_CASE("submit, watch, transfer, bench, lab: CLI11 help, one-line errors, the
   const auto lab = run_junco("lab --json lots --db 'host=/nonexistent-" + std::string("dir") + " connect_timeout=1'");
   INFO(lab.out);
   CHECK(lab.status == 1);
+}
+
+TEST_CASE("--rg and --rl are now --source and --load: the old ones work and warn, both at once are refused", "[cli]") {
+  // docs/names.md: source_ohm / --source, load_ohm / --load. Unequal values, so a
+  // swap of the two shows in the assumed lines and in the load voltage.
+  const std::string part = "design distortion --is 1n --n 1.8 --rs 0.6 --current 1mA --amplitude 0.1V ";
+  const auto now = run_junco(part + "--source 75 --load 25");
+  const auto old = run_junco(part + "--rg 75 --rl=25");
+  INFO(now.out << "\n" << old.out);
+  REQUIRE(now.status == 0);
+  REQUIRE(old.status == 0);
+  CHECK(now.out.find("warning") == std::string::npos);
+  CHECK(old.out.find("junco design: warning: --rg is now spelled --source (the old spelling still works for now)") != std::string::npos);
+  CHECK(old.out.find("junco design: warning: --rl is now spelled --load") != std::string::npos);
+  CHECK(old.out.substr(old.out.find("part ")) == now.out.substr(now.out.find("part ")));
+  CHECK(now.out.find("source Rg        75 ohm") != std::string::npos);
+  CHECK(now.out.find("load RL          25 ohm") != std::string::npos);
+  // junco fit and junco plot take the same names.
+  const auto fit_old = run_junco("fit " + examples + "kestrel24b_k24b017.csv --rl 50");
+  CHECK(fit_old.status == 0);
+  CHECK(fit_old.out.find("junco fit: warning: --rl is now spelled --load") != std::string::npos);
+  const auto plot_old = run_junco("plot ac --readings x.csv --model y.json --out z.svg --rg 5x");
+  CHECK(plot_old.status == 2);
+  CHECK(plot_old.out.find("junco plot: warning: --rg is now spelled --source") != std::string::npos);
+  CHECK(plot_old.out.find("--source: '5x'") != std::string::npos);
+  // Both spellings of one option: one line naming the one to give, not CLI11's
+  // "At Most 1 required but received 2"; for every renamed pair.
+  struct Both {
+    std::string args, says;
+  };
+  const std::vector<Both> both{
+      {part + "--rg 50 --source 50", "junco design: give --source only (--rg is its old spelling)"},
+      {part + "--load=50 --rl 50", "junco design: give --load only (--rl is its old spelling)"},
+      {"design op --is 1n --n 1 --rs 1 --supply 5 --rbias 1k --bias-resistor 1k", "junco design: give --bias-resistor only (--rbias is its old spelling)"},
+      {"design op --is 1n --n 1 --rs 1 --supply 5 --bias-resistor 1k --dc-return 1 --rreturn 1", "junco design: give --dc-return only (--rreturn is its old spelling)"},
+      {"design op --is 1n --n 1 --rs 1 --supply 5 --bias-resistor 1k --temp 20 --temp-c 20", "junco design: give --temp-c only (--temp is its old spelling)"},
+      {"fit " + examples + "kestrel24b_k24b017.csv --rl 50 --load 50", "junco fit: give --load only (--rl is its old spelling)"},
+      {"fit " + examples + "kestrel24b_k24b017.csv --rreturn 1k --dc-return 1k", "junco fit: give --dc-return only (--rreturn is its old spelling)"},
+      {"plot ac --readings x.csv --model y.json --out z.svg --rbias 1k --bias-resistor 1k", "junco plot: give --bias-resistor only (--rbias is its old spelling)"}};
+  for (const auto& b : both) {
+    const auto r = run_junco(b.args);
+    INFO(b.args << ": " << r.out);
+    CHECK(r.status == 2);
+    CHECK(r.out == b.says + "\n");
+  }
+}
+
+TEST_CASE("an unknown or missing first word names the choices; design's usage line has no stray []", "[cli]") {
+  struct Bad {
+    std::string args, says;
+  };
+  const std::vector<Bad> bad{
+      {"plot foo", "junco plot: no such plot 'foo' (iv, ac, off, lot)\n"},
+      {"plot", "junco plot: which plot? (iv, ac, off, lot; see junco plot --help)\n"},
+      {"plot --out x.svg", "junco plot: which plot? (iv, ac, off, lot; see junco plot --help)\n"},
+      {"lab foo", "junco lab: no such lab command 'foo' (lots, parts, stats)\n"},
+      {"export foo a.json", "junco export: no such format 'foo' (spice, json, touchstone, stats)\n"},
+      {"export", "junco export: which format? (spice, json, touchstone, stats; see junco export --help)\n"},
+      {"design foo --supply 5", "junco design: no such calculator 'foo' (op, bias-r, loss, "}};
+  for (const auto& b : bad) {
+    const auto r = run_junco(b.args);
+    INFO(b.args << ": " << r.out);
+    CHECK(r.status == 2);
+    CHECK(r.out.rfind(b.says, 0) == 0);
+  }
+  const auto none = run_junco("design");
+  CHECK(none.status == 2);
+  CHECK(none.out.find("junco design: which calculator? (op, bias-r,") == 0);
+  // The help of a command with subcommands still answers (exit 0).
+  for (const char* help : {"plot --help", "design --help", "lab --help", "export --help", "plot ac --help", "design loss --help"}) {
+    const auto r = run_junco(help);
+    INFO(help << ": " << r.out);
+    CHECK(r.status == 0);
+  }
+  // Usage lines as CLI11 prints them: no empty [] (a hidden positional's name).
+  const auto design_help = run_junco("design --help");
+  const std::size_t usage = design_help.out.find("Usage: junco design");
+  REQUIRE(usage != std::string::npos);
+  const std::string usage_line = design_help.out.substr(usage, design_help.out.find('\n', usage) - usage);
+  CHECK(usage_line.find("[]") == std::string::npos);
+  CHECK(usage_line.find("SUBCOMMAND") != std::string::npos);
 }

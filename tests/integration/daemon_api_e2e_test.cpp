@@ -147,7 +147,7 @@ TEST_CASE("a job runs end to end: events, readings, fits, figures", "[e2e]") {
     // Vt = kT/q with the exact 2019 SI k and q (docs/references.md §1), T = 300.15 K.
     const double vt = 1.380649e-23 * 300.15 / 1.602176634e-19;
     const double vf = 1e-3 * rs + n * vt * std::log1p(1e-3 / is_a);
-    CHECK(fig["vf_v"].get<double>() == Approx(vf).epsilon(1e-6));
+    CHECK(fig["vf_v"]["value"].get<double>() == Approx(vf).epsilon(1e-6));
   }
   // A refused plan names the limit and leaves nothing queued.
   auto hot = plan(1, 5, 0.0);

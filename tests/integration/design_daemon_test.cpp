@@ -139,6 +139,21 @@ TEST_CASE("part.design answers as the calculators do on the exported model", "[d
     CHECK(old["warnings"].dump().find("rreturn_ohm is now spelled dc_return_ohm") != std::string::npos);
     CHECK(now["warnings"].empty());
   }
+  // rg_ohm and rl_ohm likewise (now source_ohm, load_ohm); both spellings at once: -32602 naming the old one.
+  {
+    const Json old = b.result("part.design", {{"part_id", 1}, {"calculator", "loss"},
+                                              {"inputs", {{"current_a", 1e-3}, {"switch", "shunt"}, {"rg_ohm", 75.0}, {"rl_ohm", 25.0}}}});
+    const Json now = b.result("part.design", {{"part_id", 1}, {"calculator", "loss"},
+                                              {"inputs", {{"current_a", 1e-3}, {"switch", "shunt"}, {"source_ohm", 75.0}, {"load_ohm", 25.0}}}});
+    CHECK(old["result"] == now["result"]);
+    CHECK(old["warnings"].dump().find("rg_ohm is now spelled source_ohm") != std::string::npos);
+    CHECK(old["warnings"].dump().find("rl_ohm is now spelled load_ohm") != std::string::npos);
+    const Json both = b.client().request(
+        "part.design", {{"part_id", 1}, {"calculator", "loss"}, {"inputs", {{"current_a", 1e-3}, {"rg_ohm", 50.0}, {"source_ohm", 50.0}}}});
+    CHECK(both["error"]["code"] == -32602);
+    CHECK(both["error"]["data"]["field"] == "inputs.rg_ohm");
+    CHECK(both["error"]["message"].get<std::string>().find("give source_ohm only") != std::string::npos);
+  }
   reply = b.client().request("part.design", {{"part_id", 1}, {"calculator", "op"}, {"inputs", {{"supply_v", 5.0}, {"bias_resistor_ohm", 1.0}, {"vbias", 3}}}});
   CHECK(reply["error"]["data"]["field"] == "inputs.vbias");
   reply = b.client().request("part.design", {{"part_id", 1}, {"calculator", "warp"}});

@@ -50,7 +50,7 @@ TEST_CASE("junco-sim at 400 K/W: the electro-thermal fit recovers the isothermal
     }
     ft::Fixture fx;
     const Json& f = r["run"]["fixture"];
-    fx.rl_ohm = f.value("load_ohm", 50.0);
+    fx.load_ohm = f.value("load_ohm", 50.0);
     if (f.value("dc_return_ohm", 0.0) > 0) fx.dc_return_ohm = f["dc_return_ohm"].get<double>();
     const auto screen = ft::screen_ac_readings(ac, fx, {});
     std::vector<ft::AcPoint> used;

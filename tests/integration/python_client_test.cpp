@@ -99,8 +99,8 @@ TEST_CASE("lot_to_csv.py writes the lot's fits as the daemon reports them", "[py
     CHECK(std::stod(cells[col("is_a")]) == Approx(fit["is_a"]["value"].get<double>()).epsilon(1e-12));
     CHECK(std::stod(cells[col("n_se")]) == Approx(fit["n"]["std_error"].get<double>()).epsilon(1e-12));
     CHECK(std::stod(cells[col("rs_ohm")]) == Approx(fit["rs_ohm"]["value"].get<double>()).epsilon(1e-12));
-    CHECK(std::stod(cells[col("vf_v@0.01A")]) == Approx(figs[1]["vf_v"].get<double>()).epsilon(1e-12));
-    CHECK(std::stod(cells[col("rd_ohm@0.001A")]) == Approx(figs[0]["rd_ohm"].get<double>()).epsilon(1e-12));
+    CHECK(std::stod(cells[col("vf_v@0.01A")]) == Approx(figs[1]["vf_v"]["value"].get<double>()).epsilon(1e-12));
+    CHECK(std::stod(cells[col("rd_ohm@0.001A")]) == Approx(figs[0]["rd_ohm"]["value"].get<double>()).epsilon(1e-12));
     ++rows;
   }
   CHECK(rows == 3);
@@ -172,7 +172,7 @@ TEST_CASE("the junco_client package installs offline into a venv and works again
   CHECK(got["fit_id"] == fit["fit_id"]);
   CHECK(got["n"].get<double>() == fit["n"]["value"].get<double>());
   CHECK(got["is_a"].get<double>() == fit["is_a"]["value"].get<double>());
-  CHECK(got["vf_v@0.01A"].get<double>() == figs[0]["vf_v"].get<double>());
+  CHECK(got["vf_v@0.01A"].get<double>() == figs[0]["vf_v"]["value"].get<double>());
   REQUIRE(b.daemon().stop() == 0);
 
   // "server busy": the same juncod with 128 descriptors (max clients =

@@ -73,21 +73,21 @@ TEST_CASE("Vf and rd are served with the standard errors the fit's covariance gi
     for (const auto& f : figures) {
       const double i = f["i_a"];
       INFO("I = " << i << " A: " << f.dump());
-      REQUIRE(f["vf_v_se"].is_number());
-      REQUIRE(f["rd_ohm_se"].is_number());
+      REQUIRE(f["vf_v"]["std_error"].is_number());
+      REQUIRE(f["rd_ohm"]["std_error"].is_number());
       // Vf = I·Rs + n·Vt·ln(1 + I/Is) (Shockley with series resistance, solved
       // for V; Sze & Ng, Physics of Semiconductor Devices, 3rd ed., §2.3):
       // ∂Vf/∂Is = −n·Vt·I/(Is·(Is + I)), ∂Vf/∂n = Vt·ln(1 + I/Is), ∂Vf/∂Rs = I.
-      CHECK(f["vf_v"].get<double>() == Approx(i * rs + n * vt * std::log1p(i / is_a)).epsilon(1e-6));
+      CHECK(f["vf_v"]["value"].get<double>() == Approx(i * rs + n * vt * std::log1p(i / is_a)).epsilon(1e-6));
       const double se_vf = propagated_se({-n * vt * i / (is_a * (is_a + i)), vt * std::log1p(i / is_a), i}, fit);
       // rd = dV/dI = n·Vt/(I + Is) + Rs:
       // ∂rd/∂Is = −n·Vt/(I + Is)², ∂rd/∂n = Vt/(I + Is), ∂rd/∂Rs = 1.
       const double se_rd = propagated_se({-n * vt / ((i + is_a) * (i + is_a)), vt / (i + is_a), 1.0}, fit);
       // The daemon differentiates numerically (central differences, step
       // 1e-6 relative): agreement to 1e-5 relative is our bound, no source.
-      CHECK(f["vf_v_se"].get<double>() == Approx(se_vf).epsilon(1e-5));
-      CHECK(f["rd_ohm_se"].get<double>() == Approx(se_rd).epsilon(1e-5));
-      CHECK(f["vf_v_se"].get<double>() > 0);
+      CHECK(f["vf_v"]["std_error"].get<double>() == Approx(se_vf).epsilon(1e-5));
+      CHECK(f["rd_ohm"]["std_error"].get<double>() == Approx(se_rd).epsilon(1e-5));
+      CHECK(f["vf_v"]["std_error"].get<double>() > 0);
     }
   }
 
@@ -135,8 +135,8 @@ TEST_CASE("a damaged stored fit is a storage error, not invalid params; older ro
     CHECK(reply["error"]["message"].get<std::string>().find("fit") != std::string::npos);
   }
   const Json after = b.result("part.figures", {{"part_id", 2}, {"currents_a", {1e-3}}})["figures"][0];
-  CHECK(after["vf_v_se"].get<double>() == Approx(before["vf_v_se"].get<double>()).epsilon(1e-9));
-  CHECK(after["rd_ohm_se"].get<double>() == Approx(before["rd_ohm_se"].get<double>()).epsilon(1e-9));
+  CHECK(after["vf_v"]["std_error"].get<double>() == Approx(before["vf_v"]["std_error"].get<double>()).epsilon(1e-9));
+  CHECK(after["rd_ohm"]["std_error"].get<double>() == Approx(before["rd_ohm"]["std_error"].get<double>()).epsilon(1e-9));
 
   // A detail of the wrong shape (valid JSON) is damage too.
   b.daemon().stop();

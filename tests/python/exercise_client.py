@@ -281,7 +281,7 @@ def main_steps(path, lot):
         step_id_null(c)
         step_notifications(c, path)
         print(json.dumps({"part_id": ids[0], "fit_id": fit["fit_id"], "n": fit["n"]["value"],
-                          "is_a": fit["is_a"]["value"], "vf_v@0.01A": figs[1]["vf_v"]}))
+                          "is_a": fit["is_a"]["value"], "vf_v@0.01A": figs[1]["vf_v"]["value"]}))
 
 
 def busy(path):

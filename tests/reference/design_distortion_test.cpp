@@ -25,8 +25,8 @@ DistortionInput e13(double bias_a, double vhat_v) {
   in.part = {1e-14, 1.0, 0.0};
   in.bias_i_a = bias_a;
   in.source_peak_v = vhat_v;
-  in.rg_ohm = 50;
-  in.rl_ohm = 50;
+  in.source_ohm = 50;
+  in.load_ohm = 50;
   in.temp_k = 300.15;
   return in;
 }
@@ -35,13 +35,13 @@ DistortionInput e13(double bias_a, double vhat_v) {
 // the diode carries bias_a, and returns the normalised magnitudes of
 // harmonics 2 and 3 of v(RL) from its `fourier` command.
 std::pair<double, double> ngspice_hd(const DistortionInput& in) {
-  const double v_dc = diode_voltage_v(in.part, in.bias_i_a, in.temp_k) + in.bias_i_a * (in.rg_ohm + in.rl_ohm);
+  const double v_dc = diode_voltage_v(in.part, in.bias_i_a, in.temp_k) + in.bias_i_a * (in.source_ohm + in.load_ohm);
   std::ostringstream f;
   {
     f.precision(12);
     f << "series switch distortion\n"
       << "V1 src 0 DC " << v_dc << " SIN(" << v_dc << " " << in.source_peak_v << " 1k)\n"
-      << "Rg src a " << in.rg_ohm << "\nD1 a k dut\nRL k 0 " << in.rl_ohm << "\n"
+      << "Rg src a " << in.source_ohm << "\nD1 a k dut\nRL k 0 " << in.load_ohm << "\n"
       << ".model dut D(IS=" << in.part.is_a << " N=" << in.part.n << " RS=" << in.part.rs_ohm << ")\n"
       << ".options reltol=1e-7 abstol=1e-15 vntol=1e-10 temp=27 tnom=27\n"
       << ".control\nset fourgridsize=1024\ntran 0.25u 3m 1m 0.25u\nfourier 1k v(k)\n.endc\n.end\n";
@@ -90,10 +90,10 @@ TEST_CASE("E13: HD2 at fixed signal current falls about 12 dB per bias doubling"
     // Drive so the fundamental current through the loop is 1 mA.
     for (int it = 0; it < 4; ++it) {
       const auto r = solve_distortion(in);
-      in.source_peak_v *= 1e-3 / (r.load_peak_v / in.rl_ohm);
+      in.source_peak_v *= 1e-3 / (r.load_peak_v / in.load_ohm);
     }
     const auto r = solve_distortion(in);
-    CHECK(r.load_peak_v / in.rl_ohm == Approx(1e-3).epsilon(1e-6));
+    CHECK(r.load_peak_v / in.load_ohm == Approx(1e-3).epsilon(1e-6));
     CHECK(r.load.dbc[2] == Approx(hd2[k]).margin(k == 0 ? 0.6 : 0.2));
   }
 }
@@ -103,8 +103,8 @@ TEST_CASE("E13: bare-junction limit, HD2 ≈ V/(4·N·Vt) and HD3 ≈ (V/(N·Vt)
   // −40.30 and −84.11 dBc (series expansion of the exponential). A bare
   // junction is voltage-driven: make the loop resistance tiny against rj.
   auto in = e13(1e-6, 1e-3);
-  in.rg_ohm = 1e-3;
-  in.rl_ohm = 1e-3;
+  in.source_ohm = 1e-3;
+  in.load_ohm = 1e-3;
   in.samples = 512;
   const auto r = solve_distortion(in);
   CHECK(r.load.dbc[2] == Approx(-40.30).margin(0.05));

@@ -67,14 +67,14 @@ std::vector<Hd> ngspice_hd(const std::vector<DistortionInput>& cases, double fre
       const std::string s = std::to_string(k);
       const double vd = diode_voltage_v(in.part, in.bias_i_a, in.temp_k);
       if (in.kind == SwitchKind::series) {
-        const double v_dc = vd + in.bias_i_a * (in.rg_ohm + in.rl_ohm);
+        const double v_dc = vd + in.bias_i_a * (in.source_ohm + in.load_ohm);
         f << "V" << s << " s" << s << " 0 DC " << v_dc << " SIN(" << v_dc << " " << in.source_peak_v << " " << freq_hz << ")\n"
-          << "Rg" << s << " s" << s << " a" << s << " " << in.rg_ohm << "\nD" << s << " a" << s << " o" << s << " dut\nRL" << s << " o" << s
-          << " 0 " << in.rl_ohm << "\n";
+          << "Rg" << s << " s" << s << " a" << s << " " << in.source_ohm << "\nD" << s << " a" << s << " o" << s << " dut\nRL" << s << " o" << s
+          << " 0 " << in.load_ohm << "\n";
       } else {
-        const double r_par = in.rg_ohm * in.rl_ohm / (in.rg_ohm + in.rl_ohm);
+        const double r_par = in.source_ohm * in.load_ohm / (in.source_ohm + in.load_ohm);
         f << "V" << s << " s" << s << " 0 DC 0 SIN(0 " << in.source_peak_v << " " << freq_hz << ")\n"
-          << "Rg" << s << " s" << s << " o" << s << " " << in.rg_ohm << "\nRL" << s << " o" << s << " 0 " << in.rl_ohm << "\nD" << s
+          << "Rg" << s << " s" << s << " o" << s << " " << in.source_ohm << "\nRL" << s << " o" << s << " 0 " << in.load_ohm << "\nD" << s
           << " o" << s << " 0 dut\nI" << s << " 0 o" << s << " DC " << in.bias_i_a + vd / r_par << "\n";
       }
       four += "fourier " + std::to_string(freq_hz) + " v(o" + s + ")\n";

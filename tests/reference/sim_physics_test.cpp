@@ -131,7 +131,7 @@ TEST_CASE("small-signal AC transfer matches the series-element formula with rd =
       const double c = junction_capacitance_f(part, vj, 1.0 / rd);
       const std::complex<double> zj = 1.0 / (1.0 / rd + std::complex<double>(0, 2 * M_PI * f * c));
       const std::complex<double> z = part.rs_ohm + zj;
-      const double expect = std::abs(fx.rl_ohm / (fx.rg_ohm + fx.rl_ohm + z));
+      const double expect = std::abs(fx.load_ohm / (fx.source_ohm + fx.load_ohm + z));
       const double got = harmonic(ac.wave_out_v, 1) / 0.5e-3;
       INFO("Vs " << vs << " V, I " << i << " A, f " << f << " Hz, rd " << rd << " Ω, C " << c << " F");
       // BDF2 with 256 steps per period: phase error is second order, ~1e-4.
@@ -148,11 +148,11 @@ TEST_CASE("at high bias the transfer approaches the resistive divider RL/(Rg + R
   const auto ac = solve_ac(fx, &part, BiasSetting{true, 6.0, 1.0}, 300.15, AcDrive{true, 0.1, 1e6});
   REQUIRE(ac.dc.i_a > 0.04);
   const double rd = part.n * junco::fitting::thermal_voltage_v(300.15) / ac.dc.i_a;
-  const double divider = fx.rl_ohm / (fx.rg_ohm + fx.rl_ohm + part.rs_ohm + rd);
+  const double divider = fx.load_ohm / (fx.source_ohm + fx.load_ohm + part.rs_ohm + rd);
   CHECK(harmonic(ac.wave_out_v, 1) / 0.05 == Approx(divider).epsilon(1e-3));
   // Channel 1 is the generator terminal after Rg: EMF·(Z + RL)/(Rg + Z + RL).
   CHECK(harmonic(ac.wave_in_v, 1) / 0.05 ==
-        Approx((fx.rl_ohm + part.rs_ohm + rd) / (fx.rg_ohm + fx.rl_ohm + part.rs_ohm + rd)).epsilon(1e-3));
+        Approx((fx.load_ohm + part.rs_ohm + rd) / (fx.source_ohm + fx.load_ohm + part.rs_ohm + rd)).epsilon(1e-3));
   // And Vrms of a nearly pure sine is Vpp/(2√2) (definition).
   CHECK(ac.out_vrms == Approx(ac.out_vpp / (2 * std::sqrt(2.0))).epsilon(1e-3));
 }
@@ -166,7 +166,7 @@ TEST_CASE("unbiased, a large signal is rectified, clipped and distorted", "[sim]
   const auto ac = solve_ac(fx, &part, BiasSetting{false, 0.0, 0.1}, 300.15, AcDrive{true, 2.0, 1e6});
   REQUIRE(ac.converged);
   const double fund = harmonic(ac.wave_out_v, 1);
-  CHECK(fund < 0.2 * 1.0 * fx.rl_ohm / (fx.rg_ohm + fx.rl_ohm));
+  CHECK(fund < 0.2 * 1.0 * fx.load_ohm / (fx.source_ohm + fx.load_ohm));
   CHECK(harmonic(ac.wave_out_v, 2) > 0.05 * fund);
   CHECK(ac.dc.v_part_v < -0.1);
   CHECK(std::abs(ac.dc.i_a) < 1e-6);  // no DC path: the mean diode current is zero
@@ -182,8 +182,8 @@ TEST_CASE("second harmonic at 10 mA agrees with an ngspice transient and fourier
   REQUIRE(ac.converged);
   std::ostringstream net;
   net << "* junco-sim distortion check\nV1 s 0 DC " << vs << "\nRb s b " << fx.rb_ohm << "\nLb b a 10\n"
-      << "Vg g 0 DC 0 SIN(0 " << emf_vpp / 2 << " " << f << ")\nRg g gt " << fx.rg_ohm << "\nC1 gt a 1e-3\n"
-      << "D1 a k DUT\nLr k 0 10\nC2 k o 1e-3\nRL o 0 " << fx.rl_ohm << "\n" << model_card(part)
+      << "Vg g 0 DC 0 SIN(0 " << emf_vpp / 2 << " " << f << ")\nRg g gt " << fx.source_ohm << "\nC1 gt a 1e-3\n"
+      << "D1 a k DUT\nLr k 0 10\nC2 k o 1e-3\nRL o 0 " << fx.load_ohm << "\n" << model_card(part)
       << ".options reltol=1e-7 abstol=1e-15 vntol=1e-9\n.control\nset numdgt=12\n"
       << "tran 1e-9 20e-6 10e-6 1e-9\nfourier " << f << " v(o)\n.endc\n.end\n";
   const auto out = run_ngspice(net.str());

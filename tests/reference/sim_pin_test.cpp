@@ -75,11 +75,11 @@ TEST_CASE("PIN part: small-signal transfer is the I-region resistance above the 
       const double got = harmonic(ac.wave_out_v, 1) / 0.5e-3;
       const junco::fitting::PinLaw law{2.0, 200e-9, 0.3, 30e-6 * 30e-6 / (0.183 * 200e-9), 1.0};
       const auto z = junco::fitting::pin_on_impedance(law, i, f, 300.15);
-      const double charge_control = std::abs(fx.rl_ohm / (fx.rg_ohm + fx.rl_ohm + z));
+      const double charge_control = std::abs(fx.load_ohm / (fx.source_ohm + fx.load_ohm + z));
       INFO("Vs " << vs << " V, I " << i << " A, f " << f << " Hz, R_I " << r_i << " rd " << rd);
       CHECK(got == Approx(charge_control).epsilon(3e-3));
-      if (f >= 100e6) CHECK(got == Approx(fx.rl_ohm / (fx.rg_ohm + fx.rl_ohm + 0.3 + r_i)).epsilon(3e-3));
-      if (f <= 10e3) CHECK(got == Approx(fx.rl_ohm / (fx.rg_ohm + fx.rl_ohm + 0.3 + rd)).epsilon(3e-3));
+      if (f >= 100e6) CHECK(got == Approx(fx.load_ohm / (fx.source_ohm + fx.load_ohm + 0.3 + r_i)).epsilon(3e-3));
+      if (f <= 10e3) CHECK(got == Approx(fx.load_ohm / (fx.source_ohm + fx.load_ohm + 0.3 + rd)).epsilon(3e-3));
     }
   }
 }

@@ -62,10 +62,10 @@ TEST_CASE("the sim's vector transfer matches ngspice .ac of the fixture with pac
   std::string vectors;
   for (std::size_t k = 0; k < biases.size(); ++k) {
     const std::string s = std::to_string(k);
-    f << "V" << s << " s" << s << " 0 DC " << -biases[k] << " AC 1\nRg" << s << " s" << s << " a" << s << " " << fx.rg_ohm << "\n"
+    f << "V" << s << " s" << s << " 0 DC " << -biases[k] << " AC 1\nRg" << s << " s" << s << " a" << s << " " << fx.source_ohm << "\n"
       << "Cs" << s << " a" << s << " k" << s << " " << fx.stray_c_f << "\nLt" << s << " a" << s << " p" << s << " " << fx.slot_ls_h << "\n"
       << "Lp" << s << " p" << s << " q" << s << " " << fx.package_ls_h << "\nD" << s << " q" << s << " k" << s << " dut\n"
-      << "Cp" << s << " p" << s << " k" << s << " " << fx.package_cp_f << "\nRl" << s << " k" << s << " 0 " << fx.rl_ohm << "\n";
+      << "Cp" << s << " p" << s << " k" << s << " " << fx.package_cp_f << "\nRl" << s << " k" << s << " 0 " << fx.load_ohm << "\n";
     vectors += " vr(a" + s + ") vi(a" + s + ") vr(k" + s + ") vi(k" + s + ")";
   }
   f << ".model dut D(IS=" << p.is_a << " N=" << p.n << " RS=" << p.rs_ohm << " CJO=" << p.cj0_f << " VJ=" << p.vj_v << " M=" << p.m
@@ -107,7 +107,7 @@ TEST_CASE("Ls and Cp fitted from de-embedded readings at 10 MHz - 1 GHz come out
   for (double v : {0.0, 1.0, 3.0, 10.0})
     for (double f = 10e6; f <= 1.0001e9; f *= std::pow(10.0, 0.25)) {
       const auto z = [&](sim::SlotContent c, const sim::DcPoint& dc) {
-        return fitting::slot_impedance_ohm(sim::small_signal_transfer(fx, c, &p, dc, 300.15, f), fx.rl_ohm);
+        return fitting::slot_impedance_ohm(sim::small_signal_transfer(fx, c, &p, dc, 300.15, f), fx.load_ohm);
       };
       const cplx z_dut = fitting::deembed_open_short(z(sim::SlotContent::part, reverse_point(p, v)), z(sim::SlotContent::open, none),
                                                      z(sim::SlotContent::short_link, none));

@@ -295,7 +295,7 @@ TEST_CASE("a job runs to done in the safe order, readings stored and each part f
   CHECK(f["rs_ohm"]["value"].get<double>() == Approx(lab.diode.rs_ohm).epsilon(0.05));
   // Figures from the fit agree with the model of the fake part (Lambert W, fitting/diode.hpp).
   const Json fig = svc->call("part.figures", {{"part_id", parts[0]["part_id"]}, {"currents_a", {1e-2}}}, kCaller);
-  CHECK(fig["figures"][0]["vf_v"].get<double>() == Approx(fit::diode_voltage_v(lab.diode, 1e-2, 300.15)).epsilon(1e-3));
+  CHECK(fig["figures"][0]["vf_v"]["value"].get<double>() == Approx(fit::diode_voltage_v(lab.diode, 1e-2, 300.15)).epsilon(1e-3));
   const Json spice = svc->call("part.export", {{"part_id", parts[0]["part_id"]}, {"format", "spice"}}, kCaller);
   CHECK(spice["content"].get<std::string>().find(".model D_QX_7_QX_7_01 D(IS=") != std::string::npos);
   const Json csv = svc->call("part.export", {{"part_id", parts[0]["part_id"]}, {"format", "csv"}}, kCaller);

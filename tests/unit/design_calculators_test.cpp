@@ -215,6 +215,28 @@ TEST_CASE("old input names are read as the new ones, with a warning (docs/names.
   CHECK(value_of(headroom["assumed"], "dc_return_ohm") == 1000.0);
 }
 
+TEST_CASE("rg_ohm and rl_ohm are read as source_ohm and load_ohm, with a warning; both spellings at once refused") {
+  const auto part = e8_part();
+  // Unequal resistors, so a swap of the two would show in the echo and the load voltage.
+  const Json old = run_design("distortion", &part, {{"current_a", 1e-3}, {"amplitude_v", 0.1}, {"rg_ohm", 75.0}, {"rl_ohm", 25.0}});
+  const Json now = run_design("distortion", &part, {{"current_a", 1e-3}, {"amplitude_v", 0.1}, {"source_ohm", 75.0}, {"load_ohm", 25.0}});
+  CHECK(value_of(old["assumed"], "source_ohm") == 75.0);
+  CHECK(value_of(old["assumed"], "load_ohm") == 25.0);
+  for (const char* key : {"load_peak_v", "hd2_dbc", "hd3_dbc", "thd_pct"}) CHECK(value_of(old["result"], key) == value_of(now["result"], key));
+  REQUIRE(old["warnings"].size() == now["warnings"].size() + 2);
+  CHECK(old["warnings"].dump().find("input rg_ohm is now spelled source_ohm (the old spelling still works for now)") != std::string::npos);
+  CHECK(old["warnings"].dump().find("input rl_ohm is now spelled load_ohm") != std::string::npos);
+  CHECK(now["warnings"].dump().find("spelled") == std::string::npos);
+  CHECK(field_of("loss", &part, {{"current_a", 1e-3}, {"rg_ohm", 50.0}, {"source_ohm", 50.0}}) == "rg_ohm");
+  CHECK(field_of("headroom", nullptr, {{"amplitude_v", 1.0}, {"rl_ohm", 50.0}, {"load_ohm", 50.0}}) == "rl_ohm");
+  try {
+    run_design("loss", &part, {{"current_a", 1e-3}, {"rl_ohm", 50.0}, {"load_ohm", 50.0}});
+    FAIL("both spellings accepted");
+  } catch (const DesignInputError& e) {
+    CHECK(std::string(e.what()) == "rl_ohm: give load_ohm only (rl_ohm is its old name)");
+  }
+}
+
 TEST_CASE("every calculator in the table runs on its required inputs alone") {
   const auto part = e8_part();
   for (const auto& c : design_calculators()) {

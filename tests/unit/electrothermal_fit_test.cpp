@@ -83,7 +83,7 @@ Readings make_readings(const Truth& t, bool noise, unsigned seed) {
 
 Fixture fixture_50() {
   Fixture fx;
-  fx.rl_ohm = 50.0;
+  fx.load_ohm = 50.0;
   return fx;
 }
 

@@ -84,7 +84,7 @@ TEST_CASE("bad input: exit 2 and one exact line on stderr", "[cli]") {
       {example + " --frobnicate", "junco fit: unknown option or extra argument '--frobnicate' (see junco fit --help)\n"},
       {example + " " + example, "junco fit: unknown option or extra argument '" + example + "' (see junco fit --help)\n"},
       {example + " --v-col", "junco fit: --v-col: 1 required NAME|N missing (see junco fit --help)\n"},
-      {example + " --rl 50x", "junco fit: --rl: '50x': unknown suffix 'x' (expected a prefix and the unit ohm, e.g. 10mohm, 4.7uohm, 1e-3) (see junco fit --help)\n"},
+      {example + " --load 50x", "junco fit: --load: '50x': unknown suffix 'x' (expected a prefix and the unit ohm, e.g. 10mohm, 4.7uohm, 1e-3) (see junco fit --help)\n"},
       {example + " --v-col 9", "junco fit: " + example + ": --v-col 9: the header has 2 columns\n"},
   };
   for (const auto& c : cases) {

@@ -51,7 +51,7 @@ std::vector<OffStatePoint> law_readings(const Law& law, double rs_ohm, double z_
 
 TEST_CASE("one reading's C inverts the series divider, with a DC return shunt") {
   Fixture fx;
-  fx.rl_ohm = 50.0;
+  fx.load_ohm = 50.0;
   fx.dc_return_ohm = 1000.0;
   const double z = 50.0 * 1000.0 / 1050.0, rs = 2.5;
   for (double c : {0.3e-12, 2e-12, 15e-12})

@@ -30,7 +30,7 @@ _junco_subcommands() {
     design) _junco_help design | awk '/^calculators/ { on = 1; next } on && /^  [a-z]/ { print $1 } /^$/ { on = 0 }' ;;
     lab) _junco_help lab | awk '/^lab commands/ { on = 1; next } on && /^  [a-z]/ { print $1 } /^$/ { on = 0 }' ;;
     plot) _junco_help plot | sed -n 's/^\(usage:\)\{0,1\} *junco plot \([a-z]*\) .*/\2/p' ;;
-    export) printf '%s\n' spice json stats ;;
+    export) printf '%s\n' spice json touchstone stats ;;
   esac
 }
 

@@ -85,8 +85,19 @@ std::string socket_path(const std::string& option_value) {
   return option_value.empty() ? daemon::rpc::default_socket_path() : option_value;
 }
 
-void apply_renames(const std::string& command, std::vector<std::string>& args,
+bool apply_renames(const std::string& command, std::vector<std::string>& args,
                    const std::vector<std::pair<std::string, std::string>>& renamed) {
+  const auto spells = [](const std::string& arg, const std::string& name) { return arg == name || arg.rfind(name + "=", 0) == 0; };
+  const auto options_end = std::find(args.begin(), args.end(), "--");
+  for (const auto& [old_name, new_name] : renamed) {
+    const auto has = [&](const std::string& name) {
+      return std::any_of(args.begin(), options_end, [&](const std::string& a) { return spells(a, name); });
+    };
+    if (has(old_name) && has(new_name)) {
+      std::fprintf(stderr, "junco %s: give %s only (%s is its old spelling)\n", command.c_str(), new_name.c_str(), old_name.c_str());
+      return false;
+    }
+  }
   std::set<std::string> warned;
   for (auto& a : args) {
     if (a == "--") break;  // what follows is not an option
@@ -100,6 +111,7 @@ void apply_renames(const std::string& command, std::vector<std::string>& args,
       break;
     }
   }
+  return true;
 }
 
 std::optional<int> parse_command_line(CLI::App& app, const std::string& command, std::vector<std::string> args) {

@@ -30,8 +30,11 @@ CLI::Option* add_socket_option(CLI::App& app, std::string& target);
 std::string socket_path(const std::string& option_value);
 
 // Rewrites old spellings ("--temp" or "--temp=5" for {"--temp","--temp-c"}) in
-// args and warns once per spelling on stderr, naming the new one.
-void apply_renames(const std::string& command, std::vector<std::string>& args,
+// args and warns once per spelling on stderr, naming the new one. Both
+// spellings of one option at once: prints "junco COMMAND: give --temp-c only
+// (--temp is its old spelling)" and returns false (exit_usage), so the user
+// is not told CLI11's "At Most 1 required but received 2".
+bool apply_renames(const std::string& command, std::vector<std::string>& args,
                    const std::vector<std::pair<std::string, std::string>>& renamed);
 
 // Parses `args` with `app` (command name first removed). Returns nullopt on

@@ -314,8 +314,9 @@ bool print_lot(RpcClient& client, const std::string& lot) {
       std::snprintf(nbuf, sizeof nbuf, "%.4f ± %.4f", num(fit["n"]["value"]), num(fit["n"]["std_error"]));
       std::printf("%s\n", (pad_columns(label, 7) + pad_columns(pm(num(fit["is_a"]["value"]), num(fit["is_a"]["std_error"]), "A"), 23) +
                             pad_columns(nbuf, 17) + pad_columns(pm(num(fit["rs_ohm"]["value"]), num(fit["rs_ohm"]["std_error"]), "Ω"), 21) +
-                            pad_columns(format_si(num(figs[0]["vf_v"]), "V"), 12) + pad_columns(format_si(num(figs[1]["vf_v"]), "V"), 12) +
-                            pad_columns(format_si(num(figs[2]["rd_ohm"]), "Ω"), 11) + rth_text(fit))
+                            pad_columns(format_si(num(figs[0]["vf_v"]["value"]), "V"), 12) +
+                            pad_columns(format_si(num(figs[1]["vf_v"]["value"]), "V"), 12) +
+                            pad_columns(format_si(num(figs[2]["rd_ohm"]["value"]), "Ω"), 11) + rth_text(fit))
                                .c_str());
       ++fitted;
     } catch (const RpcError& e) {

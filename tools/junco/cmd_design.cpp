@@ -69,7 +69,6 @@ struct Given {
   std::map<std::string, std::string> part_source;  // part, lot, model, is, n, rs
   std::map<std::string, std::string> inputs;       // JSON key -> text
   std::optional<std::string> temp_c;
-  std::string unknown;  // a first word that is no calculator
   bool json = false;
   bool worst_case = false;  // --lot NAME --worst-case: lot.design
   std::optional<std::string> temps_c, supply_tol, resistor_tol;
@@ -143,9 +142,9 @@ void define(CLI::App& app) {
       "input it assumed, defaults included. Defaults: Rg = RL = 50 ohm, 10 MHz, no series\n"
       "inductance, the fit's temperature.\n\n" + std::string(part_text) + values_text);
   app.footer(design_footer);
-  // Not a calculator's name: kept to say so, naming the calculators.
+  // No calculator: run() names them; a word that is none: main's first-word
+  // check (Command::first_word_noun) does.
   app.require_subcommand(0, 1);
-  app.add_option("CALCULATOR", g_given.unknown, "")->group("");
   for (const auto& c : design_calculators()) define_calculator(app, c);
 }
 
@@ -206,9 +205,17 @@ DesignPart local_part(const Request& r) {
     if (std::isfinite(m->m)) p.cap.m = m->m;
     if (std::isfinite(m->tt_s)) p.tt_s = m->tt_s;
     p.pin = m->pin;
-    // Its standard errors come without their correlation (Is and N at 0.99+),
-    // and alone they would overstate every uncertainty: none is given.
-    p.cov.source = "a model document has standard errors but not their correlation; use --part for the uncertainty";
+    // The document's covariance (version 2, formats/model_document.hpp) is the
+    // one juncod propagates for the stored part: the same std_error here.
+    // Standard errors alone (version 1) come without their correlation (Is
+    // and N at 0.99+) and would overstate every uncertainty: none is given.
+    if (m->covariance_names.empty()) {
+      p.cov.source = "the model document carries no covariance (version 1, or a fit without one); use --part for the uncertainty";
+    } else {
+      p.cov.names = m->covariance_names;
+      p.cov.matrix = m->covariance;
+      p.cov.source = m->covariance_source.empty() ? *r.model : m->covariance_source;
+    }
     return p;
   }
   for (const char* key : {"is", "n", "rs"})
@@ -410,8 +417,7 @@ int run() {
   if (g_given.calculator) return run_calculator(*g_given.calculator);
   std::string names;
   for (const auto& c : design_calculators()) names += (names.empty() ? "" : ", ") + c.name;
-  if (g_given.unknown.empty()) std::fprintf(stderr, "junco design: which calculator? (%s; see junco design --help)\n", names.c_str());
-  else std::fprintf(stderr, "junco design: unknown calculator '%s' (%s; see junco design --help)\n", g_given.unknown.c_str(), names.c_str());
+  std::fprintf(stderr, "junco design: which calculator? (%s; see junco design --help)\n", names.c_str());
   return exit_usage;
 }
 
@@ -420,10 +426,12 @@ Command make_command() {
   c.name = "design";
   c.summary = "design calculators using a fitted part (bias, loss, distortion, isolation, power)";
   c.define = define;
+  c.first_word_noun = "calculator";
   c.run_parsed = run;
   // Old spellings keep working with a warning (docs/names.md): one name for
   // temperature in °C across commands, and the fixture resistors' names.
-  c.renamed = {{"--temp", "--temp-c"}, {"--rbias", "--bias-resistor"}, {"--rreturn", "--dc-return"}};
+  c.renamed = {{"--temp", "--temp-c"}, {"--rbias", "--bias-resistor"}, {"--rreturn", "--dc-return"},
+               {"--rg", "--source"}, {"--rl", "--load"}};
   return c;
 }
 

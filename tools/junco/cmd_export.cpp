@@ -53,12 +53,13 @@ struct Options {
   int set_size = 2;
 };
 Options g_opt;  // bound by define(); one command per process
+const std::vector<std::string> formats{"spice", "json", "touchstone", "stats"};
 
 void define(CLI::App& app) {
   Options& o = g_opt;
   app.description(description);
   app.footer(footer);
-  app.add_option("FORMAT", o.format, "spice, json, touchstone or stats")->required()->check(CLI::IsMember({"spice", "json", "touchstone", "stats"}).description(""));
+  app.add_option("FORMAT", o.format, "spice, json, touchstone or stats")->required()->check(CLI::IsMember(formats).description(""));
   app.add_option("MODEL", o.files, "model documents (JSON)")->type_name("FILE...");
   app.add_option("--name", o.name, "the .model name (spice; default from the part label)");
   app.add_option("-o,--out", o.out_path, "write to FILE instead of standard output")->type_name("FILE");
@@ -190,6 +191,8 @@ Command export_command() {
   c.name = "export";
   c.summary = "SPICE card, JSON model, Touchstone two-port or lot statistics from model documents";
   c.define = define;
+  c.first_word_noun = "format";
+  c.first_words = formats;
   c.run_parsed = run;
   return c;
 }

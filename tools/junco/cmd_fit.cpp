@@ -68,7 +68,7 @@ examples:
   junco fit curve_mv_ma.csv          (header v_mv,i_ma: millivolts and milliamps)
   junco fit messung.csv --decimal-comma --temp-c 25
   junco fit curve.csv --model-out part.json && junco plot iv --readings curve.csv --model part.json --out iv.svg
-  junco fit iv.csv --ac ac.csv --rl 50)";
+  junco fit iv.csv --ac ac.csv --load 50)";
 
 struct Args {
   std::string file;
@@ -146,7 +146,7 @@ void define_fit(CLI::App& app) {
   app.add_option("--ac-unit", a.ac_unit, "the unit of vin and vout (default vrms)")
       ->check(CLI::IsMember({"vrms", "vpp"}).description(""))
       ->type_name("vrms|vpp");
-  add_si_option(app, "--rl", a.fixture.rl_ohm, "ohm", "fixture load", "50");
+  add_si_option(app, "--load", a.fixture.load_ohm, "ohm", "fixture load", "50");
   add_si_option(app, "--dc-return", a.dc_return_ohm, "ohm", "DC-return resistor at the cathode (default: a choke, open at AC)");
   add_si_option(app, "--ac-sigma", a.ac_sigma_db, "dB", "uncertainty of one AC reading", "0.01");
   add_si_option(app, "--cj", a.cj_f, "F", "junction capacitance in the AC model and the AC-alone fit (default: none)");
@@ -167,7 +167,7 @@ void finish_args(Args& a) {
     a.fit.noise_floor_a = *a.noise_floor_a;
   }
   a.peak_per_unit = a.ac_unit == "vpp" ? 0.5 : std::sqrt(2.0);
-  if (!(a.fixture.rl_ohm > 0)) throw UsageError("--rl must be > 0");
+  if (!(a.fixture.load_ohm > 0)) throw UsageError("--load must be > 0");
   if (a.dc_return_ohm) {
     if (!(*a.dc_return_ohm > 0)) throw UsageError("--dc-return must be > 0 (leave it out for a choke)");
     a.fixture.dc_return_ohm = *a.dc_return_ohm;
@@ -429,7 +429,7 @@ Command fit_command() {
   c.summary = "fit Is, n, Rs to a measured forward curve (CSV)";
   c.define = define_fit;
   c.run_parsed = run_fit;
-  c.renamed = {{"--rreturn", "--dc-return"}};  // the old spelling warns (docs/names.md)
+  c.renamed = {{"--rreturn", "--dc-return"}, {"--rl", "--load"}};  // the old spelling warns (docs/names.md)
   return c;
 }
 

@@ -183,6 +183,7 @@ Command make_command() {
   c.name = "lab";
   c.summary = "read the lab database: lots, parts, spread across benches";
   c.define = define;
+  c.first_word_noun = "lab command";
   c.run_parsed = run;
   return c;
 }

@@ -165,14 +165,14 @@ int run() {
     for (const auto& w : fit.value("warnings", Json::array())) std::printf("  warning: %s\n", w.dump().c_str());
     std::printf("\n  %12s  %24s  %24s\n", "I", "Vf", "rd");
     for (const auto& f : figures.value("figures", Json::array())) {
-      const auto pm = [&](const char* v, const char* se, const char* unit) {
-        if (!f[v].is_number()) return std::string("not determined");
-        std::string t = format_si(f[v].get<double>(), unit, 5);
-        if (f[se].is_number()) t += " ± " + format_si(f[se].get<double>(), unit, 3);
+      const auto pm = [&](const char* key, const char* unit) {  // {value, std_error}
+        const Json e = f.value(key, Json::object());
+        if (!e.value("value", Json()).is_number()) return std::string("not determined");
+        std::string t = format_si(e["value"].get<double>(), unit, 5);
+        if (e.value("std_error", Json()).is_number()) t += " ± " + format_si(e["std_error"].get<double>(), unit, 3);
         return t;
       };
-      std::printf("  %12s  %24s  %24s\n", format_si(f.value("i_a", 0.0), "A").c_str(), pm("vf_v", "vf_v_se", "V").c_str(),
-                  pm("rd_ohm", "rd_ohm_se", "Ω").c_str());
+      std::printf("  %12s  %24s  %24s\n", format_si(f.value("i_a", 0.0), "A").c_str(), pm("vf_v", "V").c_str(), pm("rd_ohm", "Ω").c_str());
     }
     return exit_ok;
   });

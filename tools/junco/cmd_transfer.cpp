@@ -58,7 +58,7 @@ void print_report(const Json& r, bool all_points) {
   const auto& fx = r["fixture"];
   std::printf("part %ld  run %ld  fit %ld: AC transfer Vout/Vin against the model\n", r["part_id"].get<long>(), r["run_id"].get<long>(),
               r["fit_id"].get<long>());
-  std::printf("  fixture RL %s, DC return %s, T = %.2f K; sigma %.3g dB per reading%s\n", format_si(num(fx["rl_ohm"]), "Ω").c_str(),
+  std::printf("  fixture RL %s, DC return %s, T = %.2f K; sigma %.3g dB per reading%s\n", format_si(num(fx["load_ohm"]), "Ω").c_str(),
               fx["dc_return_ohm"].is_number() ? format_si(num(fx["dc_return_ohm"]), "Ω").c_str() : "choke (open at AC)",
               num(r["temp_k"]), num(r["ac_sigma_db"]), num(r["cj_f"]) > 0 ? (", Cj " + format_si(num(r["cj_f"]), "F")).c_str() : "");
   const Json& points = r["points"];

@@ -39,6 +39,13 @@ struct Command {
   // Old spellings still accepted, {"--temp", "--temp-c"}: the argument is
   // rewritten before parsing and a warning names the new spelling (both kinds).
   std::vector<std::pair<std::string, std::string>> renamed{};
+  // Commands whose first word says what to do (plot KIND, design CALCULATOR,
+  // lab COMMAND, export FORMAT): what that word is called, for one line naming
+  // the choices, "junco plot: no such plot 'foo' (iv, ac, off, lot)", instead
+  // of CLI11's "A subcommand is required". The choices are the CLI11
+  // subcommands, or first_words for a command that takes it as a positional.
+  std::string first_word_noun{};
+  std::vector<std::string> first_words{};
 };
 
 bool register_command(Command command);

@@ -8,6 +8,7 @@
 #include <algorithm>
 #include <cstdio>
 #include <exception>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -46,6 +47,33 @@ void print_overview() {
       "M = mega). Exit status: 0 ok, 1 the work failed, 2 bad command line or input file.\n");
 }
 
+// The first word of a command that has a choice of them (Command::first_word_noun):
+// an unknown one, or none where one is required, is said here in one line with
+// the choices. Words after an option are left to CLI11 (an option may take them).
+std::optional<int> check_first_word(const junco::cli::Command& c, const CLI::App& app, const std::vector<std::string>& args) {
+  using namespace junco::cli;
+  if (c.first_word_noun.empty()) return std::nullopt;
+  std::vector<std::string> names = c.first_words;
+  if (names.empty())
+    for (const auto* sub : app.get_subcommands([](const CLI::App*) { return true; })) names.push_back(sub->get_name());
+  std::string list;
+  for (const auto& n : names) list += (list.empty() ? "" : ", ") + n;
+  const auto is_name = [&](const std::string& w) { return std::find(names.begin(), names.end(), w) != names.end(); };
+  const auto is_help = [](const std::string& w) { return w == "--help" || w == "-h"; };
+  if (std::any_of(args.begin(), args.end(), is_help)) return std::nullopt;
+  if (!args.empty() && !args[0].empty() && args[0][0] != '-' && !is_name(args[0])) {
+    std::fprintf(stderr, "junco %s: no such %s '%s' (%s)\n", c.name.c_str(), c.first_word_noun.c_str(), args[0].c_str(), list.c_str());
+    return exit_usage;
+  }
+  const bool required = c.first_words.empty() ? app.get_require_subcommand_min() > 0 : true;
+  if (required && std::none_of(args.begin(), args.end(), is_name)) {
+    std::fprintf(stderr, "junco %s: which %s? (%s; see junco %s --help)\n", c.name.c_str(), c.first_word_noun.c_str(), list.c_str(),
+                 c.name.c_str());
+    return exit_usage;
+  }
+  return std::nullopt;
+}
+
 // A CLI11 command: its options are defined on a fresh app, parsed, then run.
 int run_defined(const junco::cli::Command& c, const std::vector<std::string>& args) {
   using namespace junco::cli;
@@ -54,6 +82,7 @@ int run_defined(const junco::cli::Command& c, const std::vector<std::string>& ar
   app.get_formatter()->label("OPTIONS", "options");
   app.get_formatter()->label("REQUIRED", "required");
   c.define(app);
+  if (const auto status = check_first_word(c, app, args)) return *status;
   if (const auto status = parse_command_line(app, c.name, args)) return *status;
   return c.run_parsed();
 }
@@ -82,7 +111,7 @@ int main(int argc, char** argv) {
     return exit_usage;
   }
   std::vector<std::string> args(argv + 2, argv + argc);
-  apply_renames(name, args, it->renamed);
+  if (!apply_renames(name, args, it->renamed)) return exit_usage;
   try {
     if (it->define) return run_defined(*it, args);
     const bool wants_help = it->has_subcommands ? (!args.empty() && (args[0] == "--help" || args[0] == "-h"))

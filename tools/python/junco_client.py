@@ -461,10 +461,10 @@ class Client:
             (headroom); unknown keys are refused (data.field = part.KEY)
             inputs (Dict[str, Any], optional): the calculator's inputs in SI units, keys as in
             docs/design.md (supply_v, bias_resistor_ohm, current_a, switch, ...; the former names
-            rbias_ohm and rreturn_ohm are read with a warning in the answer); optional part overrides
-            cj0_f, vj_v, m, tt_s, eg_ev, xti, trs1_per_k and the junction temperature temp_k (IS and RS
-            follow the SPICE law from the part's temp_k). Unknown keys are refused (invalid params,
-            data.field = inputs.KEY)
+            rbias_ohm, rreturn_ohm, rg_ohm and rl_ohm are read with a warning in the answer); optional
+            part overrides cj0_f, vj_v, m, tt_s, eg_ev, xti, trs1_per_k and the junction temperature
+            temp_k (IS and RS follow the SPICE law from the part's temp_k). Unknown keys are refused
+            (invalid params, data.field = inputs.KEY)
 
         Returns the result object: calculator, part, assumed, result, achievable, reason, warnings,
         failures, junction, uncertainty.
@@ -673,10 +673,10 @@ class Client:
             attenuator
             inputs (Dict[str, Any], optional): the calculator's inputs in SI units, keys as in
             docs/design.md (supply_v, bias_resistor_ohm, current_a, switch, ...; the former names
-            rbias_ohm and rreturn_ohm are read with a warning in the answer); optional part overrides
-            cj0_f, vj_v, m, tt_s, eg_ev, xti, trs1_per_k and the junction temperature temp_k (IS and RS
-            follow the SPICE law from the part's temp_k). Unknown keys are refused (invalid params,
-            data.field = inputs.KEY)
+            rbias_ohm, rreturn_ohm, rg_ohm and rl_ohm are read with a warning in the answer); optional
+            part overrides cj0_f, vj_v, m, tt_s, eg_ev, xti, trs1_per_k and the junction temperature
+            temp_k (IS and RS follow the SPICE law from the part's temp_k). Unknown keys are refused
+            (invalid params, data.field = inputs.KEY)
 
         Returns the result object: calculator, part, assumed, result, achievable, reason, warnings,
         failures, part_id, fit_id, junction, uncertainty.

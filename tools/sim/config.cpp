@@ -154,8 +154,8 @@ void apply_config_json(SimConfig& cfg, const std::string& json_text, std::vector
             else if (s == "resistor") fx.return_kind = ReturnKind::resistor;
             else throw std::invalid_argument("config: fixture.return must be \"inductor\" or \"resistor\"");
           } else if (f == "dc_return_ohm") fx.return_ohm = positive(fv, key);
-          else if (f == "source_ohm") fx.rg_ohm = positive(fv, key);
-          else if (f == "load_ohm") fx.rl_ohm = positive(fv, key);
+          else if (f == "source_ohm") fx.source_ohm = positive(fv, key);
+          else if (f == "load_ohm") fx.load_ohm = positive(fv, key);
           else if (f == "package_ls_h") fx.package_ls_h = non_negative(fv, key);
           else if (f == "package_cp_f") fx.package_cp_f = non_negative(fv, key);
           else if (f == "stray_c_f") fx.stray_c_f = non_negative(fv, key);

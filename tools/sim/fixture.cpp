@@ -124,7 +124,7 @@ class PeriodSolver {
     const double ib_unknown = u_.bias_current_unknown ? x[k++] : 0.0;
     const double il = u_.return_current_unknown ? x[k++] : 0.0;
 
-    double ga = 1.0 / fx_.rg_ohm, ja_const = -vc1 / fx_.rg_ohm;
+    double ga = 1.0 / fx_.source_ohm, ja_const = -vc1 / fx_.source_ohm;
     double ib_const = 0.0;  // constant current into A from the bias branch
     if (bias_.output_on) {
       if (cc_) ib_const = bias_.current_limit_a;
@@ -135,7 +135,7 @@ class PeriodSolver {
       }
     }
     ja_const += ib_const;
-    double gk = 1.0 / fx_.rl_ohm, jk = vc2 / fx_.rl_ohm - il;
+    double gk = 1.0 / fx_.load_ohm, jk = vc2 / fx_.load_ohm - il;
     if (fx_.return_kind == ReturnKind::resistor) gk += 1.0 / fx_.return_ohm;
     const double ra = 1.0 / ga, rk = 1.0 / gk, vk0 = jk / gk;
     const double rth = ra + (part_ ? part_->rs_ohm : 0.0) + rk;
@@ -149,7 +149,7 @@ class PeriodSolver {
     out.va.assign(n, 0.0);
     out.vk.assign(n, 0.0);
     auto record = [&](int step, double e, double i) {
-      const double va0 = (e / fx_.rg_ohm + ja_const) * ra;
+      const double va0 = (e / fx_.source_ohm + ja_const) * ra;
       const double va = va0 - ra * i, vk = vk0 + rk * i;
       out.i[step] = i;
       out.va[step] = va;
@@ -160,22 +160,22 @@ class PeriodSolver {
     if (!part_) {
       for (int s = 0; s < n; ++s) record(s, emf(s), 0.0);
     } else {
-      periodic_junction(n, h, rth, [&](int step) { return (emf(step) / fx_.rg_ohm + ja_const) * ra - vk0; });
+      periodic_junction(n, h, rth, [&](int step) { return (emf(step) / fx_.source_ohm + ja_const) * ra - vk0; });
       for (int s = 0; s < n; ++s) {
-        const double vth = (emf(s) / fx_.rg_ohm + ja_const) * ra - vk0;
+        const double vth = (emf(s) / fx_.source_ohm + ja_const) * ra - vk0;
         record(s, emf(s), (vth - vj_[s]) / (rth + junction_.at(vj_[s]).r_i_ohm));
       }
     }
     std::vector<double> r;
     double ig_mean = 0, il_mean = 0;
     for (int s = 0; s < n; ++s) {
-      ig_mean += (emf(s) - out.ch1[s]) / fx_.rg_ohm;
-      il_mean += out.ch2[s] / fx_.rl_ohm;
+      ig_mean += (emf(s) - out.ch1[s]) / fx_.source_ohm;
+      il_mean += out.ch2[s] / fx_.load_ohm;
     }
     r.push_back(ig_mean / n);
     r.push_back(il_mean / n);
     if (u_.bias_current_unknown) r.push_back((bias_.voltage_v - out.mean(out.va)) / fx_.rb_ohm - ib_unknown);
-    if (u_.return_current_unknown) r.push_back(out.mean(out.vk) / fx_.rl_ohm);
+    if (u_.return_current_unknown) r.push_back(out.mean(out.vk) / fx_.load_ohm);
     return r;
   }
 
@@ -303,7 +303,7 @@ std::complex<double> small_signal_transfer(const FixtureConfig& fx, SlotContent 
     y_series = 1.0 / (1.0 / y_pkg + j * w * fx.slot_ls_h);
   }
   const cplx y_slot = y_series + j * w * fx.stray_c_f;
-  const double z_load = fx.return_kind == ReturnKind::resistor ? fx.rl_ohm * fx.return_ohm / (fx.rl_ohm + fx.return_ohm) : fx.rl_ohm;
+  const double z_load = fx.return_kind == ReturnKind::resistor ? fx.load_ohm * fx.return_ohm / (fx.load_ohm + fx.return_ohm) : fx.load_ohm;
   // H = Z_load/(Z_load + 1/Y_slot) = Z_load·Y_slot/(Z_load·Y_slot + 1): no division by a zero Y.
   return z_load * y_slot / (z_load * y_slot + 1.0);
 }
@@ -337,7 +337,7 @@ AcResult solve_ac(const FixtureConfig& fx, const PartParams* part, const BiasSet
   for (int iter = 0; iter < 30; ++iter) {
     double worst = 0;
     for (double v : r) worst = std::max(worst, std::abs(v));
-    if (worst < 1e-13 + 1e-9 * drive.emf_vpp / fx.rl_ohm) {
+    if (worst < 1e-13 + 1e-9 * drive.emf_vpp / fx.load_ohm) {
       res.converged = true;
       break;
     }

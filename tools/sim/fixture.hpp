@@ -27,8 +27,8 @@ struct FixtureConfig {
   bool bias_choke = true;    // choke in series with Rb (Rb open at AC)
   ReturnKind return_kind = ReturnKind::inductor;
   double return_ohm = 1000.0;  // when return_kind == resistor
-  double rg_ohm = 50.0;      // generator source resistance
-  double rl_ohm = 50.0;      // load
+  double source_ohm = 50.0;      // generator source resistance
+  double load_ohm = 50.0;      // load
   int steps_per_period = 256;  // time steps of the AC solve
   // Parasitics the vector meter sees (sim truth; docs/sim.md "Vector
   // meter"): each part's package, and the fixture's own slot. The level

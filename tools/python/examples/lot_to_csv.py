@@ -48,8 +48,8 @@ def main():
                         row[k + "_se"] = fit[k]["std_error"]
                     figs = c.part_figures(part_id=p["part_id"], currents_a=currents)["figures"]
                     for i, fig in zip(currents, figs):
-                        row[f"vf_v@{i:g}A"] = fig["vf_v"]
-                        row[f"rd_ohm@{i:g}A"] = fig["rd_ohm"]
+                        row[f"vf_v@{i:g}A"] = fig["vf_v"]["value"]
+                        row[f"rd_ohm@{i:g}A"] = fig["rd_ohm"]["value"]
                 except RpcError as e:
                     row["status"] = "no fit: " + e.message
                 w.writerow(row)
