@@ -78,7 +78,7 @@ struct RunFit {
   std::optional<fitting::JunctionCapFit> cap;
   std::optional<JunctionCapReport> cap_report;          // what is stored of cap, with each reading's outcome
   std::optional<ElectrothermalReport> electrothermal;  // detail.electrothermal
-  MoreReports more;  // detail.heating, detail.stored_charge, detail.pin
+  MoreReports more;  // detail.heating, detail.stored_charge, detail.pin, detail.package
 };
 
 // With AC readings, Rs and self-heating can be told apart
@@ -256,7 +256,7 @@ void apply_heating(const Config& cfg, double temp_k, const std::vector<PointRow>
 void apply_vector(const RunFixture& fixture, const std::vector<PointRow>& points, RunFit& out) {
   const auto v = vector_fit_of_run(points, fixture);
   if (!v) return;
-  out.more_detail["package"] = v->to_json();
+  out.more.package = v->to_json();
   if (!v->package.ok) {
     out.fit.warnings.push_back("package not fitted from the vector readings: " + v->package.message);
     return;
@@ -344,8 +344,8 @@ std::string describe_fit(const RunFit& f) {
       std::snprintf(buf, sizeof buf, "; junction capacitance not fitted: %s", f.cap->message.c_str());
     line += buf;
   }
-  if (f.more_detail.contains("package") && f.more_detail["package"].value("ok", false)) {
-    const Json& pk = f.more_detail["package"];
+  if (f.more.package.is_object() && f.more.package.value("ok", false)) {
+    const Json& pk = f.more.package;
     char buf[160];
     std::snprintf(buf, sizeof buf, "; package Ls %.4g nH Cp %.4g pF from %zu vector readings", pk["ls_h"]["value"].get<double>() * 1e9,
                   pk["cp_f"]["value"].get<double>() * 1e12, pk.value("readings", std::size_t{0}));

@@ -140,6 +140,7 @@ struct MoreReports {
   std::optional<HeatingReport> heating;             // detail.heating (plan.heating readings)
   std::optional<fitting::AcChargeFit> stored_charge;  // detail.stored_charge (multi-frequency AC readings)
   Json pin;  // detail.pin (a PIN part), null: none; pin_fit_json with the daemon's screen and off_state
+  Json package;  // detail.package (plan.vector readings), null: none; VectorRunFit::to_json
 };
 
 // A stored fit: the forward fit with its covariance (so every figure served

@@ -731,6 +731,7 @@ Id Store::insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, c
   for (const auto& e : fit.excluded) excluded.push_back({{"index", e.index}, {"reason", e.reason}});
   Json rest = {{"parameter_names", fit.parameter_names}, {"correlation", matrix_json(fit.correlation)}, {"excluded", excluded}, {"iterations", fit.iterations}};
   if (!more.pin.is_null()) rest["pin"] = more.pin;
+  if (!more.package.is_null()) rest["package"] = more.package;
   const Json detail = fit_detail_json(std::move(rest), cap, electrothermal, more.heating ? &*more.heating : nullptr,
                                       more.stored_charge ? &*more.stored_charge : nullptr);
   // The law's columns only when its fit succeeded; the report (with the

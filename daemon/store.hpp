@@ -100,8 +100,8 @@ class Store {
   // too, with its status and reason in message) and runs.state = 'done'.
   // A kill at any moment leaves either both or neither, so a done run always
   // has its fit. Returns the fit's id.
-  // more_detail: further reports merged into the fit's detail (e.g.
-  // {"electrothermal": …}).
+  // more: the further reports stored in the fit's detail (heating, stored
+  // charge, pin, package; rows.hpp MoreReports).
   Id finish_run_with_fit(Id part_id, Id run_id, const fitting::FitResult& fit, const JunctionCapReport* cap = nullptr,
                          const ElectrothermalReport* electrothermal = nullptr, const MoreReports& more = {});
   // Runs without any fit row: state 'done' only (done_only), or every run
