@@ -1,4 +1,5 @@
 #include "daemon/vector_analysis.hpp"
+#include "formats/report_json.hpp"
 
 #include <algorithm>
 #include <cmath>

@@ -100,7 +100,7 @@ TEST_CASE("junco submit, watch, jobs, lots, parts, show against a running daemon
   // rd = N·Vt/I + RS (docs/references.md §3, dynamic resistance; I ≫ IS here).
   const double vt = 1.380649e-23 * 300.15 / 1.602176634e-19;  // docs/references.md §1
   const double n = shown["fit"]["n"]["value"], rs = shown["fit"]["rs_ohm"]["value"];
-  CHECK(figures[1]["rd_ohm"].get<double>() == Approx(n * vt / 5e-3 + rs).epsilon(1e-3));
+  CHECK(figures[1]["rd_ohm"]["value"].get<double>() == Approx(n * vt / 5e-3 + rs).epsilon(1e-3));
   r = junco_cli(dir, {"show", "CL-1", "--socket", sock});
   CHECK_THAT(r.all(), Catch::Contains("Is  = ") && Catch::Contains("Rs  = ") && Catch::Contains("±"));
 

@@ -594,7 +594,10 @@ TEST_CASE("part.export json is a model document that junco design op reads; spic
   INFO(out);
   REQUIRE(cli.wait(5000ms) == 0);
   std::smatch m;
-  REQUIRE(std::regex_search(out, m, std::regex("bias current +([^\n]+)")));
+  // The value alone: a version-2 document carries the covariance, so the line
+  // goes on with "+- <standard error>".
+  REQUIRE(std::regex_search(out, m, std::regex("bias current +([^ \n]+ *[^ \n+]*)")));
+  CHECK(out.find("+- ") != std::string::npos);
   const auto i_a = junco::units::parse_si(m[1].str(), "A");
   REQUIRE(i_a);
   // Against the fake part itself: supply 5 V through 100 Ω into the diode (Lambert W, fitting/diode.hpp).
