@@ -330,7 +330,11 @@ TEST_CASE("lab unreachable at start, stopped mid-job, restarted: everything arri
 TEST_CASE("juncod killed with SIGKILL mid-publish catches up after restart, nothing twice", "[lab]") {
   PgCluster pg("kill");
   pg.stop();
-  BenchDaemon a("lab-kill", sim_args(), lab_options(pg, "bench-k", 200));
+  // Small batches: the kill must land while publishing goes on. With 200 rows a
+  // batch the whole backlog (about 1 000 rows) could go out between two polls
+  // on a loaded machine, and the check below that the kill came mid-publish
+  // failed once in CI (960 of 960 readings already in the lab).
+  BenchDaemon a("lab-kill", sim_args(), lab_options(pg, "bench-k", 20));
   a.run_plan(plan("WREN-0914", 8, 120));  // the backlog builds while the lab is down
   const long backlog = lab_status(a)["backlog_rows"];
   REQUIRE(backlog > 900);
