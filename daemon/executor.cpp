@@ -119,6 +119,10 @@ void apply_electrothermal(const Config& cfg, double temp_k, const RunFixture& fi
                   "model without TT)",
                   f.reduced_chi2, out.fit.reduced_chi2);
     out.fit.warnings.emplace_back(line);
+    // The stored report says so too: its readers (part.transfer's verdict, the
+    // demo's Rth column) take "fitted" as the values the stored fit carries.
+    out.electrothermal->status = "not_used";
+    out.electrothermal->note = line;
     return;
   }
   out.fit.is_a = f.is_a;
@@ -544,7 +548,7 @@ class JobRun {
 
   void step_at(std::size_t seq) {
     const Step& step = steps_[seq];
-    const bool reverse = step.kind == Step::Kind::reverse || step.kind == Step::Kind::reverse_ac || is_vector(step.kind);
+    const bool reverse = is_reverse(step.kind);
     // A new bias step begins (a pulse's dwell readings belong to its step:
     // no commit between them, it would shift their timing).
     if ((step.kind == Step::Kind::dc && step.series != Series::dwell) || step.kind == Step::Kind::reverse) commit_pending();
@@ -608,7 +612,7 @@ class JobRun {
     PointRow p;
     p.kind = to_string(step.kind);
     p.set_value = step.set_value;
-    const bool reverse = step.kind == Step::Kind::reverse || step.kind == Step::Kind::reverse_ac || is_vector(step.kind);
+    const bool reverse = is_reverse(step.kind);
     p.set_unit = (!reverse && plan_.sweep.mode == SweepMode::current) ? "A" : "V";
     p.series = to_string(step.series);
     if (is_vector(step.kind)) {

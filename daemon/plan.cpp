@@ -211,6 +211,8 @@ bool is_vector(Step::Kind kind) {
   return kind == Step::Kind::reverse_vector || kind == Step::Kind::vector_open || kind == Step::Kind::vector_short;
 }
 
+bool is_reverse(Step::Kind kind) { return kind == Step::Kind::reverse || kind == Step::Kind::reverse_ac || is_vector(kind); }
+
 bool uses_siggen(Step::Kind kind) { return kind == Step::Kind::ac || kind == Step::Kind::reverse_ac || is_vector(kind); }
 
 Plan parse_plan(const Json& j) {

@@ -180,6 +180,8 @@ const char* to_string(Step::Kind kind);
 // The kinds read with the generator on (levels or transfer).
 bool uses_siggen(Step::Kind kind);
 bool is_vector(Step::Kind kind);
+// The kinds set in volts at a reverse bias (reverse, reverse_ac, the vector kinds).
+bool is_reverse(Step::Kind kind);
 const char* to_string(Series series);
 // heating.pulse.from as it applies: the plan's value, or the top decade.
 double pulse_from(const Plan& plan);

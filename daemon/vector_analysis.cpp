@@ -1,4 +1,5 @@
 #include "daemon/vector_analysis.hpp"
+#include "formats/fit_json.hpp"
 #include "formats/report_json.hpp"
 
 #include <algorithm>
@@ -40,10 +41,8 @@ std::map<double, cplx> standard(const std::vector<PointRow>& points, const char*
   return sum;
 }
 
-nlohmann::json estimate(double value, double se) {
-  return {{"value", std::isfinite(value) ? nlohmann::json(value) : nlohmann::json(nullptr)},
-          {"std_error", std::isfinite(se) ? nlohmann::json(se) : nlohmann::json(nullptr)}};
-}
+// {value, std_error}, null when not finite: the one writer (formats/fit_json.hpp).
+nlohmann::json estimate(double value, double se) { return fitting::estimate_json(fitting::Estimate{value, se}); }
 
 // The chip's Cj(V) law from the packaged readings with `pkg` removed.
 fitting::JunctionCapFit law_without(const std::vector<fitting::PackagedOffReading>& packaged, const fitting::PackageParasitics& pkg) {

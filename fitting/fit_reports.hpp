@@ -49,7 +49,7 @@ JunctionCapReport junction_cap_report(const JunctionCapFit& fit, std::span<const
 // ambient it assumed): DC and AC readings fitted together with the junction's
 // heating, or without AC readings how far heating may bias Rs.
 struct ElectrothermalReport {
-  std::string status;  // fitted, no_ac, failed
+  std::string status;  // fitted, no_ac, failed; not_used (juncod: fitted, but it does not describe the readings)
   std::string note;
   long ac_readings = 0;
   long ac_left_out = 0;

@@ -16,6 +16,7 @@
 #include "design/calculators.hpp"
 #include "fitting/pin_diode.hpp"
 #include "tests/support/ngspice.hpp"
+#include "tests/support/reference_pin_part.hpp"
 
 #include <catch2/catch.hpp>
 
@@ -32,19 +33,8 @@ namespace {
 
 constexpr double t27_k = 300.15;
 
-// R0 0.4 Ω, 20 Ω at 1 mA with x = 0.9, τ = 200 ns (knee 0.8 MHz).
-DesignPart pin_part() {
-  DesignPart p;
-  p.label = "WREN-PIN";
-  p.dc = {1e-12, 2.0, 0.4};
-  p.temp_k = t27_k;
-  PinPart pin;
-  pin.law = {2.0, 200e-9, 0.4, 20.0 * std::pow(1e-3, 0.9), 0.9};
-  pin.ct_f = 0.25e-12;
-  pin.rp_ohm = 20e3;
-  p.pin = pin;
-  return p;
-}
+// The practical PIN part of tests/support/reference_pin_part.hpp.
+DesignPart pin_part() { return junco::test::reference_pin_part(); }
 
 double value_of(const Json& answer, const std::string& key) {
   for (const auto& l : answer["result"])
