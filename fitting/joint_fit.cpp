@@ -2,6 +2,7 @@
 
 #include "fitting/solver_options.hpp"
 
+#include <Eigen/Dense>
 #include <ceres/ceres.h>
 
 #include <algorithm>
@@ -10,34 +11,108 @@
 #include <cmath>
 #include <cstdio>
 #include <numbers>
+#include <utility>
+#include <vector>
 
 namespace junco::fitting {
 
 namespace {
 
-struct DcCost {
-  double v, i_a, nvt_t, inv_sigma;  // nvt_t: Vt at the fit temperature
-  template <typename T>
-  bool operator()(const T* const x, T* r) const {
-    // x = {ln Is, n, Rs}
-    const T model = T(i_a) * x[2] + x[1] * T(nvt_t) * log(T(1.0) + T(i_a) / exp(x[0]));
-    r[0] = (model - T(v)) * T(inv_sigma);
+// Every reading of the joint fit in one residual block, DC readings first,
+// with analytic derivatives. Why one block and no autodiff: with a block per
+// reading Ceres's per-block bookkeeping (evaluation preparers, validity
+// checks, Jacobian copies) and the dual-number arithmetic cost more than the
+// model itself, and the fit solves twice (weights refreshed once); the
+// residuals are the same expressions as before, so the solver takes the same
+// steps (docs/fitting.md, "Timing": values within 1e-12 of the former code,
+// tests/unit/joint_fit_same_results_test.cpp).
+//   DC: r = (I·Rs + n·Vt·ln(1 + I/Is) − V)/σ_V, x = {ln Is, n, Rs};
+//   AC: r = (fixture_gain_db_of(rj, Rs) − measured dB)/σ_dB, rj = n·Vt/(I + Is).
+class JointCost final : public ceres::CostFunction {
+ public:
+  struct Dc {
+    double v, i_a;
+  };
+  struct Ac {
+    double bias_i_a, measured_db, omega_cj;
+  };
+  // dc_inv_sigma is read at every evaluation (the caller refreshes it between solves).
+  JointCost(std::vector<Dc> dc, const std::vector<double>& dc_inv_sigma, std::vector<Ac> ac, double vt, double z_load,
+            double ac_inv_sigma)
+      : dc_(std::move(dc)), dc_inv_sigma_(dc_inv_sigma), ac_(std::move(ac)), vt_(vt), z_load_(z_load),
+        ac_inv_sigma_(ac_inv_sigma) {
+    set_num_residuals(static_cast<int>(dc_.size() + ac_.size()));
+    mutable_parameter_block_sizes()->push_back(3);
+  }
+
+  bool Evaluate(double const* const* parameters, double* residuals, double** jacobians) const override {
+    const double* x = parameters[0];
+    double* jac = jacobians != nullptr ? jacobians[0] : nullptr;  // row-major, 3 per residual
+    const double is_a = std::exp(x[0]);
+    for (std::size_t k = 0; k < dc_.size(); ++k) {
+      const double u = dc_[k].i_a / is_a, ln_term = std::log(1.0 + u), w = dc_inv_sigma_[k];
+      residuals[k] = (dc_[k].i_a * x[2] + x[1] * vt_ * ln_term - dc_[k].v) * w;
+      if (jac != nullptr) {
+        double* row = jac + 3 * k;
+        row[0] = -x[1] * vt_ * (u / (1.0 + u)) * w;  // d/d ln Is: du/d ln Is = −u
+        row[1] = vt_ * ln_term * w;
+        row[2] = dc_[k].i_a * w;
+      }
+    }
+    const double w = ac_inv_sigma_;
+    for (std::size_t k = 0; k < ac_.size(); ++k) {
+      const Ac& p = ac_[k];
+      const double denom_a = p.bias_i_a + is_a;
+      const double rj = x[1] * vt_ / denom_a;
+      const std::size_t m = dc_.size() + k;
+      residuals[m] = (fixture_gain_db_of(rj, x[2], p.omega_cj, z_load_) - p.measured_db) * w;
+      if (jac != nullptr) {
+        // gain dB = 10·log10(z²/D), D = re² + im², a = ω·Cj·rj, q = 1 + a²,
+        // re = Rs + rj/q + z, im = −a·rj/q: dre/drj = (1 − a²)/q², dim/drj = −2a/q².
+        const double a = p.omega_cj * rj, q = 1.0 + a * a;
+        const double re = x[2] + rj / q + z_load_, im = -a * rj / q;
+        const double d_db_d_d = -10.0 / (std::numbers::ln10 * (re * re + im * im));
+        const double d_d_d_rj = (2.0 * re * (1.0 - a * a) - 4.0 * im * a) / (q * q);
+        const double d_db_d_rj = d_db_d_d * d_d_d_rj;
+        double* row = jac + 3 * m;
+        row[0] = d_db_d_rj * (-rj * is_a / denom_a) * w;
+        row[1] = d_db_d_rj * (vt_ / denom_a) * w;
+        row[2] = d_db_d_d * 2.0 * re * w;
+      }
+    }
     return true;
   }
+
+ private:
+  std::vector<Dc> dc_;
+  const std::vector<double>& dc_inv_sigma_;
+  std::vector<Ac> ac_;
+  double vt_, z_load_, ac_inv_sigma_;
 };
 
-struct AcCost {
-  double bias_i_a, measured_db, vt, omega_cj, z_load, inv_sigma;
-  template <typename T>
-  bool operator()(const T* const x, T* r) const {
-    // x = {ln Is, n, Rs}
-    const T rj = x[1] * T(vt) / (T(bias_i_a) + exp(x[0]));
-    r[0] = (fixture_gain_db_of(rj, x[2], omega_cj, z_load) - T(measured_db)) * T(inv_sigma);
-    return true;
-  }
-};
+// The covariance of x from the Jacobian at the solution, as ceres::Covariance
+// with DENSE_SVD and its default options computes it (singular values of J,
+// V·diag(1/s²)·Vᵀ, refused when s_min/s_max < √1e-14), without building the
+// problem's evaluator again. Returns false when J is that close to rank deficient.
+bool covariance_from_jacobian(const JointCost& cost, const double x[3], double c[9]) {
+  const int rows = cost.num_residuals();
+  std::vector<double> residuals(static_cast<std::size_t>(rows));
+  Eigen::Matrix<double, Eigen::Dynamic, Eigen::Dynamic, Eigen::RowMajor> j(rows, 3);
+  const double* parameters[] = {x};
+  double* jacobians[] = {j.data()};
+  if (!cost.Evaluate(parameters, residuals.data(), jacobians) || !j.allFinite()) return false;
+  const Eigen::MatrixXd dense = j;
+  const Eigen::JacobiSVD<Eigen::MatrixXd> svd(dense, Eigen::ComputeThinV);
+  const Eigen::VectorXd s = svd.singularValues();
+  const double min_ratio = std::sqrt(1e-14);  // ceres::Covariance::Options::min_reciprocal_condition_number
+  for (Eigen::Index k = 0; k < s.size(); ++k)
+    if (!(s[k] / s[0] >= min_ratio)) return false;
+  const Eigen::Matrix3d cov = svd.matrixV() * s.cwiseAbs2().cwiseInverse().asDiagonal() * svd.matrixV().transpose();
+  for (int r = 0; r < 3; ++r)
+    for (int k = 0; k < 3; ++k) c[3 * r + k] = cov(r, k);
+  return true;
+}
 
-// The AC readings alone: Is (≪ I) does not enter.
 struct AcOnlyCost {
   double bias_i_a, measured_db, vt, omega_cj, z_load, inv_sigma;
   template <typename T>
@@ -148,24 +223,22 @@ SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, co
     for (std::size_t k = 0; k < fwd.size(); ++k) inv_sigma[k] = 1.0 / (o.dc_sigma_scale * residual_sigma_v(p, fwd[k], o.accuracy, o.temp_k));
   };
   weigh(x);
-  ceres::Problem problem;
-  std::vector<DcCost*> dc_costs;
-  for (std::size_t k = 0; k < fwd.size(); ++k) {
-    auto* cost = new DcCost{fwd[k].v, fwd[k].i_a, vt, inv_sigma[k]};
-    dc_costs.push_back(cost);
-    problem.AddResidualBlock(new ceres::AutoDiffCostFunction<DcCost, 1, 3>(cost), nullptr, x);
-  }
-  const double z_load = cathode_load_ohm(fixture);
+  std::vector<JointCost::Dc> dc_readings;
+  dc_readings.reserve(fwd.size());
+  for (const auto& p : fwd) dc_readings.push_back({p.v, p.i_a});
+  std::vector<JointCost::Ac> ac_readings;
   for (const auto& p : ac) {
     if (!p.usable()) continue;
-    const double omega_cj = 2.0 * std::numbers::pi * p.freq_hz * o.cj_f;
-    problem.AddResidualBlock(
-        new ceres::AutoDiffCostFunction<AcCost, 1, 3>(new AcCost{
-            p.bias_i_a, 20.0 * std::log10(p.vout / p.vin), vt, omega_cj, z_load, 1.0 / o.ac_sigma_db}),
-        nullptr, x);
-    ++f.ac_points;
+    ac_readings.push_back({p.bias_i_a, 20.0 * std::log10(p.vout / p.vin), 2.0 * std::numbers::pi * p.freq_hz * o.cj_f});
   }
   f.dc_points = fwd.size();
+  f.ac_points = ac_readings.size();
+  JointCost cost(std::move(dc_readings), inv_sigma, std::move(ac_readings), vt, cathode_load_ohm(fixture),
+                 1.0 / o.ac_sigma_db);
+  ceres::Problem::Options po;
+  po.cost_function_ownership = ceres::DO_NOT_TAKE_OWNERSHIP;  // `cost` lives on this stack
+  ceres::Problem problem(po);
+  problem.AddResidualBlock(&cost, nullptr, x);
   problem.SetParameterLowerBound(x, 1, 0.5);
   problem.SetParameterUpperBound(x, 1, 5.0);
   problem.SetParameterLowerBound(x, 2, 0.0);
@@ -174,8 +247,7 @@ SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, co
   ceres::Solver::Summary summary;
   ceres::Solve(so, &problem, &summary);
   if (summary.termination_type == ceres::CONVERGENCE) {
-    weigh(x);
-    for (std::size_t k = 0; k < fwd.size(); ++k) dc_costs[k]->inv_sigma = inv_sigma[k];
+    weigh(x);  // the cost reads inv_sigma at every evaluation
     ceres::Solve(so, &problem, &summary);
   }
   f.cost = summary.final_cost;
@@ -187,14 +259,9 @@ SimpleFit fit_dc_ac(std::span<const IvPoint> dc, std::span<const AcPoint> ac, co
     return f;
   }
   f.ok = true;
-  ceres::Covariance::Options co;
-  co.algorithm_type = ceres::DENSE_SVD;
-  ceres::Covariance cov(co);
-  std::vector<std::pair<const double*, const double*>> blocks{{x, x}};
   const std::size_t dof = f.dc_points + f.ac_points - 3;
-  if (dof > 0 && cov.Compute(blocks, &problem)) {
-    double c[9];
-    cov.GetCovarianceBlock(x, x, c);
+  double c[9];
+  if (dof > 0 && covariance_from_jacobian(cost, x, c)) {
     const double scale = 2.0 * summary.final_cost / static_cast<double>(dof);
     f.reduced_chi2 = scale;
     f.is_a.std_error = f.is_a.value * std::sqrt(c[0] * scale);
