@@ -277,7 +277,7 @@ void apply_heating(const Config& cfg, double temp_k, const std::vector<PointRow>
 void apply_vector(const RunFixture& fixture, const std::vector<PointRow>& points, RunFit& out) {
   const auto v = vector_fit_of_run(points, fixture);
   if (!v) return;
-  out.more.package = v->to_json();
+  out.more.package = fitting::vector_run_fit_json(*v);
   if (!v->package.ok) {
     out.fit.warnings.push_back("package not fitted from the vector readings: " + v->package.message);
     return;

@@ -1,10 +1,11 @@
 // The reports a run's fits give, as juncod stores them with the fit
-// (detail.junction_cap, detail.electrothermal, detail.heating) and part.fit
-// serves them: plain typed values, no JSON. Their one JSON writer and reader
+// (detail.junction_cap, detail.electrothermal, detail.heating,
+// detail.package) and part.fit serves them: plain typed values, no JSON. Their one JSON writer and reader
 // is formats/report_json.hpp; the fit results they are made of stay in their
 // own headers (junction_cap.hpp, electrothermal_fit.hpp, heating.hpp).
 #pragma once
 
+#include "fitting/deembed.hpp"
 #include "fitting/electrothermal_fit.hpp"
 #include "fitting/extract.hpp"
 #include "fitting/heating.hpp"
@@ -72,6 +73,23 @@ struct HeatingReport {
   std::optional<DwellThermal> dwell;        // with dwell readings
   std::optional<Hysteresis> hysteresis;     // with down-sweep readings
   std::optional<double> rs_heating_ohm;     // when the measured Rth sizes it
+};
+
+// A run's vector readings fitted (juncod's daemon/vector_analysis.hpp makes
+// it; stored as detail.package, served by part.fit as "package"): the
+// package's Ls and Cp with their standard errors, and the chip's Cj(V) law
+// with the package removed. What is stored of the law is the fit alone (no
+// per-reading C), and of the package fit all but readings_used.
+struct VectorRunFit {
+  PackageFit package;
+  bool deembedded = false;  // the run's open and short standards were removed
+  double z_load_ohm = 0.0;
+  std::size_t readings = 0;  // reverse_vector readings
+  std::size_t standards = 0; // vector_open + vector_short readings
+  // The chip's law, package removed (when the package fit is ok); its
+  // standard errors include the package's (package_in_law_errors).
+  std::optional<JunctionCapFit> cap;
+  bool package_in_law_errors = false;
 };
 
 }  // namespace junco::fitting

@@ -298,4 +298,54 @@ json pin_off_fit_json(const PinOffFit& f) {
           {"reduced_chi2", nullable(f.reduced_chi2)}, {"points", f.points}};
 }
 
+// ---- package from vector readings -------------------------------------------------
+
+json vector_run_fit_json(const VectorRunFit& v) {
+  json j{{"ok", v.package.ok},
+         {"message", v.package.message},
+         {"ls_h", estimate_json({v.package.package.ls_h, v.package.ls_h_std_error})},
+         {"cp_f", estimate_json({v.package.package.cp_f, v.package.cp_f_std_error})},
+         {"ls_cp_correlation", nullable(v.package.ls_cp_correlation)},
+         {"rms_relative", nullable(v.package.rms_relative)},
+         {"readings", v.readings},
+         {"standards", v.standards},
+         {"deembedded", v.deembedded},
+         {"z_load_ohm", v.z_load_ohm},
+         {"package_in_law_errors", v.package_in_law_errors}};
+  j["junction_cap"] = v.cap ? junction_cap_json(*v.cap) : json(nullptr);
+  return j;
+}
+
+VectorRunFit vector_run_fit_of(const json& j) {
+  require_object(j);
+  VectorRunFit v;
+  v.package.ok = j.value("ok", false);
+  v.package.message = j.value("message", std::string());
+  const Estimate ls = estimate_of(j, "ls_h"), cp = estimate_of(j, "cp_f");
+  v.package.package = {ls.value, cp.value};
+  v.package.ls_h_std_error = ls.std_error;
+  v.package.cp_f_std_error = cp.std_error;
+  v.package.ls_cp_correlation = number_of(j, "ls_cp_correlation");
+  v.package.rms_relative = number_of(j, "rms_relative");
+  v.readings = j.value("readings", std::size_t{0});
+  v.standards = j.value("standards", std::size_t{0});
+  v.deembedded = j.value("deembedded", false);
+  v.z_load_ohm = number_of(j, "z_load_ohm");
+  v.package_in_law_errors = j.value("package_in_law_errors", false);
+  if (const auto it = j.find("junction_cap"); it != j.end() && !it->is_null()) {
+    const JunctionCapReport r = junction_cap_report_of(*it);
+    JunctionCapFit& cap = v.cap.emplace();
+    cap.ok = r.ok;
+    cap.message = r.message;
+    cap.cj0_f = r.cj0_f;
+    cap.vj_v = r.vj_v;
+    cap.m = r.m;
+    cap.law_held = r.law_held;
+    cap.points_used = r.points_used > 0 ? static_cast<std::size_t>(r.points_used) : 0;
+    cap.reduced_chi2 = r.reduced_chi2;
+    cap.vj_m_correlation = r.vj_m_correlation;
+  }
+  return v;
+}
+
 }  // namespace junco::fitting

@@ -66,4 +66,10 @@ nlohmann::json temperature_fit_json(const TemperatureFit& fit);
 nlohmann::json pin_fit_json(const PinFit& fit);
 nlohmann::json pin_off_fit_json(const PinOffFit& fit);
 
+// detail.package (fitting/fit_reports.hpp VectorRunFit): {ok, message, ls_h:{value,std_error},
+// cp_f, ls_cp_correlation, rms_relative, readings, standards, deembedded, z_load_ohm,
+// package_in_law_errors, junction_cap: the chip's law as junction_cap_json(fit), or null}
+nlohmann::json vector_run_fit_json(const VectorRunFit& fit);
+VectorRunFit vector_run_fit_of(const nlohmann::json& j);
+
 }  // namespace junco::fitting
