@@ -24,11 +24,17 @@ Json to_json(const InstrumentRow& i);
 Json to_json(const FitRecord& f);
 Json to_json(const fitting::Estimate& e);  // {value, std_error}, null when not finite
 
-// A fit's detail document: `rest` (parameter_names, correlation, excluded,
-// iterations, pin) with the typed reports written in (formats/report_json.hpp),
-// the one writer of what the store keeps and what part.fit serves.
-Json fit_detail_json(Json rest, const JunctionCapReport* cap, const ElectrothermalReport* electrothermal, const HeatingReport* heating,
-                     const fitting::AcChargeFit* stored_charge);
+// A part's temperature law as part.fit serves it: temperature_law_json
+// (formats/report_json.hpp) with temperature_fit_id, job_id, created_at.
+Json to_json(const TemperatureLawRecord& law);
+
+// A fit's detail document: the fit's parameter_names, correlation, excluded
+// and iterations, with each typed report written in (formats/report_json.hpp):
+// the one writer of what the store keeps (from a new fit and its reports)
+// and what part.fit serves (from a stored FitRecord).
+Json fit_detail_json(const fitting::FitResult& fit, const JunctionCapReport* cap, const ElectrothermalReport* electrothermal,
+                     const MoreReports& more);
+Json fit_detail_json(const FitRecord& f);
 
 template <typename Row>
 Json to_json(const std::vector<Row>& rows) {

@@ -467,7 +467,7 @@ class CoreService final : public Service {
       // {value, std_error} as part.fit and junco fit --json give every estimate.
       rows.push_back({{"i_a", i}, {"vf_v", fitting::estimate_json(vf)}, {"rd_ohm", fitting::estimate_json(rd)}});
     }
-    return {{"part_id", part_id}, {"fit_id", fit->id}, {"run_id", fit->run_id ? Json(*fit->run_id) : Json(nullptr)}, {"temp_k", std::isfinite(r.temp_k) ? Json(r.temp_k) : Json(nullptr)}, {"figures", rows}};
+    return {{"part_id", part_id}, {"fit_id", fit->id}, {"run_id", fit->run_id ? Json(*fit->run_id) : Json(nullptr)}, {"temp_k", fitting::number_or_null(r.temp_k)}, {"figures", rows}};
   }
 
   Json export_part(const Json& params, const Caller&) {

@@ -180,7 +180,7 @@ void apply_pin(const Config& cfg, double temp_k, const RunFixture& fixture, cons
   fitting::PinFitOptions o;
   o.temp_k = temp_k;
   o.ac_sigma_db = cfg.level_sigma_db();
-  Json j = Json::object();
+  PinReport report;
   if (!all.empty()) {
     const fitting::AcScreen junction_rule;
     const auto floor_only = fitting::screen_ac_readings(all, fx, {std::numeric_limits<double>::infinity(), junction_rule.floor_v});
@@ -198,22 +198,16 @@ void apply_pin(const Config& cfg, double temp_k, const RunFixture& fixture, cons
       else ++(why[k] == "large signal" ? large : low);
       if (why[k].empty() && small[k] == "large signal") ++kept_by_charge;
     }
-    const fitting::PinFit f = fitting::fit_pin_law(used, fx, o);
-    j = fitting::pin_fit_json(f);
-    j["screen"] = {{"readings", all.size()},
-                   {"used", used.size()},
-                   {"large_signal", large},
-                   {"below_floor", low},
-                   {"kept_by_charge_rule", kept_by_charge},
-                   {"tau_for_screen_s", tau_s}};
+    const fitting::PinFit& f = report.law.emplace(fitting::fit_pin_law(used, fx, o));
+    report.screen = fitting::PinScreenReport{all.size(), used.size(), large, low, kept_by_charge, tau_s};
     if (!f.ok) out.fit.warnings.push_back("PIN law not fitted: " + f.message);
   } else {
-    j = {{"ok", false}, {"message", "the run has no AC readings: the PIN law needs them at 2 or more frequencies"}};
+    report.not_fitted = "the run has no AC readings: the PIN law needs them at 2 or more frequencies";
     out.fit.warnings.push_back("PIN law not fitted: the run has no AC readings");
   }
   const auto off = off_state_points(points);
-  if (!off.empty()) j["off_state"] = fitting::pin_off_fit_json(fitting::fit_pin_off_state(off, fx, cfg.level_sigma_db()));
-  out.more.pin = j;
+  if (!off.empty()) report.off_state = fitting::fit_pin_off_state(off, fx, cfg.level_sigma_db());
+  out.more.pin = std::move(report);
 }
 
 // The heating plan options' readings (plan.heating; fitting/heating.hpp):
@@ -277,7 +271,7 @@ void apply_heating(const Config& cfg, double temp_k, const std::vector<PointRow>
 void apply_vector(const RunFixture& fixture, const std::vector<PointRow>& points, RunFit& out) {
   const auto v = vector_fit_of_run(points, fixture);
   if (!v) return;
-  out.more.package = v->to_json();
+  out.more.package = *v;
   if (!v->package.ok) {
     out.fit.warnings.push_back("package not fitted from the vector readings: " + v->package.message);
     return;
@@ -365,11 +359,10 @@ std::string describe_fit(const RunFit& f) {
       std::snprintf(buf, sizeof buf, "; junction capacitance not fitted: %s", f.cap->message.c_str());
     line += buf;
   }
-  if (f.more.package.is_object() && f.more.package.value("ok", false)) {
-    const Json& pk = f.more.package;
+  if (const auto& pk = f.more.package; pk && pk->package.ok) {
     char buf[160];
-    std::snprintf(buf, sizeof buf, "; package Ls %.4g nH Cp %.4g pF from %zu vector readings", pk["ls_h"]["value"].get<double>() * 1e9,
-                  pk["cp_f"]["value"].get<double>() * 1e12, pk.value("readings", std::size_t{0}));
+    std::snprintf(buf, sizeof buf, "; package Ls %.4g nH Cp %.4g pF from %zu vector readings", pk->package.package.ls_h * 1e9,
+                  pk->package.package.cp_f * 1e12, pk->readings);
     line += buf;
   }
   return line;
@@ -506,17 +499,17 @@ class JobRun {
   void fit_temperature_laws() {
     for (const auto& part : plan_.parts) {
       const Id part_id = store_.ensure_part(store_.ensure_lot(plan_.lot), part.label, part.slot);
-      const Json law = temperature_law_of_runs(store_.fits_of_job_part(job_id_, part_id), fitting::TemperatureLaw{});
+      const TemperatureLawReport law = temperature_law_of_runs(store_.fits_of_job_part(job_id_, part_id), fitting::TemperatureLaw{});
       store_.insert_temperature_fit(part_id, job_id_, law);
-      std::string line = "job " + std::to_string(job_id_) + " part " + part.label + ": temperature law " + law.value("status", "");
-      if (law.value("status", "") == "ok") {
+      const fitting::TemperatureFit& f = law.fit;
+      std::string line = "job " + std::to_string(job_id_) + " part " + part.label + ": temperature law " + (f.ok ? "ok" : "failed");
+      if (f.ok) {
         char buf[200];
-        std::snprintf(buf, sizeof buf, ": EG %.4f ± %.4f eV, XTI %.3g%s, from %zu temperatures", law["eg_ev"]["value"].get<double>(),
-                      law["eg_ev"]["std_error"].get<double>(), law["xti"]["value"].get<double>(),
-                      law["xti"]["held"].get<bool>() ? " (held)" : "", law["temperatures"].size());
+        std::snprintf(buf, sizeof buf, ": EG %.4f ± %.4f eV, XTI %.3g%s, from %zu temperatures", f.eg_ev.value, f.eg_ev.std_error,
+                      f.xti.value, f.xti_held ? " (held)" : "", f.temps_k.size());
         line += buf;
       } else {
-        line += " (" + law.value("message", std::string()) + ")";
+        line += " (" + f.message + ")";
       }
       log_(line);
     }

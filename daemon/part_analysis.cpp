@@ -1,6 +1,7 @@
 #include "daemon/part_analysis.hpp"
 
 #include "fitting/temperature_fit.hpp"
+#include "formats/fit_json.hpp"
 #include "formats/report_json.hpp"
 
 #include "daemon/part_export.hpp"
@@ -11,11 +12,7 @@
 
 namespace junco::daemon {
 
-namespace {
-
-Json number_or_null(double x) { return std::isfinite(x) ? Json(x) : Json(nullptr); }
-
-}  // namespace
+using fitting::number_or_null;
 
 std::vector<fitting::IvPoint> dc_fit_points(const std::vector<PointRow>& points) {
   std::vector<fitting::IvPoint> out;
@@ -129,16 +126,12 @@ fitting::Fixture ac_fixture(const RunFixture& f) {
 }
 
 std::optional<fitting::PinPart> pin_part_of_fit(const FitRecord& fit) {
-  const Json& pin = fit.detail.value("pin", Json());
-  if (!pin.is_object() || !pin.value("ok", false)) return std::nullopt;
-  const auto value = [](const Json& obj, const char* key) {
-    return obj.contains(key) && obj[key].is_object() && obj[key]["value"].is_number() ? obj[key]["value"].get<double>() : kNaN;
-  };
+  if (!fit.pin || !fit.pin->law_ok()) return std::nullopt;
   fitting::PinPart p;
-  p.law = {value(pin, "n"), value(pin, "tau_s"), value(pin, "r0_ohm"), value(pin, "k_ohm_a_x"), value(pin, "x")};
-  if (const Json& off = pin.value("off_state", Json()); off.is_object() && off.value("ok", false)) {
-    p.ct_f = value(off, "ct_f");
-    p.rp_ohm = value(off, "rp_ohm");
+  p.law = fit.pin->law->law();
+  if (const auto& off = fit.pin->off_state; off && off->ok) {
+    p.ct_f = off->ct_f.value;
+    p.rp_ohm = off->rp_ohm.value;
   }
   return p;
 }
@@ -330,35 +323,28 @@ Json lot_stats_report(const std::string& lot, const std::vector<fitting::LotPart
             {"vj_v", number_or_null(st.nominal_vj_v)}, {"m", number_or_null(st.nominal_m)}}}};
 }
 
-Json temperature_law_of_runs(const Json& run_fits, const fitting::TemperatureLaw& held) {
+TemperatureLawReport temperature_law_of_runs(const std::vector<RunFitAtTemperature>& run_fits, const fitting::TemperatureLaw& held) {
   std::vector<fitting::TemperaturePoint> points;
-  Json runs = Json::array();
-  auto est = [](const Json& e) {
-    fitting::Estimate out;
-    if (e.is_object() && e["value"].is_number()) out.value = e["value"].get<double>();
-    if (e.is_object() && e["std_error"].is_number()) out.std_error = e["std_error"].get<double>();
-    return out;
-  };
+  TemperatureLawReport out;
   for (const auto& r : run_fits) {
-    if (r.value("status", "") != "converged" || !r["temp_k"].is_number()) continue;
+    if (r.status != "converged" || !std::isfinite(r.temp_k)) continue;
     fitting::TemperaturePoint p;
-    p.temp_k = r["temp_k"].get<double>();
+    p.temp_k = r.temp_k;
     // 0.01 K: the chamber readback's resolution (common practice, no source).
     p.temp_se_k = 0.01;
-    if (r["ambient_k"].is_number() && r["ambient_end_k"].is_number())
-      p.temp_se_k = std::max(0.01, std::fabs(r["ambient_end_k"].get<double>() - r["ambient_k"].get<double>()) / 2.0);
-    p.is_a = est(r["is_a"]);
-    p.n = est(r["n"]);
-    p.rs_ohm = est(r["rs_ohm"]);
-    p.corr_is_n = r.value("corr_is_n", 0.0);
+    if (std::isfinite(r.ambient_k) && std::isfinite(r.ambient_end_k))
+      p.temp_se_k = std::max(0.01, std::fabs(r.ambient_end_k - r.ambient_k) / 2.0);
+    p.is_a = r.is_a;
+    p.n = r.n;
+    p.rs_ohm = r.rs_ohm;
+    p.corr_is_n = r.corr_is_n;
     points.push_back(p);
-    runs.push_back(r["run_id"]);
+    out.runs.push_back(r.run_id);
   }
   fitting::TemperatureFitOptions o;
   o.held = held;
-  Json j = fitting::temperature_fit_json(fitting::fit_temperature_law(points, o));
-  j["runs"] = runs;
-  return j;
+  out.fit = fitting::fit_temperature_law(points, o);
+  return out;
 }
 
 }  // namespace junco::daemon

@@ -125,8 +125,7 @@ Json lot_stats_report(const std::string& lot, const std::vector<fitting::LotPart
 // several chamber temperatures (Store::fits_of_job_part): each usable run's
 // fit at its ambient (mean of the chamber readbacks around its readings,
 // known to half their difference or the readback's 0.01 K, whichever is
-// larger) into fitting::fit_temperature_law; its JSON
-// (fitting::temperature_fit_json) with "runs": the run ids used.
-Json temperature_law_of_runs(const Json& run_fits, const fitting::TemperatureLaw& held);
+// larger) into fitting::fit_temperature_law, with the ids of the runs used.
+TemperatureLawReport temperature_law_of_runs(const std::vector<RunFitAtTemperature>& run_fits, const fitting::TemperatureLaw& held);
 
 }  // namespace junco::daemon

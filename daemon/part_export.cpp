@@ -56,18 +56,15 @@ fitting::PartModel part_model(const PartRow& part, const FitRecord& fit) {
   // (part.fit's "temperature_law"): EG and XTI as fitted (or XTI as held),
   // TRS1 when resolved, referred to this card's TNOM: RS is linear in T, so
   // a coefficient a at T_L becomes a/(1 + a·(TNOM − T_L)).
-  if (const Json& law = fit.temperature_law; law.is_object() && law.value("status", "") == "ok") {
-    m.law.eg_ev = law["eg_ev"]["value"].get<double>();
-    m.law.xti = law["xti"]["value"].get<double>();
-    const Json& trs = law["trs1_per_k"];
-    if (trs.value("resolved", false) && trs["value"].is_number()) {
-      const double a = trs["value"].get<double>();
-      m.law.trs1_per_k = a / (1.0 + a * (m.temp_k - law["tnom_k"].get<double>()));
-    }
+  if (fit.temperature_law && fit.temperature_law->report.fit.ok) {
+    const fitting::TemperatureFit& law = fit.temperature_law->report.fit;
+    m.law.eg_ev = law.eg_ev.value;
+    m.law.xti = law.xti.value;
+    if (const double a = law.trs1_per_k.value; law.trs_resolved && std::isfinite(a))
+      m.law.trs1_per_k = a / (1.0 + a * (m.temp_k - law.tnom_k));
     char note[240];
-    std::snprintf(note, sizeof note, "EG %.4g +- %.2g eV, XTI %.4g%s from %zu temperatures (job %ld)%s", m.law.eg_ev,
-                  law["eg_ev"]["std_error"].is_number() ? law["eg_ev"]["std_error"].get<double>() : NAN, m.law.xti,
-                  law["xti"].value("held", false) ? " (held)" : "", law["temperatures"].size(), law.value("job_id", 0L),
+    std::snprintf(note, sizeof note, "EG %.4g +- %.2g eV, XTI %.4g%s from %zu temperatures (job %ld)%s", m.law.eg_ev, law.eg_ev.std_error,
+                  m.law.xti, law.xti_held ? " (held)" : "", law.temps_k.size(), static_cast<long>(fit.temperature_law->job_id),
                   m.law.trs1_per_k != 0.0 ? ", TRS1 fitted" : "");
     m.notes.push_back(note);
   }

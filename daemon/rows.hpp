@@ -10,8 +10,6 @@
 #include "fitting/extract.hpp"
 #include "fitting/fit_reports.hpp"
 
-#include <nlohmann/json.hpp>
-
 #include <cstdint>
 #include <limits>
 #include <optional>
@@ -21,7 +19,6 @@
 
 namespace junco::daemon {
 
-using Json = nlohmann::json;
 using Id = std::int64_t;
 
 inline constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
@@ -126,21 +123,47 @@ struct JobRecord {
 };
 
 // The reports stored with a fit (detail.junction_cap, detail.electrothermal,
-// detail.heating, detail.stored_charge) are the fitting library's typed
-// reports (fitting/fit_reports.hpp, fitting/ac_charge_fit.hpp); their one
-// JSON writer and reader is formats/report_json.hpp.
+// detail.heating, detail.stored_charge, detail.pin, detail.package) and the
+// temperature law are the fitting library's typed reports
+// (fitting/fit_reports.hpp, fitting/ac_charge_fit.hpp); their one JSON
+// writer and reader is formats/report_json.hpp.
 using fitting::ElectrothermalReport;
 using fitting::HeatingReport;
 using fitting::JunctionCapReport;
 using fitting::OffStateReadingReport;
+using fitting::PinReport;
+using fitting::TemperatureLawReport;
+using fitting::VectorRunFit;
 
 // What a run's fit stores beside the forward fit, the capacitance law and the
 // electro-thermal fit.
 struct MoreReports {
   std::optional<HeatingReport> heating;             // detail.heating (plan.heating readings)
   std::optional<fitting::AcChargeFit> stored_charge;  // detail.stored_charge (multi-frequency AC readings)
-  Json pin;  // detail.pin (a PIN part), null: none; pin_fit_json with the daemon's screen and off_state
-  Json package;  // detail.package (plan.vector readings), null: none; VectorRunFit::to_json
+  std::optional<PinReport> pin;                     // detail.pin (a PIN part: plan.part_type "pin")
+  std::optional<VectorRunFit> package;              // detail.package (plan.vector readings)
+};
+
+// A part's temperature law as stored (temperature_fits): which row, from
+// which multi-temperature job, when, and the law with its standard errors.
+struct TemperatureLawRecord {
+  Id id = 0;  // served as temperature_fit_id
+  Id job_id = 0;
+  std::string created_at;
+  TemperatureLawReport report;
+};
+
+// A run's stored forward fit as the temperature law takes it
+// (Store::fits_of_job_part): the run's temperatures and the fit's Is, n, Rs
+// with the (Is, n) correlation (0 when not stored).
+struct RunFitAtTemperature {
+  Id run_id = 0;
+  int temp_index = 0;
+  double temp_k = kNaN;
+  double ambient_k = kNaN, ambient_end_k = kNaN;  // chamber readback before and after (NaN without)
+  std::string status;  // the fit's status as stored ("converged", ...)
+  fitting::Estimate is_a, n, rs_ohm;
+  double corr_is_n = 0.0;
 };
 
 // A stored fit: the forward fit with its covariance (so every figure served
@@ -166,14 +189,16 @@ struct FitRecord {
   std::optional<ElectrothermalReport> electrothermal;
   std::optional<HeatingReport> heating;
   std::optional<fitting::AcChargeFit> stored_charge;
-  // The rest of the stored detail document as written (parameter_names,
-  // correlation, excluded, iterations, pin); checked on read, served as is.
-  // api_json puts the typed reports back beside it.
-  Json detail = Json::object();
+  std::optional<PinReport> pin;          // a PIN part's law and off state
+  std::optional<VectorRunFit> package;   // the package from the run's vector readings
+  // The rest of the stored detail (parameter_names, correlation, excluded,
+  // iterations) is read into `fit`; api_json writes the document back from
+  // these fields (keys a newer juncod stored and this one does not know are
+  // not kept).
   // The part's latest temperature law (Store::latest_temperature_fit, from a
-  // multi-temperature job: EG, XTI, TRS1), null when it has none. Not a
+  // multi-temperature job: EG, XTI, TRS1), none when it has none. Not a
   // column of fits: the service adds it for part.fit and the exports.
-  Json temperature_law = nullptr;
+  std::optional<TemperatureLawRecord> temperature_law;
 
   // Points used by the capacitance law, 0 without one.
   long cap_points_used() const { return junction_cap ? junction_cap->points_used : 0; }

@@ -4,7 +4,9 @@
 
 #include "daemon/migrations.hpp"
 #include "fitting/extract.hpp"
+#include "formats/fit_json.hpp"
 #include "formats/json_limits.hpp"
+#include "formats/report_json.hpp"
 #include "fitting/junction_cap.hpp"
 
 #include <sqlite3.h>
@@ -167,8 +169,6 @@ namespace {
 
 constexpr const char* kNow = "strftime('%Y-%m-%dT%H:%M:%fZ','now')";
 
-Json nullable(double v) { return std::isfinite(v) ? Json(v) : Json(nullptr); }
-
 // A JSON column as stored; one that does not parse is damage, named by `where`.
 Json stored_json(const std::string& text, const std::string& where) {
   try {
@@ -194,16 +194,6 @@ std::vector<std::vector<double>> matrix_of(const Json& j, std::size_t dim, const
     if (!row.is_array() || row.size() != dim) throw std::invalid_argument(std::string(what) + ": a row is not " + std::to_string(dim) + " long");
     std::vector<double> r;
     for (const auto& c : row) r.push_back(number_or_nan(c));
-    out.push_back(std::move(r));
-  }
-  return out;
-}
-
-Json matrix_json(const std::vector<std::vector<double>>& m) {
-  Json out = Json::array();
-  for (const auto& row : m) {
-    Json r = Json::array();
-    for (double c : row) r.push_back(nullable(c));
     out.push_back(std::move(r));
   }
   return out;
@@ -590,59 +580,60 @@ void Store::set_run_ambient(Id run_id, double ambient_k, double ambient_end_k, d
       .run();
 }
 
-Id Store::insert_temperature_fit(Id part_id, Id job_id, const Json& fit) {
+Id Store::insert_temperature_fit(Id part_id, Id job_id, const TemperatureLawReport& law) {
+  const fitting::TemperatureFit& f = law.fit;
+  const std::string detail = fitting::temperature_law_json(law).dump();
   std::lock_guard lock(write_mutex_);
-  auto value = [&](const char* name, const char* what) {
-    const Json& p = fit.contains(name) ? fit[name] : Json();
-    return p.is_object() && p.contains(what) && p[what].is_number() ? p[what].get<double>() : kNaN;
-  };
   Stmt(*writer_, std::string("INSERT INTO temperature_fits(part_id, job_id, status, message, eg_ev, eg_ev_se, xti, xti_se, trs1_per_k, "
                              "trs1_per_k_se, tnom_k, detail, created_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ") + kNow + ")")
-      .bind(1, part_id).bind(2, job_id).bind(3, fit.value("status", std::string("failed")))
-      .bind_opt(4, fit.value("message", std::string()).empty() ? std::nullopt : std::optional<std::string>(fit.value("message", std::string())))
-      .bind(5, value("eg_ev", "value")).bind(6, value("eg_ev", "std_error"))
-      .bind(7, value("xti", "value")).bind(8, value("xti", "std_error"))
-      .bind(9, value("trs1_per_k", "value")).bind(10, value("trs1_per_k", "std_error"))
-      .bind(11, fit.value("tnom_k", kNaN)).bind(12, fit.dump())
+      .bind(1, part_id).bind(2, job_id).bind(3, std::string(f.ok ? "ok" : "failed"))
+      .bind_opt(4, f.message.empty() ? std::nullopt : std::optional<std::string>(f.message))
+      .bind(5, f.eg_ev.value).bind(6, f.eg_ev.std_error)
+      .bind(7, f.xti.value).bind(8, f.xti.std_error)
+      .bind(9, f.trs1_per_k.value).bind(10, f.trs1_per_k.std_error)
+      .bind(11, f.tnom_k).bind(12, detail)
       .run();
   return sqlite3_last_insert_rowid(writer_->db);
 }
 
-Json Store::fits_of_job_part(Id job_id, Id part_id) {
+std::vector<RunFitAtTemperature> Store::fits_of_job_part(Id job_id, Id part_id) {
   auto r = reader();
   auto st = r(
       "SELECT r.id, r.temp_index, r.temp_k, r.ambient_k, r.ambient_end_k, f.status, f.is_a, f.is_a_se, f.n, f.n_se, f.rs_ohm, f.rs_ohm_se,"
-      " COALESCE(f.detail, '{}') FROM runs r JOIN fits f ON f.run_id = r.id"
+      " COALESCE(f.detail, '{}'), f.id FROM runs r JOIN fits f ON f.run_id = r.id"
       " WHERE r.job_id = ? AND r.part_id = ? AND f.id = (SELECT MAX(id) FROM fits WHERE run_id = r.id) ORDER BY r.temp_index");
   st.bind(1, job_id).bind(2, part_id);
-  Json out = Json::array();
+  std::vector<RunFitAtTemperature> out;
   while (st.step()) {
-    auto est = [&](int c) { return Json{{"value", nullable(st.real(c))}, {"std_error", nullable(st.real(c + 1))}}; };
-    const Json detail = Json::parse(st.text(12));
-    double corr = 0.0;
-    if (detail.contains("parameter_names") && detail.contains("correlation") && detail["correlation"].size() >= 2) {
-      const auto& names = detail["parameter_names"];
-      if (names.size() >= 2 && names[0] == "is_a" && names[1] == "n" && detail["correlation"][0].size() >= 2 &&
-          detail["correlation"][0][1].is_number())
-        corr = detail["correlation"][0][1].get<double>();
-    }
-    out.push_back({{"run_id", st.i64(0)}, {"temp_index", st.i64(1)}, {"temp_k", nullable(st.real(2))}, {"ambient_k", nullable(st.real(3))},
-                   {"ambient_end_k", nullable(st.real(4))}, {"status", st.text(5)}, {"is_a", est(6)}, {"n", est(8)}, {"rs_ohm", est(10)},
-                   {"corr_is_n", corr}});
+    const auto est = [&](int c) { return fitting::Estimate{st.real(c), st.real(c + 1)}; };
+    RunFitAtTemperature f{st.i64(0), static_cast<int>(st.i64(1)), st.real(2), st.real(3), st.real(4), st.text(5), est(6), est(8), est(10), 0.0};
+    // corr(Is, n) from the stored correlation when its first two parameters are Is and n.
+    const Json detail = stored_json(st.text(12), "fit " + std::to_string(st.i64(13)) + ": detail");
+    const Json& names = detail.value("parameter_names", Json::array());
+    const Json& corr = detail.value("correlation", Json::array());
+    if (names.size() >= 2 && names[0] == "is_a" && names[1] == "n" && corr.size() >= 2 && corr[0].is_array() && corr[0].size() >= 2 &&
+        corr[0][1].is_number())
+      f.corr_is_n = corr[0][1].get<double>();
+    out.push_back(std::move(f));
   }
   return out;
 }
 
-std::optional<Json> Store::latest_temperature_fit(Id part_id) {
+std::optional<TemperatureLawRecord> Store::latest_temperature_fit(Id part_id) {
   auto r = reader();
   auto st = r("SELECT id, job_id, detail, created_at FROM temperature_fits WHERE part_id = ? ORDER BY id DESC LIMIT 1");
   st.bind(1, part_id);
   if (!st.step()) return std::nullopt;
-  Json j = Json::parse(st.text(2));
-  j["temperature_fit_id"] = st.i64(0);
-  j["job_id"] = st.i64(1);
-  j["created_at"] = st.text(3);
-  return j;
+  TemperatureLawRecord rec{st.i64(0), st.i64(1), st.text(3), {}};
+  const std::string where = "temperature fit " + std::to_string(rec.id) + " of part " + std::to_string(part_id);
+  try {
+    rec.report = fitting::temperature_law_report_of(stored_json(st.text(2), where + ": detail"));
+  } catch (const StoreError&) {
+    throw;
+  } catch (const std::exception& e) {
+    throw StoreError(where + ": detail damaged (" + e.what() + ")");
+  }
+  return rec;
 }
 
 std::vector<RunRecord> Store::runs_of_part(Id part_id) {
@@ -727,13 +718,7 @@ std::vector<PointRow> Store::points(Id run_id) {
 
 Id Store::insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, const JunctionCapReport* cap,
                          const ElectrothermalReport* electrothermal, const MoreReports& more) {
-  Json excluded = Json::array();
-  for (const auto& e : fit.excluded) excluded.push_back({{"index", e.index}, {"reason", e.reason}});
-  Json rest = {{"parameter_names", fit.parameter_names}, {"correlation", matrix_json(fit.correlation)}, {"excluded", excluded}, {"iterations", fit.iterations}};
-  if (!more.pin.is_null()) rest["pin"] = more.pin;
-  if (!more.package.is_null()) rest["package"] = more.package;
-  const Json detail = fit_detail_json(std::move(rest), cap, electrothermal, more.heating ? &*more.heating : nullptr,
-                                      more.stored_charge ? &*more.stored_charge : nullptr);
+  const Json detail = fit_detail_json(fit, cap, electrothermal, more);
   // The law's columns only when its fit succeeded; the report (with the
   // reason when it did not) goes into detail either way.
   fitting::Estimate cj0, vj, m;
@@ -754,7 +739,7 @@ Id Store::insert_fit_row(Id part_id, Id run_id, const fitting::FitResult& fit, c
         .bind(13, fit.temp_k).bind(14, fit.cost).bind(15, fit.rms_residual).bind(16, fit.points_used)
         .bind(17, Json(fit.warnings).dump()).bind(18, detail.dump())
         .bind(19, cj0.value).bind(20, cj0.std_error).bind(21, vj.value).bind(22, vj.std_error).bind(23, m.value).bind(24, m.std_error)
-        .bind(25, matrix_json(fit.covariance).dump())
+        .bind(25, fitting::matrix_json(fit.covariance).dump())
         .run();
   return sqlite3_last_insert_rowid(writer_->db);
 }
@@ -885,30 +870,24 @@ std::shared_ptr<const FitRecord> Store::latest_fit(Id part_id) {
     part = "warnings";
     f.warnings = stored_json(st.text(18), where + ": warnings").get<std::vector<std::string>>();
     part = "detail";
-    rec->detail = stored_json(st.text(19), where + ": detail");
-    read_fit_detail(rec->detail, f);
-    // The reports into their rows (api_json reads them), out of the document.
+    const Json detail = stored_json(st.text(19), where + ": detail");
+    read_fit_detail(detail, f);
+    // The reports into their typed rows (api_json writes them back).
     part = "detail.junction_cap";
-    if (const auto it = rec->detail.find("junction_cap"); it != rec->detail.end()) {
-      rec->junction_cap = fitting::junction_cap_report_of(*it);
-      rec->detail.erase(it);
-    }
+    if (const auto it = detail.find("junction_cap"); it != detail.end()) rec->junction_cap = fitting::junction_cap_report_of(*it);
     part = "detail.electrothermal";
-    if (const auto it = rec->detail.find("electrothermal"); it != rec->detail.end()) {
-      rec->electrothermal = fitting::electrothermal_report_of(*it);
-      rec->detail.erase(it);
-    }
+    if (const auto it = detail.find("electrothermal"); it != detail.end()) rec->electrothermal = fitting::electrothermal_report_of(*it);
     part = "detail.heating";
-    if (const auto it = rec->detail.find("heating"); it != rec->detail.end()) {
-      rec->heating = fitting::heating_report_of(*it);
-      rec->detail.erase(it);
-    }
+    if (const auto it = detail.find("heating"); it != detail.end()) rec->heating = fitting::heating_report_of(*it);
     part = "detail.stored_charge";
-    if (const auto it = rec->detail.find("stored_charge"); it != rec->detail.end()) {
+    if (const auto it = detail.find("stored_charge"); it != detail.end()) {
       rec->stored_charge = fitting::ac_charge_fit_of(*it);
-      rec->detail.erase(it);
       if (rec->stored_charge->ok) rec->tt_s = rec->stored_charge->tt_s;
     }
+    part = "detail.pin";
+    if (const auto it = detail.find("pin"); it != detail.end()) rec->pin = fitting::pin_report_of(*it);
+    part = "detail.package";
+    if (const auto it = detail.find("package"); it != detail.end()) rec->package = fitting::vector_run_fit_of(*it);
     part = "covariance";
     f.covariance = st.is_null(27) ? covariance_from_correlation(f)
                                   : matrix_of(stored_json(st.text(27), where + ": covariance"), f.parameter_names.size(), "covariance");

@@ -127,14 +127,12 @@ class Store {
   // correlation and standard errors, which determine it). null: no fit.
   std::shared_ptr<const FitRecord> latest_fit(Id part_id);
   // The temperature law fitted from a job's runs of a part at several
-  // temperatures (fitting/temperature_fit.hpp): `fit` is its JSON
-  // (temperature_fit_json); the part's latest, or nullopt.
-  Id insert_temperature_fit(Id part_id, Id job_id, const Json& fit);
-  // The forward fit of each of a job's runs of a part, in temperature order:
-  // [{"run_id", "temp_index", "temp_k", "ambient_k", "ambient_end_k", "status",
-  //   "is_a", "n", "rs_ohm" ({"value","std_error"}), "corr_is_n"}].
-  Json fits_of_job_part(Id job_id, Id part_id);
-  std::optional<Json> latest_temperature_fit(Id part_id);
+  // temperatures (fitting/temperature_fit.hpp, with the runs it used); the
+  // part's latest, or nullopt. A damaged stored law is a StoreError naming it.
+  Id insert_temperature_fit(Id part_id, Id job_id, const TemperatureLawReport& law);
+  std::optional<TemperatureLawRecord> latest_temperature_fit(Id part_id);
+  // The forward fit of each of a job's runs of a part, in temperature order.
+  std::vector<RunFitAtTemperature> fits_of_job_part(Id job_id, Id part_id);
 
  private:
   class Stmt;

@@ -1,6 +1,4 @@
 #include "daemon/vector_analysis.hpp"
-#include "formats/fit_json.hpp"
-#include "formats/report_json.hpp"
 
 #include <algorithm>
 #include <cmath>
@@ -40,9 +38,6 @@ std::map<double, cplx> standard(const std::vector<PointRow>& points, const char*
   for (auto& [f, z] : sum) z /= static_cast<double>(count[f]);
   return sum;
 }
-
-// {value, std_error}, null when not finite: the one writer (formats/fit_json.hpp).
-nlohmann::json estimate(double value, double se) { return fitting::estimate_json(fitting::Estimate{value, se}); }
 
 // The chip's Cj(V) law from the packaged readings with `pkg` removed.
 fitting::JunctionCapFit law_without(const std::vector<fitting::PackagedOffReading>& packaged, const fitting::PackageParasitics& pkg) {
@@ -109,22 +104,6 @@ std::optional<VectorRunFit> vector_fit_of_run(const std::vector<PointRow>& point
   add(out.cap->m, var_m);
   out.package_in_law_errors = true;
   return out;
-}
-
-nlohmann::json VectorRunFit::to_json() const {
-  nlohmann::json j{{"ok", package.ok},
-                   {"message", package.message},
-                   {"ls_h", estimate(package.package.ls_h, package.ls_h_std_error)},
-                   {"cp_f", estimate(package.package.cp_f, package.cp_f_std_error)},
-                   {"ls_cp_correlation", std::isfinite(package.ls_cp_correlation) ? nlohmann::json(package.ls_cp_correlation) : nlohmann::json(nullptr)},
-                   {"rms_relative", std::isfinite(package.rms_relative) ? nlohmann::json(package.rms_relative) : nlohmann::json(nullptr)},
-                   {"readings", readings},
-                   {"standards", standards},
-                   {"deembedded", deembedded},
-                   {"z_load_ohm", z_load_ohm},
-                   {"package_in_law_errors", package_in_law_errors}};
-  j["junction_cap"] = cap ? fitting::junction_cap_json(*cap) : nlohmann::json(nullptr);
-  return j;
 }
 
 }  // namespace junco::daemon

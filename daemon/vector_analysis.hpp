@@ -11,27 +11,17 @@
 
 #include "daemon/rows.hpp"
 #include "fitting/deembed.hpp"
+#include "fitting/fit_reports.hpp"
 #include "fitting/junction_cap.hpp"
-
-#include <nlohmann/json.hpp>
 
 #include <optional>
 #include <vector>
 
 namespace junco::daemon {
 
-struct VectorRunFit {
-  fitting::PackageFit package;
-  bool deembedded = false;  // the run's open and short standards were removed
-  double z_load_ohm = 0.0;
-  std::size_t readings = 0;  // reverse_vector readings
-  std::size_t standards = 0; // vector_open + vector_short readings
-  // The chip's law, package removed (when the package fit is ok); its
-  // standard errors include the package's (package_in_law_errors).
-  std::optional<fitting::JunctionCapFit> cap;
-  bool package_in_law_errors = false;
-  nlohmann::json to_json() const;
-};
+// The type is the fitting library's report (fitting/fit_reports.hpp); its
+// one JSON writer and reader is formats/report_json.hpp.
+using fitting::VectorRunFit;
 
 // nullopt when the run has no reverse_vector readings.
 std::optional<VectorRunFit> vector_fit_of_run(const std::vector<PointRow>& points, const RunFixture& fixture);

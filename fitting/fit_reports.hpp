@@ -1,15 +1,19 @@
 // The reports a run's fits give, as juncod stores them with the fit
-// (detail.junction_cap, detail.electrothermal, detail.heating) and part.fit
-// serves them: plain typed values, no JSON. Their one JSON writer and reader
+// (detail.junction_cap, detail.electrothermal, detail.heating, detail.pin,
+// detail.package; the part's temperature law) and part.fit serves them: plain typed values, no JSON. Their one JSON writer and reader
 // is formats/report_json.hpp; the fit results they are made of stay in their
 // own headers (junction_cap.hpp, electrothermal_fit.hpp, heating.hpp).
 #pragma once
 
+#include "fitting/deembed.hpp"
 #include "fitting/electrothermal_fit.hpp"
 #include "fitting/extract.hpp"
 #include "fitting/heating.hpp"
 #include "fitting/junction_cap.hpp"
+#include "fitting/pin_diode.hpp"
+#include "fitting/temperature_fit.hpp"
 
+#include <cstdint>
 #include <limits>
 #include <optional>
 #include <span>
@@ -72,6 +76,54 @@ struct HeatingReport {
   std::optional<DwellThermal> dwell;        // with dwell readings
   std::optional<Hysteresis> hysteresis;     // with down-sweep readings
   std::optional<double> rs_heating_ohm;     // when the measured Rth sizes it
+};
+
+// A run's vector readings fitted (juncod's daemon/vector_analysis.hpp makes
+// it; stored as detail.package, served by part.fit as "package"): the
+// package's Ls and Cp with their standard errors, and the chip's Cj(V) law
+// with the package removed. What is stored of the law is the fit alone (no
+// per-reading C), and of the package fit all but readings_used.
+struct VectorRunFit {
+  PackageFit package;
+  bool deembedded = false;  // the run's open and short standards were removed
+  double z_load_ohm = 0.0;
+  std::size_t readings = 0;  // reverse_vector readings
+  std::size_t standards = 0; // vector_open + vector_short readings
+  // The chip's law, package removed (when the package fit is ok); its
+  // standard errors include the package's (package_in_law_errors).
+  std::optional<JunctionCapFit> cap;
+  bool package_in_law_errors = false;
+};
+
+// How a PIN run's AC readings were screened before the law's second fit
+// (juncod's apply_pin): the first fit's τ sets the charge criterion.
+struct PinScreenReport {
+  std::size_t readings = 0;  // AC readings of the run
+  std::size_t used = 0;      // kept for the law's fit
+  long large_signal = 0, below_floor = 0;
+  long kept_by_charge_rule = 0;  // large against the bias, small against I·τ: kept
+  double tau_for_screen_s = std::numeric_limits<double>::quiet_NaN();
+};
+
+// A PIN part's run (plan.part_type "pin"; stored as detail.pin, served by
+// part.fit as "pin"): the law R0 + K·I^−x with the lifetime τ, how the
+// readings were screened, and CT ∥ Rp from the off-state readings.
+struct PinReport {
+  // nullopt: the run had no AC readings, no fit was tried (not_fitted says so).
+  std::optional<PinFit> law;
+  std::string not_fitted;
+  std::optional<PinScreenReport> screen;  // with the law
+  std::optional<PinOffFit> off_state;     // with off-state readings
+  bool law_ok() const { return law && law->ok; }
+};
+
+// A part's temperature law as juncod stores it (temperature_fits.detail,
+// served by part.fit as "temperature_law"): EG, XTI, TRS1 with their standard
+// errors from a multi-temperature job (fit_temperature_law), and the ids of
+// the runs it was fitted from.
+struct TemperatureLawReport {
+  TemperatureFit fit;
+  std::vector<std::int64_t> runs;
 };
 
 }  // namespace junco::fitting

@@ -8,7 +8,17 @@
 
 #include <nlohmann/json.hpp>
 
+#include <vector>
+
 namespace junco::fitting {
+
+// A number for JSON: the value when finite, null otherwise (NaN: not
+// determined or not measured; ±inf: none). The one home of that rule for
+// every JSON junco writes from C++ numbers (formats, the daemon's API).
+nlohmann::json number_or_null(double v);
+
+// A matrix of numbers (covariance, correlation), each entry number_or_null.
+nlohmann::json matrix_json(const std::vector<std::vector<double>>& m);
 
 // {"value": x, "std_error": s}, each null when not finite.
 nlohmann::json estimate_json(const Estimate& e);

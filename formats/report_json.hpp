@@ -59,11 +59,26 @@ nlohmann::json joint_report_json(const JointFitReport& report);
 // "xti": {…, "held"}, "trs1_per_k": {…, "resolved"}, "tnom_k", "n", "is_a", "rs_ohm",
 // "corr_eg_xti", "reduced_chi2", "dof", "temperatures": [{"temp_k", "ln_is_residual"}], "notes"}
 nlohmann::json temperature_fit_json(const TemperatureFit& fit);
+TemperatureFit temperature_fit_of(const nlohmann::json& j);
+// A stored temperature law (TemperatureLawReport): temperature_fit_json with "runs": [run ids].
+nlohmann::json temperature_law_json(const TemperatureLawReport& report);
+TemperatureLawReport temperature_law_report_of(const nlohmann::json& j);
 
 // detail.pin: {ok, message, n, tau_s, r0_ohm, k_ohm_a_x, x, r_1ma_ohm: {value, std_error},
 // knee_freq_hz, parameter_names, covariance, reduced_chi2, points, frequencies, above_knee};
 // its off_state: {ok, message, ct_f, rp_ohm: {value, std_error}, reduced_chi2, points}
 nlohmann::json pin_fit_json(const PinFit& fit);
 nlohmann::json pin_off_fit_json(const PinOffFit& fit);
+// The whole of detail.pin (PinReport): pin_fit_json with screen: {readings, used,
+// large_signal, below_floor, kept_by_charge_rule, tau_for_screen_s}, or
+// {ok: false, message} when no law was fitted; off_state when measured.
+nlohmann::json pin_report_json(const PinReport& report);
+PinReport pin_report_of(const nlohmann::json& j);
+
+// detail.package (fitting/fit_reports.hpp VectorRunFit): {ok, message, ls_h:{value,std_error},
+// cp_f, ls_cp_correlation, rms_relative, readings, standards, deembedded, z_load_ohm,
+// package_in_law_errors, junction_cap: the chip's law as junction_cap_json(fit), or null}
+nlohmann::json vector_run_fit_json(const VectorRunFit& fit);
+VectorRunFit vector_run_fit_of(const nlohmann::json& j);
 
 }  // namespace junco::fitting

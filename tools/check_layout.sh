@@ -40,5 +40,12 @@ if hits=$(grep -nE 'junco_(daemon|drivers)\b' tools/junco/CMakeLists.txt | grep 
   echo "tools/junco/CMakeLists.txt:$hits   <- junco may not link junco_daemon or junco_drivers" >&2
   status=1
 fi
+# The daemon's stored rows are typed (DEVELOPERS.md "Stored data is typed"):
+# no JSON library in daemon/rows.hpp, no JSON member; JSON is made from rows
+# only in daemon/api_json and formats/.
+if hits=$(grep -nE 'nlohmann|\bJson\b' daemon/rows.hpp); then
+  echo "daemon/rows.hpp:$hits   <- daemon/rows.hpp holds typed rows only (JSON in daemon/api_json, formats/)" >&2
+  status=1
+fi
 [[ $status == 0 ]] && echo "layout: every #include follows the folder rules"
 exit $status

@@ -59,7 +59,7 @@ daemon::Json plan(const std::string& lot, int count) {
   return p;
 }
 
-long wait_done(test::SocketClient& c, long job) {
+long wait_done(cli::RpcClient& c, long job) {
   for (;;) {
     const auto j = c.request("job.get", {{"job_id", job}})["result"];
     const std::string s = j["state"];
@@ -93,7 +93,7 @@ int main(int argc, char** argv) {
   o.stderr_path = (dir / "juncod.log").string();
   test::ChildProcess juncod({std::string(JUNCO_BIN_DIR) + "/juncod", "--config", (dir / "bench.jsonc").string(), "--log-level", "warn", "--no-supervisor"}, o);
   for (int i = 0; i < 400 && !fs::exists(sock); ++i) std::this_thread::sleep_for(std::chrono::milliseconds(25));
-  test::SocketClient c(sock);
+  cli::RpcClient c(sock);
 
   // 1. Points per second through the whole daemon, between two runs of the
   // bare SQLite loop (the disk's fsync time moves by 10x within minutes; the
@@ -119,7 +119,7 @@ int main(int argc, char** argv) {
   std::vector<std::thread> clients;
   for (int t = 0; t < 8; ++t)
     clients.emplace_back([&, t] {
-      test::SocketClient q(sock);
+      cli::RpcClient q(sock);
       int id = 0;
       while (!stop) {
         const auto q0 = Clock::now();

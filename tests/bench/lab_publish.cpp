@@ -52,12 +52,12 @@ struct Juncod {
     proc = std::make_unique<test::ChildProcess>(
         std::vector<std::string>{std::string(JUNCO_BIN_DIR) + "/juncod", "--config", (dir / "bench.jsonc").string(), "--log-level", "warn"}, o);
     for (int i = 0; i < 400 && !fs::exists(sock); ++i) std::this_thread::sleep_for(std::chrono::milliseconds(25));
-    client = std::make_unique<test::SocketClient>(sock);
+    client = std::make_unique<cli::RpcClient>(sock);
   }
   Json lab() { return client->request("daemon.status", Json::object())["result"]["lab"]; }
   std::string sock;
   std::unique_ptr<test::ChildProcess> proc;
-  std::unique_ptr<test::SocketClient> client;
+  std::unique_ptr<cli::RpcClient> client;
 };
 
 void sql(sqlite3* db, const std::string& s) {

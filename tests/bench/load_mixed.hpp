@@ -51,7 +51,7 @@ inline const std::vector<std::string>& load_methods() {
 }
 
 // Runs the plan to its end, timing it from submit to the final state.
-inline JobRun run_job(LiveBench& b, SocketClient& c, const Json& plan) {
+inline JobRun run_job(LiveBench& b, cli::RpcClient& c, const Json& plan) {
   JobRun r;
   const auto t0 = std::chrono::steady_clock::now();
   r.job_id = b.submit(c, plan);
@@ -96,7 +96,7 @@ class LoadClients {
   void run(const std::string& socket, int seed) {
     std::mt19937 rng(static_cast<unsigned>(seed) + 1);
     std::map<std::string, MethodStats> mine;
-    SocketClient c(socket);
+    cli::RpcClient c(socket);
     int id = 0;
     while (!stop_) {
       const auto& method = load_methods()[rng() % load_methods().size()];
@@ -137,7 +137,7 @@ inline Json load_plan(const std::string& lot, const LoadOptions& o) {
 
 inline LoadReport run_load(const LoadOptions& o, LiveBench& b) {
   LoadReport rep;
-  SocketClient c(b.socket());
+  cli::RpcClient c(b.socket());
   // Baseline: the plan alone, nothing else asking.
   rep.baseline = run_job(b, c, load_plan("BASE-", o));
   std::vector<long> part_ids;

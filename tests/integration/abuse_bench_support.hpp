@@ -5,7 +5,7 @@
 //
 //   junco::test::LiveBench b("abuse");            // sim started, config written
 //   b.start_daemon();                              // waits until the socket answers
-//   SocketClient c(b.socket());                    // raw JSON-RPC lines
+//   cli::RpcClient c(b.socket());                    // raw JSON-RPC lines
 //   long kb = junco::test::rss_kib(b.daemon->pid());
 //
 // Catch-free, so tests/bench programs can use it too: failures throw.
@@ -129,7 +129,7 @@ class LiveBench {
     for (int i = 0; i < 400; ++i) {
       if (!daemon->running()) throw std::runtime_error("juncod exited at start; log: " + log_text());
       try {
-        SocketClient probe(socket());
+        cli::RpcClient probe(socket());
         return;
       } catch (const std::exception&) {
         std::this_thread::sleep_for(std::chrono::milliseconds(25));
@@ -139,14 +139,14 @@ class LiveBench {
   }
 
   // Submits a plan and returns the job id; throws on an error reply.
-  long submit(SocketClient& c, const Json& plan) {
+  long submit(cli::RpcClient& c, const Json& plan) {
     const auto r = c.request("job.submit", {{"plan", plan}});
     if (!r.contains("result")) throw std::runtime_error("job.submit refused: " + r.dump());
     return r["result"]["job_id"];
   }
 
   // Polls job.get until a final state; returns the job; throws on timeout.
-  static Json wait_final(SocketClient& c, long job, std::chrono::seconds limit) {
+  static Json wait_final(cli::RpcClient& c, long job, std::chrono::seconds limit) {
     const auto until = std::chrono::steady_clock::now() + limit;
     while (std::chrono::steady_clock::now() < until) {
       const auto j = c.request("job.get", {{"job_id", job}})["result"];

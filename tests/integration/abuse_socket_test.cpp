@@ -20,7 +20,7 @@
 using namespace junco;
 using junco::test::Json;
 using junco::test::LiveBench;
-using junco::test::SocketClient;
+using junco::cli::RpcClient;
 
 namespace {
 
@@ -65,11 +65,11 @@ class Probe {
 
  private:
   void run() {
-    std::unique_ptr<SocketClient> c;
+    std::unique_ptr<RpcClient> c;
     int id = 0;
     while (!stop_) {
       try {
-        if (!c) c = std::make_unique<SocketClient>(socket_);
+        if (!c) c = std::make_unique<RpcClient>(socket_);
         const auto t0 = Clock::now();
         c->send_raw(Json{{"jsonrpc", "2.0"}, {"id", ++id}, {"method", "daemon.status"}}.dump() + "\n");
         const auto line = c->read_line(std::chrono::seconds(10));
@@ -181,7 +181,7 @@ std::vector<std::string> malformed_lines() {
 }
 
 void malformed_burst(const std::string& socket, int repeats) try {
-  SocketClient c(socket);
+  RpcClient c(socket);
   const auto lines = malformed_lines();
   for (int r = 0; r < repeats; ++r) {
     std::string burst;
@@ -203,7 +203,7 @@ void malformed_burst(const std::string& socket, int repeats) try {
 // A line longer than the 1 MiB limit, then a good request on the same
 // connection: an invalid_request error for the first, a result for the second.
 void huge_lines(const std::string& socket) try {
-  SocketClient c(socket);
+  RpcClient c(socket);
   c.send_raw(std::string((1u << 20) + 100, 'a') + "\n");
   c.send_raw("{\"jsonrpc\":\"2.0\",\"method\":\"lot.list\",\"id\":7}\n");
   const auto too_long = c.read_json(std::chrono::seconds(10));
@@ -250,7 +250,7 @@ TEST_CASE("malformed bursts, 1 MiB lines, dropped requests and churn: daemon up,
           "[abuse]") {
   LiveBench b("abuse");
   b.start_daemon();
-  SocketClient c(b.socket());
+  RpcClient c(b.socket());
   // A first, quick job so there is a part with readings to export.
   const long first = b.submit(c, test::sweep_plan("ABUSE-A", 1, 40, 0.0));
   REQUIRE(LiveBench::wait_final(c, first, std::chrono::seconds(60))["state"] == "done");
@@ -310,14 +310,14 @@ TEST_CASE("a half-closed client still gets its whole reply", "[abuse]") {
   // the reply, however long, must still arrive before the daemon closes.
   LiveBench b("abuse-half");
   b.start_daemon();
-  SocketClient c(b.socket());
+  RpcClient c(b.socket());
   const long job = b.submit(c, test::sweep_plan("HALF", 1, 200, 0.0));
   REQUIRE(LiveBench::wait_final(c, job, std::chrono::seconds(60))["state"] == "done");
   const long part_id = c.request("part.list", {{"lot", "HALF"}})["result"]["parts"][0]["part_id"];
   Json batch = Json::array();
   for (int i = 1; i <= 40; ++i)
     batch.push_back({{"jsonrpc", "2.0"}, {"id", i}, {"method", "part.readings"}, {"params", {{"part_id", part_id}}}});
-  SocketClient half(b.socket());
+  RpcClient half(b.socket());
   half.send_raw(batch.dump() + "\n");
   ::shutdown(half.fd(), SHUT_WR);
   const auto line = half.read_line(std::chrono::seconds(20));
@@ -335,15 +335,15 @@ TEST_CASE("slow clients: silent subscribers are dropped, a byte-at-a-time client
           "[abuse][slow]") {
   LiveBench b("abuse-slow");
   b.start_daemon();
-  SocketClient c(b.socket());
+  RpcClient c(b.socket());
   // Three subscribers that never read while a fast job publishes ~2 events per point.
-  std::vector<std::unique_ptr<SocketClient>> silent;
+  std::vector<std::unique_ptr<RpcClient>> silent;
   for (int i = 0; i < 3; ++i) {
-    silent.push_back(std::make_unique<SocketClient>(b.socket()));
+    silent.push_back(std::make_unique<RpcClient>(b.socket()));
     REQUIRE(silent.back()->request("events.subscribe").contains("result"));
   }
   // A client that pipelines thousands of requests and reads none of the replies.
-  SocketClient pipeliner(b.socket());
+  RpcClient pipeliner(b.socket());
   std::string many;
   for (int i = 0; i < 200; ++i) many += Json{{"jsonrpc", "2.0"}, {"id", i}, {"method", "lot.list"}}.dump() + "\n";
   std::thread pipe_thread([&] {
@@ -360,7 +360,7 @@ TEST_CASE("slow clients: silent subscribers are dropped, a byte-at-a-time client
   // One byte every 30 ms: a ~90-byte request takes ~3 s to arrive.
   Json trickle_reply;
   std::thread trickle([&] {
-    SocketClient t(b.socket());
+    RpcClient t(b.socket());
     const std::string req = Json{{"jsonrpc", "2.0"}, {"id", 99}, {"method", "job.get"}, {"params", {{"job_id", job}}}}.dump() + "\n";
     for (char ch : req) {
       t.send_raw(std::string(1, ch));
@@ -408,7 +408,7 @@ TEST_CASE("at the connection cap and the fd limit the daemon refuses clearly, do
   o.daemon_prefix = {"/usr/bin/prlimit", "--nofile=128:128", "--"};
   LiveBench b("abuse-fd", o);
   b.start_daemon();
-  SocketClient c(b.socket());
+  RpcClient c(b.socket());
   const long job = b.submit(c, test::sweep_plan("FDCAP", 2, 80, 0.01));
 
   std::vector<int> held;
@@ -442,7 +442,7 @@ TEST_CASE("at the connection cap and the fd limit the daemon refuses clearly, do
 
   // Served again once the clients are gone, and the log did not flood.
   std::this_thread::sleep_for(std::chrono::milliseconds(300));
-  SocketClient after(b.socket());
+  RpcClient after(b.socket());
   CHECK(after.request("daemon.status").contains("result"));
   const auto done = LiveBench::wait_final(after, job, std::chrono::seconds(120));
   CHECK(done["state"] == "done");

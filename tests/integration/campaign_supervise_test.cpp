@@ -39,7 +39,7 @@ using junco::test::ChildOptions;
 using junco::test::ChildProcess;
 using junco::test::Json;
 using junco::test::SimProcess;
-using junco::test::SocketClient;
+using junco::cli::RpcClient;
 
 namespace {
 
@@ -119,7 +119,7 @@ std::optional<double> wait_window_s(SimProcess& sim, long long t_kill_ns, std::c
 }
 
 Json rpc(const std::string& socket, const std::string& method, Json params = Json::object()) {
-  SocketClient c(socket);
+  RpcClient c(socket);
   Json r = c.request(method, std::move(params));
   if (!r.contains("result")) throw std::runtime_error(method + ": " + r.dump());
   return r["result"];

@@ -12,7 +12,7 @@
 #include <set>
 
 using namespace junco;
-using junco::test::SocketClient;
+using junco::cli::RpcClient;
 namespace fs = std::filesystem;
 
 namespace {
@@ -45,7 +45,7 @@ struct Bench {
     for (int i = 0; i < 400; ++i) {
       REQUIRE(p->running());
       try {
-        SocketClient probe(socket());
+        RpcClient probe(socket());
         return p;
       } catch (const std::exception&) {
         std::this_thread::sleep_for(std::chrono::milliseconds(25));
@@ -69,7 +69,7 @@ daemon::Json plan(int parts, int count, double settle_s) {
 }
 
 // Waits (polling job.get) until the job is in a final state.
-daemon::Json wait_final(SocketClient& c, long job, std::chrono::seconds limit) {
+daemon::Json wait_final(RpcClient& c, long job, std::chrono::seconds limit) {
   const auto until = std::chrono::steady_clock::now() + limit;
   while (std::chrono::steady_clock::now() < until) {
     const auto j = c.request("job.get", {{"job_id", job}})["result"];
@@ -86,7 +86,7 @@ daemon::Json wait_final(SocketClient& c, long job, std::chrono::seconds limit) {
 TEST_CASE("a job runs end to end: events, readings, fits, figures", "[e2e]") {
   Bench b("e2e");
   auto daemon = b.start_daemon();
-  SocketClient events(b.socket()), c(b.socket());
+  RpcClient events(b.socket()), c(b.socket());
   REQUIRE(events.request("events.subscribe", {{"kinds", {"job.state", "job.progress"}}}).contains("result"));
 
   const auto submitted = c.request("job.submit", {{"plan", plan(2, 12, 0.0)}});
@@ -165,7 +165,7 @@ TEST_CASE("SIGKILL mid-job: restart turns outputs off, resumes, loses and duplic
   long job = 0;
   long total = 0;
   {
-    SocketClient c(b.socket());
+    RpcClient c(b.socket());
     const auto r = c.request("job.submit", {{"plan", plan(3, 15, 0.04)}})["result"];
     job = r["job_id"];
     total = r["points_total"];
@@ -185,7 +185,7 @@ TEST_CASE("SIGKILL mid-job: restart turns outputs off, resumes, loses and duplic
   daemon = b.start_daemon();
   // By the time the socket answers, the restarted daemon has turned the outputs off
   // (or, having resumed, is mid-point with the current limit programmed).
-  SocketClient c(b.socket());
+  RpcClient c(b.socket());
   const auto final_job = wait_final(c, job, std::chrono::seconds(60));
   CHECK(final_job["state"] == "done");
   CHECK(final_job["points_done"] == total);

@@ -13,7 +13,7 @@
 #include <thread>
 
 using namespace junco;
-using junco::test::SocketClient;
+using junco::cli::RpcClient;
 using junco::test::FakeService;
 using junco::test::RunningServer;
 namespace fs = std::filesystem;
@@ -43,7 +43,7 @@ TEST_CASE("socket file is 0660 in a 0750 directory the server creates", "[rpc][s
     RunningServer s(service, options_in(dir));
     CHECK(mode_of(dir / "run") == 0750);
     CHECK(mode_of(dir / "run" / "juncod.sock") == 0660);
-    SocketClient c((dir / "run" / "juncod.sock").string());
+    RpcClient c((dir / "run" / "juncod.sock").string());
     CHECK(c.request("daemon.status")["result"]["version"] == "test");
   }
   CHECK_FALSE(fs::exists(dir / "run" / "juncod.sock"));  // removed on stop
@@ -101,7 +101,7 @@ TEST_CASE("a second server on a live socket is refused; a stale socket is replac
   }
   REQUIRE(fs::exists(options_in(dir).socket_path));
   RunningServer again(service, options_in(dir));
-  SocketClient c(options_in(dir).socket_path);
+  RpcClient c(options_in(dir).socket_path);
   CHECK(c.request("daemon.status").contains("result"));
   fs::remove_all(dir);
 }
@@ -110,7 +110,7 @@ TEST_CASE("peer credentials reach the Service as the Caller", "[rpc][socket]") {
   const auto dir = test::scratch_dir("cred");
   FakeService service;
   RunningServer s(service, options_in(dir));
-  SocketClient c(options_in(dir).socket_path);
+  RpcClient c(options_in(dir).socket_path);
   const auto r = c.request("test.caller")["result"];
   CHECK(r["pid"] == ::getpid());
   CHECK(r["uid"] == static_cast<int>(::geteuid()));
@@ -123,7 +123,7 @@ TEST_CASE("bad input gets the proper error and the connection goes on", "[rpc][s
   FakeService service;
   auto o = options_in(dir);
   RunningServer s(service, o);
-  SocketClient c(o.socket_path);
+  RpcClient c(o.socket_path);
   const auto still_alive = [&] { CHECK(c.request("daemon.status", {}, 99)["id"] == 99); };
 
   c.send_raw("{this is not json\n");
@@ -168,7 +168,7 @@ TEST_CASE("an overlong line is refused and discarded up to its newline", "[rpc][
   auto o = options_in(dir);
   o.max_line_bytes = 1u << 20;  // the default, stated for the reader
   RunningServer s(service, o);
-  SocketClient c(o.socket_path);
+  RpcClient c(o.socket_path);
   // 3 MiB of a syntactically valid-looking request, in pieces, then a newline.
   std::string big = R"({"jsonrpc":"2.0","id":1,"method":"test.echo","params":{"x":")";
   c.send_raw(big);
@@ -187,7 +187,7 @@ TEST_CASE("batches are answered in one array; notifications get no reply", "[rpc
   const auto dir = test::scratch_dir("batch");
   FakeService service;
   RunningServer s(service, options_in(dir));
-  SocketClient c(options_in(dir).socket_path);
+  RpcClient c(options_in(dir).socket_path);
   c.send_raw(R"([{"jsonrpc":"2.0","id":1,"method":"test.echo","params":{"a":1}},)"
              R"({"jsonrpc":"2.0","method":"test.echo","params":{"note":true}},)"
              R"({"jsonrpc":"2.0","id":2,"method":"nope"}])" "\n");
@@ -208,7 +208,7 @@ TEST_CASE("many concurrent clients, one slow, all answered correctly", "[rpc][so
   const auto dir = test::scratch_dir("many");
   FakeService service;
   RunningServer s(service, options_in(dir), 4);
-  SocketClient slow(options_in(dir).socket_path);
+  RpcClient slow(options_in(dir).socket_path);
   slow.send_raw(R"({"jsonrpc":"2.0","id":1,"method":"test.sleep","params":{"s":0.5}})" "\n");
 
   constexpr int clients = 32, per_client = 100;
@@ -216,7 +216,7 @@ TEST_CASE("many concurrent clients, one slow, all answered correctly", "[rpc][so
   std::vector<std::thread> threads;
   for (int t = 0; t < clients; ++t)
     threads.emplace_back([&, t] {
-      SocketClient c(options_in(dir).socket_path);
+      RpcClient c(options_in(dir).socket_path);
       for (int i = 0; i < per_client; ++i) {
         const int id = t * 1000 + i;
         const auto r = c.request("test.echo", {{"t", t}, {"i", i}}, id);
@@ -233,7 +233,7 @@ TEST_CASE("subscribers get notifications filtered by kind", "[rpc][events]") {
   const auto dir = test::scratch_dir("events");
   FakeService service;
   RunningServer s(service, options_in(dir));
-  SocketClient all(options_in(dir).socket_path), progress_only(options_in(dir).socket_path);
+  RpcClient all(options_in(dir).socket_path), progress_only(options_in(dir).socket_path);
   CHECK(all.request("events.subscribe")["result"]["kinds"].size() == 3);
   CHECK(progress_only.request("events.subscribe", {{"kinds", {"job.progress"}}})["result"]["kinds"] ==
         daemon::Json::array({"job.progress"}));
@@ -268,7 +268,7 @@ TEST_CASE("a subscriber that does not read is dropped; the publisher never waits
     logs.push_back(std::string(level) + ": " + std::string(msg));
   };
   RunningServer s(service, o);
-  SocketClient stuck(o.socket_path), healthy(o.socket_path);
+  RpcClient stuck(o.socket_path), healthy(o.socket_path);
   stuck.request("events.subscribe");
   REQUIRE(service.bus.subscriber_count() == 1);
 
@@ -293,7 +293,7 @@ TEST_CASE("a subscriber that does not read is dropped; the publisher never waits
 
 namespace {
 // True when the server closed the connection within `within` (end of stream).
-bool closed_by_server(SocketClient& c, std::chrono::milliseconds within) {
+bool closed_by_server(RpcClient& c, std::chrono::milliseconds within) {
   pollfd p{c.fd(), POLLIN, 0};
   if (::poll(&p, 1, static_cast<int>(within.count())) <= 0) return false;
   char byte;
@@ -307,7 +307,7 @@ TEST_CASE("a silent client is closed after the idle timeout; talkers and subscri
   auto o = options_in(dir);
   o.idle_timeout_ms = 300;
   RunningServer s(service, o);
-  SocketClient silent(o.socket_path), talker(o.socket_path), subscriber(o.socket_path);
+  RpcClient silent(o.socket_path), talker(o.socket_path), subscriber(o.socket_path);
   CHECK(subscriber.request("events.subscribe")["result"]["kinds"].size() == 3);
   // The talker sends every 100 ms for a second: never idle for 300 ms.
   for (int i = 0; i < 10; ++i) {

@@ -157,11 +157,4 @@ struct RunningServer {
   std::vector<std::thread> pool;
 };
 
-// The tests reach juncod through protocol/'s client, the CLI's own
-// (protocol/rpc_client.hpp): call() as the CLI uses it, and its wire API
-// (request: one request and the reply as received, error included; send_raw,
-// read_line, read_json with deadlines; fd) for tests of the protocol itself.
-// The name is the one the tests were written with.
-using SocketClient = cli::RpcClient;
-
 }  // namespace junco::test

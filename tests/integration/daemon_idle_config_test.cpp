@@ -16,7 +16,7 @@ using namespace junco;
 using Json = nlohmann::json;
 
 namespace {
-bool closed_by_server(test::SocketClient& c, std::chrono::milliseconds within) {
+bool closed_by_server(cli::RpcClient& c, std::chrono::milliseconds within) {
   pollfd p{c.fd(), POLLIN, 0};
   if (::poll(&p, 1, static_cast<int>(within.count())) <= 0) return false;
   char byte;
@@ -29,7 +29,7 @@ TEST_CASE("juncod closes silent clients after the config's idle timeout", "[daem
   options.roles = {"source", "meter", "scanner"};
   options.extra = {{"server", {{"idle_timeout_s", 0.3}}}};
   test::BenchDaemon b("idle-config", {"--settle-ms", "0"}, options);
-  test::SocketClient silent(b.socket()), subscriber(b.socket());
+  cli::RpcClient silent(b.socket()), subscriber(b.socket());
   CHECK(subscriber.request("events.subscribe")["result"].contains("kinds"));
   CHECK(closed_by_server(silent, std::chrono::milliseconds(3000)));
   CHECK_FALSE(closed_by_server(subscriber, std::chrono::milliseconds(500)));

@@ -37,7 +37,7 @@
 using junco::test::ChildOptions;
 using junco::test::ChildProcess;
 using junco::test::SimProcess;
-using junco::test::SocketClient;
+using junco::cli::RpcClient;
 using Json = nlohmann::json;
 using namespace std::chrono_literals;
 
@@ -124,7 +124,7 @@ TEST_CASE("a make-safe that fails is logged at error and shows with --log-level 
     Json status;
     for (int i = 0; i < 100; ++i) {
       try {
-        SocketClient c(s.socket());
+        RpcClient c(s.socket());
         status = c.request("daemon.status")["result"];
         if (status["schema_version"] != 0) break;  // past the start
       } catch (const std::exception&) {
@@ -169,7 +169,7 @@ TEST_CASE("a supply that stops answering before juncod stops: OUTP OFF fails, lo
   bool up = false;
   for (int i = 0; i < 200 && !up; ++i) {
     try {
-      SocketClient c(s.socket());
+      RpcClient c(s.socket());
       up = c.request("daemon.status")["result"].value("bench_open", false);
     } catch (const std::exception&) {
     }
@@ -268,7 +268,7 @@ TEST_CASE("at debug the SCPI traffic is logged; the config's server.log_level se
       bool up = false;
       for (int i = 0; i < 200 && !up; ++i) {
         try {
-          SocketClient c(s.socket());
+          RpcClient c(s.socket());
           up = c.request("daemon.status")["result"].value("schema_version", 0) > 0;
         } catch (const std::exception&) {
         }
@@ -347,7 +347,7 @@ TEST_CASE("instruments that accept TCP and never answer: the socket answers daem
   double answered_s = -1;
   while (std::chrono::steady_clock::now() - t0 < 5s) {
     try {
-      SocketClient c(s.socket());
+      RpcClient c(s.socket());
       reply = c.request("daemon.status");
       answered_s = std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
       break;
@@ -366,7 +366,7 @@ TEST_CASE("instruments that accept TCP and never answer: the socket answers daem
   {
     // Anything else waits for the start (daemon/startup_gate.hpp kStartWait,
     // 5 s), then is refused as unavailable with the same reason.
-    SocketClient c(s.socket());
+    RpcClient c(s.socket());
     const auto t_ask = std::chrono::steady_clock::now();
     c.send_raw(R"({"jsonrpc":"2.0","id":7,"method":"job.list","params":{}})" "\n");
     const Json j = c.read_json(20s);
@@ -383,7 +383,7 @@ TEST_CASE("instruments that accept TCP and never answer: the socket answers daem
   const auto until = std::chrono::steady_clock::now() + 60s;
   while (std::chrono::steady_clock::now() < until) {
     try {
-      SocketClient c(s.socket());
+      RpcClient c(s.socket());
       const Json st = c.request("daemon.status")["result"];
       if (st["schema_version"] != 0) {
         problem = st.value("bench_problem", std::string());

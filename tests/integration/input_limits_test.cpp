@@ -26,7 +26,7 @@
 using namespace junco;
 using junco::test::Json;
 using junco::test::LiveBench;
-using junco::test::SocketClient;
+using junco::cli::RpcClient;
 namespace fs = std::filesystem;
 
 namespace {
@@ -46,7 +46,7 @@ Json parse(const std::optional<std::string>& line) {
 TEST_CASE("params nested 10^5 deep, in any request, are refused or ignored and juncod stays up mid-job", "[limits]") {
   LiveBench b("limits-deep");
   b.start_daemon();
-  SocketClient c(b.socket());
+  RpcClient c(b.socket());
   // A job running while the deep requests arrive: they must not touch it.
   const long job = b.submit(c, test::sweep_plan("WREN-0912", 2, 40, 0.005));
 
@@ -94,7 +94,7 @@ TEST_CASE("params nested 10^5 deep, in any request, are refused or ignored and j
   REQUIRE(b.daemon->running());
   const Json final_job = LiveBench::wait_final(c, job, std::chrono::seconds(120));
   CHECK(final_job["state"] == "done");
-  SocketClient fresh(b.socket());
+  RpcClient fresh(b.socket());
   CHECK(fresh.request("daemon.status", Json::object()).contains("result"));
   CHECK(b.log_text().find("internal error") == std::string::npos);
 }
@@ -141,7 +141,7 @@ TEST_CASE("plans over the job limits are refused at job.submit, at once, naming 
   // 20 million steps would take (bound: 50 MB, far below).
   const long rss_after_kib = test::rss_kib(b.daemon_pid());
   CHECK(rss_after_kib - rss_before_kib < 50 * 1024);
-  SocketClient c(b.socket());
+  RpcClient c(b.socket());
   CHECK(c.request("job.list", Json::object())["result"]["jobs"].empty());
   // Clients can see the limits in force (the defaults here: the config has no `limits`).
   const Json limits = c.request("bench.describe", Json::object())["result"]["limits"];

@@ -188,7 +188,7 @@ TEST_CASE("the junco_client package installs offline into a venv and works again
   for (int i = 0; i < 400 && !up; ++i) {
     REQUIRE(busy.running());
     try {
-      test::SocketClient probe(b.socket());
+      cli::RpcClient probe(b.socket());
       up = true;
     } catch (const std::exception&) {
       std::this_thread::sleep_for(std::chrono::milliseconds(25));

@@ -23,7 +23,7 @@
 using namespace junco;
 using junco::test::Json;
 using junco::test::LiveBench;
-using junco::test::SocketClient;
+using junco::cli::RpcClient;
 namespace fs = std::filesystem;
 
 namespace {
@@ -205,7 +205,7 @@ TEST_CASE("each job submission records the peer's SO_PEERCRED uid and pid", "[se
   const auto reply = Json::parse(r.reply);
   REQUIRE(reply.contains("result"));
   const long job = reply["result"]["job_id"];
-  SocketClient c(b.socket());
+  RpcClient c(b.socket());
   const auto j = c.request("job.get", {{"job_id", job}})["result"];
   CHECK(j["submitted_by"]["uid"] == kNobody);
   CHECK(j["submitted_by"]["pid"] == child);
@@ -225,7 +225,7 @@ TEST_CASE("no request param names a file: path-like params are refused and nothi
   // a file anyway are unknown params → -32602, never silently ignored.
   LiveBench b("sec-path");
   b.start_daemon();
-  SocketClient c(b.socket());
+  RpcClient c(b.socket());
   const long job = b.submit(c, test::sweep_plan("PATHS", 1, 20, 0.0));
   REQUIRE(LiveBench::wait_final(c, job, std::chrono::seconds(60))["state"] == "done");
   const long part = c.request("part.list", {{"lot", "PATHS"}})["result"]["parts"][0]["part_id"];
@@ -259,7 +259,7 @@ TEST_CASE("no request param names a file: path-like params are refused and nothi
 TEST_CASE("SQL-looking labels, lots and ids are stored verbatim and change nothing else", "[security]") {
   LiveBench b("sec-sql");
   b.start_daemon();
-  SocketClient c(b.socket());
+  RpcClient c(b.socket());
   const std::vector<std::string> labels{"R1'); DROP TABLE parts; --", "R2\" OR \"1\"=\"1", "R3'; DELETE FROM jobs WHERE '1'='1",
                                         "R4 %_ \\ ' \"", "R5; ATTACH DATABASE '/tmp/x.db' AS x; --"};
   const std::string lot = "LOT'); UPDATE jobs SET state='done'; --";
@@ -302,7 +302,7 @@ TEST_CASE("SQL-looking labels, lots and ids are stored verbatim and change nothi
 TEST_CASE("no request changes a safety limit", "[security]") {
   LiveBench b("sec-limits");
   b.start_daemon();
-  SocketClient c(b.socket());
+  RpcClient c(b.socket());
   const auto limits_before = c.request("bench.describe")["result"]["safety"];
   REQUIRE(limits_before["current_limit_a"] == 0.05);
 

@@ -80,7 +80,7 @@ class BenchDaemon {
     for (int i = 0; i < 400 && !client_; ++i) {
       if (!daemon_->running()) FAIL("juncod exited at start; see " + o.stderr_path);
       try {
-        client_ = std::make_unique<SocketClient>(socket());
+        client_ = std::make_unique<cli::RpcClient>(socket());
       } catch (const std::exception&) {
         std::this_thread::sleep_for(std::chrono::milliseconds(25));
       }
@@ -103,7 +103,7 @@ class BenchDaemon {
   std::string socket() const { return (dir_ / "run" / "juncod.sock").string(); }
   const std::filesystem::path& dir() const { return dir_; }
   SimProcess& sim() { return sim_; }
-  SocketClient& client() { return *client_; }
+  cli::RpcClient& client() { return *client_; }
   ChildProcess& daemon() { return *daemon_; }
 
   // The result of a call that must succeed (the error is shown otherwise).
@@ -155,7 +155,7 @@ class BenchDaemon {
   std::filesystem::path dir_;
   SimProcess sim_;
   std::unique_ptr<ChildProcess> daemon_;
-  std::unique_ptr<SocketClient> client_;
+  std::unique_ptr<cli::RpcClient> client_;
   int starts_ = 0;
 };
 

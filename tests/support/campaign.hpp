@@ -93,7 +93,7 @@ class CampaignBench {
     while (std::chrono::steady_clock::now() < until) {
       if (!daemon_->running()) return false;
       try {
-        client_ = std::make_unique<SocketClient>(socket_path());
+        client_ = std::make_unique<cli::RpcClient>(socket_path());
         return true;
       } catch (const std::exception&) {
         std::this_thread::sleep_for(std::chrono::milliseconds(10));
@@ -115,7 +115,7 @@ class CampaignBench {
 
   // One request on the persistent connection; the whole reply.
   Json call(const std::string& method, Json params = Json::object()) {
-    if (!client_) client_ = std::make_unique<SocketClient>(socket_path());
+    if (!client_) client_ = std::make_unique<cli::RpcClient>(socket_path());
     return client_->request(method, std::move(params), ++next_id_);
   }
   // The result, or throws with the error message.
@@ -138,7 +138,7 @@ class CampaignBench {
   SimProcess sim_;
   Json config_;
   std::unique_ptr<ChildProcess> daemon_;
-  std::unique_ptr<SocketClient> client_;
+  std::unique_ptr<cli::RpcClient> client_;
   int starts_ = 0;
   int next_id_ = 0;
 };

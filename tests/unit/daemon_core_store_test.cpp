@@ -20,8 +20,10 @@
 #include <unistd.h>
 
 #include <cmath>
+#include <cstdint>
 #include <cstdio>
 #include <filesystem>
+#include <limits>
 #include <string>
 #include <vector>
 
@@ -665,7 +667,6 @@ TEST_CASE("typed fit reports go through the store and reach the API as the fitti
   CHECK(stored->cap_points_used() == 1);
   CHECK(stored->electrothermal->rth_k_per_w.value == 390);
   CHECK(stored->cj0_f.value == 1.25e-12);  // the law's columns, from the report
-  CHECK_FALSE(stored->detail.contains("junction_cap"));  // typed, not left in the document
   const Json detail = to_json(*stored)["detail"];
   Json cap_json = detail["junction_cap"];
   REQUIRE(cap_json.contains("readings"));
@@ -709,10 +710,10 @@ TEST_CASE("the capacitance law's VJ-M correlation reaches the design covariance 
   CHECK(c.matrix[im][ivj] == Approx(0.93 * 0.05 * 0.02));
 }
 
-// The heating and stored-charge reports are read into typed rows: one of the
-// wrong shape is damage, a StoreError naming the fit and the report (juncod
-// answers it as a storage error, -32004), never a value passed on.
-TEST_CASE("a damaged heating or stored-charge report is a StoreError naming the report") {
+// The heating, stored-charge, PIN and package reports are read into typed
+// rows: one of the wrong shape is damage, a StoreError naming the fit and the
+// report (juncod answers it as a storage error, -32004), never a value passed on.
+TEST_CASE("a damaged heating, stored-charge, PIN or package report is a StoreError naming the report") {
   TempDir dir;
   const fs::path file = dir.path / "junco.db";
   Id part = 0;
@@ -730,16 +731,42 @@ TEST_CASE("a damaged heating or stored-charge report is a StoreError naming the 
     more.stored_charge.emplace();
     more.stored_charge->ok = true;
     more.stored_charge->tt_s = {4e-9, 1e-10};
+    more.pin.emplace();
+    more.pin->law.emplace();
+    more.pin->law->ok = true;
+    more.pin->law->tau_s = {1.2e-6, 5e-8};
+    more.pin->off_state.emplace();
+    more.pin->off_state->ok = true;
+    more.pin->off_state->ct_f = {2.2e-13, 4e-15};
+    more.package.emplace();
+    more.package->package.ok = true;
+    more.package->package.package = {1.1e-9, 1.5e-13};
+    more.package->readings = 40;
     s.insert_fit(part, run.id, fit, nullptr, nullptr, more);
     const auto stored = s.latest_fit(part);
     REQUIRE(stored);
     REQUIRE(stored->heating);
     CHECK(stored->heating->pulsed_readings == 3);
     CHECK(stored->tt_s.value == 4e-9);  // served as tt_s from the typed report
+    REQUIRE(stored->pin);
+    REQUIRE(stored->pin->law_ok());
+    CHECK(stored->pin->law->tau_s.value == 1.2e-6);
+    CHECK(stored->pin->off_state->ct_f.std_error == 4e-15);
+    REQUIRE(stored->package);
+    CHECK(stored->package->package.package.cp_f == 1.5e-13);
+    CHECK(stored->package->readings == 40);
+    CHECK_FALSE(stored->package->cap);
+    const auto part_pin = pin_part_of_fit(*stored);  // what design and lot statistics take
+    REQUIRE(part_pin);
+    CHECK(part_pin->law.tau_s == 1.2e-6);
+    CHECK(part_pin->ct_f == 2.2e-13);
   }
-  // The store reads heating before stored_charge: damage the later one first.
+  // The store reads heating, stored_charge, pin, package in that order:
+  // damage the later ones first.
   for (const auto& [damage, report] :
-       {std::pair{"UPDATE fits SET detail = json_set(detail, '$.stored_charge.tt_s', json('[1, 2]'))", "detail.stored_charge"},
+       {std::pair{"UPDATE fits SET detail = json_set(detail, '$.package.ls_h', 'short')", "detail.package"},
+        std::pair{"UPDATE fits SET detail = json_set(detail, '$.pin.covariance', json('[[1, 2]]'))", "detail.pin"},
+        std::pair{"UPDATE fits SET detail = json_set(detail, '$.stored_charge.tt_s', json('[1, 2]'))", "detail.stored_charge"},
         std::pair{"UPDATE fits SET detail = json_set(detail, '$.heating.pulsed_readings', 'three')", "detail.heating"}}) {
     INFO(damage);
     sqlite3* db = nullptr;
@@ -753,5 +780,50 @@ TEST_CASE("a damaged heating or stored-charge report is a StoreError naming the 
     } catch (const StoreError& e) {
       CHECK(std::string(e.what()).find(std::string(report) + " damaged") != std::string::npos);
     }
+  }
+}
+
+// The temperature law is read into a typed row as well: stored and read back
+// it is the same law; a damaged one is a StoreError naming the row.
+TEST_CASE("a stored temperature law reads back typed; a damaged one is a StoreError naming it") {
+  TempDir dir;
+  const fs::path file = dir.path / "junco.db";
+  Id part = 0;
+  {
+    Store s(file);
+    part = s.ensure_part(s.ensure_lot("QX-7"), "QX-7-01", 1);
+    const Id job = s.insert_job(plan_json(), 3, 1000, 42);
+    CHECK_FALSE(s.latest_temperature_fit(part));
+    TemperatureLawReport law;
+    law.fit.ok = true;
+    law.fit.tnom_k = 300.15;
+    law.fit.eg_ev = {1.13, 0.02};
+    law.fit.xti = {3.0, std::numeric_limits<double>::quiet_NaN()};
+    law.fit.xti_held = true;
+    law.fit.temps_k = {273.15, 300.15, 358.15};
+    law.fit.residuals_ln_is = {0.01, -0.02, 0.01};
+    law.runs = {4, 5, 6};
+    s.insert_temperature_fit(part, job, law);
+    const auto back = s.latest_temperature_fit(part);
+    REQUIRE(back);
+    CHECK(back->job_id == job);
+    CHECK(back->report.fit.ok);
+    CHECK(back->report.fit.eg_ev.value == 1.13);
+    CHECK(back->report.fit.eg_ev.std_error == 0.02);
+    CHECK(std::isnan(back->report.fit.xti.std_error));
+    CHECK(back->report.fit.xti_held);
+    CHECK(back->report.fit.temps_k.size() == 3);
+    CHECK(back->report.runs == std::vector<std::int64_t>{4, 5, 6});
+  }
+  sqlite3* db = nullptr;
+  REQUIRE(sqlite3_open(file.c_str(), &db) == SQLITE_OK);
+  REQUIRE(sqlite3_exec(db, "UPDATE temperature_fits SET detail = json_set(detail, '$.eg_ev', 'high')", nullptr, nullptr, nullptr) == SQLITE_OK);
+  sqlite3_close(db);
+  Store fresh(file);
+  try {
+    fresh.latest_temperature_fit(part);
+    FAIL("damage not noticed");
+  } catch (const StoreError& e) {
+    CHECK(std::string(e.what()).find("temperature fit 1 of part " + std::to_string(part) + ": detail damaged") != std::string::npos);
   }
 }

@@ -1,13 +1,17 @@
 // part.fit's wire bytes for stored parts: a database holding fits whose
 // stored detail carries every report juncod writes (capacitance law with its
 // readings, electro-thermal, heating with both dwells and the hysteresis,
-// stored charge, PIN law, and a temperature law) is served through the real
-// Service, and the JSON text must equal tests/unit/data/part_fit_wire.json
-// byte for byte. The file was written by the juncod of e5341b6 (before the
-// reports became typed structs), so any change in what the API says for the
-// same stored rows fails here, naming the first differing byte.
+// stored charge, PIN law, package from vector readings, and a temperature
+// law) is served through the real Service, and the JSON text must equal
+// tests/unit/data/part_fit_wire.json byte for byte. The file was written by
+// the juncod of e5341b6 (before the reports became typed structs), and again
+// by 3e5e99b (before detail.pin, detail.package and the temperature law
+// became typed) when the package and the third part were added, so any
+// change in what the API says for the same stored rows fails here, naming
+// the first differing byte.
 // Second part: an older row (no per-reading capacitance report, a failed
-// stored-charge fit without cj_f, heating with a hysteresis only).
+// stored-charge fit without cj_f, heating with a hysteresis only). Third: a
+// PIN part without AC readings and a package fit that failed.
 // JUNCO_WRITE_GOLDEN=1 rewrites the file (only ever on purpose, with the
 // change reviewed).
 #include "daemon/bench.hpp"
@@ -74,11 +78,17 @@ const char* const kFullDetail = R"({
  "pin": {"ok": true, "message": "converged", "n": {"value": 1.7, "std_error": 0.02}, "tau_s": {"value": 1.2e-06, "std_error": 5e-08},
    "r0_ohm": {"value": 0.6, "std_error": 0.05}, "k_ohm_a_x": {"value": 0.021, "std_error": 0.001}, "x": {"value": 0.87, "std_error": 0.01},
    "r_1ma_ohm": {"value": 8.4, "std_error": 0.2}, "knee_freq_hz": 132629.1, "parameter_names": ["n", "tau_s", "r0_ohm", "k_ohm_a_x", "x"],
-   "covariance": [[0.0004, 0, 0, 0, 0], [0, 2.5e-15, 0, 0, 0], [0, 0, 0.0025, 0, 0], [0, 0, 0, 1e-06, 0], [0, 0, 0, 0, 0.0001]],
+   "covariance": [[0.0004, 0.0, 0.0, 0.0, 0.0], [0.0, 2.5e-15, 0.0, 0.0, 0.0], [0.0, 0.0, 0.0025, 0.0, 0.0], [0.0, 0.0, 0.0, 1e-06, 0.0],
+                  [0.0, 0.0, 0.0, 0.0, 0.0001]],
    "reduced_chi2": 1.2, "points": 30, "frequencies": 3, "above_knee": 20,
    "screen": {"readings": 32, "used": 30, "large_signal": 1, "below_floor": 1, "kept_by_charge_rule": 4, "tau_for_screen_s": 1.1e-06},
    "off_state": {"ok": true, "message": "converged", "ct_f": {"value": 2.2e-13, "std_error": 4e-15},
-                 "rp_ohm": {"value": 12000.0, "std_error": 300.0}, "reduced_chi2": null, "points": 5}}
+                 "rp_ohm": {"value": 12000.0, "std_error": 300.0}, "reduced_chi2": null, "points": 5}},
+ "package": {"ok": true, "message": "", "ls_h": {"value": 1.1e-09, "std_error": 4e-11}, "cp_f": {"value": 1.5e-13, "std_error": 6e-15},
+   "ls_cp_correlation": -0.42, "rms_relative": 0.0031, "readings": 40, "standards": 8, "deembedded": true, "z_load_ohm": 45.45454545454545,
+   "package_in_law_errors": true,
+   "junction_cap": {"ok": true, "message": "", "cj0_f": {"value": 9.8e-13, "std_error": 2e-14}, "vj_v": {"value": 0.71, "std_error": 0.03},
+     "m": {"value": 0.45, "std_error": 0.01}, "law_held": false, "points_used": 40, "reduced_chi2": 0.97, "vj_m_correlation": 0.93}}
 })";
 
 const char* const kOlderDetail = R"({
@@ -100,6 +110,22 @@ const char* const kOlderDetail = R"({
  "stored_charge": {"ok": false, "message": "need 2 or more frequencies", "n": {"value": null, "std_error": null},
    "rs_ohm": {"value": null, "std_error": null}, "tt_s": {"value": null, "std_error": null}, "reduced_chi2": 0.0,
    "points": 4, "frequencies": 1}
+})";
+
+// A PIN part's run without AC readings and a package fit that failed, as the
+// executor stores them: the PIN report is {ok, message} with the off state
+// only, the package report's estimates and junction_cap are null.
+const char* const kNoLawDetail = R"({
+ "parameter_names": ["is_a", "n", "rs_ohm"],
+ "correlation": [[1.0, null, 0.1], [null, 1.0, -0.2], [0.1, -0.2, 1.0]],
+ "excluded": [],
+ "iterations": 7,
+ "pin": {"ok": false, "message": "the run has no AC readings: the PIN law needs them at 2 or more frequencies",
+   "off_state": {"ok": false, "message": "need 3 or more off-state readings", "ct_f": {"value": null, "std_error": null},
+                 "rp_ohm": {"value": null, "std_error": null}, "reduced_chi2": 0.0, "points": 2}},
+ "package": {"ok": false, "message": "need readings at 2 or more frequencies", "ls_h": {"value": 0.0, "std_error": null},
+   "cp_f": {"value": 0.0, "std_error": null}, "ls_cp_correlation": null, "rms_relative": 0.0, "readings": 3, "standards": 0,
+   "deembedded": false, "z_load_ohm": 50.0, "package_in_law_errors": false, "junction_cap": null}
 })";
 
 const char* const kTemperatureLaw = R"({"status": "ok", "message": "", "tnom_k": 300.15, "n": 1.83,
@@ -136,18 +162,20 @@ std::string read_text(const fs::path& file) {
 TEST_CASE("part.fit gives the same bytes for the same stored parts as before the reports were typed") {
   WireTempDir dir;
   const fs::path db = dir.path / "junco.db";
-  Id part1 = 0, part2 = 0;
+  Id part1 = 0, part2 = 0, part3 = 0;
   {
     Store s(db);
     const Id lot = s.ensure_lot("WREN-0912");
     part1 = s.ensure_part(lot, "kestrel24b-01", 1);
     part2 = s.ensure_part(lot, "kestrel24b-02", 2);
+    part3 = s.ensure_part(lot, "kestrel24b-03", 3);
     Plan plan;
     plan.lot = "WREN-0912";
-    plan.parts = {{1, "kestrel24b-01"}, {2, "kestrel24b-02"}};
+    plan.parts = {{1, "kestrel24b-01"}, {2, "kestrel24b-02"}, {3, "kestrel24b-03"}};
     const Id job = s.insert_job(plan, 10, 1000, 42);
     const RunRecord r1 = s.ensure_run(job, part1, 1, RunFixture{}, 300.15);
     const RunRecord r2 = s.ensure_run(job, part2, 2, RunFixture{}, 300.15);
+    const RunRecord r3 = s.ensure_run(job, part3, 3, RunFixture{}, 300.15);
     sqlite3* h = nullptr;
     REQUIRE(sqlite3_open(db.c_str(), &h) == SQLITE_OK);
     const std::string cols =
@@ -161,6 +189,10 @@ TEST_CASE("part.fit gives the same bytes for the same stored parts as before the
     exec(h, cols + "(" + std::to_string(part2) + ", " + std::to_string(r2.id) +
                 ", 'forward', 'converged', '', 3e-09, 2e-10, 1.9, 0.01, 0.52, 0.004, 1e9, 1e8, 300.15, 1.5, 0.002, 9, '[]', " +
                 quoted(kOlderDetail) + ", NULL, NULL, NULL, NULL, NULL, NULL, NULL, '2026-12-01T10:05:00.000Z')");
+    exec(h, cols + "(" + std::to_string(part3) + ", " + std::to_string(r3.id) +
+                ", 'forward', 'converged', '', 4e-09, 3e-10, 1.95, 0.02, 0.61, 0.005, NULL, NULL, 300.15, 0.9, 0.001, 12, '[]', " +
+                quoted(kNoLawDetail) + ", NULL, NULL, NULL, NULL, NULL, NULL, '[[9e-20, 0.0, 1.5e-13], [0.0, 0.0004, -2e-05], [1.5e-13, -2e-05, 2.5e-05]]',"
+                " '2026-12-01T10:10:00.000Z')");
     exec(h, "INSERT INTO temperature_fits(part_id, job_id, status, message, eg_ev, eg_ev_se, xti, xti_se, trs1_per_k, trs1_per_k_se, tnom_k,"
             " detail, created_at) VALUES (" + std::to_string(part1) + ", " + std::to_string(job) +
             ", 'ok', NULL, 1.13, 0.02, 3.0, NULL, 0.0031, 0.0002, 300.15, " + quoted(kTemperatureLaw) + ", '2026-12-01T11:00:00.000Z')");
@@ -175,7 +207,8 @@ TEST_CASE("part.fit gives the same bytes for the same stored parts as before the
   auto svc = make_service(config, std::move(o));
   const Caller caller{4242, 1000, 1000};
   const std::string served = svc->call("part.fit", {{"part_id", part1}}, caller).dump(1) + "\n" +
-                             svc->call("part.fit", {{"part_id", part2}}, caller).dump(1) + "\n";
+                             svc->call("part.fit", {{"part_id", part2}}, caller).dump(1) + "\n" +
+                             svc->call("part.fit", {{"part_id", part3}}, caller).dump(1) + "\n";
   svc->shutdown();
 
   const fs::path golden = fs::path(JUNCO_SOURCE_DIR) / "tests/unit/data/part_fit_wire.json";

@@ -244,8 +244,6 @@ std::string insufficient_message(const jf::FitResult& r, std::size_t total) {
   return msg;
 }
 
-nlohmann::json number(double v) { return std::isfinite(v) ? nlohmann::json(v) : nlohmann::json(nullptr); }
-
 struct Derived {
   jf::Estimate vf_1ma, vf_10ma, rd_5ma;
 };
@@ -264,14 +262,8 @@ void print_json(const Args& a, const jf::IvCsv& csv, const jf::FitResult& r, con
   j["at_bounds"] = at_bounds;
   j["points_total"] = csv.points.size();
   j["parameter_names"] = r.parameter_names;
-  nlohmann::json corr = nlohmann::json::array();
-  for (const auto& row : r.correlation) {
-    nlohmann::json jr = nlohmann::json::array();
-    for (double c : row) jr.push_back(number(c));
-    corr.push_back(jr);
-  }
-  j["correlation"] = corr;
-  j["reduced_chi2"] = number(r.reduced_chi2);
+  j["correlation"] = jf::matrix_json(r.correlation);
+  j["reduced_chi2"] = jf::number_or_null(r.reduced_chi2);
   j["iterations"] = r.iterations;
   nlohmann::json ex = nlohmann::json::array();
   for (const auto& e : r.excluded) ex.push_back({{"line", csv.line_of_point[e.index]}, {"index", e.index}, {"reason", e.reason}});
