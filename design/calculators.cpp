@@ -84,7 +84,7 @@ class Run {
       for (const auto& s : design_part_inputs())
         if (has(s.key) && s.key != "tt_s" && s.key != "tau_s")
           throw DesignInputError(s.key, s.key + ": needs a part (--part, --model or --is/--n/--rs); without one the " + calc.name +
-                                            " calculator takes only tt_s and tau_s");
+                                            " calculator takes only tt_s (--tt) and tau_s (--tau)");
     answer_["calculator"] = calc.name;
     answer_["assumed"] = Json::array();
     answer_["result"] = Json::array();
@@ -860,7 +860,7 @@ const std::vector<CalculatorRow>& calculator_rows() {
         with_default("load_ohm", "load", "Ohm", "load RL", 50.0, R::positive),
         with_default("dc_return_ohm", "dc-return", "Ohm", "DC return", inf, R::positive, "choke (no AC shunt)"),
         with_default("floor_a", "floor", "A", "trough floor", 0.0, R::non_negative),
-        optional_input("freq_hz", "freq", "Hz", "frequency (with TT or tau: the stored-charge rule)", R::positive)},
+        optional_input("freq_hz", "freq", "Hz", "frequency", R::positive)},
        true}, headroom},
       {{"distortion",
        "HD2, HD3 and THD at a bias, amplitude and frequency (periodic steady state of the circuit with the SPICE junction: "
