@@ -3,7 +3,9 @@
 #include "units/si_text.hpp"
 #include "fitting/transfer.hpp"
 
+#include <algorithm>
 #include <cmath>
+#include <numbers>
 
 namespace junco::fitting {
 
@@ -41,6 +43,26 @@ Headroom drive_headroom(double load_peak_v, double load_ohm, double return_r_ohm
   Headroom h;
   h.signal_peak_a = load_peak_v / load_ohm + (std::isfinite(return_r_ohm) && return_r_ohm > 0 ? load_peak_v / return_r_ohm : 0.0);
   h.min_bias_a = h.signal_peak_a + floor_a;
+  return h;
+}
+
+ChargeHeadroom charge_headroom(double signal_peak_a, double freq_hz, double lifetime_s, double floor_a,
+                               const std::function<double(double)>& share) {
+  ChargeHeadroom h;
+  h.omega_tau = 2.0 * std::numbers::pi * freq_hz * lifetime_s;
+  const double reach_a = signal_peak_a / std::sqrt(1.0 + h.omega_tau * h.omega_tau);
+  // share(I) grows with I (the diffusion admittance does), so from the
+  // share-1 answer down the iteration falls monotonically to the largest I
+  // that meets the rule.
+  h.min_bias_a = reach_a + floor_a;
+  for (int k = 0; share && k < 100; ++k) {
+    h.share = std::min(1.0, share(h.min_bias_a));
+    const double next = h.share * reach_a + floor_a;
+    const bool settled = std::abs(next - h.min_bias_a) <= 1e-12 * h.min_bias_a;
+    h.min_bias_a = next;
+    if (settled) break;
+  }
+  h.charge_peak_a = h.share * reach_a;
   return h;
 }
 

@@ -6,6 +6,7 @@
 
 #include "fitting/diode.hpp"
 
+#include <functional>
 #include <optional>
 #include <string>
 #include <vector>
@@ -37,6 +38,31 @@ struct Headroom {
   double min_bias_a = 0.0;
 };
 Headroom drive_headroom(double load_peak_v, double load_ohm, double return_r_ohm, double floor_a);
+
+// The same switch at a frequency, with stored charge (the charge-control
+// model, docs/references.md §8 [CC]). The junction holds a charge Q that the
+// current feeds and recombination drains with the lifetime τ (TT of a
+// junction diode, the carrier lifetime of a PIN): dQ/dt = i − Q/τ. With
+// i = I + Î·sin(ωt) the periodic solution is
+//   Q(t) = I·τ + Î·τ/√(1 + (ωτ)²) · sin(ωt − atan(ωτ)),
+// (put Q = I·τ + A·sin(ωt − φ) in the equation: A·√(ω² + 1/τ²) = Î), so Q
+// stays above floor·τ (the junction current Q/τ above the floor) all cycle
+// iff I > Î/√(1 + (ωτ)²) + floor. The terminal current may reverse in the
+// trough while the junction stays on: the stored charge outlasts the
+// negative half cycle. share(I) (optional, ≤ 1) is the part of Î that reaches
+// the stored charge at bias I (the rest flows in the depletion capacitance);
+// the least I with I ≥ floor + share(I)·Î/√(1 + (ωτ)²) is found from above.
+// ωτ → 0 gives back the DC rule. Conservative: the depletion charge given up
+// as the junction voltage sags in the trough also feeds Q, which the rule
+// leaves out (ngspice .tran, tests/reference/headroom_ngspice_test.cpp).
+struct ChargeHeadroom {
+  double omega_tau = 0.0;       // ωτ
+  double charge_peak_a = 0.0;   // share·Î/√(1 + (ωτ)²): the RF current's reach into Q
+  double share = 1.0;           // share(I) at the answer
+  double min_bias_a = 0.0;
+};
+ChargeHeadroom charge_headroom(double signal_peak_a, double freq_hz, double lifetime_s, double floor_a,
+                               const std::function<double(double)>& share = {});
 
 // Dissipation at the operating point against the user's limits. A value above
 // its limit fails; above warn_fraction of it warns (derating, common practice).

@@ -70,7 +70,7 @@ class Run {
       throw DesignInputError("inputs", std::string("inputs must be an object, not ") + inputs.type_name());
     std::vector<const DesignInputSpec*> specs;
     for (const auto& s : calc.inputs) specs.push_back(&s);
-    if (calc.needs_part)
+    if (calc.needs_part || calc.takes_part)
       for (const auto& s : design_part_inputs()) specs.push_back(&s);
     if (inputs.is_object())
       for (const auto& [key, value] : inputs.items()) {
@@ -80,6 +80,11 @@ class Run {
         if (!known) throw DesignInputError(key, key + ": not an input of the " + calc.name + " calculator");
       }
     for (const auto* s : specs) read(*s, inputs);
+    if (calc.takes_part && !part_)
+      for (const auto& s : design_part_inputs())
+        if (has(s.key) && s.key != "tt_s" && s.key != "tau_s")
+          throw DesignInputError(s.key, s.key + ": needs a part (--part, --model or --is/--n/--rs); without one the " + calc.name +
+                                            " calculator takes only tt_s (--tt) and tau_s (--tau)");
     answer_["calculator"] = calc.name;
     answer_["assumed"] = Json::array();
     answer_["result"] = Json::array();
@@ -87,8 +92,9 @@ class Run {
     answer_["reason"] = "";
     answer_["warnings"] = Json::array();
     answer_["failures"] = Json::array();
-    if (calc.needs_part) {
+    if (calc.uses_part(part_ != nullptr)) {
       if (!part_) throw DesignInputError("part", "the " + calc.name + " calculator needs a part");
+      has_part_ = true;
       part_copy_ = *part_;
       if (has("cj0_f")) part_copy_.cap.cj0_f = number("cj0_f");
       if (has("vj_v")) part_copy_.cap.vj_v = number("vj_v");
@@ -149,6 +155,8 @@ class Run {
   }
 
   const DesignPart& part() const { return part_copy_; }
+  // A part came with the run (always, for a calculator that needs one).
+  bool has_part() const { return has_part_; }
   // The part at its own temperature (TNOM), the overrides applied: for a
   // calculator that finds the junction temperature itself.
   const DesignPart& part_at_tnom() const { return part_tnom_; }
@@ -184,7 +192,7 @@ class Run {
   }
   void assume_all() {
     for (const auto& s : calc_.inputs) assumed(s.key);
-    if (!calc_.needs_part) return;
+    if (!calc_.needs_part && !calc_.takes_part) return;
     for (const char* key : {"temp_k", "eg_ev", "xti", "trs1_per_k", "tt_s", "r0_ohm", "k_ohm_a_x", "x", "tau_s", "ct_f", "rp_ohm"})
       if (has(key)) assumed(key);
   }
@@ -260,6 +268,7 @@ class Run {
   const DesignPart* part_;
   DesignPart part_copy_;
   DesignPart part_tnom_;
+  bool has_part_ = false;
   std::map<std::string, double> numbers_;
   std::map<std::string, std::string> texts_;
   Json answer_;
@@ -311,6 +320,29 @@ void bias_r(Run& r) {
 
 Parasitics series_l(const Run& r) { return {r.number("ls_h"), 0.0}; }
 
+std::optional<double> rf_emf_peak_v(const Run& r);  // below, with the network calculators
+
+// loss and isolation with --theta/--ambient and/or a drive (amplitude_v or
+// power_w): what the diode dissipates and the junction temperature from it.
+// Included: the DC bias (forward: I·Vd; reverse: the leakage Is·(1 − e^(−VR/(N·Vt)))
+// times VR) and, with a drive, the RF the diode absorbs, ½·|Î|²·Re Z, Î the
+// small-signal current through the diode at the frequency (series L carries
+// it but absorbs nothing). Not included: the rise of Tj itself moving Vd and
+// Z (junction-temp iterates that), and large-signal clipping.
+void report_dissipation(Run& r, double dc_w, std::complex<double> z_diode) {
+  const auto emf = rf_emf_peak_v(r);
+  if (!emf && !r.has("theta_k_per_w")) return report_tj(r, 0.0);  // refuses an ambient alone
+  double rf_w = 0.0;
+  if (emf) {
+    const std::complex<double> z = z_diode + std::complex<double>(0.0, 2.0 * std::numbers::pi * r.number("freq_hz") * r.number("ls_h"));
+    rf_w = 0.5 * std::norm(element_current_a(r.kind(), z, *emf, r.number("source_ohm"), r.number("load_ohm"))) * z_diode.real();
+  }
+  r.result("diode_power_w", "diode dissipation", dc_w + rf_w, "W");
+  r.result("dc_power_w", "of which DC bias", dc_w, "W");
+  if (emf) r.result("rf_power_w", "of which RF absorbed 1/2*|I|^2*Re Z", rf_w, "W");
+  report_tj(r, dc_w + rf_w);
+}
+
 // A PIN part's biased loss: its law at the frequency (R_I above the knee, rd below).
 void pin_loss(Run& r, const PinPart& pin) {
   const double f = r.number("freq_hz"), i = r.number("current_a");
@@ -321,6 +353,7 @@ void pin_loss(Run& r, const PinPart& pin) {
   r.result("pin_rf_resistance_ohm", "PIN RF resistance R0 + K*I^-x", pin_rf_resistance_ohm(pin.law, i), "Ohm");
   r.result("knee_freq_hz", "PIN lifetime knee 1/(2 pi tau)", pin_knee_freq_hz(pin.law.tau_s), "Hz");
   if (f < 3.0 * pin_knee_freq_hz(pin.law.tau_s)) r.warn("below 3x the lifetime's knee the PIN part is partly a junction (rd = N*Vt/I)");
+  report_dissipation(r, i * diode_voltage_v(r.part().dc, i, r.part().temp_k), pin_on_impedance(pin.law, i, f, r.part().temp_k));
 }
 
 void loss(Run& r) {
@@ -337,6 +370,9 @@ void loss(Run& r) {
     const auto y = junction_admittance_s(p.dc, p.charge(), r.number("current_a"), r.number("freq_hz"), p.temp_k);
     r.result("junction_c_f", "junction C at the bias (Cj(V) + TT*gd)", y.imag() / w, "F");
   }
+  const double i = r.number("current_a");
+  report_dissipation(r, i * diode_voltage_v(p.dc, i, p.temp_k),
+                     diode_small_signal_impedance(p.dc, p.charge(), i, r.number("freq_hz"), p.temp_k));
 }
 
 void bias_for_loss(Run& r) {
@@ -361,11 +397,59 @@ void bias_for_loss(Run& r) {
   r.result("bias_resistor_ohm", "bias resistor (or less)", *rb, "Ohm");
 }
 
+// The DC rule (forward current over the whole swing) and, given a frequency
+// and a lifetime (the part's TT, a PIN part's tau, or tt_s/tau_s without a
+// part), the stored-charge rule (charge_headroom): the junction stays on while
+// its stored charge outlasts the negative half cycle. Without both, the answer
+// is the DC rule alone, as it always was.
 void headroom(Run& r) {
   r.assume_all();
   const auto h = drive_headroom(r.number("amplitude_v"), r.number("load_ohm"), r.number("dc_return_ohm"), r.number("floor_a"));
   r.result("signal_peak_a", "signal peak through the diode", h.signal_peak_a, "A");
-  r.result("min_bias_a", "minimum bias (series switch stays forward-biased)", h.min_bias_a, "A");
+  const bool with_part = r.has_part();
+  const std::optional<PinPart>& pin = r.part().pin;
+  double lifetime_s = 0.0;
+  std::string lifetime_name = "TT";
+  if (with_part) {
+    lifetime_s = pin ? pin->law.tau_s : r.part().tt_s;
+    if (pin) lifetime_name = "PIN lifetime tau";
+  } else if (r.has("tau_s")) {
+    lifetime_s = r.number("tau_s");
+    lifetime_name = "lifetime tau";
+  } else if (r.has("tt_s")) {
+    lifetime_s = r.number("tt_s");
+  }
+  if (!r.has("freq_hz") || !(lifetime_s > 0)) {
+    r.result("min_bias_a", "minimum bias (series switch stays forward-biased)", h.min_bias_a, "A");
+    if (lifetime_s > 0) r.warn("give the frequency (freq_hz, --freq) for the stored-charge rule: with " + lifetime_name + " the junction may stay on with less bias");
+    else if (r.has("freq_hz")) r.warn("no stored charge known (TT, or a PIN part's tau): the DC rule holds at any frequency");
+    return;
+  }
+  // A junction diode with Cj: of Î only the part through the diffusion
+  // admittance gd·(1 + jωTT) reaches the stored charge, the rest flows in
+  // Cj(Vd) (small signal at the bias). A PIN part: all of it (its forward
+  // depletion capacitance is small beside the I-region's charge).
+  std::function<double(double)> share;
+  const double f = r.number("freq_hz");
+  if (with_part && !pin && r.part().cap.cj0_f > 0) {
+    const DesignPart& p = r.part();
+    share = [&p, f](double i_a) {
+      const JunctionCharge diffusion_only{JunctionCap{0.0, p.cap.vj_v, p.cap.m, p.cap.fc}, p.tt_s};
+      return std::abs(junction_admittance_s(p.dc, diffusion_only, i_a, f, p.temp_k)) /
+             std::abs(junction_admittance_s(p.dc, p.charge(), i_a, f, p.temp_k));
+    };
+  }
+  const auto c = charge_headroom(h.signal_peak_a, f, lifetime_s, r.number("floor_a"), share);
+  r.result("min_bias_a", "minimum bias (stored charge keeps the junction on)", c.min_bias_a, "A");
+  r.result("dc_min_bias_a", "DC rule: forward current over the whole swing", h.min_bias_a, "A");
+  r.result("charge_min_bias_a", "at-frequency rule: I > I^/sqrt(1 + (w tau)^2) + floor", c.min_bias_a, "A");
+  r.result("lifetime_s", lifetime_name == "TT" ? "charge lifetime (TT)" : "charge lifetime (" + lifetime_name + ")", lifetime_s, "s");
+  r.result("omega_tau", "w tau at the frequency", c.omega_tau, "");
+  if (share) r.result("charge_share", "share of the signal reaching the stored charge (rest: Cj)", c.share, "");
+  r.result_text("governs", "rule that governs", "at-frequency (stored charge)");
+  if (c.min_bias_a < h.signal_peak_a)
+    r.warn("at this bias the diode current reverses in the trough while the stored charge keeps the junction on; "
+           "check the distortion there (junco design distortion)");
 }
 
 DistortionInput distortion_input(const Run& r) {
@@ -431,11 +515,29 @@ void distortion(Run& r) {
   harmonics(r, d);
 }
 
+// A PIN part: the least bias meeting the target in the charge-control time-domain
+// solve that distortion uses (design/distortion.hpp pin_bias_for_thd).
+void pin_bias_for_thd_calc(Run& r, const PinPart& pin) {
+  const auto in = distortion_input(r);
+  std::string why;
+  // The uncertainty's perturbed runs start at the nominal answer with its slope.
+  const auto i = pin_bias_for_thd(in.kind, pin.law, in.part.is_a, r.number("target_pct") / 100.0, in.freq_hz, in.source_peak_v,
+                                  in.source_ohm, in.load_ohm, in.temp_k, &why, r.nominal_value("least_bias_a"), r.read_hint().slope);
+  if (!i) return r.not_achievable(why);
+  r.write_hint({std::numeric_limits<double>::quiet_NaN(), std::numeric_limits<double>::quiet_NaN(), i->slope});
+  r.result_text("law", "distortion from", "PIN charge-control solve (R0 + K*(Q/tau)^-x, lifetime tau)");
+  r.result("least_bias_a", "least bias", i->bias_a, "A");
+  r.result("load_peak_v", "load fundamental (peak)", i->at.load_peak_v, "V");
+  r.result("hd2_dbc", "HD2", i->at.hd2_dbc, "dBc");
+  r.result("hd3_dbc", "HD3", i->at.hd3_dbc, "dBc");
+  r.result("thd_pct", "THD", 100 * i->at.thd, "%");
+  r.result("stored_charge_c", "stored charge I*tau", i->bias_a * pin.law.tau_s, "C");
+  if (!i->at.converged) r.warn("the PIN large-signal solve did not reach a periodic state at the answer");
+}
+
 void bias_for_thd(Run& r) {
   r.assume_all();
-  if (r.part().pin)
-    return r.not_achievable("PIN part: the junction's THD solve does not describe it above the lifetime's knee; "
-                            "use distortion for the charge criterion (stored charge I*tau against the RF charge per half cycle)");
+  if (r.part().pin) return pin_bias_for_thd_calc(r, *r.part().pin);
   auto in = distortion_input(r);
   std::string why;
   // One search that also hands back the distortion at the answer; started at
@@ -450,6 +552,11 @@ void bias_for_thd(Run& r) {
   harmonics(r, i->at);
 }
 
+// Reverse leakage power of the off diode: Is·(1 − e^(−VR/(N·Vt)))·VR (Shockley, RS drop neglected).
+double off_leakage_w(const DiodeParams& dc, double reverse_v, double temp_k) {
+  return dc.is_a * -std::expm1(-reverse_v / (dc.n * thermal_voltage_v(temp_k))) * reverse_v;
+}
+
 void isolation(Run& r) {
   const auto& p = r.part();
   if (p.pin) {
@@ -461,6 +568,7 @@ void isolation(Run& r) {
     r.result("ct_f", "PIN off-state CT", p.pin->ct_f, "F");
     if (r.kind() == SwitchKind::series) r.result("isolation_db", "isolation (unbiased series switch)", db, "dB");
     else r.result("loss_db", "insertion loss (unbiased shunt switch)", db, "dB");
+    report_dissipation(r, off_leakage_w(p.dc, r.number("reverse_v"), p.temp_k), pin_off_impedance(p.pin->ct_f, p.pin->rp_ohm, f));
     return;
   }
   if (!(p.cap.cj0_f > 0))
@@ -473,6 +581,9 @@ void isolation(Run& r) {
   r.result("cj_f", "Cj at the reverse bias", cj, "F");
   if (r.kind() == SwitchKind::series) r.result("isolation_db", "isolation (unbiased series switch)", db, "dB");
   else r.result("loss_db", "insertion loss (unbiased shunt switch)", db, "dB");
+  // The diode's own impedance absorbs; rr_ohm is the mount's (Parasitics) and is left out.
+  report_dissipation(r, off_leakage_w(p.dc, r.number("reverse_v"), p.temp_k),
+                     diode_off_impedance(p.dc, p.charge(), r.number("reverse_v"), r.number("freq_hz"), {}, p.temp_k));
 }
 
 void power(Run& r) {
@@ -736,16 +847,21 @@ const std::vector<CalculatorRow>& calculator_rows() {
        {required("supply_v", "supply", "V", "supply", R::positive), required("current_a", "current", "A", "target current", R::positive),
         with_default("dc_return_ohm", "dc-return", "Ohm", "DC return", 0.0, R::non_negative)}}, bias_r},
       {{"loss", "biased-state loss at a bias current and frequency (RS, rd, Cj(V), TT): insertion loss (series) or isolation (shunt)", true,
-       join({switch_input(), required("current_a", "current", "A", "bias current", R::positive)}, circuit_inputs(true))}, loss},
+       join(join({switch_input(), required("current_a", "current", "A", "bias current", R::positive)}, circuit_inputs(true)),
+            join(thermal_inputs(), rf_drive_inputs()))}, loss},
       {{"bias-for-loss", "bias current (and resistor, given a supply) for a target biased-state loss", true,
        join({switch_input(), required("target_db", "target", "dB", "target loss", R::positive),
              optional_input("supply_v", "supply", "V", "supply", R::positive)},
             circuit_inputs(true))}, bias_for_loss},
-      {{"headroom", "least bias that keeps a series switch conducting over the signal swing", false,
+      {{"headroom",
+       "least bias that keeps a series switch conducting over the signal swing; with a frequency and stored charge "
+       "(TT, a PIN part's tau) the charge-control rule I > I^/sqrt(1 + (w tau)^2)", false,
        {required("amplitude_v", "amplitude", "V", "load peak", R::positive),
         with_default("load_ohm", "load", "Ohm", "load RL", 50.0, R::positive),
         with_default("dc_return_ohm", "dc-return", "Ohm", "DC return", inf, R::positive, "choke (no AC shunt)"),
-        with_default("floor_a", "floor", "A", "trough floor", 0.0, R::non_negative)}}, headroom},
+        with_default("floor_a", "floor", "A", "trough floor", 0.0, R::non_negative),
+        optional_input("freq_hz", "freq", "Hz", "frequency", R::positive)},
+       true}, headroom},
       {{"distortion",
        "HD2, HD3 and THD at a bias, amplitude and frequency (periodic steady state of the circuit with the SPICE junction: "
        "exponential diode, RS, Cj(V), TT)",
@@ -761,7 +877,7 @@ const std::vector<CalculatorRow>& calculator_rows() {
       {{"isolation", "off state at a reverse bias and frequency (RS, Cj(V)): isolation (series) or insertion loss (shunt)", true,
        join({switch_input(), with_default("reverse_v", "reverse", "V", "reverse bias", 0.0, R::non_negative),
              with_default("rr_ohm", "rr", "Ohm", "off resistance", 0.0, R::non_negative)},
-            circuit_inputs(true))}, isolation},
+            join(circuit_inputs(true), join(thermal_inputs(), rf_drive_inputs())))}, isolation},
       {{"power", "dissipation in the part and the bias resistor, against limits (warn at 80 %, fail above)", true,
        {required("supply_v", "supply", "V", "supply", R::positive), required("bias_resistor_ohm", "bias-resistor", "Ohm", "bias resistor", R::non_negative),
         with_default("signal_peak_a", "signal-peak", "A", "signal peak", 0.0, R::non_negative),
@@ -1082,7 +1198,7 @@ Json run_design(const std::string& calculator, const DesignPart* part, const Jso
   run.set_hint(&hint, true);
   row.body(run);
   Json answer = run.take();
-  if (row.calculator.needs_part && answer["achievable"].get<bool>()) add_uncertainty(calculator, *part, inputs, answer, hint);
+  if (row.calculator.uses_part(part != nullptr) && answer["achievable"].get<bool>()) add_uncertainty(calculator, *part, inputs, answer, hint);
   for (const auto& w : renamed) answer["warnings"].push_back(w);
   return answer;
 }

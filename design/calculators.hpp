@@ -75,6 +75,12 @@ struct DesignCalculator {
   std::string synopsis;  // one line for --help
   bool needs_part = true;
   std::vector<DesignInputSpec> inputs;  // the part overrides (part_inputs()) come on top when needs_part
+  // needs_part false, and yet a part may be given: the calculator answers
+  // without one and refines its answer with it (headroom: the stored charge
+  // TT or a PIN part's lifetime τ). The part overrides come on top; without a
+  // part only tt_s and tau_s of them are taken.
+  bool takes_part = false;
+  bool uses_part(bool given) const { return needs_part || (takes_part && given); }
 };
 
 // A bad or missing input, naming it (field = the JSON key).

@@ -414,4 +414,102 @@ std::optional<BiasForThd> solve_bias_for_thd(DistortionInput in, double target_t
   return done(illinois(f, lo, f_lo, hi, f_hi));
 }
 
+std::optional<PinBiasForThd> pin_bias_for_thd(SwitchKind kind, const PinLaw& law, double is_a, double target_thd, double freq_hz,
+                                              double source_peak_v, double source_ohm, double load_ohm, double temp_k,
+                                              std::string* why, double guess_a, double slope_hint) {
+  const double lo_x = std::log(1e-6), hi_x = std::log(1.0);
+  PinBiasForThd out;
+  // g(x) = ln(THD/target) at I = e^x: negative where the target is met.
+  // The search solves at 128 steps a period (the lifetime's smooth charge:
+  // THD within ~1e-4 of the 512-step solve); the answer's harmonics come from
+  // one solve at the distortion calculator's 512.
+  const auto solve_at = [&](double x, int steps) {
+    ++out.solves;
+    const double i = std::exp(x);
+    return kind == SwitchKind::series ? pin_series_distortion(law, is_a, i, freq_hz, source_peak_v, source_ohm, load_ohm, temp_k, steps)
+                                      : pin_shunt_distortion(law, is_a, i, freq_hz, source_peak_v, source_ohm, load_ohm, temp_k, steps);
+  };
+  const auto solve = [&](double x) { return solve_at(x, 128); };
+  const auto g_of = [&](const PinDistortion& d) { return std::log(std::max(d.thd, 1e-300) / target_thd); };
+  // Newton-secant from a neighbouring answer; the full search below when it
+  // does not settle in a few solves.
+  if (std::isfinite(guess_a) && guess_a > 1e-6 && guess_a < 1.0 && std::isfinite(slope_hint) && slope_hint < 0) {
+    double xs = std::log(guess_a), s = slope_hint;
+    PinDistortion ds = solve(xs);
+    double gs = g_of(ds);
+    for (int k = 0; k < 6 && std::isfinite(gs); ++k) {
+      const double step = std::clamp(-gs / s, -0.5, 0.5);
+      if (std::abs(step) < 1e-4 || std::abs(gs) < 1e-4) {
+        out.bias_a = std::exp(xs + step);
+        out.at = ds;
+        out.slope = s;
+        return out;
+      }
+      const PinDistortion dn = solve(xs + step);
+      const double gn = g_of(dn);
+      if (std::isfinite(gn) && (gn - gs) / step < 0) s = (gn - gs) / step;
+      xs += step, gs = gn, ds = dn;
+    }
+  }
+  double x = 0.0;
+  if (std::isfinite(guess_a) && guess_a > 0) {
+    x = std::log(guess_a);
+  } else {
+    const double signal_peak_a = source_peak_v / (source_ohm + load_ohm);
+    x = std::log(10.0 * signal_peak_a / (std::numbers::pi * freq_hz) / law.tau_s);
+  }
+  x = std::clamp(x, lo_x, hi_x);
+  PinDistortion d = solve(x);
+  double g = g_of(d);
+  // Step towards the crossing by the local slope of ln THD on ln I until the sign changes.
+  double slope = -1.0;  // THD ~ 1/I at first (the charge ratio)
+  double x_prev = x, g_prev = g;
+  for (int k = 0; k < 30 && (g > 0) == (g_prev > 0); ++k) {
+    const double want = -g / (slope < -0.05 ? slope : -0.05);  // Newton on the power law, slope kept falling
+    const double step = std::copysign(std::clamp(std::abs(want) * 1.2, std::log(1.5), std::log(100.0)), g > 0 ? 1.0 : -1.0);
+    const double next = std::clamp(x + step, lo_x, hi_x);
+    if (next == x) break;  // at a bound
+    x_prev = x, g_prev = g;
+    x = next;
+    d = solve(x);
+    g = g_of(d);
+    if (std::isfinite(g) && std::isfinite(g_prev) && x != x_prev) slope = (g - g_prev) / (x - x_prev);
+    if (x_prev == x) break;
+  }
+  if (g > 0 && g_prev > 0) {
+    if (why)
+      *why = "no bias up to 1 A brings THD to " + std::to_string(100 * target_thd) + " % (at 1 A: " + std::to_string(100 * d.thd) + " %)";
+    return std::nullopt;
+  }
+  if (g <= 0 && g_prev <= 0) {  // met already at the least bias searched
+    out.bias_a = std::exp(std::min(x, x_prev));
+    out.at = solve_at(std::min(x, x_prev), 512);
+    return out;
+  }
+  // Bracket [a (met: g <= 0) … b (not met)] in ln I; Illinois secant.
+  double a = g <= 0 ? x : x_prev, ga = g <= 0 ? g : g_prev, b = g <= 0 ? x_prev : x, gb = g <= 0 ? g_prev : g;
+  out.slope = (gb - ga) / (b - a);
+  double ga_true = ga;  // ga and gb are scaled by the Illinois rule; the met side's own g
+  int side = 0;
+  for (int k = 0; k < 60 && std::abs(a - b) > 1e-4 && std::abs(ga_true) > 1e-4; ++k) {
+    double c = (a * gb - b * ga) / (gb - ga);
+    if (!(c > std::min(a, b) && c < std::max(a, b))) c = 0.5 * (a + b);
+    const PinDistortion dc = solve(c);
+    const double gc = g_of(dc);
+    if (std::isfinite(gc) && c != a) out.slope = (gc - ga_true) / (c - a);
+    if (gc <= 0) {
+      a = c, ga = gc, ga_true = gc;
+      if (side == -1) gb *= 0.5;
+      side = -1;
+    } else {
+      b = c, gb = gc;
+      if (side == 1) ga *= 0.5;
+      side = 1;
+    }
+  }
+  out.bias_a = std::exp(a);
+  out.at = solve_at(a, 512);
+  return out;
+}
+
 }  // namespace junco::fitting

@@ -35,6 +35,7 @@
 #include "design/switch.hpp"
 #include "fitting/diode.hpp"
 #include "design/harmonics.hpp"
+#include "fitting/pin_diode.hpp"
 
 #include <limits>
 #include <optional>
@@ -112,5 +113,31 @@ struct BiasForThd {
 std::optional<BiasForThd> solve_bias_for_thd(DistortionInput in, double target_thd, std::string* why = nullptr,
                                              double guess_a = std::numeric_limits<double>::quiet_NaN(),
                                              double slope = std::numeric_limits<double>::quiet_NaN());
+
+// A PIN part (fitting/pin_diode.hpp): the least bias whose THD in the
+// switch, from the charge-control time-domain solve the distortion
+// calculator uses (pin_series_distortion, pin_shunt_distortion), is at most
+// target_thd. The stored charge I·τ grows with the bias and the RF charge
+// per half cycle stays, so THD falls with the bias; the search works on
+// ln THD against ln I: from a start (guess_a when given, else the bias whose
+// stored charge is ten times the RF charge per half cycle Î/(π·f), Î the
+// small-signal current the EMF drives through Rg + RL) it steps by the local
+// slope (at least x1.5, at most x100 a step) to a bracket of the crossing,
+// then an Illinois secant pins it to 1e-4 of I or of THD. Bounds 1 µA … 1 A:
+// below the least, 1 µA is the answer; nullopt with *why when 1 A is not
+// enough. With a guess and the slope d ln THD / d ln I there (a neighbouring
+// answer's, as the uncertainty's perturbed runs have), a Newton-secant from
+// the guess first: a parameter that moves THD little costs one solve.
+struct PinBiasForThd {
+  double bias_a = 0.0;
+  PinDistortion at;  // the distortion at (within 1e-4 of) bias_a
+  double slope = std::numeric_limits<double>::quiet_NaN();  // d ln THD / d ln I near the answer
+  int solves = 0;
+};
+std::optional<PinBiasForThd> pin_bias_for_thd(SwitchKind kind, const PinLaw& law, double is_a, double target_thd, double freq_hz,
+                                              double source_peak_v, double source_ohm, double load_ohm, double temp_k,
+                                              std::string* why = nullptr,
+                                              double guess_a = std::numeric_limits<double>::quiet_NaN(),
+                                              double slope = std::numeric_limits<double>::quiet_NaN());
 
 }  // namespace junco::fitting

@@ -62,7 +62,7 @@ Json design_worst_case(const std::string& calculator, const std::vector<DesignPa
     run_design(calculator, nullptr, inputs);  // throws the one "unknown calculator" error
     return nullptr;
   }
-  if (!calc->needs_part) throw DesignInputError("calculator", "the " + calculator + " calculator needs no part: nothing varies over a lot");
+  if (!calc->needs_part && !calc->takes_part) throw DesignInputError("calculator", "the " + calculator + " calculator needs no part: nothing varies over a lot");
   for (const char* key : {"supply_tol", "resistor_tol"}) {
     const double t = std::string(key) == "supply_tol" ? w.supply_tol : w.resistor_tol;
     if (!(t >= 0 && t <= 0.5)) throw DesignInputError(key, std::string(key) + ": must be a ratio in [0, 0.5] (0.05 is 5 %)");

@@ -148,6 +148,7 @@ int main(int argc, char** argv) {
   std::vector<Case> cases{{"op", {{"supply_v", 5.0}, {"bias_resistor_ohm", 390.0}}},
                           {"bias-r", {{"supply_v", 5.0}, {"current_a", 10e-3}}},
                           {"headroom", {{"amplitude_v", 0.2}}},
+                          {"headroom", {{"amplitude_v", 0.2}, {"freq_hz", 100e6}}},  // the stored-charge rule with Cj's share
                           {"power", {{"supply_v", 5.0}, {"bias_resistor_ohm", 390.0}, {"signal_peak_a", 4e-3}}}};
   for (double f : {1e6, 100e6, 1e9})
     for (const char* sw : {"series", "shunt"}) {
@@ -157,6 +158,13 @@ int main(int argc, char** argv) {
       cases.push_back({"distortion", {{"switch", sw}, {"current_a", 1e-3}, {"amplitude_v", 0.2}, {"freq_hz", f}}});
       cases.push_back({"bias-for-thd", {{"switch", sw}, {"target_pct", 1.0}, {"amplitude_v", 0.2}, {"freq_hz", f}}});
     }
+  // Tj beside the loss (theta and a drive), and a PIN part's bias-for-thd (its
+  // charge-control solve; the part made PIN by its law's inputs).
+  cases.push_back({"loss", {{"current_a", 1e-3}, {"freq_hz", 100e6}, {"amplitude_v", 0.2}, {"theta_k_per_w", 300.0}, {"ambient_k", 300.0}}});
+  for (double f : {30e6, 100e6})
+    for (const char* sw : {"series", "shunt"})
+      cases.push_back({"bias-for-thd", {{"switch", sw}, {"target_pct", 1.0}, {"amplitude_v", 1.0}, {"freq_hz", f}, {"tau_s", 100e-9},
+                                        {"k_ohm_a_x", 20.0 * std::pow(1e-3, 0.9)}, {"x", 0.9}, {"r0_ohm", 0.4}}});
 
   // The reference: the former search, 100 MHz series, 1 % THD at 0.2 V.
   DistortionInput ref_in;

@@ -78,7 +78,7 @@ TEST_CASE("junco design: every row of the calculator table is a subcommand with 
     CHECK(help.status == 0);
     std::vector<const DesignInputSpec*> specs;
     for (const auto& s : c.inputs) specs.push_back(&s);
-    if (c.needs_part)
+    if (c.needs_part || c.takes_part)
       for (const auto& s : design_part_inputs())
         if (s.key != "temp_k") specs.push_back(&s);  // on the command line in degC: --temp-c
     for (const auto* s : specs) {
@@ -87,13 +87,37 @@ TEST_CASE("junco design: every row of the calculator table is a subcommand with 
       if (!s->fallback && !s->optional && s->choices.empty()) CHECK(help.out.find(s->label + " (required)") != std::string::npos);
     }
     for (const char* o : {"--json", "--socket"}) CHECK(help.out.find(o) != std::string::npos);
-    CHECK((help.out.find("--temp-c DEGC") != std::string::npos) == c.needs_part);
-    CHECK((help.out.find("--model FILE ") != std::string::npos) == c.needs_part);
+    CHECK((help.out.find("--temp-c DEGC") != std::string::npos) == (c.needs_part || c.takes_part));
+    CHECK((help.out.find("--model FILE ") != std::string::npos) == (c.needs_part || c.takes_part));
   }
   // A part option on a calculator that needs no part is refused on the command line.
-  const auto r = run_junco("design headroom --amplitude 1 --is 1n");
-  CHECK(r.status == 2);
-  CHECK(r.out.find("--is") != std::string::npos);
+  const auto attenuator = run_junco("design attenuator --target 10 --r0 1 --k 1 --x 1 --is 1n");
+  CHECK(attenuator.status == 2);
+  CHECK(attenuator.out.find("--is") != std::string::npos);
+}
+
+TEST_CASE("junco design headroom: the DC rule alone, the charge rule with --freq and --tt, a part optional") {
+  // DC rule (common practice, no source): 1 V load peak into 50 ohm, choke return: I^ = 20 mA.
+  const auto dc = run_junco("design headroom --amplitude 1 --json");
+  REQUIRE(dc.status == 0);
+  const auto a = nlohmann::json::parse(dc.out);
+  REQUIRE(a["result"].size() == 2);
+  CHECK(a["result"][1]["value"].get<double>() == Approx(0.02).epsilon(1e-12));
+  // Charge-control rule (docs/references.md [CC]): TT 5 ns at 100 MHz, w*TT = pi:
+  // 20 mA/sqrt(1 + pi^2) = 6.0631 mA (hand arithmetic: sqrt(10.8696) = 3.29691).
+  const auto tt = run_junco("design headroom --amplitude 1 --freq 100MHz --tt 5ns --json");
+  REQUIRE(tt.status == 0);
+  const auto b = nlohmann::json::parse(tt.out);
+  CHECK(b["result"][1]["key"] == "min_bias_a");
+  CHECK(b["result"][1]["value"].get<double>() == Approx(0.02 / 3.29691).epsilon(1e-5));
+  // With a part (explicit parameters): its TT override, the same rule (no Cj given: share 1).
+  const auto part = run_junco("design headroom --amplitude 1 --freq 100MHz --is 1e-14 --n 1 --rs 1 --tt 5ns --json");
+  REQUIRE(part.status == 0);
+  CHECK(nlohmann::json::parse(part.out)["result"][1]["value"].get<double>() == Approx(0.02 / 3.29691).epsilon(1e-5));
+  // A part input that needs the part itself, without one, is refused naming the option.
+  const auto cj = run_junco("design headroom --amplitude 1 --cj 1p");
+  CHECK(cj.status == 2);
+  CHECK(cj.out.find("--cj: needs a part") != std::string::npos);
 }
 
 TEST_CASE("junco design power fails over a limit") {

@@ -78,6 +78,45 @@ TEST_CASE("op and power report Tj = Ta + theta*P from the application's theta, b
   CHECK(field_of("power", &part, {{"supply_v", 5.0}, {"bias_resistor_ohm", 427.533}, {"theta_k_per_w", 200.0}}) == "ambient_k");
 }
 
+TEST_CASE("loss and isolation give Tj from theta: DC bias plus the RF the diode absorbs, by hand") {
+  // Hand calculation (Shockley diode and the series-switch divider; E8's part, IS 1e-14 A,
+  // N 1, RS 1 ohm, 300.15 K, Vt = k*T/q = 25.8649 mV):
+  //   I = 10 mA: Vd = Vt*ln(1 + I/IS) + I*RS = 0.724674 V; DC: I*Vd = 7.24674 mW.
+  //   Z = RS + Vt/(I + IS) = 3.58649 ohm (no Cj, no TT: real at any frequency).
+  //   1 V EMF into 50 + Z + 50: I^ = 1/103.58649 = 9.65377 mA; RF: 0.5*I^2*Re Z = 0.167122 mW.
+  //   P = 7.41387 mW; theta 200 K/W, Ta 298.15 K: Tj = 298.15 + 200*P = 299.63277 K.
+  const auto part = e8_part();
+  const Json a = run_design("loss", &part, {{"current_a", 0.01}, {"amplitude_v", 1.0}, {"theta_k_per_w", 200.0}, {"ambient_k", 298.15}});
+  CHECK(value_of(a["result"], "dc_power_w") == Approx(7.24674e-3).epsilon(1e-5));
+  CHECK(value_of(a["result"], "rf_power_w") == Approx(0.167122e-3).epsilon(1e-5));
+  CHECK(value_of(a["result"], "diode_power_w") == Approx(7.413865e-3).epsilon(1e-6));
+  CHECK(value_of(a["result"], "tj_k") == Approx(299.63277).margin(1e-4));
+  CHECK(value_of(a["result"], "loss_db") == Approx(20 * std::log10(1 + 3.5864926 / 100)).margin(1e-6));  // unchanged by theta
+  // The same drive as available power: 1 V EMF into 50 ohm is (1/2)^2/(2*50) = 2.5 mW.
+  const Json pw = run_design("loss", &part, {{"current_a", 0.01}, {"power_w", 2.5e-3}, {"theta_k_per_w", 200.0}, {"ambient_k", 298.15}});
+  CHECK(value_of(pw["result"], "tj_k") == Approx(299.63277).margin(1e-4));
+  // No drive: the DC bias alone (7.24674 mW): Tj = 298.15 + 200*7.24674e-3 = 299.59935 K; no rf line.
+  const Json dc = run_design("loss", &part, {{"current_a", 0.01}, {"theta_k_per_w", 200.0}, {"ambient_k", 298.15}});
+  CHECK(value_of(dc["result"], "tj_k") == Approx(299.59935).margin(1e-4));
+  for (const auto& l : dc["result"]) CHECK(l["key"] != "rf_power_w");
+  // Without theta or a drive the answer is the loss alone, as before.
+  const Json bare = run_design("loss", &part, {{"current_a", 0.01}});
+  CHECK(bare["result"].size() == 1);
+  CHECK(field_of("loss", &part, {{"current_a", 0.01}, {"ambient_k", 298.15}}) == "ambient_k");
+  CHECK(field_of("loss", &part, {{"current_a", 0.01}, {"amplitude_v", 1.0}, {"power_w", 1e-3}}) == "power_w");
+
+  // Off state, hand calculation: CJO 1 pF, VJ 0.7 V, M 0.5, 5 V reverse, 100 MHz:
+  //   Cj = 1 pF/(1 + 5/0.7)^0.5 = 0.350438 pF; Z = RS + 1/(gd + j*w*Cj) = 1 - j*4541.596 ohm
+  //   (gd = IS/Vt*e^(-5/Vt), negligible). 10 V EMF, series: |I^| = 10/|101 - j*4541.596| = 2.201325 mA;
+  //   RF: 0.5*I^2*Re Z = 2.422915 uW; leakage IS*(1 - e^(-5/Vt))*5 V = 5e-14 W.
+  //   theta 1000 K/W: Tj = 298.15 + 1000*2.422915e-6 = 298.152423 K.
+  const Json off = run_design("isolation", &part, {{"cj0_f", 1e-12}, {"vj_v", 0.7}, {"m", 0.5}, {"reverse_v", 5.0}, {"freq_hz", 1e8},
+                                                   {"amplitude_v", 10.0}, {"theta_k_per_w", 1000.0}, {"ambient_k", 298.15}});
+  CHECK(value_of(off["result"], "rf_power_w") == Approx(2.422915e-6).epsilon(1e-5));
+  CHECK(value_of(off["result"], "dc_power_w") == Approx(5e-14).epsilon(1e-6));
+  CHECK(value_of(off["result"], "tj_k") == Approx(298.152423).margin(1e-6));
+}
+
 TEST_CASE("E11: series insertion loss and shunt isolation over bias, defaults 50/50 ohm") {
   // Source: docs/references.md E11 (N = 1, RS = 1 Ω, 27 °C, 50 Ω): series IL
   // 2.067 / 0.306 dB at 1 / 10 mA; the same diode as a shunt isolates
@@ -183,6 +222,59 @@ TEST_CASE("targets that cannot be met and power over a limit are answers, not er
   CHECK_FALSE(h.contains("part"));
 }
 
+TEST_CASE("headroom: the DC rule without a frequency or stored charge, the charge-control rule with both") {
+  // DC rule (common practice, no source): 1 V load peak, 50 ohm, choke return: I_min = 20 mA.
+  // Charge-control rule (docs/references.md [CC], the derivation in design/bias.hpp):
+  // I_min = I^/sqrt(1 + (w*tau)^2); TT 5 ns at 100 MHz: w*TT = pi, sqrt(1 + pi^2) = 3.296908,
+  // 20 mA/3.296908 = 6.066288 mA.
+  DesignPart part = e8_part();
+  part.tt_s = 5e-9;
+  const Json bare = run_design("headroom", nullptr, {{"amplitude_v", 1.0}});
+  const Json no_freq = run_design("headroom", &part, {{"amplitude_v", 1.0}});
+  REQUIRE(no_freq["result"].size() == 2);  // without a frequency: exactly the DC answer
+  CHECK(no_freq["result"] == bare["result"]);
+  CHECK(no_freq["warnings"].dump().find("give the frequency") != std::string::npos);
+  const Json no_tt = run_design("headroom", nullptr, {{"amplitude_v", 1.0}, {"freq_hz", 1e8}});
+  CHECK(no_tt["result"] == bare["result"]);  // no stored charge: the DC rule at any frequency
+  const Json at_f = run_design("headroom", &part, {{"amplitude_v", 1.0}, {"freq_hz", 1e8}});
+  CHECK(value_of(at_f["result"], "min_bias_a") == Approx(6.066288e-3).epsilon(1e-6));
+  CHECK(value_of(at_f["result"], "charge_min_bias_a") == Approx(6.066288e-3).epsilon(1e-6));
+  CHECK(value_of(at_f["result"], "dc_min_bias_a") == Approx(0.02).epsilon(1e-12));
+  CHECK(value_of(at_f["result"], "omega_tau") == Approx(M_PI).epsilon(1e-12));
+  CHECK(at_f["warnings"].dump().find("reverses in the trough") != std::string::npos);
+  // TT alone, no part: the same; at 1 kHz the rule is the DC one to 5e-10 (w*TT = 3.1e-5).
+  CHECK(value_of(run_design("headroom", nullptr, {{"amplitude_v", 1.0}, {"freq_hz", 1e8}, {"tt_s", 5e-9}})["result"], "min_bias_a") ==
+        Approx(6.066288e-3).epsilon(1e-6));
+  CHECK(value_of(run_design("headroom", nullptr, {{"amplitude_v", 1.0}, {"freq_hz", 1e3}, {"tt_s", 5e-9}})["result"], "min_bias_a") ==
+        Approx(0.02).epsilon(1e-9));
+  // The floor adds to the junction current: 6.066288 + 1 mA.
+  CHECK(value_of(run_design("headroom", &part, {{"amplitude_v", 1.0}, {"freq_hz", 1e8}, {"floor_a", 1e-3}})["result"], "min_bias_a") ==
+        Approx(7.066288e-3).epsilon(1e-6));
+  // A PIN part's lifetime: tau 1 us at 10 MHz, w*tau = 62.83185, sqrt(1 + 62.83185^2) = 62.83981:
+  // 20 mA/62.83981 = 0.3182697 mA.
+  DesignPart pin = e8_part();
+  pin.pin = PinPart{};
+  pin.pin->law.tau_s = 1e-6;
+  CHECK(value_of(run_design("headroom", &pin, {{"amplitude_v", 1.0}, {"freq_hz", 1e7}})["result"], "min_bias_a") ==
+        Approx(0.3182697e-3).epsilon(1e-6));
+  // With Cj: part of I^ flows in the depletion capacitance, the rest reaches the
+  // stored charge (share < 1): the least bias falls, never rises.
+  DesignPart with_cj = part;
+  with_cj.cap = {20e-12, 0.7, 0.5, 0.5};
+  const Json cj = run_design("headroom", &with_cj, {{"amplitude_v", 1.0}, {"freq_hz", 1e8}});
+  CHECK(value_of(cj["result"], "charge_share") < 1.0);
+  CHECK(value_of(cj["result"], "min_bias_a") < 6.066288e-3);
+  CHECK(value_of(cj["result"], "min_bias_a") == Approx(6.066288e-3 * value_of(cj["result"], "charge_share")).epsilon(1e-6));
+  // The fit's covariance gives +-: u(TT) = 0.5 ns; dI/dTT = -I^*w^2*TT/(1 + (w*TT)^2)^1.5
+  // = -0.02*1.973921e9/35.83607 = -1.101640e6 A/s, so u(I_min) ~ 0.5508 mA (GUM linear law).
+  part.cov.names = {"tt_s"};
+  part.cov.matrix = {{0.25e-18}};
+  part.cov.source = "test";
+  const Json u = run_design("headroom", &part, {{"amplitude_v", 1.0}, {"freq_hz", 1e8}});
+  for (const auto& l : u["result"])
+    if (l["key"] == "min_bias_a") CHECK(l["std_error"].get<double>() == Approx(0.5508e-3).epsilon(0.03));
+}
+
 TEST_CASE("bad input is refused, naming the field") {
   const auto part = e8_part();
   CHECK(field_of("warp", &part, Json::object()) == "calculator");
@@ -192,7 +284,7 @@ TEST_CASE("bad input is refused, naming the field") {
   CHECK(field_of("op", &part, {{"supply_v", 5.0}, {"bias_resistor_ohm", 1.0}, {"vbias", 2.0}}) == "vbias");  // unknown
   CHECK(field_of("loss", &part, {{"current_a", 0.01}, {"switch", "diagonal"}}) == "switch");     // not a choice
   CHECK(field_of("op", nullptr, {{"supply_v", 5.0}, {"bias_resistor_ohm", 1.0}}) == "part");
-  CHECK(field_of("headroom", &part, {{"amplitude_v", 1.0}, {"cj0_f", 1e-12}}) == "cj0_f");      // no part inputs
+  CHECK(field_of("headroom", nullptr, {{"amplitude_v", 1.0}, {"cj0_f", 1e-12}}) == "cj0_f");    // needs the part itself
   CHECK(field_of("op", &part, Json::array()) == "inputs");
   DesignPart broken = part;
   broken.dc.n = 0;

@@ -239,9 +239,15 @@ TEST_CASE("PIN law in the model document and the calculators' inputs") {
   for (const auto& l : d["result"]) if (l["key"] == "thd_pct") thd_pct = l["value"].get<double>();
   CHECK(thd_pct >= 0.0);
   CHECK(thd_pct < 1.0);  // the "negligible" of issue 15, where the junction solve read 25 %
-  // bias-for-thd has no PIN model: it says so instead of answering for a junction.
+  // bias-for-thd solves the PIN's own charge-control distortion (not the
+  // junction's): distortion at the least bias it returns reads the target.
   const nlohmann::json t = run_design("bias-for-thd", &part, {{"switch", "series"}, {"target_pct", 1.0}, {"amplitude_v", 2.0},
                                                               {"k_ohm_a_x", 0.0246}, {"tau_s", 1e-6}});
-  CHECK(t["achievable"] == false);
-  CHECK(t["reason"].get<std::string>().rfind("PIN part", 0) == 0);
+  REQUIRE(t["achievable"] == true);
+  double least_a = -1;
+  for (const auto& l : t["result"]) if (l["key"] == "least_bias_a") least_a = l["value"].get<double>();
+  REQUIRE(least_a > 0);
+  const nlohmann::json at = run_design("distortion", &part, {{"switch", "series"}, {"current_a", least_a}, {"freq_hz", 10e6}, {"amplitude_v", 2.0},
+                                                             {"k_ohm_a_x", 0.0246}, {"tau_s", 1e-6}});
+  for (const auto& l : at["result"]) if (l["key"] == "thd_pct") CHECK(l["value"].get<double>() == Approx(1.0).epsilon(0.005));
 }

@@ -105,9 +105,13 @@ void define_calculator(CLI::App& app, const DesignCalculator& c) {
   sub->get_formatter()->column_width(30);
   sub->get_formatter()->label("OPTIONS", "options");
   sub->get_formatter()->label("REQUIRED", "required");
-  sub->footer((c.needs_part ? std::string(part_text) : std::string("No part needed.\n")) + values_text + "\n" + design_footer);
+  const std::string part_help = c.needs_part   ? std::string(part_text)
+                                : c.takes_part ? "No part needed; with one (or --tt/--tau alone) the answer uses its stored charge.\n" +
+                                                     std::string(part_text)
+                                               : std::string("No part needed.\n");
+  sub->footer(part_help + values_text + "\n" + design_footer);
   for (const auto& s : c.inputs) add_input_option(*sub, s);
-  if (c.needs_part) {
+  if (c.needs_part || c.takes_part) {
     add_text(*sub, "part", "PART", "a stored part (id or label); juncod computes with its latest fit");
     add_text(*sub, "lot", "NAME", "the lot of a --part given by label");
     add_text(*sub, "model", "FILE", "JSON model document (junco show PART --export json, junco export)");
@@ -178,8 +182,10 @@ Request parse_request(const DesignCalculator& c, const Given& g) {
     if (s->choices.empty()) r.inputs[key] = parse_value(s->option, value, s->unit);
     else r.inputs[key] = value;
   }
-  if (!c.needs_part) return r;
+  if (!c.needs_part && !c.takes_part) return r;
   const int sources = (r.part ? 1 : 0) + (r.model ? 1 : 0) + (r.explicit_part.empty() ? 0 : 1);
+  if (sources == 0 && r.lot) throw std::invalid_argument("--lot goes with --part");
+  if (sources == 0 && c.takes_part) return r;
   if (sources == 0) throw std::invalid_argument("which part? give --part PART, --model FILE or --is/--n/--rs");
   if (sources > 1) throw std::invalid_argument("give one part: --part, --model or --is/--n/--rs, not several");
   if (r.lot && !r.part) throw std::invalid_argument("--lot goes with --part");
@@ -307,8 +313,9 @@ int run_calculator(const DesignCalculator& c) {
       }
     } else {
       try {
-        const DesignPart part = c.needs_part ? local_part(r) : DesignPart{};
-        answer = run_design(c.name, c.needs_part ? &part : nullptr, r.inputs);
+        const bool with_part = c.needs_part || (c.takes_part && (r.model || !r.explicit_part.empty()));
+        const DesignPart part = with_part ? local_part(r) : DesignPart{};
+        answer = run_design(c.name, with_part ? &part : nullptr, r.inputs);
       } catch (const DesignInputError& e) {
         throw std::invalid_argument(as_option_message(c, e));
       }

@@ -457,8 +457,9 @@ class Client:
             calculator (str, required): one of op, bias-r, loss, bias-for-loss, headroom, distortion,
             bias-for-thd, isolation, power, off-headroom, junction-temp, bias-network, series-shunt,
             attenuator
-            part (Dict[str, Any], optional): required unless the calculator works without one
-            (headroom); unknown keys are refused (data.field = part.KEY)
+            part (Dict[str, Any], optional): required unless the calculator works without one (headroom,
+            attenuator; headroom uses one when given: its TT, PIN tau, Cj); unknown keys are refused
+            (data.field = part.KEY)
             inputs (Dict[str, Any], optional): the calculator's inputs in SI units, keys as in
             docs/design.md (supply_v, bias_resistor_ohm, current_a, switch, ...; the former names
             rbias_ohm, rreturn_ohm, rg_ohm and rl_ohm are read with a warning in the answer); optional
