@@ -81,17 +81,32 @@ struct RunFit {
   MoreReports more;  // detail.heating, detail.stored_charge, detail.pin, detail.package
 };
 
+// The run's junction capacitance law (off-state or vector readings) as the
+// AC models take it; cj0_f = 0 when the run gave none.
+fitting::JunctionCap cap_law_of(const RunFit& out) {
+  if (!out.cap || !out.cap->ok) return {};
+  return {out.cap->cj0_f.value, out.cap->vj_v.value, out.cap->m.value, 0.5};
+}
+
 // With AC readings, Rs and self-heating can be told apart
 // (fitting/electrothermal_fit.hpp, docs/fitting.md): the stored Is, n and Rs
 // become the isothermal ones at the run's ambient, with their covariance;
 // the DC-only Rs stays in detail.electrothermal.apparent_rs_ohm. Without AC
 // readings the fit keeps the DC-only values and warns how much heating they
-// may hide.
+// may hide. The AC model takes the junction's charge the run measured: the
+// Cj(V) law and the stored-charge fit's TT (and its constant Cj when it
+// fitted one), so it runs after those fits.
 void apply_electrothermal(const Config& cfg, double temp_k, const RunFixture& fixture, const std::vector<PointRow>& points, RunFit& out) {
   fitting::ElectroThermalRunOptions eo;
   eo.fit.ambient_k = temp_k;
   eo.fit.accuracy = cfg.accuracy;
   eo.fit.ac_sigma_db = cfg.level_sigma_db();
+  eo.fit.charge.cap = cap_law_of(out);
+  if (out.more.stored_charge && out.more.stored_charge->ok) {
+    const fitting::AcChargeFit& sc = *out.more.stored_charge;
+    if (std::isfinite(sc.tt_s.value)) eo.fit.charge.tt_s = sc.tt_s.value;
+    if (std::isfinite(sc.cj_f.value) && sc.cj_f.value > 0.0) eo.fit.cj_f = sc.cj_f.value;
+  }
   const auto ac = ac_points(points);
   // The model is the settled junction (Ta + Rth·I·V): with AC readings it
   // takes the readings at a held bias only (pulsed ones are near ambient);
@@ -104,20 +119,23 @@ void apply_electrothermal(const Config& cfg, double temp_k, const RunFixture& fi
     return;
   }
   const fitting::ElectroThermalFit& f = et.fit;
-  // The electro-thermal model reads the AC levels as rd alone (no TT·gd): on a
-  // part with stored charge, readings above 1/(2π·TT) do not fit it, and its
-  // answer is a compromise far from the DC readings (seen: reduced χ² 28 000,
-  // N 1.51 for a true 1.83 that the DC-only fit gets). Such a fit must not
-  // replace the DC-only values. Bound ours, no source: 10× the DC-only fit's
-  // reduced χ² (at least 10), far above a model that describes the readings.
+  // A fit whose model does not describe the readings must not replace the
+  // DC-only values: its answer is a compromise far from the DC readings. Seen
+  // before the AC model had TT·gd (reduced χ² 28 000, N 1.51 for a true 1.83
+  // that the DC-only fit gets); still possible when the part has stored
+  // charge but no TT was fitted (AC readings at one frequency only). Bound
+  // ours, no source: 10× the DC-only fit's reduced χ² (at least 10), far
+  // above a model that describes the readings.
   const double dc_chi2 = std::isfinite(out.fit.reduced_chi2) ? std::max(1.0, out.fit.reduced_chi2) : 1.0;
   if (f.reduced_chi2 > 10.0 * dc_chi2) {
-    char line[320];
+    char line[360];
     std::snprintf(line, sizeof line,
                   "electro-thermal fit not used: it does not describe the readings (reduced chi2 %.3g, the DC-only fit's %.3g); "
-                  "Is, N and Rs are the DC-only fit's (AC readings above the stored charge's corner 1/(2 pi TT) do not fit a "
-                  "model without TT)",
-                  f.reduced_chi2, out.fit.reduced_chi2);
+                  "Is, N and Rs are the DC-only fit's%s",
+                  f.reduced_chi2, out.fit.reduced_chi2,
+                  eo.fit.charge.tt_s > 0.0 ? ""
+                                           : " (no TT was fitted for its AC model: AC readings above the stored charge's "
+                                             "corner 1/(2 pi TT) do not fit it; readings at 2 or more frequencies fit TT)");
     out.fit.warnings.emplace_back(line);
     // The stored report says so too: its readers (part.transfer's verdict, the
     // demo's Rth column) take "fitted" as the values the stored fit carries.
@@ -160,8 +178,8 @@ void apply_stored_charge(const Config& cfg, double temp_k, const RunFixture& fix
   o.temp_k = temp_k;
   o.is_a = out.fit.is_a.value;
   o.ac_sigma_db = cfg.level_sigma_db();
-  if (out.cap && out.cap->ok) o.cap = {out.cap->cj0_f.value, out.cap->vj_v.value, out.cap->m.value, 0.5};
-  else o.fit_cj = true;
+  o.cap = cap_law_of(out);
+  o.fit_cj = !(o.cap.cj0_f > 0.0);
   const auto f = fitting::fit_ac_stored_charge(ac, fx, o);
   out.more.stored_charge = f;
   if (!f.ok) out.fit.warnings.push_back("stored charge not fitted: " + f.message);
@@ -303,20 +321,10 @@ RunFit fit_run(const Config& cfg, double temp_k, const RunFixture& fixture, cons
     out.fit.message = std::string("fit failed: ") + e.what();
     return out;
   }
-  if (out.fit.usable()) {
-    // The electro-thermal fit reads the AC readings as a junction's
-    // rd = N·Vt/I: a PIN part's above its knee are the I-region's resistance.
-    if (!pin) try {
-      apply_electrothermal(cfg, temp_k, fixture, points, out);
-    } catch (const std::exception& e) {
-      out.fit.warnings.push_back(std::string("electro-thermal fit not made: ") + e.what());
-    }
-    try {
-      apply_heating(cfg, temp_k, points, out);
-    } catch (const std::exception& e) {
-      out.fit.warnings.push_back(std::string("heating readings not analysed: ") + e.what());
-    }
-  }
+  // Order: the junction's charge first (Cj(V) from the off-state or vector
+  // readings, then TT from the multi-frequency AC readings, with the DC-only
+  // Is), because the electro-thermal AC model takes it; the heating readings
+  // last, as they read the electro-thermal outcome and the stored Is/n/Rs.
   try {
     out.cap = junction_cap_of_run(points, fixture, out.fit.usable() ? out.fit.rs_ohm.value : 0.0);
     if (out.cap) out.cap_report = junction_cap_report(*out.cap, off_state_points(points));
@@ -341,6 +349,20 @@ RunFit fit_run(const Config& cfg, double temp_k, const RunFixture& fixture, cons
       apply_stored_charge(cfg, temp_k, fixture, points, out);
     } catch (const std::exception& e) {
       out.fit.warnings.push_back(std::string("stored charge not fitted: ") + e.what());
+    }
+  }
+  if (out.fit.usable()) {
+    // The electro-thermal fit reads the AC readings as a junction's
+    // rd = N·Vt/I: a PIN part's above its knee are the I-region's resistance.
+    if (!pin) try {
+      apply_electrothermal(cfg, temp_k, fixture, points, out);
+    } catch (const std::exception& e) {
+      out.fit.warnings.push_back(std::string("electro-thermal fit not made: ") + e.what());
+    }
+    try {
+      apply_heating(cfg, temp_k, points, out);
+    } catch (const std::exception& e) {
+      out.fit.warnings.push_back(std::string("heating readings not analysed: ") + e.what());
     }
   }
   return out;

@@ -217,7 +217,14 @@ fitting::LotPart lot_part(const PartRow& part, const FitRecord& fit) {
 // still explain both kinds of reading with the junction's heating
 // (detail.electrothermal): its isothermal Rs then agrees with the Rs the AC
 // readings give alone, within 3 combined standard errors (our bound, no
-// source), where the DC-only Rs does not.
+// source), where the DC-only Rs does not. That comparison needs the two AC
+// models alike: when the stored fit has a Cj(V) law or a TT, juncod's
+// electro-thermal AC model held them, while the AC-alone line reads |Z| as
+// rd (constant Cj only when part.transfer is given cj_f) and its Rs is
+// biased high by the capacitance (junco demo's WR-01: AC alone 0.699 +-
+// 0.029 ohm, electro-thermal 0.605 +- 0.008, junco-sim's truth 0.608). Then
+// the stored fit's own test stands: juncod keeps it ("fitted") only when its
+// reduced chi2 is within 10x the DC-only fit's (daemon/executor.cpp).
 std::optional<PartType> part_type_from_string(const std::string& text) {
   if (text == "junction") return PartType::junction;
   if (text == "pin") return PartType::pin;
@@ -230,6 +237,8 @@ std::string transfer_verdict(const Json& joint, const FitRecord& fit, PartType t
   if (joint.value("agree", false)) return "agree";
   const Json ac = joint.contains("ac_only") ? joint["ac_only"].value("rs_ohm", Json()) : Json();
   const auto number = [](const Json& j, const char* k) { return j.is_object() && j.value(k, Json()).is_number() ? j[k].get<double>() : kNaN; };
+  const bool charge_held = std::isfinite(fit.cj0_f.value) || std::isfinite(fit.tt_s.value);
+  if (fit.electrothermal && fit.electrothermal->status == "fitted" && charge_held) return "consistent once heating is modelled";
   if (fit.electrothermal && fit.electrothermal->status == "fitted" && ac.is_object()) {
     const double d = fit.electrothermal->rs_ohm.value - number(ac, "value");
     const double se = std::hypot(fit.electrothermal->rs_ohm.std_error, number(ac, "std_error"));

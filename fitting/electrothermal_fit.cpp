@@ -26,12 +26,14 @@ struct HotJunction {
       : ln_is(x[0] + log_saturation_current_ratio(x[1], tj, ambient_k, law)),
         vt(tj * k_over_q),
         rs(x[2] * (1.0 + law.trs1_per_k * (tj - ambient_k) + law.trs2_per_k2 * (tj - ambient_k) * (tj - ambient_k))) {}
-  // Terminal voltage at current i (explicit, no shunt).
-  T voltage(const T& n, double i) const {
+  // Junction voltage (RS excluded) at current i: n·Vt·ln(1 + I/Is).
+  T junction_voltage(const T& n, double i) const {
     using std::exp;
     using std::log;
-    return i * rs + n * vt * log(1.0 + i * exp(-ln_is));
+    return n * vt * log(1.0 + i * exp(-ln_is));
   }
+  // Terminal voltage at current i (explicit, no shunt).
+  T voltage(const T& n, double i) const { return i * rs + junction_voltage(n, i); }
 };
 
 // Steady state at current i: Tj = Ta + Rth·I·V(I, Tj), iterated from Ta. x = {ln Is, n, Rs, Rth}.
@@ -46,7 +48,11 @@ struct DcReading {
   double v, i_a, inv_sigma;
 };
 struct AcReading {
-  double bias_i_a, measured_db, omega_cj, z_load_ohm, inv_sigma;
+  double bias_i_a, measured_db;
+  double omega_rad_s;  // 2π·f
+  double omega_cj;     // ω·(the constant Cj)
+  double omega_tt;     // ω·TT
+  double z_load_ohm, inv_sigma;
 };
 
 // All readings in one residual block (one Jacobian evaluation per iteration
@@ -57,6 +63,7 @@ struct ElectroThermalCost {
   std::vector<AcReading> ac;
   double ambient_k;
   TemperatureLaw law;
+  JunctionCap cap;  // cap.cj0_f = 0: no depletion law in the AC model
 
   template <typename T>
   bool operator()(const T* const x, T* r) const {
@@ -72,7 +79,12 @@ struct ElectroThermalCost {
       const T tj = heated_junction_k(x, a.bias_i_a, ambient_k, law);
       const HotJunction<T> hot(x, tj, ambient_k, law);
       const T rj = x[1] * hot.vt / (a.bias_i_a + exp(hot.ln_is));
-      r[k++] = (fixture_gain_db_of(rj, hot.rs, a.omega_cj, a.z_load_ohm) - a.measured_db) * a.inv_sigma;
+      // The depletion capacitance at the heated junction's voltage (a dual
+      // number: it moves with Is, n and Rth); TT·gd enters as ω·TT.
+      const T omega_c = cap.cj0_f > 0.0
+                            ? a.omega_cj + a.omega_rad_s * depletion_law(cap, hot.junction_voltage(x[1], a.bias_i_a)).c_f
+                            : T(a.omega_cj);
+      r[k++] = (fixture_gain_db_of(rj, hot.rs, omega_c, a.z_load_ohm, a.omega_tt) - a.measured_db) * a.inv_sigma;
     }
     return true;
   }
@@ -111,6 +123,7 @@ ElectroThermalFit fit_electrothermal(std::span<const IvPoint> dc, std::span<cons
   auto cost = std::make_unique<ElectroThermalCost>();
   cost->ambient_k = ta;
   cost->law = o.law;
+  cost->cap = o.charge.cap;
   const DiodeParams start = plain.params();
   for (std::size_t k = 0; k < dc.size(); ++k) {
     if (!used[k]) continue;
@@ -124,7 +137,8 @@ ElectroThermalFit fit_electrothermal(std::span<const IvPoint> dc, std::span<cons
   const double z_load = cathode_load_ohm(fixture);
   for (const auto& p : ac) {
     if (!p.usable()) continue;
-    cost->ac.push_back({p.bias_i_a, 20.0 * std::log10(p.vout / p.vin), 2.0 * std::numbers::pi * p.freq_hz * o.cj_f, z_load,
+    const double omega = 2.0 * std::numbers::pi * p.freq_hz;
+    cost->ac.push_back({p.bias_i_a, 20.0 * std::log10(p.vout / p.vin), omega, omega * o.cj_f, omega * o.charge.tt_s, z_load,
                         1.0 / o.ac_sigma_db});
   }
   f.dc_points = cost->dc.size();
@@ -144,7 +158,13 @@ ElectroThermalFit fit_electrothermal(std::span<const IvPoint> dc, std::span<cons
   jo.temp_k = ta;
   jo.ac_sigma_db = o.ac_sigma_db;
   jo.cj_f = o.cj_f;
-  const SimpleFit ac_alone = fit_ac_only(ac, fixture, jo);
+  // The dynamic-resistance line reads |Z| as rd: with stored charge only the
+  // readings below its corner say that (ω·TT ≤ 0.1: |Z| within 0.5 % of rd).
+  std::vector<AcPoint> below_corner;
+  if (o.charge.tt_s > 0.0)
+    for (const auto& p : ac)
+      if (p.usable() && 2.0 * std::numbers::pi * p.freq_hz * o.charge.tt_s <= 0.1) below_corner.push_back(p);
+  const SimpleFit ac_alone = fit_ac_only(o.charge.tt_s > 0.0 ? std::span<const AcPoint>(below_corner) : ac, fixture, jo);
   if (ac_alone.ok && ac_alone.rs_ohm.value > start.rs_ohm) {
     const double v_top = f.top_power_w / f.top_i_a, vt = thermal_voltage_v(ta);
     const double vj = v_top - f.top_i_a * start.rs_ohm;
@@ -231,6 +251,16 @@ ElectroThermalRun fit_run_electrothermal(std::span<const IvPoint> dc, std::span<
     else
       std::snprintf(line, sizeof line, "electro-thermal fit failed: %s", run.fit.message.c_str());
     run.note = line;
+    // Which junction charge the AC model held: the values are only as good as it.
+    const JunctionCharge& q = o.fit.charge;
+    if (q.any() || o.fit.cj_f > 0.0) {
+      std::string held;
+      if (q.tt_s > 0.0) std::snprintf(line, sizeof line, ", TT %.4g ns", q.tt_s * 1e9), held += line;
+      if (q.cap.cj0_f > 0.0)
+        std::snprintf(line, sizeof line, ", Cj(V) CJO %.4g pF VJ %.3g V M %.3g", q.cap.cj0_f * 1e12, q.cap.vj_v, q.cap.m), held += line;
+      if (o.fit.cj_f > 0.0) std::snprintf(line, sizeof line, ", constant Cj %.4g pF", o.fit.cj_f * 1e12), held += line;
+      run.note += "; its AC model held the junction's charge:" + held.substr(1);
+    }
     return run;
   }
   // No AC readings to separate Rs from the heating: fit DC alone, and size the bias.

@@ -11,10 +11,23 @@
 // Model, at each reading (steady state, P = I·V of the part):
 //   Tj = Ta + Rth·I·V
 //   DC: V = I·RS(Tj) + n·Vt(Tj)·ln(1 + I/Is(Tj))          V measured, so Tj is explicit
-//   AC: 20·log10|Vout/Vin| of the fixture (transfer.hpp) with
-//       rj = n·Vt(Tj)/(I + Is(Tj)), Rs(Tj) and Cj as given; V at the bias
+//   AC: 20·log10|Vout/Vin| of the fixture (transfer.hpp's fixture_gain_db_of,
+//       the one small-signal diode the joint and stored-charge fits use):
+//       Rs(Tj) + 1/(gd + jω(Cj + Cdep(Vd) + TT·gd)) with
+//       gd = (I + Is(Tj))/(n·Vt(Tj)) of the heated junction, Cdep the
+//       junction's depletion law (junction_charge.hpp, CJO/VJ/M as given) at
+//       the heated junction's voltage Vd = n·Vt(Tj)·ln(1 + I/Is(Tj)), TT·gd
+//       the diffusion capacitance of the charge-control model (Q = TT·I,
+//       docs/references.md §2, §8) and Cj a constant as given; V at the bias
 //       from the model, so Tj = Ta + Rth·I·V(I, Tj) is iterated (the loop
-//       gain Rth·I·|dV/dT| is a few per cent, 6 iterations reach 1e-9 K)
+//       gain Rth·I·|dV/dT| is a few per cent, 6 iterations reach 1e-9 K).
+//       ω·TT·gd·rj = ω·TT whatever Tj, so the diffusion term needs no
+//       temperature; CJO and VJ are taken at the run's temperature (the law
+//       is fitted on unheated reverse-bias readings; its own temperature
+//       shift over the self-heating's tens of K is neglected, next to TT·gd
+//       at forward bias). Without the charge, readings above the corner
+//       1/(2π·TT) read as a lower rd: the fit then bends n, Rs and Rth to
+//       them (seen: reduced χ² 28 000 on a 5 ns part read to 100 MHz).
 // with Is(T), RS(T), Vt(T) from the SPICE law (temperature.hpp), EG, XTI and
 // TRS held at options.law, TNOM = Ta. The fitted Is, n, Rs are therefore
 // the isothermal values at the ambient (the run's temperature).
@@ -29,6 +42,7 @@
 
 #include "fitting/joint_fit.hpp"
 #include "fitting/extract.hpp"
+#include "fitting/junction_charge.hpp"
 #include "fitting/temperature.hpp"
 #include "fitting/transfer.hpp"
 
@@ -44,7 +58,8 @@ struct ElectroThermalOptions {
   TemperatureLaw law;         // EG, XTI (and TRS1/TRS2) held, SPICE defaults unless given per part type
   AccuracyModel accuracy;     // of the DC readings, as for fit_forward
   double ac_sigma_db = 0.01;  // standard uncertainty of one AC ratio reading
-  double cj_f = 0.0;          // junction capacitance in the AC model (not fitted)
+  double cj_f = 0.0;          // constant capacitance across the junction in the AC model (not fitted)
+  JunctionCharge charge;      // the junction's Cj(V) law and TT in the AC model (held; none by default)
   double max_rth_k_per_w = 1e4;
   int max_iterations = 200;
 };

@@ -6,27 +6,11 @@
 
 namespace junco::fitting {
 
-namespace {
-double limited_vj(const JunctionCap& cap) { return std::min(cap.vj_v, 1.0 / cap.fc); }  // ngspice limits VJ to 1/FC
-}  // namespace
-
 double junction_capacitance_f(const JunctionCap& cap, double v) { return depletion_charge(cap, v).c_f; }
 
 ChargeAt depletion_charge(const JunctionCap& cap, double v) {
   if (!(cap.cj0_f > 0.0)) return {};
-  const double vj = limited_vj(cap);
-  const double fcv = cap.fc * vj;
-  const double one_m = 1.0 - cap.m;
-  if (v < fcv) {
-    const double t = 1.0 - v / vj;
-    const double t_m = std::pow(t, -cap.m);
-    return {vj * cap.cj0_f * (1.0 - t * t_m) / one_m, cap.cj0_f * t_m};
-  }
-  const double f1 = vj * (1.0 - std::pow(1.0 - cap.fc, one_m)) / one_m;
-  const double f2 = std::pow(1.0 - cap.fc, 1.0 + cap.m);
-  const double f3 = 1.0 - cap.fc * (1.0 + cap.m);
-  const double q = cap.cj0_f * f1 + cap.cj0_f / f2 * (f3 * (v - fcv) + cap.m / (2.0 * vj) * (v * v - fcv * fcv));
-  return {q, cap.cj0_f / f2 * (f3 + cap.m * v / vj)};
+  return depletion_law(cap, v);
 }
 
 double junction_voltage_at_current_v(const DiodeParams& p, double i_a, double temp_k) {

@@ -15,6 +15,7 @@
 
 #include "fitting/diode.hpp"
 
+#include <cmath>
 #include <complex>
 
 namespace junco::fitting {
@@ -40,11 +41,35 @@ double junction_capacitance_f(const JunctionCap& cap, double v);
 
 // Depletion charge and capacitance at junction voltage v in one evaluation
 // (the distortion solve calls this millions of times). Q(0) = 0.
-struct ChargeAt {
-  double q_c = 0.0;
-  double c_f = 0.0;
+template <typename T>
+struct DepletionAt {
+  T q_c = T(0.0);
+  T c_f = T(0.0);
 };
+using ChargeAt = DepletionAt<double>;
 ChargeAt depletion_charge(const JunctionCap& cap, double v);
+
+// The law itself, for doubles and for the fits' dual numbers alike (the
+// electro-thermal fit differentiates Cj at the heated junction's voltage with
+// Ceres's Jets): the one home of the formula; depletion_charge and
+// junction_capacitance_f are this at T = double. cap.cj0_f must be > 0.
+template <typename T>
+DepletionAt<T> depletion_law(const JunctionCap& cap, const T& v) {
+  using std::pow;
+  const double vj = cap.vj_v < 1.0 / cap.fc ? cap.vj_v : 1.0 / cap.fc;  // ngspice limits VJ to 1/FC
+  const double fcv = cap.fc * vj;
+  const double one_m = 1.0 - cap.m;
+  if (v < fcv) {
+    const T t = 1.0 - v / vj;
+    const T t_m = pow(t, -cap.m);
+    return {vj * cap.cj0_f * (1.0 - t * t_m) / one_m, cap.cj0_f * t_m};
+  }
+  const double f1 = vj * (1.0 - std::pow(1.0 - cap.fc, one_m)) / one_m;
+  const double f2 = std::pow(1.0 - cap.fc, 1.0 + cap.m);
+  const double f3 = 1.0 - cap.fc * (1.0 + cap.m);
+  return {cap.cj0_f * f1 + cap.cj0_f / f2 * (f3 * (v - fcv) + cap.m / (2.0 * vj) * (v * v - fcv * fcv)),
+          cap.cj0_f / f2 * (f3 + cap.m * v / vj)};
+}
 
 // Junction voltage (RS excluded) at DC current i_a: N·Vt·ln(1 + I/IS) (no Rsh).
 double junction_voltage_at_current_v(const DiodeParams& p, double i_a, double temp_k);

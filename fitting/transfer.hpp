@@ -78,11 +78,12 @@ inline double to_db(std::complex<double> ratio) { return 20.0 * std::log10(std::
 
 // 20·log10|Vout/Vin| of the fixture for a diode Rs + (rj ∥ Cj ∥ TT·gd) in
 // series with the cathode's load z_load = RL ∥ Rr, omega_cj = ω·Cj (0: no
-// Cj), omega_tt = ω·TT (0: no stored charge; TT·gd·rj = TT). The same value
-// as to_db(fixture_gain(...)), written out in real arithmetic so the fits can
-// differentiate it with Ceres's dual numbers.
-template <typename T, typename U = double>
-T fixture_gain_db_of(const T& rj, const T& rs, double omega_cj, double z_load, const U& omega_tt = U(0.0)) {
+// Cj; a dual number too when Cj(V) follows the fitted junction, as in the
+// electro-thermal fit), omega_tt = ω·TT (0: no stored charge; TT·gd·rj = TT).
+// The same value as to_db(fixture_gain(...)), written out in real arithmetic
+// so the fits can differentiate it with Ceres's dual numbers.
+template <typename T, typename U = double, typename C = double>
+T fixture_gain_db_of(const T& rj, const T& rs, const C& omega_cj, double z_load, const U& omega_tt = U(0.0)) {
   using std::log10;
   const T a = omega_cj * rj + omega_tt;  // ω·(Cj·rj + TT)
   const T re = rs + rj / (1.0 + a * a) + z_load;

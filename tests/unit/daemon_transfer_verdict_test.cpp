@@ -41,6 +41,21 @@ TEST_CASE("transfer verdict of a junction part: agree, consistent once heating i
   CHECK(transfer_verdict(joint(false, 0.5, 0.01), fit_with_heating(0.60, 0.01), PartType::junction) == "DISAGREE");
 }
 
+TEST_CASE("transfer verdict when the electro-thermal AC model held the junction's charge") {
+  // The stored fit has a Cj(V) law (or a TT): juncod's electro-thermal AC
+  // model held it, the AC-alone line did not, so their Rs are not compared
+  // (the line's is biased high by the capacitance); the stored fit's own
+  // chi2 test, which made it "fitted", stands. Not used: DISAGREE as before.
+  FitRecord with_cap = fit_with_heating(0.60, 0.01);
+  with_cap.cj0_f = {2e-12, 1e-15};
+  CHECK(transfer_verdict(joint(false, 0.7, 0.01), with_cap, PartType::junction) == "consistent once heating is modelled");
+  FitRecord with_tt = fit_with_heating(0.60, 0.01);
+  with_tt.tt_s = {4e-9, 1e-11};
+  CHECK(transfer_verdict(joint(false, 0.7, 0.01), with_tt, PartType::junction) == "consistent once heating is modelled");
+  with_cap.electrothermal->status = "not_used";
+  CHECK(transfer_verdict(joint(false, 0.7, 0.01), with_cap, PartType::junction) == "DISAGREE");
+}
+
 TEST_CASE("transfer verdict of a PIN part names the PIN law, whatever the junction model's fit says") {
   for (const bool agree : {true, false}) {
     const std::string v = transfer_verdict(joint(agree, 0.5, 0.01), fit_with_heating(0.52, 0.01), PartType::pin);

@@ -188,3 +188,107 @@ TEST_CASE("fit_run_electrothermal: fits with AC readings, sizes the heating bias
   CHECK(per_100 == Approx((t.rs_ohm - dc_only.fit.apparent_rs_ohm.value) / 4.0).epsilon(0.1));  // 0.1100 vs 0.1097 here
   CHECK(electrothermal_run_json(dc_only, o)["rth_k_per_w"]["value"].is_null());
 }
+
+// ---- Stored charge in the AC model ------------------------------------------
+//
+// A heated junction with a transit time and a depletion law, read at 1, 10,
+// 30 and 100 MHz (TT 4 ns: corner 1/(2π·TT) ≈ 40 MHz). The truth's AC
+// readings come from this test's own std::complex divider of the junction in
+// the charge-control linearisation, Z = Rs + 1/(gd + jω(Cdep(Vd) + TT·gd)) with
+// gd = (I + Is(Tj))/(n·Vt(Tj)) and Vd = n·Vt(Tj)·ln(1 + I/Is(Tj)) at the
+// bisected Tj (docs/references.md §2 and §8: Cd = TT·gd, ngspice manual's
+// diode model), and Cdep the SPICE depletion law as ngspice dioload.c writes
+// it, coded here from docs/references.md §2: CJO·(1 − V/VJ)^−M below FC·VJ,
+// CJO/(1 − FC)^(1+M)·(1 − FC·(1 + M) + M·V/VJ) above.
+
+namespace {
+
+struct ChargeTruth {
+  Truth dc;
+  double tt_s = 4e-9, cj0_f = 2e-12, vj_v = 0.7, m = 0.4, fc = 0.5;
+};
+
+double cdep_f(const ChargeTruth& t, double v) {
+  if (v < t.fc * t.vj_v) return t.cj0_f * std::pow(1.0 - v / t.vj_v, -t.m);
+  return t.cj0_f / std::pow(1.0 - t.fc, 1.0 + t.m) * (1.0 - t.fc * (1.0 + t.m) + t.m * v / t.vj_v);
+}
+
+// 50 DC points as make_readings; AC readings at 12 biases 0.5..50 mA × 4 frequencies.
+Readings make_charge_readings(const ChargeTruth& t, bool noise, unsigned seed) {
+  Readings r = make_readings(t.dc, noise, seed);
+  r.ac.clear();
+  std::mt19937_64 rng(seed + 1000);
+  std::normal_distribution<double> g(0.0, 1.0);
+  for (int k = 0; k < 12; ++k) {
+    const double i = 5e-4 * std::pow(100.0, k / 11.0), tj = tj_at(t.dc, i);
+    const double nvt = t.dc.n * k_b * tj / q_e, is = is_at(t.dc, tj);
+    const double gd = (i + is) / nvt, vd = nvt * std::log(1.0 + i / is);
+    for (double f : {1e6, 1e7, 3e7, 1e8}) {
+      const double w = 2.0 * M_PI * f;
+      const std::complex<double> z = t.dc.rs_ohm + 1.0 / std::complex<double>(gd, w * (cdep_f(t, vd) + t.tt_s * gd));
+      double db = 20.0 * std::log10(std::abs(50.0 / (z + 50.0)));
+      if (noise) db += 0.01 * g(rng);
+      AcPoint p;
+      p.bias_i_a = i;
+      p.freq_hz = f;
+      p.vin = 0.002;
+      p.vout = 0.002 * std::pow(10.0, db / 20.0);
+      r.ac.push_back(p);
+    }
+  }
+  return r;
+}
+
+ElectroThermalOptions charge_options(const ChargeTruth& t) {
+  ElectroThermalOptions o;
+  o.ambient_k = t.dc.ambient_k;
+  o.charge.cap = {t.cj0_f, t.vj_v, t.m, t.fc};
+  o.charge.tt_s = t.tt_s;
+  return o;
+}
+
+}  // namespace
+
+TEST_CASE("TT 4 ns and Cj(V): exact heated readings give back Rs and Rth only with the charge in the AC model") {
+  const ChargeTruth t;
+  const auto r = make_charge_readings(t, false, 41);
+  const auto f = fit_electrothermal(r.dc, r.ac, fixture_50(), charge_options(t));
+  INFO(f.message << " Rs " << f.rs_ohm.value << " Rth " << f.rth_k_per_w.value << " n " << f.n.value << " chi2r " << f.reduced_chi2);
+  REQUIRE(f.ok);
+  CHECK(f.rs_ohm.value == Approx(t.dc.rs_ohm).epsilon(1e-6));
+  CHECK(f.rth_k_per_w.value == Approx(t.dc.rth_k_per_w).epsilon(1e-6));
+  CHECK(f.n.value == Approx(t.dc.n).epsilon(1e-7));
+  CHECK(f.is_a.value == Approx(t.dc.is_a).epsilon(1e-6));
+
+  // The same readings with the AC model of before (rd ∥ nothing): the
+  // readings above the corner read as a smaller rd, and the fit cannot
+  // describe them.
+  ElectroThermalOptions bare;
+  bare.ambient_k = t.dc.ambient_k;
+  const auto b = fit_electrothermal(r.dc, r.ac, fixture_50(), bare);
+  INFO("without the charge: Rs " << b.rs_ohm.value << " Rth " << b.rth_k_per_w.value << " n " << b.n.value << " chi2r "
+                                 << b.reduced_chi2);
+  CHECK(b.reduced_chi2 > 1e3);
+  CHECK(std::abs(b.rth_k_per_w.value - t.dc.rth_k_per_w) > 0.1 * t.dc.rth_k_per_w);
+  // The depletion law alone (no TT) is not enough either: TT·gd is what moves with the current.
+  ElectroThermalOptions cap_only = charge_options(t);
+  cap_only.charge.tt_s = 0.0;
+  const auto c = fit_electrothermal(r.dc, r.ac, fixture_50(), cap_only);
+  CHECK(c.reduced_chi2 > 1e3);
+}
+
+TEST_CASE("TT 4 ns and Cj(V): noisy heated readings at 400 K/W, Rs within 5 % and 3 standard errors") {
+  const ChargeTruth t;
+  for (unsigned seed : {51u, 52u, 53u}) {
+    const auto r = make_charge_readings(t, true, seed);
+    const auto f = fit_electrothermal(r.dc, r.ac, fixture_50(), charge_options(t));
+    INFO("seed " << seed << ": " << f.message << " Rs " << f.rs_ohm.value << " ± " << f.rs_ohm.std_error << ", Rth "
+                 << f.rth_k_per_w.value << " ± " << f.rth_k_per_w.std_error << ", chi2r " << f.reduced_chi2);
+    REQUIRE(f.ok);
+    CHECK(std::abs(f.rs_ohm.value - t.dc.rs_ohm) < 0.05 * t.dc.rs_ohm);
+    CHECK(std::abs(f.rs_ohm.value - t.dc.rs_ohm) < 3 * f.rs_ohm.std_error);
+    CHECK(std::abs(f.rth_k_per_w.value - t.dc.rth_k_per_w) < 3 * f.rth_k_per_w.std_error);
+    CHECK(std::abs(f.n.value - t.dc.n) < 3 * f.n.std_error);
+    CHECK(f.reduced_chi2 == Approx(1.0).margin(0.5));
+  }
+}
