@@ -124,6 +124,11 @@ TEST_CASE("forward vector readings of a PIN part give its law R0 + K*I^-x and li
   CHECK(val(fw["k_ohm_a_x"]) == Approx(k_true).epsilon(0.03));
   CHECK(val(fw["x"]) == Approx(1.0).margin(0.03));
   CHECK(val(fw["r0_ohm"]) == Approx(r0_true).margin(0.05));
+  // Below the knee the part is a junction, rd = N·Vt/I (for x = 1 the
+  // I-region's DC drop does not vary with I): an I-region read there as
+  // a resistance would show as a larger N.
+  CHECK(val(fw["n"]) == Approx(truth["n"].get<double>()).epsilon(0.03));
+  within_sigma(fw["n"], truth["n"].get<double>());
   within_sigma(fw["tau_s"], tau_true);
   within_sigma(fw["k_ohm_a_x"], k_true);
   within_sigma(fw["x"], 1.0);
@@ -136,7 +141,10 @@ TEST_CASE("forward vector readings of a junction part give RS, N and TT, and agr
   const std::string config = sim_config(R"({"cj0_f": 2e-12, "vj_v": 0.7, "m": 0.5, "rs_ohm": 0.7, "n": 1.85, "is_a": 2.5e-9, "tt_s": 5e-9})");
   test::BenchDaemon b("vector-fwd-junction", {"--settle-ms", "0", "--seed", "37", "--config", config}, options());
   std::remove(config.c_str());
-  b.run_plan(forward_plan("junction"));
+  Json plan = forward_plan("junction");
+  // Level readings too, 1–100 MHz: the run's own TT fit (detail.stored_charge) to compare with.
+  plan["ac"] = {{"freqs_hz", {1e6, 1e7, 3e7, 1e8}}, {"amplitude", 0.002}, {"unit", "vrms"}, {"settle_s", 0}};
+  b.run_plan(plan);
   const Json truth = b.sim().control("lot?")["parts"][0];
   const Json fit = b.result("part.fit", {{"part_id", 1}});
   CHECK(test::schema_problem(test::api_schema("part.fit")["result"], fit) == "");
@@ -163,5 +171,9 @@ TEST_CASE("forward vector readings of a junction part give RS, N and TT, and agr
   CHECK(std::abs(fw["against_fit"]["rs_ohm"]["z"].get<double>()) < 4.0);
   CHECK(std::abs(fw["against_fit"]["n"]["z"].get<double>()) < 4.0);
   CHECK(val(fw["against_fit"]["n"]["fit"]) == Approx(val(fit["n"])).epsilon(1e-12));
+  // And the AC level readings' TT (the stored-charge fit) the same TT.
+  REQUIRE(fw["against_fit"]["tt_s"].is_object());
+  CHECK(val(fw["against_fit"]["tt_s"]["fit"]) == Approx(val(fit["tt_s"])).epsilon(1e-12));
+  CHECK(std::abs(fw["against_fit"]["tt_s"]["z"].get<double>()) < 4.0);
   check_forward_readings(b);
 }
