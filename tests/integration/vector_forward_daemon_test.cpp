@@ -135,6 +135,13 @@ TEST_CASE("forward vector readings of a PIN part give its law R0 + K*I^-x and li
   within_sigma(fw["r0_ohm"], r0_true);
   CHECK(fw["above_knee"].get<long>() >= 24);
   check_forward_readings(b);
+
+  // A clean stop and a new juncod on the same database (migration 0012's
+  // table): the same readings, bit for bit, and the same stored fit.
+  const Json before = b.result("part.readings", {{"part_id", 1}});
+  b.restart();
+  CHECK(b.result("part.readings", {{"part_id", 1}})["points"] == before["points"]);
+  CHECK(b.result("part.fit", {{"part_id", 1}})["package"]["forward"] == fw);
 }
 
 TEST_CASE("forward vector readings of a junction part give RS, N and TT, and agree with the run's DC fit", "[daemon][vector]") {
