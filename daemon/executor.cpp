@@ -79,6 +79,7 @@ struct RunFit {
   std::optional<JunctionCapReport> cap_report;          // what is stored of cap, with each reading's outcome
   std::optional<ElectrothermalReport> electrothermal;  // detail.electrothermal
   MoreReports more;  // detail.heating, detail.stored_charge, detail.pin, detail.package
+  std::optional<VectorRunFit> vector;  // becomes detail.package once the forward readings are compared (fit_run)
 };
 
 // The run's junction capacitance law (off-state or vector readings) as the
@@ -286,14 +287,28 @@ void apply_heating(const Config& cfg, double temp_k, const std::vector<PointRow>
 // junction capacitance law in place of the one from the level readings (their
 // magnitudes carry the package and the fixture unseparated): the TT fit
 // after it takes this law.
-void apply_vector(const RunFixture& fixture, const std::vector<PointRow>& points, RunFit& out) {
-  const auto v = vector_fit_of_run(points, fixture);
+//
+// The forward_vector readings are fitted there too (package.forward): a PIN
+// part's law and lifetime, or a junction part's RS, N and TT, compared with
+// the DC and AC fits once those are made (compare_forward_vector). A PIN
+// part keeps the Cj(V) law of its level readings (its reverse readings give
+// the package only).
+void apply_vector(double temp_k, const RunFixture& fixture, const std::vector<PointRow>& points, bool pin, RunFit& out) {
+  ForwardContext ctx;
+  ctx.pin = pin;
+  ctx.temp_k = temp_k;
+  if (out.fit.usable()) ctx.dc = out.fit.params();
+  if (out.cap && out.cap->ok) ctx.cap = cap_law_of(out);
+  out.vector = vector_fit_of_run(points, fixture, ctx);
+  const auto& v = out.vector;
   if (!v) return;
-  out.more.package = *v;
+  if (v->forward && !v->forward->fit.ok)
+    out.fit.warnings.push_back(std::string(pin ? "PIN law" : "RS, N and TT") + " not fitted from the forward vector readings: " + v->forward->fit.message);
   if (!v->package.ok) {
     out.fit.warnings.push_back("package not fitted from the vector readings: " + v->package.message);
     return;
   }
+  if (pin) return;
   if (!v->cap || !v->cap->ok) {
     out.fit.warnings.push_back("junction capacitance not fitted from the vector readings: " + (v->cap ? v->cap->message : std::string("no usable reading")));
     return;
@@ -303,6 +318,32 @@ void apply_vector(const RunFixture& fixture, const std::vector<PointRow>& points
   out.cap_report->message = "from " + std::to_string(v->cap->points_used) + " vector readings" +
                             (v->deembedded ? ", open/short de-embedded" : "") + ", package Ls and Cp fitted and removed" +
                             (v->cap->message.empty() ? "" : "; " + v->cap->message);
+}
+
+// A junction part's RS, N and TT from the forward vector readings against
+// the run's DC fit (RS, N) and AC fit (TT, detail.stored_charge): the
+// difference over its combined standard error (the two fits share no
+// reading, so their errors add in quadrature).
+void compare_forward_vector(RunFit& out) {
+  if (!out.vector || !out.vector->forward || out.vector->forward->pin || !out.vector->forward->fit.ok) return;
+  ForwardVectorFit& fw = *out.vector->forward;
+  const auto compared = [](const fitting::Estimate& vector, const fitting::Estimate& other) {
+    ForwardVectorFit::Compared c{other};
+    const double u2 = vector.std_error * vector.std_error + other.std_error * other.std_error;
+    if (std::isfinite(other.value) && std::isfinite(u2) && u2 > 0) c.z = (vector.value - other.value) / std::sqrt(u2);
+    return c;
+  };
+  if (out.fit.usable()) {
+    fw.rs_ohm = compared(fw.fit.r0_ohm, out.fit.rs_ohm);
+    fw.n = compared(fw.fit.n, out.fit.n);
+  }
+  if (out.more.stored_charge && out.more.stored_charge->ok) fw.tt_s = compared(fw.fit.tau_s, out.more.stored_charge->tt_s);
+  for (const auto& [name, c] : {std::pair{"RS", fw.rs_ohm}, std::pair{"N", fw.n}, std::pair{"TT", fw.tt_s}})
+    if (c && std::isfinite(c->z) && std::fabs(c->z) > 4.0) {
+      char line[200];
+      std::snprintf(line, sizeof line, "the forward vector readings' %s differs from the run's fit by %.1f standard errors", name, c->z);
+      out.fit.warnings.emplace_back(line);
+    }
 }
 
 RunFit fit_run(const Config& cfg, double temp_k, const RunFixture& fixture, const std::vector<PointRow>& points,
@@ -333,8 +374,8 @@ RunFit fit_run(const Config& cfg, double temp_k, const RunFixture& fixture, cons
     out.cap_report.reset();
     out.fit.warnings.push_back(std::string("junction capacitance not fitted: ") + e.what());
   }
-  if (!pin) try {
-    apply_vector(fixture, points, out);
+  try {
+    apply_vector(temp_k, fixture, points, pin, out);
   } catch (const std::exception& e) {
     out.fit.warnings.push_back(std::string("vector readings not analysed: ") + e.what());
   }
@@ -364,6 +405,12 @@ RunFit fit_run(const Config& cfg, double temp_k, const RunFixture& fixture, cons
     } catch (const std::exception& e) {
       out.fit.warnings.push_back(std::string("heating readings not analysed: ") + e.what());
     }
+  }
+  // After the electro-thermal fit: a heated part's RS and N are compared in
+  // their isothermal values.
+  if (out.vector) {
+    compare_forward_vector(out);
+    out.more.package = *out.vector;
   }
   return out;
 }
@@ -546,7 +593,7 @@ class JobRun {
       bench_.source->set_voltage_v(0.0);
       bench_.source->set_output(true);
     });
-    biased_index_ = reversed_index_ = -1;
+    biased_index_ = reversed_index_ = forward_vector_index_ = -1;
     siggen_on_ = false;
     source_on_ = true;
     pulse_index_ = -1;
@@ -566,7 +613,10 @@ class JobRun {
     const bool reverse = is_reverse(step.kind);
     // A new bias step begins (a pulse's dwell readings belong to its step:
     // no commit between them, it would shift their timing).
-    if ((step.kind == Step::Kind::dc && step.series != Series::dwell) || step.kind == Step::Kind::reverse) commit_pending();
+    // A forward_vector step begins one when its current differs from the previous step's.
+    const bool new_forward_vector = step.kind == Step::Kind::forward_vector &&
+                                    (seq == 0 || steps_[seq - 1].kind != Step::Kind::forward_vector || steps_[seq - 1].dc_index != step.dc_index);
+    if ((step.kind == Step::Kind::dc && step.series != Series::dwell) || step.kind == Step::Kind::reverse || new_forward_vector) commit_pending();
     poll();
     if (stopped_high_ && !reverse) {
       ++skipped_;
@@ -616,7 +666,7 @@ class JobRun {
              (retry ? " (retrying, attempt " + std::to_string(attempt) + ")" : ""));
         if (!retry)
           throw JobStop{JobStop::Why::fault, describe(e) + " (part " + part_label_ + ", after " + std::to_string(attempt) + " attempts)"};
-        biased_index_ = reversed_index_ = -1;  // re-establish the bias on the next attempt
+        biased_index_ = reversed_index_ = forward_vector_index_ = -1;  // re-establish the bias on the next attempt
         pulse_index_ = -1;                     // and a pulse from cold
         if (!queue_.sleep_for(std::chrono::milliseconds(50 * attempt))) poll();
       }
@@ -628,7 +678,7 @@ class JobRun {
     p.kind = to_string(step.kind);
     p.set_value = step.set_value;
     const bool reverse = is_reverse(step.kind);
-    p.set_unit = (!reverse && plan_.sweep.mode == SweepMode::current) ? "A" : "V";
+    p.set_unit = step.kind == Step::Kind::forward_vector || (!reverse && plan_.sweep.mode == SweepMode::current) ? "A" : "V";
     p.series = to_string(step.series);
     if (is_vector(step.kind)) {
       take_vector(step, p);
@@ -700,19 +750,43 @@ class JobRun {
   // --- vector readings (plan.vector) ---------------------------------------
 
   // A standard's step: its slot connected with the supply off; a
-  // reverse_vector step: the part's slot at the step's reverse bias. Then the
-  // transfer at the step's frequency.
+  // reverse_vector step: the part's slot at the step's reverse bias; a
+  // forward_vector step: the part's slot carrying the step's current. Then
+  // the transfer at the step's frequency.
   void take_vector(const Step& step, PointRow& p) {
     if (!bench_.vectormeter || !bench_.siggen)
       throw JobStop{JobStop::Why::fault, "plan.vector needs a vectormeter and a siggen in the bench config (bench.vectormeter, bench.siggen)"};
     if (step.kind == Step::Kind::reverse_vector) {
       if (connected_slot_ != part_slot_) back_to_part();
       if (reversed_index_ != step.dc_index) reverse_bias(step);  // resumed into the vector part of a reverse step
+    } else if (step.kind == Step::Kind::forward_vector) {
+      if (connected_slot_ != part_slot_) back_to_part();
+      if (forward_vector_index_ != step.dc_index) forward_vector_bias(step);
+      // Each reading carries the DC reading that set its bias: the current
+      // the part really carried (the fit's I) and its flags (a current limit
+      // stops the forward steps, as in the sweep).
+      p.v = forward_bias_.v;
+      p.i_a = forward_bias_.i_a;
+      p.flags |= forward_bias_.flags;
     } else {
       const int slot = step.kind == Step::Kind::vector_open ? plan_.vector->open_slot : plan_.vector->short_slot;
       if (connected_slot_ != slot) switch_slot(slot);
     }
     read_transfer(step, p);
+  }
+
+  // The supply in current mode at a forward_vector step's current, read
+  // with the generator off (as every DC reading), as the sweep sets its
+  // current steps (target_current: bounded corrections, the compliance).
+  void forward_vector_bias(const Step& step) {
+    if (siggen_on_) {
+      bench_.siggen->set_output(false);
+      siggen_on_ = false;
+    }
+    forward_bias_ = PointRow{};
+    target_current(step.set_value, forward_bias_, false);
+    biased_index_ = reversed_index_ = -1;
+    forward_vector_index_ = step.dc_index;
   }
 
   // Relays are switched with no current flowing (the safety order): the
@@ -816,6 +890,7 @@ class JobRun {
   // The supply's output off between pulses (the safety order keeps the
   // current limit and the scanner as they are; the next step turns it on).
   void end_pulse() {
+    forward_vector_index_ = -1;
     if (source_on_) {
       bench_.source->set_output(false);
       source_on_ = false;
@@ -875,6 +950,7 @@ class JobRun {
   void set_supply(double v) {
     const double hi = cfg_.safety.max_supply_v, lo = -std::min(cfg_.safety.max_reverse_v, cfg_.safety.max_supply_v);
     v = std::clamp(v, lo, hi);
+    forward_vector_index_ = -1;  // forward_vector_bias sets it again once its current is reached
     bench_.source->set_voltage_v(v);
     supply_v_ = v;
   }
@@ -986,6 +1062,8 @@ class JobRun {
   Clock::time_point pulse_start_{};
   int biased_index_ = -1;    // the forward step the supply is at, -1 = none or unknown
   int reversed_index_ = -1;  // the reverse_v point the supply is at, -1 = none or unknown
+  int forward_vector_index_ = -1;  // the forward_i_a current the supply carries, -1 = none or unknown
+  PointRow forward_bias_;          // the DC reading that set it
   double siggen_amplitude_ = 0;  // as last programmed (valid while siggen_on_)
   bool vector_level_set_ = false;  // the generator carries plan.vector's amplitude (valid while siggen_on_)
   int part_slot_ = 0, connected_slot_ = 0;  // the part's slot, and the one the scanner connects (a standard's, -1 unknown)

@@ -110,7 +110,7 @@ AcSpec parse_ac(const Json& a) {
 
 VectorSpec parse_vector(const Json& v) {
   const std::string f = "plan.vector";
-  only_keys(v, f, {"freqs_hz", "amplitude", "unit", "settle_s", "standards"});
+  only_keys(v, f, {"freqs_hz", "amplitude", "unit", "settle_s", "standards", "forward_i_a"});
   VectorSpec out;
   const Json& freqs = need(v, "freqs_hz", f);
   if (!freqs.is_array()) bad(f + ".freqs_hz", std::string("must be an array, not ") + freqs.type_name());
@@ -126,6 +126,11 @@ VectorSpec parse_vector(const Json& v) {
     only_keys(v["standards"], g, {"open_slot", "short_slot"});
     out.open_slot = integer(need(v["standards"], "open_slot", g), g + ".open_slot");
     out.short_slot = integer(need(v["standards"], "short_slot", g), g + ".short_slot");
+  }
+  if (v.contains("forward_i_a") && !v["forward_i_a"].is_null()) {
+    const Json& fi = v["forward_i_a"];
+    if (!fi.is_array()) bad(f + ".forward_i_a", std::string("must be an array of currents in A, not ") + fi.type_name());
+    for (std::size_t i = 0; i < fi.size(); ++i) out.forward_i_a.push_back(number(fi[i], f + ".forward_i_a[" + std::to_string(i) + "]"));
   }
   return out;
 }
@@ -203,15 +208,19 @@ const char* to_string(Step::Kind kind) {
     case Step::Kind::reverse_vector: return "reverse_vector";
     case Step::Kind::vector_open: return "vector_open";
     case Step::Kind::vector_short: return "vector_short";
+    case Step::Kind::forward_vector: return "forward_vector";
   }
   return "?";
 }
 
 bool is_vector(Step::Kind kind) {
-  return kind == Step::Kind::reverse_vector || kind == Step::Kind::vector_open || kind == Step::Kind::vector_short;
+  return kind == Step::Kind::reverse_vector || kind == Step::Kind::vector_open || kind == Step::Kind::vector_short ||
+         kind == Step::Kind::forward_vector;
 }
 
-bool is_reverse(Step::Kind kind) { return kind == Step::Kind::reverse || kind == Step::Kind::reverse_ac || is_vector(kind); }
+bool is_reverse(Step::Kind kind) {
+  return kind == Step::Kind::reverse || kind == Step::Kind::reverse_ac || (is_vector(kind) && kind != Step::Kind::forward_vector);
+}
 
 bool uses_siggen(Step::Kind kind) { return kind == Step::Kind::ac || kind == Step::Kind::reverse_ac || is_vector(kind); }
 
@@ -271,7 +280,8 @@ double steps_per_part(const Plan& p) {
   const double forward = count + (count - pulsed) * n_ac + (p.heating.dwell ? 2.0 * pulsed : 0.0) + (p.heating.down_sweep ? count : 0.0);
   const double n_vec = p.vector ? static_cast<double>(p.vector->freqs_hz.size()) : 0.0;
   const double standards = p.vector && p.vector->standards() ? 2.0 * n_vec : 0.0;
-  return forward + static_cast<double>(p.reverse_v.size()) * (1.0 + n_off + n_vec) + standards;
+  const double forward_vector = p.vector ? static_cast<double>(p.vector->forward_i_a.size()) * n_vec : 0.0;
+  return forward + static_cast<double>(p.reverse_v.size()) * (1.0 + n_off + n_vec) + standards + forward_vector;
 }
 
 int temperature_count(const Plan& p) { return p.temps_k.empty() ? 1 : static_cast<int>(p.temps_k.size()); }
@@ -347,6 +357,44 @@ void check_heating(const Plan& p) {
   }
 }
 
+// plan.vector.forward_i_a: every current within the same limits as a
+// current sweep's highest step (compliance, current_limit_a, max_power_w at
+// vf_max_v, max_supply_v across the fixture's DC resistance), and the
+// signal's peak current through the slot (at most amplitude peak over
+// source + load) below the smallest of them: beyond it the junction would
+// switch off on the signal's troughs, and the reading would be no
+// small-signal impedance (physics, no source needed).
+void check_forward_vector(const Plan& p, const Config& c) {
+  const VectorSpec& v = *p.vector;
+  if (v.forward_i_a.empty()) return;
+  const SafetyLimits& lim = c.safety;
+  if (v.forward_i_a.size() > 100) refuse("plan.vector.forward_i_a lists " + std::to_string(v.forward_i_a.size()) + " currents, at most 100");
+  const double i_lim = compliance_a(p, c), r_total = c.fixture.bias_resistor_ohm + c.fixture.dc_return_ohm;
+  for (std::size_t k = 0; k < v.forward_i_a.size(); ++k) {
+    const double i = v.forward_i_a[k];
+    const std::string field = "plan.vector.forward_i_a[" + std::to_string(k) + "]";
+    if (!(i > 0)) refuse(field + " " + num(i) + " A must be > 0 (reverse biases go in reverse_v)", "", field);
+    if (i > lim.current_limit_a)
+      refuse(field + " " + num(i) + " A exceeds safety limit current_limit_a = " + num(lim.current_limit_a) + " A", "current_limit_a", field);
+    if (i > i_lim) refuse(field + " " + num(i) + " A exceeds the plan's compliance_a = " + num(i_lim) + " A", "", field);
+    if (p.vf_max_v * i > lim.max_power_w)
+      refuse(field + " " + num(i) + " A may put " + num(p.vf_max_v * i) + " W in the part (vf_max_v " + num(p.vf_max_v) + " V × " + num(i) +
+                 " A), exceeding safety limit max_power_w = " + num(lim.max_power_w) + " W",
+             "max_power_w", field);
+    if (i * r_total > lim.max_supply_v)
+      refuse(field + " " + num(i) + " A needs at least " + num(i * r_total) + " V across " + num(r_total) + " Ω, exceeding safety limit max_supply_v = " +
+                 num(lim.max_supply_v) + " V",
+             "max_supply_v", field);
+  }
+  const double peak_v = v.unit == drivers::LevelUnit::vrms ? v.amplitude * std::sqrt(2.0) : v.amplitude / 2.0;
+  const double signal_a = peak_v / std::max(1.0, c.fixture.source_ohm + c.fixture.load_ohm);
+  const double least_a = *std::min_element(v.forward_i_a.begin(), v.forward_i_a.end());
+  if (signal_a >= least_a)
+    refuse("plan.vector amplitude peak " + num(peak_v) + " V drives up to " + num(signal_a) + " A through the slot, not below the smallest forward_i_a " +
+               num(least_a) + " A: the part would switch off on the signal's troughs",
+           "", "plan.vector.forward_i_a");
+}
+
 // plan.vector: the roles it needs (named, so a bench without them says
 // which is missing), its frequencies and amplitude, the reverse biases it
 // reads at, and the standards' slots.
@@ -382,6 +430,7 @@ void check_vector(const Plan& p, const Config& c) {
     }
     if (v.open_slot == v.short_slot) refuse("plan.vector.standards open_slot and short_slot are both " + std::to_string(v.open_slot));
   }
+  check_forward_vector(p, c);
 }
 
 }  // namespace
@@ -543,6 +592,12 @@ std::vector<Step> expand_steps(const Plan& plan) {
   }
   if (plan.heating.down_sweep)
     for (int k = n - 1; k >= 0; --k) steps.push_back({Step::Kind::dc, k, values[k], 0, Series::down, is_pulsed(plan, values[k]), 0});
+  // The forward vector readings after the sweep, before the part is
+  // reverse biased: each current set once, every frequency read at it.
+  if (plan.vector)
+    for (std::size_t k = 0; k < plan.vector->forward_i_a.size(); ++k)
+      for (double f : plan.vector->freqs_hz)
+        steps.push_back({Step::Kind::forward_vector, static_cast<int>(k), plan.vector->forward_i_a[k], f});
   for (std::size_t k = 0; k < plan.reverse_v.size(); ++k) {
     const int index = static_cast<int>(k);
     steps.push_back({Step::Kind::reverse, index, -plan.reverse_v[k], 0});
@@ -559,7 +614,10 @@ double min_duration_s(const Plan& p) {
   const double n_off = p.ac && p.ac->off_state ? static_cast<double>(p.ac->off_state->freqs_hz.size()) : 0.0;
   const double count = p.sweep.count, pulsed = pulsed_steps(p), ac_s = p.ac ? p.ac->settle_s : 0.0;
   const double n_vec = p.vector ? static_cast<double>(p.vector->freqs_hz.size()) : 0.0;
-  const double vector_s = p.vector ? n_vec * p.vector->settle_s * (static_cast<double>(p.reverse_v.size()) + (p.vector->standards() ? 2.0 : 0.0)) : 0.0;
+  const double vector_s =
+      p.vector ? n_vec * p.vector->settle_s * (static_cast<double>(p.reverse_v.size()) + (p.vector->standards() ? 2.0 : 0.0)) +
+                     static_cast<double>(p.vector->forward_i_a.size()) * (p.sweep.settle_s + n_vec * p.vector->settle_s)
+               : 0.0;
   // A pulsed step waits off_s, then on_s (or long_s with the dwells) in
   // place of settle_s, and takes no AC readings.
   const double pulse_s =
@@ -612,6 +670,7 @@ Json to_json(const Plan& p) {
                    {"unit", p.vector->unit == drivers::LevelUnit::vrms ? "vrms" : "vpp"},
                    {"settle_s", p.vector->settle_s}};
     if (p.vector->standards()) j["vector"]["standards"] = {{"open_slot", p.vector->open_slot}, {"short_slot", p.vector->short_slot}};
+    if (!p.vector->forward_i_a.empty()) j["vector"]["forward_i_a"] = p.vector->forward_i_a;
   }
   if (p.ac && p.ac->off_state) j["ac"]["off_state"] = {{"freqs_hz", p.ac->off_state->freqs_hz}, {"amplitude", p.ac->off_state->amplitude}};
   return j;

@@ -62,6 +62,11 @@ struct AcSpec {
 // standards, so a run is de-embedded from its own readings (no calibration
 // kept apart from the readings it corrects). The fit turns them into the
 // package's Ls and Cp and the chip's Cj(V) (fitting/deembed.hpp).
+// forward_i_a: also the transfer at these forward currents (the supply set
+// in current mode, as for the sweep's current steps), every frequency each:
+// the on-state impedance, from which the PIN law and lifetime (a PIN part)
+// or RS, N and TT (a junction part) are fitted with the package removed
+// (daemon/vector_analysis.hpp).
 struct VectorSpec {
   std::vector<double> freqs_hz;
   double amplitude = 0.0;
@@ -69,6 +74,7 @@ struct VectorSpec {
   double settle_s = 0.01;  // after each frequency change
   int open_slot = 0;       // 0 = no open standard read
   int short_slot = 0;      // 0 = no short standard read
+  std::vector<double> forward_i_a;  // forward bias currents (A) of the forward_vector readings; empty = none
   bool standards() const { return open_slot > 0 && short_slot > 0; }
 };
 
@@ -136,10 +142,13 @@ enum class Series : unsigned char { up, dwell, down };
 
 struct Step {
   // vector_open / vector_short: a fixture standard (plan.vector), read with
-  // the supply off; reverse_vector: the transfer at a reverse_v point.
-  enum class Kind { dc, ac, reverse, reverse_ac, reverse_vector, vector_open, vector_short } kind = Kind::dc;
-  int dc_index = 0;      // which forward step (dc and ac), or which reverse_v point (reverse, reverse_ac, reverse_vector)
-  double set_value = 0;  // V or A for dc/ac (by mode); −|V| for reverse and reverse_ac
+  // the supply off; reverse_vector: the transfer at a reverse_v point;
+  // forward_vector: the transfer at a plan.vector.forward_i_a current.
+  enum class Kind { dc, ac, reverse, reverse_ac, reverse_vector, vector_open, vector_short, forward_vector } kind = Kind::dc;
+  // Which forward step (dc and ac), which reverse_v point (reverse,
+  // reverse_ac, reverse_vector) or which forward_i_a current (forward_vector).
+  int dc_index = 0;
+  double set_value = 0;  // V or A for dc/ac (by mode); −|V| for reverse and reverse_ac; A for forward_vector
   double freq_hz = 0;    // ac, reverse_ac and the vector kinds
   Series series = Series::up;  // dc only
   bool pulsed = false;         // dc only: read in a pulse from cold (heating.pulse)
@@ -180,7 +189,8 @@ const char* to_string(Step::Kind kind);
 // The kinds read with the generator on (levels or transfer).
 bool uses_siggen(Step::Kind kind);
 bool is_vector(Step::Kind kind);
-// The kinds set in volts at a reverse bias (reverse, reverse_ac, the vector kinds).
+// The kinds set in volts at a reverse bias or with the supply off (reverse,
+// reverse_ac, reverse_vector and the standards; not forward_vector).
 bool is_reverse(Step::Kind kind);
 const char* to_string(Series series);
 // heating.pulse.from as it applies: the plan's value, or the top decade.

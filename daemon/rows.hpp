@@ -218,7 +218,7 @@ inline constexpr int kLimitFlags = flag_current_limit | flag_power_limit;
 struct PointRow {
   Id run_id = 0;
   long seq = 0;
-  std::string kind = "dc";  // dc, ac, reverse, reverse_ac, reverse_vector, vector_open, vector_short
+  std::string kind = "dc";  // dc, ac, reverse, reverse_ac, reverse_vector, vector_open, vector_short, forward_vector
   double set_value = 0.0;
   std::string set_unit = "V";
   double supply_v = kNaN;

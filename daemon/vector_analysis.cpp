@@ -4,6 +4,7 @@
 #include <cmath>
 #include <complex>
 #include <map>
+#include <set>
 #include <numbers>
 
 namespace junco::daemon {
@@ -49,9 +50,50 @@ fitting::JunctionCapFit law_without(const std::vector<fitting::PackagedOffReadin
   return fitting::fit_junction_cap_values(caps);
 }
 
+// The forward_vector readings as the chip's impedance at (I, f): the run's
+// open and short removed where read at the frequency, the package removed
+// when its fit is ok; then the law fitted (fitting::fit_pin_impedance).
+ForwardVectorFit forward_fit(const std::vector<PointRow>& points, double z_load, const std::map<double, cplx>& open,
+                             const std::map<double, cplx>& shorts, const VectorRunFit& v, const ForwardContext& ctx) {
+  ForwardVectorFit out;
+  out.pin = ctx.pin;
+  out.package_removed = v.package.ok;
+  // The depletion law at forward bias (a junction part): the vector one, else the level readings'.
+  std::optional<fitting::JunctionCap> cap = ctx.cap;
+  if (v.cap && v.cap->ok) cap = fitting::JunctionCap{v.cap->cj0_f.value, v.cap->vj_v.value, v.cap->m.value, 0.5};
+  std::vector<fitting::PinImpedanceReading> z;
+  std::set<double> currents;
+  bool all_deembedded = true;
+  for (const auto& p : points) {
+    if (p.kind != "forward_vector" || !usable(p)) continue;
+    const double i = std::isfinite(p.i_a) && p.i_a > 0 ? p.i_a : p.set_value;  // the current read, else the one asked for
+    if (!(i > 0)) continue;
+    cplx zp = fitting::slot_impedance_ohm(transfer_of(p), z_load);
+    const auto o = open.find(p.freq_hz);
+    const auto s = shorts.find(p.freq_hz);
+    if (o != open.end() && s != shorts.end()) zp = fitting::deembed_open_short(zp, o->second, s->second);
+    else all_deembedded = false;
+    if (v.package.ok) zp = fitting::chip_impedance_from_packaged(zp, v.package.package, p.freq_hz);
+    double cj_f = 0.0;
+    if (!ctx.pin && cap && ctx.dc) cj_f = fitting::junction_capacitance_f(*cap, fitting::junction_voltage_at_current_v(*ctx.dc, i, ctx.temp_k));
+    z.push_back({i, p.freq_hz, zp, std::isfinite(cj_f) ? cj_f : 0.0});
+    currents.insert(i);
+  }
+  out.readings = z.size();
+  out.currents = currents.size();
+  out.deembedded = all_deembedded && !z.empty();
+  fitting::PinImpedanceFitOptions o;
+  o.temp_k = ctx.temp_k;
+  o.junction_only = !ctx.pin;
+  out.fit = fitting::fit_pin_impedance(z, o);
+  return out;
+}
+
+void add_law(VectorRunFit& out, const std::vector<fitting::PackagedOffReading>& packaged);
+
 }  // namespace
 
-std::optional<VectorRunFit> vector_fit_of_run(const std::vector<PointRow>& points, const RunFixture& fixture) {
+std::optional<VectorRunFit> vector_fit_of_run(const std::vector<PointRow>& points, const RunFixture& fixture, const ForwardContext& context) {
   VectorRunFit out;
   out.z_load_ohm = load_ohm(fixture);
   const auto open = standard(points, "vector_open", out.z_load_ohm);
@@ -72,16 +114,27 @@ std::optional<VectorRunFit> vector_fit_of_run(const std::vector<PointRow>& point
   if (packaged.empty()) return std::nullopt;
   out.deembedded = all_deembedded;
   out.package = fitting::fit_package(packaged);
-  if (!out.package.ok) return out;
+  if (out.package.ok) add_law(out, packaged);
+  // The forward readings after the law (which may replace the level
+  // readings' Cj(V) at forward bias).
+  if (std::any_of(points.begin(), points.end(), [](const PointRow& p) { return p.kind == "forward_vector"; }))
+    out.forward = forward_fit(points, out.z_load_ohm, open, shorts, out, context);
+  return out;
+}
+
+namespace {
+
+// The chip's law with the package removed, its standard errors with the package's.
+void add_law(VectorRunFit& out, const std::vector<fitting::PackagedOffReading>& packaged) {
   out.cap = law_without(packaged, out.package.package);
-  if (!out.cap->ok) return out;
+  if (!out.cap->ok) return;
   // The package's own uncertainty moves the law too: the law fitted again
   // with the package at ± one standard deviation along each principal axis
   // of the (Cp, Ls) covariance (linear propagation, JCGM 100:2008 §5.2),
   // added in quadrature to the law's own standard errors.
   const double s_cp = out.package.cp_f_std_error, s_ls = out.package.ls_h_std_error;
   const double rho = std::isfinite(out.package.ls_cp_correlation) ? out.package.ls_cp_correlation : 0.0;
-  if (!(std::isfinite(s_cp) && std::isfinite(s_ls))) return out;
+  if (!(std::isfinite(s_cp) && std::isfinite(s_ls))) return;
   // Principal axes in units of each standard error: the correlation
   // matrix [[1, ρ], [ρ, 1]] has eigenvalues 1 ± ρ along (1, ±1)/√2.
   double var_cj0 = 0, var_vj = 0, var_m = 0;
@@ -90,7 +143,7 @@ std::optional<VectorRunFit> vector_fit_of_run(const std::vector<PointRow>& point
     const double d_cp = scale * s_cp, d_ls = sign * scale * s_ls;
     const auto hi = law_without(packaged, {out.package.package.ls_h + d_ls, out.package.package.cp_f + d_cp});
     const auto lo = law_without(packaged, {out.package.package.ls_h - d_ls, out.package.package.cp_f - d_cp});
-    if (!hi.ok || !lo.ok) return out;
+    if (!hi.ok || !lo.ok) return;
     const auto half_sq = [](double a, double b) { return 0.25 * (a - b) * (a - b); };
     var_cj0 += half_sq(hi.cj0_f.value, lo.cj0_f.value);
     var_vj += half_sq(hi.vj_v.value, lo.vj_v.value);
@@ -103,7 +156,8 @@ std::optional<VectorRunFit> vector_fit_of_run(const std::vector<PointRow>& point
   add(out.cap->vj_v, var_vj);
   add(out.cap->m, var_m);
   out.package_in_law_errors = true;
-  return out;
 }
+
+}  // namespace
 
 }  // namespace junco::daemon

@@ -83,6 +83,24 @@ struct HeatingReport {
 // package's Ls and Cp with their standard errors, and the chip's Cj(V) law
 // with the package removed. What is stored of the law is the fit alone (no
 // per-reading C), and of the package fit all but readings_used.
+// The on-state impedance's fit from forward_vector readings (detail.package.forward).
+struct ForwardVectorFit {
+  bool pin = false;             // model: the PIN law, else a junction (K = 0)
+  std::size_t readings = 0;     // usable forward_vector readings
+  std::size_t currents = 0;     // distinct bias currents among them
+  bool package_removed = false; // the run's package fit was ok and removed
+  bool deembedded = false;      // every reading had the run's open and short at its frequency
+  PinFit fit;
+  // A junction part: the same quantities from the run's DC fit (RS, N) and
+  // AC fit (TT, detail.stored_charge), set by the caller (NaN: none), and
+  // (vector − fit)/√(u_vector² + u_fit²).
+  struct Compared {
+    Estimate other;
+    double z = std::numeric_limits<double>::quiet_NaN();
+  };
+  std::optional<Compared> rs_ohm, n, tt_s;
+};
+
 struct VectorRunFit {
   PackageFit package;
   bool deembedded = false;  // the run's open and short standards were removed
@@ -93,6 +111,7 @@ struct VectorRunFit {
   // standard errors include the package's (package_in_law_errors).
   std::optional<JunctionCapFit> cap;
   bool package_in_law_errors = false;
+  std::optional<ForwardVectorFit> forward;  // with forward_vector readings
 };
 
 // How a PIN run's AC readings were screened before the law's second fit

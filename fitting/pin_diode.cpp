@@ -106,11 +106,14 @@ double pin_rf_resistance_ohm(const PinLaw& law, double i_a) { return law.r0_ohm 
 
 double pin_knee_freq_hz(double tau_s) { return 1.0 / (2.0 * std::numbers::pi * tau_s); }
 
-std::complex<double> pin_on_impedance(const PinLaw& law, double i_a, double freq_hz, double temp_k) {
+std::complex<double> pin_on_impedance(const PinLaw& law, double i_a, double freq_hz, double temp_k, double cj_f) {
   const double rd = law.n * thermal_voltage_v(temp_k) / i_a;
   const double r_i = law.k_ohm_a_x * std::pow(i_a, -law.x);
-  const std::complex<double> jwt(0.0, 2.0 * std::numbers::pi * freq_hz * law.tau_s);
-  return law.r0_ohm + rd / (1.0 + jwt) + r_i * (1.0 + jwt - law.x) / (1.0 + jwt);
+  const double w = 2.0 * std::numbers::pi * freq_hz;
+  const std::complex<double> jwt(0.0, w * law.tau_s);
+  if (cj_f == 0.0) return law.r0_ohm + rd / (1.0 + jwt) + r_i * (1.0 + jwt - law.x) / (1.0 + jwt);
+  const std::complex<double> y_j = (1.0 + jwt) / rd + std::complex<double>(0.0, w * cj_f);
+  return law.r0_ohm + r_i + (1.0 - law.x * r_i / rd) / y_j;
 }
 
 std::complex<double> pin_off_impedance(double ct_f, double rp_ohm, double freq_hz) {
@@ -223,6 +226,128 @@ PinFit fit_pin_law(std::span<const AcPoint> ac_in, const Fixture& fixture, const
   f.ok = true;
   f.message = lm.converged ? "converged" : "stopped at the iteration limit";
   if (f.above_knee == 0) f.message += "; no reading is above 3x the knee: R0, K and x rest on the knee alone";
+  return f;
+}
+
+PinFit fit_pin_impedance(std::span<const PinImpedanceReading> in, const PinImpedanceFitOptions& o) {
+  PinFit f;
+  std::vector<PinImpedanceReading> z;
+  std::set<double> freqs;
+  for (const auto& r : in)
+    if (r.i_a > 0.0 && r.freq_hz > 0.0 && std::isfinite(r.z_ohm.real()) && std::isfinite(r.z_ohm.imag()) && std::abs(r.z_ohm) > 0.0) {
+      z.push_back(r);
+      freqs.insert(r.freq_hz);
+    }
+  f.points = z.size();
+  f.frequencies = freqs.size();
+  // Free parameters: (N, ln τ, R0) and, for a PIN part, ln(R(1 mA) − R0) and x
+  // (law_of's order); a signal diode's K is 0.
+  const Eigen::Index np = o.junction_only ? 3 : 5;
+  if (freqs.size() < 2) {
+    f.message = "need impedances at 2 or more frequencies to find the knee";
+    return f;
+  }
+  if (2 * z.size() <= static_cast<std::size_t>(np)) {
+    f.message = "need more impedance components than the " + std::to_string(np) + " parameters";
+    return f;
+  }
+  const auto law_from = [&](const Eigen::VectorXd& p) {
+    if (!o.junction_only) return law_of(p);
+    PinLaw law;
+    law.n = p[0];
+    law.tau_s = std::exp(p[1]);
+    law.r0_ohm = p[2];
+    law.k_ohm_a_x = 0.0;
+    law.x = 1.0;
+    return law;
+  };
+  const Residuals residuals = [&](const Eigen::VectorXd& p) {
+    const PinLaw law = law_from(p);
+    Eigen::VectorXd r(static_cast<Eigen::Index>(2 * z.size()));
+    for (std::size_t k = 0; k < z.size(); ++k) {
+      const std::complex<double> d = (pin_on_impedance(law, z[k].i_a, z[k].freq_hz, o.temp_k, z[k].cj_f) - z[k].z_ohm) /
+                                     (std::abs(z[k].z_ohm) * o.sigma_relative);
+      r[static_cast<Eigen::Index>(2 * k)] = d.real();
+      r[static_cast<Eigen::Index>(2 * k + 1)] = d.imag();
+    }
+    return r;
+  };
+  const Project project = [&](Eigen::VectorXd& p) {
+    p[0] = std::clamp(p[0], 0.3, 10.0);
+    p[1] = std::clamp(p[1], std::log(1e-13), std::log(1e-1));
+    p[2] = std::clamp(p[2], 0.0, 1e4);
+    if (o.junction_only) return;
+    p[3] = std::clamp(p[3], std::log(1e-6), std::log(1e7));
+    p[4] = std::clamp(p[4], 0.1, 3.0);
+  };
+  // Start: at the highest frequency the real part is R0 + R_I (far above the
+  // knee): R0 a fraction of the smallest, R(1 mA) from the reading nearest
+  // 1 mA scaled as 1/I; N = 2 (high injection), x = 1; τ from a log grid.
+  const double fmax = *freqs.rbegin();
+  double r_min = std::numeric_limits<double>::infinity(), r_near_1ma = nan, best_dist = std::numeric_limits<double>::infinity();
+  for (const auto& r : z) {
+    if (r.freq_hz != fmax || !(r.z_ohm.real() > 0.0)) continue;
+    r_min = std::min(r_min, r.z_ohm.real());
+    const double d = std::abs(std::log(r.i_a / i_ref_a));
+    if (d < best_dist) best_dist = d, r_near_1ma = r.z_ohm.real() * r.i_a / i_ref_a;
+  }
+  Eigen::VectorXd p(np);
+  p[0] = o.junction_only ? 1.5 : 2.0;
+  p[2] = std::isfinite(r_min) ? 0.5 * r_min : 1.0;
+  if (!o.junction_only) {
+    p[3] = std::log(std::isfinite(r_near_1ma) && r_near_1ma > p[2] ? r_near_1ma - p[2] : 10.0);
+    p[4] = 1.0;
+  }
+  double best_cost = std::numeric_limits<double>::infinity(), best_ln_tau = std::log(1e-6);
+  for (double tau = 1e-11; tau <= 1e-3; tau *= std::sqrt(10.0)) {
+    p[1] = std::log(tau);
+    const double c = residuals(p).squaredNorm();
+    if (c < best_cost) best_cost = c, best_ln_tau = p[1];
+  }
+  p[1] = best_ln_tau;
+  const LmResult lm = levenberg_marquardt(residuals, p, project, o.max_iterations);
+  if (!std::isfinite(lm.cost)) {
+    f.message = "the impedance fit did not find finite residuals";
+    return f;
+  }
+  const double dof = static_cast<double>(2 * z.size()) - static_cast<double>(np);
+  f.reduced_chi2 = lm.cost / dof;
+  const Eigen::MatrixXd jtj = lm.jac.transpose() * lm.jac;
+  const Eigen::MatrixXd cov_p = jtj.ldlt().solve(Eigen::MatrixXd::Identity(np, np)) * f.reduced_chi2;
+  const PinLaw law = law_from(lm.x);
+  // To the reported SI parameters (n, τ, R0, K, x): J = ∂(SI)/∂p.
+  Eigen::MatrixXd t = Eigen::MatrixXd::Zero(5, np);
+  t(0, 0) = 1.0;
+  t(1, 1) = law.tau_s;
+  t(2, 2) = 1.0;
+  if (!o.junction_only) {
+    t(3, 3) = law.k_ohm_a_x;
+    t(3, 4) = law.k_ohm_a_x * std::log(i_ref_a);
+    t(4, 4) = 1.0;
+  }
+  const Eigen::MatrixXd cov = t * cov_p * t.transpose();
+  f.n = {law.n, se_of(cov, 0)};
+  f.tau_s = {law.tau_s, se_of(cov, 1)};
+  f.r0_ohm = {law.r0_ohm, se_of(cov, 2)};
+  f.k_ohm_a_x = {law.k_ohm_a_x, o.junction_only ? nan : se_of(cov, 3)};
+  f.x = {law.x, o.junction_only ? nan : se_of(cov, 4)};
+  if (o.junction_only) {
+    f.r_1ma_ohm = f.r0_ohm;
+  } else {
+    const double e3 = std::exp(lm.x[3]);
+    const double v1 = cov_p(2, 2) + e3 * e3 * cov_p(3, 3) + 2.0 * e3 * cov_p(2, 3);
+    f.r_1ma_ohm = {law.r0_ohm + e3, v1 >= 0.0 ? std::sqrt(v1) : nan};
+  }
+  f.parameter_names = {"n", "tau_s", "r0_ohm", "k_ohm_a_x", "x"};
+  f.covariance.assign(5, std::vector<double>(5, 0.0));
+  for (Eigen::Index a = 0; a < 5; ++a)
+    for (Eigen::Index b = 0; b < 5; ++b) f.covariance[a][b] = cov(a, b);
+  f.knee_freq_hz = pin_knee_freq_hz(law.tau_s);
+  for (const auto& r : z)
+    if (r.freq_hz >= 3.0 * f.knee_freq_hz) ++f.above_knee;
+  f.ok = true;
+  f.message = lm.converged ? "converged" : "stopped at the iteration limit";
+  if (!o.junction_only && f.above_knee == 0) f.message += "; no reading is above 3x the knee: R0, K and x rest on the knee alone";
   return f;
 }
 

@@ -54,8 +54,13 @@ struct PinPart {
 double pin_rf_resistance_ohm(const PinLaw& law, double i_a);
 // The lifetime's corner 1/(2π τ).
 double pin_knee_freq_hz(double tau_s);
-// Z(ω) above, at bias i_a (> 0).
-std::complex<double> pin_on_impedance(const PinLaw& law, double i_a, double freq_hz, double temp_k);
+// Z(ω) above, at bias i_a (> 0). cj_f: a depletion capacitance across the
+// junction (0: left out, as above). With it the junction's admittance is
+// Yj = (1 + jωτ)/rd + jω·Cj and, the I-region's drop moving with the
+// diffusion charge only (q = τ·vj/rd),
+//   Z(ω) = R0 + R_I + (1 − x·R_I/rd)/Yj,
+// which is the form above when Cj = 0 (our derivation, docs/fitting.md).
+std::complex<double> pin_on_impedance(const PinLaw& law, double i_a, double freq_hz, double temp_k, double cj_f = 0.0);
 // CT ∥ Rp.
 std::complex<double> pin_off_impedance(double ct_f, double rp_ohm, double freq_hz);
 // K of an ideal I-region: W²/((µn + µp)·τ) (then x = 1, R0 = 0).
@@ -94,6 +99,31 @@ struct PinFit {
 PinFit fit_pin_law(std::span<const AcPoint> ac, const Fixture& fixture, const PinFitOptions& options);
 
 // Its JSON (detail.pin): formats/report_json.hpp.
+
+// The same law fitted to the chip's own complex impedance at forward bias
+// (vector readings with the fixture and the package removed,
+// daemon/vector_analysis.hpp): the real part above the knee gives R0 + K·I^−x,
+// the knee's frequency and the phase around it give τ, the real part below
+// it rd + R0 + (1 − x)·R_I. Residuals (Z_model − Z)/|Z|, real and imaginary
+// parts, each over sigma_relative; the covariance is scaled by the reduced
+// χ² whatever its size (the vector meter's noise on Z is not known in
+// advance: the readings' own scatter sets the errors, as fit_package does).
+// junction_only: a signal diode (no I-region): K held at 0 and x at 1, so the
+// fit is N, τ (then the transit time TT, the diffusion capacitance TT·gd)
+// and R0 (then RS); k_ohm_a_x and x carry a NaN standard error.
+struct PinImpedanceReading {
+  double i_a = 0.0;      // the bias current (> 0)
+  double freq_hz = 0.0;
+  std::complex<double> z_ohm;  // the chip's impedance
+  double cj_f = 0.0;     // depletion capacitance at this bias, when known (pin_on_impedance)
+};
+struct PinImpedanceFitOptions {
+  double temp_k = 300.15;
+  double sigma_relative = 0.005;  // standard uncertainty of Re Z and Im Z, relative to |Z|
+  bool junction_only = false;
+  int max_iterations = 300;
+};
+PinFit fit_pin_impedance(std::span<const PinImpedanceReading> readings, const PinImpedanceFitOptions& options);
 
 // Off state from off-state readings (any reverse bias past punch-through):
 // CT and Rp fitted to the fixture ratio.

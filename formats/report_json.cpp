@@ -424,6 +424,49 @@ PinReport pin_report_of(const json& j) {
 
 // ---- package from vector readings -------------------------------------------------
 
+namespace {
+json compared_json(const std::optional<ForwardVectorFit::Compared>& c) {
+  if (!c) return nullptr;
+  return {{"fit", estimate_json(c->other)}, {"z", number_or_null(c->z)}};
+}
+
+std::optional<ForwardVectorFit::Compared> compared_of(const json& j, const char* key) {
+  const auto it = j.find(key);
+  if (it == j.end() || it->is_null()) return std::nullopt;
+  require_object(*it);
+  return ForwardVectorFit::Compared{estimate_of(*it, "fit"), number_of(*it, "z")};
+}
+
+json forward_vector_fit_json(const ForwardVectorFit& f) {
+  json j = pin_fit_json(f.fit);
+  j["model"] = f.pin ? "pin" : "junction";
+  j["readings"] = f.readings;
+  j["currents"] = f.currents;
+  j["package_removed"] = f.package_removed;
+  j["deembedded"] = f.deembedded;
+  if (!f.pin) j["against_fit"] = {{"rs_ohm", compared_json(f.rs_ohm)}, {"n", compared_json(f.n)}, {"tt_s", compared_json(f.tt_s)}};
+  return j;
+}
+
+ForwardVectorFit forward_vector_fit_of(const json& j) {
+  require_object(j);
+  ForwardVectorFit f;
+  f.fit = pin_fit_of(j);
+  f.pin = j.value("model", std::string()) == "pin";
+  f.readings = j.value("readings", std::size_t{0});
+  f.currents = j.value("currents", std::size_t{0});
+  f.package_removed = j.value("package_removed", false);
+  f.deembedded = j.value("deembedded", false);
+  if (const auto it = j.find("against_fit"); it != j.end() && !it->is_null()) {
+    require_object(*it);
+    f.rs_ohm = compared_of(*it, "rs_ohm");
+    f.n = compared_of(*it, "n");
+    f.tt_s = compared_of(*it, "tt_s");
+  }
+  return f;
+}
+}  // namespace
+
 json vector_run_fit_json(const VectorRunFit& v) {
   json j{{"ok", v.package.ok},
          {"message", v.package.message},
@@ -437,6 +480,7 @@ json vector_run_fit_json(const VectorRunFit& v) {
          {"z_load_ohm", v.z_load_ohm},
          {"package_in_law_errors", v.package_in_law_errors}};
   j["junction_cap"] = v.cap ? junction_cap_json(*v.cap) : json(nullptr);
+  j["forward"] = v.forward ? forward_vector_fit_json(*v.forward) : json(nullptr);
   return j;
 }
 
@@ -469,6 +513,7 @@ VectorRunFit vector_run_fit_of(const json& j) {
     cap.reduced_chi2 = r.reduced_chi2;
     cap.vj_m_correlation = r.vj_m_correlation;
   }
+  if (const auto it = j.find("forward"); it != j.end() && !it->is_null()) v.forward = forward_vector_fit_of(*it);
   return v;
 }
 

@@ -102,3 +102,27 @@ TEST_CASE("PIN part: 2 Vpp at 10 mA and 100 MHz is hardly distorted; a junction 
   CHECK(pin_thd < 0.01);
   CHECK(junction_thd > 0.05);
 }
+
+TEST_CASE("PIN part: the vector meter's small-signal transfer is the charge-control impedance, R_I above the knee", "[sim]") {
+  // The vector meter's own solve (small_signal_transfer, linearised at the DC
+  // point) against the linearised charge-control impedance of
+  // fitting/pin_diode.hpp and, well above the knee, the published ideal
+  // I-region R = W²/((µn + µp)·τ·I) in series with RS. The depletion
+  // capacitance (0.2 pF) is under 1e-4 of τ·gd at these currents.
+  const PartParams p = pin_part();
+  FixtureConfig fx;  // no package, no slot parasitics
+  const junco::fitting::PinLaw law{2.0, 200e-9, 0.3, 30e-6 * 30e-6 / (0.183 * 200e-9), 1.0};
+  for (double vs : {1.0, 1.5, 3.0}) {
+    const auto dc = solve_dc(fx, &p, BiasSetting{true, vs, 1.0}, 300.15);
+    REQUIRE(dc.i_a > 1e-4);
+    for (double f : {10e3, 300e3, 1e6, 3e6, 100e6}) {
+      const std::complex<double> h = small_signal_transfer(fx, SlotContent::part, &p, dc, 300.15, f);
+      const std::complex<double> z = fx.load_ohm * (1.0 / h - 1.0);  // the slot into RL (inductor return: open at AC)
+      const std::complex<double> want = junco::fitting::pin_on_impedance(law, dc.i_a, f, 300.15);
+      INFO("Vs " << vs << " V, I " << dc.i_a << " A, f " << f << " Hz: sim " << z << ", charge control " << want);
+      CHECK(std::abs(z - want) < 1e-3 * std::abs(want));
+    }
+    const std::complex<double> z_hi = fx.load_ohm * (1.0 / small_signal_transfer(fx, SlotContent::part, &p, dc, 300.15, 1e9) - 1.0);
+    CHECK(z_hi.real() == Approx(0.3 + 30e-6 * 30e-6 / (0.183 * 200e-9 * dc.i_a)).epsilon(1e-3));
+  }
+}

@@ -316,3 +316,50 @@ TEST_CASE("temps_k: every part at every set point, soaks counted, chamber limits
   j["soak"] = {{"settle", 1}};
   CHECK(outcome(j, c) == std::pair{RpcCode::invalid_params, std::string("plan.soak.settle: unknown field")});
 }
+
+TEST_CASE("plan.vector.forward_i_a: forward_vector steps after the sweep, each current within the sweep's limits") {
+  Config c = bench();
+  c.bench["siggen"] = {};
+  c.bench["vectormeter"] = {};
+  Json j = plan();
+  j["reverse_v"] = {1, 2};
+  j["vector"] = {{"freqs_hz", {1e6, 1e8}}, {"amplitude", 0.02}, {"forward_i_a", {1e-3, 1e-2}}};
+  const Plan p = parse_plan(j);
+  REQUIRE_NOTHROW(check_plan(p, c));
+  const auto steps = expand_steps(p);
+  // 11 sweep steps, 2 currents × 2 frequencies, then 2 reverse points with 2 vector readings each.
+  REQUIRE(steps.size() == 11 + 4 + 2 * 3);
+  CHECK(static_cast<double>(steps.size()) == steps_per_part(p));
+  CHECK(steps[11].kind == Step::Kind::forward_vector);
+  CHECK(steps[11].set_value == 1e-3);
+  CHECK(steps[11].freq_hz == 1e6);
+  CHECK(steps[14].set_value == 1e-2);
+  CHECK(steps[14].dc_index == 1);
+  CHECK(steps[15].kind == Step::Kind::reverse);
+  CHECK_FALSE(is_reverse(Step::Kind::forward_vector));
+  CHECK(is_vector(Step::Kind::forward_vector));
+  CHECK(std::string(to_string(Step::Kind::forward_vector)) == "forward_vector");
+  CHECK(to_json(parse_plan(to_json(p))) == to_json(p));
+
+  // Types name the field; limits name the limit and the field.
+  j["vector"]["forward_i_a"] = "1e-3";
+  CHECK(outcome(j, c).second.find("plan.vector.forward_i_a") != std::string::npos);
+  j["vector"]["forward_i_a"] = {1e-3, "x"};
+  CHECK(outcome(j, c).second.find("plan.vector.forward_i_a[1]") != std::string::npos);
+  j["vector"]["forward_i_a"] = {1e-3, 0.2};  // current_limit_a 0.1
+  auto [code, message] = outcome(j, c);
+  CHECK(code == RpcCode::plan_refused);
+  CHECK(message.find("plan.vector.forward_i_a[1] 0.2 A exceeds safety limit current_limit_a = 0.1 A") != std::string::npos);
+  j["vector"]["forward_i_a"] = {-1e-3};
+  CHECK(outcome(j, c).second.find("plan.vector.forward_i_a[0] -0.001 A must be > 0") != std::string::npos);
+  j["vector"]["forward_i_a"] = {0.09};  // 1.5 V × 0.09 A = 0.135 W, max_power_w 0.25: fine; 9 V across 100 Ω: fine
+  CHECK(outcome(j, c).second == "(accepted)");
+  c.safety.max_power_w = 0.1;
+  CHECK(outcome(j, c).second.find("max_power_w") != std::string::npos);
+  c.safety.max_power_w = 0.25;
+  // 0.02 Vpp: 0.01 V peak over source + load 100 Ω = 0.1 mA, not below 0.05 mA.
+  j["vector"]["forward_i_a"] = {0.05e-3, 1e-3};
+  const std::string trough = outcome(j, c).second;
+  CHECK(trough.find("switch off on the signal's troughs") != std::string::npos);
+  CHECK(trough.find("0.0001 A") != std::string::npos);
+}

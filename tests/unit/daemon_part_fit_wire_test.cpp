@@ -88,7 +88,14 @@ const char* const kFullDetail = R"({
    "ls_cp_correlation": -0.42, "rms_relative": 0.0031, "readings": 40, "standards": 8, "deembedded": true, "z_load_ohm": 45.45454545454545,
    "package_in_law_errors": true,
    "junction_cap": {"ok": true, "message": "", "cj0_f": {"value": 9.8e-13, "std_error": 2e-14}, "vj_v": {"value": 0.71, "std_error": 0.03},
-     "m": {"value": 0.45, "std_error": 0.01}, "law_held": false, "points_used": 40, "reduced_chi2": 0.97, "vj_m_correlation": 0.93}}
+     "m": {"value": 0.45, "std_error": 0.01}, "law_held": false, "points_used": 40, "reduced_chi2": 0.97, "vj_m_correlation": 0.93},
+   "forward": {"ok": true, "message": "converged", "n": {"value": 1.849, "std_error": 0.003}, "tau_s": {"value": 4.998e-09, "std_error": 1.4e-11},
+     "r0_ohm": {"value": 0.6946, "std_error": 0.0023}, "k_ohm_a_x": {"value": 0.0, "std_error": null}, "x": {"value": 1.0, "std_error": null},
+     "r_1ma_ohm": {"value": 0.6946, "std_error": 0.0023}, "knee_freq_hz": 31830988.6, "parameter_names": ["n", "tau_s", "r0_ohm"],
+     "covariance": [[9e-06, 0.0, 0.0], [0.0, 1.96e-22, 0.0], [0.0, 0.0, 5.29e-06]], "reduced_chi2": 1.1, "points": 36, "frequencies": 6,
+     "above_knee": 12, "model": "junction", "readings": 36, "currents": 6, "package_removed": true, "deembedded": true,
+     "against_fit": {"rs_ohm": {"fit": {"value": 0.7067, "std_error": 0.0087}, "z": -1.34}, "n": {"fit": {"value": 1.8484, "std_error": 0.0005}, "z": 0.19},
+       "tt_s": null}}}
 })";
 
 const char* const kOlderDetail = R"({
@@ -210,6 +217,10 @@ TEST_CASE("part.fit gives the same bytes for the same stored parts as before the
                              svc->call("part.fit", {{"part_id", part2}}, caller).dump(1) + "\n" +
                              svc->call("part.fit", {{"part_id", part3}}, caller).dump(1) + "\n";
   svc->shutdown();
+  // detail.package.forward (forward vector readings) goes through its typed
+  // reader and writer without losing a key or a digit.
+  CHECK(nlohmann::json::parse(served.substr(0, served.find("\n{")))["package"]["forward"] ==
+        nlohmann::json::parse(kFullDetail)["package"]["forward"]);
 
   const fs::path golden = fs::path(JUNCO_SOURCE_DIR) / "tests/unit/data/part_fit_wire.json";
   if (const char* w = std::getenv("JUNCO_WRITE_GOLDEN"); w && std::string(w) == "1") std::ofstream(golden, std::ios::binary) << served;

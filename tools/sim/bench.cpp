@@ -160,8 +160,13 @@ void Bench::advance(Clock::time_point now) {
       t = target + (t - target) * std::exp(-h / tau);
     }
   }
+  // Without settling (settle_s 0) every reading is the target itself
+  // (read()): nothing to relax, and no period solve until something is read
+  // (it takes up to seconds for a PIN part at 1 GHz, and the vector meter
+  // does not need it).
+  if (config_.settle_s <= 0) return;
   const Readings target = compute_target().readings;
-  const double keep = config_.settle_s > 0 ? std::exp(-dt / config_.settle_s) : 0.0;
+  const double keep = std::exp(-dt / config_.settle_s);
   auto relax = [&](double& obs, double tgt) { obs = tgt + (obs - tgt) * keep; };
   relax(observed_.supply_v, target.supply_v);
   relax(observed_.supply_i_a, target.supply_i_a);
@@ -176,7 +181,9 @@ void Bench::advance(Clock::time_point now) {
 std::optional<std::complex<double>> Bench::vector_transfer(Clock::time_point now) {
   advance(now);
   if (!drive_.on || !(drive_.freq_hz > 0)) return std::nullopt;
-  const DcPoint dc = compute_target().dc;
+  // Linearised at the DC point without the signal (small signal): the DC
+  // solve alone, not the level meter's period solve.
+  const DcPoint dc = solve_dc(config_.fixture, connected_part(), bias_, junction_temp_k());
   SlotContent content = SlotContent::open;
   if (slot_ >= 1 && config_.short_slots.count(slot_)) content = SlotContent::short_link;
   else if (connected_part()) content = SlotContent::part;

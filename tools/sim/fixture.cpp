@@ -295,10 +295,18 @@ std::complex<double> small_signal_transfer(const FixtureConfig& fx, SlotContent 
     const double rs = series_resistance_ohm(*part, temp_k);
     const double is = saturation_current_a(*part, temp_k);
     const double nvt = part->n * fitting::thermal_voltage_v(temp_k);
-    const double vj = dc.v_part_v - dc.i_a * rs;
+    // A PIN part's I-region carries part of the DC drop: the junction sees the rest.
+    const double r_i = part->pin && dc.i_a > 0.0 ? i_region_resistance_ohm(*part, part->tt_s * dc.i_a) : 0.0;
+    const double vj = dc.v_part_v - dc.i_a * (rs + r_i);
     const double gd = is * std::exp(vj / nvt) / nvt;
     const double c = junction_capacitance_f(*part, vj, gd);
-    const cplx z_chip = rs + 1.0 / (gd + j * w * c);
+    const cplx z_j = 1.0 / (gd + j * w * c);
+    // The I-region's drop i·R_I(Q) also moves with the signal's diffusion
+    // charge q = TT·gd·v_j (charge control, the same quasi-static charge as
+    // the period solve's): R_I ∝ 1/Q gives I·dR_I/dQ·q = −R_I·gd·v_j (none
+    // where R_I is capped).
+    const double modulation = r_i > 0.0 && r_i < part->pin_r_max_ohm ? r_i * gd : 0.0;
+    const cplx z_chip = rs + r_i + z_j * (1.0 - modulation);
     const cplx y_pkg = 1.0 / (z_chip + j * w * fx.package_ls_h) + j * w * fx.package_cp_f;
     y_series = 1.0 / (1.0 / y_pkg + j * w * fx.slot_ls_h);
   }

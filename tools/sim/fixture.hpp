@@ -84,7 +84,9 @@ AcResult solve_ac(const FixtureConfig& fx, const PartParams* part, const BiasSet
 enum class SlotContent { part, open, short_link };
 
 // Small-signal transfer ch2/ch1 at freq_hz, linearised at the DC point `dc`
-// (the junction's gd and Cj(V) + TT·gd at temperature), with the package
+// (the junction's gd and Cj(V) + TT·gd at temperature; a PIN part's
+// I-region R_I(τ·Id) in series, modulated by the signal's stored charge:
+// Z_chip = RS + R_I + Z_j·(1 − R_I·gd), Z_j = 1/(gd + jω(Cj + τ·gd))), with the package
 // (Ls in series with the chip, Cp across the leads) and the slot (stray C
 // across it, slot_ls_h in series):
 //   Z_slot = 1/(jω·stray + 1/(jω·slot_ls + Z_packaged)),  H = Z_load/(Z_load + Z_slot),
