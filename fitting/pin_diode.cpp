@@ -100,6 +100,54 @@ PinLaw law_of(const Eigen::VectorXd& p) {
   return law;
 }
 
+// τ's start: the best of a log grid from tau_lo_s to 1 ms (the other
+// parameters held at their starts), written into p[1] = ln τ.
+void start_ln_tau(const Residuals& residuals, Eigen::VectorXd& p, double tau_lo_s) {
+  double best_cost = std::numeric_limits<double>::infinity(), best_ln_tau = std::log(1e-6);
+  for (double tau = tau_lo_s; tau <= 1e-3; tau *= std::sqrt(10.0)) {
+    p[1] = std::log(tau);
+    const double c = residuals(p).squaredNorm();
+    if (c < best_cost) best_cost = c, best_ln_tau = p[1];
+  }
+  p[1] = best_ln_tau;
+}
+
+// The fitted law and its covariance in the reported SI parameters
+// (n, τ, R0, K, x), from the fit parameters p = (N, ln τ, R0, ln(R(1 mA) − R0), x)
+// and their covariance cov_p (3 × 3 when the I-region is absent: K = 0, x = 1
+// held, their errors NaN). J = ∂(SI)/∂p.
+void report_law(PinFit& f, const PinLaw& law, const Eigen::VectorXd& p, const Eigen::MatrixXd& cov_p, bool junction_only) {
+  const Eigen::Index np = p.size();
+  Eigen::MatrixXd t = Eigen::MatrixXd::Zero(5, np);
+  t(0, 0) = 1.0;
+  t(1, 1) = law.tau_s;
+  t(2, 2) = 1.0;
+  if (!junction_only) {
+    t(3, 3) = law.k_ohm_a_x;                      // ∂K/∂ln(R1m − R0)
+    t(3, 4) = law.k_ohm_a_x * std::log(i_ref_a);  // ∂K/∂x at fixed R(1 mA)
+    t(4, 4) = 1.0;
+  }
+  const Eigen::MatrixXd cov = t * cov_p * t.transpose();
+  f.n = {law.n, se_of(cov, 0)};
+  f.tau_s = {law.tau_s, se_of(cov, 1)};
+  f.r0_ohm = {law.r0_ohm, se_of(cov, 2)};
+  f.k_ohm_a_x = {law.k_ohm_a_x, junction_only ? nan : se_of(cov, 3)};
+  f.x = {law.x, junction_only ? nan : se_of(cov, 4)};
+  if (junction_only) {
+    f.r_1ma_ohm = f.r0_ohm;
+  } else {
+    // R(1 mA) = R0 + e^{p3}: var = var(R0) + e^{2 p3} var(p3) + 2 e^{p3} cov(R0, p3).
+    const double e3 = std::exp(p[3]);
+    const double v1 = cov_p(2, 2) + e3 * e3 * cov_p(3, 3) + 2.0 * e3 * cov_p(2, 3);
+    f.r_1ma_ohm = {law.r0_ohm + e3, v1 >= 0.0 ? std::sqrt(v1) : nan};
+  }
+  f.parameter_names = {"n", "tau_s", "r0_ohm", "k_ohm_a_x", "x"};
+  f.covariance.assign(5, std::vector<double>(5, 0.0));
+  for (Eigen::Index a = 0; a < 5; ++a)
+    for (Eigen::Index b = 0; b < 5; ++b) f.covariance[a][b] = cov(a, b);
+  f.knee_freq_hz = pin_knee_freq_hz(law.tau_s);
+}
+
 }  // namespace
 
 double pin_rf_resistance_ohm(const PinLaw& law, double i_a) { return law.r0_ohm + law.k_ohm_a_x * std::pow(i_a, -law.x); }
@@ -181,13 +229,7 @@ PinFit fit_pin_law(std::span<const AcPoint> ac_in, const Fixture& fixture, const
   p[2] = std::isfinite(r_min) ? 0.5 * r_min : 1.0;
   p[3] = std::log(std::isfinite(r_near_1ma) && r_near_1ma > p[2] ? r_near_1ma - p[2] : 10.0);
   p[4] = 1.0;
-  double best_cost = std::numeric_limits<double>::infinity(), best_ln_tau = std::log(1e-6);
-  for (double tau = 1e-9; tau <= 1e-3; tau *= std::sqrt(10.0)) {
-    p[1] = std::log(tau);
-    const double c = residuals(p).squaredNorm();
-    if (c < best_cost) best_cost = c, best_ln_tau = p[1];
-  }
-  p[1] = best_ln_tau;
+  start_ln_tau(residuals, p, 1e-9);
 
   const LmResult lm = levenberg_marquardt(residuals, p, project, o.max_iterations);
   if (!std::isfinite(lm.cost)) {
@@ -197,30 +239,8 @@ PinFit fit_pin_law(std::span<const AcPoint> ac_in, const Fixture& fixture, const
   const double dof = static_cast<double>(ac.size() - np);
   f.reduced_chi2 = lm.cost / dof;
   const Eigen::MatrixXd cov_p = scaled_covariance(lm.jac, f.reduced_chi2);
-  // To the reported SI parameters (n, τ, R0, K, x): J = ∂(SI)/∂p.
   const PinLaw law = law_of(lm.x);
-  Eigen::MatrixXd t = Eigen::MatrixXd::Zero(np, np);
-  t(0, 0) = 1.0;
-  t(1, 1) = law.tau_s;
-  t(2, 2) = 1.0;
-  t(3, 3) = law.k_ohm_a_x;                        // ∂K/∂ln(R1m − R0)
-  t(3, 4) = law.k_ohm_a_x * std::log(i_ref_a);    // ∂K/∂x at fixed R(1 mA)
-  t(4, 4) = 1.0;
-  const Eigen::MatrixXd cov = t * cov_p * t.transpose();
-  f.n = {law.n, se_of(cov, 0)};
-  f.tau_s = {law.tau_s, se_of(cov, 1)};
-  f.r0_ohm = {law.r0_ohm, se_of(cov, 2)};
-  f.k_ohm_a_x = {law.k_ohm_a_x, se_of(cov, 3)};
-  f.x = {law.x, se_of(cov, 4)};
-  // R(1 mA) = R0 + e^{p3}: var = var(R0) + e^{2 p3} var(p3) + 2 e^{p3} cov(R0, p3).
-  const double e3 = std::exp(lm.x[3]);
-  const double v1 = cov_p(2, 2) + e3 * e3 * cov_p(3, 3) + 2.0 * e3 * cov_p(2, 3);
-  f.r_1ma_ohm = {law.r0_ohm + e3, v1 >= 0.0 ? std::sqrt(v1) : nan};
-  f.parameter_names = {"n", "tau_s", "r0_ohm", "k_ohm_a_x", "x"};
-  f.covariance.assign(np, std::vector<double>(np, 0.0));
-  for (Eigen::Index a = 0; a < np; ++a)
-    for (Eigen::Index b = 0; b < np; ++b) f.covariance[a][b] = cov(a, b);
-  f.knee_freq_hz = pin_knee_freq_hz(law.tau_s);
+  report_law(f, law, lm.x, cov_p, false);
   for (const auto& q : ac)
     if (q.freq_hz >= 3.0 * f.knee_freq_hz) ++f.above_knee;
   f.ok = true;
@@ -298,13 +318,7 @@ PinFit fit_pin_impedance(std::span<const PinImpedanceReading> in, const PinImped
     p[3] = std::log(std::isfinite(r_near_1ma) && r_near_1ma > p[2] ? r_near_1ma - p[2] : 10.0);
     p[4] = 1.0;
   }
-  double best_cost = std::numeric_limits<double>::infinity(), best_ln_tau = std::log(1e-6);
-  for (double tau = 1e-11; tau <= 1e-3; tau *= std::sqrt(10.0)) {
-    p[1] = std::log(tau);
-    const double c = residuals(p).squaredNorm();
-    if (c < best_cost) best_cost = c, best_ln_tau = p[1];
-  }
-  p[1] = best_ln_tau;
+  start_ln_tau(residuals, p, 1e-11);
   const LmResult lm = levenberg_marquardt(residuals, p, project, o.max_iterations);
   if (!std::isfinite(lm.cost)) {
     f.message = "the impedance fit did not find finite residuals";
@@ -315,34 +329,7 @@ PinFit fit_pin_impedance(std::span<const PinImpedanceReading> in, const PinImped
   const Eigen::MatrixXd jtj = lm.jac.transpose() * lm.jac;
   const Eigen::MatrixXd cov_p = jtj.ldlt().solve(Eigen::MatrixXd::Identity(np, np)) * f.reduced_chi2;
   const PinLaw law = law_from(lm.x);
-  // To the reported SI parameters (n, τ, R0, K, x): J = ∂(SI)/∂p.
-  Eigen::MatrixXd t = Eigen::MatrixXd::Zero(5, np);
-  t(0, 0) = 1.0;
-  t(1, 1) = law.tau_s;
-  t(2, 2) = 1.0;
-  if (!o.junction_only) {
-    t(3, 3) = law.k_ohm_a_x;
-    t(3, 4) = law.k_ohm_a_x * std::log(i_ref_a);
-    t(4, 4) = 1.0;
-  }
-  const Eigen::MatrixXd cov = t * cov_p * t.transpose();
-  f.n = {law.n, se_of(cov, 0)};
-  f.tau_s = {law.tau_s, se_of(cov, 1)};
-  f.r0_ohm = {law.r0_ohm, se_of(cov, 2)};
-  f.k_ohm_a_x = {law.k_ohm_a_x, o.junction_only ? nan : se_of(cov, 3)};
-  f.x = {law.x, o.junction_only ? nan : se_of(cov, 4)};
-  if (o.junction_only) {
-    f.r_1ma_ohm = f.r0_ohm;
-  } else {
-    const double e3 = std::exp(lm.x[3]);
-    const double v1 = cov_p(2, 2) + e3 * e3 * cov_p(3, 3) + 2.0 * e3 * cov_p(2, 3);
-    f.r_1ma_ohm = {law.r0_ohm + e3, v1 >= 0.0 ? std::sqrt(v1) : nan};
-  }
-  f.parameter_names = {"n", "tau_s", "r0_ohm", "k_ohm_a_x", "x"};
-  f.covariance.assign(5, std::vector<double>(5, 0.0));
-  for (Eigen::Index a = 0; a < 5; ++a)
-    for (Eigen::Index b = 0; b < 5; ++b) f.covariance[a][b] = cov(a, b);
-  f.knee_freq_hz = pin_knee_freq_hz(law.tau_s);
+  report_law(f, law, lm.x, cov_p, o.junction_only);
   for (const auto& r : z)
     if (r.freq_hz >= 3.0 * f.knee_freq_hz) ++f.above_knee;
   f.ok = true;
