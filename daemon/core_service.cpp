@@ -27,6 +27,9 @@
 #include <iostream>
 #include <map>
 #include <memory>
+#include <mutex>
+#include <unordered_map>
+#include <utility>
 
 namespace junco::daemon {
 
@@ -448,7 +451,22 @@ class CoreService final : public Service {
     return with_temperature_law(std::move(fit), part_id);
   }
 
-  Json fit_of(const Json& params, const Caller&) { return to_json(*latest_fit(id_param(params, "part_id"))); }
+  // part.fit is the most asked-for answer (clients poll it during a job):
+  // its JSON is kept with the stored record it was written from and written
+  // again only when the store hands out a new record (a new fit, or a part
+  // with a temperature law, whose record is made per request).
+  Json fit_of(const Json& params, const Caller&) {
+    const Id part_id = id_param(params, "part_id");
+    const auto fit = latest_fit(part_id);
+    {
+      std::lock_guard lock(fit_json_mutex_);
+      if (const auto it = fit_json_.find(part_id); it != fit_json_.end() && it->second.first == fit) return *it->second.second;
+    }
+    auto json = std::make_shared<const Json>(to_json(*fit));
+    std::lock_guard lock(fit_json_mutex_);
+    fit_json_[part_id] = {fit, json};
+    return *json;
+  }
 
   // Each figure with its standard error from the stored fit's covariance
   // (fitting/derived.hpp, delta method).
@@ -552,6 +570,8 @@ class CoreService final : public Service {
   BenchOpener open_bench_;
   SafeStart safe_start_;  // moved into the executor once the store is open
   Store store_;
+  std::mutex fit_json_mutex_;
+  std::unordered_map<Id, std::pair<std::shared_ptr<const FitRecord>, std::shared_ptr<const Json>>> fit_json_;
   LabPublisher lab_;  // after store_: the store has migrated the outbox in
   JobQueue queue_;
   Executor executor_;
