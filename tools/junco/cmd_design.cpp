@@ -143,7 +143,7 @@ void define_calculator(CLI::App& app, const DesignCalculator& c) {
 void define(CLI::App& app) {
   app.description(
       "Calculators for a diode switch, using a fitted part. Each prints the part and every\n"
-      "input it assumed, defaults included. Defaults: Rg = RL = 50 ohm, 10 MHz, no series\n"
+      "input it assumed, defaults included. Defaults: source = load = 50 ohm, 10 MHz, no series\n"
       "inductance, the fit's temperature.\n\n" + std::string(part_text) + values_text);
   app.footer(design_footer);
   // No calculator: run() names them; a word that is none: main's first-word
