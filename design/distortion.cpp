@@ -318,7 +318,8 @@ class ThdCrossing {
 
 // Illinois: regula falsi that halves the stale end's value, so the bracket
 // shrinks from both sides; stop at 1e-4 of I. f(lo) > 0 ≥ f(hi).
-double illinois(ThdCrossing& f, double lo, double f_lo, double hi, double f_hi, double tolerance = 1e-4) {
+template <class Crossing>
+double illinois(Crossing& f, double lo, double f_lo, double hi, double f_hi, double tolerance = 1e-4) {
   int stale = 0;
   for (int k = 0; k < 60 && hi - lo > tolerance; ++k) {
     double x = hi - f_hi * (hi - lo) / (f_hi - f_lo);
@@ -342,7 +343,8 @@ double illinois(ThdCrossing& f, double lo, double f_lo, double hi, double f_hi, 
 // From a guess: secant steps (at most 1.5 in ln I each; the first Newton's
 // when the slope is known) until one moves ln I by less than 1e-3; failing
 // that, to a bracket and Illinois.
-std::optional<double> from_guess(ThdCrossing& f, double guess_a, double slope) {
+template <class Crossing>
+std::optional<double> from_guess(Crossing& f, double guess_a, double slope) {
   double x0 = std::log(guess_a), f0 = f(x0);
   if (!std::isfinite(f0)) return std::nullopt;
   double step = (std::isfinite(slope) && slope < 0) ? -f0 / slope : (f0 > 0 ? 0.02 : -0.02);  // THD falls with bias
@@ -414,43 +416,80 @@ std::optional<BiasForThd> solve_bias_for_thd(DistortionInput in, double target_t
   return done(illinois(f, lo, f_lo, hi, f_hi));
 }
 
+namespace {
+
+// g(x) = ln(THD/target) of the PIN switch at I = e^x, for the shared search
+// (from_guess, illinois above): negative where the target is met. It solves
+// at 128 steps a period (the lifetime's smooth charge: THD within ~1e-4 of
+// the 512-step solve); the answer's harmonics come from one solve at the
+// distortion calculator's 512 (solve_at).
+struct PinThdCrossing {
+  SwitchKind kind;
+  const PinLaw& law;
+  double is_a, target_thd, freq_hz, source_peak_v, source_ohm, load_ohm, temp_k;
+  int solves = 0;
+  double slope = std::numeric_limits<double>::quiet_NaN();  // of the last two solves
+  double prev_x = std::numeric_limits<double>::quiet_NaN(), prev_g = std::numeric_limits<double>::quiet_NaN();
+
+  PinDistortion solve_at(double x, int steps) {
+    ++solves;
+    const double i = std::exp(x);
+    return kind == SwitchKind::series ? pin_series_distortion(law, is_a, i, freq_hz, source_peak_v, source_ohm, load_ohm, temp_k, steps)
+                                      : pin_shunt_distortion(law, is_a, i, freq_hz, source_peak_v, source_ohm, load_ohm, temp_k, steps);
+  }
+  PinDistortion last{};  // the solve of the last operator() call
+  double operator()(double x) {
+    last = solve_at(x, 128);
+    const double g = std::log(std::max(last.thd, 1e-300) / target_thd);
+    if (std::isfinite(g) && std::isfinite(prev_g) && x != prev_x) slope = (g - prev_g) / (x - prev_x);
+    prev_x = x;
+    prev_g = g;
+    return g;
+  }
+};
+
+}  // namespace
+
 std::optional<PinBiasForThd> pin_bias_for_thd(SwitchKind kind, const PinLaw& law, double is_a, double target_thd, double freq_hz,
                                               double source_peak_v, double source_ohm, double load_ohm, double temp_k,
                                               std::string* why, double guess_a, double slope_hint) {
   const double lo_x = std::log(1e-6), hi_x = std::log(1.0);
-  PinBiasForThd out;
-  // g(x) = ln(THD/target) at I = e^x: negative where the target is met.
-  // The search solves at 128 steps a period (the lifetime's smooth charge:
-  // THD within ~1e-4 of the 512-step solve); the answer's harmonics come from
-  // one solve at the distortion calculator's 512.
-  const auto solve_at = [&](double x, int steps) {
-    ++out.solves;
-    const double i = std::exp(x);
-    return kind == SwitchKind::series ? pin_series_distortion(law, is_a, i, freq_hz, source_peak_v, source_ohm, load_ohm, temp_k, steps)
-                                      : pin_shunt_distortion(law, is_a, i, freq_hz, source_peak_v, source_ohm, load_ohm, temp_k, steps);
+  PinThdCrossing f{kind, law, is_a, target_thd, freq_hz, source_peak_v, source_ohm, load_ohm, temp_k};
+  const auto done = [&f](double x) {
+    PinBiasForThd out;
+    out.bias_a = std::exp(x);
+    out.slope = f.slope;
+    out.at = f.solve_at(x, 512);
+    out.solves = f.solves;
+    return out;
   };
-  const auto solve = [&](double x) { return solve_at(x, 128); };
-  const auto g_of = [&](const PinDistortion& d) { return std::log(std::max(d.thd, 1e-300) / target_thd); };
-  // Newton-secant from a neighbouring answer; the full search below when it
-  // does not settle in a few solves.
-  if (std::isfinite(guess_a) && guess_a > 1e-6 && guess_a < 1.0 && std::isfinite(slope_hint) && slope_hint < 0) {
-    double xs = std::log(guess_a), s = slope_hint;
-    PinDistortion ds = solve(xs);
-    double gs = g_of(ds);
+  // From a neighbouring answer (the uncertainty's perturbed runs): Newton on
+  // ln THD against ln I with the answer's slope, steps of at most 0.5, until
+  // one is below 1e-4; the search below when that does not settle in six.
+  // (Not the junction's from_guess: it asks to end on the met side and
+  // brackets wider, which for the PIN's smooth THD costs three times the solves.)
+  if (guess_a > 1e-6 && guess_a < 1.0 && std::isfinite(slope_hint) && slope_hint < 0) {
+    double xs = std::log(guess_a), s = slope_hint, gs = f(xs);
     for (int k = 0; k < 6 && std::isfinite(gs); ++k) {
       const double step = std::clamp(-gs / s, -0.5, 0.5);
       if (std::abs(step) < 1e-4 || std::abs(gs) < 1e-4) {
+        // The 128-step solve at xs stands for the answer (within 1e-4 in ln I):
+        // the perturbed runs need its bias and harmonics, not a 512-step solve.
+        PinBiasForThd out;
         out.bias_a = std::exp(xs + step);
-        out.at = ds;
+        out.at = f.last;
         out.slope = s;
+        out.solves = f.solves;
         return out;
       }
-      const PinDistortion dn = solve(xs + step);
-      const double gn = g_of(dn);
+      const double gn = f(xs + step);
       if (std::isfinite(gn) && (gn - gs) / step < 0) s = (gn - gs) / step;
-      xs += step, gs = gn, ds = dn;
+      xs += step, gs = gn;
     }
   }
+  // Start where the RF charge per half cycle is a tenth of the stored charge
+  // (the charge criterion) and step by the local slope of ln THD on ln I
+  // until the sign changes.
   double x = 0.0;
   if (std::isfinite(guess_a) && guess_a > 0) {
     x = std::log(guess_a);
@@ -459,9 +498,7 @@ std::optional<PinBiasForThd> pin_bias_for_thd(SwitchKind kind, const PinLaw& law
     x = std::log(10.0 * signal_peak_a / (std::numbers::pi * freq_hz) / law.tau_s);
   }
   x = std::clamp(x, lo_x, hi_x);
-  PinDistortion d = solve(x);
-  double g = g_of(d);
-  // Step towards the crossing by the local slope of ln THD on ln I until the sign changes.
+  double g = f(x);
   double slope = -1.0;  // THD ~ 1/I at first (the charge ratio)
   double x_prev = x, g_prev = g;
   for (int k = 0; k < 30 && (g > 0) == (g_prev > 0); ++k) {
@@ -471,45 +508,18 @@ std::optional<PinBiasForThd> pin_bias_for_thd(SwitchKind kind, const PinLaw& law
     if (next == x) break;  // at a bound
     x_prev = x, g_prev = g;
     x = next;
-    d = solve(x);
-    g = g_of(d);
-    if (std::isfinite(g) && std::isfinite(g_prev) && x != x_prev) slope = (g - g_prev) / (x - x_prev);
-    if (x_prev == x) break;
+    g = f(x);
+    if (std::isfinite(g) && std::isfinite(g_prev)) slope = (g - g_prev) / (x - x_prev);
   }
   if (g > 0 && g_prev > 0) {
     if (why)
-      *why = "no bias up to 1 A brings THD to " + std::to_string(100 * target_thd) + " % (at 1 A: " + std::to_string(100 * d.thd) + " %)";
+      *why = "no bias up to 1 A brings THD to " + std::to_string(100 * target_thd) + " % (at 1 A: " +
+             std::to_string(100 * std::exp(g) * target_thd) + " %)";
     return std::nullopt;
   }
-  if (g <= 0 && g_prev <= 0) {  // met already at the least bias searched
-    out.bias_a = std::exp(std::min(x, x_prev));
-    out.at = solve_at(std::min(x, x_prev), 512);
-    return out;
-  }
-  // Bracket [a (met: g <= 0) … b (not met)] in ln I; Illinois secant.
-  double a = g <= 0 ? x : x_prev, ga = g <= 0 ? g : g_prev, b = g <= 0 ? x_prev : x, gb = g <= 0 ? g_prev : g;
-  out.slope = (gb - ga) / (b - a);
-  double ga_true = ga;  // ga and gb are scaled by the Illinois rule; the met side's own g
-  int side = 0;
-  for (int k = 0; k < 60 && std::abs(a - b) > 1e-4 && std::abs(ga_true) > 1e-4; ++k) {
-    double c = (a * gb - b * ga) / (gb - ga);
-    if (!(c > std::min(a, b) && c < std::max(a, b))) c = 0.5 * (a + b);
-    const PinDistortion dc = solve(c);
-    const double gc = g_of(dc);
-    if (std::isfinite(gc) && c != a) out.slope = (gc - ga_true) / (c - a);
-    if (gc <= 0) {
-      a = c, ga = gc, ga_true = gc;
-      if (side == -1) gb *= 0.5;
-      side = -1;
-    } else {
-      b = c, gb = gc;
-      if (side == 1) ga *= 0.5;
-      side = 1;
-    }
-  }
-  out.bias_a = std::exp(a);
-  out.at = solve_at(a, 512);
-  return out;
+  if (g <= 0 && g_prev <= 0) return done(std::min(x, x_prev));  // met already at the least bias searched
+  // Bracket: the side not met (g > 0, less bias) and the side met; Illinois.
+  return g <= 0 ? done(illinois(f, x_prev, g_prev, x, g)) : done(illinois(f, x, g, x_prev, g_prev));
 }
 
 }  // namespace junco::fitting
