@@ -414,6 +414,8 @@ void headroom(Run& r) {
     lifetime_s = pin ? pin->law.tau_s : r.part().tt_s;
     if (pin) lifetime_name = "PIN lifetime tau";
   } else if (r.has("tau_s")) {
+    if (r.has("tt_s"))
+      throw DesignInputError("tau_s", "tau_s and tt_s: give one lifetime, --tt (a junction diode's transit time) or --tau (a PIN part's carrier lifetime)");
     lifetime_s = r.number("tau_s");
     lifetime_name = "lifetime tau";
   } else if (r.has("tt_s")) {

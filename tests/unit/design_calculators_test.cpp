@@ -247,6 +247,8 @@ TEST_CASE("headroom: the DC rule without a frequency or stored charge, the charg
         Approx(6.066288e-3).epsilon(1e-6));
   CHECK(value_of(run_design("headroom", nullptr, {{"amplitude_v", 1.0}, {"freq_hz", 1e3}, {"tt_s", 5e-9}})["result"], "min_bias_a") ==
         Approx(0.02).epsilon(1e-9));
+  // Two lifetimes without a part (--tt and --tau): refused, naming tau_s.
+  CHECK(field_of("headroom", nullptr, {{"amplitude_v", 1.0}, {"freq_hz", 1e8}, {"tt_s", 5e-9}, {"tau_s", 1e-6}}) == "tau_s");
   // The floor adds to the junction current: 6.066288 + 1 mA.
   CHECK(value_of(run_design("headroom", &part, {{"amplitude_v", 1.0}, {"freq_hz", 1e8}, {"floor_a", 1e-3}})["result"], "min_bias_a") ==
         Approx(7.066288e-3).epsilon(1e-6));
