@@ -480,6 +480,14 @@ void harmonics(Run& r, const DistortionResult& d) {
     r.warn("the diode current reverses in the trough while stored charge keeps the junction on (not clipping)");
 }
 
+// The harmonics of a PIN solve (distortion and bias-for-thd report the same lines).
+void pin_harmonics(Run& r, const PinDistortion& d) {
+  r.result("load_peak_v", "load fundamental (peak)", d.load_peak_v, "V");
+  r.result("hd2_dbc", "HD2", d.hd2_dbc, "dBc");
+  r.result("hd3_dbc", "HD3", d.hd3_dbc, "dBc");
+  r.result("thd_pct", "THD", 100 * d.thd, "%");
+}
+
 // A PIN part: the junction solve does not describe it above the knee. What
 // is reported is the charge criterion (docs/references.md §8): the signal's
 // charge per half cycle Î/(π f) against the stored I·τ; well below 1 the
@@ -496,10 +504,7 @@ void pin_distortion(Run& r, const PinPart& pin, const DistortionInput& in) {
   const PinDistortion d = in.kind == SwitchKind::series
                               ? pin_series_distortion(pin.law, in.part.is_a, i, f, in.source_peak_v, in.source_ohm, in.load_ohm, in.temp_k)
                               : pin_shunt_distortion(pin.law, in.part.is_a, i, f, in.source_peak_v, in.source_ohm, in.load_ohm, in.temp_k);
-  r.result("load_peak_v", "load fundamental (peak)", d.load_peak_v, "V");
-  r.result("hd2_dbc", "HD2", d.hd2_dbc, "dBc");
-  r.result("hd3_dbc", "HD3", d.hd3_dbc, "dBc");
-  r.result("thd_pct", "THD", 100 * d.thd, "%");
+  pin_harmonics(r, d);
   if (!d.converged) r.warn("the PIN large-signal solve did not reach a periodic state");
   if (ratio > 0.1) r.warn("the RF charge per half cycle exceeds 0.1 of the stored charge: expect distortion; raise the bias");
 }
@@ -529,10 +534,7 @@ void pin_bias_for_thd_calc(Run& r, const PinPart& pin) {
   r.write_hint({std::numeric_limits<double>::quiet_NaN(), std::numeric_limits<double>::quiet_NaN(), i->slope});
   r.result_text("law", "distortion from", "PIN charge-control solve (R0 + K*(Q/tau)^-x, lifetime tau)");
   r.result("least_bias_a", "least bias", i->bias_a, "A");
-  r.result("load_peak_v", "load fundamental (peak)", i->at.load_peak_v, "V");
-  r.result("hd2_dbc", "HD2", i->at.hd2_dbc, "dBc");
-  r.result("hd3_dbc", "HD3", i->at.hd3_dbc, "dBc");
-  r.result("thd_pct", "THD", 100 * i->at.thd, "%");
+  pin_harmonics(r, i->at);
   r.result("stored_charge_c", "stored charge I*tau", i->bias_a * pin.law.tau_s, "C");
   if (!i->at.converged) r.warn("the PIN large-signal solve did not reach a periodic state at the answer");
 }
