@@ -357,6 +357,29 @@ void check_heating(const Plan& p) {
   }
 }
 
+// A forward current the supply will be asked to hold (a current sweep's
+// highest step, each plan.vector.forward_i_a): within current_limit_a and
+// the plan's compliance, at most max_power_w in the part at vf_max_v, and no
+// more than max_supply_v across the fixture's DC resistance even with no drop
+// across the part. `what` names the value in the message ("sweep stop").
+void check_forward_current(double i, const std::string& what, const std::string& field, const Plan& p, const Config& c) {
+  const SafetyLimits& lim = c.safety;
+  if (i > lim.current_limit_a)
+    refuse(what + " " + num(i) + " A exceeds safety limit current_limit_a = " + num(lim.current_limit_a) + " A", "current_limit_a", field);
+  const double i_lim = compliance_a(p, c);
+  if (i > i_lim) refuse(what + " " + num(i) + " A exceeds the plan's compliance_a = " + num(i_lim) + " A", "", field);
+  const double p_max = p.vf_max_v * i;
+  if (p_max > lim.max_power_w)
+    refuse(what + " " + num(i) + " A may put " + num(p_max) + " W in the part (vf_max_v " + num(p.vf_max_v) + " V × " + num(i) +
+               " A), exceeding safety limit max_power_w = " + num(lim.max_power_w) + " W",
+           "max_power_w", field);
+  const double r_total = c.fixture.bias_resistor_ohm + c.fixture.dc_return_ohm;
+  if (i * r_total > lim.max_supply_v)
+    refuse(what + " " + num(i) + " A needs at least " + num(i * r_total) + " V across " + num(r_total) +
+               " Ω, exceeding safety limit max_supply_v = " + num(lim.max_supply_v) + " V",
+           "max_supply_v", field);
+}
+
 // plan.vector.forward_i_a: every current within the same limits as a
 // current sweep's highest step (compliance, current_limit_a, max_power_w at
 // vf_max_v, max_supply_v across the fixture's DC resistance), and the
@@ -367,24 +390,12 @@ void check_heating(const Plan& p) {
 void check_forward_vector(const Plan& p, const Config& c) {
   const VectorSpec& v = *p.vector;
   if (v.forward_i_a.empty()) return;
-  const SafetyLimits& lim = c.safety;
   if (v.forward_i_a.size() > 100) refuse("plan.vector.forward_i_a lists " + std::to_string(v.forward_i_a.size()) + " currents, at most 100");
-  const double i_lim = compliance_a(p, c), r_total = c.fixture.bias_resistor_ohm + c.fixture.dc_return_ohm;
   for (std::size_t k = 0; k < v.forward_i_a.size(); ++k) {
     const double i = v.forward_i_a[k];
     const std::string field = "plan.vector.forward_i_a[" + std::to_string(k) + "]";
     if (!(i > 0)) refuse(field + " " + num(i) + " A must be > 0 (reverse biases go in reverse_v)", "", field);
-    if (i > lim.current_limit_a)
-      refuse(field + " " + num(i) + " A exceeds safety limit current_limit_a = " + num(lim.current_limit_a) + " A", "current_limit_a", field);
-    if (i > i_lim) refuse(field + " " + num(i) + " A exceeds the plan's compliance_a = " + num(i_lim) + " A", "", field);
-    if (p.vf_max_v * i > lim.max_power_w)
-      refuse(field + " " + num(i) + " A may put " + num(p.vf_max_v * i) + " W in the part (vf_max_v " + num(p.vf_max_v) + " V × " + num(i) +
-                 " A), exceeding safety limit max_power_w = " + num(lim.max_power_w) + " W",
-             "max_power_w", field);
-    if (i * r_total > lim.max_supply_v)
-      refuse(field + " " + num(i) + " A needs at least " + num(i * r_total) + " V across " + num(r_total) + " Ω, exceeding safety limit max_supply_v = " +
-                 num(lim.max_supply_v) + " V",
-             "max_supply_v", field);
+    check_forward_current(i, field, field, p, c);
   }
   const double peak_v = v.unit == drivers::LevelUnit::vrms ? v.amplitude * std::sqrt(2.0) : v.amplitude / 2.0;
   const double signal_a = peak_v / std::max(1.0, c.fixture.source_ohm + c.fixture.load_ohm);
@@ -500,20 +511,7 @@ void check_plan(const Plan& p, const Config& c) {
                  num(i_max) + " A), exceeding safety limit max_power_w = " + num(lim.max_power_w) + " W",
              "max_power_w", hi_field);
   } else {
-    if (hi > lim.current_limit_a)
-      refuse("sweep " + hi_name + " " + num(hi) + " A exceeds safety limit current_limit_a = " + num(lim.current_limit_a) + " A",
-             "current_limit_a", hi_field);
-    if (hi > i_lim) refuse("sweep " + hi_name + " " + num(hi) + " A exceeds the plan's compliance_a = " + num(i_lim) + " A");
-    const double p_max = p.vf_max_v * hi;
-    if (p_max > lim.max_power_w)
-      refuse("sweep " + hi_name + " " + num(hi) + " A may put " + num(p_max) + " W in the part (vf_max_v " + num(p.vf_max_v) +
-                 " V × " + num(hi) + " A), exceeding safety limit max_power_w = " + num(lim.max_power_w) + " W",
-             "max_power_w", hi_field);
-    const double v_needed = hi * r_total;  // even with no drop across the part
-    if (v_needed > lim.max_supply_v)
-      refuse("sweep " + hi_name + " " + num(hi) + " A needs at least " + num(v_needed) + " V across " + num(r_total) +
-                 " Ω, exceeding safety limit max_supply_v = " + num(lim.max_supply_v) + " V",
-             "max_supply_v", hi_field);
+    check_forward_current(hi, "sweep " + hi_name, hi_field, p, c);
   }
   for (double r : p.reverse_v) {
     if (r > lim.max_reverse_v)
